@@ -1,0 +1,145 @@
+// Package steps defines the contract between the workflow engine and the step kinds.
+//
+// A step kind declares its parameters (a schema the engine decodes a block against), turns
+// the decoded values into its own configuration, and runs as a pure function of that
+// configuration, the artifacts of the steps it references and the bytes of the files it
+// names. The engine hashes exactly those inputs into the step key, so nothing else may
+// influence a result: no clock, no environment, no map order, no worker count.
+//
+// This package knows no HCL and no astronomy. Kinds live one per folder below it; the list
+// the command line uses is in steps/kinds.
+package steps
+
+import (
+	"context"
+	"errors"
+	"fmt"
+)
+
+// Kind is one step kind: the block type of the workflow language and the code behind it.
+type Kind interface {
+	// Name is the block type in a workflow file, e.g. "detrend".
+	Name() string
+	// Version is bumped whenever the kind's numerical behaviour or its encoding changes.
+	Version() int
+	// Doc is one sentence shown by `dipline check --kinds`.
+	Doc() string
+	// Params is the schema of the block's attributes.
+	Params() []Param
+	// Random reports whether Run draws random numbers; only such kinds receive a seed,
+	// and only their keys include it.
+	Random() bool
+	// Prepare checks the decoded values and turns them into the kind's own configuration.
+	// An *AttrError points the user at the attribute at fault.
+	Prepare(v Values) (any, error)
+	// Run computes the artifact. It must be a pure function of its arguments.
+	Run(ctx context.Context, cfg any, in Inputs, env Env) (Artifact, error)
+	// Decode reads an artifact back from its canonical encoding.
+	Decode(b []byte) (Artifact, error)
+}
+
+// Artifact is a step's result: science only (no keys, paths, labels or times), with a
+// canonical encoding so that equal science gives equal bytes.
+type Artifact interface {
+	// Encode returns the canonical, versioned encoding.
+	Encode() []byte
+	// Figures lists the numbers that go into the results file and the run summary.
+	Figures() []Figure
+}
+
+// Figure is one reported number with its uncertainty and unit.
+type Figure struct {
+	// Name is a dotted path unique within the artifact, e.g. "signal1.period".
+	Name string
+	// Value is the number itself.
+	Value float64
+	// Sigma is its one-sigma uncertainty, or 0 when it has none.
+	Sigma float64
+	// Unit is the unit of Value and Sigma ("d", "ppm", "" for dimensionless).
+	Unit string
+	// Doc says in a few words what the number is.
+	Doc string
+}
+
+// File is the content of one file a step reads. The engine reads it once, hashes the same
+// bytes it hands over, and gives the name only for messages: steps never open paths.
+type File struct {
+	// Name is the path as written in the workflow, for messages.
+	Name string
+	// Data is the file's content.
+	Data []byte
+}
+
+// Inputs are the resolved references and files of one step, by parameter name.
+type Inputs struct {
+	Refs  map[string][]Artifact
+	Files map[string][]File
+}
+
+// Ref returns the single artifact referenced by the named parameter, or nil.
+func (in Inputs) Ref(name string) Artifact {
+	if r := in.Refs[name]; len(r) > 0 {
+		return r[0]
+	}
+	return nil
+}
+
+// Env is what the engine lends a running step.
+type Env struct {
+	// Seed is the step's own seed, derived from the workflow seed and the step's address.
+	// It is zero for kinds that do not declare randomness.
+	Seed uint64
+	// Pool holds the worker tokens shared by all running steps and their numerical cores.
+	Pool *Pool
+	// Notef records a derived default or other fact worth telling the user; the engine
+	// prints it and keeps it in the step's provenance record.
+	Notef func(format string, args ...any)
+	// Progress reports done out of total units of work; it may be nil.
+	Progress func(done, total int)
+}
+
+// Note calls Notef when it is set.
+func (e Env) Note(format string, args ...any) {
+	if e.Notef != nil {
+		e.Notef(format, args...)
+	}
+}
+
+// AttrError is a configuration mistake in one attribute of a block.
+type AttrError struct {
+	Attr string
+	Msg  string
+}
+
+func (e *AttrError) Error() string { return fmt.Sprintf("%s: %s", e.Attr, e.Msg) }
+
+// Attrf builds an *AttrError.
+func Attrf(attr, format string, args ...any) error {
+	return &AttrError{Attr: attr, Msg: fmt.Sprintf(format, args...)}
+}
+
+// InputError marks a problem with the user's data (a bad row, a truncated file) as opposed
+// to a fault of the program; the command line exits with status 2 on it.
+type InputError struct{ Err error }
+
+func (e *InputError) Error() string { return e.Err.Error() }
+func (e *InputError) Unwrap() error { return e.Err }
+
+// BadInput wraps err as an *InputError.
+func BadInput(err error) error {
+	if err == nil {
+		return nil
+	}
+	return &InputError{Err: err}
+}
+
+// BadInputf formats an *InputError, conventionally "file:row: what is wrong".
+func BadInputf(format string, args ...any) error {
+	return &InputError{Err: fmt.Errorf(format, args...)}
+}
+
+// IsInputError reports whether err is or wraps an *InputError.
+func IsInputError(err error) bool {
+	var ie *InputError
+	return errors.As(err, &ie)
+}
