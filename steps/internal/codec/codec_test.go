@@ -68,7 +68,7 @@ func FuzzReader(f *testing.F) {
 	f.Fuzz(func(t *testing.T, b []byte) {
 		r := NewReader(b, "thing", 1)
 		r.Floats()
-		r.String()
+		_ = r.String()
 		_ = r.Err()
 	})
 }
