@@ -2,6 +2,7 @@ package steps
 
 import (
 	"fmt"
+	"math"
 	"sort"
 
 	"dipline/steps/units"
@@ -145,4 +146,19 @@ func (r Registry) Names() []string {
 	}
 	sort.Strings(n)
 	return n
+}
+
+// canonicalNaN is the one NaN bit pattern hashed and encoded.
+const canonicalNaN = 0x7ff8000000000001
+
+// FloatBits returns the canonical bits of v for keys and encodings: every NaN as one
+// pattern and −0 as +0, so that equal values hash and encode equally.
+func FloatBits(v float64) uint64 {
+	switch {
+	case math.IsNaN(v):
+		return canonicalNaN
+	case v == 0:
+		return 0
+	}
+	return math.Float64bits(v)
 }

@@ -9,12 +9,11 @@ import (
 	"errors"
 	"fmt"
 	"math"
+
+	"dipline/steps"
 )
 
 const magic = "dpl1"
-
-// canonicalNaN is the one NaN bit pattern written.
-const canonicalNaN = 0x7ff8000000000001
 
 // Writer appends values to a buffer.
 type Writer struct{ buf []byte }
@@ -49,16 +48,8 @@ func (w *Writer) Bool(b bool) {
 	}
 }
 
-// FloatBits returns the canonical bits of v: one NaN, and −0 as +0.
-func FloatBits(v float64) uint64 {
-	switch {
-	case math.IsNaN(v):
-		return canonicalNaN
-	case v == 0:
-		return 0
-	}
-	return math.Float64bits(v)
-}
+// FloatBits returns the canonical bits of v (see steps.FloatBits).
+func FloatBits(v float64) uint64 { return steps.FloatBits(v) }
 
 // Float writes v canonically.
 func (w *Writer) Float(v float64) { w.Uint64(FloatBits(v)) }

@@ -1,0 +1,208 @@
+package cache
+
+import (
+	"bufio"
+	"bytes"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"os/exec"
+	"strings"
+	"sync/atomic"
+	"testing"
+	"time"
+)
+
+func TestASecondRunWaitsThenGivesUp(t *testing.T) {
+	s := newStore(t)
+	first, err := LockRun(s.Path(), 0, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer first.Release()
+
+	var calls atomic.Int32
+	var seen string
+	const wait = 300 * time.Millisecond
+	start := time.Now()
+	_, err = LockRun(s.Path(), wait, func(h string) { calls.Add(1); seen = h })
+	elapsed := time.Since(start)
+
+	var busy *BusyError
+	if !errors.As(err, &busy) || !errors.Is(err, ErrBusy) {
+		t.Fatalf("second LockRun: %v, want a BusyError", err)
+	}
+	if calls.Load() != 1 {
+		t.Errorf("onWait called %d times, want once", calls.Load())
+	}
+	if want := fmt.Sprintf("pid %d,", os.Getpid()); !strings.Contains(seen, want) {
+		t.Errorf("onWait got holder %q, want it to name %q", seen, want)
+	}
+	if elapsed < wait {
+		t.Errorf("gave up after %s, before the %s wait", elapsed, wait)
+	}
+	msg := err.Error()
+	for _, part := range []string{s.Path(), "in use by another dipline run", fmt.Sprintf("pid %d", os.Getpid()), "gave up after"} {
+		if !strings.Contains(msg, part) {
+			t.Errorf("message %q lacks %q", msg, part)
+		}
+	}
+	t.Run("a wait of zero gives up without waiting", func(t *testing.T) {
+		start := time.Now()
+		if _, err := LockRun(s.Path(), 0, nil); !errors.Is(err, ErrBusy) {
+			t.Errorf("err = %v", err)
+		}
+		if d := time.Since(start); d >= lockPoll {
+			t.Errorf("took %s", d)
+		}
+	})
+}
+
+func TestASecondRunProceedsOnceTheFirstReleases(t *testing.T) {
+	s := newStore(t)
+	first, err := LockRun(s.Path(), 0, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	go func() {
+		time.Sleep(200 * time.Millisecond)
+		first.Release()
+	}()
+	var calls atomic.Int32
+	second, err := LockRun(s.Path(), time.Minute, func(string) { calls.Add(1) })
+	if err != nil {
+		t.Fatalf("second LockRun after the release: %v", err)
+	}
+	defer second.Release()
+	if calls.Load() != 1 {
+		t.Errorf("onWait called %d times, want once", calls.Load())
+	}
+	if err := second.Release(); err != nil {
+		t.Errorf("Release: %v", err)
+	}
+	if err := second.Release(); err != nil {
+		t.Errorf("a second Release: %v", err)
+	}
+	third, err := LockRun(s.Path(), 0, nil)
+	if err != nil {
+		t.Fatalf("LockRun after both released: %v", err)
+	}
+	third.Release()
+}
+
+func TestReadsAndCommitsWorkWhileARunHoldsTheLock(t *testing.T) {
+	s := newStore(t)
+	e := entry("photometry.survey", []byte("light curve"))
+	mustCommit(t, s, e)
+	if err := s.PutRun(Run{ID: "r1", Started: time.Unix(1e9, 0), Steps: []RunStep{{StepKey: e.Step, ResultKey: e.Result}}}); err != nil {
+		t.Fatal(err)
+	}
+	lock, err := LockRun(s.Path(), 0, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer lock.Release()
+	checkReads(t, s, e)
+}
+
+func checkReads(t *testing.T, s *Store, e Entry) {
+	t.Helper()
+	if rk, ok, err := s.Lookup(e.Step); err != nil || !ok || rk != e.Result {
+		t.Errorf("Lookup: %v %v %v", rk.Short(), ok, err)
+	}
+	if data, err := s.Get(e.Result); err != nil || !bytes.Equal(data, e.Data) {
+		t.Errorf("Get: %q %v", data, err)
+	}
+	if st, err := s.Stats(); err != nil || st.Results != 1 {
+		t.Errorf("Stats: %+v %v", st, err)
+	}
+	if runs, err := s.Runs(); err != nil || len(runs) != 1 {
+		t.Errorf("Runs: %v %v", runs, err)
+	}
+	if rep, err := s.Verify(); err != nil || !rep.OK() {
+		t.Errorf("Verify: %+v %v", rep, err)
+	}
+}
+
+// holdEnv names the store whose run lock TestHelperHoldsRunLock takes when the test binary
+// is started again as a helper process.
+const holdEnv = "DIPLINE_CACHE_TEST_HOLD"
+
+// TestHelperHoldsRunLock is not a test: run as a child process, it holds a run lock until
+// its standard input closes.
+func TestHelperHoldsRunLock(t *testing.T) {
+	path := os.Getenv(holdEnv)
+	if path == "" {
+		t.Skip("helper process only")
+	}
+	lock, err := LockRun(path, 0, nil)
+	if err != nil {
+		fmt.Println("error:", err)
+		os.Exit(1)
+	}
+	fmt.Println("locked")
+	io.Copy(io.Discard, os.Stdin)
+	lock.Release()
+	os.Exit(0)
+}
+
+func TestAnotherProcessHoldingTheLock(t *testing.T) {
+	s := newStore(t)
+	e := entry("photometry.survey", []byte("light curve"))
+	mustCommit(t, s, e)
+	if err := s.PutRun(Run{ID: "r1", Steps: []RunStep{{StepKey: e.Step, ResultKey: e.Result}}}); err != nil {
+		t.Fatal(err)
+	}
+
+	cmd := exec.Command(os.Args[0], "-test.run=^TestHelperHoldsRunLock$")
+	cmd.Env = append(os.Environ(), holdEnv+"="+s.Path())
+	stdin, err := cmd.StdinPipe()
+	if err != nil {
+		t.Fatal(err)
+	}
+	stdout, err := cmd.StdoutPipe()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
+	}
+	defer func() {
+		stdin.Close()
+		cmd.Wait()
+	}()
+	line, err := bufio.NewReader(stdout).ReadString('\n')
+	if err != nil || line != "locked\n" {
+		t.Fatalf("helper said %q, %v", line, err)
+	}
+
+	t.Run("reads work meanwhile", func(t *testing.T) { checkReads(t, s, e) })
+	t.Run("a run waiting for it names the holder's pid", func(t *testing.T) {
+		var seen string
+		_, err := LockRun(s.Path(), 150*time.Millisecond, func(h string) { seen = h })
+		if !errors.Is(err, ErrBusy) {
+			t.Fatalf("err = %v", err)
+		}
+		want := fmt.Sprintf("pid %d,", cmd.Process.Pid)
+		if !strings.Contains(seen, want) || !strings.Contains(err.Error(), want) {
+			t.Errorf("holder %q / error %q do not name %q", seen, err, want)
+		}
+	})
+	t.Run("a prune refuses to start", func(t *testing.T) {
+		if _, err := s.Prune(PrunePolicy{KeepLast: 1}); !errors.Is(err, ErrBusy) {
+			t.Errorf("Prune: %v, want ErrBusy", err)
+		}
+	})
+	t.Run("the lock is free once the process ends", func(t *testing.T) {
+		stdin.Close()
+		if err := cmd.Wait(); err != nil {
+			t.Fatal(err)
+		}
+		l, err := LockRun(s.Path(), 5*time.Second, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		l.Release()
+	})
+}

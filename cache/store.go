@@ -1,0 +1,362 @@
+// Package cache is dipline's content store: it keeps artifacts' bytes by their result key,
+// maps step keys to result keys, and holds provenance records, run records and pins, all in
+// one bbolt file. It verifies a result's SHA-256 on every read, prunes runs nobody pinned,
+// compacts the file, verifies and repairs it, and merges the stores of survey shards.
+//
+// It knows no HCL and no astronomy: provenance records are opaque bytes from the engine,
+// and it never decides what to compute. The main entry point is Open, which returns a Store;
+// the engine calls Lookup and Get before a step and Commit after, and holds a RunLock for
+// the whole run.
+//
+// The Store does not keep bbolt open. Every call opens the file, runs one transaction,
+// copies the values out and closes it again, so read-only commands (statistics, tracing a
+// number) can run while a long run is in progress; bbolt's own file lock only serialises
+// the individual transactions. Whole runs are kept apart by the separate RunLock.
+package cache
+
+import (
+	"bytes"
+	"crypto/sha256"
+	"errors"
+	"fmt"
+	"os"
+	"path/filepath"
+	"time"
+
+	bolt "go.etcd.io/bbolt"
+	berrors "go.etcd.io/bbolt/errors"
+)
+
+// Sentinel errors; the store's errors wrap them, so test with errors.Is.
+var (
+	// ErrMissing: the key, run or pin is not in the store.
+	ErrMissing = errors.New("not in the store")
+	// ErrCorrupt: stored bytes no longer hash to their result key.
+	ErrCorrupt = errors.New("stored bytes fail their checksum")
+	// ErrBusy: another dipline process holds the store (its run lock, or the database
+	// itself for longer than openTimeout).
+	ErrBusy = errors.New("store in use")
+)
+
+// openTimeout is how long one call waits for bbolt's file lock. Other commands hold it only
+// for one transaction (a commit of a few hundred MB with fsync on a slow disk is seconds),
+// so waiting longer than this means something is stuck and the user should be told.
+const openTimeout = 10 * time.Second
+
+// format is stored in the meta bucket; a store written in another layout is refused rather
+// than misread.
+const format = "dipline store 1"
+
+// Bucket names. The values are described beside each.
+var (
+	bucketMeta       = []byte("meta")       // "format" → format
+	bucketSteps      = []byte("steps")      // step key (32 bytes) → result key (32 bytes)
+	bucketResults    = []byte("results")    // result key (32 bytes) → artifact bytes
+	bucketProvenance = []byte("provenance") // step key (32 bytes) → engine's record, opaque
+	bucketRuns       = []byte("runs")       // run id → Run as JSON
+	bucketPins       = []byte("pins")       // run id → note
+
+	keyFormat = []byte("format")
+)
+
+var allBuckets = [][]byte{bucketMeta, bucketSteps, bucketResults, bucketProvenance, bucketRuns, bucketPins}
+
+// Store is a content store in one bbolt file. It holds only the path; it is safe for
+// concurrent use by several goroutines and processes (each call is one bbolt transaction).
+type Store struct {
+	path string
+}
+
+// Open returns the store in the file at path, creating its folder if needed. The database
+// file itself is created by the first write; reading a store that does not exist yet finds
+// nothing rather than failing.
+func Open(path string) (*Store, error) {
+	if path == "" {
+		return nil, errors.New("store path is empty")
+	}
+	if err := os.MkdirAll(filepath.Dir(path), 0o755); err != nil {
+		return nil, fmt.Errorf("cannot make the store's folder: %w", err)
+	}
+	if fi, err := os.Stat(path); err == nil && fi.IsDir() {
+		return nil, fmt.Errorf("store %s is a folder, not a file", path)
+	}
+	return &Store{path: path}, nil
+}
+
+// Path returns the database file's path.
+func (s *Store) Path() string { return s.path }
+
+// Entry is one step's outcome for Commit.
+type Entry struct {
+	Step       StepKey
+	Result     ResultKey // must equal SHA-256 of Data
+	Data       []byte    // the artifact's encoded bytes
+	Provenance []byte    // the engine's record; nil keeps an existing one
+}
+
+// Lookup returns the result key stored for a step key.
+func (s *Store) Lookup(k StepKey) (ResultKey, bool, error) {
+	var r ResultKey
+	var ok bool
+	err := s.view(func(tx *bolt.Tx) error {
+		v := get(tx, bucketSteps, k[:])
+		if v == nil {
+			return nil
+		}
+		if len(v) != len(r) {
+			return fmt.Errorf("step key %s: stored result key has %d bytes: %w", k.Short(), len(v), ErrCorrupt)
+		}
+		copy(r[:], v)
+		ok = true
+		return nil
+	})
+	return r, ok, err
+}
+
+// Get returns a copy of a result's bytes after checking they hash to k. It returns an
+// error wrapping ErrMissing when the result is absent and ErrCorrupt when its bytes fail the
+// check; either way the engine recomputes.
+func (s *Store) Get(k ResultKey) ([]byte, error) {
+	var data []byte
+	err := s.view(func(tx *bolt.Tx) error {
+		if v := get(tx, bucketResults, k[:]); v != nil {
+			data = bytes.Clone(v)
+			if data == nil {
+				data = []byte{}
+			}
+		}
+		return nil
+	})
+	if err != nil {
+		return nil, err
+	}
+	if data == nil {
+		return nil, fmt.Errorf("result %s: %w", k.Short(), ErrMissing)
+	}
+	if got := ResultKeyOf(data); got != k {
+		return nil, fmt.Errorf("result %s: %w (the %d stored bytes hash to %s)", k.Short(), ErrCorrupt, len(data), got.Short())
+	}
+	return data, nil
+}
+
+// Provenance returns a copy of the provenance record stored for a step key.
+func (s *Store) Provenance(k StepKey) ([]byte, bool, error) {
+	var rec []byte
+	err := s.view(func(tx *bolt.Tx) error {
+		if v := get(tx, bucketProvenance, k[:]); v != nil {
+			rec = append([]byte{}, v...)
+		}
+		return nil
+	})
+	return rec, rec != nil, err
+}
+
+// Commit writes entries in one transaction: either all of them are stored or none (a run
+// interrupted mid-way leaves the store as it was before this call). Each entry's data must
+// hash to its result key. A result already stored is written only if its stored bytes fail
+// their checksum, so a damaged entry is repaired by recomputing it.
+func (s *Store) Commit(entries ...Entry) error {
+	for i, e := range entries {
+		if got := ResultKeyOf(e.Data); got != e.Result {
+			return fmt.Errorf("commit entry %d (step key %s): data hash to %s, not to its result key %s",
+				i+1, e.Step.Short(), got.Short(), e.Result.Short())
+		}
+		if int64(len(e.Data)) > bolt.MaxValueSize {
+			return fmt.Errorf("commit entry %d (step key %s): result of %d bytes exceeds the store's limit of %d",
+				i+1, e.Step.Short(), len(e.Data), bolt.MaxValueSize)
+		}
+	}
+	if len(entries) == 0 {
+		return nil
+	}
+	return s.update(func(tx *bolt.Tx) error {
+		steps, results, prov := tx.Bucket(bucketSteps), tx.Bucket(bucketResults), tx.Bucket(bucketProvenance)
+		for _, e := range entries {
+			if old := results.Get(e.Result[:]); old == nil || sha256.Sum256(old) != e.Result {
+				// Put keeps a reference to the value until commit; the caller's slice must
+				// not change underneath it, so store a copy.
+				if err := results.Put(e.Result[:], bytes.Clone(nonNil(e.Data))); err != nil {
+					return err
+				}
+			}
+			if err := steps.Put(e.Step[:], bytes.Clone(e.Result[:])); err != nil {
+				return err
+			}
+			if e.Provenance != nil {
+				if err := prov.Put(e.Step[:], bytes.Clone(e.Provenance)); err != nil {
+					return err
+				}
+			}
+		}
+		return nil
+	})
+}
+
+// Stats are a store's counts and sizes.
+type Stats struct {
+	StepKeys    int   // step key → result key entries
+	Results     int   // distinct results
+	ResultBytes int64 // their bytes
+	Provenance  int   // provenance records
+	Runs        int   // run records
+	Pins        int   // pinned runs
+	FileBytes   int64 // size of the database file (0 if not created yet)
+}
+
+// Stats counts the store's entries.
+func (s *Store) Stats() (Stats, error) {
+	var st Stats
+	err := s.view(func(tx *bolt.Tx) error {
+		st.StepKeys = count(tx, bucketSteps)
+		st.Provenance = count(tx, bucketProvenance)
+		st.Runs = count(tx, bucketRuns)
+		st.Pins = count(tx, bucketPins)
+		if b := tx.Bucket(bucketResults); b != nil {
+			return b.ForEach(func(k, v []byte) error {
+				st.Results++
+				st.ResultBytes += int64(len(v))
+				return nil
+			})
+		}
+		return nil
+	})
+	if err != nil {
+		return Stats{}, err
+	}
+	if fi, err := os.Stat(s.path); err == nil {
+		st.FileBytes = fi.Size()
+	}
+	return st, nil
+}
+
+// view runs fn in a read-only transaction. If the database file does not exist yet (or is
+// being created), fn is not called: the store is empty.
+func (s *Store) view(fn func(tx *bolt.Tx) error) error {
+	db, err := openDB(s.path, true)
+	if err != nil || db == nil {
+		return err
+	}
+	defer db.Close()
+	return db.View(func(tx *bolt.Tx) error {
+		if err := checkFormat(tx, s.path); err != nil {
+			return err
+		}
+		return fn(tx)
+	})
+}
+
+// update runs fn in one read-write transaction, with every bucket present.
+func (s *Store) update(fn func(tx *bolt.Tx) error) error {
+	db, err := openDB(s.path, false)
+	if err != nil {
+		return err
+	}
+	err = db.Update(func(tx *bolt.Tx) error {
+		if err := prepare(tx, s.path); err != nil {
+			return err
+		}
+		return fn(tx)
+	})
+	if cerr := db.Close(); err == nil && cerr != nil {
+		err = fmt.Errorf("store %s: %w", s.path, cerr)
+	}
+	return err
+}
+
+// prepare creates missing buckets and checks (or records) the store's format.
+func prepare(tx *bolt.Tx, path string) error {
+	if err := checkFormat(tx, path); err != nil {
+		return err
+	}
+	for _, name := range allBuckets {
+		if _, err := tx.CreateBucketIfNotExists(name); err != nil {
+			return err
+		}
+	}
+	if tx.Bucket(bucketMeta).Get(keyFormat) == nil {
+		return tx.Bucket(bucketMeta).Put(keyFormat, []byte(format))
+	}
+	return nil
+}
+
+func checkFormat(tx *bolt.Tx, path string) error {
+	if b := tx.Bucket(bucketMeta); b != nil {
+		if v := b.Get(keyFormat); v != nil && string(v) != format {
+			return fmt.Errorf("store %s has format %q; this dipline reads %q", path, clip(string(v)), format)
+		}
+	}
+	return nil
+}
+
+// maxReopen bounds the retries when the file was replaced (by a compaction) between
+// opening it and locking it.
+const maxReopen = 5
+
+// openDB opens the bbolt file. A read-only open returns (nil, nil) when the file does not
+// exist or is still empty (its creator has not written the first pages yet).
+//
+// After bbolt has locked the file, openDB checks that the path still names the same file:
+// Prune compacts into a new file and renames it over the old one, and a process that opened
+// the old file just before must not write into it after the rename.
+func openDB(path string, readOnly bool) (*bolt.DB, error) {
+	for attempt := 0; ; attempt++ {
+		if readOnly {
+			fi, err := os.Stat(path)
+			if errors.Is(err, os.ErrNotExist) || (err == nil && fi.Size() == 0) {
+				return nil, nil
+			}
+		}
+		var f *os.File
+		opts := &bolt.Options{
+			Timeout:  openTimeout,
+			ReadOnly: readOnly,
+			OpenFile: func(name string, flag int, perm os.FileMode) (*os.File, error) {
+				var err error
+				f, err = os.OpenFile(name, flag, perm)
+				return f, err
+			},
+		}
+		db, err := bolt.Open(path, 0o644, opts)
+		if err != nil {
+			if errors.Is(err, berrors.ErrTimeout) {
+				return nil, fmt.Errorf("store %s: another dipline command held it for more than %s: %w", path, openTimeout, ErrBusy)
+			}
+			if readOnly && errors.Is(err, os.ErrNotExist) {
+				return nil, nil
+			}
+			return nil, fmt.Errorf("store %s: %w", path, err)
+		}
+		held, err1 := f.Stat()
+		named, err2 := os.Stat(path)
+		if err1 == nil && err2 == nil && os.SameFile(held, named) {
+			return db, nil
+		}
+		db.Close()
+		if attempt == maxReopen {
+			return nil, fmt.Errorf("store %s: the file keeps being replaced while opening it", path)
+		}
+	}
+}
+
+func get(tx *bolt.Tx, bucket, key []byte) []byte {
+	if b := tx.Bucket(bucket); b != nil {
+		return b.Get(key)
+	}
+	return nil
+}
+
+func count(tx *bolt.Tx, bucket []byte) int {
+	if b := tx.Bucket(bucket); b != nil {
+		return b.Stats().KeyN
+	}
+	return 0
+}
+
+// nonNil returns data, or an empty slice for nil: bbolt stores a nil value as an empty one
+// anyway, but we say so explicitly.
+func nonNil(data []byte) []byte {
+	if data == nil {
+		return []byte{}
+	}
+	return data
+}

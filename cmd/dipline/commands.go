@@ -1,0 +1,391 @@
+package main
+
+import (
+	"flag"
+	"fmt"
+	"os"
+	"runtime"
+	"sort"
+	"strings"
+	"time"
+
+	"dipline/cache"
+	"dipline/steps"
+	"dipline/workflow"
+)
+
+// listFlag collects a repeatable option.
+type listFlag []string
+
+func (l *listFlag) String() string     { return strings.Join(*l, ",") }
+func (l *listFlag) Set(s string) error { *l = append(*l, s); return nil }
+
+func (c *cli) run(args []string) int {
+	fs := flag.NewFlagSet("run", flag.ContinueOnError)
+	workers := fs.Int("workers", runtime.NumCPU(), "worker tokens shared by steps and numerical cores")
+	events := fs.String("events", "", "write one JSON object per step to this file")
+	wait := fs.Duration("wait", 30*time.Second, "how long to wait for another run holding the store")
+	var sets listFlag
+	fs.Var(&sets, "set", "override one attribute for this run: kind.label.attribute=value (repeatable)")
+	pos, ok := c.flags(fs, args)
+	if !ok {
+		return exitBadUser
+	}
+	path, rest := splitWorkflow(pos)
+	if len(rest) > 0 {
+		fmt.Fprintf(c.err, "dipline run: unexpected argument %q\n", rest[0])
+		return exitBadUser
+	}
+	var overrides []workflow.Override
+	for _, s := range sets {
+		o, err := workflow.ParseOverride(s)
+		if err != nil {
+			fmt.Fprintln(c.err, "dipline run:", err)
+			return exitBadUser
+		}
+		overrides = append(overrides, o)
+	}
+	w, ok := c.load(path, overrides)
+	if !ok {
+		return exitBadUser
+	}
+	lock, err := cache.LockRun(w.StorePath, *wait, func(holder string) {
+		fmt.Fprintf(c.err, "waiting up to %s for the store to be free (held by %s) …\n", *wait, holder)
+	})
+	if err != nil {
+		fmt.Fprintln(c.err, "dipline run:", err)
+		return exitFailed
+	}
+	defer lock.Release()
+	store, err := cache.Open(w.StorePath)
+	if err != nil {
+		fmt.Fprintln(c.err, "dipline run:", err)
+		return exitFailed
+	}
+	opt := workflow.Options{Workers: *workers, OnEvent: c.printEvent}
+	if *events != "" {
+		f, err := os.Create(*events)
+		if err != nil {
+			fmt.Fprintln(c.err, "dipline run:", err)
+			return exitFailed
+		}
+		defer f.Close()
+		opt.Events = f
+	}
+	ctx, stop := interruptible()
+	defer stop()
+	t0 := time.Now()
+	rep, err := workflow.Run(ctx, w, store, opt)
+	if err != nil {
+		if errorsIsCanceled(err) {
+			fmt.Fprintln(c.err, "dipline run: stopped; finished steps are stored, the rest will run next time")
+			return exitFailed
+		}
+		fmt.Fprintln(c.err, "dipline run:", err)
+		return exitFor(err)
+	}
+	c.printSummary(w, rep)
+	fmt.Fprintf(c.out, "run %s · %.2f s · results in %s\n", rep.Run.ID, time.Since(t0).Seconds(), rel(rep.ResultsPath))
+	return exitOK
+}
+
+func rel(p string) string {
+	if wd, err := os.Getwd(); err == nil && strings.HasPrefix(p, wd+string(os.PathSeparator)) {
+		return p[len(wd)+1:]
+	}
+	return p
+}
+
+func (c *cli) printEvent(ev workflow.Event) {
+	mark := map[string]string{
+		workflow.StatusComputed: "computed", workflow.StatusReused: "reused  ",
+		workflow.StatusFailed: "FAILED  ", workflow.StatusSkipped: "skipped ",
+	}[ev.Status]
+	key := ""
+	if ev.StepKey != "" {
+		key = ev.StepKey[:12]
+	}
+	if ev.Warning != "" {
+		fmt.Fprintf(c.out, "  !  %s: %s\n", ev.Address, ev.Warning)
+	}
+	fmt.Fprintf(c.out, "  %s  %-28s %7.2f s  %s\n", mark, ev.Address, ev.Seconds, key)
+	if ev.Status == workflow.StatusComputed {
+		for _, n := range ev.Notes {
+			fmt.Fprintf(c.out, "      · %s\n", n)
+		}
+	}
+	if ev.Status == workflow.StatusFailed {
+		fmt.Fprintf(c.out, "      %s\n", ev.Error)
+	}
+}
+
+// printSummary prints the figures of the steps nothing else takes results from: the ends
+// of the workflow's chains.
+func (c *cli) printSummary(w *workflow.Workflow, rep *workflow.Report) {
+	taken := map[string]bool{}
+	for _, s := range w.Steps {
+		for _, d := range s.Deps {
+			taken[d.Addr] = true
+		}
+	}
+	for _, o := range rep.Outcomes {
+		if taken[o.Step.Addr] || o.Artifact == nil {
+			continue
+		}
+		figs := o.Artifact.Figures()
+		if len(figs) == 0 {
+			continue
+		}
+		fmt.Fprintf(c.out, "\n%s (step key %s)\n", o.Step.Addr, o.StepKey.Short())
+		for _, f := range figs {
+			fmt.Fprintf(c.out, "  %-26s %s %s\n", f.Name, workflow.FormatValue(f.Value, f.Sigma), f.Unit)
+		}
+	}
+	fmt.Fprintln(c.out)
+}
+
+func (c *cli) check(args []string) int {
+	fs := flag.NewFlagSet("check", flag.ContinueOnError)
+	pos, ok := c.flags(fs, args)
+	if !ok {
+		return exitBadUser
+	}
+	path, _ := splitWorkflow(pos)
+	w, ok := c.load(path, nil)
+	if !ok {
+		return exitBadUser
+	}
+	fmt.Fprintf(c.out, "%s: %d steps, no mistakes found\n", path, len(w.Steps))
+	for _, s := range w.Order {
+		var deps []string
+		for _, d := range s.Deps {
+			deps = append(deps, d.Addr)
+		}
+		line := "  " + s.Addr
+		if len(deps) > 0 {
+			line += "  ← " + strings.Join(deps, ", ")
+		}
+		fmt.Fprintln(c.out, line)
+	}
+	return exitOK
+}
+
+func (c *cli) openStore(path string) (*workflow.Workflow, *cache.Store, int) {
+	w, ok := c.load(path, nil)
+	if !ok {
+		return nil, nil, exitBadUser
+	}
+	store, err := cache.Open(w.StorePath)
+	if err != nil {
+		fmt.Fprintln(c.err, "dipline:", err)
+		return nil, nil, exitFailed
+	}
+	return w, store, exitOK
+}
+
+func (c *cli) pending(args []string) int {
+	fs := flag.NewFlagSet("pending", flag.ContinueOnError)
+	pos, ok := c.flags(fs, args)
+	if !ok {
+		return exitBadUser
+	}
+	path, _ := splitWorkflow(pos)
+	w, store, code := c.openStore(path)
+	if code != exitOK {
+		return code
+	}
+	verdicts, err := workflow.Pending(w, store)
+	if err != nil {
+		fmt.Fprintln(c.err, "dipline pending:", err)
+		return exitFailed
+	}
+	n := 0
+	for _, v := range verdicts {
+		if v.Reuse {
+			fmt.Fprintf(c.out, "  reuse      %s\n", v.Address)
+			continue
+		}
+		n++
+		fmt.Fprintf(c.out, "  recompute  %s\n", v.Address)
+		for _, r := range v.Reasons {
+			fmt.Fprintf(c.out, "               because %s\n", r)
+		}
+	}
+	if n == 0 {
+		fmt.Fprintln(c.out, "every step's result is stored; a run would compute nothing")
+	}
+	return exitOK
+}
+
+func (c *cli) trace(args []string) int {
+	fs := flag.NewFlagSet("trace", flag.ContinueOnError)
+	runRef := fs.String("run", "latest", "the run to trace in (id, prefix, latest or previous)")
+	pos, ok := c.flags(fs, args)
+	if !ok {
+		return exitBadUser
+	}
+	path, rest := splitWorkflow(pos)
+	if len(rest) != 1 {
+		fmt.Fprintln(c.err, "dipline trace: name one step (kind.label) or one figure (kind.label/name)")
+		return exitBadUser
+	}
+	_, store, code := c.openStore(path)
+	if code != exitOK {
+		return code
+	}
+	t, err := workflow.Trace(store, c.reg, *runRef, rest[0])
+	if err != nil {
+		fmt.Fprintln(c.err, "dipline trace:", err)
+		return exitBadUser
+	}
+	if t.Figure != nil {
+		fmt.Fprintf(c.out, "%s/%s = %s %s   (%s)\n", t.Address, t.Figure.Name,
+			workflow.FormatValue(t.Figure.Value, t.Figure.Sigma), t.Figure.Unit, t.Figure.Doc)
+	}
+	fmt.Fprintf(c.out, "run %s, started %s\n", t.Run.ID, t.Run.Started.Local().Format("2006-01-02 15:04:05"))
+	c.printNode(t.Root, "", map[string]bool{})
+	return exitOK
+}
+
+func (c *cli) printNode(n *workflow.TraceNode, indent string, shown map[string]bool) {
+	p := n.Provenance
+	fmt.Fprintf(c.out, "%s%s  (%s v%d)\n", indent, p.Address, p.Kind, p.Version)
+	in := indent + "    "
+	if shown[p.StepKey] {
+		fmt.Fprintf(c.out, "%sstep key   %s (shown above)\n", in, p.StepKey)
+		return
+	}
+	shown[p.StepKey] = true
+	fmt.Fprintf(c.out, "%sstep key   %s\n", in, p.StepKey)
+	fmt.Fprintf(c.out, "%sresult key %s\n", in, p.ResultKey)
+	fmt.Fprintf(c.out, "%scomputed   %s in %.2f s by dipline %s (revision %s, %s %s)\n", in,
+		p.Started.Local().Format("2006-01-02 15:04:05"), p.Seconds, p.Tool.Version, p.Tool.Revision, p.Tool.Go, p.Tool.Arch)
+	names := make([]string, 0, len(p.Config))
+	for k := range p.Config {
+		names = append(names, k)
+	}
+	sort.Strings(names)
+	for _, k := range names {
+		fmt.Fprintf(c.out, "%s  %s = %s\n", in, k, p.Config[k])
+	}
+	if p.Seed != nil {
+		fmt.Fprintf(c.out, "%s  seed = %d\n", in, *p.Seed)
+	}
+	for _, note := range p.Notes {
+		fmt.Fprintf(c.out, "%s  · %s\n", in, note)
+	}
+	for _, f := range p.Files {
+		fmt.Fprintf(c.out, "%sfile       %s  sha256 %s  (%d bytes)\n", in, f.Path, f.SHA256, f.Bytes)
+	}
+	for _, child := range n.Inputs {
+		c.printNode(child, in, shown)
+	}
+}
+
+func (c *cli) runs(args []string) int {
+	fs := flag.NewFlagSet("runs", flag.ContinueOnError)
+	pos, ok := c.flags(fs, args)
+	if !ok {
+		return exitBadUser
+	}
+	path, _ := splitWorkflow(pos)
+	_, store, code := c.openStore(path)
+	if code != exitOK {
+		return code
+	}
+	runs, err := store.Runs()
+	if err != nil {
+		fmt.Fprintln(c.err, "dipline runs:", err)
+		return exitFailed
+	}
+	pins, err := store.Pins()
+	if err != nil {
+		fmt.Fprintln(c.err, "dipline runs:", err)
+		return exitFailed
+	}
+	for _, r := range runs {
+		counts := map[string]int{}
+		for _, s := range r.Steps {
+			counts[s.Status]++
+		}
+		line := fmt.Sprintf("%s  %s  %d computed, %d reused", r.ID, r.Started.Local().Format("2006-01-02 15:04"),
+			counts[workflow.StatusComputed], counts[workflow.StatusReused])
+		if n := counts[workflow.StatusFailed]; n > 0 {
+			line += fmt.Sprintf(", %d failed", n)
+		}
+		if note, ok := pins[r.ID]; ok {
+			line += "  [pinned: " + note + "]"
+		}
+		for k, v := range r.Overrides {
+			line += fmt.Sprintf("  --set %s=%s", k, v)
+		}
+		fmt.Fprintln(c.out, line)
+	}
+	return exitOK
+}
+
+func (c *cli) pin(args []string) int {
+	fs := flag.NewFlagSet("pin", flag.ContinueOnError)
+	note := fs.String("note", "pinned", "why the run is kept, e.g. the paper it supports")
+	remove := fs.Bool("remove", false, "unpin the run")
+	pos, ok := c.flags(fs, args)
+	if !ok {
+		return exitBadUser
+	}
+	path, rest := splitWorkflow(pos)
+	if len(rest) != 1 {
+		fmt.Fprintln(c.err, "dipline pin: name one run (id, prefix, latest or previous)")
+		return exitBadUser
+	}
+	_, store, code := c.openStore(path)
+	if code != exitOK {
+		return code
+	}
+	run, err := store.FindRun(rest[0])
+	if err != nil {
+		fmt.Fprintln(c.err, "dipline pin:", err)
+		return exitBadUser
+	}
+	if *remove {
+		err = store.Unpin(run.ID)
+	} else {
+		err = store.Pin(run.ID, *note)
+	}
+	if err != nil {
+		fmt.Fprintln(c.err, "dipline pin:", err)
+		return exitFailed
+	}
+	verb := "pinned"
+	if *remove {
+		verb = "unpinned"
+	}
+	fmt.Fprintf(c.out, "%s run %s\n", verb, run.ID)
+	return exitOK
+}
+
+func (c *cli) kinds(args []string) int {
+	for _, name := range c.reg.Names() {
+		k := c.reg[name]
+		fmt.Fprintf(c.out, "%s (version %d): %s\n", name, k.Version(), k.Doc())
+		for _, p := range k.Params() {
+			req := ""
+			switch {
+			case p.Default != nil:
+				req = " [default " + fmt.Sprint(p.Default) + "]"
+			case !p.Optional:
+				req = " [required]"
+			}
+			typ := p.Type.String()
+			if p.Dim != nil {
+				typ += " (" + strings.Join(p.Dim.Names(), ", ") + ")"
+			}
+			if len(p.Kinds) > 0 {
+				typ += " → " + strings.Join(p.Kinds, " or ")
+			}
+			fmt.Fprintf(c.out, "  %-18s %s%s\n      %s\n", p.Name, typ, req, p.Doc)
+		}
+		fmt.Fprintln(c.out)
+	}
+	_ = steps.Number
+	return exitOK
+}

@@ -1,0 +1,152 @@
+// Command dipline runs transit-analysis workflows: it reads a workflow file, recomputes only
+// the steps whose inputs changed, and can trace every number back to the bytes it came from.
+//
+// This file holds the command line only: flags in, calls into workflow and cache, text out.
+package main
+
+import (
+	"context"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"os"
+	"os/signal"
+	"strings"
+	"syscall"
+
+	"github.com/hashicorp/hcl/v2"
+
+	"dipline/steps"
+	"dipline/steps/kinds"
+	"dipline/workflow"
+)
+
+// Exit statuses.
+const (
+	exitOK      = 0
+	exitFailed  = 1 // the program could not finish (a store or file-system fault)
+	exitBadUser = 2 // the workflow, its data or the command line is at fault
+)
+
+const usage = `dipline — transit analyses as one workflow file, recomputed only where inputs change.
+
+Usage:
+  dipline run     [workflow.hcl] [--workers N] [--events FILE] [--wait DURATION] [--set kind.label.attr=value]
+  dipline check   [workflow.hcl]                 validate the workflow without computing
+  dipline pending [workflow.hcl]                 what a run would recompute, and why
+  dipline trace   [workflow.hcl] kind.label[/figure] [--run RUN]
+                                                 the chain from a result down to its input files
+  dipline runs    [workflow.hcl]                 the runs recorded in the store
+  dipline pin     [workflow.hcl] RUN [--note TEXT] [--remove]
+                                                 keep a run (and all it used) safe from pruning
+  dipline store   stats|verify|prune|merge [workflow.hcl] [options]
+  dipline kinds                                  the step kinds and their attributes
+
+The workflow file defaults to analysis.hcl in the current folder.
+`
+
+func main() {
+	os.Exit(realMain(os.Args[1:], os.Stdout, os.Stderr))
+}
+
+func realMain(args []string, stdout, stderr io.Writer) (code int) {
+	defer func() {
+		if p := recover(); p != nil {
+			fmt.Fprintf(stderr, "dipline: internal error (please report it): %v\n", p)
+			code = exitFailed
+		}
+	}()
+	if len(args) == 0 || args[0] == "-h" || args[0] == "--help" || args[0] == "help" {
+		fmt.Fprint(stdout, usage)
+		return exitOK
+	}
+	reg, err := kinds.Registry()
+	if err != nil {
+		fmt.Fprintln(stderr, "dipline:", err)
+		return exitFailed
+	}
+	c := &cli{reg: reg, out: stdout, err: stderr}
+	cmds := map[string]func([]string) int{
+		"run": c.run, "check": c.check, "pending": c.pending, "trace": c.trace, "runs": c.runs,
+		"pin": c.pin, "store": c.storeCmd, "kinds": c.kinds,
+	}
+	f, ok := cmds[args[0]]
+	if !ok {
+		fmt.Fprintf(stderr, "dipline: unknown command %q\n\n%s", args[0], usage)
+		return exitBadUser
+	}
+	return f(args[1:])
+}
+
+type cli struct {
+	reg steps.Registry
+	out io.Writer
+	err io.Writer
+}
+
+// flags parses options placed anywhere among the arguments and returns the positionals.
+func (c *cli) flags(fs *flag.FlagSet, args []string) ([]string, bool) {
+	fs.SetOutput(c.err)
+	var pos []string
+	for {
+		if err := fs.Parse(args); err != nil {
+			return nil, false
+		}
+		args = fs.Args()
+		if len(args) == 0 {
+			return pos, true
+		}
+		pos = append(pos, args[0])
+		args = args[1:]
+	}
+}
+
+// splitWorkflow takes the workflow file from the positionals when one ends in .hcl.
+func splitWorkflow(pos []string) (string, []string) {
+	if len(pos) > 0 && strings.HasSuffix(pos[0], ".hcl") {
+		return pos[0], pos[1:]
+	}
+	return "analysis.hcl", pos
+}
+
+func (c *cli) load(path string, overrides []workflow.Override) (*workflow.Workflow, bool) {
+	w, diags := workflow.LoadWith(path, c.reg, overrides)
+	c.printDiags(diags)
+	return w, w != nil && !diags.HasErrors()
+}
+
+func (c *cli) printDiags(diags hcl.Diagnostics) {
+	for _, d := range diags {
+		sev := "error"
+		if d.Severity == hcl.DiagWarning {
+			sev = "warning"
+		}
+		where := ""
+		if d.Subject != nil {
+			where = fmt.Sprintf("%s:%d,%d-%d: ", d.Subject.Filename, d.Subject.Start.Line, d.Subject.Start.Column, d.Subject.End.Column)
+			if d.Subject.End.Line != d.Subject.Start.Line {
+				where = fmt.Sprintf("%s:%d,%d: ", d.Subject.Filename, d.Subject.Start.Line, d.Subject.Start.Column)
+			}
+		}
+		fmt.Fprintf(c.err, "%s%s: %s", where, sev, d.Summary)
+		if d.Detail != "" {
+			fmt.Fprintf(c.err, "; %s", d.Detail)
+		}
+		fmt.Fprintln(c.err)
+	}
+}
+
+// exitFor picks the exit status for an error from a run.
+func exitFor(err error) int {
+	if steps.IsInputError(err) {
+		return exitBadUser
+	}
+	return exitFailed
+}
+
+func interruptible() (context.Context, context.CancelFunc) {
+	return signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
+}
+
+func errorsIsCanceled(err error) bool { return errors.Is(err, context.Canceled) }

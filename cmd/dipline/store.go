@@ -1,0 +1,92 @@
+package main
+
+import (
+	"flag"
+	"fmt"
+	"time"
+
+	"dipline/cache"
+)
+
+func (c *cli) storeCmd(args []string) int {
+	if len(args) == 0 {
+		fmt.Fprintln(c.err, "dipline store: say stats, verify, prune or merge")
+		return exitBadUser
+	}
+	sub, args := args[0], args[1:]
+	fs := flag.NewFlagSet("store "+sub, flag.ContinueOnError)
+	var (
+		olderThan = fs.Duration("older-than", 0, "prune: drop runs started longer ago than this (e.g. 720h)")
+		keepLast  = fs.Int("keep-last", 0, "prune: keep only the N most recent runs (pinned runs are always kept)")
+		repair    = fs.Bool("repair", false, "verify: delete damaged entries so the next run recomputes them")
+	)
+	pos, ok := c.flags(fs, args)
+	if !ok {
+		return exitBadUser
+	}
+	path, rest := splitWorkflow(pos)
+	_, store, code := c.openStore(path)
+	if code != exitOK {
+		return code
+	}
+	switch sub {
+	case "stats":
+		st, err := store.Stats()
+		if err != nil {
+			fmt.Fprintln(c.err, "dipline store stats:", err)
+			return exitFailed
+		}
+		fmt.Fprintf(c.out, "store %s\n", rel(store.Path()))
+		fmt.Fprintf(c.out, "%+v\n", st)
+	case "verify":
+		rep, err := store.Verify()
+		if err != nil {
+			fmt.Fprintln(c.err, "dipline store verify:", err)
+			return exitFailed
+		}
+		fmt.Fprintf(c.out, "re-hashed %d results (%d bytes)\n", rep.Results, rep.Bytes)
+		for _, k := range rep.Corrupt {
+			fmt.Fprintf(c.out, "  damaged result %s\n", k)
+		}
+		for _, k := range rep.Missing {
+			fmt.Fprintf(c.out, "  step key %s has no stored result\n", k)
+		}
+		if rep.OK() {
+			fmt.Fprintln(c.out, "every result matches its key")
+			return exitOK
+		}
+		if *repair {
+			n, err := store.DropDamaged(rep)
+			if err != nil {
+				fmt.Fprintln(c.err, "dipline store verify:", err)
+				return exitFailed
+			}
+			fmt.Fprintf(c.out, "removed %d damaged entries; the next run recomputes them\n", n)
+			return exitOK
+		}
+		return exitFailed
+	case "prune":
+		rep, err := store.Prune(cache.PrunePolicy{OlderThan: *olderThan, KeepLast: *keepLast, Now: time.Now()})
+		if err != nil {
+			fmt.Fprintln(c.err, "dipline store prune:", err)
+			return exitFailed
+		}
+		fmt.Fprintf(c.out, "dropped %d runs, kept %d; removed %d results (%d bytes); file %d → %d bytes\n",
+			len(rep.Dropped), rep.KeptRuns, rep.Results, rep.ResultBytes, rep.FileBefore, rep.FileAfter)
+	case "merge":
+		if len(rest) != 1 {
+			fmt.Fprintln(c.err, "dipline store merge: name the other store's database file")
+			return exitBadUser
+		}
+		rep, err := store.Merge(rest[0])
+		if err != nil {
+			fmt.Fprintln(c.err, "dipline store merge:", err)
+			return exitFailed
+		}
+		fmt.Fprintf(c.out, "%+v\n", rep)
+	default:
+		fmt.Fprintf(c.err, "dipline store: unknown subcommand %q (stats, verify, prune, merge)\n", sub)
+		return exitBadUser
+	}
+	return exitOK
+}

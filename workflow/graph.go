@@ -1,0 +1,145 @@
+package workflow
+
+import (
+	"fmt"
+	"sort"
+	"strings"
+
+	"github.com/hashicorp/hcl/v2"
+)
+
+func (w *Workflow) addresses() []string {
+	out := make([]string, 0, len(w.Steps))
+	for _, s := range w.Steps {
+		out = append(out, s.Addr)
+	}
+	return out
+}
+
+// resolve checks every reference, records dependencies and orders the steps.
+func (w *Workflow) resolve() hcl.Diagnostics {
+	var diags hcl.Diagnostics
+	for _, s := range w.Steps {
+		params := map[string][]string{}
+		for _, p := range s.Kind.Params() {
+			params[p.Name] = p.Kinds
+		}
+		names := make([]string, 0, len(s.Refs))
+		for n := range s.Refs {
+			names = append(names, n)
+		}
+		sort.Strings(names)
+		seen := map[*Step]bool{}
+		for _, name := range names {
+			r := s.attrRanges[name]
+			for _, addr := range s.Refs[name] {
+				dep := w.byAddr[addr]
+				if dep == nil {
+					kind, label, _ := strings.Cut(addr, ".")
+					detail := fmt.Sprintf("There is no step %s.", addr)
+					var same []string
+					for _, o := range w.Steps {
+						if o.Kind.Name() == kind {
+							same = append(same, o.Label)
+						}
+					}
+					if len(same) > 0 {
+						detail = fmt.Sprintf("There is no %s step named %q.", kind, label) + suggest(label, same)
+					} else {
+						detail += suggest(addr, w.addresses())
+					}
+					diags = append(diags, attrDiag(r, "Unknown step", detail))
+					continue
+				}
+				if kinds := params[name]; len(kinds) > 0 && !contains(kinds, dep.Kind.Name()) {
+					diags = append(diags, attrDiag(r, "Wrong kind of step",
+						fmt.Sprintf("%s takes a %s step; %s is a %s step.", name, strings.Join(kinds, " or "), addr, dep.Kind.Name())))
+					continue
+				}
+				if dep == s {
+					diags = append(diags, attrDiag(r, "Step refers to itself", fmt.Sprintf("%s cannot take its own result.", s.Addr)))
+					continue
+				}
+				if !seen[dep] {
+					seen[dep] = true
+					s.Deps = append(s.Deps, dep)
+				}
+			}
+		}
+	}
+	if diags.HasErrors() {
+		return diags
+	}
+	order, cycle := topoOrder(w.Steps)
+	if cycle != nil {
+		path := make([]string, len(cycle))
+		for i, s := range cycle {
+			path[i] = s.Addr
+		}
+		first := cycle[0]
+		return hcl.Diagnostics{{Severity: hcl.DiagError, Summary: "Steps depend on each other in a cycle",
+			Detail:  strings.Join(path, " → ") + ". A step can only take results of steps that do not need its own.",
+			Subject: first.block.Ptr()}}
+	}
+	w.Order = order
+	return nil
+}
+
+// topoOrder returns the steps so that each comes after its dependencies, keeping file
+// order where the graph allows; or, when there is a cycle, the steps on it (first repeated
+// at the end).
+func topoOrder(list []*Step) (order, cycle []*Step) {
+	const (
+		unseen = iota
+		active
+		done
+	)
+	state := map[*Step]int{}
+	var stack []*Step
+	var visit func(s *Step) bool
+	visit = func(s *Step) bool {
+		switch state[s] {
+		case done:
+			return true
+		case active:
+			for i, t := range stack {
+				if t == s {
+					cycle = append(append([]*Step{}, stack[i:]...), s)
+				}
+			}
+			return false
+		}
+		state[s] = active
+		stack = append(stack, s)
+		for _, d := range s.Deps {
+			if !visit(d) {
+				return false
+			}
+		}
+		stack = stack[:len(stack)-1]
+		state[s] = done
+		order = append(order, s)
+		return true
+	}
+	for _, s := range list {
+		if !visit(s) {
+			return nil, cycle
+		}
+	}
+	return order, nil
+}
+
+// Dependants returns the steps that take s's result, directly or not.
+func (w *Workflow) Dependants(s *Step) []*Step {
+	var out []*Step
+	reach := map[*Step]bool{s: true}
+	for _, t := range w.Order {
+		for _, d := range t.Deps {
+			if reach[d] && !reach[t] {
+				reach[t] = true
+				out = append(out, t)
+			}
+		}
+	}
+	return out
+}

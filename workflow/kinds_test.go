@@ -1,0 +1,181 @@
+package workflow
+
+import (
+	"context"
+	"encoding/binary"
+	"errors"
+	"fmt"
+	"math"
+	"strconv"
+	"strings"
+	"sync"
+
+	"dipline/steps"
+	"dipline/steps/units"
+)
+
+// Toy step kinds that exercise the engine without any astronomy.
+
+// number is the artifact of every toy kind: one float.
+type toyNum float64
+
+func (n toyNum) Encode() []byte {
+	return binary.LittleEndian.AppendUint64([]byte("num1"), steps.FloatBits(float64(n)))
+}
+func (n toyNum) Figures() []steps.Figure {
+	return []steps.Figure{{Name: "value", Value: float64(n), Unit: "", Doc: "the toy number"}}
+}
+
+func decodeNumber(b []byte) (steps.Artifact, error) {
+	if len(b) != 12 || string(b[:4]) != "num1" {
+		return nil, errors.New("not a number artifact")
+	}
+	return toyNum(math.Float64frombits(binary.LittleEndian.Uint64(b[4:]))), nil
+}
+
+// calls counts Run calls per address, so tests can tell computed from reused.
+type callCounter struct {
+	mu sync.Mutex
+	n  map[string]int
+}
+
+var calls = &callCounter{n: map[string]int{}}
+
+func (c *callCounter) add(kind string) {
+	c.mu.Lock()
+	c.n[kind]++
+	c.mu.Unlock()
+}
+
+func (c *callCounter) reset() map[string]int {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	old := c.n
+	c.n = map[string]int{}
+	return old
+}
+
+type toyBase struct{}
+
+func (toyBase) Version() int { return 1 }
+func (toyBase) Random() bool { return false }
+func (toyBase) Decode(b []byte) (steps.Artifact, error) {
+	return decodeNumber(b)
+}
+
+// source sums the numbers in its files (one per line) and multiplies by scale.
+type source struct{ toyBase }
+
+func (source) Name() string { return "source" }
+func (source) Doc() string  { return "sums numbers from files" }
+func (source) Params() []steps.Param {
+	return []steps.Param{
+		{Name: "files", Type: steps.FileList},
+		{Name: "scale", Type: steps.Number, Default: 1.0},
+		{Name: "label", Type: steps.String, Optional: true, Choices: []string{"alpha", "beta"}},
+	}
+}
+func (source) Prepare(v steps.Values) (any, error) {
+	if v.Float("scale") == 0 {
+		return nil, steps.Attrf("scale", "must not be zero")
+	}
+	return v, nil
+}
+func (source) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
+	calls.add("source")
+	sum := 0.0
+	for _, f := range in.Files["files"] {
+		for i, line := range strings.Split(strings.TrimSpace(string(f.Data)), "\n") {
+			x, err := strconv.ParseFloat(strings.TrimSpace(line), 64)
+			if err != nil {
+				return nil, steps.BadInputf("%s:%d: %q is not a number", f.Name, i+1, line)
+			}
+			sum += x
+		}
+	}
+	return toyNum(sum * cfg.(steps.Values).Float("scale")), nil
+}
+
+// combine adds its inputs and an offset given as a time.
+type combine struct{ toyBase }
+
+func (combine) Name() string { return "combine" }
+func (combine) Doc() string  { return "adds inputs" }
+func (combine) Params() []steps.Param {
+	return []steps.Param{
+		{Name: "inputs", Type: steps.RefList, Kinds: []string{"source", "combine", "floor", "noisy"}},
+		{Name: "offset", Type: steps.Quantity, Dim: units.Time, Default: 0.0},
+		{Name: "window", Type: steps.QuantityRange, Dim: units.Time, Optional: true},
+	}
+}
+func (combine) Prepare(v steps.Values) (any, error) { return v, nil }
+func (combine) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
+	calls.add("combine")
+	sum := cfg.(steps.Values).Float("offset")
+	for _, a := range in.Refs["inputs"] {
+		sum += float64(a.(toyNum))
+	}
+	return toyNum(sum), nil
+}
+
+// floor rounds its input down, so different inputs can give an equal result.
+type floor struct{ toyBase }
+
+func (floor) Name() string { return "floor" }
+func (floor) Doc() string  { return "rounds down" }
+func (floor) Params() []steps.Param {
+	return []steps.Param{{Name: "input", Type: steps.Ref, Kinds: []string{"source", "combine"}}}
+}
+func (floor) Prepare(v steps.Values) (any, error) { return v, nil }
+func (floor) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
+	calls.add("floor")
+	return toyNum(math.Floor(float64(in.Ref("input").(toyNum)))), nil
+}
+
+// noisy adds a number drawn from its seed.
+type noisy struct{ toyBase }
+
+func (noisy) Name() string { return "noisy" }
+func (noisy) Doc() string  { return "adds seeded noise" }
+func (noisy) Random() bool { return true }
+func (noisy) Params() []steps.Param {
+	return []steps.Param{{Name: "input", Type: steps.Ref}}
+}
+func (noisy) Prepare(v steps.Values) (any, error) { return v, nil }
+func (noisy) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
+	calls.add("noisy")
+	return toyNum(float64(in.Ref("input").(toyNum)) + float64(env.Seed%1000)/1000), nil
+}
+
+// trouble fails, panics, or waits for cancellation, as told.
+type trouble struct{ toyBase }
+
+func (trouble) Name() string { return "trouble" }
+func (trouble) Doc() string  { return "misbehaves" }
+func (trouble) Params() []steps.Param {
+	return []steps.Param{
+		{Name: "mode", Type: steps.String, Choices: []string{"fail", "panic", "block"}},
+		{Name: "after", Type: steps.RefList, Optional: true},
+	}
+}
+func (trouble) Prepare(v steps.Values) (any, error) { return v, nil }
+func (trouble) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
+	calls.add("trouble")
+	switch cfg.(steps.Values).Str("mode") {
+	case "fail":
+		return nil, fmt.Errorf("told to fail")
+	case "panic":
+		var m map[string]int
+		m["x"] = 1 // a deliberate nil-map panic
+	}
+	<-ctx.Done()
+	return nil, ctx.Err()
+}
+
+func toyRegistry() steps.Registry {
+	r, err := steps.NewRegistry(source{}, combine{}, floor{}, noisy{}, trouble{})
+	if err != nil {
+		panic(err)
+	}
+	return r
+}

@@ -1,0 +1,267 @@
+// Package workflow turns a workflow file into a graph of steps and runs it.
+//
+// Load parses and validates a file against the registered step kinds and reports every
+// mistake as an hcl.Diagnostic with its file:line:col. Run walks the graph: it derives each
+// step's key from its decoded configuration, the result keys of the steps it references and
+// the digests of the files it reads, reuses a stored result when the key is known, and
+// otherwise runs the step on the shared token pool and commits the result with its
+// provenance. Pending says, without computing, what a run would recompute and why; Trace
+// follows a result back to the bytes it came from.
+//
+// The package knows no astronomy: step kinds come from a steps.Registry, results are bytes
+// for the cache package.
+package workflow
+
+import (
+	"crypto/sha256"
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"strings"
+
+	"github.com/hashicorp/hcl/v2"
+	"github.com/hashicorp/hcl/v2/hclparse"
+	"github.com/hashicorp/hcl/v2/hclsyntax"
+	"github.com/zclconf/go-cty/cty"
+
+	"dipline/steps"
+)
+
+// settingsBlock is the block type of the analysis-wide settings.
+const settingsBlock = "analysis"
+
+// Default locations, relative to the workflow file's folder.
+const (
+	defaultStore  = ".dipline/store.db"
+	defaultOutput = "results"
+)
+
+// Workflow is a loaded and validated workflow file.
+type Workflow struct {
+	// Path is the file as given on the command line; Dir its absolute folder.
+	Path string
+	Dir  string
+	// Name is the analysis block's label.
+	Name string
+	// Seed is the workflow seed every random stream derives from.
+	Seed uint64
+	// StorePath and OutputDir are absolute.
+	StorePath string
+	OutputDir string
+	// Steps are in file order; Order is a topological order of them.
+	Steps []*Step
+	Order []*Step
+	// Digest is the SHA-256 of the file's bytes.
+	Digest [32]byte
+
+	// Overrides are the command-line settings that replaced attributes.
+	Overrides []Override
+
+	byAddr    map[string]*Step
+	files     map[string]*hcl.File
+	overrides map[string]*override
+}
+
+// Step is one step block.
+type Step struct {
+	Kind  steps.Kind
+	Label string
+	// Addr is "kind.label", the step's address.
+	Addr   string
+	Values steps.Values
+	Config any
+	// Deps are the referenced steps, each once, in the order first referenced.
+	Deps []*Step
+	// Refs maps a parameter to the addresses it references.
+	Refs map[string][]string
+	// Files maps a parameter to the files it reads.
+	Files map[string][]*FileInput
+
+	block      hcl.Range
+	attrRanges map[string]hcl.Range
+}
+
+// FileInput is one file a step reads: read once at load, hashed, and handed over as bytes.
+type FileInput struct {
+	// Path is the path as written in the workflow.
+	Path   string
+	Data   []byte
+	Digest [32]byte
+}
+
+// Step returns the step at an address, or nil.
+func (w *Workflow) Step(addr string) *Step { return w.byAddr[addr] }
+
+// Files returns the parsed files, for printing diagnostics with source snippets.
+func (w *Workflow) Files() map[string]*hcl.File { return w.files }
+
+// Load reads, parses and validates a workflow file. The returned diagnostics may hold
+// warnings alongside a usable workflow; on errors the workflow is nil.
+func Load(path string, reg steps.Registry) (*Workflow, hcl.Diagnostics) {
+	return load(path, reg, nil)
+}
+
+func load(path string, reg steps.Registry, overrides []Override) (*Workflow, hcl.Diagnostics) {
+	src, err := os.ReadFile(path)
+	if err != nil {
+		return nil, hcl.Diagnostics{{Severity: hcl.DiagError, Summary: "Cannot read workflow",
+			Detail: err.Error()}}
+	}
+	parser := hclparse.NewParser()
+	f, diags := parser.ParseHCL(src, path)
+	if diags.HasErrors() {
+		return nil, diags
+	}
+	dir, err := filepath.Abs(filepath.Dir(path))
+	if err != nil {
+		return nil, hcl.Diagnostics{{Severity: hcl.DiagError, Summary: "Cannot resolve folder", Detail: err.Error()}}
+	}
+	w := &Workflow{Path: path, Dir: dir, Digest: sha256.Sum256(src), byAddr: map[string]*Step{},
+		files: parser.Files(), StorePath: filepath.Join(dir, defaultStore), OutputDir: filepath.Join(dir, defaultOutput)}
+	if d := w.parseOverrides(overrides); d.HasErrors() {
+		return nil, d
+	}
+
+	schema := &hcl.BodySchema{Blocks: []hcl.BlockHeaderSchema{{Type: settingsBlock, LabelNames: []string{"name"}}}}
+	for _, name := range reg.Names() {
+		schema.Blocks = append(schema.Blocks, hcl.BlockHeaderSchema{Type: name, LabelNames: []string{"label"}})
+	}
+	content, d := f.Body.Content(schema)
+	diags = append(diags, d...)
+
+	sawSettings := false
+	for _, b := range content.Blocks {
+		if b.Type == settingsBlock {
+			if sawSettings {
+				diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "Duplicate analysis block",
+					Detail: "A workflow has one analysis block.", Subject: b.DefRange.Ptr()})
+				continue
+			}
+			sawSettings = true
+			diags = append(diags, w.decodeSettings(b)...)
+			continue
+		}
+		s := &Step{Kind: reg[b.Type], Label: b.Labels[0], Addr: b.Type + "." + b.Labels[0], block: b.DefRange,
+			Refs: map[string][]string{}, Files: map[string][]*FileInput{}, attrRanges: map[string]hcl.Range{}}
+		if !hclsyntax.ValidIdentifier(s.Label) {
+			diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "Invalid step label",
+				Detail:  fmt.Sprintf("%q cannot be referenced as %s.<label>: use letters, digits, '_' and '-', starting with a letter.", s.Label, b.Type),
+				Subject: b.LabelRanges[0].Ptr()})
+			continue
+		}
+		if prev := w.byAddr[s.Addr]; prev != nil {
+			diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "Duplicate step",
+				Detail: fmt.Sprintf("There is already a step %s at %s.", s.Addr, prev.block), Subject: b.DefRange.Ptr()})
+			continue
+		}
+		diags = append(diags, w.decodeStep(s, b.Body)...)
+		w.Steps = append(w.Steps, s)
+		w.byAddr[s.Addr] = s
+	}
+	if !sawSettings {
+		diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "Missing analysis block",
+			Detail:  `A workflow starts with an analysis block naming it and its seed, e.g. analysis "my-star" { seed = 1 }.`,
+			Subject: &hcl.Range{Filename: path, Start: hcl.InitialPos, End: hcl.InitialPos}})
+	}
+	if diags.HasErrors() {
+		return nil, diags
+	}
+	diags = append(diags, w.checkOverridesUsed()...)
+	if diags.HasErrors() {
+		return nil, diags
+	}
+	diags = append(diags, w.resolve()...)
+	if diags.HasErrors() {
+		return nil, diags
+	}
+	return w, diags
+}
+
+func (w *Workflow) decodeSettings(b *hcl.Block) hcl.Diagnostics {
+	w.Name = b.Labels[0]
+	content, diags := b.Body.Content(&hcl.BodySchema{Attributes: []hcl.AttributeSchema{
+		{Name: "seed", Required: true}, {Name: "store"}, {Name: "output"},
+	}})
+	if a := content.Attributes["seed"]; a != nil {
+		v, d := a.Expr.Value(nil)
+		diags = append(diags, d...)
+		if !d.HasErrors() {
+			f, ok := number(v)
+			if !ok || f != math.Trunc(f) || f < 0 || f > 1<<53 {
+				diags = append(diags, attrDiag(a.Expr.Range(), "Invalid seed", "The seed is a whole number from 0 to 2^53."))
+			} else {
+				w.Seed = uint64(f)
+			}
+		}
+	}
+	for name, dst := range map[string]*string{"store": &w.StorePath, "output": &w.OutputDir} {
+		a := content.Attributes[name]
+		if a == nil {
+			continue
+		}
+		v, d := a.Expr.Value(nil)
+		diags = append(diags, d...)
+		if d.HasErrors() {
+			continue
+		}
+		s, ok := str(v)
+		if !ok || s == "" {
+			diags = append(diags, attrDiag(a.Expr.Range(), "Invalid path", "Give a path as a string, relative to the workflow's folder."))
+			continue
+		}
+		*dst = filepath.Join(w.Dir, s)
+		if filepath.IsAbs(s) {
+			*dst = s
+		}
+	}
+	return diags
+}
+
+func number(v cty.Value) (float64, bool) {
+	if v.IsNull() || !v.IsKnown() {
+		return 0, false
+	}
+	if v.Type() != cty.Number {
+		return 0, false
+	}
+	f, _ := v.AsBigFloat().Float64()
+	return f, true
+}
+
+func str(v cty.Value) (string, bool) {
+	if v.IsNull() || !v.IsKnown() || v.Type() != cty.String {
+		return "", false
+	}
+	return v.AsString(), true
+}
+
+func attrDiag(r hcl.Range, summary, detail string) *hcl.Diagnostic {
+	return &hcl.Diagnostic{Severity: hcl.DiagError, Summary: summary, Detail: detail, Subject: r.Ptr()}
+}
+
+// readFile reads a file a step names, which must stay inside the workflow's folder.
+func (w *Workflow) readFile(p string, r hcl.Range) (*FileInput, *hcl.Diagnostic) {
+	if filepath.IsAbs(p) {
+		return nil, attrDiag(r, "File outside the workflow", fmt.Sprintf("%q is an absolute path; name data files relative to the workflow's folder, so a collaborator's copy reads the same files.", p))
+	}
+	full := filepath.Join(w.Dir, p)
+	rel, err := filepath.Rel(w.Dir, full)
+	if err != nil || rel == ".." || strings.HasPrefix(rel, ".."+string(filepath.Separator)) {
+		return nil, attrDiag(r, "File outside the workflow", fmt.Sprintf("%q leaves the workflow's folder; keep data files inside it.", p))
+	}
+	data, err := os.ReadFile(full)
+	if err != nil {
+		detail := err.Error()
+		if os.IsNotExist(err) {
+			detail = fmt.Sprintf("There is no file %q (looked in %s).", p, w.Dir)
+		}
+		return nil, attrDiag(r, "Missing file", detail)
+	}
+	return &FileInput{Path: p, Data: data, Digest: sha256.Sum256(data)}, nil
+}
+
+// LoadWith is Load with command-line overrides applied to step attributes.
+func LoadWith(path string, reg steps.Registry, overrides []Override) (*Workflow, hcl.Diagnostics) {
+	return load(path, reg, overrides)
+}

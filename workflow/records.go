@@ -1,0 +1,171 @@
+package workflow
+
+import (
+	"encoding/hex"
+	"encoding/json"
+	"os"
+	"path/filepath"
+	"runtime"
+	"runtime/debug"
+	"sync"
+	"time"
+
+	"dipline/steps"
+)
+
+// Provenance is stored beside each computed result, under its step key: everything that
+// went into the result and what made it. Artifacts never hold any of this.
+type Provenance struct {
+	Address   string            `json:"address"`
+	Kind      string            `json:"kind"`
+	Version   int               `json:"version"`
+	StepKey   string            `json:"step_key"`
+	ResultKey string            `json:"result_key"`
+	Config    map[string]string `json:"config"`
+	Inputs    []InputRecord     `json:"inputs,omitempty"`
+	Files     []FileRecord      `json:"files,omitempty"`
+	Seed      *uint64           `json:"seed,omitempty"`
+	Notes     []string          `json:"notes,omitempty"`
+	Tool      Tool              `json:"tool"`
+	Started   time.Time         `json:"started"`
+	Seconds   float64           `json:"seconds"`
+}
+
+// InputRecord is one referenced step's keys at the time of computation.
+type InputRecord struct {
+	Param     string `json:"param"`
+	Address   string `json:"address"`
+	StepKey   string `json:"step_key"`
+	ResultKey string `json:"result_key"`
+}
+
+// FileRecord is one file read, by the path written in the workflow and its SHA-256.
+type FileRecord struct {
+	Param  string `json:"param"`
+	Path   string `json:"path"`
+	SHA256 string `json:"sha256"`
+	Bytes  int    `json:"bytes"`
+}
+
+// Tool names the program that computed a result.
+type Tool struct {
+	Version  string `json:"version"`
+	Revision string `json:"revision"`
+	Go       string `json:"go"`
+	Arch     string `json:"arch"`
+}
+
+var toolOnce = sync.OnceValue(func() Tool {
+	t := Tool{Version: "unknown", Revision: "unknown (built without version-control data)",
+		Go: runtime.Version(), Arch: runtime.GOOS + "/" + runtime.GOARCH}
+	if bi, ok := debug.ReadBuildInfo(); ok {
+		if bi.Main.Version != "" {
+			t.Version = bi.Main.Version
+		}
+		modified := false
+		for _, s := range bi.Settings {
+			switch s.Key {
+			case "vcs.revision":
+				t.Revision = s.Value
+			case "vcs.modified":
+				modified = s.Value == "true"
+			}
+		}
+		if modified {
+			t.Revision += " (with uncommitted changes)"
+		}
+	}
+	return t
+})
+
+// ToolInfo describes this build of dipline.
+func ToolInfo() Tool { return toolOnce() }
+
+// ResultsFile is the documented results file a run writes to the output folder: every
+// reported number with the step and step key it came from. See DEVELOPERS.md, "The
+// results file".
+type ResultsFile struct {
+	Schema   string        `json:"schema"`
+	Analysis string        `json:"analysis"`
+	Workflow string        `json:"workflow"`
+	Run      string        `json:"run"`
+	Steps    []StepResults `json:"steps"`
+}
+
+// StepResults lists one step's numbers.
+type StepResults struct {
+	Address   string        `json:"address"`
+	Kind      string        `json:"kind"`
+	StepKey   string        `json:"step_key"`
+	ResultKey string        `json:"result_key"`
+	Figures   []FigureEntry `json:"figures"`
+}
+
+// FigureEntry is one number with the step key beside it.
+type FigureEntry struct {
+	Name    string   `json:"name"`
+	Value   *float64 `json:"value"`
+	Sigma   *float64 `json:"sigma,omitempty"`
+	Unit    string   `json:"unit,omitempty"`
+	Doc     string   `json:"doc,omitempty"`
+	StepKey string   `json:"step_key"`
+}
+
+// resultsSchema names the results file's format.
+const resultsSchema = "dipline-results/1"
+
+func figureEntries(figs []steps.Figure, stepKey string) []FigureEntry {
+	out := make([]FigureEntry, 0, len(figs))
+	for _, f := range figs {
+		e := FigureEntry{Name: f.Name, Unit: f.Unit, Doc: f.Doc, StepKey: stepKey}
+		if finite(f.Value) { // JSON has no NaN; a missing value is null
+			v := f.Value
+			e.Value = &v
+		}
+		if f.Sigma != 0 && finite(f.Sigma) {
+			s := f.Sigma
+			e.Sigma = &s
+		}
+		out = append(out, e)
+	}
+	return out
+}
+
+func finite(f float64) bool { return f-f == 0 }
+
+// writeAtomic writes data to path through a temporary file and a rename, so a reader
+// never sees half a file.
+func writeAtomic(path string, data []byte) error {
+	if err := os.MkdirAll(filepath.Dir(path), 0o755); err != nil {
+		return err
+	}
+	tmp, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".*")
+	if err != nil {
+		return err
+	}
+	if _, err := tmp.Write(data); err != nil {
+		tmp.Close()
+		os.Remove(tmp.Name())
+		return err
+	}
+	if err := tmp.Sync(); err != nil {
+		tmp.Close()
+		os.Remove(tmp.Name())
+		return err
+	}
+	if err := tmp.Close(); err != nil {
+		os.Remove(tmp.Name())
+		return err
+	}
+	return os.Rename(tmp.Name(), path)
+}
+
+func marshal(v any) []byte {
+	b, err := json.MarshalIndent(v, "", "  ")
+	if err != nil {
+		panic(err) // only our own plain structs are marshalled here
+	}
+	return append(b, '\n')
+}
+
+func hexKey(k [32]byte) string { return hex.EncodeToString(k[:]) }

@@ -1,0 +1,366 @@
+package workflow
+
+import (
+	"context"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io"
+	"path/filepath"
+	"runtime"
+	"sort"
+	"sync"
+	"time"
+
+	"dipline/cache"
+	"dipline/steps"
+)
+
+// The statuses a step ends a run with.
+const (
+	StatusComputed = "computed" // ran and stored its result
+	StatusReused   = "reused"   // its step key was known; the stored result was used
+	StatusFailed   = "failed"   // it returned an error
+	StatusSkipped  = "skipped"  // it did not run because an upstream step failed or the run was stopped
+)
+
+// Options tune a run; none of them can change a result.
+type Options struct {
+	// Workers is the size of the token pool shared by steps and numerical cores
+	// (default: the number of CPUs).
+	Workers int
+	// OnEvent is called as each step ends, from the step's goroutine, one call at a time.
+	OnEvent func(Event)
+	// Events, when set, receives one JSON object per line per step.
+	Events io.Writer
+	// Now gives the time for run and provenance records (default time.Now).
+	Now func() time.Time
+}
+
+// Event is one step's outcome in a run.
+type Event struct {
+	Address   string  `json:"address"`
+	Kind      string  `json:"kind"`
+	Status    string  `json:"status"`
+	StepKey   string  `json:"step_key"`
+	ResultKey string  `json:"result_key,omitempty"`
+	Seconds   float64 `json:"seconds"`
+	// Notes are derived defaults and other facts the step reported (recorded in its
+	// provenance; repeated from there when the step is reused).
+	Notes []string `json:"notes,omitempty"`
+	// Warning says what went wrong with a stored result that had to be recomputed.
+	Warning string `json:"warning,omitempty"`
+	Error   string `json:"error,omitempty"`
+}
+
+// Outcome is what a run produced for one step.
+type Outcome struct {
+	Step      *Step
+	Status    string
+	StepKey   cache.StepKey
+	ResultKey cache.ResultKey
+	Artifact  steps.Artifact
+	Seconds   float64
+	Err       error
+}
+
+// Report is the outcome of a whole run.
+type Report struct {
+	Run      cache.Run
+	Outcomes []*Outcome // in the workflow's order
+	// ResultsPath is the results file written, or "" when the run failed.
+	ResultsPath string
+}
+
+// Run computes or reuses every step of w, storing each computed result at once (so an
+// interrupted run keeps its finished work), then writes the run record and the results
+// file. The first failure cancels the steps still running; steps not yet started are
+// skipped. The caller holds the store's run lock.
+func Run(ctx context.Context, w *Workflow, store *cache.Store, opt Options) (*Report, error) {
+	if opt.Workers <= 0 {
+		opt.Workers = runtime.NumCPU()
+	}
+	if opt.Now == nil {
+		opt.Now = time.Now
+	}
+	ctx, cancel := context.WithCancelCause(ctx)
+	defer cancel(nil)
+	pool := steps.NewPool(opt.Workers)
+	started := opt.Now()
+
+	r := &runner{w: w, store: store, pool: pool, opt: opt, done: map[*Step]chan struct{}{},
+		out: map[*Step]*Outcome{}}
+	for _, s := range w.Order {
+		r.done[s] = make(chan struct{})
+		r.out[s] = &Outcome{Step: s}
+	}
+	var wg sync.WaitGroup
+	for _, s := range w.Order {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			defer close(r.done[s])
+			r.step(ctx, cancel, s)
+		}()
+	}
+	wg.Wait()
+
+	rep := &Report{}
+	run := cache.Run{ID: cache.NewRunID(started), Started: started.UTC(), Workflow: hexKey(w.Digest), File: w.Path}
+	if len(w.Overrides) > 0 {
+		run.Overrides = map[string]string{}
+		for _, o := range w.Overrides {
+			run.Overrides[o.Addr+"."+o.Attr] = o.Value
+		}
+	}
+	var firstErr error
+	for _, s := range w.Steps {
+		o := r.out[s]
+		rep.Outcomes = append(rep.Outcomes, o)
+		run.Steps = append(run.Steps, cache.RunStep{Address: s.Addr, Kind: s.Kind.Name(), StepKey: o.StepKey,
+			ResultKey: o.ResultKey, Status: o.Status, Seconds: o.Seconds})
+		if o.Err != nil && firstErr == nil && o.Status == StatusFailed {
+			firstErr = fmt.Errorf("%s: %w", s.Addr, o.Err)
+		}
+	}
+	if firstErr == nil {
+		if cause := context.Cause(ctx); cause != nil && !errors.Is(cause, context.Canceled) {
+			firstErr = cause
+		} else if ctx.Err() != nil {
+			firstErr = ctx.Err()
+		}
+	}
+	rep.Run = run
+	if err := store.PutRun(run); err != nil && firstErr == nil {
+		firstErr = fmt.Errorf("writing the run record: %w", err)
+	}
+	if firstErr != nil {
+		return rep, firstErr
+	}
+	path := filepath.Join(w.OutputDir, "results.json")
+	if err := writeAtomic(path, marshal(resultsOf(w, run.ID, rep.Outcomes))); err != nil {
+		return rep, fmt.Errorf("writing the results file: %w", err)
+	}
+	rep.ResultsPath = path
+	return rep, nil
+}
+
+func resultsOf(w *Workflow, runID string, outcomes []*Outcome) ResultsFile {
+	rf := ResultsFile{Schema: resultsSchema, Analysis: w.Name, Workflow: w.Path, Run: runID}
+	for _, o := range outcomes {
+		if o.Artifact == nil {
+			continue
+		}
+		sk := o.StepKey.String()
+		rf.Steps = append(rf.Steps, StepResults{Address: o.Step.Addr, Kind: o.Step.Kind.Name(), StepKey: sk,
+			ResultKey: o.ResultKey.String(), Figures: figureEntries(o.Artifact.Figures(), sk)})
+	}
+	return rf
+}
+
+type runner struct {
+	w     *Workflow
+	store *cache.Store
+	pool  *steps.Pool
+	opt   Options
+	done  map[*Step]chan struct{}
+	out   map[*Step]*Outcome
+
+	evMu sync.Mutex
+}
+
+func (r *runner) emit(o *Outcome, notes []string, warning string) {
+	ev := Event{Address: o.Step.Addr, Kind: o.Step.Kind.Name(), Status: o.Status, Seconds: o.Seconds,
+		Notes: notes, Warning: warning}
+	if !o.StepKey.IsZero() {
+		ev.StepKey = o.StepKey.String()
+	}
+	if !o.ResultKey.IsZero() {
+		ev.ResultKey = o.ResultKey.String()
+	}
+	if o.Err != nil {
+		ev.Error = o.Err.Error()
+	}
+	r.evMu.Lock()
+	defer r.evMu.Unlock()
+	if r.opt.Events != nil {
+		b, _ := json.Marshal(ev)
+		r.opt.Events.Write(append(b, '\n'))
+	}
+	if r.opt.OnEvent != nil {
+		r.opt.OnEvent(ev)
+	}
+}
+
+func (r *runner) step(ctx context.Context, cancel context.CancelCauseFunc, s *Step) {
+	o := r.out[s]
+	// Wait for the upstream steps; any of them failing or the run ending skips this one.
+	upstream := map[string]cache.ResultKey{}
+	for _, d := range s.Deps {
+		<-r.done[d]
+		do := r.out[d]
+		if do.Artifact == nil {
+			o.Status = StatusSkipped
+			o.Err = fmt.Errorf("%s did not give a result", d.Addr)
+			r.emit(o, nil, "")
+			return
+		}
+		upstream[d.Addr] = do.ResultKey
+	}
+	if ctx.Err() != nil {
+		o.Status = StatusSkipped
+		o.Err = ctx.Err()
+		r.emit(o, nil, "")
+		return
+	}
+	key, err := r.w.StepKey(s, upstream)
+	if err != nil {
+		r.fail(cancel, o, err)
+		return
+	}
+	o.StepKey = key
+
+	// Reuse a stored result when the key is known and its bytes check out.
+	warning := ""
+	if rk, ok, err := r.store.Lookup(key); err != nil {
+		r.fail(cancel, o, err)
+		return
+	} else if ok {
+		data, err := r.store.Get(rk)
+		switch {
+		case err == nil:
+			art, derr := s.Kind.Decode(data)
+			if derr == nil {
+				o.Status, o.ResultKey, o.Artifact = StatusReused, rk, art
+				r.emit(o, r.storedNotes(key), "")
+				return
+			}
+			warning = fmt.Sprintf("the stored result %s could not be read (%v); computing it again", rk.Short(), derr)
+		case errors.Is(err, cache.ErrCorrupt):
+			warning = fmt.Sprintf("the stored result %s failed its checksum; computing it again", rk.Short())
+		case errors.Is(err, cache.ErrMissing):
+			warning = fmt.Sprintf("the stored result %s is missing; computing it again", rk.Short())
+		default:
+			r.fail(cancel, o, err)
+			return
+		}
+	}
+
+	in := steps.Inputs{Refs: map[string][]steps.Artifact{}, Files: map[string][]steps.File{}}
+	for name, addrs := range s.Refs {
+		for _, a := range addrs {
+			in.Refs[name] = append(in.Refs[name], r.out[r.w.byAddr[a]].Artifact)
+		}
+	}
+	for name, files := range s.Files {
+		for _, f := range files {
+			in.Files[name] = append(in.Files[name], steps.File{Name: f.Path, Data: f.Data})
+		}
+	}
+	var (
+		notes   []string
+		notesMu sync.Mutex
+	)
+	env := steps.Env{Pool: r.pool, Notef: func(format string, args ...any) {
+		notesMu.Lock()
+		notes = append(notes, fmt.Sprintf(format, args...))
+		notesMu.Unlock()
+	}}
+	if s.Kind.Random() {
+		env.Seed = r.w.StepSeed(s)
+	}
+	if err := r.pool.Acquire(ctx); err != nil {
+		o.Status, o.Err = StatusSkipped, err
+		r.emit(o, nil, warning)
+		return
+	}
+	began := r.opt.Now()
+	t0 := time.Now()
+	art, err := runGuarded(ctx, s, in, env)
+	o.Seconds = time.Since(t0).Seconds()
+	r.pool.Release(1)
+	if err != nil {
+		r.fail(cancel, o, err)
+		return
+	}
+	data := art.Encode()
+	rk := cache.ResultKeyOf(data)
+	prov := r.provenance(s, key, rk, upstream, env, notes, began, o.Seconds)
+	if err := r.store.Commit(cache.Entry{Step: key, Result: rk, Data: data, Provenance: marshal(prov)}); err != nil {
+		r.fail(cancel, o, fmt.Errorf("storing the result: %w", err))
+		return
+	}
+	o.Status, o.ResultKey, o.Artifact = StatusComputed, rk, art
+	r.emit(o, notes, warning)
+}
+
+// runGuarded runs a step, turning a panic into an error so that no panic reaches the user.
+func runGuarded(ctx context.Context, s *Step, in steps.Inputs, env steps.Env) (art steps.Artifact, err error) {
+	defer func() {
+		if p := recover(); p != nil {
+			err = fmt.Errorf("internal error (please report it): %v", p)
+		}
+	}()
+	art, err = s.Kind.Run(ctx, s.Config, in, env)
+	if err == nil && art == nil {
+		err = errors.New("the step gave no result")
+	}
+	if err == nil && ctx.Err() != nil {
+		err = ctx.Err()
+	}
+	return art, err
+}
+
+func (r *runner) fail(cancel context.CancelCauseFunc, o *Outcome, err error) {
+	o.Status, o.Err = StatusFailed, err
+	if errors.Is(err, context.Canceled) {
+		o.Status = StatusSkipped
+	} else {
+		cancel(fmt.Errorf("%s: %w", o.Step.Addr, err))
+	}
+	r.emit(o, nil, "")
+}
+
+func (r *runner) storedNotes(key cache.StepKey) []string {
+	b, ok, err := r.store.Provenance(key)
+	if err != nil || !ok {
+		return nil
+	}
+	var p Provenance
+	if json.Unmarshal(b, &p) != nil {
+		return nil
+	}
+	return p.Notes
+}
+
+func (r *runner) provenance(s *Step, key cache.StepKey, rk cache.ResultKey, upstream map[string]cache.ResultKey,
+	env steps.Env, notes []string, began time.Time, secs float64) Provenance {
+	p := Provenance{Address: s.Addr, Kind: s.Kind.Name(), Version: s.Kind.Version(), StepKey: key.String(),
+		ResultKey: rk.String(), Config: s.Rendered(), Notes: notes, Tool: ToolInfo(), Started: began.UTC(), Seconds: secs}
+	names := make([]string, 0, len(s.Refs))
+	for n := range s.Refs {
+		names = append(names, n)
+	}
+	sort.Strings(names)
+	for _, n := range names {
+		for _, a := range s.Refs[n] {
+			p.Inputs = append(p.Inputs, InputRecord{Param: n, Address: a,
+				StepKey: r.out[r.w.byAddr[a]].StepKey.String(), ResultKey: upstream[a].String()})
+		}
+	}
+	names = names[:0]
+	for n := range s.Files {
+		names = append(names, n)
+	}
+	sort.Strings(names)
+	for _, n := range names {
+		for _, f := range s.Files[n] {
+			p.Files = append(p.Files, FileRecord{Param: n, Path: f.Path, SHA256: hexKey(f.Digest), Bytes: len(f.Data)})
+		}
+	}
+	if s.Kind.Random() {
+		seed := env.Seed
+		p.Seed = &seed
+	}
+	return p
+}
