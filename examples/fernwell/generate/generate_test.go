@@ -303,7 +303,7 @@ func TestMainLightCurve(t *testing.T) {
 		}
 	})
 
-	t.Run("the noise is about 500 ppm per point", func(t *testing.T) {
+	t.Run("the noise is about 350 ppm per point", func(t *testing.T) {
 		var res []float64
 		for i := range tab.Time {
 			if tab.clean(i) && !nearTransit(tab.Time[i], d.planets, 0.1) && !nearFlare(tab.Time[i], ser.Flares, 0.3) {
@@ -313,7 +313,7 @@ func TestMainLightCurve(t *testing.T) {
 		mean, sd := meanSD(res)
 		// Standard errors of a sample mean and standard deviation (common practice).
 		n := float64(len(res))
-		if math.Abs(mean) > 5*500e-6/math.Sqrt(n) || math.Abs(sd-500e-6) > 0.05*500e-6 {
+		if math.Abs(mean) > 5*350e-6/math.Sqrt(n) || math.Abs(sd-350e-6) > 0.05*350e-6 {
 			t.Errorf("out-of-transit residuals: mean %.1f ppm, sd %.1f ppm over %d points", mean*1e6, sd*1e6, len(res))
 		}
 	})
@@ -467,7 +467,7 @@ func TestTruthFile(t *testing.T) {
 		{"names the invented star", d.truth.Star.ID == "FW-3318"},
 		{"lists planets b and c", len(d.truth.Planets) == 2 && d.truth.Planets[0].Name == "b" && d.truth.Planets[1].Name == "c"},
 		{"gives planet b a 3.7-day period and 2500 ppm", math.Abs(d.truth.Planets[0].PeriodD-3.7) < 0.05 && d.truth.Planets[0].DepthPPM == 2500},
-		{"gives planet c an 11.4-day period and 700 ppm", math.Abs(d.truth.Planets[1].PeriodD-11.4) < 0.05 && d.truth.Planets[1].DepthPPM == 700},
+		{"gives planet c an 11.4-day period and 900 ppm", math.Abs(d.truth.Planets[1].PeriodD-11.4) < 0.05 && d.truth.Planets[1].DepthPPM == 900},
 		{"has durations between one and three hours", d.truth.Planets[0].DurationH > 1 && d.truth.Planets[1].DurationH < 3},
 		{"counts the rows of both files", d.truth.LightCurves[0].Rows == len(d.tables["main"].Time) && d.truth.LightCurves[1].Rows == len(d.tables["fast"].Time)},
 		{"lists the dozen flares of the main file", len(d.truth.LightCurves[0].Flares) == 12},

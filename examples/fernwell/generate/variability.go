@@ -22,9 +22,9 @@ type spot struct {
 // mostly near one "active longitude" (spots on opposite sides of the star would cancel
 // each other's modulation, as they tend not to on real active stars).
 const (
-	spotSpacing    = 2.0  // mean days between the peaks of successive spots
-	spotLifeMin    = 4.0  // days
-	spotLifeMax    = 9.0  // days
+	spotSpacing    = 2.0 // mean days between the peaks of successive spots
+	spotLifeMin    = 4.0 // days
+	spotLifeMax    = 9.0 // days
 	spotDarkMin    = 0.008
 	spotDarkMax    = 0.015
 	spotLatMax     = 60 * math.Pi / 180
