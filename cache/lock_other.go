@@ -5,6 +5,7 @@ package cache
 import (
 	"errors"
 	"os"
+	"time"
 )
 
 // The run lock uses flock(2); other systems are not supported yet.
@@ -13,3 +14,6 @@ var errNoFlock = errors.New("run locks need a Unix system")
 func tryLock(f *os.File) (bool, error) { return false, errNoFlock }
 
 func unlock(f *os.File) error { return errNoFlock }
+
+// lockDB leaves the database lock to bbolt.
+func lockDB(f *os.File, exclusive bool, timeout time.Duration) (bool, error) { return true, nil }

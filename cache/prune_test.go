@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"os"
 	"reflect"
+	"sync/atomic"
 	"testing"
 	"time"
 )
@@ -161,6 +162,7 @@ func TestPruneShrinksTheFile(t *testing.T) {
 		t.Errorf("removed %d results of %d bytes, want 40 of %d", rep.Results, rep.ResultBytes, 40*256<<10)
 	}
 	// 10 MiB of results went; what remains is one 4 KiB result and bbolt's pages around it.
+	t.Logf("file went from %d to %d bytes", rep.FileBefore, rep.FileAfter)
 	if rep.FileAfter*4 > rep.FileBefore {
 		t.Errorf("file went from %d to %d bytes; want under a quarter", rep.FileBefore, rep.FileAfter)
 	}
@@ -189,5 +191,48 @@ func TestPruneOfAStoreNotYetWritten(t *testing.T) {
 	rep, err := newStore(t).Prune(PrunePolicy{KeepLast: 1})
 	if err != nil || !reflect.DeepEqual(rep, PruneReport{}) {
 		t.Errorf("Prune = %+v, %v", rep, err)
+	}
+}
+
+func TestCommitsDuringACompactionAreNotLost(t *testing.T) {
+	// A commit that opened the file just before Prune renamed the compacted copy over it
+	// must notice and write into the new file. The run record names every entry first, so
+	// Prune keeps them all.
+	s := newStore(t)
+	var es []Entry
+	r := Run{ID: "w", Started: t0}
+	for i := range 400 {
+		e := entry(fmt.Sprintf("w%d", i), blob(uint64(i), 2000))
+		es = append(es, e)
+		r.Steps = append(r.Steps, RunStep{StepKey: e.Step, ResultKey: e.Result})
+	}
+	if err := s.PutRun(r); err != nil {
+		t.Fatal(err)
+	}
+	var done atomic.Bool
+	finished := make(chan struct{})
+	go func() {
+		defer close(finished)
+		defer done.Store(true)
+		for _, e := range es {
+			if err := s.Commit(e); err != nil {
+				t.Error(err)
+				return
+			}
+		}
+	}()
+	prunes := 0
+	for ; !done.Load(); prunes++ {
+		if _, err := s.Prune(PrunePolicy{}); err != nil {
+			t.Fatal(err)
+		}
+		time.Sleep(5 * time.Millisecond) // prunes are rare; give the writer its turn
+	}
+	<-finished
+	t.Logf("%d prunes ran during the commits", prunes)
+	for i, e := range es {
+		if !present(t, s, e) {
+			t.Errorf("entry %d of %d committed during the prunes is lost", i, len(es))
+		}
 	}
 }

@@ -11,7 +11,8 @@
 // The Store does not keep bbolt open. Every call opens the file, runs one transaction,
 // copies the values out and closes it again, so read-only commands (statistics, tracing a
 // number) can run while a long run is in progress; bbolt's own file lock only serialises
-// the individual transactions. Whole runs are kept apart by the separate RunLock.
+// the individual transactions (a waiting call blocks in the kernel and gets in between two
+// commits). Whole runs are kept apart by the separate RunLock.
 package cache
 
 import (
@@ -33,15 +34,16 @@ var (
 	ErrMissing = errors.New("not in the store")
 	// ErrCorrupt: stored bytes no longer hash to their result key.
 	ErrCorrupt = errors.New("stored bytes fail their checksum")
-	// ErrBusy: another dipline process holds the store (its run lock, or the database
-	// itself for longer than openTimeout).
+	// ErrBusy: another dipline process holds the store: its run lock, or the database
+	// itself for more than ten seconds.
 	ErrBusy = errors.New("store in use")
 )
 
 // openTimeout is how long one call waits for bbolt's file lock. Other commands hold it only
 // for one transaction (a commit of a few hundred MB with fsync on a slow disk is seconds),
-// so waiting longer than this means something is stuck and the user should be told.
-const openTimeout = 10 * time.Second
+// so waiting longer than this means something is stuck and the user should be told. A
+// variable so tests can shorten it.
+var openTimeout = 10 * time.Second
 
 // format is stored in the meta bucket; a store written in another layout is refused rather
 // than misread.
@@ -288,10 +290,6 @@ func checkFormat(tx *bolt.Tx, path string) error {
 	return nil
 }
 
-// maxReopen bounds the retries when the file was replaced (by a compaction) between
-// opening it and locking it.
-const maxReopen = 5
-
 // openDB opens the bbolt file. A read-only open returns (nil, nil) when the file does not
 // exist or is still empty (its creator has not written the first pages yet).
 //
@@ -299,7 +297,8 @@ const maxReopen = 5
 // Prune compacts into a new file and renames it over the old one, and a process that opened
 // the old file just before must not write into it after the rename.
 func openDB(path string, readOnly bool) (*bolt.DB, error) {
-	for attempt := 0; ; attempt++ {
+	deadline := time.Now().Add(openTimeout)
+	for {
 		if readOnly {
 			fi, err := os.Stat(path)
 			if errors.Is(err, os.ErrNotExist) || (err == nil && fi.Size() == 0) {
@@ -312,8 +311,19 @@ func openDB(path string, readOnly bool) (*bolt.DB, error) {
 			ReadOnly: readOnly,
 			OpenFile: func(name string, flag int, perm os.FileMode) (*os.File, error) {
 				var err error
-				f, err = os.OpenFile(name, flag, perm)
-				return f, err
+				if f, err = os.OpenFile(name, flag, perm); err != nil {
+					return nil, err
+				}
+				ok, err := lockDB(f, !readOnly, openTimeout)
+				if err != nil || !ok {
+					if err == nil {
+						err = berrors.ErrTimeout // f is closed by lockDB's waiter
+					} else {
+						f.Close()
+					}
+					return nil, err
+				}
+				return f, nil
 			},
 		}
 		db, err := bolt.Open(path, 0o644, opts)
@@ -332,8 +342,8 @@ func openDB(path string, readOnly bool) (*bolt.DB, error) {
 			return db, nil
 		}
 		db.Close()
-		if attempt == maxReopen {
-			return nil, fmt.Errorf("store %s: the file keeps being replaced while opening it", path)
+		if time.Now().After(deadline) {
+			return nil, fmt.Errorf("store %s: the file kept being replaced for %s while opening it: %w", path, openTimeout, ErrBusy)
 		}
 	}
 }

@@ -11,8 +11,9 @@ import (
 
 // scanBatchBytes bounds how many bytes of results one read transaction copies out while
 // scanning the whole store, so a long scan never holds bbolt's lock for long and a run
-// committing at the same time is only delayed by one batch.
-const scanBatchBytes = 64 << 20
+// committing at the same time is only delayed by one batch. A variable so tests can make
+// batches small.
+var scanBatchBytes = 64 << 20
 
 // VerifyReport is what Verify found.
 type VerifyReport struct {

@@ -95,26 +95,42 @@ func TestDropDamagedKeepsAnEntryRepairedMeanwhile(t *testing.T) {
 }
 
 func TestVerifyScansInSeveralBatches(t *testing.T) {
-	if testing.Short() {
-		t.Skip("writes 160 MB")
-	}
-	// Five results of 32 MiB exceed scanBatchBytes (64 MiB) twice over.
+	defer func(n int) { scanBatchBytes = n }(scanBatchBytes)
+	scanBatchBytes = 2500 // two 1000-byte results per batch
 	s := newStore(t)
 	var es []Entry
-	for i := range 5 {
-		es = append(es, entry(string(rune('a'+i)), blob(uint64(i), 32<<20)))
+	for i := range 7 {
+		es = append(es, entry(string(rune('a'+i)), blob(uint64(i), 1000)))
 	}
-	for _, e := range es {
-		mustCommit(t, s, e)
+	mustCommit(t, s, es...)
+	for _, i := range []int{0, 3, 6} { // first, middle and last batch
+		if err := CorruptForTest(s.Path(), es[i].Result); err != nil {
+			t.Fatal(err)
+		}
 	}
-	if err := CorruptForTest(s.Path(), es[4].Result); err != nil {
-		t.Fatal(err)
+	batches := 0
+	for after := []byte(nil); ; batches++ {
+		_, next, err := readBatch(s, bucketResults, after)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if next == nil {
+			batches++
+			break
+		}
+		after = next
+	}
+	if batches != 4 {
+		t.Errorf("7 results read in %d batches, want 4", batches)
 	}
 	rep, err := s.Verify()
 	if err != nil {
 		t.Fatal(err)
 	}
-	if rep.Results != 5 || rep.Bytes != 5*32<<20 || !reflect.DeepEqual(rep.Corrupt, []ResultKey{es[4].Result}) || len(rep.Missing) != 0 {
+	want := []ResultKey{es[0].Result, es[3].Result, es[6].Result}
+	sortKeys(want)
+	sortKeys(rep.Corrupt)
+	if rep.Results != 7 || rep.Bytes != 7000 || !reflect.DeepEqual(rep.Corrupt, want) || len(rep.Missing) != 0 {
 		t.Errorf("Verify = %d results, %d bytes, corrupt %v, missing %v", rep.Results, rep.Bytes, rep.Corrupt, rep.Missing)
 	}
 }
