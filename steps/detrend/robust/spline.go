@@ -3,7 +3,9 @@ package robust
 import (
 	"math"
 
-	"gonum.org/v1/gonum/mat"
+	"gonum.org/v1/gonum/blas"
+	"gonum.org/v1/gonum/blas/blas64"
+	"gonum.org/v1/gonum/lapack/lapack64"
 )
 
 // splineMaxRounds bounds the fit–clip–refit cycle of RobustSpline. The clipped set may
@@ -193,15 +195,19 @@ func (s *splineFit) solve(dst, t, f []float64, fit []bool) bool {
 			}
 		}
 	}
-	var ch mat.BandCholesky
-	if !ch.Factorize(mat.NewSymBandDense(nb, k, ata)) {
+	// Banded Cholesky (LAPACK dpbtrf/dpbtrs as ported by gonum): O(nb·k²), without the
+	// condition estimate of mat.BandCholesky, which costs more than the whole fit here.
+	u, ok := lapack64.Pbtrf(blas64.SymmetricBand{Uplo: blas.Upper, N: nb, K: k, Data: ata, Stride: k + 1})
+	if !ok {
 		return false
 	}
-	x := mat.NewVecDense(nb, nil)
-	if err := ch.SolveVecTo(x, mat.NewVecDense(nb, atb)); err != nil {
-		return false
+	lapack64.Pbtrs(u, blas64.General{Rows: nb, Cols: 1, Data: atb, Stride: 1})
+	for _, c := range atb {
+		if !finite(c) {
+			return false
+		}
 	}
-	s.coef = append(s.coef[:0], x.RawVector().Data...)
+	s.coef = append(s.coef[:0], atb...)
 	iv = 0
 	for j := range t {
 		iv = s.interval(t[j], iv)

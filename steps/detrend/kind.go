@@ -1,0 +1,308 @@
+// Package detrend is the detrend step kind: it divides a light curve by a robust estimate
+// of its slow trend — a time-windowed Tukey biweight (the default), a robust cubic spline,
+// or a running median — so that a transit search sees a flat light curve. It splits the
+// series at long gaps, removes flares (upward outliers only, never dips), and, given the
+// signals of a search step, leaves their transits out of the trend so that they come
+// through undistorted. The numerics live in the robust sub-package and know nothing of
+// workflow files; this package turns a block's values into a robust.Config, runs it and
+// wraps the outcome as an Artifact.
+//
+// Main entry point: Kind (register it with the engine). The artifact, *Result, carries a
+// lightcurve.LightCurve, so a search or another detrend can read it.
+package detrend
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+
+	"dipline/steps"
+	"dipline/steps/detrend/robust"
+	"dipline/steps/internal/lightcurve"
+	"dipline/steps/internal/signals"
+	"dipline/steps/units"
+)
+
+// Kind is the detrend step kind.
+type Kind struct{}
+
+var (
+	_ steps.Kind        = Kind{}
+	_ lightcurve.Source = (*Result)(nil)
+	_ steps.Artifact    = (*Result)(nil)
+)
+
+// version is bumped whenever the numbers or the encoding change.
+const version = 1
+
+// The estimator names written in a workflow.
+const (
+	estBiweight = "biweight"
+	estSpline   = "robust-spline"
+	estMedian   = "running-median"
+)
+
+// Defaults, each with its reason.
+const (
+	// defaultSpan is the full width of the biweight window. A windowed location estimate
+	// keeps a transit shorter than about a third of its span (Hippke et al. 2019, AJ 158,
+	// 143, from memory): 0.5 d keeps transits up to 4 h, those of most short-period planets.
+	defaultSpan = 0.5
+	// defaultKnots gives the spline the same time scale as the default span.
+	defaultKnots = 0.5
+	// defaultC is the biweight tuning constant in unscaled MADs found best for transit
+	// work (Hippke et al. 2019, from memory; the classical value is 6).
+	defaultC = 5.0
+	// defaultFlareSigma removes points more than 3 robust sigmas above the trend: about
+	// 0.13 % of pure Gaussian noise (one-sided normal tail, common practice).
+	defaultFlareSigma = 3.0
+	// defaultMaskFactor masks 1.5 transit durations around each mid-transit, so that a
+	// duration or ephemeris slightly off still leaves ingress and egress out of the trend
+	// (common practice).
+	defaultMaskFactor = 1.5
+	// defaultMinPoints is the fewest usable points a window needs for a trend: fewer make
+	// the median and MAD meaningless.
+	defaultMinPoints = 5
+	// splineClip is the two-sided clip of the spline's own fit, 3 robust sigmas
+	// (Vanderburg & Johnson 2014, PASP 126, 948, from memory).
+	splineClip = 3.0
+)
+
+// Name is the block type.
+func (Kind) Name() string { return "detrend" }
+
+// Version is the kind's version.
+func (Kind) Version() int { return version }
+
+// Random is false: detrending draws no random numbers.
+func (Kind) Random() bool { return false }
+
+// Doc is one sentence for the kinds listing.
+func (Kind) Doc() string {
+	return "Divides a light curve by a robust trend (Tukey biweight, robust spline or running median), removing flares upward only and sparing masked transits."
+}
+
+// Params is the block's schema.
+func (Kind) Params() []steps.Param {
+	return []steps.Param{
+		{Name: "light_curve", Type: steps.Ref, Kinds: []string{"photometry", "detrend"},
+			Doc: "the light curve to detrend: a photometry step, or another detrend step"},
+		{Name: "estimator", Type: steps.String, Choices: []string{estBiweight, estSpline, estMedian}, Default: estBiweight,
+			Doc: "how the trend is estimated: Tukey biweight location in a sliding time window, a cubic spline refitted with outliers clipped, or the median in a sliding time window"},
+		{Name: "span", Type: steps.Quantity, Dim: units.Time, Default: defaultSpan,
+			Doc: "full width in time of the sliding window (biweight, running-median); transits up to about a third of it survive unmasked"},
+		{Name: "knot_spacing", Type: steps.Quantity, Dim: units.Time, Default: defaultKnots,
+			Doc: "spacing in time of the spline's knots (robust-spline); knots are dropped where there are too few points"},
+		{Name: "biweight_c", Type: steps.Number, Default: defaultC,
+			Doc: "biweight tuning constant, in median absolute deviations: points further than this from the location get no weight"},
+		{Name: "flare_sigma", Type: steps.Number, Default: defaultFlareSigma,
+			Doc: "points more than this many robust standard deviations above the trend are flares and removed; points below are never removed"},
+		{Name: "split_at_gap", Type: steps.Quantity, Dim: units.Time, Optional: true,
+			Doc: "split the light curve wherever no point falls for longer than this and detrend each piece alone; by default the larger of 0.5 d and 20 median cadences"},
+		{Name: "min_window_points", Type: steps.Integer, Default: int64(defaultMinPoints),
+			Doc: "fewest usable points a window (or a spline interval) needs; points with fewer are dropped"},
+		{Name: "mask", Type: steps.Ref, Kinds: []string{"search"}, Optional: true,
+			Doc: "a search step whose signals' transits are left out of the trend (and kept in the light curve)"},
+		{Name: "mask_factor", Type: steps.Number, Default: defaultMaskFactor,
+			Doc: "the masked stretch around each mid-transit, in transit durations"},
+		{Name: "mask_count", Type: steps.Integer, Optional: true,
+			Doc: "mask only the first this many signals of the search's ranking; all of them when absent"},
+	}
+}
+
+// Config is the decoded configuration of one detrend block.
+type Config struct {
+	Estimator   string
+	Span        float64 // days
+	KnotSpacing float64 // days
+	C           float64
+	FlareSigma  float64
+	SplitAtGap  float64 // days; 0 = derive from the data
+	MinPoints   int
+	MaskFactor  float64
+	MaskCount   int // 0 = all
+}
+
+// Prepare checks the values and builds a Config.
+func (Kind) Prepare(v steps.Values) (any, error) {
+	c := Config{
+		Estimator:   v.Str("estimator"),
+		Span:        v.Float("span"),
+		KnotSpacing: v.Float("knot_spacing"),
+		C:           v.Float("biweight_c"),
+		FlareSigma:  v.Float("flare_sigma"),
+		MaskFactor:  v.Float("mask_factor"),
+	}
+	switch c.Estimator {
+	case estBiweight, estSpline, estMedian:
+	default:
+		return nil, steps.Attrf("estimator", "%q is not an estimator; use %q, %q or %q", c.Estimator, estBiweight, estSpline, estMedian)
+	}
+	positive := func(name string, x float64, what string) error {
+		if !(x > 0) || math.IsInf(x, 0) {
+			return steps.Attrf(name, "must be a positive %s, not %v", what, x)
+		}
+		return nil
+	}
+	if err := positive("span", c.Span, "time"); err != nil {
+		return nil, err
+	}
+	if err := positive("knot_spacing", c.KnotSpacing, "time"); err != nil {
+		return nil, err
+	}
+	if err := positive("biweight_c", c.C, "number"); err != nil {
+		return nil, err
+	}
+	if !(c.FlareSigma >= 1) || math.IsInf(c.FlareSigma, 0) {
+		return nil, steps.Attrf("flare_sigma", "must be at least 1 (a lower cut would remove ordinary noise), not %v", c.FlareSigma)
+	}
+	if err := positive("mask_factor", c.MaskFactor, "number"); err != nil {
+		return nil, err
+	}
+	if v.Has("split_at_gap") {
+		c.SplitAtGap = v.Float("split_at_gap")
+		if err := positive("split_at_gap", c.SplitAtGap, "time"); err != nil {
+			return nil, err
+		}
+	}
+	mp := v.Int("min_window_points")
+	if mp < 3 || mp > 1_000_000 {
+		return nil, steps.Attrf("min_window_points", "must be between 3 and 1000000, not %d", mp)
+	}
+	c.MinPoints = int(mp)
+	if v.Has("mask_count") {
+		n := v.Int("mask_count")
+		if n < 1 || n > 1_000_000 {
+			return nil, steps.Attrf("mask_count", "must be at least 1, not %d", n)
+		}
+		c.MaskCount = int(n)
+	}
+	return c, nil
+}
+
+// Run detrends the referenced light curve.
+func (k Kind) Run(ctx context.Context, cfgAny any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
+	cfg, ok := cfgAny.(Config)
+	if !ok {
+		return nil, fmt.Errorf("detrend: configuration of type %T", cfgAny)
+	}
+	if err := ctx.Err(); err != nil {
+		return nil, err
+	}
+	src, ok := in.Ref("light_curve").(lightcurve.Source)
+	if !ok || src.LightCurve() == nil {
+		return nil, errors.New("detrend: light_curve does not refer to a step with a light curve")
+	}
+	lc := src.LightCurve()
+	if err := checkCurve(lc); err != nil {
+		return nil, err
+	}
+	var sigs []signals.Signal
+	if m := in.Ref("mask"); m != nil {
+		ss, ok := m.(signals.Source)
+		if !ok {
+			return nil, errors.New("detrend: mask does not refer to a step with signals")
+		}
+		sigs = ss.Signals()
+		if cfg.MaskCount > 0 && len(sigs) > cfg.MaskCount {
+			sigs = sigs[:cfg.MaskCount]
+		}
+		for i, s := range sigs {
+			if !(s.Period > 0) || !(s.Duration > 0) || math.IsInf(s.Period, 0) || math.IsInf(s.Duration, 0) || math.IsNaN(s.Epoch) || math.IsInf(s.Epoch, 0) {
+				return nil, steps.BadInputf("mask: signal %d has period %v, epoch %v and duration %v; a mask needs positive, finite values", i+1, s.Period, s.Epoch, s.Duration)
+			}
+		}
+	}
+	res, notes := Detrend(cfg, lc, sigs, env.Pool)
+	for _, n := range notes {
+		env.Note("%s", n)
+	}
+	if err := ctx.Err(); err != nil {
+		return nil, err
+	}
+	return res, nil
+}
+
+// checkCurve rejects a light curve the filters cannot take: columns of different lengths,
+// non-finite or unsorted times. Messages name the segment and the point (from 1).
+func checkCurve(lc *lightcurve.LightCurve) error {
+	for _, s := range lc.Segments {
+		if len(s.Flux) != len(s.Time) || len(s.Err) != len(s.Time) {
+			return steps.BadInputf("light_curve: segment %s: %d times, %d fluxes and %d errors", s.ID, len(s.Time), len(s.Flux), len(s.Err))
+		}
+		for j, t := range s.Time {
+			if math.IsNaN(t) || math.IsInf(t, 0) {
+				return steps.BadInputf("light_curve: segment %s, point %d: time is %v", s.ID, j+1, t)
+			}
+			if j > 0 && t < s.Time[j-1] {
+				return steps.BadInputf("light_curve: segment %s, point %d: time %v is before the previous %v; times must be sorted", s.ID, j+1, t, s.Time[j-1])
+			}
+		}
+	}
+	return nil
+}
+
+// Detrend is the library entry point behind Run: it detrends lc with cfg, masking the
+// transits of sigs, on the pool's workers (nil runs serially), and returns the artifact
+// with the facts worth telling the user (the derived gap threshold, points dropped).
+func Detrend(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool *steps.Pool) (*Result, []string) {
+	var notes []string
+	series := make([]robust.Series, len(lc.Segments))
+	for i, s := range lc.Segments {
+		series[i] = robust.Series{Time: s.Time, Flux: s.Flux, Err: s.Err}
+		if len(sigs) > 0 {
+			m := make([]bool, len(s.Time))
+			for j, t := range s.Time {
+				for _, sg := range sigs {
+					if sg.InTransit(t, cfg.MaskFactor) {
+						m[j] = true
+						break
+					}
+				}
+			}
+			series[i].Mask = m
+		}
+	}
+	gap := cfg.SplitAtGap
+	if gap == 0 {
+		cad := robust.MedianCadence(series)
+		gap = robust.DefaultGap(cad)
+		notes = append(notes, fmt.Sprintf("split_at_gap: %.4g d (the larger of 0.5 d and 20 × the median cadence, %.4g min)",
+			gap, cad*1440))
+	}
+	rc := robust.Config{
+		Span: cfg.Span, KnotSpacing: cfg.KnotSpacing, C: cfg.C, FlareSigma: cfg.FlareSigma,
+		SplineSigma: splineClip, MinPoints: cfg.MinPoints, GapOver: gap,
+	}
+	scale := cfg.Span
+	switch cfg.Estimator {
+	case estSpline:
+		rc.Estimator = robust.Spline
+		scale = cfg.KnotSpacing
+	case estMedian:
+		rc.Estimator = robust.RunningMedian
+	default:
+		rc.Estimator = robust.Biweight
+	}
+	if len(sigs) > 0 && cfg.Estimator != estSpline {
+		longest := 0.0
+		for _, s := range sigs {
+			longest = max(longest, s.Duration*cfg.MaskFactor)
+		}
+		if longest >= cfg.Span {
+			notes = append(notes, fmt.Sprintf("mask: the longest masked stretch (%.4g h) is at least the span (%.4g h); the trend across it is interpolated from its edges",
+				longest*24, cfg.Span*24))
+		}
+	}
+	var par robust.Parallel
+	if pool != nil {
+		par = pool.Parallel
+	}
+	out := robust.Detrend(rc, series, par)
+	res := newResult(lc, out, cfg.Estimator, scale, gap)
+	if n := res.count(robust.NoTrend); n > 0 {
+		notes = append(notes, fmt.Sprintf("%d points dropped: fewer than %d usable points within their window", n, cfg.MinPoints))
+	}
+	return res, notes
+}
