@@ -217,7 +217,8 @@ static void utc(const char *dir)
  *   VEC    3E   i + 0.25 k for k = 0, 1, 2
  *   LABEL  8A   "row<i>", and "it's" in row 0
  *   GOOD   1L   i % 3 != 0, undefined (null) in row 4
- *   SPEC   1PE(6) i % 4 + 1 values, element j = i + 0.5 j (in the heap)
+ *   SPEC   1PE  i % 4 + 1 values, element j = i + 0.5 j (in the heap; cfitsio
+ *               rewrites TFORM7 to 1PE(4), the longest array written)
  *   BYTE   1B   (10 i) % 256
  *   BIG    1K   i × 10^12
  *   USHORT 1U   40000 + i   (cfitsio writes I with TZERO = 32768)

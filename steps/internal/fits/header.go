@@ -165,7 +165,7 @@ func parseCard(rec []byte, hdu *HDU) Card {
 		if strings.HasPrefix(after, "/") {
 			c.Comment = strings.TrimSpace(after[1:])
 		} else if after != "" {
-			c.Type, c.Text = Malformed, strings.TrimSpace(rest)
+			c.Type, c.Str, c.Text = Malformed, "", strings.TrimSpace(rest)
 		}
 		return c
 	}
@@ -188,7 +188,7 @@ func parseCard(rec []byte, hdu *HDU) Card {
 	return c
 }
 
-// scanString reads a quoted string at the start of s, with '' standing for one quote.
+// scanString reads a quoted string at the start of s, with ” standing for one quote.
 // Trailing blanks are not significant (FITS 4.0 §4.2.1.1); leading blanks are.
 func scanString(s string) (val string, n int, ok bool) {
 	var b strings.Builder

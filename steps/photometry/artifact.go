@@ -1,0 +1,96 @@
+package photometry
+
+import (
+	"fmt"
+
+	"dipline/steps"
+	"dipline/steps/internal/codec"
+	"dipline/steps/internal/lightcurve"
+)
+
+// The artifact's encoding: its own tag and format version, bumped with any layout change.
+const (
+	artifactTag     = "photometry"
+	artifactVersion = 1
+)
+
+// SegmentStats are the per-segment facts the light curve itself does not keep.
+type SegmentStats struct {
+	// Cadence is the median time between successive kept points, in days.
+	Cadence float64
+	// Dropped counts this segment's rows that were not kept, by reason.
+	Dropped lightcurve.Dropped
+}
+
+// Result is the photometry step's artifact: the light curve and, for each of its segments
+// in the same order, its statistics.
+type Result struct {
+	LC    *lightcurve.LightCurve
+	Stats []SegmentStats
+}
+
+// LightCurve implements lightcurve.Source.
+func (r *Result) LightCurve() *lightcurve.LightCurve { return r.LC }
+
+// Encode writes the canonical encoding.
+func (r *Result) Encode() []byte {
+	w := codec.NewWriter(artifactTag, artifactVersion)
+	r.LC.Write(w)
+	w.Uint64(uint64(len(r.Stats)))
+	for _, s := range r.Stats {
+		w.Float(s.Cadence)
+		w.Int(int64(s.Dropped.NonFinite))
+		w.Int(int64(s.Dropped.Flagged))
+		w.Int(int64(s.Dropped.BadError))
+	}
+	return w.Bytes()
+}
+
+// DecodeResult reads an encoding written by Encode; a truncated or foreign record is an
+// error.
+func DecodeResult(b []byte) (*Result, error) {
+	rd := codec.NewReader(b, artifactTag, artifactVersion)
+	res := &Result{LC: lightcurve.Read(rd)}
+	n := rd.Uint64()
+	if n != uint64(len(res.LC.Segments)) {
+		if err := rd.Err(); err != nil {
+			return nil, fmt.Errorf("photometry artifact: %w", err)
+		}
+		return nil, fmt.Errorf("photometry artifact: %d segment statistics for %d segments", n, len(res.LC.Segments))
+	}
+	for i := uint64(0); i < n; i++ {
+		var s SegmentStats
+		s.Cadence = rd.Float()
+		s.Dropped.NonFinite = int(rd.Int())
+		s.Dropped.Flagged = int(rd.Int())
+		s.Dropped.BadError = int(rd.Int())
+		res.Stats = append(res.Stats, s)
+	}
+	if err := rd.Err(); err != nil {
+		return nil, fmt.Errorf("photometry artifact: %w", err)
+	}
+	if err := res.LC.Validate(); err != nil {
+		return nil, fmt.Errorf("photometry artifact: %w", err)
+	}
+	return res, nil
+}
+
+// Figures lists, per segment, the points kept, the median cadence and the exposure (in
+// minutes) and the rows dropped by reason, then the whole light curve's baseline in days.
+func (r *Result) Figures() []steps.Figure {
+	var out []steps.Figure
+	for i, s := range r.LC.Segments {
+		st := r.Stats[i]
+		p := "segment" + s.ID + "."
+		out = append(out,
+			steps.Figure{Name: p + "points", Value: float64(s.Len()), Doc: "points kept"},
+			steps.Figure{Name: p + "cadence", Value: st.Cadence * 1440, Unit: "min", Doc: "median time between points"},
+			steps.Figure{Name: p + "exposure", Value: s.Exposure * 1440, Unit: "min", Doc: "integration time of one point"},
+			steps.Figure{Name: p + "dropped_flagged", Value: float64(st.Dropped.Flagged), Doc: "rows dropped by their quality flag"},
+			steps.Figure{Name: p + "dropped_not_finite", Value: float64(st.Dropped.NonFinite), Doc: "rows dropped for a missing or non-finite time, flux or error"},
+			steps.Figure{Name: p + "dropped_bad_error", Value: float64(st.Dropped.BadError), Doc: "rows dropped for a zero or negative error"},
+		)
+	}
+	out = append(out, steps.Figure{Name: "baseline", Value: r.LC.Baseline(), Unit: "d", Doc: "last time minus first time"})
+	return out
+}

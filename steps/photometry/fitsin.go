@@ -1,0 +1,374 @@
+package photometry
+
+import (
+	"fmt"
+	"math"
+	"strconv"
+	"strings"
+
+	"dipline/steps"
+	"dipline/steps/internal/fits"
+	"dipline/steps/units"
+)
+
+// Time scales and origins this step can state. The light curve's TimeScale is written
+// ORIGIN_SCALE: BJD (referred to the solar-system barycentre), HJD (to the Sun's centre) or
+// JD (no light-time correction: topocentric or geocentric), on one of the IAU scales.
+var (
+	timeOrigins = []string{"BJD", "HJD", "JD"}
+	timeScales  = []string{"TDB", "TT", "UTC", "TAI", "TCB", "TCG"}
+)
+
+// TimeScaleChoices lists every ORIGIN_SCALE the time_scale parameter accepts.
+func TimeScaleChoices() []string {
+	var out []string
+	for _, o := range timeOrigins {
+		for _, s := range timeScales {
+			out = append(out, o+"_"+s)
+		}
+	}
+	return out
+}
+
+// timesysScale maps FITS TIMESYS values (FITS 4.0 §9.2.1; TDT and IAT are older names of TT
+// and TAI) to our scale names.
+var timesysScale = map[string]string{
+	"TDB": "TDB", "TT": "TT", "TDT": "TT", "UTC": "UTC", "TAI": "TAI", "IAT": "TAI", "TCB": "TCB", "TCG": "TCG",
+}
+
+// timerefOrigin maps FITS TIMEREF values (FITS 4.0 §9.2.3; SOLARSYSTEM is the older name of
+// the barycentre) to our origin names.
+var timerefOrigin = map[string]string{
+	"SOLARSYSTEM": "BJD", "BARYCENTER": "BJD", "HELIOCENTER": "HJD",
+	"TOPOCENTER": "JD", "GEOCENTER": "JD", "LOCAL": "JD",
+}
+
+// timeUnit reads a FITS time unit ("d", "s", "min", "h", "a" or "yr") as days per unit.
+func timeUnit(u string) (float64, bool) {
+	u = strings.TrimSpace(u)
+	if u == "a" {
+		u = "yr"
+	}
+	f, ok := units.Time.Units[u]
+	return f, ok
+}
+
+// exposureKeys are the header keywords tried, in this order, for the integration time of one
+// point. Each is read in the unit given in square brackets at the start of its comment
+// ("[s] …", the FITS convention for units in comments, FITS 4.0 §4.3.2), else in TIMEUNIT.
+// A value longer than the median cadence is a total over the file and is passed over.
+var exposureKeys = []string{"EXPOSURE", "INT_TIME", "TIMEDEL"}
+
+// fitsHDU looks keywords up in an extension and, when it says INHERIT = T, in the primary
+// header after it (FITS 4.0 §4.4.2.6, the inheritance convention).
+type fitsHDU struct {
+	ext, primary *fits.HDU
+	file         string
+}
+
+func (h fitsHDU) card(key string) *fits.Card {
+	if c := h.ext.Header.Card(key); c != nil {
+		return c
+	}
+	if inherit, _ := h.ext.Header.Bool("INHERIT"); inherit {
+		return h.primary.Header.Card(key)
+	}
+	return nil
+}
+
+// str returns a string keyword, or def when absent; present but not a string is an error.
+func (h fitsHDU) str(key, def string) (string, bool, error) {
+	c := h.card(key)
+	if c == nil {
+		return def, false, nil
+	}
+	s, err := c.AsString()
+	if err != nil {
+		return "", false, steps.BadInputf("%s: %v", h.file, err)
+	}
+	return strings.TrimSpace(s), true, nil
+}
+
+// num returns a numeric keyword; ok is false when absent.
+func (h fitsHDU) num(key string) (float64, bool, error) {
+	c := h.card(key)
+	if c == nil {
+		return 0, false, nil
+	}
+	v, err := c.AsFloat()
+	if err != nil {
+		return 0, false, steps.BadInputf("%s: %v", h.file, err)
+	}
+	if !finite(v) {
+		return 0, false, steps.BadInputf("%s: %s: keyword %s = %v is not finite", h.file, h.ext, key, v)
+	}
+	return v, true, nil
+}
+
+// chooseTable finds the binary table: the one named by extension, else the first whose
+// columns include a time and a flux column.
+func chooseTable(cfg *Config, file string, f *fits.File, note noteFunc) (*fits.BinaryTable, error) {
+	if cfg.Extension != "" {
+		t, err := f.Table(cfg.Extension)
+		if err != nil {
+			return nil, steps.BadInputf("%s: extension = %q: %v", file, cfg.Extension, err)
+		}
+		return t, nil
+	}
+	var seen []string
+	for _, h := range f.HDUs() {
+		t := h.Table()
+		if t == nil {
+			continue
+		}
+		if _, _, err := pickColumns(file, columnNames(t), cfg.Columns); err == nil {
+			note("%s: reading %s, the first binary table with a time and a flux column", file, h)
+			return t, nil
+		}
+		seen = append(seen, fmt.Sprintf("%s with columns %s", h, describe(columnNames(t))))
+	}
+	if len(seen) == 0 {
+		return nil, steps.BadInputf("%s: the file has no binary table extension", file)
+	}
+	return nil, steps.BadInputf("%s: no binary table has both a time and a flux column (%s); name the columns in columns = { ... } or choose the table with extension",
+		file, strings.Join(seen, "; "))
+}
+
+func columnNames(t *fits.BinaryTable) []string {
+	var n []string
+	for _, c := range t.Columns() {
+		n = append(n, c.Name)
+	}
+	return n
+}
+
+// readFITS reads one binary table into a raw segment, checking that its time keywords agree
+// with the scale the workflow states.
+func readFITS(cfg *Config, file string, data []byte, note noteFunc) (*rawSegment, error) {
+	f, err := fits.Open(data)
+	if err != nil {
+		return nil, steps.BadInputf("%s: %v", file, err)
+	}
+	t, err := chooseTable(cfg, file, f, note)
+	if err != nil {
+		return nil, err
+	}
+	h := fitsHDU{ext: t.HDU(), primary: f.HDUs()[0], file: file}
+	at := fmt.Sprintf("%s %s", file, t.HDU())
+	idx, chosen, err := pickColumns(at, columnNames(t), cfg.Columns)
+	if err != nil {
+		return nil, steps.BadInput(err)
+	}
+	r := &rawSegment{file: file, cols: chosen}
+	r.where = func(i int) string { return fmt.Sprintf("%s row %d", at, i+1) }
+	note("%s: columns %s", at, describeChoice(chosen))
+
+	cols := t.Columns()
+	var vals [nRoles][]float64
+	for role := Role(0); role < nRoles; role++ {
+		if idx[role] < 0 {
+			continue
+		}
+		c := cols[idx[role]]
+		if vals[role], err = c.Floats(0, nil); err != nil {
+			return nil, steps.BadInputf("%s: %v", file, err)
+		}
+		if c.Repeat > 1 {
+			note("%s: column %s holds %d values per row; the first is used", at, c.Name, c.Repeat)
+		}
+	}
+	r.time, r.flux, r.err, r.flag = vals[TimeCol], vals[FluxCol], vals[ErrorCol], vals[FlagCol]
+
+	if err := checkScale(cfg, h, at); err != nil {
+		return nil, err
+	}
+	perUnit, err := columnTimeUnit(h, cols[idx[TimeCol]], at, note)
+	if err != nil {
+		return nil, err
+	}
+	if err := readReference(h, r, at); err != nil {
+		return nil, err
+	}
+	// keyUnit is the unit of time keywords: TIMEUNIT, or seconds by default (FITS 4.0 §9.3).
+	keyUnit := 1.0 / 86400
+	if u, ok, err := h.str("TIMEUNIT", ""); err != nil {
+		return nil, err
+	} else if ok {
+		if keyUnit, ok = timeUnit(u); !ok {
+			return nil, steps.BadInputf("%s: TIMEUNIT = '%s' is not a time unit this step reads (d, s, min, h, a)", at, u)
+		}
+	}
+
+	// Offsets of the time column in its own unit: TIMEZERO (and its newer name TIMEOFFS).
+	shift := 0.0
+	for _, key := range []string{"TIMEZERO", "TIMEOFFS"} {
+		v, ok, err := h.num(key)
+		if err != nil {
+			return nil, err
+		}
+		if ok && v != 0 {
+			shift += v * keyUnit
+			note("%s: %s = %g added to the times", at, key, v)
+		}
+	}
+	// Time stamps at a fraction TIMEPIXR of the bin (0.5 = mid-exposure, the FITS default)
+	// are moved to mid-exposure with the bin width TIMEDEL.
+	if pixr, ok, err := h.num("TIMEPIXR"); err != nil {
+		return nil, err
+	} else if ok && pixr != 0.5 {
+		del, okd, err := h.num("TIMEDEL")
+		if err != nil {
+			return nil, err
+		}
+		if !okd {
+			return nil, steps.BadInputf("%s: TIMEPIXR = %g says the times are not mid-exposure, and there is no TIMEDEL to move them by", at, pixr)
+		}
+		d := (0.5 - pixr) * del * keyUnit
+		shift += d
+		note("%s: times moved by %s to mid-exposure (TIMEPIXR = %g, TIMEDEL = %g)", at, minutes(d), pixr, del)
+	}
+	for i, v := range r.time {
+		r.time[i] = v*perUnit + shift
+	}
+
+	for _, key := range exposureKeys {
+		c := h.card(key)
+		if c == nil {
+			continue
+		}
+		v, err := c.AsFloat()
+		if err != nil {
+			return nil, steps.BadInputf("%s: %v", file, err)
+		}
+		unit, days := "", keyUnit
+		if strings.HasPrefix(c.Comment, "[") {
+			if end := strings.IndexByte(c.Comment, ']'); end > 0 {
+				if u, ok := timeUnit(c.Comment[1:end]); ok {
+					unit, days = c.Comment[1:end], u
+				}
+			}
+		}
+		text := strconv.FormatFloat(v, 'g', -1, 64)
+		if unit != "" {
+			text += " " + unit
+		} else {
+			text += " (in TIMEUNIT)"
+		}
+		r.exposure = append(r.exposure, exposureCandidate{key: key, days: v * days, text: text})
+	}
+	if r.band, _, err = h.str("FILTER", ""); err != nil {
+		return nil, err
+	}
+	if r.instrument, _, err = h.str("INSTRUME", ""); err != nil {
+		return nil, err
+	}
+	if r.instrument == "" {
+		if r.instrument, _, err = h.str("TELESCOP", ""); err != nil {
+			return nil, err
+		}
+	}
+	return r, nil
+}
+
+func describeChoice(chosen [nRoles]string) string {
+	var parts []string
+	for r, c := range chosen {
+		if c != "" {
+			parts = append(parts, fmt.Sprintf("%s %q", Role(r), c))
+		}
+	}
+	return strings.Join(parts, ", ")
+}
+
+// checkScale compares TIMESYS and TIMEREF with the stated time scale. Absent keywords take
+// their FITS defaults, UTC and LOCAL (FITS 4.0 §9.2), so a file that says nothing is JD_UTC.
+func checkScale(cfg *Config, h fitsHDU, at string) error {
+	sys, sysGiven, err := h.str("TIMESYS", "UTC")
+	if err != nil {
+		return err
+	}
+	ref, refGiven, err := h.str("TIMEREF", "LOCAL")
+	if err != nil {
+		return err
+	}
+	shown := func(key, v string, given bool) string {
+		if given {
+			return fmt.Sprintf("%s = '%s'", key, v)
+		}
+		return fmt.Sprintf("%s absent (FITS default '%s')", key, v)
+	}
+	scale, ok1 := timesysScale[strings.ToUpper(sys)]
+	origin, ok2 := timerefOrigin[strings.ToUpper(ref)]
+	if !ok1 {
+		return steps.BadInputf("%s: %s is not a time scale this step knows (TDB, TT, UTC, TAI, TCB, TCG)", at, shown("TIMESYS", sys, sysGiven))
+	}
+	if !ok2 {
+		return steps.BadInputf("%s: %s is not a time reference position this step knows (SOLARSYSTEM, BARYCENTER, HELIOCENTER, TOPOCENTER, GEOCENTER, LOCAL)", at, shown("TIMEREF", ref, refGiven))
+	}
+	if got := origin + "_" + scale; got != cfg.TimeScale {
+		return steps.BadInputf("%s: %s and %s mean %s, but the workflow states time_scale = %q; convert the file's times or state its scale",
+			at, shown("TIMESYS", sys, sysGiven), shown("TIMEREF", ref, refGiven), got, cfg.TimeScale)
+	}
+	return nil
+}
+
+// columnTimeUnit returns days per unit of the time column: its TUNITn when that is a time
+// unit, else TIMEUNIT, else seconds (the FITS default of TIMEUNIT). TUNITn and TIMEUNIT
+// that disagree are refused.
+func columnTimeUnit(h fitsHDU, c *fits.Column, at string, note noteFunc) (float64, error) {
+	tu, tuGiven, err := h.str("TIMEUNIT", "s")
+	if err != nil {
+		return 0, err
+	}
+	col, colOK := timeUnit(c.Unit)
+	key, keyOK := timeUnit(tu)
+	switch {
+	case colOK && tuGiven && keyOK && col != key:
+		return 0, steps.BadInputf("%s: column %s has TUNIT%d = '%s' but TIMEUNIT = '%s'; the file contradicts itself", at, c.Name, c.Number, c.Unit, tu)
+	case colOK:
+		return col, nil
+	case !keyOK:
+		return 0, steps.BadInputf("%s: TIMEUNIT = '%s' is not a time unit this step reads (d, s, min, h, a)", at, tu)
+	}
+	if !tuGiven {
+		note("%s: neither TUNIT%d nor TIMEUNIT gives the unit of column %s; seconds, the FITS default", at, c.Number, c.Name)
+	}
+	return key, nil
+}
+
+// readReference reads the Julian date of time 0: BJDREFI + BJDREFF (or BJDREF), else
+// JDREFI + JDREFF (or JDREF), else MJDREFI + MJDREFF (or MJDREF) + 2 400 000.5 (FITS 4.0
+// §9.2.2; BJDREF* is a convention in common use). Integer and fraction are kept apart.
+func readReference(h fitsHDU, r *rawSegment, at string) error {
+	for _, p := range []struct {
+		prefix string
+		mjd    bool
+	}{{"BJDREF", false}, {"JDREF", false}, {"MJDREF", true}} {
+		i, okI, err := h.num(p.prefix + "I")
+		if err != nil {
+			return err
+		}
+		f, okF, err := h.num(p.prefix + "F")
+		if err != nil {
+			return err
+		}
+		from := p.prefix + "I/" + p.prefix + "F"
+		if !okI && !okF {
+			v, ok, err := h.num(p.prefix)
+			if err != nil {
+				return err
+			}
+			if !ok {
+				continue
+			}
+			i, f, from = math.Floor(v), v-math.Floor(v), p.prefix
+		}
+		r.refInt, r.refFrac = splitJD(i, f)
+		if p.mjd {
+			r.refInt, r.refFrac = splitJD(float64(r.refInt)+2400000, r.refFrac+0.5)
+		}
+		r.hasRef, r.refFrom = true, at+" "+from
+		return nil
+	}
+	return nil
+}

@@ -1,0 +1,306 @@
+package photometry
+
+import (
+	"fmt"
+	"math"
+	"sort"
+	"strconv"
+
+	"dipline/steps"
+	"dipline/steps/internal/lightcurve"
+)
+
+// Julian dates outside [minJD, maxJD] are refused as the start of a light curve: JD 2 000 000
+// falls in AD 763 and JD 3 000 000 in AD 3501 (from memory). A time outside is almost
+// always a relative time read without its reference, or a reference added twice.
+const (
+	minJD = 2.0e6
+	maxJD = 3.0e6
+)
+
+// madToSigma turns the median absolute deviation of normal deviates into their standard
+// deviation: 1/Φ⁻¹(3/4) = 1.4826 (common practice).
+const madToSigma = 1.4826
+
+// maxExposureRatio is how far a header exposure may exceed the median cadence before it is
+// taken for a total over the file rather than one point's integration: 1 %, for rounding.
+const maxExposureRatio = 1.01
+
+// noteFunc records a derived default (env.Note).
+type noteFunc func(format string, args ...any)
+
+// rawSegment is one file's columns before any row is dropped, with what its header says.
+type rawSegment struct {
+	file  string           // the name as written, for messages
+	where func(int) string // names row i for messages: "x.csv:12" or "x.fits HDU 1 row 13"
+	cols  [nRoles]string   // the column names used ("" when absent)
+
+	// time is in days since the reference; err and flag are nil when the file has none.
+	time, flux, err, flag []float64
+
+	hasRef  bool // refInt + refFrac is the Julian date of time 0; else times are full JDs
+	refInt  int64
+	refFrac float64
+	refFrom string // for messages: "time_zero", "BJDREFI/BJDREFF", …
+
+	exposure   []exposureCandidate // header values in order of preference
+	band       string
+	instrument string
+}
+
+// exposureCandidate is one header keyword that may give the exposure of one point.
+type exposureCandidate struct {
+	key  string  // e.g. "EXPOSURE"
+	days float64 // converted
+	text string  // as written, with its unit, for notes
+}
+
+// built is a finished segment before segments are put on one reference.
+type built struct {
+	seg     lightcurve.Segment
+	stats   SegmentStats
+	refInt  int64
+	refFrac float64
+	file    string
+}
+
+// splitJD splits a Julian date into its integer part and a fraction in [0, 1).
+func splitJD(i, f float64) (int64, float64) {
+	ii := math.Floor(i)
+	f += i - ii // exact for the integral part of a date in float64
+	fi := math.Floor(f)
+	return int64(ii) + int64(fi), f - fi
+}
+
+// median returns the median of v, sorting scratch (a copy of v).
+func median(v, scratch []float64) float64 {
+	scratch = append(scratch[:0], v...)
+	sort.Float64s(scratch)
+	n := len(scratch)
+	if n == 0 {
+		return math.NaN()
+	}
+	if n%2 == 1 {
+		return scratch[n/2]
+	}
+	return (scratch[n/2-1] + scratch[n/2]) / 2
+}
+
+// diffs writes v[i+1] − v[i] into dst.
+func diffs(dst, v []float64) []float64 {
+	dst = dst[:0]
+	for i := 1; i < len(v); i++ {
+		dst = append(dst, v[i]-v[i-1])
+	}
+	return dst
+}
+
+// PointScatter estimates the white-noise error of one point from successive differences:
+// 1.4826 × MAD(Δf) / √2. Differencing removes slow trends; the √2 undoes the doubling of the
+// variance of a difference of two independent points (common practice).
+func PointScatter(flux []float64) float64 {
+	d := diffs(make([]float64, 0, len(flux)), flux)
+	scratch := make([]float64, len(d))
+	m := median(d, scratch)
+	for i := range d {
+		d[i] = math.Abs(d[i] - m)
+	}
+	return madToSigma * median(d, scratch) / math.Sqrt2
+}
+
+// flagBits reads a flag value as a bit pattern. An undefined flag (NaN, from TNULL or an
+// empty field) sets every bit, so that any nonzero mask drops it.
+func flagBits(v float64) (uint64, bool) {
+	if math.IsNaN(v) {
+		return ^uint64(0), true
+	}
+	if v != math.Trunc(v) || math.Abs(v) >= 1<<63 {
+		return 0, false
+	}
+	return uint64(int64(v)), true
+}
+
+// build drops the unusable rows of one file, sorts, normalises by the median flux,
+// estimates errors if the file has none, and settles the cadence and exposure.
+//
+// A row is dropped for the first reason that applies, in this order: its flag AND the mask
+// is nonzero; its time, flux or error is not finite (NaN, ±Inf, or a FITS TNULL value); its
+// error is zero or negative.
+func build(cfg *Config, r *rawSegment, id string, note noteFunc) (built, error) {
+	n := len(r.time)
+	keep := make([]int, 0, n)
+	var d lightcurve.Dropped
+	firstBad := -1
+	for i := 0; i < n; i++ {
+		if r.flag != nil {
+			bits, ok := flagBits(r.flag[i])
+			if !ok {
+				return built{}, steps.BadInputf("%s: column %s: %v is not a whole-number flag", r.where(i), r.cols[FlagCol], r.flag[i])
+			}
+			if bits&cfg.FlagMask != 0 {
+				d.Flagged++
+				continue
+			}
+		}
+		e := 1.0
+		if r.err != nil {
+			e = r.err[i]
+		}
+		if !finite(r.time[i]) || !finite(r.flux[i]) || !finite(e) {
+			d.NonFinite++
+			continue
+		}
+		if e <= 0 {
+			d.BadError++
+			if firstBad < 0 {
+				firstBad = i
+			}
+			continue
+		}
+		keep = append(keep, i)
+	}
+	if firstBad >= 0 {
+		note("%s: column %s: %s is not a positive error; %d such rows dropped", r.where(firstBad), r.cols[ErrorCol], strconv.FormatFloat(r.err[firstBad], 'g', -1, 64), d.BadError)
+	}
+	if len(keep) < 2 {
+		return built{}, steps.BadInputf("%s: %d of %d rows are left (%d flagged, %d not finite, %d with a non-positive error); a segment needs at least 2",
+			r.file, len(keep), n, d.Flagged, d.NonFinite, d.BadError)
+	}
+	sorted := true
+	for k := 1; k < len(keep); k++ {
+		if r.time[keep[k]] < r.time[keep[k-1]] {
+			sorted = false
+			break
+		}
+	}
+	if !sorted {
+		sort.SliceStable(keep, func(a, b int) bool { return r.time[keep[a]] < r.time[keep[b]] })
+		note("%s: rows are not in time order; sorted by time", r.file)
+	}
+
+	m := len(keep)
+	s := lightcurve.Segment{
+		ID: id, Band: cfg.Band, Instrument: r.instrument,
+		CrowdingCorrected: cfg.CrowdingCorrected, Contamination: cfg.Contamination,
+		Time: make([]float64, m), Flux: make([]float64, m), Err: make([]float64, m),
+	}
+	for k, i := range keep {
+		s.Time[k], s.Flux[k] = r.time[i], r.flux[i]
+		if r.err != nil {
+			s.Err[k] = r.err[i]
+		}
+	}
+	if s.Band == "" && r.band != "" {
+		s.Band = r.band
+		note("%s: band %q from the FITS FILTER keyword", r.file, r.band)
+	}
+
+	start := s.Time[0]
+	if r.hasRef {
+		start += float64(r.refInt) + r.refFrac
+	}
+	if start < minJD || start > maxJD {
+		how := "with no reference given (no time_zero for a text file; no BJDREFI/BJDREFF, JDREF or MJDREF keyword in a FITS file)"
+		if r.hasRef {
+			how = fmt.Sprintf("with the reference JD %d + %g from %s", r.refInt, r.refFrac, r.refFrom)
+		}
+		return built{}, steps.BadInputf("%s: the first time %g %s is JD %.1f, not a plausible Julian date; state the Julian date of time 0 with time_zero, or remove it if the file holds full Julian dates",
+			r.file, s.Time[0], how, start)
+	}
+
+	if !r.hasRef {
+		// Full Julian dates: keep the whole day of the first point as the reference, so
+		// that times are small; subtracting a whole number of days near the values is exact.
+		day := math.Floor(s.Time[0])
+		for k := range s.Time {
+			s.Time[k] -= day
+		}
+		r.refInt, r.refFrac = int64(day), 0
+		note("%s: times read as full Julian dates; reference set to JD %d, the first point's day", r.file, r.refInt)
+	}
+
+	scratch := make([]float64, m)
+	med := median(s.Flux, scratch)
+	if !(med > 0) || math.IsInf(med, 0) {
+		return built{}, steps.BadInputf("%s: column %s: the median flux is %g; relative flux needs a positive median", r.file, r.cols[FluxCol], med)
+	}
+	for k := range s.Flux {
+		s.Flux[k] /= med
+		s.Err[k] /= med
+	}
+	note("%s: flux and errors divided by the median flux %s", r.file, strconv.FormatFloat(med, 'g', 8, 64))
+
+	if r.err == nil {
+		if m < 3 {
+			return built{}, steps.BadInputf("%s: no error column, and %d points are too few to estimate errors from their scatter", r.file, m)
+		}
+		sigma := PointScatter(s.Flux)
+		if !(sigma > 0) || math.IsInf(sigma, 0) {
+			return built{}, steps.BadInputf("%s: no error column, and the point-to-point scatter is %g, so no error can be estimated; add an error column", r.file, sigma)
+		}
+		for k := range s.Err {
+			s.Err[k] = sigma
+		}
+		note("%s: no error column; every point's error set to %s (1.4826 × MAD of successive differences / √2 of the normalised flux)", r.file, strconv.FormatFloat(sigma, 'g', 4, 64))
+	}
+
+	cadence := median(diffs(scratch[:0], s.Time), make([]float64, m-1))
+	switch {
+	case cfg.HasExposure:
+		s.Exposure = cfg.Exposure
+	default:
+		for _, c := range r.exposure {
+			if c.days > 0 && c.days <= maxExposureRatio*cadence {
+				s.Exposure = c.days
+				note("%s: exposure %s of one point from the header keyword %s = %s", r.file, minutes(c.days), c.key, c.text)
+				break
+			}
+			note("%s: header keyword %s = %s ignored as the exposure of one point: it is not between 0 and the median cadence %s", r.file, c.key, c.text, minutes(cadence))
+		}
+		if s.Exposure == 0 {
+			if !(cadence > 0) {
+				return built{}, steps.BadInputf("%s: the median time step is %g d, so no exposure can be derived from it; state exposure", r.file, cadence)
+			}
+			s.Exposure = cadence
+			note("%s: exposure of one point taken as the median cadence, %s", r.file, minutes(cadence))
+		}
+	}
+	return built{
+		seg:    s,
+		stats:  SegmentStats{Cadence: cadence, Dropped: d},
+		refInt: r.refInt, refFrac: r.refFrac, file: r.file,
+	}, nil
+}
+
+func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
+
+// minutes formats days as minutes for notes.
+func minutes(days float64) string {
+	return strconv.FormatFloat(days*1440, 'g', 6, 64) + " min"
+}
+
+// combine orders segments by their first time and puts them on the reference of the
+// earliest. Offsets are formed from the integer and fractional parts apart, so moving a
+// segment by whole days loses nothing.
+func combine(cfg *Config, bs []built, note noteFunc) *lightcurve.LightCurve {
+	start := func(b *built) float64 {
+		return float64(b.refInt) + b.refFrac + b.seg.Time[0]
+	}
+	sort.SliceStable(bs, func(i, j int) bool { return start(&bs[i]) < start(&bs[j]) })
+	lc := &lightcurve.LightCurve{TimeScale: cfg.TimeScale, RefInt: bs[0].refInt, RefFrac: bs[0].refFrac}
+	for i := range bs {
+		b := &bs[i]
+		if b.refInt != lc.RefInt || b.refFrac != lc.RefFrac {
+			off := float64(b.refInt-lc.RefInt) + (b.refFrac - lc.RefFrac)
+			for k := range b.seg.Time {
+				b.seg.Time[k] += off
+			}
+			note("%s: times moved by %s d onto the reference JD %d + %g of %s", b.file, strconv.FormatFloat(off, 'g', -1, 64), lc.RefInt, lc.RefFrac, bs[0].file)
+		}
+		lc.Segments = append(lc.Segments, b.seg)
+		lc.Dropped.NonFinite += b.stats.Dropped.NonFinite
+		lc.Dropped.Flagged += b.stats.Dropped.Flagged
+		lc.Dropped.BadError += b.stats.Dropped.BadError
+	}
+	return lc
+}
