@@ -91,9 +91,12 @@ type Parallel func(n int, block func(i int))
 // depend on it anyway: each point's window is built from the same set of values.
 const blockSize = 2048
 
-// maxFlareRounds bounds the remove-flares-and-re-estimate cycle; flares with long decay
-// tails are eaten a little more each round, and ten rounds are plenty in practice.
-const maxFlareRounds = 10
+// maxFlareRounds bounds the remove-flares-and-re-estimate cycle. The biweight already
+// gives a flare's points little weight, so one re-estimate after removing them is enough;
+// more rounds do harm where the trend lags a sharp turn of the star's light: the lagging
+// side sits above the trend, is taken for a flare, the trend then lags further, and the
+// clipping eats the whole turn (seen on spotted-star light curves with ten rounds).
+const maxFlareRounds = 2
 
 // gapFloor is the shortest gap at which series are split by default: half a day covers
 // the data downlinks and pointing resets after which an instrument's level commonly jumps
@@ -323,12 +326,14 @@ func fillMasked(tr, raw, t []float64, mask []bool, marks []Mark) {
 
 // findFlares marks the points of one piece that lie more than k robust sigmas above the
 // trend, appends their times to dst and returns it. The scatter is that of the relative
-// residuals of the points still used for the trend; with fewer than minPoints of them the
-// piece is left alone.
+// residuals of the points used for the trend together with those already taken as flares:
+// leaving the flares out would shrink the scatter every round (the upper tail goes, the
+// lower stays) and eat into the noise itself. With fewer than minPoints points the piece is
+// left alone.
 func findFlares(dst, t, f, tr []float64, use, flare []bool, marks []Mark, k float64, minPoints int) []float64 {
 	res := make([]float64, 0, len(t))
 	for j := range t {
-		if use[j] && tr[j] > 0 && finite(tr[j]) {
+		if (use[j] || flare[j]) && tr[j] > 0 && finite(tr[j]) {
 			res = append(res, f[j]/tr[j]-1)
 		}
 	}
