@@ -36,8 +36,10 @@ func (c *cli) storeCmd(args []string) int {
 			fmt.Fprintln(c.err, "dipline store stats:", err)
 			return exitFailed
 		}
-		fmt.Fprintf(c.out, "store %s\n", rel(store.Path()))
-		fmt.Fprintf(c.out, "%+v\n", st)
+		fmt.Fprintf(c.out, "store      %s (%s on disk)\n", rel(store.Path()), bytesText(st.FileBytes))
+		fmt.Fprintf(c.out, "results    %d (%s)\n", st.Results, bytesText(st.ResultBytes))
+		fmt.Fprintf(c.out, "step keys  %d, with %d provenance records\n", st.StepKeys, st.Provenance)
+		fmt.Fprintf(c.out, "runs       %d, %d pinned\n", st.Runs, st.Pins)
 	case "verify":
 		rep, err := store.Verify()
 		if err != nil {
@@ -71,8 +73,8 @@ func (c *cli) storeCmd(args []string) int {
 			fmt.Fprintln(c.err, "dipline store prune:", err)
 			return exitFailed
 		}
-		fmt.Fprintf(c.out, "dropped %d runs, kept %d; removed %d results (%d bytes); file %d → %d bytes\n",
-			len(rep.Dropped), rep.KeptRuns, rep.Results, rep.ResultBytes, rep.FileBefore, rep.FileAfter)
+		fmt.Fprintf(c.out, "dropped %d runs, kept %d (pinned runs are always kept); removed %d results (%s); file %s → %s\n",
+			len(rep.Dropped), rep.KeptRuns, rep.Results, bytesText(rep.ResultBytes), bytesText(rep.FileBefore), bytesText(rep.FileAfter))
 	case "merge":
 		if len(rest) != 1 {
 			fmt.Fprintln(c.err, "dipline store merge: name the other store's database file")
@@ -83,10 +85,30 @@ func (c *cli) storeCmd(args []string) int {
 			fmt.Fprintln(c.err, "dipline store merge:", err)
 			return exitFailed
 		}
-		fmt.Fprintf(c.out, "%+v\n", rep)
+		fmt.Fprintf(c.out, "merged %s: %d results, %d step keys, %d provenance records, %d runs, %d pins; %d damaged results repaired\n",
+			rest[0], rep.Results, rep.StepKeys, rep.Provenance, rep.Runs, rep.Pins, rep.Repaired)
+		for _, cf := range rep.Conflicts {
+			fmt.Fprintf(c.out, "  conflict: %v\n", cf)
+		}
+		if len(rep.Conflicts) > 0 {
+			return exitFailed
+		}
 	default:
 		fmt.Fprintf(c.err, "dipline store: unknown subcommand %q (stats, verify, prune, merge)\n", sub)
 		return exitBadUser
 	}
 	return exitOK
+}
+
+// bytesText writes a size in bytes for people.
+func bytesText(n int64) string {
+	switch {
+	case n >= 1<<30:
+		return fmt.Sprintf("%.1f GiB", float64(n)/(1<<30))
+	case n >= 1<<20:
+		return fmt.Sprintf("%.1f MiB", float64(n)/(1<<20))
+	case n >= 1<<10:
+		return fmt.Sprintf("%.1f KiB", float64(n)/(1<<10))
+	}
+	return fmt.Sprintf("%d B", n)
 }
