@@ -4,6 +4,7 @@ import (
 	"crypto/sha256"
 	"encoding/binary"
 	"fmt"
+	"math"
 	"runtime"
 	"sort"
 	"strconv"
@@ -137,7 +138,12 @@ func (s *Step) Rendered() map[string]string {
 }
 
 func render(p steps.Param, v any) string {
-	g := func(f float64) string { return strconv.FormatFloat(f, 'g', -1, 64) }
+	g := func(f float64) string {
+		if a := math.Abs(f); a == 0 || (a >= 1e-4 && a < 1e15) {
+			return strconv.FormatFloat(f, 'f', -1, 64) // 2460000, not 2.46e+06
+		}
+		return strconv.FormatFloat(f, 'g', -1, 64)
+	}
 	switch x := v.(type) {
 	case float64:
 		if p.Dim != nil {
