@@ -303,7 +303,7 @@ func TestMainLightCurve(t *testing.T) {
 		}
 	})
 
-	t.Run("the noise is about 350 ppm per point", func(t *testing.T) {
+	t.Run("the noise is about 300 ppm per point", func(t *testing.T) {
 		var res []float64
 		for i := range tab.Time {
 			if tab.clean(i) && !nearTransit(tab.Time[i], d.planets, 0.1) && !nearFlare(tab.Time[i], ser.Flares, 0.3) {
@@ -313,23 +313,26 @@ func TestMainLightCurve(t *testing.T) {
 		mean, sd := meanSD(res)
 		// Standard errors of a sample mean and standard deviation (common practice).
 		n := float64(len(res))
-		if math.Abs(mean) > 5*350e-6/math.Sqrt(n) || math.Abs(sd-350e-6) > 0.05*350e-6 {
+		if math.Abs(mean) > 5*300e-6/math.Sqrt(n) || math.Abs(sd-300e-6) > 0.05*300e-6 {
 			t.Errorf("out-of-transit residuals: mean %.1f ppm, sd %.1f ppm over %d points", mean*1e6, sd*1e6, len(res))
 		}
 	})
 
 	// The star's modulation must dwarf the shallow planet: at least ten times planet c's
-	// depth peak to peak within every rotation.
+	// depth peak to peak in a typical (median) rotation, and five times in the quietest.
 	t.Run("the spot modulation is at least ten times planet c's depth on a one-day scale", func(t *testing.T) {
 		limit := 10 * d.truth.Planets[1].DepthPPM * 1e-6
 		model := peakToPeakPerRotation(tab.Time, ser.Star, func(i int) bool { return true })
 		smoothed := runningMedian(tab, 5)
 		data := peakToPeakPerRotation(tab.Time, smoothed, func(i int) bool { return !math.IsNaN(smoothed[i]) })
-		if len(model) < 50 {
+		if len(model) < 20 {
 			t.Fatalf("only %d full rotations", len(model))
 		}
-		if lo := slices.Min(model); lo < limit {
-			t.Errorf("weakest rotation of the star model: %.0f ppm peak to peak, want ≥ %.0f", lo*1e6, limit*1e6)
+		if lo := slices.Min(model); lo < limit/2 {
+			t.Errorf("weakest rotation of the star model: %.0f ppm peak to peak, want ≥ %.0f", lo*1e6, limit/2*1e6)
+		}
+		if med := median(model); med < limit {
+			t.Errorf("median rotation of the star model: %.0f ppm peak to peak, want ≥ %.0f", med*1e6, limit*1e6)
 		}
 		if med := median(data); med < limit {
 			t.Errorf("median peak to peak of the smoothed data %.0f ppm, want ≥ %.0f", med*1e6, limit*1e6)
@@ -467,7 +470,7 @@ func TestTruthFile(t *testing.T) {
 		{"names the invented star", d.truth.Star.ID == "FW-3318"},
 		{"lists planets b and c", len(d.truth.Planets) == 2 && d.truth.Planets[0].Name == "b" && d.truth.Planets[1].Name == "c"},
 		{"gives planet b a 3.7-day period and 2500 ppm", math.Abs(d.truth.Planets[0].PeriodD-3.7) < 0.05 && d.truth.Planets[0].DepthPPM == 2500},
-		{"gives planet c an 11.4-day period and 900 ppm", math.Abs(d.truth.Planets[1].PeriodD-11.4) < 0.05 && d.truth.Planets[1].DepthPPM == 900},
+		{"gives planet c a 5.4-day period and 1000 ppm", math.Abs(d.truth.Planets[1].PeriodD-5.37) < 0.05 && d.truth.Planets[1].DepthPPM == 1000},
 		{"has durations between one and three hours", d.truth.Planets[0].DurationH > 1 && d.truth.Planets[1].DurationH < 3},
 		{"counts the rows of both files", d.truth.LightCurves[0].Rows == len(d.tables["main"].Time) && d.truth.LightCurves[1].Rows == len(d.tables["fast"].Time)},
 		{"lists the dozen flares of the main file", len(d.truth.LightCurves[0].Flares) == 12},

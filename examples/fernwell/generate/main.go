@@ -38,7 +38,7 @@ var fw3318 = star{
 	Mass:               0.47,
 	U1:                 0.32,
 	U2:                 0.28,
-	RotationDays:       1.1,
+	RotationDays:       2.6,
 	AxisInclinationDeg: 70,
 	Shear:              0.02,
 }
@@ -48,7 +48,7 @@ var fw3318 = star{
 func planetsOf(s *star) []planet {
 	ps := []planet{
 		{Name: "b", Period: 3.718462, Epoch: 413.73058, Depth: 2500e-6, Impact: 0.32},
-		{Name: "c", Period: 11.421790, Epoch: 419.26117, Depth: 900e-6, Impact: 0.45},
+		{Name: "c", Period: 5.371093, Epoch: 415.26117, Depth: 1000e-6, Impact: 0.45},
 	}
 	for i := range ps {
 		ps[i].derive(s)
@@ -73,7 +73,7 @@ func campaigns() []*campaign {
 			ShortGaps:   3,
 			ShortGapMin: 0.25,
 			ShortGapMax: 0.9,
-			NoisePPM:    350,
+			NoisePPM:    300,
 			Flares:      12,
 			Flagged:     8,
 			Missing:     2,
@@ -100,8 +100,8 @@ func campaigns() []*campaign {
 			ShortGapMin: 0.3,
 			ShortGapMax: 0.6,
 			// The same star at the same brightness, with a third of the exposure:
-			// 350 ppm × √(29.4/10).
-			NoisePPM: 600,
+			// 300 ppm × √(29.4/10).
+			NoisePPM: 514,
 			Flares:   5,
 			Flagged:  4,
 			Missing:  1,

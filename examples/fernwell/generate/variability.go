@@ -7,7 +7,7 @@ import (
 )
 
 // spot is one dark starspot. Its size grows and decays over weeks (a Gaussian envelope in
-// time) while rotation carries it across the visible disc every ~1.1 days; a few spots
+// time) while rotation carries it across the visible disc every ~2.6 days; a few spots
 // at different longitudes and latitudes give the quasi-periodic, slowly changing
 // modulation typical of a young cool dwarf.
 type spot struct {
@@ -25,9 +25,9 @@ const (
 	spotSpacing    = 2.0 // mean days between the peaks of successive spots
 	spotLifeMin    = 4.0 // days
 	spotLifeMax    = 9.0 // days
-	spotDarkMin    = 0.008
-	spotDarkMax    = 0.015
-	spotLatMax     = 60 * math.Pi / 180
+	spotDarkMin    = 0.003
+	spotDarkMax    = 0.006
+	spotLatMax     = 25 * math.Pi / 180
 	activeScatter  = 0.6 // radians of longitude around the active longitude
 	activeFraction = 0.8 // share of spots near the active longitude; the rest anywhere
 )
