@@ -1,0 +1,134 @@
+package bls
+
+import (
+	"fmt"
+	"math"
+	"os"
+	"runtime"
+	"sort"
+	"strconv"
+	"sync"
+	"testing"
+)
+
+// noiseCase is one kind of light curve for the white-noise calibration of the SDE
+// threshold: span and cadence in days, mid-span gap in days, the star's density, and the
+// default period range of the search step (Roche-type limit or 0.2 d, to half the span).
+type noiseCase struct {
+	name               string
+	span, cadence, gap float64
+	density            float64
+}
+
+func (c noiseCase) options() Options {
+	o := defaultOptions(math.Max(0.2, RochePeriod(c.density)), c.span/2)
+	o.Density = c.density
+	return o
+}
+
+// noiseCases are the light curves of the calibration: all at most 90 days long, as in the
+// white-noise test of Hippke & Heller (2019, A&A 623, A39).
+var noiseCases = []noiseCase{
+	{"90 d at 30 min, Sun-like star", 90, 30.0 / 1440, 0, solarDensity},
+	{"27 d at 2 min with a 1 d gap, Sun-like star", 27, 2.0 / 1440, 1, solarDensity},
+	{"90 d at 10 min, red dwarf (4 ρ☉)", 90, 10.0 / 1440, 0, 4 * solarDensity},
+	{"60 d at 30 min with a 3 d gap, dense dwarf (8 ρ☉)", 60, 30.0 / 1440, 3, 8 * solarDensity},
+	{"45 d at 30 min, Sun-like star", 45, 30.0 / 1440, 0, solarDensity},
+}
+
+// noiseSDE returns the highest SDE of the first pass over pure white noise.
+func noiseSDE(c noiseCase, seed uint64) float64 {
+	s := synth(seed, c.span, c.cadence, 1e-3, c.gap)
+	o := c.options()
+	g, err := NewGrid(o.Density, s.Time[len(s.Time)-1]-s.Time[0], o.PeriodMin, o.PeriodMax, o.Oversampling)
+	if err != nil {
+		panic(err)
+	}
+	p := prepare(s, nil, s.Cadence())
+	score, _ := detrendedSDE(periodogram(p, g, nil, nil).power)
+	return score
+}
+
+// noiseSDEs runs trials light curves of case c, seeded base, base+1, …, spread over the
+// machine's cores; the result is in seed order whatever the scheduling.
+func noiseSDEs(c noiseCase, trials int, base uint64) []float64 {
+	out := make([]float64, trials)
+	var wg sync.WaitGroup
+	next := make(chan int)
+	for w := 0; w < runtime.GOMAXPROCS(0); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for k := range next {
+				out[k] = noiseSDE(c, base+uint64(k))
+			}
+		}()
+	}
+	for k := range out {
+		next <- k
+	}
+	close(next)
+	wg.Wait()
+	return out
+}
+
+// quantile returns the q-quantile of v (sorted in place) as the order statistic ⌈q·n⌉.
+func quantile(v []float64, q float64) float64 {
+	sort.Float64s(v)
+	k := int(math.Ceil(q*float64(len(v)))) - 1
+	return v[max(0, min(len(v)-1, k))]
+}
+
+// TestCalibrateSDEThreshold measures, for each noise case, the distribution of the highest
+// SDE over white-noise light curves and checks that DefaultSDEThreshold is at least the
+// 99th percentile of every case, i.e. a false-alarm rate of at most 1 % per star.
+// It takes minutes; run it with
+//
+//	DIPLINE_LONG=1 go test ./steps/search/bls -run CalibrateSDE -v -timeout 2h
+//
+// (DIPLINE_SDE_TRIALS sets the trials per case, default 2000).
+func TestCalibrateSDEThreshold(t *testing.T) {
+	if os.Getenv("DIPLINE_LONG") == "" {
+		t.Skip("white-noise calibration of the SDE threshold; set DIPLINE_LONG=1 to run it")
+	}
+	trials := 2000
+	if v, err := strconv.Atoi(os.Getenv("DIPLINE_SDE_TRIALS")); err == nil && v > 0 {
+		trials = v
+	}
+	for i, c := range noiseCases {
+		t.Run(c.name, func(t *testing.T) {
+			v := noiseSDEs(c, trials, uint64(1_000_000*(i+1)))
+			exceed := 0
+			for _, x := range v {
+				if x >= DefaultSDEThreshold {
+					exceed++
+				}
+			}
+			q50, q90, q99, q999 := quantile(v, 0.5), quantile(v, 0.9), quantile(v, 0.99), quantile(v, 0.999)
+			t.Logf("%s: %d trials; SDE median %.2f, 90%% %.2f, 99%% %.2f, 99.9%% %.2f, max %.2f; %d at or above %.1f",
+				c.name, trials, q50, q90, q99, q999, v[len(v)-1], exceed, DefaultSDEThreshold)
+			if q99 > DefaultSDEThreshold {
+				t.Errorf("the 99th percentile %.2f exceeds the default threshold %.1f", q99, DefaultSDEThreshold)
+			}
+		})
+	}
+}
+
+// TestWhiteNoiseStaysBelowThreshold: over 200 seeded 45-day white-noise light curves (the
+// last noise case) the highest SDE reaches the default threshold in at most 6: at a true
+// false-alarm rate of 1 %, 7 or more happen with probability 0.5 % (binomial, n = 200),
+// while a rate of 5 % would give 7 or more with probability 87 %.
+func TestWhiteNoiseStaysBelowThreshold(t *testing.T) {
+	c := noiseCases[len(noiseCases)-1]
+	v := noiseSDEs(c, 200, 42)
+	exceed := 0
+	for _, x := range v {
+		if x >= DefaultSDEThreshold {
+			exceed++
+		}
+	}
+	if exceed > 6 {
+		t.Errorf("%d of 200 white-noise light curves reached SDE %.1f; at most 6 expected at a 1 %% false-alarm rate", exceed, DefaultSDEThreshold)
+	}
+	t.Log(fmt.Sprintf("max SDE %.2f, %d of 200 at or above %.1f", quantile(v, 1), exceed, DefaultSDEThreshold))
+}

@@ -1,0 +1,49 @@
+package bls
+
+import (
+	"math"
+	"testing"
+)
+
+func TestDetrendedSDEMeasuresAPeakAgainstItsNeighbourhood(t *testing.T) {
+	// A spectrum of 6400 points rising linearly from 1 to 11 (the low-frequency rise of a
+	// box search), with a small deterministic ripple of ±0.1 and a peak of +2 near the low
+	// end of the rise. Against the whole spectrum the peak is lost: its value, 4.6, is under
+	// the spectrum's mean of 6 (σ about 2.9), and the raw SDE picks the top of the rise
+	// instead. Against its neighbourhood it stands about 28 ripple-σ high.
+	const n = 6400
+	p := make([]float64, n)
+	for j := range p {
+		p[j] = 1 + 10*float64(j)/n + 0.1*math.Sin(float64(j)*1.7)
+	}
+	p[1000] += 2
+	_, rawPeak := sde(p)
+	got, peak := detrendedSDE(p)
+	if peak != 1000 {
+		t.Fatalf("detrended peak at %d, want 1000", peak)
+	}
+	if rawPeak == 1000 {
+		t.Errorf("the raw SDE found the peak; the test meant to hide it under the rise")
+	}
+	// Ripple σ = 0.1/√2; the peak's height 2 is about 28 of those; allow for the
+	// interpolated trend's small error.
+	if got < 20 {
+		t.Errorf("detrended SDE %.2f, want ≥ 20", got)
+	}
+}
+
+func TestDetrendedSDEOfAFlatSpectrumIsTheRawOne(t *testing.T) {
+	// On a spectrum with no trend the block medians are all equal, so removing them changes
+	// no difference between points: the SDE is the raw one.
+	const n = 1000
+	p := make([]float64, n)
+	for j := range p {
+		p[j] = 5 + math.Sin(float64(j)*0.37)
+	}
+	p[333] = 9
+	raw, rp := sde(p)
+	got, gp := detrendedSDE(p)
+	if gp != rp || math.Abs(got-raw) > 0.02*raw {
+		t.Errorf("flat spectrum: detrended SDE %.3f at %d, raw %.3f at %d", got, gp, raw, rp)
+	}
+}

@@ -1,0 +1,250 @@
+// Package search is the search step kind: a periodic transit search by box least squares
+// over a light curve from a photometry or detrend step. It builds a frequency grid uniform
+// in f^{1/3} for the stated stellar density (Ofir 2014), keeps per frequency the best dip
+// over durations and phases, accepts the highest peak when its SDE reaches a threshold
+// calibrated on white noise, refines it, masks its transits and searches again, up to a
+// number of signals. The numerics live in the bls sub-package and know nothing of workflow
+// files; this package turns a block's values into bls.Options, runs them on the engine's
+// worker pool and wraps the outcome as an Artifact.
+//
+// Main entry point: Kind (register it with the engine). The artifact, *Artifact, gives its
+// signals through signals.Source, so detrend (masking), fit, vet and ephemeris steps can
+// take it. It does not detrend, fit a transit model or judge whether a signal is a planet.
+package search
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"sync"
+
+	"dipline/steps"
+	"dipline/steps/internal/lightcurve"
+	"dipline/steps/search/bls"
+	"dipline/steps/units"
+)
+
+// Kind is the search step kind.
+type Kind struct{}
+
+// version is bumped whenever the numbers or the encoding change.
+const version = 1
+
+// Defaults, each with its reason.
+const (
+	// defaultShortest is the shortest trial period unless the star's Roche-type limit is
+	// longer: 0.2 d is near the fluid Roche limit of a rocky planet of about 7 g/cm³,
+	// P ≈ 12.6 h·(ρ_p/1 g cm⁻³)^{-1/2} (Rappaport et al. 2013, ApJ 773, L15, from memory).
+	defaultShortest = 0.2
+	// defaultSpanFraction puts the longest trial period at half the data span, so that at
+	// least two transits fall in the data.
+	defaultSpanFraction = 0.5
+	// defaultOversampling samples a drift of one transit duration over the span three
+	// times (Ofir 2014 uses 2–5; common practice).
+	defaultOversampling = 3.0
+	// defaultMaxSignals: three passes find the usual compact systems seen in one light curve
+	// while bounding the work.
+	defaultMaxSignals = 3
+	// defaultMaskFactor masks two box durations around each found mid-transit before the
+	// next pass: a box fitted to a limb-darkened or V-shaped transit is shorter than first
+	// to last contact (down to about half of it), and leftover ingress and egress would
+	// otherwise come back as a weaker signal at the same period.
+	defaultMaskFactor = 2.0
+)
+
+// solarDensity is the nominal Sun's mean density in g/cm³, the density unit "rho_sun".
+var solarDensity = units.Density.Units["rho_sun"]
+
+// Name is the block type.
+func (Kind) Name() string { return "search" }
+
+// Version is the kind's version.
+func (Kind) Version() int { return version }
+
+// Random is false: the search draws no random numbers.
+func (Kind) Random() bool { return false }
+
+// Doc is one sentence for the kinds listing.
+func (Kind) Doc() string {
+	return "Searches a light curve for periodic transit-like dips by box least squares on a grid uniform in f^(1/3), finding up to max_signals signals one after another."
+}
+
+// Params is the block's schema.
+func (Kind) Params() []steps.Param {
+	return []steps.Param{
+		{Name: "light_curve", Type: steps.Ref, Kinds: []string{"photometry", "detrend"},
+			Doc: "the light curve to search: a photometry step, or (usually) a detrend step"},
+		{Name: "periods", Type: steps.QuantityRange, Dim: units.Time, Optional: true,
+			Doc: "shortest and longest trial period; by default from 0.2 d (or the star's Roche-type limit, the orbit at 3 stellar radii, if longer) to half the data span"},
+		{Name: "star_density", Type: steps.Quantity, Dim: units.Density, Default: solarDensity,
+			Doc: "mean density of the star: it sets the grid's spacing and the transit durations tried at each period (from 0.3 to 1.75 times that of a central transit); by default the Sun's, \"1 rho_sun\""},
+		{Name: "oversampling", Type: steps.Number, Default: defaultOversampling,
+			Doc: "trial frequencies per drift of one transit duration over the data span (Ofir 2014); more finds weak signals a little more surely and costs proportionally more"},
+		{Name: "max_signals", Type: steps.Integer, Default: int64(defaultMaxSignals),
+			Doc: "the search stops after finding this many signals, each found after masking the ones before"},
+		{Name: "sde_threshold", Type: steps.Number, Default: bls.DefaultSDEThreshold,
+			Doc: "signal detection efficiency a periodogram peak must reach to count as a signal; the default holds white-noise false alarms to about 1 % per star"},
+		{Name: "mask_factor", Type: steps.Number, Default: defaultMaskFactor,
+			Doc: "the stretch masked around each found mid-transit before searching again, in transit durations"},
+	}
+}
+
+// Config is the decoded configuration of one search block.
+type Config struct {
+	// Periods is the trial-period range in days; zero when it is to be derived from the data.
+	Periods      [2]float64
+	Density      float64 // g/cm³
+	Oversampling float64
+	MaxSignals   int
+	SDEThreshold float64
+	MaskFactor   float64
+}
+
+// Prepare checks the values and builds a Config.
+func (Kind) Prepare(v steps.Values) (any, error) {
+	c := Config{
+		Density:      v.Float("star_density"),
+		Oversampling: v.Float("oversampling"),
+		SDEThreshold: v.Float("sde_threshold"),
+		MaskFactor:   v.Float("mask_factor"),
+	}
+	finite := func(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }
+	if !(c.Density > 0) || !finite(c.Density) {
+		return nil, steps.Attrf("star_density", "must be a positive density, not %v g/cm3", c.Density)
+	}
+	if !(c.Oversampling >= 1 && c.Oversampling <= 20) {
+		return nil, steps.Attrf("oversampling", "must be between 1 and 20, not %v", c.Oversampling)
+	}
+	n := v.Int("max_signals")
+	if n < 1 || n > 20 {
+		return nil, steps.Attrf("max_signals", "must be between 1 and 20, not %d", n)
+	}
+	c.MaxSignals = int(n)
+	if !(c.SDEThreshold > 0) || !finite(c.SDEThreshold) {
+		return nil, steps.Attrf("sde_threshold", "must be a positive number, not %v", c.SDEThreshold)
+	}
+	if !(c.MaskFactor >= 1 && c.MaskFactor <= 10) {
+		return nil, steps.Attrf("mask_factor", "must be between 1 and 10 transit durations, not %v", c.MaskFactor)
+	}
+	if v.Has("periods") {
+		r := v.Range("periods")
+		if !(r[0] > 0) || !(r[1] > r[0]) || !finite(r[1]) {
+			return nil, steps.Attrf("periods", "must be two positive times, shortest first, not %v d and %v d", r[0], r[1])
+		}
+		if a := bls.ScaledAxis(r[0], c.Density); a <= 1 {
+			return nil, steps.Attrf("periods", "the shortest period, %.4g d, would put the orbit inside a star of %.4g g/cm3 (a/R* = %.3g); the shortest possible is %.4g d",
+				r[0], c.Density, a, bls.PeriodAtAxis(1, c.Density))
+		}
+		c.Periods = r
+	}
+	return c, nil
+}
+
+// Run searches the referenced light curve.
+func (Kind) Run(ctx context.Context, cfgAny any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
+	cfg, ok := cfgAny.(Config)
+	if !ok {
+		return nil, fmt.Errorf("search: configuration of type %T", cfgAny)
+	}
+	if err := ctx.Err(); err != nil {
+		return nil, err
+	}
+	src, ok := in.Ref("light_curve").(lightcurve.Source)
+	if !ok || src.LightCurve() == nil {
+		return nil, errors.New("search: light_curve does not refer to a step with a light curve")
+	}
+	par := func(n int, block func(i int)) {
+		env.Pool.Parallel(n, func(i int) {
+			if ctx.Err() == nil {
+				block(i)
+			}
+		})
+	}
+	var mu sync.Mutex
+	progress := func(pass, done, total int) {
+		if env.Progress != nil {
+			mu.Lock()
+			env.Progress(pass*total+done, cfg.MaxSignals*total)
+			mu.Unlock()
+		}
+	}
+	art, notes, err := Search(cfg, src.LightCurve(), par, progress)
+	if err != nil {
+		return nil, err
+	}
+	if err := ctx.Err(); err != nil {
+		return nil, err
+	}
+	for _, n := range notes {
+		env.Note("%s", n)
+	}
+	return art, nil
+}
+
+// Search is the library entry point behind Run: it searches lc with cfg, spreading blocks
+// of frequencies with par (nil: serially), and returns the artifact with the facts worth
+// telling the user (the derived period range, the grid). Problems with the light curve are
+// *steps.InputError values.
+func Search(cfg Config, lc *lightcurve.LightCurve, par bls.Parallel, progress func(pass, done, total int)) (*Artifact, []string, error) {
+	t, f, e, _ := lc.Flat()
+	s := bls.Series{Time: t, Flux: f, Err: e}
+	if err := s.Check(); err != nil {
+		return nil, nil, steps.BadInputf("light_curve: %v", err)
+	}
+	if len(t) < minPoints {
+		return nil, nil, steps.BadInputf("light_curve: %d points are too few to search (at least %d)", len(t), minPoints)
+	}
+	var notes []string
+	span := t[len(t)-1] - t[0]
+	lo, hi := cfg.Periods[0], cfg.Periods[1]
+	roche := bls.RochePeriod(cfg.Density)
+	if hi == 0 {
+		lo, hi = math.Max(defaultShortest, roche), defaultSpanFraction*span
+		why := "0.2 d"
+		if roche > defaultShortest {
+			why = fmt.Sprintf("the Roche-type limit of a %.3g g/cm3 star, the orbit at 3 stellar radii", cfg.Density)
+		}
+		if lo >= hi {
+			return nil, nil, steps.BadInputf("light_curve: the data span %.4g d, too short for two transits of any period above %.4g d (%s)", span, lo, why)
+		}
+		notes = append(notes, fmt.Sprintf("periods: %.4g d (%s) to %.4g d (half the %.4g d span, so that two transits fall in the data)", lo, why, hi, span))
+	} else {
+		if lo < roche {
+			notes = append(notes, fmt.Sprintf("periods: the shortest, %.4g d, is inside the Roche-type limit of a %.3g g/cm3 star (%.4g d, the orbit at 3 stellar radii); searched as asked", lo, cfg.Density, roche))
+		}
+		if hi > span {
+			if lo >= span {
+				return nil, nil, steps.BadInputf("light_curve: the data span %.4g d is shorter than the shortest trial period %.4g d", span, lo)
+			}
+			notes = append(notes, fmt.Sprintf("periods: the longest, %.4g d, exceeds the %.4g d span and was lowered to it", hi, span))
+			hi = span
+		}
+	}
+	opt := bls.Options{
+		Density: cfg.Density, PeriodMin: lo, PeriodMax: hi, Oversampling: cfg.Oversampling,
+		MaxSignals: cfg.MaxSignals, SDEThreshold: cfg.SDEThreshold, MaskFactor: cfg.MaskFactor,
+	}
+	res, err := bls.Search(s, opt, par, progress)
+	if err != nil {
+		return nil, nil, steps.BadInputf("light_curve: %v", err)
+	}
+	g := res.Grid
+	notes = append(notes, fmt.Sprintf("grid: %d frequencies uniform in f^(1/3) (Ofir 2014) over %.4g–%.4g d for a star of %.4g g/cm3 (%.3g rho_sun), oversampling %g",
+		g.N, 1/g.FMax, 1/g.FMin, g.Density, g.Density/solarDensity, g.Oversampling))
+	art := newArtifact(lc, res)
+	found := len(art.Signals())
+	last := res.Passes[len(res.Passes)-1]
+	switch {
+	case last.Found == nil && last.SDE < cfg.SDEThreshold:
+		notes = append(notes, fmt.Sprintf("%d signal(s) found; the next peak (%.4g d) has SDE %.2f, below %.3g", found, g.Period(last.Peak), last.SDE, cfg.SDEThreshold))
+	case last.Found == nil:
+		notes = append(notes, fmt.Sprintf("%d signal(s) found; the next peak (%.4g d, SDE %.2f) gave no dip on refinement", found, g.Period(last.Peak), last.SDE))
+	default:
+		notes = append(notes, fmt.Sprintf("%d signal(s) found; max_signals reached", found))
+	}
+	return art, notes, nil
+}
+
+// minPoints is the fewest points the search accepts.
+const minPoints = 20
