@@ -5,9 +5,12 @@ package kinds
 
 import (
 	"dipline/steps"
+	"dipline/steps/detrend"
+	"dipline/steps/photometry"
+	"dipline/steps/search"
 )
 
 // Registry returns every step kind, checked.
 func Registry() (steps.Registry, error) {
-	return steps.NewRegistry()
+	return steps.NewRegistry(photometry.Kind{}, detrend.Kind{}, search.Kind{})
 }

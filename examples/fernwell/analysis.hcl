@@ -1,0 +1,39 @@
+# FW-3318: an invented cool dwarf with two invented transiting planets (see README.md).
+# Run from the repository root:  go run ./cmd/dipline run examples/fernwell/analysis.hcl
+
+analysis "fw-3318" {
+  seed = 3318
+}
+
+# The light curve: times are BJD_TDB − 2460000 (the file's header says so).
+photometry "survey" {
+  files     = ["data/fw3318.csv"]
+  time_zero = 2460000
+}
+
+# Remove the spot modulation with a sliding biweight; flares are clipped upward only.
+# The window should be about three times the longest transit sought, short enough to
+# follow the 2.6-day rotation.
+detrend "spots" {
+  light_curve = photometry.survey
+  span        = "0.3 d" # ≈ 3 × 2.3 h, a central transit at P = 10 d for this density
+}
+
+# A first search finds the strongest dips.
+search "first" {
+  light_curve  = detrend.spots
+  star_density = "7 g/cm3" # a dwarf of about 0.45 R☉ and 0.47 M☉
+}
+
+# Detrend again with the transits found above left out of the trend, so they keep
+# their full depth, and search once more.
+detrend "masked" {
+  light_curve = photometry.survey
+  span        = "0.3 d" # ≈ 3 × 2.3 h, a central transit at P = 10 d for this density
+  mask        = search.first
+}
+
+search "dips" {
+  light_curve  = detrend.masked
+  star_density = "7 g/cm3"
+}
