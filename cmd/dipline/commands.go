@@ -10,7 +10,6 @@ import (
 	"time"
 
 	"dipline/cache"
-	"dipline/steps"
 	"dipline/workflow"
 )
 
@@ -183,14 +182,25 @@ func (c *cli) openStore(path string) (*workflow.Workflow, *cache.Store, int) {
 	return w, store, exitOK
 }
 
-func (c *cli) pending(args []string) int {
-	fs := flag.NewFlagSet("pending", flag.ContinueOnError)
+// storeArgs parses a command's options, takes the workflow file from the positionals,
+// checks that want further arguments remain (any number when want < 0; usage says what
+// they are) and opens the workflow's store. A non-zero code means the command is over.
+func (c *cli) storeArgs(fs *flag.FlagSet, args []string, want int, usage string) (*workflow.Workflow, *cache.Store, []string, int) {
 	pos, ok := c.flags(fs, args)
 	if !ok {
-		return exitBadUser
+		return nil, nil, nil, exitBadUser
 	}
-	path, _ := splitWorkflow(pos)
+	path, rest := splitWorkflow(pos)
+	if want >= 0 && len(rest) != want {
+		fmt.Fprintf(c.err, "dipline %s: %s\n", fs.Name(), usage)
+		return nil, nil, nil, exitBadUser
+	}
 	w, store, code := c.openStore(path)
+	return w, store, rest, code
+}
+
+func (c *cli) pending(args []string) int {
+	w, store, _, code := c.storeArgs(flag.NewFlagSet("pending", flag.ContinueOnError), args, 0, "takes only the workflow file")
 	if code != exitOK {
 		return code
 	}
@@ -220,16 +230,7 @@ func (c *cli) pending(args []string) int {
 func (c *cli) trace(args []string) int {
 	fs := flag.NewFlagSet("trace", flag.ContinueOnError)
 	runRef := fs.String("run", "latest", "the run to trace in (id, prefix, latest or previous)")
-	pos, ok := c.flags(fs, args)
-	if !ok {
-		return exitBadUser
-	}
-	path, rest := splitWorkflow(pos)
-	if len(rest) != 1 {
-		fmt.Fprintln(c.err, "dipline trace: name one step (kind.label) or one figure (kind.label/name)")
-		return exitBadUser
-	}
-	_, store, code := c.openStore(path)
+	_, store, rest, code := c.storeArgs(fs, args, 1, "name one step (kind.label) or one figure (kind.label/name)")
 	if code != exitOK {
 		return code
 	}
@@ -283,13 +284,7 @@ func (c *cli) printNode(n *workflow.TraceNode, indent string, shown map[string]b
 }
 
 func (c *cli) runs(args []string) int {
-	fs := flag.NewFlagSet("runs", flag.ContinueOnError)
-	pos, ok := c.flags(fs, args)
-	if !ok {
-		return exitBadUser
-	}
-	path, _ := splitWorkflow(pos)
-	_, store, code := c.openStore(path)
+	_, store, _, code := c.storeArgs(flag.NewFlagSet("runs", flag.ContinueOnError), args, 0, "takes only the workflow file")
 	if code != exitOK {
 		return code
 	}
@@ -328,16 +323,7 @@ func (c *cli) pin(args []string) int {
 	fs := flag.NewFlagSet("pin", flag.ContinueOnError)
 	note := fs.String("note", "pinned", "why the run is kept, e.g. the paper it supports")
 	remove := fs.Bool("remove", false, "unpin the run")
-	pos, ok := c.flags(fs, args)
-	if !ok {
-		return exitBadUser
-	}
-	path, rest := splitWorkflow(pos)
-	if len(rest) != 1 {
-		fmt.Fprintln(c.err, "dipline pin: name one run (id, prefix, latest or previous)")
-		return exitBadUser
-	}
-	_, store, code := c.openStore(path)
+	_, store, rest, code := c.storeArgs(fs, args, 1, "name one run (id, prefix, latest or previous)")
 	if code != exitOK {
 		return code
 	}
@@ -386,6 +372,5 @@ func (c *cli) kinds(args []string) int {
 		}
 		fmt.Fprintln(c.out)
 	}
-	_ = steps.Number
 	return exitOK
 }

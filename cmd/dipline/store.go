@@ -20,12 +20,7 @@ func (c *cli) storeCmd(args []string) int {
 		keepLast  = fs.Int("keep-last", 0, "prune: keep only the N most recent runs (pinned runs are always kept)")
 		repair    = fs.Bool("repair", false, "verify: delete damaged entries so the next run recomputes them")
 	)
-	pos, ok := c.flags(fs, args)
-	if !ok {
-		return exitBadUser
-	}
-	path, rest := splitWorkflow(pos)
-	_, store, code := c.openStore(path)
+	_, store, rest, code := c.storeArgs(fs, args, -1, "")
 	if code != exitOK {
 		return code
 	}

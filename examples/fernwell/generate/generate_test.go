@@ -153,7 +153,7 @@ func TestGeneratorIsDeterministic(t *testing.T) {
 
 // TestSplitmix64 checks the generator against the first outputs of Steele, Lea & Flood's
 // splitmix64 from state 0 (from memory; confirmed with an independent Python
-// transcription of the published algorithm).
+// implementation of the published algorithm).
 func TestSplitmix64(t *testing.T) {
 	r := &splitmix64{}
 	for i, want := range []uint64{0xe220a8397b1dcdaf, 0x6e789e6aa1b965f4, 0x06c45d188009454f} {
