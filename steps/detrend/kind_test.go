@@ -4,7 +4,6 @@ import (
 	"bytes"
 	"context"
 	"errors"
-	"fmt"
 	"math"
 	"strings"
 	"testing"
@@ -14,6 +13,7 @@ import (
 	"dipline/steps/internal/golden"
 	"dipline/steps/internal/lightcurve"
 	"dipline/steps/internal/signals"
+	"dipline/steps/internal/steptest"
 )
 
 // splitmix is SplitMix64 (Steele, Lea & Flood 2014) with a Box–Muller normal: our own
@@ -86,38 +86,20 @@ func fixture(nseg, n int) (*lightcurve.LightCurve, signals.Signal) {
 
 // values decodes a block as the engine would: defaults applied, then the given attributes.
 func values(set map[string]any) steps.Values {
-	v := steps.Values{"light_curve": "photometry.survey"}
-	for _, p := range (Kind{}).Params() {
-		if p.Default != nil {
-			v[p.Name] = p.Default
-		}
-	}
-	for k, x := range set {
-		v[k] = x
+	v := steptest.Values(Kind{}, set)
+	if _, ok := set["light_curve"]; !ok {
+		v["light_curve"] = "photometry.survey"
 	}
 	return v
 }
 
 func run(t testing.TB, set map[string]any, lc *lightcurve.LightCurve, sigs []signals.Signal, workers int) (*Result, []string) {
 	t.Helper()
-	cfg, err := Kind{}.Prepare(values(set))
-	if err != nil {
-		t.Fatal(err)
-	}
 	in := steps.Inputs{Refs: map[string][]steps.Artifact{"light_curve": {photometry{lc}}}}
 	if sigs != nil {
 		in.Refs["mask"] = []steps.Artifact{search{sigs}}
 	}
-	var notes []string
-	var pool *steps.Pool // nil: serial
-	if workers > 0 {
-		pool = steps.NewPool(workers)
-		pool.TryAcquire(1) // the token the engine holds for the running step
-	}
-	env := steps.Env{Pool: pool, Notef: func(f string, a ...any) {
-		notes = append(notes, fmt.Sprintf(f, a...))
-	}}
-	art, err := Kind{}.Run(context.Background(), cfg, in, env)
+	art, notes, err := steptest.Run(Kind{}, values(set), in, steptest.Pool(workers))
 	if err != nil {
 		t.Fatal(err)
 	}

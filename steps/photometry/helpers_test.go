@@ -1,13 +1,12 @@
 package photometry
 
 import (
-	"context"
-	"fmt"
 	"os"
 	"path/filepath"
 	"testing"
 
 	"dipline/steps"
+	"dipline/steps/internal/steptest"
 )
 
 // load reads fixtures by their path below testdata/ and names them as a workflow would.
@@ -25,29 +24,12 @@ func load(t testing.TB, paths ...string) []steps.File {
 }
 
 // values applies the schema's defaults to the attributes given, as the engine does.
-func values(attrs map[string]any) steps.Values {
-	v := steps.Values{}
-	for _, p := range (Kind{}).Params() {
-		if p.Default != nil {
-			v[p.Name] = p.Default
-		}
-	}
-	for k, a := range attrs {
-		v[k] = a
-	}
-	return v
-}
+func values(attrs map[string]any) steps.Values { return steptest.Values(Kind{}, attrs) }
 
 // runKind prepares and runs the kind as the engine would, collecting its notes.
 func runKind(t testing.TB, attrs map[string]any, files []steps.File) (*Result, []string, error) {
 	t.Helper()
-	cfg, err := Kind{}.Prepare(values(attrs))
-	if err != nil {
-		return nil, nil, err
-	}
-	var notes []string
-	env := steps.Env{Pool: steps.NewPool(2), Notef: func(f string, a ...any) { notes = append(notes, fmt.Sprintf(f, a...)) }}
-	art, err := Kind{}.Run(context.Background(), cfg, steps.Inputs{Files: map[string][]steps.File{"files": files}}, env)
+	art, notes, err := steptest.Run(Kind{}, values(attrs), steps.Inputs{Files: map[string][]steps.File{"files": files}}, steps.NewPool(2))
 	if err != nil {
 		return nil, notes, err
 	}

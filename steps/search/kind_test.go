@@ -4,7 +4,6 @@ import (
 	"bytes"
 	"context"
 	"errors"
-	"fmt"
 	"math"
 	"strings"
 	"testing"
@@ -12,6 +11,7 @@ import (
 	"dipline/steps"
 	"dipline/steps/internal/golden"
 	"dipline/steps/internal/lightcurve"
+	"dipline/steps/internal/steptest"
 	"dipline/steps/search/bls"
 )
 
@@ -66,24 +66,13 @@ func fixture() *lightcurve.LightCurve {
 
 // defaults returns the decoded values of a block that sets only its light curve.
 func defaults() steps.Values {
-	v := steps.Values{"light_curve": "detrend.quiet"}
-	for _, p := range (Kind{}).Params() {
-		if p.Default != nil {
-			v[p.Name] = p.Default
-		}
-	}
-	return v
+	return steptest.Values(Kind{}, map[string]any{"light_curve": "detrend.quiet"})
 }
 
 func run(t *testing.T, v steps.Values, lc *lightcurve.LightCurve, pool *steps.Pool) (*Artifact, []string) {
 	t.Helper()
-	cfg, err := Kind{}.Prepare(v)
-	if err != nil {
-		t.Fatal(err)
-	}
-	var notes []string
-	env := steps.Env{Pool: pool, Notef: func(f string, a ...any) { notes = append(notes, fmt.Sprintf(f, a...)) }}
-	art, err := Kind{}.Run(context.Background(), cfg, steps.Inputs{Refs: map[string][]steps.Artifact{"light_curve": {curveArtifact{lc}}}}, env)
+	in := steps.Inputs{Refs: map[string][]steps.Artifact{"light_curve": {curveArtifact{lc}}}}
+	art, notes, err := steptest.Run(Kind{}, v, in, pool)
 	if err != nil {
 		t.Fatal(err)
 	}
