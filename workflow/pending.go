@@ -38,6 +38,10 @@ func Pending(w *Workflow, store *cache.Store) ([]Verdict, error) {
 			}
 		}
 		if len(waiting) > 0 {
+			// Its own settings, files and version can still be compared with the last run.
+			if prev := lastProvenance(s, runs, store); prev != nil {
+				v.Reasons = append(v.Reasons, ownChanges(s, prev)...)
+			}
 			for _, d := range waiting {
 				v.Reasons = append(v.Reasons, fmt.Sprintf("takes the result of %s, which will be recomputed; whether it changes is known only then", d))
 			}
@@ -74,12 +78,9 @@ func Pending(w *Workflow, store *cache.Store) ([]Verdict, error) {
 	return out, nil
 }
 
-// compareWithLast explains why s's key is new by comparing it with the provenance of the
-// newest run that computed or reused the same address.
-func compareWithLast(w *Workflow, s *Step, key cache.StepKey, known map[string]cache.ResultKey,
-	runs []cache.Run, store *cache.Store) []string {
-	var prev *Provenance
-	for i := len(runs) - 1; i >= 0 && prev == nil; i-- {
+// lastProvenance returns the provenance of the newest run's entry for s's address, or nil.
+func lastProvenance(s *Step, runs []cache.Run, store *cache.Store) *Provenance {
+	for i := len(runs) - 1; i >= 0; i-- {
 		for _, rs := range runs[i].Steps {
 			if rs.Address != s.Addr || rs.StepKey.IsZero() {
 				continue
@@ -87,15 +88,41 @@ func compareWithLast(w *Workflow, s *Step, key cache.StepKey, known map[string]c
 			if b, ok, err := store.Provenance(rs.StepKey); err == nil && ok {
 				var p Provenance
 				if json.Unmarshal(b, &p) == nil {
-					prev = &p
+					return &p
 				}
 			}
 			break
 		}
 	}
+	return nil
+}
+
+// compareWithLast explains why s's key is new by comparing it with the provenance of the
+// newest run that computed or reused the same address.
+func compareWithLast(w *Workflow, s *Step, key cache.StepKey, known map[string]cache.ResultKey,
+	runs []cache.Run, store *cache.Store) []string {
+	prev := lastProvenance(s, runs, store)
 	if prev == nil {
 		return []string{"no earlier run computed this step"}
 	}
+	why := ownChanges(s, prev)
+	for _, in := range prev.Inputs {
+		if rk, ok := known[in.Address]; ok && rk.String() != in.ResultKey {
+			why = append(why, fmt.Sprintf("the result of %s changed: %s… → %s…", in.Address, in.ResultKey[:12], rk.Short()))
+		}
+	}
+	if prev.StepKey == key.String() {
+		why = append(why, "its stored result was removed (pruned)")
+	}
+	if len(why) == 0 {
+		why = append(why, "its inputs differ from the last run's in a way not shown here (e.g. another architecture)")
+	}
+	return why
+}
+
+// ownChanges lists what differs in s itself from an earlier provenance record: its kind or
+// version, its settings, the digests of its files.
+func ownChanges(s *Step, prev *Provenance) []string {
 	var why []string
 	if prev.Kind != s.Kind.Name() {
 		return []string{fmt.Sprintf("the step was a %s step before", prev.Kind)}
@@ -138,17 +165,6 @@ func compareWithLast(w *Workflow, s *Step, key cache.StepKey, known map[string]c
 				why = append(why, fmt.Sprintf("the file %s changed: sha256 %s… → %s…", f.Path, d[:12], hexKey(f.Digest)[:12]))
 			}
 		}
-	}
-	for _, in := range prev.Inputs {
-		if rk, ok := known[in.Address]; ok && rk.String() != in.ResultKey {
-			why = append(why, fmt.Sprintf("the result of %s changed: %s… → %s…", in.Address, in.ResultKey[:12], rk.Short()))
-		}
-	}
-	if prev.StepKey == key.String() {
-		why = append(why, "its stored result was removed (pruned)")
-	}
-	if len(why) == 0 {
-		why = append(why, "its inputs differ from the last run's in a way not shown here (e.g. another architecture)")
 	}
 	return why
 }

@@ -49,6 +49,9 @@ func TestPendingSaysWhy(t *testing.T) {
 	if !strings.Contains(why, "source.b, which will be recomputed") {
 		t.Errorf("combine.sum reasons %q do not say it waits on source.b", why)
 	}
+	if !strings.Contains(why, "offset changed: 0.5 d → 1 d") {
+		t.Errorf("combine.sum reasons %q do not name its own change while it waits", why)
+	}
 }
 
 func TestPendingNamesAttributeAndUpstreamResult(t *testing.T) {

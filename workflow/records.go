@@ -55,12 +55,17 @@ type Tool struct {
 	Arch     string `json:"arch"`
 }
 
+// Version is this release of dipline; a build may set it with
+// -ldflags "-X dipline/workflow.Version=…". The module version from the build information
+// takes its place when the binary was installed as a module.
+var Version = "0.1.0-dev"
+
 var toolOnce = sync.OnceValue(func() Tool {
-	t := Tool{Version: "unknown", Revision: "unknown (built without version-control data)",
+	t := Tool{Version: Version, Revision: "unknown (built without version-control data)",
 		Go: runtime.Version(), Arch: runtime.GOOS + "/" + runtime.GOARCH}
 	if bi, ok := debug.ReadBuildInfo(); ok {
-		if bi.Main.Version != "" {
-			t.Version = bi.Main.Version
+		if v := bi.Main.Version; v != "" && v != "(devel)" {
+			t.Version = v
 		}
 		modified := false
 		for _, s := range bi.Settings {
