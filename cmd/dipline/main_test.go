@@ -10,6 +10,7 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+	"time"
 )
 
 // lightCurveCSV writes an invented 20-day light curve at 30-minute cadence: white noise of
@@ -220,4 +221,23 @@ func figure(t *testing.T, out, label string) float64 {
 		t.Fatalf("no number after %q: %v", label, err)
 	}
 	return v
+}
+
+func TestOneFluxValueChangedRecomputesItsDependants(t *testing.T) {
+	f := newFolder(t)
+	f.dipline("run")
+	now := time.Now().Add(time.Minute)
+	os.Chtimes(filepath.Join(f.dir, "lc.csv"), now, now)
+	if code, out, _ := f.dipline("run"); code != 0 || strings.Count(out, "reused") != 3 {
+		t.Fatalf("touching the data file recomputed something:\n%s", out)
+	}
+	lines := strings.Split(lightCurveCSV(), "\n")
+	fields := strings.Split(lines[100], ",")
+	fields[1] = "0.9900000" // one flux value, far off
+	lines[100] = strings.Join(fields, ",")
+	f.write("lc.csv", strings.Join(lines, "\n"))
+	code, out, _ := f.dipline("run")
+	if code != 0 || strings.Count(out, "computed") < 2 || !strings.Contains(out, "computed  photometry.raw") {
+		t.Fatalf("a changed flux value did not recompute what depends on it:\n%s", out)
+	}
 }
