@@ -106,13 +106,6 @@ func run(t testing.TB, set map[string]any, lc *lightcurve.LightCurve, sigs []sig
 	return art.(*Result), notes
 }
 
-func TestTheSchemaRegisters(t *testing.T) {
-	// The registry checks every default against its parameter's type.
-	if _, err := steps.NewRegistry(Kind{}); err != nil {
-		t.Fatal(err)
-	}
-}
-
 func TestPrepareNamesTheAttributeAtFault(t *testing.T) {
 	for _, tc := range []struct {
 		name string

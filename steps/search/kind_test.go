@@ -79,12 +79,6 @@ func run(t *testing.T, v steps.Values, lc *lightcurve.LightCurve, pool *steps.Po
 	return art.(*Artifact), notes
 }
 
-func TestTheSchemaRegisters(t *testing.T) {
-	if _, err := steps.NewRegistry(Kind{}); err != nil {
-		t.Fatal(err)
-	}
-}
-
 func TestPrepareNamesTheAttributeAtFault(t *testing.T) {
 	cases := []struct {
 		name, attr string
