@@ -42,6 +42,7 @@ Usage:
                                                  keep a run (and all it used) safe from pruning
   dipline store   stats|verify|prune|merge [workflow.hcl] [options]
   dipline kinds                                  the step kinds and their attributes
+  dipline starter LIGHTCURVE [--out analysis.hcl] write a starter workflow for a light curve
 
 The workflow file defaults to analysis.hcl in the current folder.
 `
@@ -69,7 +70,7 @@ func realMain(args []string, stdout, stderr io.Writer) (code int) {
 	c := &cli{reg: reg, out: stdout, err: stderr}
 	cmds := map[string]func([]string) int{
 		"run": c.run, "check": c.check, "pending": c.pending, "trace": c.trace, "runs": c.runs,
-		"pin": c.pin, "store": c.storeCmd, "kinds": c.kinds,
+		"pin": c.pin, "store": c.storeCmd, "kinds": c.kinds, "starter": c.starter,
 	}
 	f, ok := cmds[args[0]]
 	if !ok {

@@ -241,3 +241,23 @@ func TestOneFluxValueChangedRecomputesItsDependants(t *testing.T) {
 		t.Fatalf("a changed flux value did not recompute what depends on it:\n%s", out)
 	}
 }
+
+func TestStarterWorkflowRunsOnAFITSFile(t *testing.T) {
+	// The starter written for a FITS file written by cfitsio (testdata/fits) checks and runs
+	// without edits: every other setting is derived from the data.
+	f := &folder{t: t, dir: t.TempDir()}
+	b, err := os.ReadFile("../../testdata/fits/lightcurve.fits")
+	if err != nil {
+		t.Fatal(err)
+	}
+	f.write("lc.fits", string(b))
+	if code, out, errs := f.dipline("starter", "lc.fits"); code != 0 {
+		t.Fatalf("starter: exit %d\n%s%s", code, out, errs)
+	}
+	if code, out, errs := f.dipline("run"); code != 0 || !strings.Contains(out, "computed  search.dips") {
+		t.Fatalf("the starter workflow did not run: exit %d\n%s%s", code, out, errs)
+	}
+	if code, _, errs := f.dipline("starter", "lc.fits"); code != exitBadUser || !strings.Contains(errs, "exists") {
+		t.Fatalf("starter overwrote a workflow: exit %d %s", code, errs)
+	}
+}
