@@ -52,6 +52,9 @@ func skippable(line []byte) bool {
 // has one, else a tab if it has one, else runs of blanks.
 func readTextHeader(name string, data []byte) (*textTable, error) {
 	data = bytes.TrimPrefix(data, []byte("\xef\xbb\xbf")) // a UTF-8 byte-order mark
+	if i := bytes.IndexByte(data[:min(len(data), 4096)], 0); i >= 0 {
+		return nil, steps.BadInputf("%s: byte %d is NUL: this is not a text table (FITS files are read as FITS when they start with SIMPLE  =)", name, i+1)
+	}
 	t := &textTable{name: name}
 	rest := data
 	for n := 1; len(rest) > 0; n++ {
@@ -165,14 +168,23 @@ func clip(s string) string {
 	return strings.ToValidUTF8(s, "?")
 }
 
-// describe lists the header for messages.
+// describe lists the header for messages: at most maxListed names, each cut to
+// maxNameShown bytes, so a binary file read as text cannot flood the terminal.
 func describe(names []string) string {
+	const maxListed, maxNameShown = 12, 24
 	if len(names) == 0 {
 		return "none"
 	}
-	q := make([]string, len(names))
+	var q []string
 	for i, n := range names {
-		q[i] = strconv.Quote(n)
+		if i == maxListed {
+			q = append(q, fmt.Sprintf("… %d more", len(names)-maxListed))
+			break
+		}
+		if len(n) > maxNameShown {
+			n = strings.ToValidUTF8(n[:maxNameShown], "") + "…"
+		}
+		q = append(q, strconv.Quote(n))
 	}
 	return strings.Join(q, ", ")
 }

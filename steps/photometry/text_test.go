@@ -2,7 +2,9 @@ package photometry
 
 import (
 	"bytes"
+	"fmt"
 	"math"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -209,4 +211,26 @@ func FuzzTextTable(f *testing.F) {
 			}
 		}
 	})
+}
+
+func TestBinaryDataIsNotReadAsText(t *testing.T) {
+	// A binary file named .csv: refused at once, with a short message naming the file.
+	data := append([]byte("time,flux\n1,"), 0, 1, 2, 3, 0xff, '\n')
+	_, _, err := runKind(t, nil, []steps.File{{Name: "data/odd.csv", Data: data}})
+	if err == nil || !strings.Contains(err.Error(), "data/odd.csv: byte 13 is NUL") || len(err.Error()) > 200 {
+		t.Fatalf("error %v", err)
+	}
+}
+
+func TestLongHeadersAreCutInMessages(t *testing.T) {
+	// Forty long column names, none a time: the message lists twelve, each cut short.
+	var names []string
+	for i := 0; i < 40; i++ {
+		names = append(names, strings.Repeat("x", 50)+strconv.Itoa(i))
+	}
+	data := []byte(strings.Join(names, ",") + "\n")
+	_, _, err := runKind(t, nil, []steps.File{{Name: "wide.csv", Data: data}})
+	if err == nil || !strings.Contains(err.Error(), "… 28 more") || len(err.Error()) > 800 {
+		t.Fatalf("error (%d bytes) %v", len(fmt.Sprint(err)), err)
+	}
 }
