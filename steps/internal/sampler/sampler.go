@@ -1,0 +1,251 @@
+// Package sampler is the numerical core of dipline's posterior sampling: the affine-invariant
+// ensemble sampler with the stretch move of Goodman & Weare (2010, Comm. App. Math. Comp. Sci.
+// 5, 65) in its parallel half-ensemble form (Foreman-Mackey et al. 2013, PASP 125, 306,
+// Algorithm 3), and the diagnostics to judge a chain: the integrated autocorrelation time with
+// Sokal's automatic window, the effective sample size, and split R-hat across independently
+// seeded ensembles (rank-normalised, Vehtari et al. 2021). It works on plain slices and a
+// log-probability function; it knows nothing of models, priors, workflow files or the cache.
+// Every walker draws from its own random stream, derived from the seed and the walker's index,
+// so a chain is byte-identical for any worker count. Main entry point: Run.
+package sampler
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+
+	"dipline/steps/internal/rng"
+)
+
+// DefaultStretch is the stretch-move scale a = 2 recommended by Goodman & Weare (2010) and
+// Foreman-Mackey et al. (2013).
+const DefaultStretch = 2.0
+
+// walkerLabel names the per-walker random streams (rng.Derive(seed, walkerLabel, k)).
+const walkerLabel = "sampler/walker"
+
+// Options says how long to run and how to draw.
+type Options struct {
+	// Steps is the number of ensemble updates (each moves every walker once); > 0.
+	Steps int
+	// Seed selects the random streams; walker k draws from rng.Derive(Seed, "sampler/walker", k).
+	Seed uint64
+	// Stretch is the scale a > 1 of the stretch move; 0 means DefaultStretch.
+	Stretch float64
+	// Thin keeps every Thin-th step (steps Thin−1, 2·Thin−1, …); 0 or 1 keeps all.
+	Thin int
+	// Parallel runs block(i) for every i in [0, n), possibly concurrently, and returns when all
+	// are done (the signature of steps.Pool.Parallel). Nil runs them in order on the caller.
+	// When it is not nil, logp must be safe for concurrent use.
+	Parallel func(n int, block func(i int))
+	// Progress, if not nil, is called on the caller's goroutine after every step.
+	Progress func(done, total int)
+}
+
+// Chain is the record of a run. Samples and LogProb are flat, step-major: the position of
+// walker w at stored step s is Samples[(s*Walkers+w)*Dim : ...+Dim].
+type Chain struct {
+	Walkers, Dim int
+	Stored       int       // number of stored steps (Steps / Thin)
+	Thin         int       // steps between stored states
+	Samples      []float64 // Stored × Walkers × Dim
+	LogProb      []float64 // Stored × Walkers
+	Accepted     []int     // accepted proposals per walker, over all steps
+	Steps        int       // ensemble updates performed
+}
+
+// At returns the position of walker w at stored step s (a view into Samples).
+func (c *Chain) At(s, w int) []float64 {
+	i := (s*c.Walkers + w) * c.Dim
+	return c.Samples[i : i+c.Dim : i+c.Dim]
+}
+
+// Series returns parameter p as one series per walker over stored steps from..Stored−1,
+// the layout the diagnostics take.
+func (c *Chain) Series(p, from int) [][]float64 {
+	if from < 0 {
+		from = 0
+	}
+	if from > c.Stored {
+		from = c.Stored
+	}
+	out := make([][]float64, c.Walkers)
+	for w := range out {
+		s := make([]float64, c.Stored-from)
+		for i := range s {
+			s[i] = c.Samples[((from+i)*c.Walkers+w)*c.Dim+p]
+		}
+		out[w] = s
+	}
+	return out
+}
+
+// AcceptanceFraction writes each walker's fraction of accepted proposals into dst (grown if
+// short) and returns it.
+func (c *Chain) AcceptanceFraction(dst []float64) []float64 {
+	if cap(dst) < c.Walkers {
+		dst = make([]float64, c.Walkers)
+	}
+	dst = dst[:c.Walkers]
+	for w, a := range c.Accepted {
+		dst[w] = float64(a) / float64(c.Steps)
+	}
+	return dst
+}
+
+// ErrConfig marks a bad call: too few walkers, ragged or non-finite starting points, bad
+// options. Adapters report it as bad input.
+var ErrConfig = errors.New("sampler: bad configuration")
+
+// Run samples the density exp(logp) with an ensemble of len(init) walkers started at init
+// (one row per walker, all of the same dimension N). It needs at least 2N walkers, finite
+// log-probabilities at the start, and for every parameter at least two walkers that differ in
+// it (a stretch move can never leave the span of the ensemble). A logp that returns NaN or
+// ±Inf at a proposal rejects it. The context is checked between steps; on cancellation Run
+// returns the steps stored so far together with the context's error.
+func Run(ctx context.Context, logp func(x []float64) float64, init [][]float64, opts Options) (*Chain, error) {
+	K := len(init)
+	if K == 0 {
+		return nil, fmt.Errorf("%w: no walkers", ErrConfig)
+	}
+	N := len(init[0])
+	if N == 0 {
+		return nil, fmt.Errorf("%w: walkers have no parameters", ErrConfig)
+	}
+	if K < 2*N {
+		return nil, fmt.Errorf("%w: %d walkers for %d parameters; the stretch move needs at least %d (twice the dimension)", ErrConfig, K, N, 2*N)
+	}
+	if opts.Steps <= 0 {
+		return nil, fmt.Errorf("%w: steps = %d, must be positive", ErrConfig, opts.Steps)
+	}
+	a := opts.Stretch
+	if a == 0 {
+		a = DefaultStretch
+	}
+	if !(a > 1) || math.IsInf(a, 1) {
+		return nil, fmt.Errorf("%w: stretch scale %v, must be finite and > 1", ErrConfig, opts.Stretch)
+	}
+	thin := opts.Thin
+	if thin == 0 {
+		thin = 1
+	}
+	if thin < 0 {
+		return nil, fmt.Errorf("%w: thin = %d, must be positive", ErrConfig, opts.Thin)
+	}
+	par := opts.Parallel
+	if par == nil {
+		par = serial
+	}
+
+	// Current state, walker-major.
+	x := make([]float64, K*N)
+	lp := make([]float64, K)
+	for k, row := range init {
+		if len(row) != N {
+			return nil, fmt.Errorf("%w: walker %d has %d parameters, walker 0 has %d", ErrConfig, k, len(row), N)
+		}
+		for i, v := range row {
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				return nil, fmt.Errorf("%w: walker %d starts with parameter %d = %v", ErrConfig, k, i, v)
+			}
+		}
+		copy(x[k*N:], row)
+	}
+	for i := 0; i < N; i++ {
+		same := true
+		for k := 1; k < K && same; k++ {
+			same = x[k*N+i] == x[i]
+		}
+		if same {
+			return nil, fmt.Errorf("%w: all walkers start with parameter %d = %v; the ensemble could never move in it", ErrConfig, i, x[i])
+		}
+	}
+	par(K, func(k int) { lp[k] = logp(x[k*N : (k+1)*N : (k+1)*N]) })
+	for k, v := range lp {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return nil, fmt.Errorf("%w: log-probability at walker %d's start is %v, must be finite", ErrConfig, k, v)
+		}
+	}
+
+	streams := make([]rng.Stream, K)
+	for k := range streams {
+		streams[k].Seed(rng.DeriveSeed(opts.Seed, walkerLabel, uint64(k)))
+	}
+
+	stored := opts.Steps / thin
+	ch := &Chain{
+		Walkers: K, Dim: N, Thin: thin,
+		Samples:  make([]float64, stored*K*N),
+		LogProb:  make([]float64, stored*K),
+		Accepted: make([]int, K),
+	}
+	y := make([]float64, K*N) // proposal scratch, one row per walker
+	accepted := make([]bool, K)
+	halves := [2][2]int{{0, K / 2}, {K / 2, K}}
+
+	// update moves walker lo+i of the active half [lo, hi) against the complementary half
+	// [olo, olo+on). It touches only walker lo+i's row, stream and flags, so the blocks of a
+	// half may run in any order or concurrently. Built once: no allocation per step.
+	var lo, hi, olo, on int
+	update := func(i int) {
+		k := lo + i
+		r := &streams[k]
+		// Three draws per update, always, so the stream never depends on data.
+		j := olo + r.Intn(on)
+		u := r.Float64()
+		z := (1 + (a-1)*u) * (1 + (a-1)*u) / a // inverse CDF of g(z) ∝ z^(−1/2) on [1/a, a]
+		lnU := math.Log(r.Float64())
+		xk := x[k*N : (k+1)*N : (k+1)*N]
+		xj := x[j*N : (j+1)*N : (j+1)*N]
+		yk := y[k*N : (k+1)*N : (k+1)*N]
+		for d := range yk {
+			yk[d] = xj[d] + z*(xk[d]-xj[d])
+		}
+		lpy := logp(yk)
+		if math.IsNaN(lpy) || math.IsInf(lpy, 0) {
+			accepted[k] = false
+			return
+		}
+		accepted[k] = lnU < float64(N-1)*math.Log(z)+lpy-lp[k]
+		if accepted[k] {
+			copy(xk, yk)
+			lp[k] = lpy
+		}
+	}
+
+	for step := 0; step < opts.Steps; step++ {
+		if err := ctx.Err(); err != nil {
+			ch.Samples = ch.Samples[:ch.Stored*K*N]
+			ch.LogProb = ch.LogProb[:ch.Stored*K]
+			return ch, err
+		}
+		for h, half := range halves {
+			lo, hi = half[0], half[1]
+			olo, on = halves[1-h][0], halves[1-h][1]-halves[1-h][0]
+			par(hi-lo, update)
+			for k := lo; k < hi; k++ {
+				if accepted[k] {
+					ch.Accepted[k]++
+				}
+			}
+		}
+		ch.Steps = step + 1
+		if (step+1)%thin == 0 {
+			s := ch.Stored
+			copy(ch.Samples[s*K*N:(s+1)*K*N], x)
+			copy(ch.LogProb[s*K:(s+1)*K], lp)
+			ch.Stored++
+		}
+		if opts.Progress != nil {
+			opts.Progress(step+1, opts.Steps)
+		}
+	}
+	return ch, nil
+}
+
+func serial(n int, block func(i int)) {
+	for i := 0; i < n; i++ {
+		block(i)
+	}
+}
