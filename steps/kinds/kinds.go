@@ -6,11 +6,12 @@ package kinds
 import (
 	"dipline/steps"
 	"dipline/steps/detrend"
+	"dipline/steps/fit"
 	"dipline/steps/photometry"
 	"dipline/steps/search"
 )
 
 // Registry returns every step kind, checked.
 func Registry() (steps.Registry, error) {
-	return steps.NewRegistry(photometry.Kind{}, detrend.Kind{}, search.Kind{})
+	return steps.NewRegistry(photometry.Kind{}, detrend.Kind{}, search.Kind{}, fit.Kind{})
 }

@@ -9,7 +9,7 @@ func TestEveryKindRegisters(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	for _, name := range []string{"photometry", "detrend", "search"} {
+	for _, name := range []string{"photometry", "detrend", "search", "fit"} {
 		if reg[name] == nil {
 			t.Errorf("no %s kind registered", name)
 		}

@@ -1,0 +1,240 @@
+package fit
+
+import (
+	"errors"
+	"fmt"
+	"math"
+
+	"dipline/steps"
+	"dipline/steps/internal/codec"
+)
+
+// Frame names the time axis: every time is in days since RefInt + RefFrac on TimeScale.
+type Frame struct {
+	TimeScale string
+	RefInt    int64
+	RefFrac   float64
+}
+
+// SegmentInfo describes one segment that entered the likelihood.
+type SegmentInfo struct {
+	ID       string
+	Exposure float64 // days
+	Points   int     // points within the transit windows
+	NSub     int     // sub-exposures per point
+}
+
+// Reference is a planet's reference epoch: the transit Transit periods after the search's
+// epoch, the one nearest the weighted centre of the data; Time is its start value.
+type Reference struct {
+	Transit int64
+	Time    float64
+}
+
+// Diagnostic judges one sampled parameter.
+type Diagnostic struct {
+	Tau  float64 // integrated autocorrelation time after burn-in, largest over ensembles, steps
+	ESS  float64 // effective samples, all ensembles: Σ walkers·steps/τ
+	Rhat float64 // rank-normalised split R-hat across ensembles (Vehtari et al. 2021)
+}
+
+// Artifact is the fit step's result.
+type Artifact struct {
+	Frame Frame
+	// Window is the half-width, in search durations, of the stretches around each predicted
+	// mid-transit whose points enter the likelihood.
+	Window    float64
+	Segments  []SegmentInfo
+	Reference []Reference // per planet
+	// Names lists the columns of Samples and Best: the Sampled parameters first (per planet
+	// period d, t0 d, k, b; then log10_star_density, q1, q2, ln jitter per segment), then the
+	// derived star_density g/cm³ and per planet depth (k²), a_over_rstar and t14 (d).
+	Names   []string
+	Sampled int
+	// Samples holds the thinned post-burn-in draws of all ensembles, row-major, one row of
+	// len(Names) values per draw.
+	Samples                               []float64
+	Best                                  []float64 // the highest-posterior point seen (optimiser or chain)
+	BestLogPost                           float64
+	Diag                                  []Diagnostic // per sampled parameter
+	Acceptance                            float64      // mean acceptance fraction over walkers and ensembles
+	Walkers, Steps, Burn, Thin, Ensembles int
+}
+
+// Planets is the number of planets fitted.
+func (a *Artifact) Planets() int { return len(a.Reference) }
+
+// Column returns the draws of the named column, or nil.
+func (a *Artifact) Column(name string) []float64 {
+	c := len(a.Names)
+	for j, n := range a.Names {
+		if n == name {
+			out := make([]float64, len(a.Samples)/c)
+			for i := range out {
+				out[i] = a.Samples[i*c+j]
+			}
+			return out
+		}
+	}
+	return nil
+}
+
+// Summary returns the median of the named column and σ = (p84 − p16)/2.
+func (a *Artifact) Summary(name string) (median, sigma float64) {
+	lo, mid, hi := quantiles(a.Column(name))
+	return mid, (hi - lo) / 2
+}
+
+// Figures lists per planet its period, t0, k, b, depth, a/R* and T14, the star's density,
+// and the worst sampling diagnostics.
+func (a *Artifact) Figures() []steps.Figure {
+	var figs []steps.Figure
+	frame := fmt.Sprintf("days since %s %d%s", a.Frame.TimeScale, a.Frame.RefInt, fracString(a.Frame.RefFrac))
+	add := func(name, col, unit, doc string, factor float64) {
+		med, sig := a.Summary(col)
+		figs = append(figs, steps.Figure{Name: name, Value: med * factor, Sigma: sig * factor, Unit: unit,
+			Doc: doc + "; posterior median, σ half the 16–84 % range"})
+	}
+	for j := range a.Reference {
+		p := planetNames[j] + "."
+		add(p+"period", p+"period", "d", "orbital period", 1)
+		add(p+"t0", p+"t0", "d", fmt.Sprintf("mid-transit time at the reference epoch (transit %d after the search's epoch), %s", a.Reference[j].Transit, frame), 1)
+		add(p+"k", p+"k", "", "radius ratio Rp/R*", 1)
+		add(p+"b", p+"b", "", "impact parameter", 1)
+		add(p+"depth", p+"depth", "ppm", "k², the occulted area fraction", 1e6)
+		add(p+"a_over_rstar", p+"a_over_rstar", "", "a/R* from the star's density and the period (Kepler's third law, circular orbit)", 1)
+		add(p+"t14", p+"t14", "h", "first-to-last-contact duration, circular orbit (Winn 2010)", 24)
+	}
+	add("star_density", "star_density", "g/cm3", "mean stellar density from the transit shape (log-uniform prior 0.01–100 g/cm3)", 1)
+	used := 0
+	for _, s := range a.Segments {
+		used += s.Points
+	}
+	figs = append(figs, steps.Figure{Name: "window.points", Value: float64(used),
+		Doc: fmt.Sprintf("points in the likelihood: those within %g search durations of a predicted mid-transit; the rest of the light curve is not used", a.Window)})
+	var maxTau, minESS, maxRhat float64 = 0, math.Inf(1), 0
+	for _, d := range a.Diag {
+		maxTau = math.Max(maxTau, d.Tau)
+		minESS = math.Min(minESS, d.ESS)
+		if math.IsNaN(d.Rhat) || d.Rhat > maxRhat {
+			maxRhat = d.Rhat
+		}
+	}
+	figs = append(figs,
+		steps.Figure{Name: "diag.max_tau", Value: maxTau, Unit: "steps", Doc: "largest integrated autocorrelation time over the sampled parameters"},
+		steps.Figure{Name: "diag.min_ess", Value: minESS, Doc: "smallest effective sample size over the sampled parameters"},
+		steps.Figure{Name: "diag.max_rhat", Value: maxRhat, Doc: "largest rank-normalised split R-hat across ensembles (Vehtari et al. 2021); near 1 when they agree"},
+		steps.Figure{Name: "diag.acceptance", Value: a.Acceptance, Doc: "mean fraction of accepted stretch moves"},
+	)
+	return figs
+}
+
+func fracString(f float64) string {
+	if f == 0 {
+		return ""
+	}
+	s := fmt.Sprintf("%.10g", f)
+	if len(s) > 1 && s[0] == '0' {
+		s = s[1:]
+	}
+	return s
+}
+
+const (
+	tag    = "fit"
+	format = 1
+)
+
+// Encode returns the canonical encoding.
+func (a *Artifact) Encode() []byte {
+	w := codec.NewWriter(tag, format)
+	w.String(a.Frame.TimeScale)
+	w.Int(a.Frame.RefInt)
+	w.Float(a.Frame.RefFrac)
+	w.Float(a.Window)
+	w.Uint64(uint64(len(a.Segments)))
+	for _, s := range a.Segments {
+		w.String(s.ID)
+		w.Float(s.Exposure)
+		w.Int(int64(s.Points))
+		w.Int(int64(s.NSub))
+	}
+	w.Uint64(uint64(len(a.Reference)))
+	for _, r := range a.Reference {
+		w.Int(r.Transit)
+		w.Float(r.Time)
+	}
+	w.Strings(a.Names)
+	w.Int(int64(a.Sampled))
+	w.Floats(a.Samples)
+	w.Floats(a.Best)
+	w.Float(a.BestLogPost)
+	w.Uint64(uint64(len(a.Diag)))
+	for _, d := range a.Diag {
+		w.Float(d.Tau)
+		w.Float(d.ESS)
+		w.Float(d.Rhat)
+	}
+	w.Float(a.Acceptance)
+	for _, v := range []int{a.Walkers, a.Steps, a.Burn, a.Thin, a.Ensembles} {
+		w.Int(int64(v))
+	}
+	return w.Bytes()
+}
+
+// Decode reads an artifact back; truncated, foreign or inconsistent bytes are an error.
+func (Kind) Decode(b []byte) (steps.Artifact, error) {
+	a, err := Decode(b)
+	if err != nil {
+		return nil, err
+	}
+	return a, nil
+}
+
+// Decode reads an artifact written by Encode.
+func Decode(b []byte) (*Artifact, error) {
+	r := codec.NewReader(b, tag, format)
+	a := &Artifact{}
+	a.Frame.TimeScale = r.String()
+	a.Frame.RefInt = r.Int()
+	a.Frame.RefFrac = r.Float()
+	a.Window = r.Float()
+	ns := r.Uint64()
+	if ns > 4096 {
+		return nil, fmt.Errorf("fit artifact: %d segments", ns)
+	}
+	for i := uint64(0); i < ns; i++ {
+		a.Segments = append(a.Segments, SegmentInfo{ID: r.String(), Exposure: r.Float(), Points: int(r.Int()), NSub: int(r.Int())})
+	}
+	np := r.Uint64()
+	if np > maxPlanets {
+		return nil, fmt.Errorf("fit artifact: %d planets", np)
+	}
+	for i := uint64(0); i < np; i++ {
+		a.Reference = append(a.Reference, Reference{Transit: r.Int(), Time: r.Float()})
+	}
+	a.Names = r.Strings()
+	a.Sampled = int(r.Int())
+	a.Samples = r.Floats()
+	a.Best = r.Floats()
+	a.BestLogPost = r.Float()
+	nd := r.Uint64()
+	if nd > uint64(len(a.Names)) {
+		return nil, fmt.Errorf("fit artifact: %d diagnostics for %d columns", nd, len(a.Names))
+	}
+	for i := uint64(0); i < nd; i++ {
+		a.Diag = append(a.Diag, Diagnostic{Tau: r.Float(), ESS: r.Float(), Rhat: r.Float()})
+	}
+	a.Acceptance = r.Float()
+	for _, p := range []*int{&a.Walkers, &a.Steps, &a.Burn, &a.Thin, &a.Ensembles} {
+		*p = int(r.Int())
+	}
+	if err := r.Err(); err != nil {
+		return nil, fmt.Errorf("fit artifact: %w", err)
+	}
+	c := len(a.Names)
+	if c == 0 || len(a.Samples)%c != 0 || len(a.Best) != c || a.Sampled > c || len(a.Diag) != a.Sampled {
+		return nil, errors.New("fit artifact: columns, samples, best fit and diagnostics disagree")
+	}
+	return a, nil
+}

@@ -1,0 +1,458 @@
+package fit
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"sort"
+
+	"gonum.org/v1/gonum/optimize"
+
+	"dipline/steps"
+	"dipline/steps/internal/lightcurve"
+	"dipline/steps/internal/rng"
+	"dipline/steps/internal/sampler"
+	"dipline/steps/internal/signals"
+	"dipline/steps/internal/transit"
+)
+
+// Limits and fixed choices, each with its reason.
+const (
+	// maxPlanets bounds the planets fitted jointly in this version.
+	maxPlanets = 3
+	// maxSub caps the sub-exposures per point: 25 keeps the midpoint-rule error of a
+	// 29.4-min exposure far below 100 ppm for Earth-to-Jupiter ingresses (error ∝ 1/N²,
+	// Kipping 2010; N ≈ 10–30 is common practice, REFERENCES §3).
+	maxSub = 25
+	// subPerIngress is the number of sub-exposures per ingress duration (N = ceil(exposure
+	// / (τ/3))): three samples across ingress resolve its curvature (our choice).
+	subPerIngress = 3
+	// lengthPerTau is the chain length after burn-in, in autocorrelation times, at which
+	// sampling stops (50τ, REFERENCES §10).
+	lengthPerTau = 50
+	// chunk is the number of steps run between checks of the autocorrelation time.
+	chunk = 250
+	// walkersPerDim is the ensemble size per parameter (at least 2 are needed).
+	walkersPerDim = 4
+	// Prior bounds on the stellar density (g/cm³), log-uniform: from giants to late M dwarfs.
+	densityLo, densityHi = 0.01, 100.0
+	// Prior bounds on the per-segment jitter, log-uniform, relative flux.
+	jitterLo, jitterHi = 1e-6, 0.1
+	// startB is the impact parameter the optimiser starts from (a box does not tell it).
+	startB = 0.3
+	// startQ1, startQ2 start the limb darkening near a Sun-like star's in the red
+	// (u1 ≈ 0.4, u2 ≈ 0.2; from memory, only a start).
+	startQ1, startQ2 = 0.36, 0.33
+)
+
+// Options configures Fit.
+type Options struct {
+	Signals     []signals.Signal // start values, one per planet, in planet order
+	MaxSteps    int              // cap on ensemble updates per ensemble
+	Ensembles   int              // independently seeded ensembles, ≥ 2
+	Window      float64          // half-width of the data kept around each mid-transit, in search durations
+	Supersample bool             // integrate the model over each exposure
+	Jitter      bool             // fit one ln jitter per segment
+	Seed        uint64
+	// Parallel runs block(i) for i in [0, n); nil runs serially. Results do not depend on it.
+	Parallel func(n int, block func(i int))
+}
+
+// planetNames names planets in signal order.
+var planetNames = [maxPlanets]string{"b", "c", "d"}
+
+// Fit fits the transit model to lc and samples its posterior. Problems with the data are
+// *steps.InputError values; the notes are facts for the user.
+func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, []string, error) {
+	np := len(o.Signals)
+	if np == 0 || np > maxPlanets {
+		return nil, nil, fmt.Errorf("fit: %d planets, must be 1 to %d", np, maxPlanets)
+	}
+	for j, s := range o.Signals {
+		if !(s.Period > 0) || !(s.Duration > 0) || !(s.Duration < s.Period) || math.IsNaN(s.Epoch) {
+			return nil, nil, steps.BadInputf("signals: signal %d has period %v d, duration %v d, epoch %v: cannot start a fit", j+1, s.Period, s.Duration, s.Epoch)
+		}
+	}
+	var notes []string
+	m := &Model{planets: np, jitter: o.Jitter}
+	art := &Artifact{Frame: Frame{TimeScale: lc.TimeScale, RefInt: lc.RefInt, RefFrac: lc.RefFrac}, Window: o.Window}
+
+	// Points within Window search durations of a predicted mid-transit of any planet.
+	// The selection is fixed before fitting so the likelihood is a smooth function.
+	kept := 0
+	sumW := make([]float64, np)
+	sumWT := make([]float64, np)
+	minIngress := math.Inf(1)
+	for _, s := range o.Signals {
+		k := math.Sqrt(math.Max(s.Depth, 1e-6))
+		minIngress = math.Min(minIngress, s.Duration*k/(1+k))
+	}
+	for si := range lc.Segments {
+		seg := &lc.Segments[si]
+		var sd segData
+		for i, t := range seg.Time {
+			f, e := seg.Flux[i], seg.Err[i]
+			if math.IsNaN(t) || math.IsInf(t, 0) || math.IsNaN(f) || math.IsInf(f, 0) || !(e > 0) || math.IsInf(e, 0) {
+				return nil, nil, steps.BadInputf("light_curve: segment %s, point %d: time %v, flux %v, error %v are not usable", seg.ID, i+1, t, f, e)
+			}
+			in := false
+			for j, s := range o.Signals {
+				if s.InTransit(t, 2*o.Window) {
+					in = true
+					sumW[j] += 1 / (e * e)
+					sumWT[j] += t / (e * e)
+				}
+			}
+			if in {
+				sd.t = append(sd.t, t)
+				sd.f = append(sd.f, f)
+				sd.v = append(sd.v, e*e)
+			}
+		}
+		if len(sd.t) == 0 {
+			continue
+		}
+		sd.nsub = 1
+		if o.Supersample && seg.Exposure > 0 && !math.IsInf(seg.Exposure, 0) {
+			n := math.Ceil(seg.Exposure / (minIngress / subPerIngress))
+			sd.nsub = int(math.Max(1, math.Min(maxSub, n)))
+		}
+		exposure := seg.Exposure
+		if !(exposure > 0) || math.IsInf(exposure, 0) {
+			exposure = 0
+		}
+		sd.fine = make([]float64, len(sd.t)*sd.nsub)
+		// SubexposureTimes with n = 1 returns the mid-times themselves.
+		copy(sd.fine, subTimes(sd.t, exposure, sd.nsub))
+		m.maxFine = max(m.maxFine, len(sd.fine))
+		m.segs = append(m.segs, sd)
+		kept += len(sd.t)
+		art.Segments = append(art.Segments, SegmentInfo{ID: seg.ID, Exposure: seg.Exposure, Points: len(sd.t), NSub: sd.nsub})
+	}
+	for j := range o.Signals {
+		if sumW[j] == 0 {
+			return nil, nil, steps.BadInputf("light_curve: no points within %g durations of any transit of signal %d (period %.6g d)", o.Window, j+1, o.Signals[j].Period)
+		}
+	}
+	if kept < 10 {
+		return nil, nil, steps.BadInputf("light_curve: only %d points near the transits; at least 10 are needed", kept)
+	}
+	notes = append(notes, fmt.Sprintf("likelihood: %d points within %g search durations of a predicted mid-transit, in %d segment(s); the rest of the light curve is left out", kept, o.Window, len(m.segs)))
+	for _, s := range art.Segments {
+		notes = append(notes, fmt.Sprintf("exposure: segment %s, %.4g min, integrated with %d sub-exposure(s) per point", s.ID, s.Exposure*1440, s.NSub))
+	}
+
+	// Reference epochs near the weighted centre; bounds on period and mid-time keep every
+	// modelled transit inside the fixed windows.
+	dim := m.dim()
+	m.lo, m.hi = make([]float64, dim), make([]float64, dim)
+	x0 := make([]float64, dim)
+	scale := make([]float64, dim)
+	for j, s := range o.Signals {
+		centre := sumWT[j] / sumW[j]
+		n := math.Round((centre - s.Epoch) / s.Period)
+		t0 := s.Epoch + n*s.Period
+		nmax := 1.0
+		for _, sd := range m.segs {
+			for _, t := range sd.t {
+				if s.InTransit(t, 2*o.Window) {
+					nmax = math.Max(nmax, math.Abs(math.Round((t-t0)/s.Period)))
+				}
+			}
+		}
+		art.Reference = append(art.Reference, Reference{Transit: int64(n), Time: t0})
+		dP := s.Duration / nmax
+		k0 := math.Sqrt(math.Max(s.Depth, 1e-6))
+		i := perPlanet * j
+		m.lo[i+iPeriod], m.hi[i+iPeriod] = math.Max(s.Period-dP, s.Period/2), s.Period+dP
+		m.lo[i+iT0], m.hi[i+iT0] = t0-s.Duration, t0+s.Duration
+		m.lo[i+iK], m.hi[i+iK] = 0, 1
+		m.lo[i+iB], m.hi[i+iB] = 0, 2
+		x0[i+iPeriod], x0[i+iT0], x0[i+iK], x0[i+iB] = s.Period, t0, math.Min(k0, 0.9), startB
+		scale[i+iPeriod], scale[i+iT0], scale[i+iK], scale[i+iB] = dP/10, s.Duration/10, 0.2*x0[i+iK], 0.1
+	}
+	base := perPlanet * np
+	m.lo[base], m.hi[base] = math.Log10(densityLo), math.Log10(densityHi)
+	m.lo[base+1], m.hi[base+1] = 0, 1
+	m.lo[base+2], m.hi[base+2] = 0, 1
+	s0 := o.Signals[0]
+	k0 := x0[iK]
+	aR0 := s0.Period / (math.Pi * s0.Duration) * math.Sqrt((1+k0)*(1+k0)-startB*startB)
+	rho0 := math.Min(math.Max(DensityFromAxis(s0.Period, aR0), 2*densityLo), densityHi/2)
+	x0[base], x0[base+1], x0[base+2] = math.Log10(rho0), startQ1, startQ2
+	scale[base], scale[base+1], scale[base+2] = 0.1, 0.1, 0.1
+	if o.Jitter {
+		for s := range m.segs {
+			m.lo[base+3+s], m.hi[base+3+s] = math.Log(jitterLo), math.Log(jitterHi)
+			x0[base+3+s], scale[base+3+s] = math.Log(1e-5), 1
+		}
+	}
+	if lp := m.LogPost(x0); math.IsInf(lp, 0) || math.IsNaN(lp) {
+		return nil, nil, steps.BadInputf("signals: the start values give no valid model (log posterior %v)", lp)
+	}
+
+	best, bestLP := optimum(m, x0, scale)
+	notes = append(notes, fmt.Sprintf("best fit: Nelder–Mead from the search's values reached log posterior %.6g (start %.6g)", bestLP, m.LogPost(x0)))
+
+	// Ensembles started in a small ball around the best fit.
+	K := walkersPerDim * dim
+	par := o.Parallel
+	if par == nil {
+		par = func(n int, block func(i int)) {
+			for i := 0; i < n; i++ {
+				block(i)
+			}
+		}
+	}
+	ens := make([]*sampler.Chain, o.Ensembles)
+	last := make([][][]float64, o.Ensembles)
+	for e := range ens {
+		r := rng.Derive(o.Seed, "fit/start", uint64(e))
+		init := make([][]float64, K)
+		for w := range init {
+			init[w] = ball(m, best, scale, r)
+		}
+		last[e] = init
+		ens[e] = &sampler.Chain{Walkers: K, Dim: dim, Thin: 1, Accepted: make([]int, K)}
+	}
+	var taus []float64
+	trusted := false
+	total := 0
+	for total < o.MaxSteps {
+		n := min(chunk, o.MaxSteps-total)
+		for e := range ens {
+			seed := rng.DeriveSeed(o.Seed, "fit/ensemble", uint64(e)<<32|uint64(total/chunk))
+			ch, err := sampler.Run(ctx, m.LogPost, last[e], sampler.Options{Steps: n, Seed: seed, Parallel: par})
+			if err != nil {
+				if errors.Is(err, sampler.ErrConfig) {
+					return nil, nil, fmt.Errorf("fit: %w", err)
+				}
+				return nil, nil, err
+			}
+			appendChain(ens[e], ch)
+			for w := range last[e] {
+				last[e][w] = append([]float64(nil), ch.At(ch.Stored-1, w)...)
+			}
+		}
+		total += n
+		burn := total / 2
+		taus, trusted = tausOf(ens, dim, burn)
+		if trusted && float64(total-burn) >= lengthPerTau*maxOf(taus) {
+			break
+		}
+	}
+	burn := total / 2
+	tauMax := maxOf(taus)
+	if !trusted || float64(total-burn) < lengthPerTau*tauMax {
+		notes = append(notes, fmt.Sprintf("warning: the chains after burn-in are %d steps, shorter than %d autocorrelation times (%.4g steps): the posterior summaries are preliminary; raise max_steps", total-burn, lengthPerTau, lengthPerTau*tauMax))
+	}
+	thin := max(1, int(tauMax/2))
+	notes = append(notes, fmt.Sprintf("sampling: %d ensembles of %d walkers, %d steps each, the first %d discarded as burn-in, thinned by %d (τ/2, τ = %.4g steps)", o.Ensembles, K, total, burn, thin, tauMax))
+
+	// Diagnostics per sampled parameter.
+	art.Names = sampledNames(np, m.segs, o.Jitter)
+	art.Sampled = dim
+	art.Walkers, art.Steps, art.Burn, art.Thin, art.Ensembles = K, total, burn, thin, o.Ensembles
+	for p := 0; p < dim; p++ {
+		ess := 0.0
+		for range ens {
+			ess += sampler.EffectiveSamples(K, total-burn, taus[p])
+		}
+		rh, err := sampler.EnsembleRhat(ens, p, burn)
+		if err != nil || math.IsNaN(rh) {
+			rh = math.NaN()
+		}
+		art.Diag = append(art.Diag, Diagnostic{Tau: taus[p], ESS: ess, Rhat: rh})
+	}
+	acc := 0
+	for _, ch := range ens {
+		for _, a := range ch.Accepted {
+			acc += a
+		}
+	}
+	art.Acceptance = float64(acc) / float64(total*K*len(ens))
+
+	// Thinned samples with derived columns; the best fit is the highest posterior seen.
+	art.Names = append(art.Names, derivedNames(np)...)
+	cols := len(art.Names)
+	for _, ch := range ens {
+		for s := burn + thin - 1; s < ch.Stored; s += thin {
+			for w := 0; w < K; w++ {
+				x := ch.At(s, w)
+				art.Samples = append(art.Samples, withDerived(x, np, cols)...)
+				if lp := ch.LogProb[s*K+w]; lp > bestLP {
+					bestLP, best = lp, append([]float64(nil), x...)
+				}
+			}
+		}
+	}
+	art.Best = withDerived(best, np, cols)
+	art.BestLogPost = bestLP
+	return art, notes, nil
+}
+
+// subTimes wraps transit.SubexposureTimes, with exposure 0 giving the mid-times.
+func subTimes(t []float64, exposure float64, n int) []float64 {
+	if n == 1 || exposure == 0 {
+		return append([]float64(nil), t...)
+	}
+	return transit.SubexposureTimes(nil, t, exposure, n)
+}
+
+// optimum maximises the log posterior by Nelder–Mead (gonum) in coordinates scaled so the
+// initial simplex spans scale, restarting once from the result; it returns the best point.
+func optimum(m *Model, x0, scale []float64) ([]float64, float64) {
+	dim := len(x0)
+	toX := func(dst, y []float64) []float64 {
+		for i := range y {
+			dst[i] = x0[i] + y[i]*scale[i]
+		}
+		return dst
+	}
+	buf := make([]float64, dim)
+	f := func(y []float64) float64 {
+		lp := m.LogPost(toX(buf, y))
+		if math.IsNaN(lp) || math.IsInf(lp, 0) {
+			return 1e300
+		}
+		return -lp
+	}
+	y := make([]float64, dim)
+	for round := 0; round < 3; round++ {
+		res, err := optimize.Minimize(optimize.Problem{Func: f}, y,
+			&optimize.Settings{FuncEvaluations: 1000 * dim, Concurrent: 1,
+				Converger: &optimize.FunctionConverge{Absolute: 1e-7, Iterations: 50 * dim}},
+			&optimize.NelderMead{SimplexSize: 1})
+		if res == nil || (err != nil && res.F >= f(y)) {
+			break
+		}
+		if res.F < f(y) {
+			copy(y, res.X)
+		}
+	}
+	best := toX(make([]float64, dim), y)
+	return best, m.LogPost(best)
+}
+
+// ball draws a walker start near x: a normal offset of 1 % of scale per parameter, drawn
+// again (up to 100 times, then shrunk) until the posterior is finite.
+func ball(m *Model, x, scale []float64, r *rng.Stream) []float64 {
+	y := make([]float64, len(x))
+	size := 0.01
+	for try := 0; ; try++ {
+		for i := range y {
+			y[i] = x[i] + size*scale[i]*r.Normal()
+		}
+		if lp := m.LogPost(y); !math.IsInf(lp, 0) && !math.IsNaN(lp) {
+			return y
+		}
+		if try%100 == 99 {
+			size /= 10
+		}
+		if try > 1000 {
+			return append(y[:0], x...)
+		}
+	}
+}
+
+// appendChain appends the stored steps of c to acc.
+func appendChain(acc, c *sampler.Chain) {
+	acc.Samples = append(acc.Samples, c.Samples...)
+	acc.LogProb = append(acc.LogProb, c.LogProb...)
+	acc.Stored += c.Stored
+	acc.Steps += c.Steps
+	for w, a := range c.Accepted {
+		acc.Accepted[w] += a
+	}
+}
+
+// tausOf is, per parameter, the largest autocorrelation time over the ensembles after burn,
+// and whether every estimate is trusted.
+func tausOf(ens []*sampler.Chain, dim, burn int) ([]float64, bool) {
+	taus := make([]float64, dim)
+	trusted := true
+	for p := 0; p < dim; p++ {
+		for _, ch := range ens {
+			ac, err := sampler.AutoCorrTime(ch.Series(p, burn), 0)
+			if err != nil {
+				trusted = false
+				continue
+			}
+			taus[p] = math.Max(taus[p], ac.Tau)
+			trusted = trusted && ac.Trusted
+		}
+		if taus[p] < 1 {
+			taus[p] = 1
+		}
+	}
+	return taus, trusted
+}
+
+func maxOf(v []float64) float64 {
+	m := 0.0
+	for _, x := range v {
+		m = math.Max(m, x)
+	}
+	return m
+}
+
+// sampledNames names the sampled parameters.
+func sampledNames(np int, segs []segData, jitter bool) []string {
+	var n []string
+	for j := 0; j < np; j++ {
+		p := planetNames[j] + "."
+		n = append(n, p+"period", p+"t0", p+"k", p+"b")
+	}
+	n = append(n, "log10_star_density", "q1", "q2")
+	if jitter {
+		for s := range segs {
+			n = append(n, fmt.Sprintf("segment%d.ln_jitter", s+1))
+		}
+	}
+	return n
+}
+
+// derivedNames names the derived columns: the density, then per planet depth k², a/R*, T14.
+func derivedNames(np int) []string {
+	n := []string{"star_density"}
+	for j := 0; j < np; j++ {
+		p := planetNames[j] + "."
+		n = append(n, p+"depth", p+"a_over_rstar", p+"t14")
+	}
+	return n
+}
+
+// withDerived returns x followed by its derived columns (see derivedNames).
+func withDerived(x []float64, np, cols int) []float64 {
+	out := make([]float64, 0, cols)
+	out = append(out, x...)
+	base := perPlanet * np
+	rho := math.Pow(10, x[base])
+	out = append(out, rho)
+	for j := 0; j < np; j++ {
+		p := x[perPlanet*j:]
+		aR := ScaledAxis(p[iPeriod], rho)
+		out = append(out, p[iK]*p[iK], aR, TotalDuration(p[iPeriod], p[iK], p[iB], aR))
+	}
+	return out
+}
+
+// quantiles returns the 16th, 50th and 84th percentiles of v (sorted copy, linear
+// interpolation between order statistics).
+func quantiles(v []float64) (lo, mid, hi float64) {
+	s := append([]float64(nil), v...)
+	sort.Float64s(s)
+	q := func(p float64) float64 {
+		if len(s) == 0 {
+			return math.NaN()
+		}
+		h := p * float64(len(s)-1)
+		i := int(h)
+		if i+1 >= len(s) {
+			return s[len(s)-1]
+		}
+		return s[i] + (h-float64(i))*(s[i+1]-s[i])
+	}
+	return q(0.16), q(0.5), q(0.84)
+}
