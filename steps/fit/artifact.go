@@ -7,6 +7,7 @@ import (
 
 	"dipline/steps"
 	"dipline/steps/internal/codec"
+	"dipline/steps/internal/lightcurve"
 )
 
 // Frame names the time axis: every time is in days since RefInt + RefFrac on TimeScale.
@@ -89,7 +90,7 @@ func (a *Artifact) Summary(name string) (median, sigma float64) {
 // and the worst sampling diagnostics.
 func (a *Artifact) Figures() []steps.Figure {
 	var figs []steps.Figure
-	frame := fmt.Sprintf("days since %s %d%s", a.Frame.TimeScale, a.Frame.RefInt, fracString(a.Frame.RefFrac))
+	frame := lightcurve.Since(a.Frame.TimeScale, a.Frame.RefInt, a.Frame.RefFrac)
 	add := func(name, col, unit, doc string, factor float64) {
 		med, sig := a.Summary(col)
 		figs = append(figs, steps.Figure{Name: name, Value: med * factor, Sigma: sig * factor, Unit: unit,
@@ -127,17 +128,6 @@ func (a *Artifact) Figures() []steps.Figure {
 		steps.Figure{Name: "diag.acceptance", Value: a.Acceptance, Doc: "mean fraction of accepted stretch moves"},
 	)
 	return figs
-}
-
-func fracString(f float64) string {
-	if f == 0 {
-		return ""
-	}
-	s := fmt.Sprintf("%.10g", f)
-	if len(s) > 1 && s[0] == '0' {
-		s = s[1:]
-	}
-	return s
 }
 
 const (

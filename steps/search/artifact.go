@@ -92,7 +92,7 @@ const SNRFormula = "SNR = depth / σ_T × √N_tr, where σ_T is the standard de
 func (a *Artifact) Figures() []steps.Figure {
 	figs := []steps.Figure{{Name: "n_freq", Value: float64(a.Grid.N),
 		Doc: "number of trial frequencies of the grid uniform in f^(1/3) (Ofir 2014)"}}
-	frame := fmt.Sprintf("days since %s %d%s", a.Frame.TimeScale, a.Frame.RefInt, fracString(a.Frame.RefFrac))
+	frame := lightcurve.Since(a.Frame.TimeScale, a.Frame.RefInt, a.Frame.RefFrac)
 	for k, d := range a.Detections() {
 		p := fmt.Sprintf("signal%d.", k+1)
 		figs = append(figs,
@@ -113,17 +113,6 @@ func (a *Artifact) Figures() []steps.Figure {
 		)
 	}
 	return figs
-}
-
-func fracString(f float64) string {
-	if f == 0 {
-		return ""
-	}
-	s := fmt.Sprintf("%.10g", f)
-	if len(s) > 1 && s[0] == '0' {
-		s = s[1:]
-	}
-	return s
 }
 
 const (

@@ -8,6 +8,8 @@ import (
 	"fmt"
 	"math"
 	"sort"
+	"strconv"
+	"strings"
 
 	"dipline/steps/internal/codec"
 )
@@ -208,4 +210,14 @@ func Decode(b []byte) (*LightCurve, error) {
 // take its input from photometry or from detrend alike.
 type Source interface {
 	LightCurve() *LightCurve
+}
+
+// Since describes a time axis for people: "days since BJD_TDB 2460000.5".
+func Since(scale string, refInt int64, refFrac float64) string {
+	frac := ""
+	if refFrac != 0 {
+		frac = strconv.FormatFloat(refFrac, 'f', -1, 64)
+		frac = strings.TrimPrefix(frac, "0")
+	}
+	return fmt.Sprintf("days since %s %d%s", scale, refInt, frac)
 }

@@ -47,3 +47,19 @@ func TestFlatSortsAcrossSegments(t *testing.T) {
 		t.Errorf("baseline %v, want 3", b)
 	}
 }
+
+func TestSinceNamesTheTimeAxis(t *testing.T) {
+	for _, c := range []struct {
+		ref  int64
+		frac float64
+		want string
+	}{
+		{2460000, 0.5, "days since BJD_TDB 2460000.5"},
+		{2457000, 0, "days since BJD_TDB 2457000"},
+		{2454833, 0.0007428, "days since BJD_TDB 2454833.0007428"},
+	} {
+		if got := Since("BJD_TDB", c.ref, c.frac); got != c.want {
+			t.Errorf("Since(%d, %v) = %q, want %q", c.ref, c.frac, got, c.want)
+		}
+	}
+}

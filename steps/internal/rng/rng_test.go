@@ -5,7 +5,7 @@ import (
 	"testing"
 )
 
-// Golden outputs computed by testdata/goldens.py (our own Python transcription of the
+// Golden outputs computed by testdata/goldens.py (our own Python implementation of the
 // published reference algorithms; run with /usr/bin/python3 testdata/goldens.py). The
 // SplitMix64 values for seeds 0 and 1234567 also agree with commonly quoted test vectors
 // (0xe220a8397b1dcdaf, 6457827717110365317 = 0x599ed017fb08fc85; from memory).
