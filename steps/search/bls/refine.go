@@ -402,6 +402,9 @@ func refine(p *prepared, density, f0, df, c0, d0 float64) (refined, bool) {
 		}
 		fw.add(math.Exp(-(top-t.v)*sumW/2)*(b-a), t.f, (b-a)*(b-a)/12)
 	}
+	if fw.w <= 0 {
+		return refined{}, false
+	}
 	out := refined{}
 	out.freq, out.freqSigma = fw.meanSD()
 
