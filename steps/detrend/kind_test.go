@@ -12,26 +12,10 @@ import (
 	"dipline/steps/detrend/robust"
 	"dipline/steps/internal/golden"
 	"dipline/steps/internal/lightcurve"
+	"dipline/steps/internal/rng"
 	"dipline/steps/internal/signals"
 	"dipline/steps/internal/steptest"
 )
-
-// splitmix is SplitMix64 (Steele, Lea & Flood 2014) with a Box–Muller normal: our own
-// generator, so the fixtures cannot change with a Go release.
-type splitmix struct{ s uint64 }
-
-func (n *splitmix) uniform() float64 {
-	n.s += 0x9e3779b97f4a7c15
-	z := n.s
-	z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9
-	z = (z ^ (z >> 27)) * 0x94d049bb133111eb
-	z ^= z >> 31
-	return (float64(z>>11) + 0.5) / (1 << 53)
-}
-
-func (n *splitmix) normal() float64 {
-	return math.Sqrt(-2*math.Log(n.uniform())) * math.Cos(2*math.Pi*n.uniform())
-}
 
 // cadence294 is the 29.4-min long cadence of a space survey (REFERENCES §15), in days.
 const cadence294 = 29.4 / 1440
@@ -55,7 +39,7 @@ func (s search) Signals() []signals.Signal { return s.sigs }
 // at every 200th point from the 50th; segments are 2 d apart and the first has a 1-d gap in its middle.
 func fixture(nseg, n int) (*lightcurve.LightCurve, signals.Signal) {
 	sig := signals.Signal{Period: 3.1, Epoch: 0.7, Duration: 0.11, Depth: 1.5e-3}
-	rng := splitmix{s: uint64(nseg*1000003 + n)}
+	noise := rng.New(uint64(nseg*1000003 + n)) // our own stream: no Go release changes the fixtures
 	lc := &lightcurve.LightCurve{TimeScale: "BJD_TDB", RefInt: 2460000, RefFrac: 0.5,
 		Dropped: lightcurve.Dropped{NonFinite: 3, Flagged: 2}}
 	t0 := 0.0
@@ -67,7 +51,7 @@ func fixture(nseg, n int) (*lightcurve.LightCurve, signals.Signal) {
 			if k == 0 && i > n/2 {
 				t += 1
 			}
-			f := 1 + 0.004*math.Sin(2*math.Pi*t/5.7) + 3e-4*rng.normal()
+			f := 1 + 0.004*math.Sin(2*math.Pi*t/5.7) + 3e-4*noise.Normal()
 			if sig.InTransit(t, 1) {
 				f -= sig.Depth
 			}

@@ -9,7 +9,7 @@ import (
 // slow wave, white noise of 300 ppm and a flare every few days.
 func benchSeries() []Series {
 	const n = 70000
-	rng := noise{s: 70000}
+	rng := newNoise(70000)
 	tm, f := make([]float64, n), make([]float64, n)
 	for i := range tm {
 		tm[i] = float64(i) * cadence294

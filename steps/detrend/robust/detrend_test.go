@@ -167,7 +167,7 @@ func TestFlaresGoAndDipsStay(t *testing.T) {
 	// one-sided 3σ cut also takes about 0.13 % of pure noise (normal tail, common practice):
 	// about 1.3 of these 980 points, so we allow at most 6 such extra removals.
 	const sigma = 2e-4
-	rng := noise{s: 21}
+	rng := newNoise(21)
 	var tm, f []float64
 	for x := 0.0; x < 20; x += cadence294 {
 		tm = append(tm, x)
@@ -223,7 +223,7 @@ func TestAStepAcrossAGapDoesNotLeak(t *testing.T) {
 		cadence = 2.0 / 1440
 		edge    = 0.3
 	)
-	rng := noise{s: 33}
+	rng := newNoise(33)
 	var tm, f []float64
 	for x := 0.0; x < 10.6; x += cadence {
 		if x >= 5 && x < 5.6 {
@@ -280,8 +280,8 @@ func TestLaterRoundsEqualAFreshPass(t *testing.T) {
 	// After the flare rounds, which recompute only the windows that held a new flare, the
 	// trend at every unmasked point must equal one fresh pass of the filter over the final
 	// set of usable points (each point's window is a pure function of that set).
-	rng := noise{s: 41}
-	tm, f, _ := irregular(&rng, 5000)
+	rng := newNoise(41)
+	tm, f, _ := irregular(rng, 5000)
 	mask := make([]bool, len(tm))
 	for i := range f {
 		if i%97 == 3 {
@@ -413,9 +413,9 @@ func TestASharpTurnIsNotEatenAsFlares(t *testing.T) {
 	// lowering the trend further each time, until the whole maximum is gone (it did, with
 	// the scatter re-estimated from the surviving points over ten rounds). A one-sided 3σ
 	// cut takes about 0.13 % of pure noise (normal tail, common practice); we allow a few
-	// dozen (14 here), not the hundreds a runaway clip removes (198 before the fix), and no point may lose its trend.
+	// dozen (7 here), not the hundreds a runaway clip removes (about 200 with the old rule), and no point may lose its trend.
 	const sigma = 3e-4
-	rng := noise{s: 5}
+	rng := newNoise(5)
 	var tm, f []float64
 	for x := 0.0; x < 20; x += cadence294 {
 		v := 0.04 * math.Pow(math.Cos(math.Pi*x/2.6), 4)

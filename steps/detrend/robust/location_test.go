@@ -53,7 +53,7 @@ func directBiweight(x []float64, c float64) float64 {
 func TestBiweightLocationMatchesDirectDefinition(t *testing.T) {
 	// Source: the definition (Mosteller & Tukey 1977, REFERENCES §11), implemented slowly
 	// above. Agreement to 1e-9 of the scale c·MAD: our iteration stops at 1e-10 of it.
-	rng := noise{s: 1}
+	rng := newNoise(1)
 	cases := []struct {
 		name string
 		n    int
@@ -97,7 +97,7 @@ func TestBiweightIgnoresAnOutlier(t *testing.T) {
 	// change it makes to the median and MAD: well under a tenth of σ for 51 points. The
 	// mean, as a control, moves by (outlier − mean)/52, over one σ for each case.
 	const sigma = 1e-3
-	rng := noise{s: 7}
+	rng := newNoise(7)
 	base := make([]float64, 51)
 	for i := range base {
 		base[i] = 1 + sigma*rng.normal()
@@ -135,7 +135,7 @@ func TestBiweightIgnoresAnOutlier(t *testing.T) {
 
 func TestMADSortedMatchesSorting(t *testing.T) {
 	// Source: the definition median(|x − m|), computed by sorting the deviations.
-	rng := noise{s: 3}
+	rng := newNoise(3)
 	for n := 1; n < 60; n++ {
 		x := make([]float64, n)
 		for i := range x {
@@ -239,7 +239,7 @@ func TestAgainstIndependentNumpyScript(t *testing.T) {
 
 func TestRobustSigmaMatchesSorting(t *testing.T) {
 	// Source: the definition 1.4826·median(|x − median(x)|), computed by full sorts.
-	rng := noise{s: 17}
+	rng := newNoise(17)
 	for n := 1; n < 300; n += 7 {
 		for _, ties := range []bool{false, true} {
 			x := make([]float64, n)

@@ -23,7 +23,7 @@ func TestRobustSplineRecoversACubicPastOutliers(t *testing.T) {
 		{"a hole at the start shifts the knots to the data", [2]float64{-1, 1.7}},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
-			rng := noise{s: 5}
+			rng := newNoise(5)
 			var tm, f []float64
 			for x := 0.0; x <= 10; x += cadence294 {
 				if x >= tc.hole[0] && x < tc.hole[1] {
@@ -59,7 +59,7 @@ func TestRobustSplineOnNoisyData(t *testing.T) {
 	// near σ·√(p/N); we allow twice that. The clipping must keep it there despite 2 %
 	// outliers of 60 σ; with clipping off (the control) the outliers push it well past.
 	const sigma = 3e-4
-	rng := noise{s: 9}
+	rng := newNoise(9)
 	var tm, f, truth []float64
 	for x := 0.0; x <= 20; x += cadence294 {
 		tm = append(tm, x)

@@ -78,8 +78,8 @@ func TestWindowFiltersMatchDirectLoops(t *testing.T) {
 		{"windows ending exactly on a point include it", 15, 400, 0.5, 5, true},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
-			rng := noise{s: tc.seed}
-			tm, f, use := irregular(&rng, tc.n)
+			rng := newNoise(tc.seed)
+			tm, f, use := irregular(rng, tc.n)
 			if tc.grid {
 				for i := range tm {
 					tm[i] = float64(i) / 64
