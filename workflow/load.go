@@ -59,7 +59,6 @@ type Workflow struct {
 	Overrides []Override
 
 	byAddr    map[string]*Step
-	files     map[string]*hcl.File
 	overrides map[string]*override
 }
 
@@ -93,9 +92,6 @@ type FileInput struct {
 // Step returns the step at an address, or nil.
 func (w *Workflow) Step(addr string) *Step { return w.byAddr[addr] }
 
-// Files returns the parsed files, for printing diagnostics with source snippets.
-func (w *Workflow) Files() map[string]*hcl.File { return w.files }
-
 // Load reads, parses and validates a workflow file. The returned diagnostics may hold
 // warnings alongside a usable workflow; on errors the workflow is nil.
 func Load(path string, reg steps.Registry) (*Workflow, hcl.Diagnostics) {
@@ -118,7 +114,7 @@ func load(path string, reg steps.Registry, overrides []Override) (*Workflow, hcl
 		return nil, hcl.Diagnostics{{Severity: hcl.DiagError, Summary: "Cannot resolve folder", Detail: err.Error()}}
 	}
 	w := &Workflow{Path: path, Dir: dir, Digest: sha256.Sum256(src), byAddr: map[string]*Step{},
-		files: parser.Files(), StorePath: filepath.Join(dir, defaultStore), OutputDir: filepath.Join(dir, defaultOutput)}
+		StorePath: filepath.Join(dir, defaultStore), OutputDir: filepath.Join(dir, defaultOutput)}
 	if d := w.parseOverrides(overrides); d.HasErrors() {
 		return nil, d
 	}

@@ -71,7 +71,7 @@ func Pending(w *Workflow, store *cache.Store) ([]Verdict, error) {
 			}
 		}
 		if len(v.Reasons) == 0 {
-			v.Reasons = compareWithLast(w, s, key, known, runs, store)
+			v.Reasons = compareWithLast(s, key, known, runs, store)
 		}
 		out = append(out, v)
 	}
@@ -99,7 +99,7 @@ func lastProvenance(s *Step, runs []cache.Run, store *cache.Store) *Provenance {
 
 // compareWithLast explains why s's key is new by comparing it with the provenance of the
 // newest run that computed or reused the same address.
-func compareWithLast(w *Workflow, s *Step, key cache.StepKey, known map[string]cache.ResultKey,
+func compareWithLast(s *Step, key cache.StepKey, known map[string]cache.ResultKey,
 	runs []cache.Run, store *cache.Store) []string {
 	prev := lastProvenance(s, runs, store)
 	if prev == nil {
