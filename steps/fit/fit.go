@@ -21,13 +21,13 @@ import (
 const (
 	// maxPlanets bounds the planets fitted jointly in this version.
 	maxPlanets = 3
-	// maxSub caps the sub-exposures per point: 25 keeps the midpoint-rule error of a
-	// 29.4-min exposure far below 100 ppm for Earth-to-Jupiter ingresses (error ∝ 1/N²,
-	// Kipping 2010; N ≈ 10–30 is common practice, REFERENCES §3).
-	maxSub = 25
-	// subPerIngress is the number of sub-exposures per ingress duration (N = ceil(exposure
-	// / (τ/3))): three samples across ingress resolve its curvature (our choice).
-	subPerIngress = 3
+	// maxSub caps the sub-exposures per point to bound the cost of very precise data; the
+	// number itself comes from subexposures.
+	maxSub = 60
+	// integrationShare is the largest integration error allowed, in units of the typical
+	// point error: a tenth (after Kipping 2010, MNRAS 408, 1758, who sets N by comparing the
+	// integration error with the noise; the factor is our choice).
+	integrationShare = 0.1
 	// lengthPerTau is the chain length after burn-in, in autocorrelation times, at which
 	// sampling stops (50τ, REFERENCES §10).
 	lengthPerTau = 50
@@ -57,6 +57,8 @@ type Options struct {
 	Seed        uint64
 	// Parallel runs block(i) for i in [0, n); nil runs serially. Results do not depend on it.
 	Parallel func(n int, block func(i int))
+
+	nsub int // sub-exposures per point instead of subexposures' choice, for tests
 }
 
 // planetNames names planets in signal order.
@@ -74,124 +76,11 @@ func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, 
 			return nil, nil, steps.BadInputf("signals: signal %d has period %v d, duration %v d, epoch %v: cannot start a fit", j+1, s.Period, s.Duration, s.Epoch)
 		}
 	}
-	var notes []string
-	m := &Model{planets: np, jitter: o.Jitter}
-	art := &Artifact{Frame: Frame{TimeScale: lc.TimeScale, RefInt: lc.RefInt, RefFrac: lc.RefFrac}, Window: o.Window}
-
-	// Points within Window search durations of a predicted mid-transit of any planet.
-	// The selection is fixed before fitting so the likelihood is a smooth function.
-	kept := 0
-	sumW := make([]float64, np)
-	sumWT := make([]float64, np)
-	minIngress := math.Inf(1)
-	for _, s := range o.Signals {
-		k := math.Sqrt(math.Max(s.Depth, 1e-6))
-		minIngress = math.Min(minIngress, s.Duration*k/(1+k))
+	m, art, x0, scale, notes, err := setup(lc, o)
+	if err != nil {
+		return nil, nil, err
 	}
-	for si := range lc.Segments {
-		seg := &lc.Segments[si]
-		var sd segData
-		for i, t := range seg.Time {
-			f, e := seg.Flux[i], seg.Err[i]
-			if math.IsNaN(t) || math.IsInf(t, 0) || math.IsNaN(f) || math.IsInf(f, 0) || !(e > 0) || math.IsInf(e, 0) {
-				return nil, nil, steps.BadInputf("light_curve: segment %s, point %d: time %v, flux %v, error %v are not usable", seg.ID, i+1, t, f, e)
-			}
-			in := false
-			for j, s := range o.Signals {
-				if s.InTransit(t, 2*o.Window) {
-					in = true
-					sumW[j] += 1 / (e * e)
-					sumWT[j] += t / (e * e)
-				}
-			}
-			if in {
-				sd.t = append(sd.t, t)
-				sd.f = append(sd.f, f)
-				sd.v = append(sd.v, e*e)
-			}
-		}
-		if len(sd.t) == 0 {
-			continue
-		}
-		sd.nsub = 1
-		if o.Supersample && seg.Exposure > 0 && !math.IsInf(seg.Exposure, 0) {
-			n := math.Ceil(seg.Exposure / (minIngress / subPerIngress))
-			sd.nsub = int(math.Max(1, math.Min(maxSub, n)))
-		}
-		exposure := seg.Exposure
-		if !(exposure > 0) || math.IsInf(exposure, 0) {
-			exposure = 0
-		}
-		sd.fine = make([]float64, len(sd.t)*sd.nsub)
-		// SubexposureTimes with n = 1 returns the mid-times themselves.
-		copy(sd.fine, subTimes(sd.t, exposure, sd.nsub))
-		m.maxFine = max(m.maxFine, len(sd.fine))
-		m.segs = append(m.segs, sd)
-		kept += len(sd.t)
-		art.Segments = append(art.Segments, SegmentInfo{ID: seg.ID, Exposure: seg.Exposure, Points: len(sd.t), NSub: sd.nsub})
-	}
-	for j := range o.Signals {
-		if sumW[j] == 0 {
-			return nil, nil, steps.BadInputf("light_curve: no points within %g durations of any transit of signal %d (period %.6g d)", o.Window, j+1, o.Signals[j].Period)
-		}
-	}
-	if kept < 10 {
-		return nil, nil, steps.BadInputf("light_curve: only %d points near the transits; at least 10 are needed", kept)
-	}
-	notes = append(notes, fmt.Sprintf("likelihood: %d points within %g search durations of a predicted mid-transit, in %d segment(s); the rest of the light curve is left out", kept, o.Window, len(m.segs)))
-	for _, s := range art.Segments {
-		notes = append(notes, fmt.Sprintf("exposure: segment %s, %.4g min, integrated with %d sub-exposure(s) per point", s.ID, s.Exposure*1440, s.NSub))
-	}
-
-	// Reference epochs near the weighted centre; bounds on period and mid-time keep every
-	// modelled transit inside the fixed windows.
-	dim := m.dim()
-	m.lo, m.hi = make([]float64, dim), make([]float64, dim)
-	x0 := make([]float64, dim)
-	scale := make([]float64, dim)
-	for j, s := range o.Signals {
-		centre := sumWT[j] / sumW[j]
-		n := math.Round((centre - s.Epoch) / s.Period)
-		t0 := s.Epoch + n*s.Period
-		nmax := 1.0
-		for _, sd := range m.segs {
-			for _, t := range sd.t {
-				if s.InTransit(t, 2*o.Window) {
-					nmax = math.Max(nmax, math.Abs(math.Round((t-t0)/s.Period)))
-				}
-			}
-		}
-		art.Reference = append(art.Reference, Reference{Transit: int64(n), Time: t0})
-		dP := s.Duration / nmax
-		k0 := math.Sqrt(math.Max(s.Depth, 1e-6))
-		i := perPlanet * j
-		m.lo[i+iPeriod], m.hi[i+iPeriod] = math.Max(s.Period-dP, s.Period/2), s.Period+dP
-		m.lo[i+iT0], m.hi[i+iT0] = t0-s.Duration, t0+s.Duration
-		m.lo[i+iK], m.hi[i+iK] = 0, 1
-		m.lo[i+iB], m.hi[i+iB] = 0, 2
-		x0[i+iPeriod], x0[i+iT0], x0[i+iK], x0[i+iB] = s.Period, t0, math.Min(k0, 0.9), startB
-		scale[i+iPeriod], scale[i+iT0], scale[i+iK], scale[i+iB] = dP/10, s.Duration/10, 0.2*x0[i+iK], 0.1
-	}
-	base := perPlanet * np
-	m.lo[base], m.hi[base] = math.Log10(densityLo), math.Log10(densityHi)
-	m.lo[base+1], m.hi[base+1] = 0, 1
-	m.lo[base+2], m.hi[base+2] = 0, 1
-	s0 := o.Signals[0]
-	k0 := x0[iK]
-	aR0 := s0.Period / (math.Pi * s0.Duration) * math.Sqrt((1+k0)*(1+k0)-startB*startB)
-	rho0 := math.Min(math.Max(DensityFromAxis(s0.Period, aR0), 2*densityLo), densityHi/2)
-	x0[base], x0[base+1], x0[base+2] = math.Log10(rho0), startQ1, startQ2
-	scale[base], scale[base+1], scale[base+2] = 0.1, 0.1, 0.1
-	if o.Jitter {
-		for s := range m.segs {
-			m.lo[base+3+s], m.hi[base+3+s] = math.Log(jitterLo), math.Log(jitterHi)
-			x0[base+3+s], scale[base+3+s] = math.Log(1e-5), 1
-		}
-	}
-	if lp := m.LogPost(x0); math.IsInf(lp, 0) || math.IsNaN(lp) {
-		return nil, nil, steps.BadInputf("signals: the start values give no valid model (log posterior %v)", lp)
-	}
-
+	dim := len(x0)
 	best, bestLP := optimum(m, x0, scale)
 	notes = append(notes, fmt.Sprintf("best fit: Nelder–Mead from the search's values reached log posterior %.6g (start %.6g)", bestLP, m.LogPost(x0)))
 
@@ -290,6 +179,168 @@ func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, 
 	art.Best = withDerived(best, np, cols)
 	art.BestLogPost = bestLP
 	return art, notes, nil
+}
+
+// setup selects the points near the predicted transits, builds the model over them and
+// returns it with the artifact's frame and segment list, the start point, the start scale
+// per parameter and the notes so far.
+func setup(lc *lightcurve.LightCurve, o Options) (m *Model, art *Artifact, x0, scale []float64, notes []string, err error) {
+	np := len(o.Signals)
+	m = &Model{planets: np, jitter: o.Jitter}
+	art = &Artifact{Frame: Frame{TimeScale: lc.TimeScale, RefInt: lc.RefInt, RefFrac: lc.RefFrac}, Window: o.Window}
+
+	// Points within Window search durations of a predicted mid-transit of any planet.
+	// The selection is fixed before fitting so the likelihood is a smooth function.
+	kept := 0
+	sumW := make([]float64, np)
+	sumWT := make([]float64, np)
+	for si := range lc.Segments {
+		seg := &lc.Segments[si]
+		var sd segData
+		for i, t := range seg.Time {
+			f, e := seg.Flux[i], seg.Err[i]
+			if math.IsNaN(t) || math.IsInf(t, 0) || math.IsNaN(f) || math.IsInf(f, 0) || !(e > 0) || math.IsInf(e, 0) {
+				return nil, nil, nil, nil, nil, steps.BadInputf("light_curve: segment %s, point %d: time %v, flux %v, error %v are not usable", seg.ID, i+1, t, f, e)
+			}
+			in := false
+			for j, s := range o.Signals {
+				if s.InTransit(t, 2*o.Window) {
+					in = true
+					sumW[j] += 1 / (e * e)
+					sumWT[j] += t / (e * e)
+				}
+			}
+			if in {
+				sd.t = append(sd.t, t)
+				sd.f = append(sd.f, f)
+				sd.v = append(sd.v, e*e)
+			}
+		}
+		if len(sd.t) == 0 {
+			continue
+		}
+		sd.nsub = 1
+		if o.Supersample && seg.Exposure > 0 && !math.IsInf(seg.Exposure, 0) {
+			sigma := typicalError(sd.v)
+			for _, s := range o.Signals {
+				k := math.Sqrt(math.Max(s.Depth, 1e-6))
+				sd.nsub = max(sd.nsub, subexposures(seg.Exposure, k*k, s.Duration*k/(1+k), sigma))
+			}
+			if o.nsub > 0 {
+				sd.nsub = o.nsub
+			}
+		}
+		exposure := seg.Exposure
+		if !(exposure > 0) || math.IsInf(exposure, 0) {
+			exposure = 0
+		}
+		if sd.nsub > 1 {
+			sd.half = exposure / 2
+		}
+		sd.fine = make([]float64, len(sd.t)*sd.nsub)
+		// SubexposureTimes with n = 1 returns the mid-times themselves.
+		copy(sd.fine, subTimes(sd.t, exposure, sd.nsub))
+		m.maxFine = max(m.maxFine, len(sd.fine))
+		m.maxPoints = max(m.maxPoints, len(sd.t))
+		m.segs = append(m.segs, sd)
+		kept += len(sd.t)
+		art.Segments = append(art.Segments, SegmentInfo{ID: seg.ID, Exposure: seg.Exposure, Points: len(sd.t), NSub: sd.nsub})
+	}
+	for j := range o.Signals {
+		if sumW[j] == 0 {
+			return nil, nil, nil, nil, nil, steps.BadInputf("light_curve: no points within %g durations of any transit of signal %d (period %.6g d)", o.Window, j+1, o.Signals[j].Period)
+		}
+	}
+	if kept < 10 {
+		return nil, nil, nil, nil, nil, steps.BadInputf("light_curve: only %d points near the transits; at least 10 are needed", kept)
+	}
+	notes = append(notes, fmt.Sprintf("likelihood: %d points within %g search durations of a predicted mid-transit, in %d segment(s); the rest of the light curve is left out", kept, o.Window, len(m.segs)))
+	for _, s := range art.Segments {
+		notes = append(notes, fmt.Sprintf("exposure: segment %s, %.4g min, integrated with %d sub-exposure(s) per point (bound on the integration error: %g of the median point error)", s.ID, s.Exposure*1440, s.NSub, integrationShare))
+	}
+
+	// Reference epochs near the weighted centre; bounds on period and mid-time keep every
+	// modelled transit inside the fixed windows.
+	dim := m.dim()
+	m.lo, m.hi = make([]float64, dim), make([]float64, dim)
+	x0 = make([]float64, dim)
+	scale = make([]float64, dim)
+	for j, s := range o.Signals {
+		centre := sumWT[j] / sumW[j]
+		n := math.Round((centre - s.Epoch) / s.Period)
+		t0 := s.Epoch + n*s.Period
+		nmax := 1.0
+		for _, sd := range m.segs {
+			for _, t := range sd.t {
+				if s.InTransit(t, 2*o.Window) {
+					nmax = math.Max(nmax, math.Abs(math.Round((t-t0)/s.Period)))
+				}
+			}
+		}
+		art.Reference = append(art.Reference, Reference{Transit: int64(n), Time: t0})
+		dP := s.Duration / nmax
+		k0 := math.Sqrt(math.Max(s.Depth, 1e-6))
+		i := perPlanet * j
+		m.lo[i+iPeriod], m.hi[i+iPeriod] = math.Max(s.Period-dP, s.Period/2), s.Period+dP
+		m.lo[i+iT0], m.hi[i+iT0] = t0-s.Duration, t0+s.Duration
+		m.lo[i+iK], m.hi[i+iK] = 0, 1
+		m.lo[i+iB], m.hi[i+iB] = 0, 2
+		x0[i+iPeriod], x0[i+iT0], x0[i+iK], x0[i+iB] = s.Period, t0, math.Min(k0, 0.9), startB
+		scale[i+iPeriod], scale[i+iT0], scale[i+iK], scale[i+iB] = dP/10, s.Duration/10, 0.2*x0[i+iK], 0.1
+	}
+	base := perPlanet * np
+	m.lo[base], m.hi[base] = math.Log10(densityLo), math.Log10(densityHi)
+	m.lo[base+1], m.hi[base+1] = 0, 1
+	m.lo[base+2], m.hi[base+2] = 0, 1
+	s0 := o.Signals[0]
+	k0 := x0[iK]
+	aR0 := s0.Period / (math.Pi * s0.Duration) * math.Sqrt((1+k0)*(1+k0)-startB*startB)
+	rho0 := math.Min(math.Max(DensityFromAxis(s0.Period, aR0), 2*densityLo), densityHi/2)
+	x0[base], x0[base+1], x0[base+2] = math.Log10(rho0), startQ1, startQ2
+	scale[base], scale[base+1], scale[base+2] = 0.1, 0.1, 0.1
+	if o.Jitter {
+		for s := range m.segs {
+			m.lo[base+3+s], m.hi[base+3+s] = math.Log(jitterLo), math.Log(jitterHi)
+			x0[base+3+s], scale[base+3+s] = math.Log(1e-5), 1
+		}
+	}
+	if lp := m.LogPost(x0); math.IsInf(lp, 0) || math.IsNaN(lp) {
+		return nil, nil, nil, nil, nil, steps.BadInputf("signals: the start values give no valid model (log posterior %v)", lp)
+	}
+
+	return m, art, x0, scale, notes, nil
+}
+
+// subexposures is the number N of sub-exposures per point for an exposure of length T, a
+// transit of depth δ whose ingress lasts τ, and points of error σ: the least N for which a
+// bound on the midpoint-rule error is below ε = integrationShare·σ, capped at maxSub. The
+// bound is our derivation for a trapezoid (ingress a linear ramp of slope s = δ/τ): the
+// midpoint rule is exact on the linear pieces; a sub-interval of width h = T/N holding one
+// kink errs in its integral by at most s h²/8, and by no more when it holds both ends of a
+// ramp shorter than h (error δ(h−τ)/2 ≤ s h²/8 since (h−2τ)² ≥ 0) or when a step-like ramp
+// is reduced to δh/2; kinks in different sub-intervals err with opposite signs. Averaged
+// over T: E ≤ min(δT/(8τN²), δ/(2N)), so N ≥ min(√(δT/(8τε)), δ/(2ε)). The error falls
+// as 1/N² (Kipping 2010, MNRAS 408, 1758). τ is taken from the search's box (its duration
+// times k/(1+k)), short of the true ingress, which errs on the safe side; the limb-darkened
+// model is smoother than the trapezoid (model_test.go measures the real error).
+func subexposures(exposure, depth, ingress, sigma float64) int {
+	eps := integrationShare * sigma
+	if !(exposure > 0) || !(depth > 0) || !(eps > 0) {
+		return 1
+	}
+	n := math.Inf(1)
+	if ingress > 0 {
+		n = math.Sqrt(depth * exposure / (8 * ingress * eps))
+	}
+	n = math.Ceil(math.Min(n, depth/(2*eps)))
+	return int(math.Max(1, math.Min(maxSub, n)))
+}
+
+// typicalError is the median point error √v of a segment.
+func typicalError(v []float64) float64 {
+	s := append([]float64(nil), v...)
+	sort.Float64s(s)
+	return math.Sqrt(s[len(s)/2])
 }
 
 // subTimes wraps transit.SubexposureTimes, with exposure 0 giving the mid-times.

@@ -54,22 +54,31 @@ const (
 	iB        = 3
 )
 
-// segData is the part of one segment that enters the likelihood.
+// segData is the part of one segment that enters the likelihood; all of it is fixed before
+// sampling.
 type segData struct {
 	t, f, v []float64 // times, fluxes and error variances of the points kept
 	nsub    int       // sub-exposures per point
-	fine    []float64 // sub-exposure times, len(t)·nsub
+	half    float64   // half the exposure (days; 0 when the points are instants)
+	fine    []float64 // sub-exposure times, len(t)·nsub, point by point
 }
+
+// contactMargin widens, in periods, the phase window within which a point is modelled
+// (about 0.03 s for a 3-day period): a point further from every mid-transit has each of its
+// sub-exposures at a separation beyond 1 + k by far more than rounding, so its flux is
+// exactly 1 and is not computed (our choice; LogPost is unchanged, see model_test.go).
+const contactMargin = 1e-7
 
 // Model is the log-posterior of the transit model over the points near predicted transits.
 // It is safe for concurrent use: scratch space comes from a sync.Pool.
 type Model struct {
-	planets int
-	jitter  bool
-	segs    []segData
-	lo, hi  []float64 // uniform prior bounds per parameter (b is also bounded by 1+k)
-	maxFine int
-	scratch sync.Pool
+	planets   int
+	jitter    bool
+	segs      []segData
+	lo, hi    []float64 // uniform prior bounds per parameter (b is also bounded by 1+k)
+	maxFine   int
+	maxPoints int
+	scratch   sync.Pool
 }
 
 // dim is the number of sampled parameters.
@@ -81,14 +90,102 @@ func (m *Model) dim() int {
 	return d
 }
 
-type workspace struct{ z, fl, sum, avg []float64 }
+// workspace is the scratch space of one LogPost call.
+type workspace struct {
+	tsub, z, fl []float64 // sub-exposure times, separations, fluxes of one planet's transits
+	sum         []float64 // 1 + Σ_planets (flux − 1) per sub-exposure of the points modelled
+	mod         []float64 // exposure-averaged model per point
+	slot        []int32   // per point: its block in sum, or −1 when no planet is near
+	near        [maxPlanets][]int32
+}
 
 func (m *Model) workspace() *workspace {
 	if w, ok := m.scratch.Get().(*workspace); ok {
 		return w
 	}
-	n := m.maxFine
-	return &workspace{z: make([]float64, n), fl: make([]float64, n), sum: make([]float64, n), avg: make([]float64, n)}
+	n, p := m.maxFine, m.maxPoints
+	w := &workspace{tsub: make([]float64, n), z: make([]float64, n), fl: make([]float64, n), sum: make([]float64, n),
+		mod: make([]float64, p), slot: make([]int32, p)}
+	for j := 0; j < m.planets; j++ {
+		w.near[j] = make([]int32, 0, p)
+	}
+	return w
+}
+
+// model writes into ws.mod the model of segment sd: per point the mean over its
+// sub-exposures of 1 + Σ_planets (flux − 1). Only points whose exposure may overlap a
+// transit (phase within the contact half-angle plus half the exposure plus contactMargin)
+// are integrated, and each planet's flux is computed only for the points near its own
+// transits; the rest are exactly 1, as the full computation gives (Flux returns 1 beyond
+// contact and adding 1 − 1 = 0 changes no sum), so the result is the same to the bit.
+func (m *Model) model(ws *workspace, sd *segData, x []float64, aR []float64, u1, u2 float64) []float64 {
+	np, n := m.planets, sd.nsub
+	slot := ws.slot[:len(sd.t)]
+	for i := range slot {
+		slot[i] = -1
+	}
+	used := int32(0)
+	for j := 0; j < np; j++ {
+		p := x[perPlanet*j:]
+		period, t0, k, b := p[iPeriod], p[iT0], p[iK], p[iB]
+		// z ≥ 1+k ⇔ sin²φ ≥ ((1+k)² − b²)/(aR² − b²) on the near half of a circular orbit
+		// (z² = b² + (aR² − b²) sin²φ, Winn 2010 with e = 0); the prior keeps b < 1+k < aR.
+		r := ((1+k)*(1+k) - b*b) / (aR[j]*aR[j] - b*b)
+		phiC := math.Pi / 2
+		if r < 1 {
+			phiC = math.Asin(math.Sqrt(r))
+		}
+		reach := phiC/(2*math.Pi) + sd.half/period + contactMargin
+		near := ws.near[j][:0]
+		for i, t := range sd.t {
+			d := (t - t0) / period
+			d -= math.Round(d)
+			if !(math.Abs(d) > reach) {
+				near = append(near, int32(i))
+				if slot[i] < 0 {
+					slot[i] = used
+					used++
+				}
+			}
+		}
+		ws.near[j] = near
+	}
+	sum := ws.sum[:int(used)*n]
+	for i := range sum {
+		sum[i] = 1
+	}
+	for j := 0; j < np; j++ {
+		near := ws.near[j]
+		if len(near) == 0 {
+			continue
+		}
+		p := x[perPlanet*j:]
+		tsub := ws.tsub[:len(near)*n]
+		for q, i := range near {
+			copy(tsub[q*n:(q+1)*n], sd.fine[int(i)*n:(int(i)+1)*n])
+		}
+		z := transit.SeparationCircular(ws.z[:len(tsub)], tsub, p[iPeriod], p[iT0], aR[j], p[iB])
+		fl := transit.Flux(ws.fl[:len(tsub)], z, p[iK], u1, u2)
+		for q, i := range near {
+			blk := sum[int(slot[i])*n : int(slot[i]+1)*n]
+			for s, v := range fl[q*n : (q+1)*n] {
+				blk[s] += v - 1
+			}
+		}
+	}
+	mod := ws.mod[:len(sd.t)]
+	for i, sl := range slot {
+		if sl < 0 {
+			mod[i] = 1
+			continue
+		}
+		s := 0.0
+		for _, v := range sum[int(sl)*n : int(sl+1)*n] {
+			s += v
+		}
+		mod[i] = s / float64(n)
+	}
+	return mod
 }
 
 // LogPost is the log posterior up to a constant: uniform priors within the bounds (uniform
@@ -123,20 +220,7 @@ func (m *Model) LogPost(x []float64) float64 {
 	lp := 0.0
 	for s := range m.segs {
 		sd := &m.segs[s]
-		n := len(sd.fine)
-		sum := ws.sum[:n]
-		for i := range sum {
-			sum[i] = 1
-		}
-		for j := 0; j < np; j++ {
-			p := x[perPlanet*j:]
-			z := transit.SeparationCircular(ws.z[:n], sd.fine, p[iPeriod], p[iT0], aR[j], p[iB])
-			fl := transit.Flux(ws.fl[:n], z, p[iK], u1, u2)
-			for i, v := range fl {
-				sum[i] += v - 1
-			}
-		}
-		mod := transit.AverageBlocks(ws.avg[:len(sd.t)], sum, sd.nsub)
+		mod := m.model(ws, sd, x, aR[:np], u1, u2)
 		s2 := 0.0
 		if m.jitter {
 			js := math.Exp(x[base+3+s])
