@@ -413,7 +413,8 @@ func TestASharpTurnIsNotEatenAsFlares(t *testing.T) {
 	// lowering the trend further each time, until the whole maximum is gone (it did, with
 	// the scatter re-estimated from the surviving points over ten rounds). A one-sided 3σ
 	// cut takes about 0.13 % of pure noise (normal tail, common practice); we allow a few
-	// dozen (7 here), not the hundreds a runaway clip removes (about 200 with the old rule), and no point may lose its trend.
+	// dozen (7 here), not the hundreds a runaway clip removes (about 200 with the old
+	// rule), and no point may lose its trend.
 	const sigma = 3e-4
 	rng := newNoise(5)
 	var tm, f []float64
