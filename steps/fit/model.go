@@ -4,14 +4,15 @@ import (
 	"math"
 	"sync"
 
+	"dipline/steps/internal/astro"
 	"dipline/steps/internal/transit"
 )
 
-// gravity is the Newtonian constant of gravitation, CODATA 2018, m³ kg⁻¹ s⁻² (REFERENCES §1).
-const gravity = 6.67430e-11
-
-// secondsPerDay is the Julian day in seconds (REFERENCES §1).
-const secondsPerDay = 86400.0
+// The constants come from the project's one table of them (CODATA 2018 G, the Julian day).
+const (
+	gravity       = astro.G
+	secondsPerDay = astro.Day
+)
 
 // ScaledAxis is a/R* of a circular orbit of period P (days) around a star of mean density
 // rho (g/cm³) by Kepler's third law, a/R* = (G ρ P² / 3π)^{1/3}, neglecting the planet's
