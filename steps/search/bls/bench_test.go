@@ -204,3 +204,18 @@ func BenchmarkRefine4yr(b *testing.B) {
 		}
 	}
 }
+
+// BenchmarkFoldFloorSingleSub is BenchmarkFoldFloorSub folding one frequency per pass over
+// the points, to measure what folding two at a time gains.
+func BenchmarkFoldFloorSingleSub(b *testing.B) {
+	p, g, _, _ := benchSetup(b, 16)
+	var sc scratch
+	measure(b, len(p.t), g, rusageThread, func() {
+		for j := 0; j < g.N; j++ {
+			f := g.Freq(j)
+			lo, hi := durationRange(1/f, g.Density, p.cadence)
+			nb, _, _ := phaseBins(f, lo, hi)
+			fold(sc.binsFor(0, nb), p.t, p.w, p.wx, f, nb)
+		}
+	})
+}
