@@ -227,20 +227,28 @@ func (m *Model) LogPost(x []float64) float64 {
 			js := math.Exp(x[base+3+s])
 			s2 = js * js
 		}
-		var A, B, C, logDet float64
-		for i, mi := range mod {
-			vi := sd.v[i] + s2
-			w := 1 / vi
-			fi := sd.f[i]
-			A += w * mi * mi
-			B += w * fi * mi
-			C += w * fi * fi
-			logDet += math.Log(vi)
-		}
-		if !(A > 0) {
-			return math.Inf(-1)
-		}
-		lp += -0.5*(C-B*B/A) - 0.5*logDet + 0.5*math.Log(2*math.Pi/A) - 0.5*float64(len(mod))*math.Log(2*math.Pi)
+		lp += segmentLogLike(mod, sd.f, sd.v, s2)
 	}
 	return lp
+}
+
+// segmentLogLike is the log-likelihood of one segment's fluxes f with variances v + s2
+// under the model mod times a flux scale, the scale marginalised analytically under a flat
+// prior: with A = Σ m²/σ², B = Σ f m/σ², C = Σ f²/σ², it is
+// −½(C − B²/A) − ½ Σ ln σ² + ½ ln(2π/A) − (n/2) ln 2π. It is −Inf when A is not positive.
+func segmentLogLike(mod, f, v []float64, s2 float64) float64 {
+	var A, B, C, logDet float64
+	for i, mi := range mod {
+		vi := v[i] + s2
+		w := 1 / vi
+		fi := f[i]
+		A += w * mi * mi
+		B += w * fi * mi
+		C += w * fi * fi
+		logDet += math.Log(vi)
+	}
+	if !(A > 0) {
+		return math.Inf(-1)
+	}
+	return -0.5*(C-B*B/A) - 0.5*logDet + 0.5*math.Log(2*math.Pi/A) - 0.5*float64(len(mod))*math.Log(2*math.Pi)
 }

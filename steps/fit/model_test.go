@@ -147,20 +147,7 @@ func fullLogPost(m *Model, x []float64) float64 {
 			js := math.Exp(x[base+3+s])
 			s2 = js * js
 		}
-		var A, B, C, logDet float64
-		for i, mi := range mod {
-			vi := sd.v[i] + s2
-			w := 1 / vi
-			fi := sd.f[i]
-			A += w * mi * mi
-			B += w * fi * mi
-			C += w * fi * fi
-			logDet += math.Log(vi)
-		}
-		if !(A > 0) {
-			return math.Inf(-1)
-		}
-		lp += -0.5*(C-B*B/A) - 0.5*logDet + 0.5*math.Log(2*math.Pi/A) - 0.5*float64(len(mod))*math.Log(2*math.Pi)
+		lp += segmentLogLike(mod, sd.f, sd.v, s2)
 	}
 	return lp
 }
