@@ -10,13 +10,6 @@ import (
 	"dipline/steps/internal/lightcurve"
 )
 
-// Frame names the time axis: every time is in days since RefInt + RefFrac on TimeScale.
-type Frame struct {
-	TimeScale string
-	RefInt    int64
-	RefFrac   float64
-}
-
 // SegmentInfo describes one segment that entered the likelihood.
 type SegmentInfo struct {
 	ID       string
@@ -41,7 +34,7 @@ type Diagnostic struct {
 
 // Artifact is the fit step's result.
 type Artifact struct {
-	Frame Frame
+	Frame lightcurve.Frame
 	// Window is the half-width, in search durations, of the stretches around each predicted
 	// mid-transit whose points enter the likelihood.
 	Window    float64
@@ -90,7 +83,7 @@ func (a *Artifact) Summary(name string) (median, sigma float64) {
 // and the worst sampling diagnostics.
 func (a *Artifact) Figures() []steps.Figure {
 	var figs []steps.Figure
-	frame := lightcurve.Since(a.Frame.TimeScale, a.Frame.RefInt, a.Frame.RefFrac)
+	frame := a.Frame.Since()
 	add := func(name, col, unit, doc string, factor float64) {
 		med, sig := a.Summary(col)
 		figs = append(figs, steps.Figure{Name: name, Value: med * factor, Sigma: sig * factor, Unit: unit,
@@ -138,9 +131,7 @@ const (
 // Encode returns the canonical encoding.
 func (a *Artifact) Encode() []byte {
 	w := codec.NewWriter(tag, format)
-	w.String(a.Frame.TimeScale)
-	w.Int(a.Frame.RefInt)
-	w.Float(a.Frame.RefFrac)
+	a.Frame.Write(w)
 	w.Float(a.Window)
 	w.Uint64(uint64(len(a.Segments)))
 	for _, s := range a.Segments {
@@ -185,9 +176,7 @@ func (Kind) Decode(b []byte) (steps.Artifact, error) {
 func Decode(b []byte) (*Artifact, error) {
 	r := codec.NewReader(b, tag, format)
 	a := &Artifact{}
-	a.Frame.TimeScale = r.String()
-	a.Frame.RefInt = r.Int()
-	a.Frame.RefFrac = r.Float()
+	a.Frame = lightcurve.ReadFrame(r)
 	a.Window = r.Float()
 	ns := r.Uint64()
 	if ns > 4096 {

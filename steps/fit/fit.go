@@ -187,7 +187,7 @@ func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, 
 func setup(lc *lightcurve.LightCurve, o Options) (m *Model, art *Artifact, x0, scale []float64, notes []string, err error) {
 	np := len(o.Signals)
 	m = &Model{planets: np, jitter: o.Jitter}
-	art = &Artifact{Frame: Frame{TimeScale: lc.TimeScale, RefInt: lc.RefInt, RefFrac: lc.RefFrac}, Window: o.Window}
+	art = &Artifact{Frame: lc.Frame(), Window: o.Window}
 
 	// Points within Window search durations of a predicted mid-transit of any planet.
 	// The selection is fixed before fitting so the likelihood is a smooth function.

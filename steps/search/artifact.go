@@ -18,7 +18,7 @@ import (
 type Artifact struct {
 	// Frame is the time scale and reference epoch of the light curve: every epoch below is
 	// in days since RefInt + RefFrac on TimeScale.
-	Frame Frame
+	Frame lightcurve.Frame
 	// Grid is the frequency grid, identical for every pass.
 	Grid bls.Grid
 	// Cadence is the median spacing of the points searched, days.
@@ -29,16 +29,9 @@ type Artifact struct {
 	Passes []bls.Pass
 }
 
-// Frame names the time axis of the epochs.
-type Frame struct {
-	TimeScale string
-	RefInt    int64
-	RefFrac   float64
-}
-
 func newArtifact(lc *lightcurve.LightCurve, r *bls.Result) *Artifact {
 	a := &Artifact{
-		Frame:   Frame{TimeScale: lc.TimeScale, RefInt: lc.RefInt, RefFrac: lc.RefFrac},
+		Frame:   lc.Frame(),
 		Grid:    r.Grid,
 		Cadence: r.Cadence,
 		Passes:  r.Passes,
@@ -92,7 +85,7 @@ const SNRFormula = "SNR = depth / σ_T × √N_tr, where σ_T is the standard de
 func (a *Artifact) Figures() []steps.Figure {
 	figs := []steps.Figure{{Name: "n_freq", Value: float64(a.Grid.N),
 		Doc: "number of trial frequencies of the grid uniform in f^(1/3) (Ofir 2014)"}}
-	frame := lightcurve.Since(a.Frame.TimeScale, a.Frame.RefInt, a.Frame.RefFrac)
+	frame := a.Frame.Since()
 	for k, d := range a.Detections() {
 		p := fmt.Sprintf("signal%d.", k+1)
 		figs = append(figs,
@@ -125,9 +118,7 @@ const (
 // Encode returns the canonical encoding.
 func (a *Artifact) Encode() []byte {
 	w := codec.NewWriter(tag, format)
-	w.String(a.Frame.TimeScale)
-	w.Int(a.Frame.RefInt)
-	w.Float(a.Frame.RefFrac)
+	a.Frame.Write(w)
 	g := a.Grid
 	w.Float(g.Density)
 	w.Float(g.Baseline)
@@ -193,9 +184,7 @@ func (Kind) Decode(b []byte) (steps.Artifact, error) {
 func Decode(b []byte) (*Artifact, error) {
 	r := codec.NewReader(b, tag, format)
 	a := &Artifact{}
-	a.Frame.TimeScale = r.String()
-	a.Frame.RefInt = r.Int()
-	a.Frame.RefFrac = r.Float()
+	a.Frame = lightcurve.ReadFrame(r)
 	g := &a.Grid
 	g.Density, g.Baseline, g.Oversampling = r.Float(), r.Float(), r.Float()
 	g.FMin, g.FMax, g.Step = r.Float(), r.Float(), r.Float()

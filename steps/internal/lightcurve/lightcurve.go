@@ -212,12 +212,36 @@ type Source interface {
 	LightCurve() *LightCurve
 }
 
-// Since describes a time axis for people: "days since BJD_TDB 2460000.5".
-func Since(scale string, refInt int64, refFrac float64) string {
+// Frame names a time axis: times are days since the Julian date RefInt + RefFrac on
+// TimeScale. Artifacts that report times (a search's epochs, a fit's mid-times) carry one.
+type Frame struct {
+	TimeScale string
+	RefInt    int64
+	RefFrac   float64
+}
+
+// Frame returns the light curve's time axis.
+func (lc *LightCurve) Frame() Frame {
+	return Frame{TimeScale: lc.TimeScale, RefInt: lc.RefInt, RefFrac: lc.RefFrac}
+}
+
+// Since describes the axis for people: "days since BJD_TDB 2460000.5".
+func (f Frame) Since() string {
 	frac := ""
-	if refFrac != 0 {
-		frac = strconv.FormatFloat(refFrac, 'f', -1, 64)
-		frac = strings.TrimPrefix(frac, "0")
+	if f.RefFrac != 0 {
+		frac = strings.TrimPrefix(strconv.FormatFloat(f.RefFrac, 'f', -1, 64), "0")
 	}
-	return fmt.Sprintf("days since %s %d%s", scale, refInt, frac)
+	return fmt.Sprintf("days since %s %d%s", f.TimeScale, f.RefInt, frac)
+}
+
+// Write appends the frame to w.
+func (f Frame) Write(w *codec.Writer) {
+	w.String(f.TimeScale)
+	w.Int(f.RefInt)
+	w.Float(f.RefFrac)
+}
+
+// ReadFrame reads a frame written by Frame.Write.
+func ReadFrame(r *codec.Reader) Frame {
+	return Frame{TimeScale: r.String(), RefInt: r.Int(), RefFrac: r.Float()}
 }

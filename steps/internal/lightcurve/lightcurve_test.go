@@ -58,7 +58,7 @@ func TestSinceNamesTheTimeAxis(t *testing.T) {
 		{2457000, 0, "days since BJD_TDB 2457000"},
 		{2454833, 0.0007428, "days since BJD_TDB 2454833.0007428"},
 	} {
-		if got := Since("BJD_TDB", c.ref, c.frac); got != c.want {
+		if got := (Frame{"BJD_TDB", c.ref, c.frac}).Since(); got != c.want {
 			t.Errorf("Since(%d, %v) = %q, want %q", c.ref, c.frac, got, c.want)
 		}
 	}
