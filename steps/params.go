@@ -25,11 +25,13 @@ const (
 	FileList                  // a list of paths (or one path) read by the engine
 	Ref                       // a reference to another step, kind.label
 	RefList                   // a list of references
+	Measurement               // a string "value ± sigma unit" of the parameter's Dimension
+	CatalogueRow              // a row of a catalogue block, catalogue.label["id"]
 )
 
 func (t Type) String() string {
 	return [...]string{"number", "whole number", "string", "bool", "quantity", "quantity range",
-		"list of strings", "object of strings", "list of files", "step reference", "list of step references"}[t]
+		"list of strings", "object of strings", "list of files", "step reference", "list of step references", "measurement", "catalogue row"}[t]
 }
 
 // Param describes one attribute of a step block.
@@ -37,7 +39,7 @@ type Param struct {
 	Name string
 	Type Type
 	Doc  string
-	// Dim is the physical dimension of a Quantity or QuantityRange.
+	// Dim is the physical dimension of a Quantity, QuantityRange or Measurement.
 	Dim *units.Dimension
 	// Kinds lists the step kinds a Ref or RefList may point at.
 	Kinds []string
@@ -54,7 +56,9 @@ type Param struct {
 // Number, Quantity → float64 (quantities in the dimension's base unit); Integer → int64;
 // String → string; Bool → bool; QuantityRange → [2]float64; StringList → []string;
 // StringMap → map[string]string; FileList → []string (paths as written); Ref → string
-// (the address); RefList → []string.
+// (the address); RefList → []string; Measurement → [2]float64 (value, sigma in the base
+// unit); CatalogueRow → string (the row's address as written, catalogue.label["id"]; the
+// engine hands the row itself to Run in Inputs.Rows).
 type Values map[string]any
 
 // Has reports whether the attribute was given or has a default.
@@ -75,6 +79,12 @@ func (v Values) Bool(name string) bool { b, _ := v[name].(bool); return b }
 // Range returns a QuantityRange.
 func (v Values) Range(name string) [2]float64 { r, _ := v[name].([2]float64); return r }
 
+// Measurement returns a Measurement's value and sigma.
+func (v Values) Measurement(name string) (value, sigma float64) {
+	m, _ := v[name].([2]float64)
+	return m[0], m[1]
+}
+
 // Strs returns a StringList, FileList or RefList.
 func (v Values) Strs(name string) []string { s, _ := v[name].([]string); return s }
 
@@ -93,11 +103,11 @@ func (p Param) CheckDefault() error {
 		_, ok = p.Default.(float64)
 	case Integer:
 		_, ok = p.Default.(int64)
-	case String, Ref:
+	case String, Ref, CatalogueRow:
 		_, ok = p.Default.(string)
 	case Bool:
 		_, ok = p.Default.(bool)
-	case QuantityRange:
+	case QuantityRange, Measurement:
 		_, ok = p.Default.([2]float64)
 	case StringList, FileList, RefList:
 		_, ok = p.Default.([]string)
@@ -129,7 +139,7 @@ func NewRegistry(kinds ...Kind) (Registry, error) {
 			if err := p.CheckDefault(); err != nil {
 				return nil, fmt.Errorf("step kind %q: %w", k.Name(), err)
 			}
-			if (p.Type == Quantity || p.Type == QuantityRange) && p.Dim == nil {
+			if (p.Type == Quantity || p.Type == QuantityRange || p.Type == Measurement) && p.Dim == nil {
 				return nil, fmt.Errorf("step kind %q: quantity %q has no dimension", k.Name(), p.Name)
 			}
 		}

@@ -70,10 +70,53 @@ type File struct {
 	Data []byte
 }
 
-// Inputs are the resolved references and files of one step, by parameter name.
+// Inputs are the resolved references, files and catalogue rows of one step, by parameter
+// name.
 type Inputs struct {
 	Refs  map[string][]Artifact
 	Files map[string][]File
+	Rows  map[string]Row
+}
+
+// Row is the part of one catalogue row a step reads: the parsed values of the columns its
+// configuration asked for (see ColumnReader), and nothing else, so that only those values
+// enter the step's key.
+type Row struct {
+	// File is the catalogue's path as written and Line the row's line in it (1-based),
+	// for messages; ID is the row's id.
+	File string
+	Line int
+	ID   string
+	// Values holds the asked-for columns by the name the step asked with. A blank cell is
+	// absent; a column the catalogue lacks is absent too (the engine has already refused a
+	// missing required column).
+	Values map[string]float64
+	// Columns maps each asked-for name to the catalogue's own column name, for messages.
+	Columns map[string]string
+}
+
+// Get returns the named value and whether the row has it.
+func (r Row) Get(name string) (float64, bool) {
+	v, ok := r.Values[name]
+	return v, ok
+}
+
+// Where names the row (and a column, when given) for messages: "stars.csv:4 (FW-3318), column plx".
+func (r Row) Where(name string) string {
+	s := fmt.Sprintf("%s:%d (%s)", r.File, r.Line, r.ID)
+	if c, ok := r.Columns[name]; ok {
+		s += ", column " + c
+	}
+	return s
+}
+
+// ColumnReader is implemented by a prepared configuration (the value Prepare returns) of a
+// kind with CatalogueRow parameters: for one such parameter it lists the columns the step
+// reads, by the names the step uses. The engine matches them to the catalogue's columns
+// without regard to case (after the catalogue block's renames), refuses a missing required
+// column, and keys the step by the parsed values of exactly these columns.
+type ColumnReader interface {
+	Columns(param string) (required, optional []string)
 }
 
 // Ref returns the single artifact referenced by the named parameter, or nil.

@@ -23,9 +23,17 @@ type Override struct {
 
 func (o Override) String() string { return o.Addr + "." + o.Attr + "=" + o.Value }
 
-// ParseOverride reads "kind.label.attribute=expression".
+// ParseOverride reads "kind.label.attribute=expression", or, for one value of a catalogue
+// row, `catalogue.label["id"].column=number`.
 func ParseOverride(s string) (Override, error) {
 	lhs, rhs, ok := strings.Cut(s, "=")
+	if ok && strings.HasPrefix(strings.TrimSpace(lhs), catalogueBlock+".") {
+		addr, col, err := parseRowOverride(strings.TrimSpace(lhs))
+		if err != nil {
+			return Override{}, fmt.Errorf("--set %q: %v", s, err)
+		}
+		return Override{Addr: addr, Attr: strings.ToLower(col), Value: strings.TrimSpace(rhs)}, nil
+	}
 	parts := strings.Split(strings.TrimSpace(lhs), ".")
 	if !ok || len(parts) != 3 || parts[0] == "" || parts[1] == "" || parts[2] == "" {
 		return Override{}, fmt.Errorf("--set %q: write kind.label.attribute=value, e.g. search.periodic.oversampling=5", s)
@@ -44,6 +52,10 @@ func (w *Workflow) parseOverrides(list []Override) hcl.Diagnostics {
 	w.overrides = map[string]*override{}
 	w.Overrides = list
 	for _, o := range list {
+		if strings.HasPrefix(o.Addr, catalogueBlock+".") {
+			w.overrides[o.Addr+"."+o.Attr] = &override{Override: o}
+			continue
+		}
 		name := "--set " + o.Addr + "." + o.Attr
 		expr, d := hclsyntax.ParseExpression([]byte(o.Value), name, hcl.InitialPos)
 		if d.HasErrors() {
@@ -68,7 +80,9 @@ func (w *Workflow) checkOverridesUsed() hcl.Diagnostics {
 			continue
 		}
 		detail := fmt.Sprintf("There is no step %s.", o.Addr)
-		if s := w.byAddr[o.Addr]; s != nil {
+		if strings.HasPrefix(o.Addr, catalogueBlock+".") {
+			detail = fmt.Sprintf("No step reads column %q of %s.", o.Attr, o.Addr)
+		} else if s := w.byAddr[o.Addr]; s != nil {
 			detail = fmt.Sprintf("A %s step has no attribute %q.%s", s.Kind.Name(), o.Attr, suggest(o.Attr, paramNames(s.Kind)))
 		} else {
 			detail += suggest(o.Addr, w.addresses())
@@ -135,7 +149,7 @@ func (w *Workflow) decodeStep(s *Step, body hcl.Body) hcl.Diagnostics {
 		return diags
 	}
 	s.Config = cfg
-	return diags
+	return append(diags, w.resolveRows(s)...)
 }
 
 // stepDiag turns an error from a kind into a diagnostic at the attribute it names.
@@ -177,6 +191,8 @@ func (w *Workflow) decodeParam(s *Step, p steps.Param, expr hcl.Expression) (any
 		}
 		s.Refs[p.Name] = addrs
 		return addrs, diags
+	case steps.CatalogueRow:
+		return w.decodeRow(s, p, expr)
 	}
 
 	v, diags := expr.Value(nil)
@@ -252,6 +268,16 @@ func (w *Workflow) decodeParam(s *Step, p steps.Param, expr hcl.Expression) (any
 			return nil, hcl.Diagnostics{attrDiag(r, "Empty range", fmt.Sprintf("%s: the low end must be below the high end.", p.Name))}
 		}
 		return out, nil
+	case steps.Measurement:
+		sv, ok := str(v)
+		if !ok {
+			return bad("a " + p.Dim.Name + " with its uncertainty and unit, e.g. \"1.0 ± 0.1 " + p.Dim.Base + "\"")
+		}
+		val, sigma, err := p.Dim.ParseMeasurement(sv)
+		if err != nil {
+			return nil, hcl.Diagnostics{attrDiag(r, "Wrong measurement for "+p.Name, err.Error())}
+		}
+		return [2]float64{val, sigma}, nil
 	case steps.StringList:
 		list, ok := stringList(v)
 		if !ok {

@@ -67,7 +67,9 @@ func (w *Workflow) StepKey(s *Step, upstream map[string]cache.ResultKey) (cache.
 			}
 		case steps.String:
 			k.str(v.(string))
-		case steps.QuantityRange:
+		case steps.CatalogueRow:
+			k.row(s.Rows[p.Name])
+		case steps.QuantityRange, steps.Measurement:
 			r := v.([2]float64)
 			k.f64(r[0])
 			k.f64(r[1])
@@ -155,11 +157,14 @@ func render(p steps.Param, v any) string {
 	case bool:
 		return strconv.FormatBool(x)
 	case string:
-		if p.Type == steps.Ref {
+		if p.Type == steps.Ref || p.Type == steps.CatalogueRow {
 			return x
 		}
 		return strconv.Quote(x)
 	case [2]float64:
+		if p.Type == steps.Measurement {
+			return g(x[0]) + " ± " + g(x[1]) + " " + p.Dim.Base
+		}
 		return "[" + g(x[0]) + " " + p.Dim.Base + ", " + g(x[1]) + " " + p.Dim.Base + "]"
 	case []string:
 		q := make([]string, len(x))

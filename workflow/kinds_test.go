@@ -172,8 +172,48 @@ func (trouble) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env)
 	return nil, ctx.Err()
 }
 
+// lookup reads a catalogue row: parallax (required) plus teff when with_teff is set, and
+// adds a measured offset.
+type lookup struct{ toyBase }
+
+type lookupConfig struct {
+	withTeff bool
+	offset   [2]float64
+}
+
+func (c lookupConfig) Columns(param string) (required, optional []string) {
+	if c.withTeff {
+		return []string{"Parallax"}, []string{"teff"}
+	}
+	return []string{"Parallax"}, nil
+}
+
+func (lookup) Name() string { return "lookup" }
+func (lookup) Doc() string  { return "reads a catalogue row" }
+func (lookup) Params() []steps.Param {
+	return []steps.Param{
+		{Name: "row", Type: steps.CatalogueRow},
+		{Name: "with_teff", Type: steps.Bool, Default: false},
+		{Name: "offset", Type: steps.Measurement, Dim: units.Time, Default: [2]float64{0, 0}},
+	}
+}
+func (lookup) Prepare(v steps.Values) (any, error) {
+	return lookupConfig{withTeff: v.Bool("with_teff"), offset: [2]float64(v["offset"].([2]float64))}, nil
+}
+func (lookup) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
+	calls.add("lookup")
+	c := cfg.(lookupConfig)
+	row := in.Rows["row"]
+	plx, ok := row.Get("parallax")
+	if !ok {
+		return nil, steps.BadInputf("%s: blank", row.Where("parallax"))
+	}
+	teff, _ := row.Get("teff")
+	return toyNum(plx + teff + c.offset[0] + c.offset[1]), nil
+}
+
 func toyRegistry() steps.Registry {
-	r, err := steps.NewRegistry(source{}, combine{}, floor{}, noisy{}, trouble{})
+	r, err := steps.NewRegistry(source{}, combine{}, floor{}, noisy{}, trouble{}, lookup{})
 	if err != nil {
 		panic(err)
 	}

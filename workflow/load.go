@@ -58,8 +58,12 @@ type Workflow struct {
 	// Overrides are the command-line settings that replaced attributes.
 	Overrides []Override
 
-	byAddr    map[string]*Step
-	overrides map[string]*override
+	// Catalogues are the catalogue blocks by label.
+	Catalogues []*Catalogue
+
+	byAddr     map[string]*Step
+	overrides  map[string]*override
+	catalogues map[string]*Catalogue
 }
 
 // Step is one step block.
@@ -76,6 +80,8 @@ type Step struct {
 	Refs map[string][]string
 	// Files maps a parameter to the files it reads.
 	Files map[string][]*FileInput
+	// Rows maps a CatalogueRow parameter to the row it reads.
+	Rows map[string]*RowInput
 
 	block      hcl.Range
 	attrRanges map[string]hcl.Range
@@ -119,15 +125,37 @@ func load(path string, reg steps.Registry, overrides []Override) (*Workflow, hcl
 		return nil, d
 	}
 
-	schema := &hcl.BodySchema{Blocks: []hcl.BlockHeaderSchema{{Type: settingsBlock, LabelNames: []string{"name"}}}}
+	schema := &hcl.BodySchema{Blocks: []hcl.BlockHeaderSchema{{Type: settingsBlock, LabelNames: []string{"name"}},
+		{Type: catalogueBlock, LabelNames: []string{"label"}}}}
 	for _, name := range reg.Names() {
 		schema.Blocks = append(schema.Blocks, hcl.BlockHeaderSchema{Type: name, LabelNames: []string{"label"}})
 	}
 	content, d := f.Body.Content(schema)
 	diags = append(diags, d...)
 
+	// Catalogues first: steps name their rows.
+	w.catalogues = map[string]*Catalogue{}
+	for _, b := range content.Blocks {
+		if b.Type != catalogueBlock {
+			continue
+		}
+		if prev := w.catalogues[b.Labels[0]]; prev != nil {
+			diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "Duplicate catalogue",
+				Detail: fmt.Sprintf("There is already a catalogue %q.", b.Labels[0]), Subject: b.DefRange.Ptr()})
+			continue
+		}
+		c, d := w.decodeCatalogue(b)
+		diags = append(diags, d...)
+		if c != nil {
+			w.catalogues[c.Label] = c
+			w.Catalogues = append(w.Catalogues, c)
+		}
+	}
 	sawSettings := false
 	for _, b := range content.Blocks {
+		if b.Type == catalogueBlock {
+			continue
+		}
 		if b.Type == settingsBlock {
 			if sawSettings {
 				diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "Duplicate analysis block",
@@ -139,7 +167,7 @@ func load(path string, reg steps.Registry, overrides []Override) (*Workflow, hcl
 			continue
 		}
 		s := &Step{Kind: reg[b.Type], Label: b.Labels[0], Addr: b.Type + "." + b.Labels[0], block: b.DefRange,
-			Refs: map[string][]string{}, Files: map[string][]*FileInput{}, attrRanges: map[string]hcl.Range{}}
+			Refs: map[string][]string{}, Files: map[string][]*FileInput{}, Rows: map[string]*RowInput{}, attrRanges: map[string]hcl.Range{}}
 		if !hclsyntax.ValidIdentifier(s.Label) {
 			diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "Invalid step label",
 				Detail:  fmt.Sprintf("%q cannot be referenced as %s.<label>: use letters, digits, '_' and '-', starting with a letter.", s.Label, b.Type),

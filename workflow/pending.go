@@ -155,6 +155,7 @@ func ownChanges(s *Step, prev *Provenance) []string {
 			why = append(why, fmt.Sprintf("%s was added: %s", n, cur))
 		}
 	}
+	why = append(why, rowChanges(s, prev.Rows)...)
 	oldFiles := map[string]string{}
 	for _, f := range prev.Files {
 		oldFiles[f.Param+"\x00"+f.Path] = f.SHA256

@@ -24,6 +24,7 @@ type Provenance struct {
 	Config    map[string]string `json:"config"`
 	Inputs    []InputRecord     `json:"inputs,omitempty"`
 	Files     []FileRecord      `json:"files,omitempty"`
+	Rows      []RowRecord       `json:"catalogue_rows,omitempty"`
 	Seed      *uint64           `json:"seed,omitempty"`
 	Notes     []string          `json:"notes,omitempty"`
 	Tool      Tool              `json:"tool"`

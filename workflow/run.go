@@ -246,7 +246,10 @@ func (r *runner) step(ctx context.Context, cancel context.CancelCauseFunc, s *St
 		}
 	}
 
-	in := steps.Inputs{Refs: map[string][]steps.Artifact{}, Files: map[string][]steps.File{}}
+	in := steps.Inputs{Refs: map[string][]steps.Artifact{}, Files: map[string][]steps.File{}, Rows: map[string]steps.Row{}}
+	for name, row := range s.Rows {
+		in.Rows[name] = row.Row()
+	}
 	for name, addrs := range s.Refs {
 		for _, a := range addrs {
 			in.Refs[name] = append(in.Refs[name], r.out[r.w.byAddr[a]].Artifact)
@@ -356,6 +359,11 @@ func (r *runner) provenance(s *Step, key cache.StepKey, rk cache.ResultKey, upst
 	for _, n := range names {
 		for _, f := range s.Files[n] {
 			p.Files = append(p.Files, FileRecord{Param: n, Path: f.Path, SHA256: hexKey(f.Digest), Bytes: len(f.Data)})
+		}
+	}
+	for _, prm := range s.Kind.Params() {
+		if row := s.Rows[prm.Name]; row != nil {
+			p.Rows = append(p.Rows, row.record(prm.Name))
 		}
 	}
 	if s.Kind.Random() {

@@ -278,6 +278,20 @@ func (c *cli) printNode(n *workflow.TraceNode, indent string, shown map[string]b
 	for _, f := range p.Files {
 		fmt.Fprintf(c.out, "%sfile       %s  sha256 %s  (%d bytes)\n", in, f.Path, f.SHA256, f.Bytes)
 	}
+	for _, r := range p.Rows {
+		cols := make([]string, 0, len(r.Values))
+		for k, v := range r.Values {
+			if v == "" {
+				v = "(blank)"
+			}
+			cols = append(cols, k+"="+v)
+		}
+		sort.Strings(cols)
+		fmt.Fprintf(c.out, "%srow        %s  %s:%d  %s\n", in, r.Row, r.Path, r.Line, strings.Join(cols, " "))
+		if len(r.Overridden) > 0 {
+			fmt.Fprintf(c.out, "%s  · set on the command line: %s\n", in, strings.Join(r.Overridden, ", "))
+		}
+	}
 	for _, child := range n.Inputs {
 		c.printNode(child, in, shown)
 	}

@@ -36,6 +36,57 @@ var Density = &Dimension{Name: "density", Base: "g/cm3", Units: map[string]float
 	"g/cm3": 1, "kg/m3": 1e-3, "rho_sun": solarDensity,
 }}
 
+// Nominal solar and planetary values (IAU 2015 Resolution B3) and the parsec (IAU 2015
+// Resolution B2), in SI; steps/internal/astro holds the same values for the numerics.
+const (
+	rSun     = 6.957e8        // m
+	rEarthEq = 6.3781e6       // m, equatorial
+	rJupEq   = 7.1492e7       // m, equatorial
+	gmSun    = 1.3271244e20   // m³ s⁻²
+	gmEarth  = 3.986004e14    // m³ s⁻²
+	gmJup    = 1.2668653e17   // m³ s⁻²
+	lSun     = 3.828e26       // W
+	au       = 1.495978707e11 // m, IAU 2012 Resolution B2
+	parsec   = au * 648000 / math.Pi
+)
+
+// Radius (of a star or planet) is measured in nominal solar radii.
+var Radius = &Dimension{Name: "radius", Base: "R_sun", Units: map[string]float64{
+	"R_sun": 1, "R_earth": rEarthEq / rSun, "R_jup": rJupEq / rSun, "km": 1e3 / rSun,
+}}
+
+// Mass is measured in nominal solar masses (ratios of the nominal GM values, so that no
+// value of G enters).
+var Mass = &Dimension{Name: "mass", Base: "M_sun", Units: map[string]float64{
+	"M_sun": 1, "M_earth": gmEarth / gmSun, "M_jup": gmJup / gmSun,
+}}
+
+// Temperature is measured in kelvin.
+var Temperature = &Dimension{Name: "temperature", Base: "K", Units: map[string]float64{"K": 1}}
+
+// Luminosity is measured in nominal solar luminosities.
+var Luminosity = &Dimension{Name: "luminosity", Base: "L_sun", Units: map[string]float64{
+	"L_sun": 1, "W": 1 / lSun,
+}}
+
+// Angle (a parallax or a separation) is measured in arcseconds.
+var Angle = &Dimension{Name: "angle", Base: "arcsec", Units: map[string]float64{
+	"uas": 1e-6, "mas": 1e-3, "arcsec": 1, "arcmin": 60, "deg": 3600,
+}}
+
+// Distance is measured in parsecs.
+var Distance = &Dimension{Name: "distance", Base: "pc", Units: map[string]float64{
+	"au": au / parsec, "pc": 1, "kpc": 1e3,
+}}
+
+// Magnitude is measured in magnitudes.
+var Magnitude = &Dimension{Name: "magnitude", Base: "mag", Units: map[string]float64{"mag": 1}}
+
+// Irradiance (a bolometric flux at Earth) is measured in W/m².
+var Irradiance = &Dimension{Name: "irradiance", Base: "W/m2", Units: map[string]float64{
+	"W/m2": 1, "erg/s/cm2": 1e-3,
+}}
+
 // Names lists the dimension's units, smallest first.
 func (d *Dimension) Names() []string {
 	n := make([]string, 0, len(d.Units))
@@ -80,6 +131,40 @@ func (d *Dimension) Parse(s string) (float64, error) {
 		return 0, fmt.Errorf("%q is not a finite %s", s, d.Name)
 	}
 	return v * f, nil
+}
+
+// ParseMeasurement reads "value ± sigma unit" (or "value +/- sigma unit") and returns both
+// in the base unit. A value without "±" is an error: a measurement carries its uncertainty.
+func (d *Dimension) ParseMeasurement(s string) (value, sigma float64, err error) {
+	sep := "±"
+	i := strings.Index(s, sep)
+	if i < 0 {
+		sep = "+/-"
+		i = strings.Index(s, sep)
+	}
+	if i < 0 {
+		return 0, 0, fmt.Errorf("%q has no uncertainty: write it as \"value ± sigma unit\", e.g. \"1.2 ± 0.1 %s\" (units: %s)", s, d.Base, strings.Join(d.Names(), ", "))
+	}
+	head, tail := strings.TrimSpace(s[:i]), strings.TrimSpace(s[i+len(sep):])
+	sigma, err = d.Parse(tail)
+	if err != nil {
+		return 0, 0, fmt.Errorf("%q: the uncertainty: %w", s, err)
+	}
+	// The unit is written once, after the uncertainty; it applies to the value too.
+	unit := ""
+	for u := range d.Units {
+		if strings.HasSuffix(tail, u) && len(u) > len(unit) {
+			unit = u
+		}
+	}
+	value, err = d.Parse(head + " " + unit)
+	if err != nil {
+		return 0, 0, fmt.Errorf("%q: the value: %w", s, err)
+	}
+	if sigma < 0 {
+		return 0, 0, fmt.Errorf("%q: the uncertainty must not be negative", s)
+	}
+	return value, sigma, nil
 }
 
 // Format writes a base-unit value back in the given unit.

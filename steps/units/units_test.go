@@ -69,3 +69,54 @@ func FuzzParse(f *testing.F) {
 		}
 	})
 }
+
+func TestParseMeasurement(t *testing.T) {
+	cases := []struct {
+		in          string
+		dim         *Dimension
+		value, sigm float64
+	}{
+		{"35.2 ± 0.1 mas", Angle, 0.0352, 1e-4},
+		{"0.45 +/- 0.02 R_sun", Radius, 0.45, 0.02},
+		{"3300 ± 60 K", Temperature, 3300, 60},
+		// 1 R_jup = 71492 km / 695700 km (IAU 2015 B3 nominal equatorial values).
+		{"1 ± 0.1 R_jup", Radius, 71492.0 / 695700, 7149.2 / 695700},
+		{"1e-3 ± 2e-5 erg/s/cm2", Irradiance, 1e-6, 2e-8},
+	}
+	for _, c := range cases {
+		v, s, err := c.dim.ParseMeasurement(c.in)
+		if err != nil {
+			t.Fatalf("%q: %v", c.in, err)
+		}
+		if math.Abs(v-c.value) > 1e-12*math.Abs(c.value) || math.Abs(s-c.sigm) > 1e-12*math.Abs(c.sigm) {
+			t.Errorf("%q = %v ± %v, want %v ± %v", c.in, v, s, c.value, c.sigm)
+		}
+	}
+	for in, want := range map[string]string{
+		"35.2 mas":      "no uncertainty",
+		"35.2 ± mas":    "uncertainty",
+		"35.2 ± -1 mas": "must not be negative",
+		"35.2 ± 0.1":    "no unit",
+		"35.2 ± 0.1 km": "unknown angle unit",
+		"abc ± 0.1 mas": "the value",
+	} {
+		if _, _, err := Angle.ParseMeasurement(in); err == nil || !strings.Contains(err.Error(), want) {
+			t.Errorf("ParseMeasurement(%q) error = %v, want it to say %q", in, err, want)
+		}
+	}
+}
+
+func TestNominalRatios(t *testing.T) {
+	// IAU 2015 Resolution B3: R☉ = 695700 km, R⊕ (equatorial) = 6378.1 km; GM☉/GM⊕ =
+	// 1.3271244e20 / 3.986004e14 = 332946.0 (the Sun-Earth mass ratio, from memory 332946).
+	if r, _ := Radius.Parse("1 R_sun"); math.Abs(r*695700/6378.1-Radius.Units["R_sun"]/Radius.Units["R_earth"]) > 1e-9 {
+		t.Errorf("R_sun/R_earth = %v", Radius.Units["R_sun"]/Radius.Units["R_earth"])
+	}
+	if got := 1 / Mass.Units["M_earth"]; math.Abs(got-332946.0) > 0.5 {
+		t.Errorf("M_sun/M_earth = %v, want 332946", got)
+	}
+	// 1 pc = 206264.806 au (from the definition 648000/π au, IAU 2015 B2).
+	if got := 1 / Distance.Units["au"]; math.Abs(got-206264.806) > 1e-3 {
+		t.Errorf("au per pc = %v", got)
+	}
+}

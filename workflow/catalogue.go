@@ -1,0 +1,472 @@
+package workflow
+
+import (
+	"bytes"
+	"crypto/sha256"
+	"encoding/csv"
+	"fmt"
+	"io"
+	"math"
+	"sort"
+	"strconv"
+	"strings"
+
+	"github.com/hashicorp/hcl/v2"
+	"github.com/hashicorp/hcl/v2/hclsyntax"
+
+	"dipline/steps"
+)
+
+// catalogueBlock is the block type of a catalogue: a table of objects (stars) with an id
+// column, read once by the engine. Steps name one row of it, catalogue.label["id"], and
+// say which columns they read; only the parsed values of those columns enter their keys.
+const catalogueBlock = "catalogue"
+
+// Catalogue is one catalogue block: its file parsed into rows by id.
+type Catalogue struct {
+	Label string
+	// Path is the file as written in the workflow; Digest its SHA-256 (for the record only:
+	// no step key includes it).
+	Path   string
+	Digest [32]byte
+	// IDColumn is the id column's name as written in the file's header.
+	IDColumn string
+	// Renames maps a name steps ask for to the file's column name (the block's columns).
+	Renames map[string]string
+
+	header []string
+	index  map[string]int // lower-case column name → position
+	rows   map[string]*catRow
+	order  []string // ids in file order
+}
+
+type catRow struct {
+	line  int
+	cells []string
+	dups  []int // lines of later rows with the same id
+}
+
+// RowInput is one catalogue row a step reads: the asked-for columns' parsed values, after
+// any command-line override.
+type RowInput struct {
+	Catalogue string // label
+	Path      string // the catalogue file as written
+	Line      int
+	ID        string
+	Names     []string // the asked-for names, sorted
+	Values    map[string]float64
+	Columns   map[string]string // asked-for name → the file's column name
+	// Overridden lists "name=value" for values set on the command line.
+	Overridden []string
+}
+
+// Row converts the input to what a step receives.
+func (r *RowInput) Row() steps.Row {
+	return steps.Row{File: r.Path, Line: r.Line, ID: r.ID, Values: r.Values, Columns: r.Columns}
+}
+
+// Address is catalogue.label["id"].
+func (r *RowInput) Address() string { return rowAddress(r.Catalogue, r.ID) }
+
+func rowAddress(label, id string) string {
+	return catalogueBlock + "." + label + "[" + strconv.Quote(id) + "]"
+}
+
+// decodeCatalogue reads a catalogue block and its file.
+func (w *Workflow) decodeCatalogue(b *hcl.Block) (*Catalogue, hcl.Diagnostics) {
+	c := &Catalogue{Label: b.Labels[0], Renames: map[string]string{}}
+	content, diags := b.Body.Content(&hcl.BodySchema{Attributes: []hcl.AttributeSchema{
+		{Name: "file", Required: true}, {Name: "id"}, {Name: "columns"},
+	}})
+	if diags.HasErrors() {
+		return nil, diags
+	}
+	idCol := "id"
+	if a := content.Attributes["id"]; a != nil {
+		v, d := a.Expr.Value(nil)
+		s, ok := str(v)
+		if d.HasErrors() || !ok || s == "" {
+			return nil, append(diags, attrDiag(a.Expr.Range(), "Invalid id column", "id names the catalogue's id column, as a string, e.g. id = \"name\"."))
+		}
+		idCol = s
+	}
+	if a := content.Attributes["columns"]; a != nil {
+		v, d := a.Expr.Value(nil)
+		if d.HasErrors() || v.IsNull() || !(v.Type().IsObjectType() || v.Type().IsMapType()) {
+			return nil, append(diags, attrDiag(a.Expr.Range(), "Invalid columns", "columns maps the names steps ask for to this file's columns, e.g. columns = { parallax = \"plx\" }."))
+		}
+		for it := v.ElementIterator(); it.Next(); {
+			k, e := it.Element()
+			s, ok := str(e)
+			if !ok || s == "" {
+				return nil, append(diags, attrDiag(a.Expr.Range(), "Invalid columns", fmt.Sprintf("columns.%s must name a column as a string.", k.AsString())))
+			}
+			c.Renames[strings.ToLower(k.AsString())] = s
+		}
+	}
+	a := content.Attributes["file"]
+	v, d := a.Expr.Value(nil)
+	p, ok := str(v)
+	if d.HasErrors() || !ok || p == "" {
+		return nil, append(diags, attrDiag(a.Expr.Range(), "Invalid file", "file is the catalogue's path, relative to the workflow's folder."))
+	}
+	fi, fd := w.readFile(p, a.Expr.Range())
+	if fd != nil {
+		return nil, append(diags, fd)
+	}
+	c.Path, c.Digest = fi.Path, fi.Digest
+	if err := c.parse(fi.Data, idCol); err != nil {
+		return nil, append(diags, attrDiag(a.Expr.Range(), "Unreadable catalogue", err.Error()))
+	}
+	return c, diags
+}
+
+// parse reads a comma- or tab-separated table with a header; lines starting with '#' are
+// comments. Cells are kept as text: a step's columns are parsed when it asks for them, so
+// that a bad cell in a column nobody reads stops nothing.
+func (c *Catalogue) parse(data []byte, idCol string) error {
+	lines := bytes.Split(data, []byte("\n"))
+	headerAt := -1
+	for i, l := range lines {
+		t := bytes.TrimSpace(l)
+		if len(t) > 0 && t[0] != '#' {
+			headerAt = i
+			break
+		}
+	}
+	if headerAt < 0 {
+		return fmt.Errorf("%s: no header line", c.Path)
+	}
+	r := csv.NewReader(bytes.NewReader(data))
+	r.Comment = '#'
+	r.FieldsPerRecord = -1
+	r.TrimLeadingSpace = true
+	if bytes.Contains(lines[headerAt], []byte("\t")) && !bytes.Contains(lines[headerAt], []byte(",")) {
+		r.Comma = '\t'
+	}
+	c.index = map[string]int{}
+	c.rows = map[string]*catRow{}
+	first := true
+	for {
+		rec, err := r.Read()
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return fmt.Errorf("%s: %v", c.Path, err)
+		}
+		line, _ := r.FieldPos(0)
+		if first {
+			first = false
+			c.header = rec
+			for j, h := range rec {
+				h = strings.ToLower(strings.TrimSpace(h))
+				if _, dup := c.index[h]; dup {
+					return fmt.Errorf("%s:%d: column %q appears twice in the header", c.Path, line, rec[j])
+				}
+				c.index[h] = j
+			}
+			j, ok := c.index[strings.ToLower(idCol)]
+			if !ok {
+				return fmt.Errorf("%s:%d: no id column %q in the header (%s)%s", c.Path, line, idCol,
+					strings.Join(c.header, ", "), suggest(idCol, c.header))
+			}
+			c.IDColumn = c.header[j]
+			continue
+		}
+		if len(rec) == 1 && strings.TrimSpace(rec[0]) == "" {
+			continue
+		}
+		if len(rec) != len(c.header) {
+			return fmt.Errorf("%s:%d: %d cells, but the header has %d columns", c.Path, line, len(rec), len(c.header))
+		}
+		id := strings.TrimSpace(rec[c.index[strings.ToLower(c.IDColumn)]])
+		if id == "" {
+			return fmt.Errorf("%s:%d: the id column %q is blank", c.Path, line, c.IDColumn)
+		}
+		if prev := c.rows[id]; prev != nil {
+			prev.dups = append(prev.dups, line)
+			continue
+		}
+		c.rows[id] = &catRow{line: line, cells: rec}
+		c.order = append(c.order, id)
+	}
+	if first {
+		return fmt.Errorf("%s: no header line", c.Path)
+	}
+	return nil
+}
+
+// column finds the file's column for a name a step asks for: through the block's renames,
+// then by name without regard to case.
+func (c *Catalogue) column(name string) (int, bool) {
+	n := strings.ToLower(name)
+	if r, ok := c.Renames[n]; ok {
+		n = strings.ToLower(r)
+	}
+	j, ok := c.index[n]
+	return j, ok
+}
+
+// rowRef reads catalogue.label["id"] from an attribute.
+func (w *Workflow) rowRef(expr hcl.Expression) (label, id string, d *hcl.Diagnostic) {
+	bad := attrDiag(expr.Range(), "Not a catalogue row",
+		`Name a row of a catalogue block by its id, e.g. row = catalogue.nearby["FW-3318"].`)
+	tr, diags := hcl.AbsTraversalForExpr(expr)
+	if diags.HasErrors() || len(tr) != 3 || tr.RootName() != catalogueBlock {
+		return "", "", bad
+	}
+	attr, ok1 := tr[1].(hcl.TraverseAttr)
+	idx, ok2 := tr[2].(hcl.TraverseIndex)
+	if !ok1 || !ok2 || !idx.Key.IsKnown() || idx.Key.IsNull() {
+		return "", "", bad
+	}
+	ids, ok := str(idx.Key)
+	if !ok {
+		if f, isNum := number(idx.Key); isNum {
+			ids, ok = strconv.FormatFloat(f, 'f', -1, 64), true
+		}
+	}
+	if !ok {
+		return "", "", bad
+	}
+	return attr.Name, ids, nil
+}
+
+// decodeRow resolves a CatalogueRow attribute to its catalogue and row; the columns are
+// read once the kind has said which it needs (resolveRows).
+func (w *Workflow) decodeRow(s *Step, p steps.Param, expr hcl.Expression) (any, hcl.Diagnostics) {
+	label, id, d := w.rowRef(expr)
+	if d != nil {
+		return nil, hcl.Diagnostics{d}
+	}
+	c := w.catalogues[label]
+	if c == nil {
+		names := make([]string, 0, len(w.catalogues))
+		for n := range w.catalogues {
+			names = append(names, n)
+		}
+		sort.Strings(names)
+		return nil, hcl.Diagnostics{attrDiag(expr.Range(), "Unknown catalogue",
+			fmt.Sprintf("There is no catalogue block %q.%s", label, suggest(label, names)))}
+	}
+	row := c.rows[id]
+	if row == nil {
+		return nil, hcl.Diagnostics{attrDiag(expr.Range(), "No such row",
+			fmt.Sprintf("%s has no row with %s %q.%s", c.Path, c.IDColumn, id, suggest(id, c.order)))}
+	}
+	if len(row.dups) > 0 {
+		lines := make([]string, len(row.dups))
+		for i, l := range row.dups {
+			lines[i] = strconv.Itoa(l)
+		}
+		return nil, hcl.Diagnostics{attrDiag(expr.Range(), "Ambiguous row",
+			fmt.Sprintf("%s has %q on line %d and again on line(s) %s; keep one.", c.Path, id, row.line, strings.Join(lines, ", ")))}
+	}
+	s.Rows[p.Name] = &RowInput{Catalogue: label, Path: c.Path, Line: row.line, ID: id}
+	return rowAddress(label, id), nil
+}
+
+// resolveRows reads the columns each CatalogueRow parameter's configuration asks for.
+func (w *Workflow) resolveRows(s *Step) hcl.Diagnostics {
+	var diags hcl.Diagnostics
+	for _, p := range s.Kind.Params() {
+		in := s.Rows[p.Name]
+		if p.Type != steps.CatalogueRow || in == nil {
+			continue
+		}
+		cr, ok := s.Config.(steps.ColumnReader)
+		if !ok {
+			diags = append(diags, attrDiag(s.attrRanges[p.Name], "Internal error",
+				fmt.Sprintf("the %s kind reads a catalogue row but does not say which columns", s.Kind.Name())))
+			continue
+		}
+		c := w.catalogues[in.Catalogue]
+		row := c.rows[in.ID]
+		required, optional := cr.Columns(p.Name)
+		in.Values, in.Columns = map[string]float64{}, map[string]string{}
+		seen := map[string]bool{}
+		for i, name := range append(append([]string(nil), required...), optional...) {
+			name = strings.ToLower(name)
+			if seen[name] {
+				continue
+			}
+			seen[name] = true
+			in.Names = append(in.Names, name)
+			j, ok := c.column(name)
+			if !ok {
+				if i < len(required) {
+					diags = append(diags, attrDiag(s.attrRanges[p.Name], "Missing catalogue column",
+						fmt.Sprintf("%s needs a column %q, which %s lacks (columns: %s). Rename it in the catalogue block, e.g. columns = { %s = \"...\" }.%s",
+							s.Addr, name, c.Path, strings.Join(c.header, ", "), name, suggest(name, c.header))))
+				}
+				continue
+			}
+			in.Columns[name] = c.header[j]
+			cell := strings.TrimSpace(row.cells[j])
+			if o := w.rowOverride(in.Catalogue, in.ID, name, c.header[j]); o != nil {
+				o.used = true
+				cell = o.Value
+				in.Overridden = append(in.Overridden, name+"="+o.Value)
+			}
+			v, blank, err := parseCell(cell)
+			if err != nil {
+				diags = append(diags, attrDiag(s.attrRanges[p.Name], "Bad catalogue value",
+					fmt.Sprintf("%s:%d, column %s (%s): %v", c.Path, row.line, c.header[j], in.ID, err)))
+				continue
+			}
+			if !blank {
+				in.Values[name] = v
+			}
+		}
+		sort.Strings(in.Names)
+	}
+	return diags
+}
+
+// parseCell reads a number; blank cells, "nan", "null" and "--" mean no value.
+func parseCell(s string) (v float64, blank bool, err error) {
+	switch strings.ToLower(s) {
+	case "", "nan", "null", "none", "--", "-":
+		return 0, true, nil
+	}
+	v, err = strconv.ParseFloat(s, 64)
+	if err != nil || math.IsInf(v, 0) || math.IsNaN(v) {
+		return 0, false, fmt.Errorf("%q is not a number", s)
+	}
+	return v, false, nil
+}
+
+// rowKey writes a row input into a step key: the id and the parsed values of the asked-for
+// columns, absent ones marked. The file's digest is not part of it, so that editing
+// another row, reformatting a number or adding a column changes nothing here.
+func (k *keyRecord) row(in *RowInput) {
+	k.str(in.ID)
+	k.u64(uint64(len(in.Names)))
+	for _, n := range in.Names {
+		k.str(n)
+		if v, ok := in.Values[n]; ok {
+			k.u64(1)
+			k.f64(v)
+		} else {
+			k.u64(0)
+		}
+	}
+}
+
+// RowRecord is one catalogue row a step read, kept in its provenance.
+type RowRecord struct {
+	Param      string            `json:"param"`
+	Row        string            `json:"row"` // catalogue.label["id"]
+	Path       string            `json:"path"`
+	Line       int               `json:"line"`
+	Values     map[string]string `json:"values"` // by asked-for name; "" for a blank cell
+	Overridden []string          `json:"overridden,omitempty"`
+	// Digest is the SHA-256 of the asked-for values as keyed (not of the file).
+	Digest string `json:"digest"`
+}
+
+func (in *RowInput) record(param string) RowRecord {
+	rr := RowRecord{Param: param, Row: in.Address(), Path: in.Path, Line: in.Line, Values: map[string]string{}, Overridden: in.Overridden}
+	for _, n := range in.Names {
+		if v, ok := in.Values[n]; ok {
+			rr.Values[n] = strconv.FormatFloat(v, 'g', -1, 64)
+		} else {
+			rr.Values[n] = ""
+		}
+	}
+	k := &keyRecord{}
+	k.row(in)
+	rr.Digest = hexKey(sha256.Sum256(k.buf))
+	return rr
+}
+
+// rowChanges lists the catalogue values that differ between an earlier record and now.
+func rowChanges(s *Step, prev []RowRecord) []string {
+	old := map[string]RowRecord{}
+	for _, r := range prev {
+		old[r.Param] = r
+	}
+	var why []string
+	for _, p := range s.Kind.Params() {
+		in := s.Rows[p.Name]
+		if in == nil {
+			continue
+		}
+		was, ok := old[p.Name]
+		if !ok {
+			continue
+		}
+		now := in.record(p.Name)
+		if was.Row != now.Row {
+			why = append(why, fmt.Sprintf("%s changed: %s → %s", p.Name, was.Row, now.Row))
+			continue
+		}
+		why = append(why, valueChanges(now.Row, now.Path, now.Line, was.Values, now.Values)...)
+	}
+	return why
+}
+
+// valueChanges describes, column by column, how a row's values moved.
+func valueChanges(row, path string, line int, was, now map[string]string) []string {
+	names := map[string]bool{}
+	for n := range was {
+		names[n] = true
+	}
+	for n := range now {
+		names[n] = true
+	}
+	sorted := make([]string, 0, len(names))
+	for n := range names {
+		sorted = append(sorted, n)
+	}
+	sort.Strings(sorted)
+	blank := func(s string) string {
+		if s == "" {
+			return "(blank)"
+		}
+		return s
+	}
+	var why []string
+	for _, n := range sorted {
+		a, hadA := was[n]
+		b, hasB := now[n]
+		switch {
+		case hadA && hasB && a != b:
+			why = append(why, fmt.Sprintf("catalogue row %s (%s:%d) column %s: %s → %s", row, path, line, n, blank(a), blank(b)))
+		case !hadA && hasB:
+			why = append(why, fmt.Sprintf("catalogue row %s (%s:%d) column %s is now read: %s", row, path, line, n, blank(b)))
+		case hadA && !hasB:
+			why = append(why, fmt.Sprintf("catalogue row %s column %s is no longer read", row, n))
+		}
+	}
+	return why
+}
+
+// parseRowOverride reads the left side catalogue.label["id"].column of a --set.
+func parseRowOverride(lhs string) (addr, column string, err error) {
+	tr, d := hclsyntax.ParseTraversalAbs([]byte(lhs), "--set", hcl.InitialPos)
+	if d.HasErrors() || len(tr) != 4 || tr.RootName() != catalogueBlock {
+		return "", "", fmt.Errorf(`write catalogue.label["id"].column=value, e.g. catalogue.nearby["FW-3318"].parallax=35.1`)
+	}
+	label, ok1 := tr[1].(hcl.TraverseAttr)
+	idx, ok2 := tr[2].(hcl.TraverseIndex)
+	col, ok3 := tr[3].(hcl.TraverseAttr)
+	id, ok4 := str(idx.Key)
+	if !ok1 || !ok2 || !ok3 || !ok4 {
+		return "", "", fmt.Errorf(`write catalogue.label["id"].column=value, e.g. catalogue.nearby["FW-3318"].parallax=35.1`)
+	}
+	return rowAddress(label.Name, id), col.Name, nil
+}
+
+// rowOverride finds a --set for a row's column, by the name the step asked for or by the
+// file's own column name.
+func (w *Workflow) rowOverride(label, id, name, fileCol string) *override {
+	addr := rowAddress(label, id)
+	for _, n := range []string{name, fileCol} {
+		if o := w.overrides[addr+"."+strings.ToLower(n)]; o != nil {
+			return o
+		}
+	}
+	return nil
+}

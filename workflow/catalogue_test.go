@@ -1,0 +1,183 @@
+package workflow
+
+import (
+	"math"
+	"strings"
+	"testing"
+)
+
+const catalogueFlow = `
+analysis "toy" {
+  seed = 7
+}
+
+catalogue "near" {
+  file = "stars.csv"
+  id   = "name"
+}
+
+lookup "host" {
+  row       = catalogue.near["FW-1"]
+  with_teff = true
+}
+
+lookup "other" {
+  row = catalogue.near["FW-2"]
+}
+`
+
+const stars = `# an invented catalogue
+name,parallax,teff,vmag
+FW-1,12.30,3300,11.0
+FW-2,20.5,,12.5
+FW-3,7.0,4100,13.0
+`
+
+func catalogueProject(t *testing.T) *project {
+	return newProject(t, map[string]string{"analysis.hcl": catalogueFlow, "stars.csv": stars})
+}
+
+func TestCatalogueRowIsRead(t *testing.T) {
+	p := catalogueProject(t)
+	_, rep := p.run()
+	if got := valueOf(t, rep, "lookup.host"); got != 12.3+3300 {
+		t.Errorf("lookup.host = %v, want parallax + teff = 3312.3", got)
+	}
+	if got := valueOf(t, rep, "lookup.other"); got != 20.5 {
+		t.Errorf("lookup.other = %v, want 20.5", got)
+	}
+}
+
+func TestCatalogueEditsThatKeepTheRowKeepTheKey(t *testing.T) {
+	edits := []struct {
+		name string
+		body string
+	}{
+		{"reformatting a number (12.30 → 12.3)", strings.Replace(stars, "12.30", "12.3", 1)},
+		{"reordering the columns", "name,teff,vmag,parallax\nFW-1,3300,11.0,12.30\nFW-2,,12.5,20.5\nFW-3,4100,13.0,7.0\n"},
+		{"adding a column", "name,parallax,teff,vmag,kmag\nFW-1,12.30,3300,11.0,8.1\nFW-2,20.5,,12.5,9.0\nFW-3,7.0,4100,13.0,9.9\n"},
+		{"editing another star's row", strings.Replace(stars, "FW-3,7.0", "FW-3,7.5", 1)},
+		{"editing a column this step does not read", strings.Replace(stars, "3300,11.0", "3300,11.4", 1)},
+	}
+	for _, e := range edits {
+		t.Run(e.name+" reuses the host step", func(t *testing.T) {
+			p := catalogueProject(t)
+			p.run()
+			p.write("stars.csv", e.body)
+			st, _ := p.run()
+			if st["lookup.host"] != StatusReused {
+				t.Errorf("lookup.host %s, want reused", st["lookup.host"])
+			}
+		})
+	}
+}
+
+func TestCatalogueRevisionRecomputesOnlyItsReaders(t *testing.T) {
+	p := catalogueProject(t)
+	p.run()
+	p.write("stars.csv", strings.Replace(stars, "FW-1,12.30", "FW-1,12.45", 1))
+	why := strings.Join(pendingOf(t, p)["lookup.host"].Reasons, ";")
+	if !strings.Contains(why, `catalogue row catalogue.near["FW-1"] (stars.csv:3) column parallax: 12.3 → 12.45`) {
+		t.Errorf("pending does not name the changed value: %q", why)
+	}
+	st, rep := p.run()
+	if st["lookup.host"] != StatusComputed || st["lookup.other"] != StatusReused {
+		t.Errorf("statuses %v, want host computed and other reused", st)
+	}
+	if got := valueOf(t, rep, "lookup.host"); got != 12.45+3300 {
+		t.Errorf("lookup.host = %v after the revision", got)
+	}
+}
+
+func TestCatalogueOverrideIsAppliedAndRecorded(t *testing.T) {
+	p := catalogueProject(t)
+	o, err := ParseOverride(`catalogue.near["FW-1"].parallax=13`)
+	if err != nil {
+		t.Fatal(err)
+	}
+	st, rep := p.run(o)
+	if got := valueOf(t, rep, "lookup.host"); got != 13+3300 || st["lookup.host"] != StatusComputed {
+		t.Errorf("with the override lookup.host = %v (%s), want 3313", got, st["lookup.host"])
+	}
+	if len(rep.Run.Overrides) != 1 || rep.Run.Overrides[`catalogue.near["FW-1"].parallax`] != "13" {
+		t.Errorf("run record overrides %v", rep.Run.Overrides)
+	}
+	if _, err := p.load(Override{Addr: `catalogue.near["FW-1"]`, Attr: "vmag", Value: "1"}); err == nil ||
+		!strings.Contains(err.Error(), `No step reads column "vmag"`) {
+		t.Errorf("an override of an unread column: %v", err)
+	}
+	if _, err := ParseOverride(`catalogue.near.FW-1.parallax=13`); err == nil {
+		t.Error("a row override without the index form was accepted")
+	}
+}
+
+func TestCatalogueMistakesAreDiagnosed(t *testing.T) {
+	cases := []struct {
+		name  string
+		flow  string
+		stars string
+		want  []string
+	}{
+		{"a missing id suggests the closest", strings.Replace(catalogueFlow, `["FW-2"]`, `["FW-22"]`, 1), stars,
+			[]string{"No such row", `"FW-22"`, `"FW-2"`}},
+		{"a duplicated id that a step reads is ambiguous", catalogueFlow, stars + "FW-1,13.0,3200,11.1\n",
+			[]string{"Ambiguous row", "line 3", "6"}},
+		{"a missing required column is named", catalogueFlow, strings.Replace(stars, "parallax", "plx", 1),
+			[]string{"Missing catalogue column", `"parallax"`, "columns = { parallax"}},
+		{"a cell that is not a number names file, line and column", catalogueFlow, strings.Replace(stars, "3300", "33OO", 1),
+			[]string{"stars.csv:3, column teff (FW-1)", `"33OO" is not a number`}},
+		{"an unknown catalogue suggests the closest", strings.Replace(catalogueFlow, `catalogue.near["FW-2"]`, `catalogue.nears["FW-2"]`, 1), stars,
+			[]string{"Unknown catalogue", `"near"`}},
+		{"a row named without an index is explained", strings.Replace(catalogueFlow, `catalogue.near["FW-2"]`, `catalogue.near`, 1), stars,
+			[]string{"Not a catalogue row"}},
+		{"a missing id column is named", catalogueFlow, strings.Replace(stars, "name,", "star,", 1),
+			[]string{`no id column "name"`}},
+		{"a short line is named", catalogueFlow, stars + "FW-9,1.0\n",
+			[]string{"stars.csv:6", "2 cells"}},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			p := newProject(t, map[string]string{"analysis.hcl": c.flow, "stars.csv": c.stars})
+			_, err := p.load()
+			if err == nil {
+				t.Fatal("loaded without error")
+			}
+			for _, w := range c.want {
+				if !strings.Contains(err.Error(), w) {
+					t.Errorf("error %q does not contain %q", err, w)
+				}
+			}
+		})
+	}
+	t.Run("a duplicated id that no step reads is no error", func(t *testing.T) {
+		p := newProject(t, map[string]string{"analysis.hcl": catalogueFlow, "stars.csv": stars + "FW-3,7.1,4000,13.1\n"})
+		if _, err := p.load(); err != nil {
+			t.Fatal(err)
+		}
+	})
+	t.Run("a renamed column is found through the catalogue block", func(t *testing.T) {
+		flow := strings.Replace(catalogueFlow, `id   = "name"`, "id   = \"name\"\n  columns = { parallax = \"PLX\" }", 1)
+		p := newProject(t, map[string]string{"analysis.hcl": flow, "stars.csv": strings.Replace(stars, "parallax", "plx", 1)})
+		_, rep := p.run()
+		if got := valueOf(t, rep, "lookup.other"); got != 20.5 {
+			t.Errorf("lookup.other = %v through the rename", got)
+		}
+	})
+}
+
+func TestMeasurementIsDecodedAndKeyedByValue(t *testing.T) {
+	p := catalogueProject(t)
+	p.write("analysis.hcl", strings.Replace(catalogueFlow, "with_teff = true", "with_teff = true\n  offset = \"12 ± 1.5 h\"", 1))
+	_, rep := p.run()
+	if got := valueOf(t, rep, "lookup.host"); math.Abs(got-(12.3+3300+0.5+0.0625)) > 1e-9 {
+		t.Errorf("lookup.host = %v with the measurement 0.5 ± 0.0625 d", got)
+	}
+	p.write("analysis.hcl", strings.Replace(catalogueFlow, "with_teff = true", "with_teff = true\n  offset = \"0.5 +/- 0.0625 d\"", 1))
+	if st, _ := p.run(); st["lookup.host"] != StatusReused {
+		t.Errorf("the same measurement in other units recomputed: %s", st["lookup.host"])
+	}
+	p.write("analysis.hcl", strings.Replace(catalogueFlow, "with_teff = true", "with_teff = true\n  offset = \"0.5 d\"", 1))
+	if _, err := p.load(); err == nil || !strings.Contains(err.Error(), "no uncertainty") {
+		t.Errorf("a measurement without ± : %v", err)
+	}
+}
