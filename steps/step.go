@@ -55,6 +55,10 @@ type Figure struct {
 	Value float64
 	// Sigma is its one-sigma uncertainty, or 0 when it has none.
 	Sigma float64
+	// MCError is the Monte Carlo standard error of Value when Value is estimated from
+	// random draws (a posterior median, say), or 0 when Value is exact given the inputs.
+	// Two runs with different seeds differ by about √2 × MCError.
+	MCError float64
 	// Unit is the unit of Value and Sigma ("d", "ppm", "" for dimensionless).
 	Unit string
 	// Doc says in a few words what the number is.

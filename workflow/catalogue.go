@@ -381,46 +381,9 @@ func (in *RowInput) record(param string) RowRecord {
 	return rr
 }
 
-// rowChanges lists the catalogue values that differ between an earlier record and now.
-func rowChanges(s *Step, prev []RowRecord) []string {
-	old := map[string]RowRecord{}
-	for _, r := range prev {
-		old[r.Param] = r
-	}
-	var why []string
-	for _, p := range s.Kind.Params() {
-		in := s.Rows[p.Name]
-		if in == nil {
-			continue
-		}
-		was, ok := old[p.Name]
-		if !ok {
-			continue
-		}
-		now := in.record(p.Name)
-		if was.Row != now.Row {
-			why = append(why, fmt.Sprintf("%s changed: %s → %s", p.Name, was.Row, now.Row))
-			continue
-		}
-		why = append(why, valueChanges(now.Row, now.Path, now.Line, was.Values, now.Values)...)
-	}
-	return why
-}
-
 // valueChanges describes, column by column, how a row's values moved.
 func valueChanges(row, path string, line int, was, now map[string]string) []string {
-	names := map[string]bool{}
-	for n := range was {
-		names[n] = true
-	}
-	for n := range now {
-		names[n] = true
-	}
-	sorted := make([]string, 0, len(names))
-	for n := range names {
-		sorted = append(sorted, n)
-	}
-	sort.Strings(sorted)
+	sorted := unionKeys(was, now)
 	blank := func(s string) string {
 		if s == "" {
 			return "(blank)"

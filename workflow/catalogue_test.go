@@ -1,6 +1,7 @@
 package workflow
 
 import (
+	"dipline/cache"
 	"math"
 	"strings"
 	"testing"
@@ -179,5 +180,44 @@ func TestMeasurementIsDecodedAndKeyedByValue(t *testing.T) {
 	p.write("analysis.hcl", strings.Replace(catalogueFlow, "with_teff = true", "with_teff = true\n  offset = \"0.5 d\"", 1))
 	if _, err := p.load(); err == nil || !strings.Contains(err.Error(), "no uncertainty") {
 		t.Errorf("a measurement without ± : %v", err)
+	}
+}
+
+func TestDiffExplainsACatalogueRevision(t *testing.T) {
+	p := catalogueProject(t)
+	_, first := p.run()
+	p.write("stars.csv", strings.Replace(stars, "FW-1,12.30", "FW-1,12.45", 1))
+	_, second := p.run()
+	w, err := p.load()
+	if err != nil {
+		t.Fatal(err)
+	}
+	store, err := cache.Open(w.StorePath)
+	if err != nil {
+		t.Fatal(err)
+	}
+	rep, err := Diff(store, toyRegistry(), first.Run.ID, second.Run.ID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	states := map[string]StepDiff{}
+	for _, d := range rep.Steps {
+		states[d.Address] = d
+	}
+	if states["lookup.other"].State != "same" {
+		t.Errorf("lookup.other: %+v, want same", states["lookup.other"])
+	}
+	host := states["lookup.host"]
+	if host.State != "changed" || !strings.Contains(strings.Join(host.Why, ";"), "column parallax: 12.3 → 12.45") {
+		t.Fatalf("lookup.host: %+v", host)
+	}
+	if len(host.Shifts) != 1 {
+		t.Fatalf("shifts %+v", host.Shifts)
+	}
+	// The toy estimate has σ = 0.5 and a Monte Carlo error of 0.03 in each run: the shift
+	// of 0.15 is 0.3 σ, with a Monte Carlo error of 0.03·√2.
+	s := host.Shifts[0]
+	if math.Abs(s.Delta-0.15) > 1e-9 || math.Abs(s.InSigma-0.3) > 1e-9 || math.Abs(s.MCError-0.03*math.Sqrt2) > 1e-12 {
+		t.Errorf("shift %+v, want Δ 0.15 = 0.3 σ ± %.4f", s, 0.03*math.Sqrt2)
 	}
 }

@@ -188,6 +188,28 @@ func (c lookupConfig) Columns(param string) (required, optional []string) {
 	return []string{"Parallax"}, nil
 }
 
+// toyEstimate is lookup's artifact: a number with an uncertainty and a Monte Carlo error.
+type toyEstimate struct{ value, sigma, mc float64 }
+
+func (e toyEstimate) Encode() []byte {
+	b := []byte("est1")
+	for _, f := range []float64{e.value, e.sigma, e.mc} {
+		b = binary.LittleEndian.AppendUint64(b, steps.FloatBits(f))
+	}
+	return b
+}
+func (e toyEstimate) Figures() []steps.Figure {
+	return []steps.Figure{{Name: "value", Value: e.value, Sigma: e.sigma, MCError: e.mc, Doc: "the toy estimate"}}
+}
+
+func (lookup) Decode(b []byte) (steps.Artifact, error) {
+	if len(b) != 28 || string(b[:4]) != "est1" {
+		return nil, errors.New("not an estimate artifact")
+	}
+	f := func(i int) float64 { return math.Float64frombits(binary.LittleEndian.Uint64(b[4+8*i:])) }
+	return toyEstimate{f(0), f(1), f(2)}, nil
+}
+
 func (lookup) Name() string { return "lookup" }
 func (lookup) Doc() string  { return "reads a catalogue row" }
 func (lookup) Params() []steps.Param {
@@ -209,7 +231,7 @@ func (lookup) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env) 
 		return nil, steps.BadInputf("%s: blank", row.Where("parallax"))
 	}
 	teff, _ := row.Get("teff")
-	return toyNum(plx + teff + c.offset[0] + c.offset[1]), nil
+	return toyEstimate{value: plx + teff + c.offset[0] + c.offset[1], sigma: 0.5, mc: 0.03}, nil
 }
 
 func toyRegistry() steps.Registry {

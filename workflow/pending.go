@@ -121,31 +121,39 @@ func compareWithLast(s *Step, key cache.StepKey, known map[string]cache.ResultKe
 }
 
 // ownChanges lists what differs in s itself from an earlier provenance record: its kind or
-// version, its settings, the digests of its files.
+// version, its settings, the digests of its files, the catalogue values it reads.
 func ownChanges(s *Step, prev *Provenance) []string {
-	var why []string
-	if prev.Kind != s.Kind.Name() {
+	return recordChanges(prev, s.record())
+}
+
+// record is the part of a provenance record that describes the step itself, as it stands
+// in the loaded workflow.
+func (s *Step) record() *Provenance {
+	p := &Provenance{Address: s.Addr, Kind: s.Kind.Name(), Version: s.Kind.Version(), Config: s.Rendered()}
+	for _, prm := range s.Kind.Params() {
+		for _, f := range s.Files[prm.Name] {
+			p.Files = append(p.Files, FileRecord{Param: prm.Name, Path: f.Path, SHA256: hexKey(f.Digest), Bytes: len(f.Data)})
+		}
+		if row := s.Rows[prm.Name]; row != nil {
+			p.Rows = append(p.Rows, row.record(prm.Name))
+		}
+	}
+	return p
+}
+
+// recordChanges lists what differs between two records of one step: kind, version,
+// settings (old → new), file digests, catalogue values.
+func recordChanges(prev, now *Provenance) []string {
+	if prev.Kind != now.Kind {
 		return []string{fmt.Sprintf("the step was a %s step before", prev.Kind)}
 	}
-	if prev.Version != s.Kind.Version() {
-		why = append(why, fmt.Sprintf("the %s step kind changed version: %d → %d", s.Kind.Name(), prev.Version, s.Kind.Version()))
+	var why []string
+	if prev.Version != now.Version {
+		why = append(why, fmt.Sprintf("the %s step kind changed version: %d → %d", now.Kind, prev.Version, now.Version))
 	}
-	now := s.Rendered()
-	names := map[string]bool{}
-	for n := range now {
-		names[n] = true
-	}
-	for n := range prev.Config {
-		names[n] = true
-	}
-	sorted := make([]string, 0, len(names))
-	for n := range names {
-		sorted = append(sorted, n)
-	}
-	sort.Strings(sorted)
-	for _, n := range sorted {
+	for _, n := range unionKeys(prev.Config, now.Config) {
 		old, had := prev.Config[n]
-		cur, has := now[n]
+		cur, has := now.Config[n]
 		switch {
 		case had && has && old != cur:
 			why = append(why, fmt.Sprintf("%s changed: %s → %s", n, old, cur))
@@ -155,17 +163,44 @@ func ownChanges(s *Step, prev *Provenance) []string {
 			why = append(why, fmt.Sprintf("%s was added: %s", n, cur))
 		}
 	}
-	why = append(why, rowChanges(s, prev.Rows)...)
 	oldFiles := map[string]string{}
 	for _, f := range prev.Files {
 		oldFiles[f.Param+"\x00"+f.Path] = f.SHA256
 	}
-	for _, p := range s.Kind.Params() {
-		for _, f := range s.Files[p.Name] {
-			if d, ok := oldFiles[p.Name+"\x00"+f.Path]; ok && d != hexKey(f.Digest) {
-				why = append(why, fmt.Sprintf("the file %s changed: sha256 %s… → %s…", f.Path, d[:12], hexKey(f.Digest)[:12]))
-			}
+	for _, f := range now.Files {
+		if d, ok := oldFiles[f.Param+"\x00"+f.Path]; ok && d != f.SHA256 {
+			why = append(why, fmt.Sprintf("the file %s changed: sha256 %s… → %s…", f.Path, d[:12], f.SHA256[:12]))
+		}
+	}
+	oldRows := map[string]RowRecord{}
+	for _, r := range prev.Rows {
+		oldRows[r.Param] = r
+	}
+	for _, r := range now.Rows {
+		was, ok := oldRows[r.Param]
+		switch {
+		case !ok:
+		case was.Row != r.Row:
+			why = append(why, fmt.Sprintf("%s changed: %s → %s", r.Param, was.Row, r.Row))
+		default:
+			why = append(why, valueChanges(r.Row, r.Path, r.Line, was.Values, r.Values)...)
 		}
 	}
 	return why
+}
+
+func unionKeys(a, b map[string]string) []string {
+	names := map[string]bool{}
+	for n := range a {
+		names[n] = true
+	}
+	for n := range b {
+		names[n] = true
+	}
+	sorted := make([]string, 0, len(names))
+	for n := range names {
+		sorted = append(sorted, n)
+	}
+	sort.Strings(sorted)
+	return sorted
 }

@@ -112,6 +112,7 @@ type FigureEntry struct {
 	Name    string   `json:"name"`
 	Value   *float64 `json:"value"`
 	Sigma   *float64 `json:"sigma,omitempty"`
+	MCError *float64 `json:"mc_error,omitempty"` // Monte Carlo standard error of value
 	Unit    string   `json:"unit,omitempty"`
 	Doc     string   `json:"doc,omitempty"`
 	StepKey string   `json:"step_key"`
@@ -131,6 +132,10 @@ func figureEntries(figs []steps.Figure, stepKey string) []FigureEntry {
 		if f.Sigma != 0 && finite(f.Sigma) {
 			s := f.Sigma
 			e.Sigma = &s
+		}
+		if f.MCError != 0 && finite(f.MCError) {
+			m := f.MCError
+			e.MCError = &m
 		}
 		out = append(out, e)
 	}

@@ -38,6 +38,9 @@ Usage:
   dipline trace   [workflow.hcl] kind.label[/figure] [--run RUN]
                                                  the chain from a result down to its input files
   dipline runs    [workflow.hcl]                 the runs recorded in the store
+  dipline diff    [workflow.hcl] [OLD NEW] [--all]
+                                                 what changed between two runs (default: previous
+                                                 and latest) and how far each number moved
   dipline pin     [workflow.hcl] RUN [--note TEXT] [--remove]
                                                  keep a run (and all it used) safe from pruning
   dipline store   stats|verify|prune|merge [workflow.hcl] [options]
@@ -70,7 +73,7 @@ func realMain(args []string, stdout, stderr io.Writer) (code int) {
 	c := &cli{reg: reg, out: stdout, err: stderr}
 	cmds := map[string]func([]string) int{
 		"run": c.run, "check": c.check, "pending": c.pending, "trace": c.trace, "runs": c.runs,
-		"pin": c.pin, "store": c.storeCmd, "kinds": c.kinds, "starter": c.starter,
+		"pin": c.pin, "diff": c.diff, "store": c.storeCmd, "kinds": c.kinds, "starter": c.starter,
 	}
 	f, ok := cmds[args[0]]
 	if !ok {
