@@ -65,7 +65,9 @@ type Hypothesis struct {
 	// curve's band: the observed depth is the true depth divided by 1 + FluxRatio.
 	FluxRatio []float64
 	// RadiusScale holds draws of R_host/R_target (1 for the target itself): a radius ratio
-	// k measured against the host converts to the target's frame by this factor.
+	// k measured against the host converts to the target's frame by this factor. It is nil
+	// when the host's radius is unknown (no radius given and none estimable); the planet's
+	// radius relative to its host is then all that can be said.
 	RadiusScale []float64
 }
 

@@ -1,0 +1,295 @@
+package dilution
+
+import (
+	"fmt"
+	"math"
+	"slices"
+	"strings"
+
+	"dipline/steps"
+	"dipline/steps/companions"
+	"dipline/steps/internal/astro"
+	"dipline/steps/internal/rng"
+	"dipline/steps/internal/stellar"
+)
+
+// mann15Scatter is the fractional scatter of the Mann et al. (2015, ApJ 804, 64) Ks–radius
+// relation, 2.89 % (Table 1, from memory; REFERENCES §6). A companion radius estimated from
+// the relation is drawn with this scatter, independently of the target's.
+const mann15Scatter = 0.0289
+
+// mann15MinMK and mann15MaxMK bound the Mann et al. (2015) relation, 4.6 ≤ M_Ks ≤ 9.8 (from
+// memory; REFERENCES §6), as astro.MannRadius enforces.
+const mann15MinMK, mann15MaxMK = 4.6, 9.8
+
+// maxOutsideFraction is the largest share of a companion's M_K draws that may fall beyond
+// the relation's range and still be taken at its edge: a one-sided 2σ tail (2.3 %) of a
+// companion whose M_K lies within the range (common practice). More, and the companion gets
+// no radius from the relation.
+const maxOutsideFraction = 0.025
+
+// mann15Name names the relation in notes and in the artifact.
+const mann15Name = "Mann et al. 2015"
+
+// maxRadiusTries bounds the redraws of a truncated-normal companion radius; a radius whose
+// error makes positive draws this rare is refused.
+const maxRadiusTries = 1000
+
+// BandRelation converts a magnitude difference from one band to another:
+// Δm_To = Offset + Slope · Δm_From, with a normal Scatter (mag) drawn per sample. The user
+// states it and its Source in the workflow; dipline holds no colour relations of its own.
+type BandRelation struct {
+	From, To               string
+	Slope, Offset, Scatter float64
+	Source                 string
+}
+
+// Config is the dilution step's decoded configuration.
+type Config struct {
+	// Draws is the number of Monte Carlo samples per hypothesis.
+	Draws int
+	// Relation converts companions' Δm into the light curve's band; nil when none is stated.
+	Relation *BandRelation
+}
+
+// Input is what the computation reads from the referenced steps.
+type Input struct {
+	// Band is the light curve's band; CrowdingCorrected whether its flux was already
+	// corrected for other stars' light.
+	Band              string
+	CrowdingCorrected bool
+	Companions        []stellar.Companion
+	// Star is the target's draws, or nil when no star step is referenced.
+	Star *stellar.Star
+}
+
+// sameBand compares band names as written, ignoring case and surrounding blanks.
+func sameBand(a, b string) bool { return strings.EqualFold(strings.TrimSpace(a), strings.TrimSpace(b)) }
+
+// isKs reports a band name meaning the 2MASS-style Ks (or K) band, the band of the Mann et al.
+// (2015) relation.
+func isKs(b string) bool {
+	switch strings.ToLower(strings.TrimSpace(b)) {
+	case "ks", "k", "k_s", "k-short":
+		return true
+	}
+	return false
+}
+
+// Compute draws the hypotheses: the planet on the target, then on each companion in list
+// order. It returns the artifact and the facts worth telling the user. Streams are derived
+// from seed per companion and purpose, so the draws of one companion do not depend on the
+// others'.
+func Compute(cfg Config, in Input, seed uint64) (*Result, []string, error) {
+	n := cfg.Draws
+	if n < 1 {
+		return nil, nil, fmt.Errorf("dilution: %d draws", n)
+	}
+	var notes []string
+	note := func(f string, a ...any) { notes = append(notes, fmt.Sprintf(f, a...)) }
+	res := &Result{Dilution: stellar.Dilution{Band: in.Band}}
+
+	ones := make([]float64, n)
+	for i := range ones {
+		ones[i] = 1
+	}
+	if in.CrowdingCorrected {
+		res.AlreadyCorrected = true
+		res.Hypotheses = []stellar.Hypothesis{{Host: targetHost, FluxRatio: make([]float64, n), RadiusScale: ones}}
+		res.RadiusSource = []string{"the target"}
+		note("the light curve is already corrected for crowding; no second correction (flux ratio 0, radius factor 1)")
+		if len(in.Companions) > 0 {
+			note("planet-on-companion hypotheses are not formed: a crowding-corrected flux no longer holds the companions' light in a known proportion")
+		}
+		return res, notes, nil
+	}
+	if len(in.Companions) > 0 && strings.TrimSpace(in.Band) == "" {
+		return nil, nil, steps.BadInputf("light_curve: the light curve has no band, so the companions' magnitude differences cannot be matched to it; set band in the photometry step")
+	}
+
+	seen := map[string]bool{targetHost: true}
+	for _, c := range in.Companions {
+		key := companions.FigureName(c.Name)
+		if seen[key] {
+			return nil, nil, steps.BadInputf("companions: the name %q is used twice or names the target", c.Name)
+		}
+		seen[key] = true
+	}
+
+	// Δm of every companion in the light curve's band, and the native draws (for radii).
+	nc := len(in.Companions)
+	native := make([][]float64, nc)
+	ratio := make([][]float64, nc) // F_j/F_t
+	for j, c := range in.Companions {
+		s := rng.Derive(seed, "dmag", uint64(j))
+		nat := make([]float64, n)
+		for i := range nat {
+			nat[i] = c.DMag + c.DMagErr*s.Normal()
+		}
+		native[j] = nat
+		dm := nat
+		if !sameBand(c.Band, in.Band) {
+			r := cfg.Relation
+			switch {
+			case r == nil:
+				return nil, nil, steps.BadInputf("companions: %q has its magnitude difference in band %q but the light curve is in band %q; state a band_relation from %q to %q (with its source) or give the difference in %q",
+					c.Name, c.Band, in.Band, c.Band, in.Band, in.Band)
+			case !sameBand(r.From, c.Band) || !sameBand(r.To, in.Band):
+				return nil, nil, steps.BadInputf("companions: %q has its magnitude difference in band %q and the light curve is in band %q, but band_relation converts %q to %q",
+					c.Name, c.Band, in.Band, r.From, r.To)
+			}
+			sc := rng.Derive(seed, "band", uint64(j))
+			dm = make([]float64, n)
+			for i, x := range nat {
+				dm[i] = r.Offset + r.Slope*x + r.Scatter*sc.Normal()
+			}
+			note("companion %s: Δm in %s = %g + %g × Δm in %s, scatter %g mag (source: %s)",
+				c.Name, in.Band, r.Offset, r.Slope, r.From, r.Scatter, r.Source)
+		}
+		rj := make([]float64, n)
+		for i, x := range dm {
+			rj[i] = math.Pow(10, -0.4*x)
+			if !(rj[i] > 0) || math.IsInf(rj[i], 0) {
+				return nil, nil, steps.BadInputf("companions: %q: a magnitude difference of %g mag gives no finite flux ratio", c.Name, x)
+			}
+		}
+		ratio[j] = rj
+	}
+
+	// Planet on the target: FluxRatio = Σ_j F_j/F_t (REFERENCES §14).
+	tgt := make([]float64, n)
+	for _, rj := range ratio {
+		for i, x := range rj {
+			tgt[i] += x
+		}
+	}
+	res.Hypotheses = append(res.Hypotheses, stellar.Hypothesis{Host: targetHost, FluxRatio: tgt, RadiusScale: ones})
+	res.RadiusSource = append(res.RadiusSource, "the target")
+	if nc == 0 {
+		note("no companions: flux ratio 0, radius factor 1")
+		return res, notes, nil
+	}
+
+	// The target's radius draws, when a star step is referenced.
+	var rt, mk []float64
+	if in.Star != nil {
+		rt = in.Star.Radius
+		if rt == nil {
+			rt = []float64{}
+		}
+		if len(in.Star.MagK) == len(rt) {
+			mk = in.Star.MagK
+		}
+		if len(rt) > 0 && len(rt) != n {
+			note("star: %d draws cycled over %d", len(rt), n)
+		}
+		if len(mk) > 0 && in.Star.Relation != "" && !strings.Contains(in.Star.Relation, "Mann") {
+			note("star: the target's radius comes from %s; companions' radii from M_K use %s", in.Star.Relation, mann15Name)
+		}
+	}
+
+	// Planet on companion j: FluxRatio = (F_t + Σ_{i≠j} F_i)/F_j, i.e. (1 + Σ_{i≠j} r_i)/r_j.
+	for j, c := range in.Companions {
+		fr := make([]float64, n)
+		for i := range fr {
+			others := 1.0
+			for k := range ratio {
+				if k != j {
+					others += ratio[k][i]
+				}
+			}
+			fr[i] = others / ratio[j][i]
+		}
+		h := stellar.Hypothesis{Host: c.Name, FluxRatio: fr}
+		rs, src, err := radiusScale(c, native[j], rt, mk, seed, j)
+		if err != nil {
+			return nil, nil, err
+		}
+		if rs == nil {
+			note("planet on %s: no radius scale (%s); only its flux ratio is given", c.Name, src)
+		}
+		h.RadiusScale = rs
+		res.Hypotheses = append(res.Hypotheses, h)
+		res.RadiusSource = append(res.RadiusSource, src)
+	}
+	note("planet-on-companion hypotheses assume the companion is bound, at the target's distance")
+	return res, notes, nil
+}
+
+// radiusScale draws R_j/R_t for companion j from its given radius, or from the target's
+// M_K plus the companion's Δm in Ks through the Mann et al. (2015) relation. It returns nil
+// and the reason when neither is possible; src says where the radius came from.
+func radiusScale(c stellar.Companion, nat, rt, mk []float64, seed uint64, j int) (rs []float64, src string, err error) {
+	note := ""
+	n := len(nat)
+	if rt == nil {
+		return nil, "no star step is referenced for the target's radius", nil
+	}
+	if len(rt) == 0 {
+		return nil, "the star step gives no radius for the target", nil
+	}
+	s := rng.Derive(seed, "radius", uint64(j))
+	rs = make([]float64, n)
+	if !math.IsNaN(c.Radius) {
+		for i := range rs {
+			r := c.Radius
+			if c.RadiusErr > 0 {
+				k := 0
+				for r = c.Radius + c.RadiusErr*s.Normal(); !(r > 0); r = c.Radius + c.RadiusErr*s.Normal() {
+					if k++; k == maxRadiusTries {
+						return nil, "", steps.BadInputf("companions: %q: radius %g ± %g R_sun is too uncertain to draw positive radii", c.Name, c.Radius, c.RadiusErr)
+					}
+				}
+			}
+			rs[i] = r / rt[i%len(rt)]
+		}
+		if err := checkScale(rs); err != nil {
+			return nil, "", steps.BadInputf("star: %v", err)
+		}
+		return rs, "the radius given in the companions table", nil
+	}
+	if !isKs(c.Band) {
+		return nil, fmt.Sprintf("no radius given, and its Δm is in %s, not Ks, so %s cannot be applied", c.Band, mann15Name), nil
+	}
+	if len(mk) == 0 {
+		return nil, "no radius given, and the star step gives no absolute Ks magnitude", nil
+	}
+	mks := make([]float64, n)
+	outside := 0
+	for i := range mks {
+		mks[i] = mk[i%len(mk)] + nat[i]
+		if _, err := astro.MannRadius(mks[i]); err != nil {
+			outside++
+		}
+	}
+	if outside > int(maxOutsideFraction*float64(n)) {
+		lo, hi := slices.Min(mks), slices.Max(mks)
+		return nil, fmt.Sprintf("its M_K (%.2f to %.2f) lies outside the %g–%g range of %s in %d of %d draws; give its radius in the companions table",
+			lo, hi, mann15MinMK, mann15MaxMK, mann15Name, outside, n), nil
+	}
+	for i, m := range mks {
+		r, err := astro.MannRadius(min(max(m, mann15MinMK), mann15MaxMK))
+		if err != nil {
+			return nil, "", steps.BadInputf("star: absolute Ks magnitude draw %d: %v", i%len(mk)+1, err)
+		}
+		rs[i] = r * (1 + mann15Scatter*s.Normal()) / rt[i%len(rt)]
+	}
+	if outside > 0 {
+		note = fmt.Sprintf("; %d of %d draws of its M_K beyond the relation's range taken at its edge", outside, n)
+	}
+	if err := checkScale(rs); err != nil {
+		return nil, "", steps.BadInputf("star: %v", err)
+	}
+	return rs, fmt.Sprintf("%s from the target's M_K plus Δm in Ks%s", mann15Name, note), nil
+}
+
+// checkScale refuses radius ratios that are not positive and finite (a star draw with a
+// zero or negative radius).
+func checkScale(rs []float64) error {
+	for i, x := range rs {
+		if !(x > 0) || math.IsInf(x, 0) {
+			return fmt.Errorf("draw %d gives a radius ratio of %v; the target's radius draws must be positive", i+1, x)
+		}
+	}
+	return nil
+}
