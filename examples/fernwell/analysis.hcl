@@ -9,6 +9,7 @@ analysis "fw-3318" {
 photometry "survey" {
   files     = ["data/fw3318.csv"]
   time_zero = 2460000
+  band      = "survey-red"
 }
 
 # Remove the spot modulation with a sliding biweight; flares are clipped upward only.
@@ -22,7 +23,7 @@ detrend "spots" {
 # A first search finds the strongest dips.
 search "first" {
   light_curve  = detrend.spots
-  star_density = "7 g/cm3" # a dwarf of about 0.45 R☉ and 0.47 M☉
+  star_density = "7 g/cm3" # a dwarf of about 0.45 R☉ and 0.45 M☉
 }
 
 # Detrend again with the transits found above left out of the trend, so they keep

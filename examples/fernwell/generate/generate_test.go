@@ -107,8 +107,8 @@ func build(t *testing.T) *demo {
 	if err := json.Unmarshal(d.files["truth.json"], &d.truth); err != nil {
 		t.Fatalf("truth.json: %v", err)
 	}
-	s := fw3318
-	d.planets = planetsOf(&s)
+	s, c := fw3318, fw3318B
+	d.planets = planetsOf(&s, &c)
 	return d
 }
 
@@ -121,8 +121,8 @@ func TestGeneratorIsDeterministic(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if len(first) != 3 || len(second) != len(first) {
-		t.Fatalf("got %d and %d files, want 3", len(first), len(second))
+	if len(first) != 6 || len(second) != len(first) {
+		t.Fatalf("got %d and %d files, want 6", len(first), len(second))
 	}
 	for i := range first {
 		t.Run(first[i].Name+" is byte-identical on a second run", func(t *testing.T) {
@@ -187,17 +187,19 @@ func TestSplitmix64(t *testing.T) {
 // TestGeometry checks derive on the Sun and Earth against the check values of
 // REFERENCES.md §4 (computed there from Winn 2010 and IAU 2015 B3 nominal values): for
 // P = 365.25 d, circular, b = 0, k = 0.0091679: a/R* = 215.029, T14 = 13.095 h,
-// T23 = 12.857 h.
+// T23 = 12.857 h. Without limb darkening the depth at b = 0 is exactly k² (Mandel & Agol
+// 2002, uniform source with the planet inside the disc).
 func TestGeometry(t *testing.T) {
 	sun := star{Radius: 1, Mass: 1}
 	earth := planet{Period: 365.25, Depth: 0.0091679 * 0.0091679, Impact: 0}
-	earth.derive(&sun)
+	earth.derive(&sun, 0)
 	tests := []struct {
 		name      string
 		got, want float64
 		tol       float64
 	}{
 		{"a over R star is 215.029", earth.ARs, 215.029, 0.001},
+		{"the Sun's density is 1409.78 kg per cubic metre", sun.density(), 1409.78, 0.01},
 		{"the radius ratio comes back from the depth without limb darkening", earth.K, 0.0091679, 1e-10},
 		{"T14 is 13.095 hours", earth.T14 * 24, 13.095, 0.001},
 		{"T23 is 12.857 hours", earth.T23 * 24, 12.857, 0.001},
@@ -210,13 +212,15 @@ func TestGeometry(t *testing.T) {
 		})
 	}
 
-	// The model's transit must last exactly the duration in truth.json and be exactly
-	// Depth deep at mid-transit. The edge is found by bisection on the model itself.
-	s := fw3318
-	for _, p := range planetsOf(&s) {
+	// Each planet's deficit at mid-transit must be its undiluted depth, the diluted depth
+	// times 1 + F_c/F_t (REFERENCES §14), and the transit must last exactly T14. The edge
+	// is found by bisection on the model itself.
+	s, c := fw3318, fw3318B
+	f := c.fluxRatio()
+	for _, p := range planetsOf(&s, &c) {
 		t.Run("planet "+p.Name+"'s model matches its stated depth and duration", func(t *testing.T) {
-			if got := p.deficit(&s, p.Epoch); math.Abs(got-p.Depth) > 1e-12 {
-				t.Errorf("deficit at mid-transit %.9f, want %.9f", got, p.Depth)
+			if got := p.deficit(&s, p.Epoch); math.Abs(got-p.Depth*(1+f)) > 1e-12 {
+				t.Errorf("deficit at mid-transit %.9f, want %.9f × (1 + %.5f)", got, p.Depth, f)
 			}
 			lo, hi := 0.0, p.T14 // deficit > 0 at lo, = 0 at hi
 			for range 60 {
@@ -230,6 +234,122 @@ func TestGeometry(t *testing.T) {
 			if math.Abs(2*lo-p.T14) > 1e-9 {
 				t.Errorf("model lasts %.9f d, T14 says %.9f d", 2*lo, p.T14)
 			}
+		})
+	}
+}
+
+// TestOccultedFlux holds the quadrature of occult.go to the Mandel & Agol (2002) closed
+// form: the check values of REFERENCES.md §2 (u1 = 0.4, u2 = 0.25; verified there against
+// an independent 30-digit radial integration), every case of their Table 1 included; and
+// to two values at this demo's limb darkening from an independent route, scipy's dblquad
+// over the planet's disc (python3-scipy 1.10.1; the script is quoted below).
+func TestOccultedFlux(t *testing.T) {
+	ma := limbDarkening{U1: 0.4, U2: 0.25}
+	tests := []struct {
+		name    string
+		k, z    float64
+		ld      limbDarkening
+		want    float64
+		tol     float64
+		reverse bool // want is the hidden light, 1 − flux
+	}{
+		{"a small planet at the centre", 0.1, 0, ma, 0.987890954717, 1e-11, false},
+		{"a small planet at z = k", 0.1, 0.1, ma, 0.987915612136, 1e-11, false},
+		{"a small planet half way out", 0.1, 0.5, ma, 0.988604498522, 1e-11, false},
+		{"a small planet touching the limb from inside", 0.1, 0.9, ma, 0.991803712203, 1e-11, false},
+		{"a small planet crossing the limb", 0.1, 0.95, ma, 0.994001442745, 1e-11, false},
+		{"a grazing planet mostly off the disc", 0.05, 1.02, ma, 0.999642302155, 1e-11, false},
+		{"a large planet covering the centre", 0.3, 0.1, ma, 0.892168630745, 1e-11, false},
+		{"a half-size planet inside", 0.5, 0.3, ma, 0.713276289437, 1e-11, false},
+		{"a half-size planet at z = one half", 0.5, 0.5, ma, 0.73198358118, 1e-11, false},
+		{"a half-size planet on the limb", 0.5, 0.7, ma, 0.792408925313, 1e-11, false},
+		{"a big planet over the centre", 0.7, 0.5, ma, 0.550204260893, 1e-11, false},
+		{"a big planet at z = k", 0.7, 0.7, ma, 0.651466831548, 1e-11, false},
+		{"a big planet on the limb", 0.7, 1.2, ma, 0.881738504877, 1e-11, false},
+		{"a body larger than the star hiding it all", 1.5, 0.2, ma, 0, 1e-11, false},
+		{"a body larger than the star hiding most of it", 1.5, 1.0, ma, 0.233219588842, 1e-11, false},
+		{"nothing hidden beyond first contact", 0.05, 1.06, ma, 1, 0, false},
+		// scipy golden: dblquad of I(r)·ρ over ρ ∈ [0, k], φ ∈ [0, 2π] in the planet's
+		// polar coordinates, divided by π(1 − u1/3 − u2/6), epsrel 1e-12:
+		//   x = z + ρ cos φ, y = ρ sin φ, I = 1 − u1(1−μ) − u2(1−μ)², μ = √(1 − x² − y²)
+		{"planet b's geometry at this star's limb darkening", 0.05, 0.32, fw3318.LD, 2.912745550175e-03, 1e-12, true},
+		{"planet c's geometry at this star's limb darkening", 0.03, 0.45, fw3318.LD, 1.026075223061e-03, 1e-12, true},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			got := occultedFlux(tc.z, tc.k, tc.ld)
+			if tc.reverse {
+				got = 1 - got
+			}
+			if math.Abs(got-tc.want) > tc.tol {
+				t.Errorf("k = %g, z = %g: got %.13f, want %.13f ± %g", tc.k, tc.z, got, tc.want, tc.tol)
+			}
+		})
+	}
+	t.Run("the Gauss-Legendre rule integrates even powers up to degree 2n-1 exactly", func(t *testing.T) {
+		// ∫_{−1}^{1} x^{2j} dx = 2/(2j+1) (elementary); an n-point rule is exact to degree 2n−1.
+		for j := 0; 2*j <= 2*occultNodes-1; j++ {
+			s := 0.0
+			for i, x := range glX {
+				s += glW[i] * math.Pow(x, float64(2*j))
+			}
+			if want := 2 / float64(2*j+1); math.Abs(s-want) > 1e-13 {
+				t.Errorf("∫x^%d: %.15f, want %.15f", 2*j, s, want)
+			}
+		}
+	})
+}
+
+// TestExposureIntegration compares the written model with a direct numerical quadrature
+// of the instantaneous light over the exposure window (composite Simpson rule on 2000
+// panels, whose error here is far below a ppm), at the row of each light curve whose
+// exposure holds a first contact of planet b, where the light bends most within one
+// exposure. The midpoint rule over subSamples instants must agree within 1 ppm (well
+// under the 300 ppm noise), and must differ from the light at mid-exposure (the smearing
+// it is there to model).
+func TestExposureIntegration(t *testing.T) {
+	d := build(t)
+	s, c := fw3318, fw3318B
+	f := c.fluxRatio()
+	b := d.planets[0]
+	for _, name := range []string{"main", "fast"} {
+		ser := d.series[name]
+		exposure := ser.Campaign.cadence()
+		t.Run("the "+name+" light curve averages the model over each exposure", func(t *testing.T) {
+			row := -1
+			for i, tm := range ser.Time {
+				contact := b.nearestMid(tm) - b.T14/2
+				if math.Abs(tm-contact) < exposure/4 {
+					row = i
+					break
+				}
+			}
+			if row < 0 {
+				t.Fatal("no exposure holds a first contact of planet b")
+			}
+			light := func(u float64) float64 {
+				_, l := instant(&s, f, ser.Spots, ser.Flares, d.planets, u)
+				return l
+			}
+			const panels = 2000
+			lo, h := ser.Time[row]-exposure/2, exposure/panels
+			sum := light(lo) + light(lo+exposure)
+			for j := 1; j < panels; j++ {
+				w := 2.0
+				if j%2 == 1 {
+					w = 4
+				}
+				sum += w * light(lo+float64(j)*h)
+			}
+			want := sum * h / 3 / exposure
+			if got := ser.Model[row]; math.Abs(got-want) > 1e-6 {
+				t.Errorf("row %d at %.5f: model %.9f, quadrature %.9f (%.2f ppm apart)", row, ser.Time[row], got, want, (got-want)*1e6)
+			}
+			if mid := light(ser.Time[row]); math.Abs(mid-want) < 50e-6 {
+				t.Errorf("row %d: the light at mid-exposure %.9f is within 50 ppm of the average %.9f; no smearing to test", row, mid, want)
+			}
+			t.Logf("row %d at %.5f: model − quadrature = %.3f ppm; smearing moves it %.0f ppm from mid-exposure",
+				row, ser.Time[row], (ser.Model[row]-want)*1e6, (light(ser.Time[row])-want)*1e6)
 		})
 	}
 }
@@ -471,6 +591,10 @@ func TestTruthFile(t *testing.T) {
 		{"lists planets b and c", len(d.truth.Planets) == 2 && d.truth.Planets[0].Name == "b" && d.truth.Planets[1].Name == "c"},
 		{"gives planet b a 3.7-day period and 2500 ppm", math.Abs(d.truth.Planets[0].PeriodD-3.7) < 0.05 && d.truth.Planets[0].DepthPPM == 2500},
 		{"gives planet c a 5.4-day period and 1000 ppm", math.Abs(d.truth.Planets[1].PeriodD-5.37) < 0.05 && d.truth.Planets[1].DepthPPM == 1000},
+		{"records diluted and undiluted depths", d.truth.Planets[0].DepthDilutedPPM == 2500 && d.truth.Planets[0].DepthUndilutedPPM > 2500},
+		{"records the radius ratios, impact parameters and a/R*", d.truth.Planets[0].RadiusRatio > 0.04 && d.truth.Planets[1].ImpactParameter == 0.45 && d.truth.Planets[1].AOverRstar > 20},
+		{"records the star's radius, mass and density", d.truth.Star.RadiusRsun == 0.45 && d.truth.Star.MassMsun == 0.447 && d.truth.Star.DensityGcm3 > 6.5},
+		{"records the diluting companion", d.truth.Companion.Name == "FW-3318 B" && d.truth.Companion.Dilutes && d.truth.Companion.FluxRatioBand > 0.02},
 		{"has durations between one and three hours", d.truth.Planets[0].DurationH > 1 && d.truth.Planets[1].DurationH < 3},
 		{"counts the rows of both files", d.truth.LightCurves[0].Rows == len(d.tables["main"].Time) && d.truth.LightCurves[1].Rows == len(d.tables["fast"].Time)},
 		{"lists the dozen flares of the main file", len(d.truth.LightCurves[0].Flares) == 12},
@@ -493,6 +617,196 @@ func TestReadmeShowsTheTruthTable(t *testing.T) {
 	if table := markdownTable(d.truth); !bytes.Contains(readme, []byte(table)) {
 		t.Errorf("README.md lacks the current truth table; paste the output of `go run ./examples/fernwell/generate -table`:\n%s", table)
 	}
+}
+
+// csvRows reads a small comma-separated table: a header of column names, then rows of as
+// many fields, each row a map from column name to field. Errors name the line.
+func csvRows(data []byte) ([]string, []map[string]string, error) {
+	lines := strings.Split(strings.TrimSuffix(string(data), "\n"), "\n")
+	if len(lines) == 0 || lines[0] == "" {
+		return nil, nil, fmt.Errorf("line 1: no header")
+	}
+	header := strings.Split(lines[0], ",")
+	var rows []map[string]string
+	for n, line := range lines[1:] {
+		f := strings.Split(line, ",")
+		if len(f) != len(header) {
+			return nil, nil, fmt.Errorf("line %d: %d fields, want %d", n+2, len(f), len(header))
+		}
+		row := map[string]string{}
+		for j, name := range header {
+			row[name] = f[j]
+		}
+		rows = append(rows, row)
+	}
+	return header, rows, nil
+}
+
+// num reads a numeric field of a table row, failing the test with the column named.
+func num(t *testing.T, row map[string]string, col string) float64 {
+	t.Helper()
+	v, err := strconv.ParseFloat(row[col], 64)
+	if err != nil {
+		t.Fatalf("row %s, column %s: %v", row["id"]+row["name"], col, err)
+	}
+	return v
+}
+
+// Mann et al. (2015, ApJ 804, 64) radius and Mann et al. (2019, ApJ 871, 63) mass from
+// absolute Ks, with the coefficients of REFERENCES.md §6 (from memory there; its check
+// values R(6.0) = 0.44430, M(6.0) = 0.4404 were verified from them and are tested below).
+func mannRadius(mk float64) float64 { return 1.9515 - 0.3520*mk + 0.01680*mk*mk }
+
+func mannMass(mk float64) float64 {
+	a := []float64{-0.642, -0.208, -8.43e-4, 7.87e-3, 1.42e-4, -2.13e-4}
+	x, s := mk-7.5, 0.0
+	for i := len(a) - 1; i >= 0; i-- {
+		s = s*x + a[i]
+	}
+	return math.Pow(10, s)
+}
+
+// absFromCatalogue is the host's absolute Ks from a catalogue row: the blended Ks with the
+// companion's light taken out (REFERENCES §14), then the distance modulus with the
+// parallax (REFERENCES §6).
+func absFromCatalogue(t *testing.T, row map[string]string, dKs float64) float64 {
+	ks := num(t, row, "ks") + 2.5*math.Log10(1+math.Pow(10, -0.4*dKs))
+	return ks + 5*math.Log10(num(t, row, "parallax")/1000) + 5
+}
+
+// radiusSigma is the radius uncertainty a Mann-relation estimate carries: the relation's
+// 2.89 % scatter and the propagated errors of Ks and parallax, in quadrature (common
+// practice).
+func radiusSigma(t *testing.T, row map[string]string) float64 {
+	mk := absFromCatalogue(t, row, fw3318B.DeltaKs)
+	r := mannRadius(mk)
+	sMK := math.Hypot(num(t, row, "ks_err"), 5/math.Ln10*num(t, row, "parallax_err")/num(t, row, "parallax"))
+	return math.Hypot(0.0289*r, (0.3520-2*0.01680*mk)*sMK)
+}
+
+func TestStarAndCatalogue(t *testing.T) {
+	d := build(t)
+	s := fw3318
+	byID := func(rows []map[string]string, id string) map[string]string {
+		for _, r := range rows {
+			if r["id"] == id {
+				return r
+			}
+		}
+		t.Fatalf("no row %s", id)
+		return nil
+	}
+	h1, rev1, err := csvRows(d.files["nearby_stars.csv"])
+	if err != nil {
+		t.Fatalf("nearby_stars.csv: %v", err)
+	}
+	h2, rev2, err := csvRows(d.files["nearby_stars_rev2.csv"])
+	if err != nil {
+		t.Fatalf("nearby_stars_rev2.csv: %v", err)
+	}
+	r1, r2 := byID(rev1, s.ID), byID(rev2, s.ID)
+	mk1, mk2 := absFromCatalogue(t, r1, fw3318B.DeltaKs), absFromCatalogue(t, r2, fw3318B.DeltaKs)
+	shift := (mannRadius(mk2) - mannRadius(mk1)) / radiusSigma(t, r1)
+	tests := []struct {
+		name string
+		ok   bool
+		got  any
+	}{
+		{"the Mann relations reproduce their check values", math.Abs(mannRadius(6)-0.44430) < 5e-6 && math.Abs(mannMass(6)-0.4404) < 5e-5,
+			[2]float64{mannRadius(6), mannMass(6)}},
+		{"the star's radius is Mann 2015's at its absolute Ks", math.Abs(s.Radius/mannRadius(s.AbsKs)-1) < 0.002, mannRadius(s.AbsKs)},
+		{"the star's mass is Mann 2019's at its absolute Ks", math.Abs(s.Mass/mannMass(s.AbsKs)-1) < 0.002, mannMass(s.AbsKs)},
+		{"the star's density is within 2 percent of the 7 g/cm3 the demo searches with", math.Abs(s.density()/7000-1) < 0.02, s.density()},
+		{"both revisions have the documented header", h1 != nil && strings.Join(h1, ",") == catalogueHeader && strings.Join(h2, ",") == catalogueHeader, h1},
+		{"both revisions list the same eight stars", len(rev1) == 8 && len(rev2) == 8, [2]int{len(rev1), len(rev2)}},
+		{"revision 1 with the companion taken out gives the star's radius within 1 percent",
+			math.Abs(mannRadius(mk1)/s.Radius-1) < 0.01, mannRadius(mk1)},
+		{"revision 2 raises the radius by between half and one sigma", shift > 0.5 && shift <= 1, shift},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			if !tc.ok {
+				t.Errorf("got %v", tc.got)
+			}
+		})
+	}
+	t.Run("revision 2 changes FW-3318's parallax and Ks, FW-2741's parallax, and nothing else", func(t *testing.T) {
+		changed := map[string]bool{
+			"FW-3318/parallax": true, "FW-3318/parallax_err": true, "FW-3318/ks": true, "FW-3318/ks_err": true,
+			"FW-2741/parallax": true, "FW-2741/parallax_err": true,
+		}
+		for i := range rev1 {
+			if rev1[i]["id"] != rev2[i]["id"] {
+				t.Fatalf("row %d: %s in revision 1, %s in revision 2", i+1, rev1[i]["id"], rev2[i]["id"])
+			}
+			for _, col := range h1 {
+				key := rev1[i]["id"] + "/" + col
+				if differ := rev1[i][col] != rev2[i][col]; differ != changed[key] {
+					t.Errorf("%s: %q in revision 1, %q in revision 2", key, rev1[i][col], rev2[i][col])
+				}
+			}
+		}
+	})
+	t.Logf("M_Ks rev1 %.4f → R %.4f; rev2 %.4f → R %.4f; σ_R %.4f; shift %.2f σ; blended Ks alone would give R %.4f",
+		mk1, mannRadius(mk1), mk2, mannRadius(mk2), radiusSigma(t, r1), shift,
+		mannRadius(num(t, r1, "ks")+5*math.Log10(num(t, r1, "parallax")/1000)+5))
+}
+
+func TestImagingTable(t *testing.T) {
+	d := build(t)
+	header, rows, err := csvRows(d.files["fw3318_imaging.csv"])
+	if err != nil {
+		t.Fatalf("fw3318_imaging.csv: %v", err)
+	}
+	if strings.Join(header, ",") != imagingHeader || len(rows) != 2 {
+		t.Fatalf("header %q, %d rows; want %q and 2 rows", header, len(rows), imagingHeader)
+	}
+	ks, band := rows[0], rows[1]
+	tests := []struct {
+		name      string
+		got, want float64
+		tol       float64
+	}{
+		{"the companion is 3.5 mag fainter in Ks", num(t, ks, "dmag"), 3.5, 1e-9},
+		{"the companion is 4.2 mag fainter in the light curve's band", num(t, band, "dmag"), 4.2, 1e-9},
+		{"both rows put it 1.2 arcsec away", num(t, ks, "separation") + num(t, band, "separation"), 2.4, 1e-9},
+		// F_c/F_t = 10^(−0.4 Δm) in the light curve's band (REFERENCES §14).
+		{"truth.json's flux ratio is the band row's", d.truth.Companion.FluxRatioBand, math.Pow(10, -0.4*num(t, band, "dmag")), 1e-12},
+		// δ_true = δ_obs (1 + F_c/F_t) (REFERENCES §14).
+		{"planet b's undiluted depth is its diluted depth times one plus the flux ratio",
+			d.truth.Planets[0].DepthUndilutedPPM, d.truth.Planets[0].DepthDilutedPPM * (1 + d.truth.Companion.FluxRatioBand), 1e-9},
+		{"planet c's undiluted depth is its diluted depth times one plus the flux ratio",
+			d.truth.Planets[1].DepthUndilutedPPM, d.truth.Planets[1].DepthDilutedPPM * (1 + d.truth.Companion.FluxRatioBand), 1e-9},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			if math.Abs(tc.got-tc.want) > tc.tol {
+				t.Errorf("got %.9g, want %.9g", tc.got, tc.want)
+			}
+		})
+	}
+	t.Run("the rows name the companion and the bands", func(t *testing.T) {
+		if ks["name"] != fw3318B.Name || band["name"] != fw3318B.Name || ks["band"] != "Ks" || band["band"] != lightCurveBand || d.truth.Band != lightCurveBand {
+			t.Errorf("rows %v and %v, truth band %q", ks, band, d.truth.Band)
+		}
+	})
+}
+
+func FuzzCSVRows(f *testing.F) {
+	f.Add([]byte(catalogueHeader + "\nFW-1,1,2,3,4,5,6,7,8,9,10\n"))
+	f.Add([]byte(imagingHeader + "\nB,Ks,3.5,0.1\n"))
+	f.Add([]byte(""))
+	f.Fuzz(func(t *testing.T, data []byte) {
+		header, rows, err := csvRows(data)
+		if err != nil {
+			return
+		}
+		for i, r := range rows {
+			if len(r) > len(header) {
+				t.Fatalf("row %d has %d fields, header %d", i+1, len(r), len(header))
+			}
+		}
+	})
 }
 
 func FuzzParseTable(f *testing.F) {

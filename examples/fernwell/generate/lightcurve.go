@@ -9,9 +9,10 @@ import (
 
 // subSamples is the number of instants averaged over one exposure. A 29.4-minute exposure
 // smears ingress, egress and flare rises; averaging the model over sub-exposures is the
-// remedy of Kipping (2010, MNRAS 408, 1758). 15 sub-samples of ~2 minutes resolve the
-// fastest feature here (a flare's rise of 2–8 minutes).
-const subSamples = 15
+// remedy of Kipping (2010, MNRAS 408, 1758). 30 sub-samples of about a minute keep the
+// average within a ppm of the exact exposure integral even across a contact point, where
+// the light bends most (TestExposureIntegration), and resolve a flare's rise of 2–8 minutes.
+const subSamples = 30
 
 // interval is a stretch of time [From, To), in days.
 type interval struct{ From, To float64 }
@@ -57,9 +58,12 @@ type series struct {
 	Flux     []float64 // as written, in FluxUnit; NaN in missing rows
 	Err      []float64 // one-sigma error of Flux; NaN in missing rows
 	Quality  []int     // 0 = good; otherwise one of the qualityBits
-	// Star is the spotted star alone (no planets, flares or noise), averaged over each
-	// exposure and scaled like Flux: the "local trend" the transits sit on.
-	Star   []float64
+	// Star is the spotted star and its companion (no planets, flares or noise), averaged
+	// over each exposure and scaled like Flux: the "local trend" the transits sit on.
+	Star []float64
+	// Model is the noise-free light of each row before scaling and defects: instant
+	// averaged over the exposure.
+	Model  []float64
 	Spots  []spot
 	Flares []flare
 	Gaps   []interval // the short random gaps (the gaps between Stretches come on top)
@@ -73,9 +77,10 @@ const (
 	qualityScattered = 8 // scattered light: extra background, flux too high
 )
 
-// simulate makes the light curve of campaign c for star s with the given planets. Every
-// random choice comes from seed through a stream named after c and the purpose.
-func simulate(seed uint64, s *star, planets []planet, c *campaign) *series {
+// simulate makes the light curve of campaign c for star s, with its companion comp (nil
+// for none) in the aperture and the given planets. Every random choice comes from seed
+// through a stream named after c and the purpose.
+func simulate(seed uint64, s *star, comp *companion, planets []planet, c *campaign) *series {
 	stream := func(purpose string) *splitmix64 { return newStream(seed, c.Name+"/"+purpose) }
 	out := &series{Campaign: c}
 
@@ -97,32 +102,26 @@ func simulate(seed uint64, s *star, planets []planet, c *campaign) *series {
 	out.Spots = drawSpots(stream("spots"), first, last)
 	out.Flares = drawFlares(stream("flares"), c.Flares, out.Time, planets)
 
-	// 3. The noise-free light, averaged over each exposure. A transit removes the same
-	//    fraction of light whatever the spots do, so the relative depth is exactly the
-	//    planet's Depth; flare light adds on top.
+	// 3. The noise-free light, averaged over each exposure by the midpoint rule over
+	//    subSamples instants (Kipping 2010): the same sub-exposure times as dipline's
+	//    transit model uses, t + exposure·((j+½)/n − ½).
 	n := len(out.Time)
-	model := make([]float64, n)
+	out.Model = make([]float64, n)
 	out.Star = make([]float64, n)
 	exposure := c.cadence()
+	dilution := comp.fluxRatio()
 	for i, t := range out.Time {
-		var star, total float64
+		var quiet, total float64
 		for j := 0; j < subSamples; j++ {
 			u := t + exposure*((float64(j)+0.5)/subSamples-0.5)
-			b := brightness(s, out.Spots, u)
-			transit := 1.0
-			for k := range planets {
-				transit -= planets[k].deficit(s, u)
-			}
-			light := 0.0
-			for k := range out.Flares {
-				light += out.Flares[k].light(u)
-			}
-			star += b
-			total += b*transit + light
+			q, l := instant(s, dilution, out.Spots, out.Flares, planets, u)
+			quiet += q
+			total += l
 		}
-		out.Star[i] = star / subSamples
-		model[i] = total / subSamples
+		out.Star[i] = quiet / subSamples
+		out.Model[i] = total / subSamples
 	}
+	model := out.Model
 
 	// 4. Scale to the file's unit and add white noise. The error of each point grows as
 	//    the square root of its flux, as photon noise does.
@@ -160,6 +159,27 @@ func simulate(seed uint64, s *star, planets []planet, c *campaign) *series {
 		out.Err[i] = math.NaN()
 	}
 	return out
+}
+
+// instant is the noise-free light at one instant u, relative to the unspotted host and
+// its companion together: quiet is the spotted host plus the companion, total adds the
+// planets' shadows on the host and the flares' light. With F_c/F_t = dilution,
+//
+//	total = (F_t·(spotted host × transits + flares) + F_c) / (F_t + F_c).
+//
+// A transit removes the same fraction of the host's light whatever the spots do (the
+// spots are assumed off the transit chord).
+func instant(s *star, dilution float64, spots []spot, flares []flare, planets []planet, u float64) (quiet, total float64) {
+	b := brightness(s, spots, u)
+	transit := 1.0
+	for k := range planets {
+		transit -= planets[k].deficit(s, u)
+	}
+	light := 0.0
+	for k := range flares {
+		light += flares[k].light(u)
+	}
+	return (b + dilution) / (1 + dilution), (b*transit + light + dilution) / (1 + dilution)
 }
 
 // drawGaps places c.ShortGaps interruptions inside the stretches, apart from each other

@@ -1,0 +1,481 @@
+// Package star is the star step kind: seeded joint Monte Carlo draws of a host star's
+// radius, mass, effective temperature, luminosity, surface gravity, mean density and
+// distance, by one of four methods — the cool-dwarf relations in absolute Ks magnitude
+// (Mann et al. 2015 radius, Mann et al. 2019 mass), the Stefan–Boltzmann law from a
+// bolometric flux or luminosity and Teff, a transfer from a benchmark star with measured
+// radius and mass along the slopes of those relations, or values given directly. Inputs come
+// from the block as measurements ("35.21 ± 0.04 mas") or from a catalogue row; companions
+// measured in Ks are removed from a blended Ks.
+//
+// Main entry points: Kind (the engine registers it) and Draw (the library call: plain values
+// in, draws out, knowing nothing of workflow files; Kind adapts a block and its row to it).
+// The relations themselves are in steps/internal/astro. The artifact gives its draws
+// through stellar.StarSource. It does not fit spectra or isochrones, correct for
+// extinction, or put a prior on distance.
+package star
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"slices"
+	"strings"
+
+	"dipline/steps"
+	"dipline/steps/internal/stellar"
+	"dipline/steps/units"
+)
+
+// Kind is the star step kind.
+type Kind struct{}
+
+// version is bumped whenever the numbers or the encoding change.
+const version = 1
+
+// defaultDraws gives Monte Carlo errors of the median near 1 % of σ (√(π/2)/√N ≈ 0.009 for
+// N = 20000), well below the quoted precision of any input.
+const defaultDraws = 20000
+
+// Bounds of the draws attribute: fewer than 1000 draws make the 16–84 % range noisy at the
+// 3 % level; more than a million only grow the store.
+const minDraws, maxDrawsAttr = 1000, 1000000
+
+// defaultTransferPerMag is the benchmark method's extra fractional uncertainty per magnitude
+// of |ΔM_Ks|: 5 %/mag, i.e. 1.5 % for a 0.3 mag difference, about half the relations'
+// scatter between single stars (our judgement: the transfer assumes the benchmark and the
+// target sit alike about the relation, which holds better for closer analogs).
+const defaultTransferPerMag = 0.05
+
+// Metallicity and SurfaceGravity are the dimensions of [Fe/H] and log g, both in dex.
+var (
+	Metallicity    = &units.Dimension{Name: "metallicity [Fe/H]", Base: "dex", Units: map[string]float64{"dex": 1}}
+	SurfaceGravity = &units.Dimension{Name: "surface gravity log10(g / cm s^-2)", Base: "dex", Units: map[string]float64{"dex": 1}}
+)
+
+// Name is the block type.
+func (Kind) Name() string { return "star" }
+
+// Version is the kind's version.
+func (Kind) Version() int { return version }
+
+// Random is true: the draws come from the step's seed.
+func (Kind) Random() bool { return true }
+
+// Doc is one sentence for the kinds listing.
+func (Kind) Doc() string {
+	return "Draws the host star's radius, mass, Teff, luminosity, log g, density and distance jointly from its measurements, by the M-dwarf absolute-Ks relations of Mann et al. (2015, 2019), the Stefan–Boltzmann law, a transfer from a benchmark star of measured radius and mass, or values given directly."
+}
+
+// Params is the block's schema.
+func (Kind) Params() []steps.Param {
+	return []steps.Param{
+		{Name: "method", Type: steps.String, Choices: Methods,
+			Doc: "how R and M are obtained: \"cool-dwarf\" (M dwarfs, K7–M7: Mann et al. 2015 radius and Mann et al. 2019 mass from the absolute Ks magnitude), \"stefan-boltzmann\" (R from a bolometric flux and distance, or a luminosity, and Teff; M given or from Torres et al. 2010), \"benchmark\" (a star of measured R and M moved along the Mann relations by the measured ΔM_Ks), or \"given\" (R and M as measured)"},
+		{Name: "row", Type: steps.CatalogueRow, Optional: true,
+			Doc: "the star's catalogue row, e.g. catalogue.nearby[\"FW-3318\"]; columns parallax, parallax_err (mas), ks, ks_err, j, j_err, v, v_err (mag), teff, teff_err (K), feh, feh_err (dex), fbol, fbol_err (W/m2) are read as the method needs; a value written in this block wins over the row's"},
+		{Name: "companions", Type: steps.Ref, Kinds: []string{"companions"}, Optional: true,
+			Doc: "stars near the target (cool-dwarf method): those measured in Ks are taken as blended into the catalogue Ks and removed from it, m_host = m_blend + 2.5 log10(1 + Σ 10^(−0.4 ΔKs)); those in other bands are listed but not used"},
+		{Name: "parallax", Type: steps.Measurement, Dim: units.Angle, Optional: true,
+			Doc: "trigonometric parallax, e.g. \"35.21 ± 0.04 mas\"; the distance is 1/parallax (no prior, no extinction); cool-dwarf needs it, stefan-boltzmann with fbol needs it or distance"},
+		{Name: "distance", Type: steps.Measurement, Dim: units.Distance, Optional: true,
+			Doc: "distance, in place of a parallax (not for cool-dwarf), e.g. \"28.4 ± 0.1 pc\""},
+		{Name: "ks", Type: steps.Measurement, Dim: units.Magnitude, Optional: true,
+			Doc: "apparent Ks magnitude (2MASS system), the blend of the host and any companions, e.g. \"8.62 ± 0.02 mag\"; cool-dwarf needs it, other methods carry it for the spectroscopy metrics"},
+		{Name: "j", Type: steps.Measurement, Dim: units.Magnitude, Optional: true,
+			Doc: "apparent J magnitude; carried for the spectroscopy metrics, and with v gives Teff from V−J in cool-dwarf when teff is absent"},
+		{Name: "v", Type: steps.Measurement, Dim: units.Magnitude, Optional: true,
+			Doc: "apparent V magnitude; with j gives Teff from the Mann et al. (2015) V−J relation (coefficients from memory) in cool-dwarf when teff is absent"},
+		{Name: "teff", Type: steps.Measurement, Dim: units.Temperature, Optional: true,
+			Doc: "effective temperature, e.g. \"3350 ± 70 K\"; required by stefan-boltzmann, optional elsewhere (without it the luminosity is not given)"},
+		{Name: "feh", Type: steps.Measurement, Dim: Metallicity, Optional: true,
+			Doc: "metallicity [Fe/H], e.g. \"-0.12 ± 0.08 dex\"; cool-dwarf then uses the Mann et al. (2015) relation with its [Fe/H] term, stefan-boltzmann uses it in the Torres et al. (2010) mass"},
+		{Name: "fbol", Type: steps.Measurement, Dim: units.Irradiance, Optional: true,
+			Doc: "bolometric flux at Earth, e.g. \"1.32e-10 ± 0.04e-10 W/m2\" (stefan-boltzmann, with a parallax or distance, unless luminosity is given)"},
+		{Name: "luminosity", Type: steps.Measurement, Dim: units.Luminosity, Optional: true,
+			Doc: "bolometric luminosity, e.g. \"0.021 ± 0.001 L_sun\" (stefan-boltzmann, in place of fbol)"},
+		{Name: "logg", Type: steps.Measurement, Dim: SurfaceGravity, Optional: true,
+			Doc: "spectroscopic log g in cgs, e.g. \"4.45 ± 0.10 dex\"; stefan-boltzmann without a mass takes the mass from Teff, log g and [Fe/H] by Torres et al. (2010); the reported log g then follows from that mass and the radius"},
+		{Name: "radius", Type: steps.Measurement, Dim: units.Radius, Optional: true,
+			Doc: "stellar radius as measured (given method), e.g. \"0.392 ± 0.004 R_sun\""},
+		{Name: "mass", Type: steps.Measurement, Dim: units.Mass, Optional: true,
+			Doc: "stellar mass as measured (given method, or stefan-boltzmann), e.g. \"0.39 ± 0.02 M_sun\""},
+		{Name: "benchmark_radius", Type: steps.Measurement, Dim: units.Radius, Optional: true,
+			Doc: "benchmark method: the benchmark star's directly measured radius (e.g. interferometric)"},
+		{Name: "benchmark_mass", Type: steps.Measurement, Dim: units.Mass, Optional: true,
+			Doc: "benchmark method: the benchmark star's measured mass (e.g. from a binary orbit)"},
+		{Name: "benchmark_abs_k", Type: steps.Measurement, Dim: units.Magnitude, Optional: true,
+			Doc: "benchmark method: the benchmark's absolute Ks magnitude, where the relations' slopes d ln R/dM_Ks and d ln M/dM_Ks are taken"},
+		{Name: "delta_abs_k", Type: steps.Measurement, Dim: units.Magnitude, Optional: true,
+			Doc: "benchmark method: absolute Ks of the target minus that of the benchmark, e.g. \"0.31 ± 0.03 mag\""},
+		{Name: "benchmark_teff", Type: steps.Measurement, Dim: units.Temperature, Optional: true,
+			Doc: "benchmark method: the benchmark's Teff; with delta_teff gives the target's Teff (or give teff directly)"},
+		{Name: "delta_teff", Type: steps.Measurement, Dim: units.Temperature, Optional: true,
+			Doc: "benchmark method: Teff of the target minus that of the benchmark"},
+		{Name: "transfer_uncertainty", Type: steps.Number, Default: defaultTransferPerMag,
+			Doc: "benchmark method: extra fractional uncertainty of the transfer per magnitude of |ΔM_Ks|, drawn on R and M (0.05: 1.5 % at 0.3 mag; none for an identical twin)"},
+		{Name: "allow_extrapolation", Type: steps.Bool, Default: false,
+			Doc: "continue a Mann relation's polynomial past its absolute-Ks range (radius 4.6–9.8, mass 4.0–11.0 mag) with a warning, instead of refusing the star"},
+		{Name: "relation_scatter", Type: steps.Bool, Default: true,
+			Doc: "draw each empirical relation's scatter per sample (Mann 2015 radius 2.89 %, or 2.70 % with [Fe/H]; Mann 2019 mass 2 %; Torres 2010 mass 0.027 dex; V−J Teff 55 K); false propagates the measurement errors alone"},
+		{Name: "draws", Type: steps.Integer, Default: int64(defaultDraws),
+			Doc: "number of joint draws; the derive step pairs them with a fit's posterior samples"},
+	}
+}
+
+// rowColumns are the quantities a catalogue row can give, each with its error column
+// "<name>_err", in the units the row parameter's doc names.
+var rowColumns = []string{"parallax", "ks", "j", "v", "teff", "feh", "fbol"}
+
+// Config is the decoded configuration of one star block.
+type Config struct {
+	Method             string
+	Draws              int
+	Scatter            bool
+	AllowExtrapolation bool
+	TransferPerMag     float64
+	// HasRow and HasCompanions say whether the row and companions attributes are set.
+	HasRow, HasCompanions bool
+	// Inline holds the measurements written in the block, by attribute name, in the units of
+	// Input (parallax in mas).
+	Inline map[string]Measured
+	// Required and Optional are the row columns read (with their _err columns).
+	Required, Optional []string
+}
+
+// Columns lists the catalogue columns the step reads from its row: the method's needed
+// quantities not written in the block are required (value and error), the others it can use
+// optional. Nothing is read for any other parameter.
+func (c Config) Columns(param string) (required, optional []string) {
+	if param != "row" || !c.HasRow {
+		return nil, nil
+	}
+	for _, q := range c.Required {
+		required = append(required, q, q+"_err")
+	}
+	for _, q := range c.Optional {
+		optional = append(optional, q, q+"_err")
+	}
+	return required, optional
+}
+
+var _ steps.ColumnReader = Config{}
+
+// methodAttrs lists per method the measurement attributes it accepts.
+var methodAttrs = map[string][]string{
+	MethodCoolDwarf:       {"parallax", "ks", "j", "v", "teff", "feh"},
+	MethodStefanBoltzmann: {"parallax", "distance", "ks", "j", "v", "teff", "feh", "fbol", "luminosity", "logg", "mass"},
+	MethodBenchmark:       {"parallax", "distance", "ks", "j", "v", "teff", "benchmark_radius", "benchmark_mass", "benchmark_abs_k", "delta_abs_k", "benchmark_teff", "delta_teff"},
+	MethodGiven:           {"parallax", "distance", "ks", "j", "v", "teff", "radius", "mass"},
+}
+
+// allMeasurements lists every measurement attribute.
+var allMeasurements = []string{"parallax", "distance", "ks", "j", "v", "teff", "feh", "fbol", "luminosity", "logg",
+	"radius", "mass", "benchmark_radius", "benchmark_mass", "benchmark_abs_k", "delta_abs_k", "benchmark_teff", "delta_teff"}
+
+// inlineUnit is the unit of each measurement attribute as held in Config.Inline.
+var inlineUnit = map[string]string{"parallax": "mas", "distance": "pc", "ks": "mag", "j": "mag", "v": "mag", "teff": "K",
+	"feh": "dex", "fbol": "W/m2", "luminosity": "L_sun", "logg": "dex", "radius": "R_sun", "mass": "M_sun",
+	"benchmark_radius": "R_sun", "benchmark_mass": "M_sun", "benchmark_abs_k": "mag", "delta_abs_k": "mag",
+	"benchmark_teff": "K", "delta_teff": "K"}
+
+// positiveAttrs must have a positive value.
+var positiveAttrs = map[string]bool{"parallax": true, "distance": true, "teff": true, "fbol": true, "luminosity": true,
+	"radius": true, "mass": true, "benchmark_radius": true, "benchmark_mass": true, "benchmark_teff": true}
+
+// Prepare checks the values and builds a Config.
+func (Kind) Prepare(v steps.Values) (any, error) {
+	c := Config{
+		Method:             v.Str("method"),
+		Scatter:            v.Bool("relation_scatter"),
+		AllowExtrapolation: v.Bool("allow_extrapolation"),
+		TransferPerMag:     v.Float("transfer_uncertainty"),
+		HasRow:             v.Has("row") && v.Str("row") != "",
+		HasCompanions:      v.Has("companions") && v.Str("companions") != "",
+		Inline:             map[string]Measured{},
+	}
+	if !slices.Contains(Methods, c.Method) {
+		return nil, steps.Attrf("method", "must be one of %s, not %q", strings.Join(Methods, ", "), c.Method)
+	}
+	n := v.Int("draws")
+	if n < minDraws || n > maxDrawsAttr {
+		return nil, steps.Attrf("draws", "must be between %d and %d, not %d", minDraws, maxDrawsAttr, n)
+	}
+	c.Draws = int(n)
+	if !(c.TransferPerMag >= 0 && c.TransferPerMag <= 1) {
+		return nil, steps.Attrf("transfer_uncertainty", "must be a fraction per magnitude between 0 and 1, not %v", c.TransferPerMag)
+	}
+	accepted := methodAttrs[c.Method]
+	for _, name := range allMeasurements {
+		if !v.Has(name) {
+			continue
+		}
+		if !slices.Contains(accepted, name) {
+			return nil, steps.Attrf(name, "is not used by the %s method (it reads %s)", c.Method, strings.Join(accepted, ", "))
+		}
+		val, sig := v.Measurement(name)
+		if math.IsNaN(val) || math.IsInf(val, 0) || math.IsNaN(sig) || math.IsInf(sig, 0) || sig < 0 {
+			return nil, steps.Attrf(name, "must be a finite value with a non-negative error, not %v ± %v", val, sig)
+		}
+		if positiveAttrs[name] && !(val > 0) {
+			return nil, steps.Attrf(name, "must be positive, not %v", val)
+		}
+		if name == "parallax" {
+			val, sig = val*1000, sig*1000 // arcsec → mas
+		}
+		c.Inline[name] = Measured{Value: val, Sigma: sig, Where: "attribute " + name}
+	}
+	if c.HasCompanions && c.Method != MethodCoolDwarf {
+		return nil, steps.Attrf("companions", "only the cool-dwarf method corrects the host's Ks for companions; the %s method does not use them", c.Method)
+	}
+	if c.Method != MethodBenchmark && v.Has("transfer_uncertainty") && c.TransferPerMag != defaultTransferPerMag {
+		return nil, steps.Attrf("transfer_uncertainty", "is used only by the benchmark method")
+	}
+	if err := c.plan(); err != nil {
+		return nil, err
+	}
+	return c, nil
+}
+
+// has reports whether an attribute was written in the block.
+func (c *Config) has(name string) bool { _, ok := c.Inline[name]; return ok }
+
+// need adds a row quantity: from the row when not written in the block; when there is no
+// row either, a required quantity is an error naming the attribute, with why.
+func (c *Config) need(q string, required bool, why string) error {
+	if c.has(q) {
+		return nil
+	}
+	if !c.HasRow {
+		if required {
+			return steps.Attrf(q, "the %s method needs %s: write it here or give a catalogue row (attribute row) with columns %s and %s_err", c.Method, why, q, q)
+		}
+		return nil
+	}
+	if required {
+		c.Required = append(c.Required, q)
+	} else {
+		c.Optional = append(c.Optional, q)
+	}
+	return nil
+}
+
+// plan decides, per method, which quantities are required and which optional, checks that
+// the required inline-only ones are written, and sets the row columns.
+func (c *Config) plan() error {
+	inlineOnly := func(names ...string) error {
+		for _, n := range names {
+			if !c.has(n) {
+				return steps.Attrf(n, "the %s method needs %s", c.Method, n)
+			}
+		}
+		return nil
+	}
+	both := func(a, b string) error {
+		if c.has(a) && c.has(b) {
+			return steps.Attrf(b, "give %s or %s, not both", a, b)
+		}
+		return nil
+	}
+	if err := both("parallax", "distance"); err != nil {
+		return err
+	}
+	mags := func() error {
+		for _, q := range []string{"ks", "j", "v"} {
+			if err := c.need(q, false, ""); err != nil {
+				return err
+			}
+		}
+		return nil
+	}
+	distance := func(required bool) error {
+		if c.has("distance") {
+			return nil
+		}
+		return c.need("parallax", required, "a parallax (or distance)")
+	}
+	var err error
+	switch c.Method {
+	case MethodCoolDwarf:
+		if err = c.need("parallax", true, "a parallax"); err != nil {
+			return err
+		}
+		if err = c.need("ks", true, "an apparent Ks magnitude"); err != nil {
+			return err
+		}
+		if !c.has("teff") && !c.HasRow && !(c.has("v") && c.has("j")) {
+			return steps.Attrf("teff", "the cool-dwarf method needs teff, or v and j for the Mann et al. (2015) V−J relation, or a catalogue row with them")
+		}
+		for _, q := range []string{"teff", "feh", "j", "v"} {
+			if err = c.need(q, false, ""); err != nil {
+				return err
+			}
+		}
+	case MethodStefanBoltzmann:
+		if err = c.need("teff", true, "an effective temperature"); err != nil {
+			return err
+		}
+		if err = both("fbol", "luminosity"); err != nil {
+			return err
+		}
+		if !c.has("luminosity") {
+			if err = c.need("fbol", true, "a bolometric flux fbol (with a parallax or distance) or a luminosity"); err != nil {
+				return err
+			}
+			if err = distance(true); err != nil {
+				return err
+			}
+		} else if err = distance(false); err != nil {
+			return err
+		}
+		if err = both("mass", "logg"); err != nil {
+			return err
+		}
+		if !c.has("mass") && !c.has("logg") {
+			return steps.Attrf("mass", "the stefan-boltzmann method needs a mass: write mass, or logg (with teff, and feh if known) for the Torres et al. (2010) relation")
+		}
+		if !c.has("mass") {
+			if err = c.need("feh", false, ""); err != nil {
+				return err
+			}
+		} else if c.has("feh") {
+			return steps.Attrf("feh", "is used by the stefan-boltzmann method only for the Torres et al. (2010) mass, and the mass is given")
+		}
+		err = mags()
+	case MethodBenchmark:
+		if err = inlineOnly("benchmark_radius", "benchmark_mass", "benchmark_abs_k", "delta_abs_k"); err != nil {
+			return err
+		}
+		if c.has("benchmark_teff") != c.has("delta_teff") {
+			return steps.Attrf("delta_teff", "benchmark_teff and delta_teff go together: the target's Teff is their sum")
+		}
+		if err = both("teff", "delta_teff"); err != nil {
+			return err
+		}
+		if !c.has("delta_teff") {
+			if err = c.need("teff", false, ""); err != nil {
+				return err
+			}
+		}
+		if err = distance(false); err != nil {
+			return err
+		}
+		err = mags()
+	case MethodGiven:
+		if err = inlineOnly("radius", "mass"); err != nil {
+			return err
+		}
+		if err = c.need("teff", false, ""); err != nil {
+			return err
+		}
+		if err = distance(false); err != nil {
+			return err
+		}
+		err = mags()
+	}
+	return err
+}
+
+// Run draws the star.
+func (Kind) Run(ctx context.Context, cfgAny any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
+	cfg, ok := cfgAny.(Config)
+	if !ok {
+		return nil, fmt.Errorf("star: configuration of type %T", cfgAny)
+	}
+	if err := ctx.Err(); err != nil {
+		return nil, err
+	}
+	input, notes, err := cfg.resolve(in)
+	if err != nil {
+		return nil, err
+	}
+	res, err := Draw(input, Options{Method: cfg.Method, Draws: cfg.Draws, Seed: env.Seed, Scatter: cfg.Scatter,
+		AllowExtrapolation: cfg.AllowExtrapolation, TransferPerMag: cfg.TransferPerMag})
+	if err != nil {
+		return nil, err
+	}
+	for _, n := range append(notes, res.Notes...) {
+		env.Note("%s", n)
+	}
+	return &Artifact{Method: cfg.Method, Basis: res.Basis, Star: res.Star}, nil
+}
+
+// resolve builds the Input from the block's measurements, the row and the companions.
+func (c Config) resolve(in steps.Inputs) (Input, []string, error) {
+	var notes []string
+	var row steps.Row
+	if c.HasRow {
+		r, ok := in.Rows["row"]
+		if !ok {
+			return Input{}, nil, fmt.Errorf("star: the catalogue row was not handed to the step")
+		}
+		row = r
+	}
+	got := map[string]*Measured{}
+	for _, name := range allMeasurements {
+		m, ok := c.Inline[name]
+		if !ok {
+			continue
+		}
+		if m.Sigma == 0 {
+			notes = append(notes, fmt.Sprintf("%s = %g %s has no error and is taken as exact", name, m.Value, inlineUnit[name]))
+		}
+		got[name] = &m
+	}
+	fromRow := func(q string, required bool) error {
+		v, ok := row.Get(q)
+		if !ok {
+			if required {
+				return steps.BadInputf("%s: %s is blank; the %s method needs it", row.Where(q), q, c.Method)
+			}
+			return nil
+		}
+		e, eok := row.Get(q + "_err")
+		switch {
+		case math.IsNaN(v) || math.IsInf(v, 0):
+			return steps.BadInputf("%s: %s is %v", row.Where(q), q, v)
+		case positiveAttrs[q] && !(v > 0):
+			return steps.BadInputf("%s: %s is %v; it must be positive", row.Where(q), q, v)
+		case !eok:
+			return steps.BadInputf("%s: %s is given (%v) but its error is blank", row.Where(q+"_err"), q, v)
+		case !(e > 0) || math.IsInf(e, 0):
+			return steps.BadInputf("%s: the error of %s is %v; it must be positive", row.Where(q+"_err"), q, e)
+		}
+		got[q] = &Measured{Value: v, Sigma: e, Where: row.Where(q)}
+		return nil
+	}
+	if c.HasRow {
+		for _, q := range c.Required {
+			if err := fromRow(q, true); err != nil {
+				return Input{}, nil, err
+			}
+		}
+		for _, q := range c.Optional {
+			if err := fromRow(q, false); err != nil {
+				return Input{}, nil, err
+			}
+		}
+	}
+	x := Input{
+		Parallax: got["parallax"], Ks: got["ks"], J: got["j"], V: got["v"], Teff: got["teff"], FeH: got["feh"],
+		Fbol: got["fbol"], Luminosity: got["luminosity"], LogG: got["logg"], Radius: got["radius"], Mass: got["mass"],
+		Distance: got["distance"], BenchRadius: got["benchmark_radius"], BenchMass: got["benchmark_mass"],
+		BenchAbsK: got["benchmark_abs_k"], BenchTeff: got["benchmark_teff"], DeltaAbsK: got["delta_abs_k"],
+		DeltaTeff: got["delta_teff"],
+	}
+	if c.Method == MethodCoolDwarf && x.Teff == nil && (x.V == nil || x.J == nil) {
+		return Input{}, nil, steps.BadInputf("%s: teff is blank, and without teff the cool-dwarf method needs v and j (Mann et al. 2015 V−J relation)", row.Where("teff"))
+	}
+	if c.HasCompanions {
+		src, ok := in.Ref("companions").(stellar.CompanionSource)
+		if !ok {
+			return Input{}, nil, fmt.Errorf("star: companions does not refer to a step that lists companions")
+		}
+		for _, cp := range src.CompanionList() {
+			if math.IsNaN(cp.DMag) || math.IsInf(cp.DMag, 0) || !(cp.DMagErr >= 0) || math.IsInf(cp.DMagErr, 0) {
+				return Input{}, nil, steps.BadInputf("companions: %s has Δm %v ± %v", cp.Name, cp.DMag, cp.DMagErr)
+			}
+			x.Companions = append(x.Companions, cp)
+		}
+	}
+	return x, notes, nil
+}
