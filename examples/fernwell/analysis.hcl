@@ -38,3 +38,29 @@ search "dips" {
   light_curve  = detrend.masked
   star_density = "7 g/cm3"
 }
+
+# The host star. Its parallax and Ks come from the (invented) catalogue of nearby stars;
+# only the values this step reads enter its key, so a revision of another star's row, or
+# of a column it does not read, re-runs nothing.
+catalogue "nearby" {
+  file = "data/nearby_stars.csv"
+}
+
+# Stars near FW-3318 found by high-resolution imaging (invented).
+companions "imaging" {
+  file = "data/fw3318_imaging.csv"
+}
+
+star "host" {
+  method     = "cool-dwarf"
+  row        = catalogue.nearby["FW-3318"]
+  companions = companions.imaging # the catalogue's Ks is a blend with the companion
+}
+
+# How much the companion's light dilutes the transits, per hypothesis on which star the
+# planets orbit.
+dilution "aperture" {
+  light_curve = photometry.survey
+  companions  = companions.imaging
+  star        = star.host
+}

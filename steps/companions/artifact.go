@@ -103,11 +103,20 @@ func (l *List) check() error {
 // Figures lists the number of companions and, per companion, its magnitude difference and
 // separation (and radius when given), named by FigureName of the companion's name.
 func (l *List) Figures() []steps.Figure {
-	figs := []steps.Figure{{Name: "count", Value: float64(len(l.Companions)), Doc: "companions listed (0: imaging found none)"}}
+	names := map[string]bool{}
+	for _, c := range l.Companions {
+		names[FigureName(c.Name)] = true
+	}
+	figs := []steps.Figure{{Name: "count", Value: float64(len(names)), Doc: "companions listed (0: imaging found none); one may be measured in several bands"}}
+	shown := map[string]bool{}
 	for _, c := range l.Companions {
 		p := FigureName(c.Name) + "."
-		figs = append(figs, steps.Figure{Name: p + "dmag", Value: c.DMag, Sigma: c.DMagErr, Unit: "mag",
+		figs = append(figs, steps.Figure{Name: p + "dmag_" + FigureName(c.Band), Value: c.DMag, Sigma: c.DMagErr, Unit: "mag",
 			Doc: fmt.Sprintf("magnitude of %s minus the target's, in band %s", c.Name, c.Band)})
+		if shown[p] {
+			continue // separation and radius once per companion
+		}
+		shown[p] = true
 		if !math.IsNaN(c.Separation) {
 			figs = append(figs, steps.Figure{Name: p + "separation", Value: c.Separation, Unit: "arcsec",
 				Doc: fmt.Sprintf("angular separation of %s from the target", c.Name)})

@@ -119,8 +119,8 @@ func TestBadTablesAreRefusedWithTheirPlace(t *testing.T) {
 			`imaging.csv:1: no column "dmag_err" for the dmag_err`},
 		{"a short row is refused", head + "B,Ks,1,0.1\n",
 			"imaging.csv:2: 4 fields, but the header has 5 columns"},
-		{"a repeated name is refused", head + "B,Ks,1,0.1,0.2\nb,Ks,2,0.1,0.3\n",
-			`imaging.csv:3, column name: companion "b" has the same name`},
+		{"a repeated name in the same band is refused", head + "B,Ks,1,0.1,0.2\nb,ks,2,0.1,0.3\n",
+			`imaging.csv:3, column name: companion "b" in band ks appears already on line 2`},
 		{"the name target is refused", head + "Target,Ks,1,0.1,0.2\n",
 			`imaging.csv:2, column name: "Target" names the target itself`},
 		{"a negative separation is refused", head + "B,Ks,1,0.1,-2\n",
@@ -212,8 +212,8 @@ func TestFiguresNameEachCompanion(t *testing.T) {
 		name         string
 		value, sigma float64
 	}{
-		{"count", 2, 0}, {"b.dmag", 1.52, 0.05}, {"b.separation", 0.41, 0}, {"b.radius", 0.31, 0.02},
-		{"c_2.dmag", 3.90, 0.12}, {"c_2.separation", 1.87, 0},
+		{"count", 2, 0}, {"b.dmag_ks", 1.52, 0.05}, {"b.separation", 0.41, 0}, {"b.radius", 0.31, 0.02},
+		{"c_2.dmag_ks", 3.90, 0.12}, {"c_2.separation", 1.87, 0},
 	}
 	for _, c := range checks {
 		f, ok := got[c.name]
@@ -282,4 +282,18 @@ func FuzzDecode(f *testing.F) {
 			t.Fatal("decoding and encoding the canonical bytes changed them")
 		}
 	})
+}
+
+func TestOneCompanionInTwoBands(t *testing.T) {
+	l, _, err := run(t, nil, "name,band,dmag,dmag_err,separation\nB,Ks,3.5,0.1,1.2\nB,survey-red,4.2,0.15,1.2\n")
+	if err != nil {
+		t.Fatal(err)
+	}
+	got := map[string]float64{}
+	for _, f := range l.Figures() {
+		got[f.Name] = f.Value
+	}
+	if got["count"] != 1 || got["b.dmag_ks"] != 3.5 || got["b.dmag_survey-red"] != 4.2 {
+		t.Errorf("figures %v: want one companion with Δm 3.5 in Ks and 4.2 in survey-red", got)
+	}
 }

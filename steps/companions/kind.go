@@ -113,7 +113,11 @@ func (Kind) Run(ctx context.Context, cfgAny any, in steps.Inputs, env steps.Env)
 	if len(list) == 0 {
 		env.Note("%s: no companion listed; the light is taken as the target's alone (imaging found no companion)", files[0].Name)
 	} else {
-		env.Note("%s: %d companion(s)", files[0].Name, len(list))
+		names := map[string]bool{}
+		for _, c := range list {
+			names[FigureName(c.Name)] = true
+		}
+		env.Note("%s: %d companion(s) in %d row(s)", files[0].Name, len(names), len(list))
 	}
 	return &List{Companions: list}, nil
 }

@@ -154,15 +154,16 @@ func Parse(file string, data []byte, cols Columns) ([]stellar.Companion, error) 
 		if strings.EqualFold(c.Name, "target") {
 			return nil, steps.BadInputf("%s: %q names the target itself in the dilution step; call the companion something else", at(FieldName), c.Name)
 		}
-		key := FigureName(c.Name)
-		if prev, dup := seen[key]; dup {
-			return nil, steps.BadInputf("%s: companion %q has the same name (up to case and punctuation) as the one on line %d", at(FieldName), c.Name, prev)
-		}
-		seen[key] = lineNo
 		c.Band = cell(FieldBand)
 		if c.Band == "" {
 			return nil, steps.BadInputf("%s: the band of dmag is missing", at(FieldBand))
 		}
+		// One companion may be measured in several bands, one row per band.
+		key := FigureName(c.Name) + "\x00" + FigureName(c.Band)
+		if prev, dup := seen[key]; dup {
+			return nil, steps.BadInputf("%s: companion %q in band %s appears already on line %d (same name and band, up to case and punctuation)", at(FieldName), c.Name, c.Band, prev)
+		}
+		seen[key] = lineNo
 		var (
 			blank bool
 			err   error

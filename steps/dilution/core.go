@@ -107,14 +107,11 @@ func Compute(cfg Config, in Input, seed uint64) (*Result, []string, error) {
 		return nil, nil, steps.BadInputf("light_curve: the light curve has no band, so the companions' magnitude differences cannot be matched to it; set band in the photometry step")
 	}
 
-	seen := map[string]bool{targetHost: true}
-	for _, c := range in.Companions {
-		key := companions.FigureName(c.Name)
-		if seen[key] {
-			return nil, nil, steps.BadInputf("companions: the name %q is used twice or names the target", c.Name)
-		}
-		seen[key] = true
+	comps, ksRows, err := perCompanion(in.Companions, in.Band, cfg.Relation)
+	if err != nil {
+		return nil, nil, err
 	}
+	in.Companions = comps
 
 	// Δm of every companion in the light curve's band, and the native draws (for radii).
 	nc := len(in.Companions)
@@ -201,7 +198,16 @@ func Compute(cfg Config, in Input, seed uint64) (*Result, []string, error) {
 			fr[i] = others / ratio[j][i]
 		}
 		h := stellar.Hypothesis{Host: c.Name, FluxRatio: fr}
-		rs, src, err := radiusScale(c, native[j], rt, mk, seed, j)
+		rc, nat := c, native[j]
+		if ks, ok := ksRows[j]; ok && !isKs(c.Band) {
+			// The radius comes from the Δm in Ks, drawn on its own stream.
+			rc, nat = ks, make([]float64, n)
+			s := rng.Derive(seed, "dmag-ks", uint64(j))
+			for i := range nat {
+				nat[i] = ks.DMag + ks.DMagErr*s.Normal()
+			}
+		}
+		rs, src, err := radiusScale(rc, nat, rt, mk, seed, j)
 		if err != nil {
 			return nil, nil, err
 		}
@@ -292,4 +298,55 @@ func checkScale(rs []float64) error {
 		}
 	}
 	return nil
+}
+
+// perCompanion picks, for each companion (by name, in the order first listed), the row whose
+// magnitude difference sets its flux in the light curve's band: the row in that band, or
+// else the row in band_relation's source band. ksRows holds, by the same index, a row in Ks
+// when the chosen row is in another band, for estimating the companion's radius. A radius
+// given on any of a companion's rows is carried onto the chosen row.
+func perCompanion(list []stellar.Companion, band string, rel *BandRelation) (chosen []stellar.Companion, ksRows map[int]stellar.Companion, err error) {
+	var order []string
+	rows := map[string][]stellar.Companion{}
+	for _, c := range list {
+		key := companions.FigureName(c.Name)
+		if key == targetHost {
+			return nil, nil, steps.BadInputf("companions: %q names the target", c.Name)
+		}
+		if _, ok := rows[key]; !ok {
+			order = append(order, key)
+		}
+		rows[key] = append(rows[key], c)
+	}
+	ksRows = map[int]stellar.Companion{}
+	for _, key := range order {
+		rs := rows[key]
+		pick := -1
+		for i, c := range rs {
+			if sameBand(c.Band, band) {
+				pick = i
+			}
+		}
+		if pick < 0 && rel != nil {
+			for i, c := range rs {
+				if sameBand(c.Band, rel.From) {
+					pick = i
+				}
+			}
+		}
+		if pick < 0 {
+			pick = 0 // refused below with the bands named
+		}
+		c := rs[pick]
+		for _, o := range rs {
+			if math.IsNaN(c.Radius) && !math.IsNaN(o.Radius) {
+				c.Radius, c.RadiusErr = o.Radius, o.RadiusErr
+			}
+			if isKs(o.Band) && !isKs(c.Band) {
+				ksRows[len(chosen)] = o
+			}
+		}
+		chosen = append(chosen, c)
+	}
+	return chosen, ksRows, nil
 }

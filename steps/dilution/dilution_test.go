@@ -530,3 +530,22 @@ func FuzzDecode(f *testing.F) {
 		}
 	})
 }
+
+func TestACompanionInTwoBandsUsesTheLightCurvesBand(t *testing.T) {
+	// The flux ratio comes from the row in the light curve's band (Δm 2.5 → F_c/F_t = 0.1,
+	// REFERENCES §14); the Ks row is there for the radius only.
+	comps := []stellar.Companion{
+		{Name: "B", Band: "Ks", DMag: 1.0, DMagErr: 1e-9, Separation: 1, Radius: math.NaN(), RadiusErr: math.NaN()},
+		{Name: "B", Band: "red", DMag: 2.5, DMagErr: 1e-9, Separation: 1, Radius: math.NaN(), RadiusErr: math.NaN()},
+	}
+	res, _, err := Compute(Config{Draws: 200}, Input{Band: "red", Companions: comps}, 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(res.Hypotheses) != 2 {
+		t.Fatalf("%d hypotheses, want the target and one companion", len(res.Hypotheses))
+	}
+	if got := res.Hypotheses[0].FluxRatio[0]; math.Abs(got-0.1) > 1e-6 {
+		t.Errorf("flux ratio on the target %v, want 0.1", got)
+	}
+}

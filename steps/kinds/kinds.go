@@ -5,13 +5,17 @@ package kinds
 
 import (
 	"dipline/steps"
+	"dipline/steps/companions"
 	"dipline/steps/detrend"
+	"dipline/steps/dilution"
 	"dipline/steps/fit"
 	"dipline/steps/photometry"
 	"dipline/steps/search"
+	"dipline/steps/star"
 )
 
 // Registry returns every step kind, checked.
 func Registry() (steps.Registry, error) {
-	return steps.NewRegistry(photometry.Kind{}, detrend.Kind{}, search.Kind{}, fit.Kind{})
+	return steps.NewRegistry(photometry.Kind{}, detrend.Kind{}, search.Kind{}, fit.Kind{},
+		star.Kind{}, companions.Kind{}, dilution.Kind{})
 }
