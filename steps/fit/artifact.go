@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"strings"
 
 	"dipline/steps"
 	"dipline/steps/internal/codec"
@@ -13,6 +14,7 @@ import (
 // SegmentInfo describes one segment that entered the likelihood.
 type SegmentInfo struct {
 	ID       string
+	Band     string  // the segment's band; "" when unknown
 	Exposure float64 // days
 	Points   int     // points within the transit windows
 	NSub     int     // sub-exposures per point
@@ -41,10 +43,15 @@ type Artifact struct {
 	Segments  []SegmentInfo
 	Reference []Reference // per planet
 	// Names lists the columns of Samples and Best: the Sampled parameters first (per planet
-	// period d, t0 d, k, b; then log10_star_density, q1, q2, ln jitter per segment), then the
-	// derived star_density g/cm³ and per planet depth (k²), a_over_rstar and t14 (d).
+	// period d, t0 d, k, b, and secosw, sesinw = √e cos ω, √e sin ω for eccentric orbits;
+	// then log10_star_density, dilution when sampled, q1, q2 per band — "q1[band]" for a
+	// named band — and ln jitter per segment), then the parameters the workflow fixed
+	// (constant columns), then the derived star_density g/cm³ and per planet depth (k²),
+	// a_over_rstar, t14 (d) and, for eccentric orbits, e and omega (deg).
 	Names   []string
 	Sampled int
+	// Priors lists, as the notes say them, the priors that differ from the fit's own.
+	Priors []string
 	// Samples holds the thinned post-burn-in draws of all ensembles, row-major, one row of
 	// len(Names) values per draw.
 	Samples                               []float64
@@ -60,17 +67,26 @@ func (a *Artifact) Planets() int { return len(a.Reference) }
 
 // Column returns the draws of the named column, or nil.
 func (a *Artifact) Column(name string) []float64 {
+	j := a.column(name)
+	if j < 0 {
+		return nil
+	}
 	c := len(a.Names)
+	out := make([]float64, len(a.Samples)/c)
+	for i := range out {
+		out[i] = a.Samples[i*c+j]
+	}
+	return out
+}
+
+// column is the index of the named column, or −1.
+func (a *Artifact) column(name string) int {
 	for j, n := range a.Names {
 		if n == name {
-			out := make([]float64, len(a.Samples)/c)
-			for i := range out {
-				out[i] = a.Samples[i*c+j]
-			}
-			return out
+			return j
 		}
 	}
-	return nil
+	return -1
 }
 
 // Summary returns the median of the named column and σ = (p84 − p16)/2.
@@ -96,10 +112,27 @@ func (a *Artifact) Figures() []steps.Figure {
 		add(p+"k", p+"k", "", "radius ratio Rp/R*", 1)
 		add(p+"b", p+"b", "", "impact parameter", 1)
 		add(p+"depth", p+"depth", "ppm", "k², the occulted area fraction", 1e6)
-		add(p+"a_over_rstar", p+"a_over_rstar", "", "a/R* from the star's density and the period (Kepler's third law, circular orbit)", 1)
-		add(p+"t14", p+"t14", "h", "first-to-last-contact duration, circular orbit (Winn 2010)", 24)
+		ecc := a.column(p+"e") >= 0
+		if ecc {
+			add(p+"a_over_rstar", p+"a_over_rstar", "", "a/R* from the star's density and the period (Kepler's third law)", 1)
+			add(p+"t14", p+"t14", "h", "first-to-last-contact duration of the eccentric orbit (Winn 2010)", 24)
+			add(p+"e", p+"e", "", "orbital eccentricity (uniform prior in e and ω)", 1)
+			add(p+"omega", p+"omega", "deg", "argument of periastron", 1)
+		} else {
+			add(p+"a_over_rstar", p+"a_over_rstar", "", "a/R* from the star's density and the period (Kepler's third law, circular orbit)", 1)
+			add(p+"t14", p+"t14", "h", "first-to-last-contact duration, circular orbit (Winn 2010)", 24)
+		}
 	}
-	add("star_density", "star_density", "g/cm3", "mean stellar density from the transit shape (log-uniform prior 0.01–100 g/cm3)", 1)
+	densityDoc := "mean stellar density from the transit shape (log-uniform prior 0.01–100 g/cm3)"
+	for _, p := range a.Priors {
+		if strings.HasPrefix(p, "prior: star_density ") {
+			densityDoc = "mean stellar density from the transit shape and the " + strings.TrimPrefix(p, "prior: ")
+		}
+	}
+	add("star_density", "star_density", "g/cm3", densityDoc, 1)
+	if a.column("dilution") >= 0 {
+		add("dilution", "dilution", "", "flux of other stars over the target's in the light curve's band, D in (F + D)/(1 + D)", 1)
+	}
 	used := 0
 	for _, s := range a.Segments {
 		used += s.Points
@@ -125,7 +158,7 @@ func (a *Artifact) Figures() []steps.Figure {
 
 const (
 	tag    = "fit"
-	format = 1
+	format = 2
 )
 
 // Encode returns the canonical encoding.
@@ -136,6 +169,7 @@ func (a *Artifact) Encode() []byte {
 	w.Uint64(uint64(len(a.Segments)))
 	for _, s := range a.Segments {
 		w.String(s.ID)
+		w.String(s.Band)
 		w.Float(s.Exposure)
 		w.Int(int64(s.Points))
 		w.Int(int64(s.NSub))
@@ -147,6 +181,7 @@ func (a *Artifact) Encode() []byte {
 	}
 	w.Strings(a.Names)
 	w.Int(int64(a.Sampled))
+	w.Strings(a.Priors)
 	w.Floats(a.Samples)
 	w.Floats(a.Best)
 	w.Float(a.BestLogPost)
@@ -183,7 +218,7 @@ func Decode(b []byte) (*Artifact, error) {
 		return nil, fmt.Errorf("fit artifact: %d segments", ns)
 	}
 	for i := uint64(0); i < ns; i++ {
-		a.Segments = append(a.Segments, SegmentInfo{ID: r.String(), Exposure: r.Float(), Points: int(r.Int()), NSub: int(r.Int())})
+		a.Segments = append(a.Segments, SegmentInfo{ID: r.String(), Band: r.String(), Exposure: r.Float(), Points: int(r.Int()), NSub: int(r.Int())})
 	}
 	np := r.Uint64()
 	if np > maxPlanets {
@@ -194,6 +229,7 @@ func Decode(b []byte) (*Artifact, error) {
 	}
 	a.Names = r.Strings()
 	a.Sampled = int(r.Int())
+	a.Priors = r.Strings()
 	a.Samples = r.Floats()
 	a.Best = r.Floats()
 	a.BestLogPost = r.Float()

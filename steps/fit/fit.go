@@ -6,10 +6,12 @@ import (
 	"fmt"
 	"math"
 	"sort"
+	"strings"
 
 	"gonum.org/v1/gonum/optimize"
 
 	"dipline/steps"
+	"dipline/steps/internal/astro"
 	"dipline/steps/internal/lightcurve"
 	"dipline/steps/internal/rng"
 	"dipline/steps/internal/sampler"
@@ -21,6 +23,9 @@ import (
 const (
 	// maxPlanets bounds the planets fitted jointly in this version.
 	maxPlanets = 3
+	// maxBands bounds the distinct segment bands (one q1, q2 pair each); it keeps the
+	// per-call band table on the stack.
+	maxBands = 8
 	// maxSub caps the sub-exposures per point to bound the cost of very precise data; the
 	// number itself comes from subexposures.
 	maxSub = 60
@@ -37,6 +42,9 @@ const (
 	walkersPerDim = 4
 	// Prior bounds on the stellar density (g/cm³), log-uniform: from giants to late M dwarfs.
 	densityLo, densityHi = 0.01, 100.0
+	// densityMin, densityMax bound the stellar density (g/cm³) whatever the prior: a
+	// workflow's prior may reach beyond the default range, but not to 0 or infinity.
+	densityMin, densityMax = 1e-5, 1e7
 	// Prior bounds on the per-segment jitter, log-uniform, relative flux.
 	jitterLo, jitterHi = 1e-6, 0.1
 	// startB is the impact parameter the optimiser starts from (a box does not tell it).
@@ -55,6 +63,19 @@ type Options struct {
 	Supersample bool             // integrate the model over each exposure
 	Jitter      bool             // fit one ln jitter per segment
 	Seed        uint64
+	// Priors replaces the fit's own prior on the named parameters ("star_density",
+	// "b.period", "b.k", "b.b", …; see checkPriorKey), values in d, g/cm³ or dimensionless.
+	// A Fixed prior removes the parameter from the sampled vector.
+	Priors map[string]Prior
+	// Limb holds Gaussian priors on u1, u2 by segment band; the key "default" serves bands
+	// not listed (and segments without a band). Bands without one have flat priors on q1, q2.
+	Limb map[string]LimbPrior
+	// Eccentric lists the planets ("b", "c", "d") whose √e cos ω and √e sin ω are sampled;
+	// the others are on circular orbits.
+	Eccentric []string
+	// Dilution, when not nil, is the prior on a sampled dilution D ≥ 0, the flux of other
+	// stars over the target's; the model is (F + D)/(1 + D). A Fixed prior holds it.
+	Dilution *Prior
 	// Parallel runs block(i) for i in [0, n); nil runs serially. Results do not depend on it.
 	Parallel func(n int, block func(i int))
 
@@ -101,6 +122,7 @@ func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, 
 		init := make([][]float64, K)
 		for w := range init {
 			init[w] = ball(m, best, scale, r)
+			m.disperseOrbits(init[w], r)
 		}
 		last[e] = init
 		ens[e] = &sampler.Chain{Walkers: K, Dim: dim, Thin: 1, Accepted: make([]int, K)}
@@ -140,7 +162,7 @@ func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, 
 	notes = append(notes, fmt.Sprintf("sampling: %d ensembles of %d walkers, %d steps each, the first %d discarded as burn-in, thinned by %d (τ/2, τ = %.4g steps)", o.Ensembles, K, total, burn, thin, tauMax))
 
 	// Diagnostics per sampled parameter.
-	art.Names = sampledNames(np, m.segs, o.Jitter)
+	art.Names = m.columns()
 	art.Sampled = dim
 	art.Walkers, art.Steps, art.Burn, art.Thin, art.Ensembles = K, total, burn, thin, o.Ensembles
 	for p := 0; p < dim; p++ {
@@ -163,44 +185,70 @@ func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, 
 	art.Acceptance = float64(acc) / float64(total*K*len(ens))
 
 	// Thinned samples with derived columns; the best fit is the highest posterior seen.
-	art.Names = append(art.Names, derivedNames(np)...)
-	cols := len(art.Names)
 	for _, ch := range ens {
 		for s := burn + thin - 1; s < ch.Stored; s += thin {
 			for w := 0; w < K; w++ {
 				x := ch.At(s, w)
-				art.Samples = append(art.Samples, withDerived(x, np, cols)...)
+				art.Samples = append(art.Samples, m.row(x)...)
 				if lp := ch.LogProb[s*K+w]; lp > bestLP {
 					bestLP, best = lp, append([]float64(nil), x...)
 				}
 			}
 		}
 	}
-	art.Best = withDerived(best, np, cols)
+	art.Best = m.row(best)
 	art.BestLogPost = bestLP
 	return art, notes, nil
 }
 
 // setup selects the points near the predicted transits, builds the model over them and
 // returns it with the artifact's frame and segment list, the start point, the start scale
-// per parameter and the notes so far.
+// per sampled parameter and the notes so far.
 func setup(lc *lightcurve.LightCurve, o Options) (m *Model, art *Artifact, x0, scale []float64, notes []string, err error) {
+	fail := func(e error) (*Model, *Artifact, []float64, []float64, []string, error) {
+		return nil, nil, nil, nil, nil, e
+	}
 	np := len(o.Signals)
 	m = &Model{planets: np, jitter: o.Jitter}
 	art = &Artifact{Frame: lc.Frame(), Window: o.Window}
+	for _, name := range o.Eccentric {
+		j := planetIndex(name)
+		if j < 0 || j >= np {
+			return fail(steps.Attrf("eccentric", "%q is not one of the %d planet(s) fitted (%s)", name, np, strings.Join(planetNames[:np], ", ")))
+		}
+		m.ecc[j] = true
+	}
+	for key := range o.Priors {
+		if err := checkPriorKey(key); err != nil {
+			return fail(steps.Attrf("priors", "key %q: %v", key, err))
+		}
+		if pl, _, ok := strings.Cut(key, "."); ok && planetIndex(pl) >= np {
+			return fail(steps.Attrf("priors", "key %q: planet %s is not fitted (%d planet(s))", key, pl, np))
+		}
+	}
+	bandSeen := map[string]bool{}
+	for _, seg := range lc.Segments {
+		bandSeen[seg.Band] = true
+	}
+	for band := range o.Limb {
+		if band != "default" && !bandSeen[band] {
+			return fail(steps.Attrf("limb_darkening", "band %q: no segment of the light curve has this band", band))
+		}
+	}
 
 	// Points within Window search durations of a predicted mid-transit of any planet.
 	// The selection is fixed before fitting so the likelihood is a smooth function.
 	kept := 0
 	sumW := make([]float64, np)
 	sumWT := make([]float64, np)
+	bandIndex := map[string]int{}
 	for si := range lc.Segments {
 		seg := &lc.Segments[si]
 		var sd segData
 		for i, t := range seg.Time {
 			f, e := seg.Flux[i], seg.Err[i]
 			if math.IsNaN(t) || math.IsInf(t, 0) || math.IsNaN(f) || math.IsInf(f, 0) || !(e > 0) || math.IsInf(e, 0) {
-				return nil, nil, nil, nil, nil, steps.BadInputf("light_curve: segment %s, point %d: time %v, flux %v, error %v are not usable", seg.ID, i+1, t, f, e)
+				return fail(steps.BadInputf("light_curve: segment %s, point %d: time %v, flux %v, error %v are not usable", seg.ID, i+1, t, f, e))
 			}
 			in := false
 			for j, s := range o.Signals {
@@ -219,6 +267,21 @@ func setup(lc *lightcurve.LightCurve, o Options) (m *Model, art *Artifact, x0, s
 		if len(sd.t) == 0 {
 			continue
 		}
+		b, ok := bandIndex[seg.Band]
+		if !ok {
+			if len(m.bands) == maxBands {
+				return fail(steps.BadInputf("light_curve: more than %d distinct bands; the fit takes at most %d", maxBands, maxBands))
+			}
+			b = len(m.bands)
+			bandIndex[seg.Band] = b
+			m.bands = append(m.bands, seg.Band)
+			lp, ok := o.Limb[seg.Band]
+			if !ok {
+				lp = o.Limb["default"]
+			}
+			m.ld = append(m.ld, lp)
+		}
+		sd.band = b
 		sd.nsub = 1
 		if o.Supersample && seg.Exposure > 0 && !math.IsInf(seg.Exposure, 0) {
 			sigma := typicalError(sd.v)
@@ -244,27 +307,30 @@ func setup(lc *lightcurve.LightCurve, o Options) (m *Model, art *Artifact, x0, s
 		m.maxPoints = max(m.maxPoints, len(sd.t))
 		m.segs = append(m.segs, sd)
 		kept += len(sd.t)
-		art.Segments = append(art.Segments, SegmentInfo{ID: seg.ID, Exposure: seg.Exposure, Points: len(sd.t), NSub: sd.nsub})
+		art.Segments = append(art.Segments, SegmentInfo{ID: seg.ID, Band: seg.Band, Exposure: seg.Exposure, Points: len(sd.t), NSub: sd.nsub})
 	}
 	for j := range o.Signals {
 		if sumW[j] == 0 {
-			return nil, nil, nil, nil, nil, steps.BadInputf("light_curve: no points within %g durations of any transit of signal %d (period %.6g d)", o.Window, j+1, o.Signals[j].Period)
+			return fail(steps.BadInputf("light_curve: no points within %g durations of any transit of signal %d (period %.6g d)", o.Window, j+1, o.Signals[j].Period))
 		}
 	}
 	if kept < 10 {
-		return nil, nil, nil, nil, nil, steps.BadInputf("light_curve: only %d points near the transits; at least 10 are needed", kept)
+		return fail(steps.BadInputf("light_curve: only %d points near the transits; at least 10 are needed", kept))
 	}
 	notes = append(notes, fmt.Sprintf("likelihood: %d points within %g search durations of a predicted mid-transit, in %d segment(s); the rest of the light curve is left out", kept, o.Window, len(m.segs)))
 	for _, s := range art.Segments {
 		notes = append(notes, fmt.Sprintf("exposure: segment %s, %.4g min, integrated with %d sub-exposure(s) per point (bound on the integration error: %g of the median point error)", s.ID, s.Exposure*1440, s.NSub, integrationShare))
 	}
 
-	// Reference epochs near the weighted centre; bounds on period and mid-time keep every
-	// modelled transit inside the fixed windows.
-	dim := m.dim()
-	m.lo, m.hi = make([]float64, dim), make([]float64, dim)
-	x0 = make([]float64, dim)
-	scale = make([]float64, dim)
+	// The full parameter vector with its supports and start values. Reference epochs near
+	// the weighted centre; bounds on period and mid-time keep every modelled transit inside
+	// the fixed windows.
+	var start, step []float64
+	add := func(p param, x0, sc float64) {
+		m.params = append(m.params, p)
+		start = append(start, x0)
+		step = append(step, sc)
+	}
 	for j, s := range o.Signals {
 		centre := sumWT[j] / sumW[j]
 		n := math.Round((centre - s.Epoch) / s.Period)
@@ -279,35 +345,115 @@ func setup(lc *lightcurve.LightCurve, o Options) (m *Model, art *Artifact, x0, s
 		}
 		art.Reference = append(art.Reference, Reference{Transit: int64(n), Time: t0})
 		dP := s.Duration / nmax
-		k0 := math.Sqrt(math.Max(s.Depth, 1e-6))
-		i := perPlanet * j
-		m.lo[i+iPeriod], m.hi[i+iPeriod] = math.Max(s.Period-dP, s.Period/2), s.Period+dP
-		m.lo[i+iT0], m.hi[i+iT0] = t0-s.Duration, t0+s.Duration
-		m.lo[i+iK], m.hi[i+iK] = 0, 1
-		m.lo[i+iB], m.hi[i+iB] = 0, 2
-		x0[i+iPeriod], x0[i+iT0], x0[i+iK], x0[i+iB] = s.Period, t0, math.Min(k0, 0.9), startB
-		scale[i+iPeriod], scale[i+iT0], scale[i+iK], scale[i+iB] = dP/10, s.Duration/10, 0.2*x0[i+iK], 0.1
+		k0 := math.Min(math.Sqrt(math.Max(s.Depth, 1e-6)), 0.9)
+		pl := planetNames[j] + "."
+		add(param{name: pl + "period", lo: math.Max(s.Period-dP, s.Period/2), hi: s.Period + dP}, s.Period, dP/10)
+		add(param{name: pl + "t0", lo: t0 - s.Duration, hi: t0 + s.Duration}, t0, s.Duration/10)
+		add(param{name: pl + "k", lo: 0, hi: 1}, k0, 0.2*k0)
+		add(param{name: pl + "b", lo: 0, hi: 2}, startB, 0.1)
+		hidden := !m.ecc[j]
+		add(param{name: pl + "secosw", lo: -1, hi: 1, fixed: hidden}, 0, 0.1)
+		add(param{name: pl + "sesinw", lo: -1, hi: 1, fixed: hidden}, 0, 0.1)
 	}
-	base := perPlanet * np
-	m.lo[base], m.hi[base] = math.Log10(densityLo), math.Log10(densityHi)
-	m.lo[base+1], m.hi[base+1] = 0, 1
-	m.lo[base+2], m.hi[base+2] = 0, 1
 	s0 := o.Signals[0]
-	k0 := x0[iK]
+	k0 := start[iK]
 	aR0 := s0.Period / (math.Pi * s0.Duration) * math.Sqrt((1+k0)*(1+k0)-startB*startB)
 	rho0 := math.Min(math.Max(DensityFromAxis(s0.Period, aR0), 2*densityLo), densityHi/2)
-	x0[base], x0[base+1], x0[base+2] = math.Log10(rho0), startQ1, startQ2
-	scale[base], scale[base+1], scale[base+2] = 0.1, 0.1, 0.1
-	if o.Jitter {
-		for s := range m.segs {
-			m.lo[base+3+s], m.hi[base+3+s] = math.Log(jitterLo), math.Log(jitterHi)
-			x0[base+3+s], scale[base+3+s] = math.Log(1e-5), 1
+	add(param{name: "log10_star_density", lo: math.Log10(densityMin), hi: math.Log10(densityMax), log10: true,
+		prior: Prior{Shape: LogUniform, A: densityLo, B: densityHi}}, math.Log10(rho0), 0.1)
+	if d := o.Dilution; d != nil {
+		m.dilution = true
+		if d.Shape == Fixed {
+			add(param{name: "dilution", fixed: true, value: d.A}, d.A, 0)
+		} else {
+			c := d.centre()
+			add(param{name: "dilution", lo: 0, hi: math.MaxFloat64, prior: *d}, c, math.Min(d.width(), math.Max(c, 0.01)))
+		}
+	} else {
+		add(param{name: "dilution", fixed: true}, 0, 0)
+	}
+	for _, band := range m.bands {
+		q1, q2 := "q1", "q2"
+		if band != "" {
+			q1, q2 = "q1["+band+"]", "q2["+band+"]"
+		}
+		add(param{name: q1, lo: 0, hi: 1}, startQ1, 0.1)
+		add(param{name: q2, lo: 0, hi: 1}, startQ2, 0.1)
+	}
+	for i, lp := range m.ld {
+		if lp.U1Sigma > 0 {
+			q1, q2 := transit.KippingFromQuadratic(lp.U1, lp.U2)
+			if q1 > 0 && q1 < 1 && q2 > 0 && q2 < 1 {
+				start[m.qIndex(i)], start[m.qIndex(i)+1] = q1, q2
+			}
 		}
 	}
-	if lp := m.LogPost(x0); math.IsInf(lp, 0) || math.IsNaN(lp) {
-		return nil, nil, nil, nil, nil, steps.BadInputf("signals: the start values give no valid model (log posterior %v)", lp)
+	if o.Jitter {
+		for s := range m.segs {
+			add(param{name: fmt.Sprintf("segment%d.ln_jitter", s+1), lo: math.Log(jitterLo), hi: math.Log(jitterHi)}, math.Log(1e-5), 1)
+		}
 	}
 
+	// The workflow's priors replace the fit's own; the supports stay.
+	g := m.global()
+	for key, pr := range o.Priors {
+		idx := g + gDensity
+		if key != "star_density" {
+			pl, par, _ := strings.Cut(key, ".")
+			idx = perPlanet*planetIndex(pl) + map[string]int{"period": iPeriod, "k": iK, "b": iB}[par]
+		}
+		p := &m.params[idx]
+		p.prior = pr
+		v := pr.centre()
+		if p.log10 {
+			v = math.Log10(v)
+		}
+		if pr.Shape == Fixed {
+			p.fixed, p.value, p.prior = true, v, Prior{}
+			if !(v >= p.lo && v <= p.hi) {
+				return fail(steps.Attrf("priors", "key %q: %s lies outside what the data allow for it (%.6g to %.6g)", key, pr, p.lo, p.hi))
+			}
+			start[idx] = v
+			continue
+		}
+		if key == "star_density" || math.IsInf(p.logPrior(start[idx]), -1) {
+			start[idx] = math.Min(math.Max(v, p.lo), p.hi)
+		}
+		w := pr.width()
+		if p.log10 {
+			w /= pr.centre() * math.Ln10
+		}
+		step[idx] = math.Min(step[idx], w)
+	}
+	for i := range m.params {
+		p := &m.params[i]
+		if p.fixed {
+			p.value = start[i]
+			continue
+		}
+		m.free = append(m.free, i)
+		x0 = append(x0, start[i])
+		scale = append(scale, step[i])
+	}
+	var pn []string
+	for key, pr := range o.Priors {
+		pn = append(pn, fmt.Sprintf("prior: %s %s", key, pr))
+	}
+	if o.Dilution != nil {
+		pn = append(pn, fmt.Sprintf("prior: dilution %s", *o.Dilution))
+	}
+	for i, band := range m.bands {
+		if lp := m.ld[i]; lp.U1Sigma > 0 {
+			pn = append(pn, fmt.Sprintf("prior: band %q: u1 = %g ± %g, u2 = %g ± %g (Gaussian, sampled in q1, q2)", band, lp.U1, lp.U1Sigma, lp.U2, lp.U2Sigma))
+		}
+	}
+	sort.Strings(pn)
+	notes = append(notes, pn...)
+	art.Priors = pn
+	m.maxFine = max(m.maxFine, 1)
+	if lp := m.LogPost(x0); math.IsInf(lp, 0) || math.IsNaN(lp) {
+		return fail(steps.BadInputf("signals: the start values give no valid model (log posterior %v)", lp))
+	}
 	return m, art, x0, scale, notes, nil
 }
 
@@ -407,6 +553,41 @@ func ball(m *Model, x, scale []float64, r *rng.Stream) []float64 {
 	}
 }
 
+// disperseOrbits redraws, in the walker start x, each eccentric planet's √e cos ω, √e sin ω
+// from the prior (uniform in the unit disk, so in e and ω), until the posterior is finite
+// (at most 100 tries; x is kept otherwise). The transit constrains e and ω only along a
+// curved ridge (a duration set by (1 + e sin ω)/√(1 − e²)); an ensemble started in a small
+// ball stays on the part of it the optimiser happened to reach, one started across the
+// disk spreads along the ridge during burn-in (our choice, after trying both).
+func (m *Model) disperseOrbits(x []float64, r *rng.Stream) {
+	for j := 0; j < m.planets; j++ {
+		if !m.ecc[j] {
+			continue
+		}
+		ic, is := -1, -1
+		for i, f := range m.free {
+			switch f {
+			case perPlanet*j + iSecosw:
+				ic = i
+			case perPlanet*j + iSesinw:
+				is = i
+			}
+		}
+		c0, s0 := x[ic], x[is]
+		for try := 0; ; try++ {
+			if try == 100 {
+				x[ic], x[is] = c0, s0
+				break
+			}
+			rad, ang := math.Sqrt(r.Float64()), 2*math.Pi*r.Float64()
+			x[ic], x[is] = rad*math.Cos(ang), rad*math.Sin(ang)
+			if lp := m.LogPost(x); !math.IsInf(lp, 0) && !math.IsNaN(lp) {
+				break
+			}
+		}
+	}
+}
+
 // appendChain appends the stored steps of c to acc.
 func appendChain(acc, c *sampler.Chain) {
 	acc.Samples = append(acc.Samples, c.Samples...)
@@ -448,43 +629,73 @@ func maxOf(v []float64) float64 {
 	return m
 }
 
-// sampledNames names the sampled parameters.
-func sampledNames(np int, segs []segData, jitter bool) []string {
+// columns names the columns of the artifact: the sampled parameters, the user-fixed ones
+// (constant columns, so that readers find them by name), then the derived ones: the star's
+// density, and per planet its depth k², a/R*, T14, and for eccentric orbits e and ω (deg).
+func (m *Model) columns() []string {
 	var n []string
-	for j := 0; j < np; j++ {
-		p := planetNames[j] + "."
-		n = append(n, p+"period", p+"t0", p+"k", p+"b")
+	for _, i := range m.free {
+		n = append(n, m.params[i].name)
 	}
-	n = append(n, "log10_star_density", "q1", "q2")
-	if jitter {
-		for s := range segs {
-			n = append(n, fmt.Sprintf("segment%d.ln_jitter", s+1))
+	for i := range m.params {
+		if m.shownFixed(i) {
+			n = append(n, m.params[i].name)
+		}
+	}
+	n = append(n, "star_density")
+	for j := 0; j < m.planets; j++ {
+		p := planetNames[j] + "."
+		n = append(n, p+"depth", p+"a_over_rstar", p+"t14")
+		if m.ecc[j] {
+			n = append(n, p+"e", p+"omega")
 		}
 	}
 	return n
 }
 
-// derivedNames names the derived columns: the density, then per planet depth k², a/R*, T14.
-func derivedNames(np int) []string {
-	n := []string{"star_density"}
-	for j := 0; j < np; j++ {
-		p := planetNames[j] + "."
-		n = append(n, p+"depth", p+"a_over_rstar", p+"t14")
+// shownFixed reports whether full entry i is fixed by the workflow (and so has a column):
+// the circular orbits' √e cos ω, √e sin ω and an absent dilution have none.
+func (m *Model) shownFixed(i int) bool {
+	if !m.params[i].fixed {
+		return false
 	}
-	return n
+	if i == m.global()+gDilution {
+		return m.dilution
+	}
+	if i < m.global() {
+		r := i % perPlanet
+		return r != iSecosw && r != iSesinw
+	}
+	return true
 }
 
-// withDerived returns x followed by its derived columns (see derivedNames).
-func withDerived(x []float64, np, cols int) []float64 {
-	out := make([]float64, 0, cols)
-	out = append(out, x...)
-	base := perPlanet * np
-	rho := math.Pow(10, x[base])
+// row returns the artifact row of the sampled vector x (see columns).
+func (m *Model) row(x []float64) []float64 {
+	full := m.expand(make([]float64, len(m.params)), x)
+	out := append([]float64(nil), x...)
+	for i := range m.params {
+		if m.shownFixed(i) {
+			out = append(out, full[i])
+		}
+	}
+	rho := math.Pow(10, full[m.global()+gDensity])
 	out = append(out, rho)
-	for j := 0; j < np; j++ {
-		p := x[perPlanet*j:]
+	for j := 0; j < m.planets; j++ {
+		p := full[perPlanet*j:]
 		aR := ScaledAxis(p[iPeriod], rho)
-		out = append(out, p[iK]*p[iK], aR, TotalDuration(p[iPeriod], p[iK], p[iB], aR))
+		e, w := 0.0, 0.0
+		if m.ecc[j] {
+			e = p[iSecosw]*p[iSecosw] + p[iSesinw]*p[iSesinw]
+			w = math.Atan2(p[iSesinw], p[iSecosw])
+		}
+		t14, err := astro.TotalDuration(p[iPeriod], aR, p[iK], p[iB], e, w)
+		if err != nil {
+			t14 = 0
+		}
+		out = append(out, p[iK]*p[iK], aR, t14)
+		if m.ecc[j] {
+			out = append(out, e, w*180/math.Pi)
+		}
 	}
 	return out
 }

@@ -36,6 +36,7 @@ func (s searchArtifact) Figures() []steps.Figure   { return nil }
 // around a Sun-density star.
 type truth struct {
 	period, t0, k, b, rho, q1, q2 float64
+	e, omega                      float64 // eccentricity and argument of periastron (rad)
 }
 
 var hot = truth{period: 3.0, t0: 1.3, k: 0.1, b: 0.4, rho: 1.41, q1: 0.36, q2: 0.3}

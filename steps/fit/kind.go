@@ -1,18 +1,29 @@
 // Package fit is the fit step kind: a physical transit model fitted to a light curve and its
 // posterior sampled. Per planet it fits the period, the mid-transit time at a reference epoch
-// near the weighted centre of the data, the radius ratio k and the impact parameter b, on
-// circular orbits; the star's mean density (shared, log-uniform prior) sets a/R* of every
-// planet by Kepler's third law; one pair of Kipping (2013) limb-darkening parameters q1, q2
-// is shared by all segments and bands. The model (Mandel & Agol 2002) is integrated over each
-// segment's exposure; each segment's flux normalisation is marginalised analytically and,
-// optionally, a white-noise jitter per segment is fitted. Only points within a few search
-// durations of a predicted mid-transit enter the likelihood. The best fit comes from a
-// Nelder–Mead optimiser started at the search's values; the posterior from two or more
-// independently seeded affine-invariant ensembles (Goodman & Weare 2010) run to 50
-// autocorrelation times or max_steps, with τ, effective sample size and R-hat per parameter.
+// near the weighted centre of the data, the radius ratio k and the impact parameter b, and,
+// for the planets named in `eccentric`, √e cos ω and √e sin ω (uniform in e and ω, the
+// periastron outside the star; the mid-transit time is the inferior conjunction, true anomaly
+// π/2 − ω, through Kepler's equation); the others are on circular orbits. The star's mean
+// density (shared) sets a/R* of every planet by Kepler's third law. Each distinct segment
+// band has its own pair of Kipping (2013) limb-darkening parameters q1, q2, optionally under
+// a Gaussian prior on u1, u2 (whose Jacobian in q is 1). The workflow may replace the prior
+// of the density and of each planet's period, k and b (uniform, normal, log-uniform, or
+// fixed, which removes the parameter from the sampled vector). The model (Mandel & Agol
+// 2002) is integrated over each segment's own exposure; each segment's flux normalisation is
+// marginalised analytically and, optionally, a white-noise jitter per segment is fitted. Only
+// points within a few search durations of a predicted mid-transit enter the likelihood.
+// The best fit comes from a Nelder–Mead optimiser started at the search's values; the
+// posterior from two or more independently seeded affine-invariant ensembles (Goodman &
+// Weare 2010) run to 50 autocorrelation times or max_steps, with τ, effective sample size and
+// R-hat per parameter.
 //
-// It does not fit eccentric orbits, per-transit times, band-dependent limb darkening or
-// correlated noise, and does not use the catalogue star (DESIGN principle 6).
+// By default the fit does not depend on the star or on the dilution (DESIGN principle 6);
+// in coupled mode a `star` reference turns the star's density draws into the density prior
+// (a log-normal fitted to ln ρ) and a `dilution` reference turns the target's flux-ratio
+// draws into the prior of a sampled dilution D (model (F + D)/(1 + D)).
+//
+// It does not fit per-transit times, correlated noise, occultations, or limb darkening other
+// than quadratic; eccentricity from photometry alone is only as good as the density prior.
 // Main entry points: Kind (for the engine) and Fit (the library core).
 package fit
 
@@ -20,17 +31,22 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"maps"
+	"math"
+	"sort"
+	"strings"
 
 	"dipline/steps"
 	"dipline/steps/internal/lightcurve"
 	"dipline/steps/internal/signals"
+	"dipline/steps/internal/stellar"
 )
 
 // Kind is the fit step kind.
 type Kind struct{}
 
 // version is bumped whenever the numbers or the encoding change.
-const version = 1
+const version = 2
 
 // Defaults, each with its reason.
 const (
@@ -56,7 +72,7 @@ func (Kind) Random() bool { return true }
 
 // Doc is one sentence for the kinds listing.
 func (Kind) Doc() string {
-	return "Fits a limb-darkened transit model on circular orbits to the transits of a search's signals and samples its posterior with independent ensembles of walkers."
+	return "Fits a limb-darkened transit model (circular or eccentric orbits, priors per parameter, limb darkening per band) to the transits of a search's signals and samples its posterior with independent ensembles of walkers."
 }
 
 // Params is the block's schema.
@@ -78,6 +94,16 @@ func (Kind) Params() []steps.Param {
 			Doc: "integrate the model over each point's exposure (needed for long exposures, Kipping 2010); off only for tests and comparisons"},
 		{Name: "jitter", Type: steps.Bool, Default: true,
 			Doc: "fit one white-noise jitter per segment (log-uniform prior, 1 ppm to 10 %), added in quadrature to the stated errors"},
+		{Name: "priors", Type: steps.StringMap, Optional: true,
+			Doc: "priors replacing the fit's own, by parameter: star_density (g/cm3) and <planet>.period (d), <planet>.k, <planet>.b; each uniform(a, b), normal(mean, sigma), log_uniform(a, b) or fixed(value), e.g. { \"b.period\" = \"normal(3.7185, 0.0004)\", \"b.k\" = \"fixed(0.05)\" }; a fixed parameter is not sampled. Without it: uniform in period, k (0–1) and b (0–1+k), log-uniform density 0.01–100 g/cm3"},
+		{Name: "limb_darkening", Type: steps.StringMap, Optional: true,
+			Doc: "Gaussian priors on the quadratic coefficients by segment band, e.g. { \"survey-red\" = \"u1 = 0.35 ± 0.05, u2 = 0.25 ± 0.05\" }; the key \"default\" serves other bands and segments without one. Each band has its own q1, q2 (Kipping 2013), sampled; without a prior they are uniform on 0–1"},
+		{Name: "eccentric", Type: steps.StringList, Optional: true,
+			Doc: "planets (b, c, d) fitted on eccentric orbits, sampling √e cos ω and √e sin ω (uniform in e and ω, periastron outside the star); the others are circular"},
+		{Name: "star", Type: steps.Ref, Kinds: []string{"star"}, Optional: true,
+			Doc: "coupled mode: the star step whose density draws become the density prior (a log-normal fitted to the draws' ln density); without it the fit does not depend on the star and derive combines them afterwards"},
+		{Name: "dilution", Type: steps.Ref, Kinds: []string{"dilution"}, Optional: true,
+			Doc: "coupled mode: the dilution step whose flux ratios for the target (the first hypothesis) become the prior on a sampled dilution D ≥ 0 (a log-normal fitted to the draws), the model being (F + D)/(1 + D)"},
 	}
 }
 
@@ -89,6 +115,9 @@ type Config struct {
 	Window      float64
 	Supersample bool
 	Jitter      bool
+	Priors      map[string]Prior
+	Limb        map[string]LimbPrior
+	Eccentric   []string
 }
 
 // Prepare checks the values and builds a Config.
@@ -114,7 +143,128 @@ func (Kind) Prepare(v steps.Values) (any, error) {
 	if !(c.Window >= 1 && c.Window <= 10) {
 		return nil, steps.Attrf("window", "must be between 1 and 10 search durations, not %v", c.Window)
 	}
+	keys := sortedKeys(v.Map("priors"))
+	for _, key := range keys {
+		if err := checkPriorKey(key); err != nil {
+			return nil, steps.Attrf("priors", "key %q: %v", key, err)
+		}
+		p, err := ParsePrior(v.Map("priors")[key])
+		if err != nil {
+			return nil, steps.Attrf("priors", "key %q: %v", key, err)
+		}
+		if err := checkPriorRange(key, p); err != nil {
+			return nil, steps.Attrf("priors", "key %q: %v", key, err)
+		}
+		if key == "star_density" && v.Has("star") {
+			return nil, steps.Attrf("priors", "key %q: the star reference already gives the density prior; give one or the other", key)
+		}
+		if c.Priors == nil {
+			c.Priors = map[string]Prior{}
+		}
+		c.Priors[key] = p
+	}
+	for _, band := range sortedKeys(v.Map("limb_darkening")) {
+		lp, err := ParseLimbPrior(v.Map("limb_darkening")[band])
+		if err != nil {
+			return nil, steps.Attrf("limb_darkening", "band %q: %v", band, err)
+		}
+		if c.Limb == nil {
+			c.Limb = map[string]LimbPrior{}
+		}
+		c.Limb[band] = lp
+	}
+	seen := map[string]bool{}
+	for _, name := range v.Strs("eccentric") {
+		j := planetIndex(name)
+		if j < 0 || (c.Planets > 0 && j >= c.Planets) || seen[name] {
+			return nil, steps.Attrf("eccentric", "%q: name each fitted planet (b, c, d) at most once", name)
+		}
+		seen[name] = true
+		c.Eccentric = append(c.Eccentric, name)
+	}
 	return c, nil
+}
+
+// checkPriorRange refuses priors outside a parameter's possible values: densities and
+// periods are positive, k lies in [0, 1], b in [0, 2].
+func checkPriorRange(key string, p Prior) error {
+	lo, hi := p.A, p.B
+	if p.Shape == Normal {
+		lo, hi = p.A, p.A
+	}
+	_, par, _ := strings.Cut(key, ".")
+	switch {
+	case key == "star_density" || par == "period":
+		if !(lo > 0) {
+			return fmt.Errorf("%s: the value must be positive", p)
+		}
+	case par == "k":
+		if !(hi >= 0 && lo <= 1) || (p.Shape == Fixed && !(p.A > 0 && p.A < 1)) {
+			return fmt.Errorf("%s: k = Rp/R* lies between 0 and 1", p)
+		}
+	case par == "b":
+		if !(hi >= 0 && lo < 2) || (p.Shape == Fixed && p.A < 0) {
+			return fmt.Errorf("%s: b lies between 0 and 1 + k", p)
+		}
+	}
+	return nil
+}
+
+func sortedKeys(m map[string]string) []string {
+	k := make([]string, 0, len(m))
+	for key := range m {
+		k = append(k, key)
+	}
+	sort.Strings(k)
+	return k
+}
+
+// DensityPrior is the coupled-mode prior on the star's density from its draws (g/cm³): a
+// log-normal with the mean and standard deviation of ln ρ over the draws (a fixed density
+// when they do not vary). Draws that are not positive and finite are bad input.
+func DensityPrior(draws []float64) (Prior, error) {
+	return logNormalOf("star: density", draws, false)
+}
+
+// DilutionPrior is the coupled-mode prior on the dilution D from the target's flux-ratio
+// draws: a log-normal fitted to ln D; D = 0 when every draw is 0 (no companion, or a light
+// curve already corrected for crowding). Draws must be finite and not negative; a mix of
+// zero and positive draws is fitted to its positive part, the zeros' share given as a note
+// by the caller (see Run).
+func DilutionPrior(draws []float64) (Prior, error) {
+	return logNormalOf("dilution: flux ratio", draws, true)
+}
+
+func logNormalOf(what string, draws []float64, zeroOK bool) (Prior, error) {
+	var s, s2 float64
+	n := 0
+	for i, d := range draws {
+		if math.IsNaN(d) || math.IsInf(d, 0) || d < 0 || (d == 0 && !zeroOK) {
+			return Prior{}, steps.BadInputf("%s draw %d is %v; draws must be positive and finite", what, i+1, d)
+		}
+		if d == 0 {
+			continue
+		}
+		l := math.Log(d)
+		s += l
+		s2 += l * l
+		n++
+	}
+	if len(draws) == 0 {
+		return Prior{}, steps.BadInputf("%s: no draws", what)
+	}
+	if n == 0 {
+		return Prior{Shape: Fixed, A: 0, B: 0}, nil
+	}
+	mean := s / float64(n)
+	v := 0.0
+	if n > 1 {
+		v = math.Max(0, (s2-float64(n)*mean*mean)/float64(n-1))
+	}
+	if v == 0 {
+		return Prior{Shape: Fixed, A: math.Exp(mean), B: math.Exp(mean)}, nil
+	}
+	return Prior{Shape: LogNormal, A: mean, B: math.Sqrt(v)}, nil
 }
 
 // Run fits the referenced light curve.
@@ -145,9 +295,54 @@ func (Kind) Run(ctx context.Context, cfgAny any, in steps.Inputs, env steps.Env)
 	case n > len(sigs):
 		return nil, steps.BadInputf("planets: %d asked for, but the search found %d signal(s)", n, len(sigs))
 	}
+	priors := cfg.Priors
+	if a := in.Ref("star"); a != nil {
+		ss, ok := a.(stellar.StarSource)
+		if !ok || ss.StarDraws() == nil {
+			return nil, errors.New("fit: star does not refer to a step with star draws")
+		}
+		if len(ss.StarDraws().Density) == 0 {
+			return nil, steps.BadInputf("star: the star step gives no density draws")
+		}
+		p, err := DensityPrior(ss.StarDraws().Density)
+		if err != nil {
+			return nil, err
+		}
+		priors = maps.Clone(priors)
+		if priors == nil {
+			priors = map[string]Prior{}
+		}
+		priors["star_density"] = p
+	}
+	var dil *Prior
+	if a := in.Ref("dilution"); a != nil {
+		ds, ok := a.(stellar.DilutionSource)
+		if !ok || ds.DilutionDraws() == nil {
+			return nil, errors.New("fit: dilution does not refer to a step with dilution draws")
+		}
+		d := ds.DilutionDraws()
+		if len(d.Hypotheses) == 0 {
+			return nil, steps.BadInputf("dilution: the dilution step gives no hypothesis")
+		}
+		p, err := DilutionPrior(d.Hypotheses[0].FluxRatio)
+		if err != nil {
+			return nil, err
+		}
+		zeros := 0
+		for _, f := range d.Hypotheses[0].FluxRatio {
+			if f == 0 {
+				zeros++
+			}
+		}
+		if zeros > 0 && p.Shape != Fixed {
+			env.Note("dilution: %d of %d flux-ratio draws are 0; the prior is fitted to the others", zeros, len(d.Hypotheses[0].FluxRatio))
+		}
+		dil = &p
+	}
 	o := Options{
 		Signals: sigs[:n], MaxSteps: cfg.MaxSteps, Ensembles: cfg.Ensembles, Window: cfg.Window,
 		Supersample: cfg.Supersample, Jitter: cfg.Jitter, Seed: env.Seed,
+		Priors: priors, Limb: cfg.Limb, Eccentric: cfg.Eccentric, Dilution: dil,
 		Parallel: func(k int, block func(i int)) {
 			env.Pool.Parallel(k, block)
 		},

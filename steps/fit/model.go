@@ -44,16 +44,47 @@ func TotalDuration(period, k, b, aR float64) float64 {
 	return period / math.Pi * math.Asin(arg)
 }
 
-// Parameter layout of the sampled vector: per planet j, four entries at 4j (period, mid-time
-// at the reference epoch, k = Rp/R*, impact parameter b); then log10 of the stellar density
-// (g/cm³), q1, q2; then, when jitter is on, one ln σ_jitter per segment.
+// Layout of the full parameter vector. Per planet j, six entries at perPlanet·j: period (d),
+// mid-transit time at the reference epoch (d), k = Rp/R*, impact parameter b, √e cos ω and
+// √e sin ω (fixed at 0 for circular orbits). Then, at global = perPlanet·planets: log10 of
+// the stellar density (g/cm³) and the dilution D (fixed at 0 unless sampled); then q1, q2
+// per band; then, when jitter is on, one ln σ_jitter per segment. The sampled vector is the
+// full one without the fixed entries, in the same order.
 const (
-	perPlanet = 4
+	perPlanet = 6
 	iPeriod   = 0
 	iT0       = 1
 	iK        = 2
 	iB        = 3
+	iSecosw   = 4
+	iSesinw   = 5
+	gDensity  = 0
+	gDilution = 1
+	nGlobal   = 2
 )
+
+// param is one entry of the full parameter vector.
+type param struct {
+	name   string
+	lo, hi float64 // support in the stored coordinate; outside it the posterior is 0
+	prior  Prior   // in the documented unit (the density in g/cm³, not its log10)
+	log10  bool    // the stored coordinate is log10 of the documented value
+	fixed  bool    // held at value and not sampled
+	value  float64 // the fixed value, stored coordinate
+}
+
+// logPrior is the log prior density of the stored coordinate v, up to a constant: the
+// prior in the documented unit times the Jacobian ρ ln 10 of ρ = 10^v for log10 entries.
+func (p *param) logPrior(v float64) float64 {
+	if p.prior.Shape == Flat {
+		return 0
+	}
+	if p.log10 {
+		u := math.Pow(10, v)
+		return p.prior.LogPDF(u) + math.Log(u)
+	}
+	return p.prior.LogPDF(v)
+}
 
 // segData is the part of one segment that enters the likelihood; all of it is fixed before
 // sampling.
@@ -62,6 +93,7 @@ type segData struct {
 	nsub    int       // sub-exposures per point
 	half    float64   // half the exposure (days; 0 when the points are instants)
 	fine    []float64 // sub-exposure times, len(t)·nsub, point by point
+	band    int       // index of the segment's band in Model.bands
 }
 
 // contactMargin widens, in periods, the phase window within which a point is modelled
@@ -74,25 +106,51 @@ const contactMargin = 1e-7
 // It is safe for concurrent use: scratch space comes from a sync.Pool.
 type Model struct {
 	planets   int
+	ecc       [maxPlanets]bool
 	jitter    bool
+	dilution  bool        // a dilution prior was given (D sampled or fixed by it)
+	bands     []string    // distinct segment bands ("" for segments without one)
+	ld        []LimbPrior // per band; zero U1Sigma means the flat prior on q1, q2
 	segs      []segData
-	lo, hi    []float64 // uniform prior bounds per parameter (b is also bounded by 1+k)
+	params    []param // the full vector
+	free      []int   // indices of the sampled entries in params
 	maxFine   int
 	maxPoints int
 	scratch   sync.Pool
 }
 
 // dim is the number of sampled parameters.
-func (m *Model) dim() int {
-	d := perPlanet*m.planets + 3
-	if m.jitter {
-		d += len(m.segs)
+func (m *Model) dim() int { return len(m.free) }
+
+// global is the index of the first global entry of the full vector.
+func (m *Model) global() int { return perPlanet * m.planets }
+
+// qIndex is the index of q1 of band i in the full vector.
+func (m *Model) qIndex(i int) int { return m.global() + nGlobal + 2*i }
+
+// jitterIndex is the index of segment s's ln jitter in the full vector.
+func (m *Model) jitterIndex(s int) int { return m.global() + nGlobal + 2*len(m.bands) + s }
+
+// expand writes the full vector for the sampled vector x into dst.
+func (m *Model) expand(dst, x []float64) []float64 {
+	for i := range m.params {
+		dst[i] = m.params[i].value
 	}
-	return d
+	for i, idx := range m.free {
+		dst[idx] = x[i]
+	}
+	return dst
+}
+
+// orbit is one planet's geometry at a point of the parameter space.
+type orbit struct {
+	aR, e, omega float64
+	reach        float64 // half-width, in phase, of the stretch around mid-transit with z < 1+k
 }
 
 // workspace is the scratch space of one LogPost call.
 type workspace struct {
+	full        []float64 // the full parameter vector
 	tsub, z, fl []float64 // sub-exposure times, separations, fluxes of one planet's transits
 	sum         []float64 // 1 + Σ_planets (flux − 1) per sub-exposure of the points modelled
 	mod         []float64 // exposure-averaged model per point
@@ -105,21 +163,83 @@ func (m *Model) workspace() *workspace {
 		return w
 	}
 	n, p := m.maxFine, m.maxPoints
-	w := &workspace{tsub: make([]float64, n), z: make([]float64, n), fl: make([]float64, n), sum: make([]float64, n),
-		mod: make([]float64, p), slot: make([]int32, p)}
+	w := &workspace{full: make([]float64, len(m.params)), tsub: make([]float64, n), z: make([]float64, n), fl: make([]float64, n),
+		sum: make([]float64, n), mod: make([]float64, p), slot: make([]int32, p)}
 	for j := 0; j < m.planets; j++ {
 		w.near[j] = make([]int32, 0, p)
 	}
 	return w
 }
 
+// meanAnomaly is the mean anomaly at true anomaly f for eccentricity e, continuous and
+// increasing in f: the eccentric anomaly from tan(E/2) = √((1−e)/(1+e)) tan(f/2), taken on
+// the branch within π of f (E and f lie in the same half-plane), then Kepler's equation.
+func meanAnomaly(f, e float64) float64 {
+	s, c := math.Sincos(f / 2)
+	e0 := 2 * math.Atan2(math.Sqrt(1-e)*s, math.Sqrt(1+e)*c)
+	ea := f + math.Remainder(e0-f, 2*math.Pi)
+	return ea - e*math.Sin(ea)
+}
+
+// geometry checks planet j's parameters in the full vector x and returns its orbit, or
+// false when the prior excludes them: b < 1 + k, e < 1 and a periastron distance
+// a/R*·(1 − e) beyond 1 + k (the planet does not touch the star).
+func (m *Model) geometry(x []float64, j int, rho float64) (orbit, bool) {
+	p := x[perPlanet*j:]
+	k, b := p[iK], p[iB]
+	if !(b < 1+k) {
+		return orbit{}, false
+	}
+	o := orbit{aR: ScaledAxis(p[iPeriod], rho)}
+	if m.ecc[j] {
+		o.e = p[iSecosw]*p[iSecosw] + p[iSesinw]*p[iSesinw]
+		o.omega = math.Atan2(p[iSesinw], p[iSecosw])
+	}
+	if !(o.e < 1) || !(o.aR*(1-o.e) > 1+k) {
+		return orbit{}, false
+	}
+	if !m.ecc[j] {
+		// z ≥ 1+k ⇔ sin²φ ≥ ((1+k)² − b²)/(aR² − b²) on the near half of a circular orbit
+		// (z² = b² + (aR² − b²) sin²φ, Winn 2010 with e = 0); b < 1+k < aR.
+		r := ((1+k)*(1+k) - b*b) / (o.aR*o.aR - b*b)
+		phiC := math.Pi / 2
+		if r < 1 {
+			phiC = math.Asin(math.Sqrt(r))
+		}
+		o.reach = phiC / (2 * math.Pi)
+		return o, true
+	}
+	// Eccentric: z ≥ r |sin(f − fc)| with r ≥ a(1 − e) and fc = π/2 − ω the true anomaly at
+	// conjunction (z² = r²[cos²(ω+f) + sin²(ω+f) cos² i], cos(ω+f) = −sin(f − fc)), so the
+	// planet overlaps the star only within Δf = asin((1+k)/(a/R*·(1−e))) of fc; the reach
+	// is the larger mean-anomaly step to fc ± Δf, over 2π.
+	df := math.Asin((1 + k) / (o.aR * (1 - o.e)))
+	fc := math.Pi/2 - o.omega
+	mc := meanAnomaly(fc, o.e)
+	o.reach = math.Max(meanAnomaly(fc+df, o.e)-mc, mc-meanAnomaly(fc-df, o.e)) / (2 * math.Pi)
+	if !(o.reach < 0.5) {
+		o.reach = 0.5
+	}
+	return o, true
+}
+
+// separation writes the separations at times t of planet j in the full vector x.
+func (m *Model) separation(dst, t, x []float64, j int, o orbit) []float64 {
+	p := x[perPlanet*j:]
+	if m.ecc[j] {
+		return transit.SeparationEccentric(dst, t, p[iPeriod], p[iT0], o.aR, p[iB], o.e, o.omega)
+	}
+	return transit.SeparationCircular(dst, t, p[iPeriod], p[iT0], o.aR, p[iB])
+}
+
 // model writes into ws.mod the model of segment sd: per point the mean over its
-// sub-exposures of 1 + Σ_planets (flux − 1). Only points whose exposure may overlap a
-// transit (phase within the contact half-angle plus half the exposure plus contactMargin)
-// are integrated, and each planet's flux is computed only for the points near its own
-// transits; the rest are exactly 1, as the full computation gives (Flux returns 1 beyond
-// contact and adding 1 − 1 = 0 changes no sum), so the result is the same to the bit.
-func (m *Model) model(ws *workspace, sd *segData, x []float64, aR []float64, u1, u2 float64) []float64 {
+// sub-exposures of 1 + Σ_planets (flux − 1), diluted as (F + D)/(1 + D). Only points whose
+// exposure may overlap a transit (phase within the contact reach plus half the exposure
+// plus contactMargin) are integrated, and each planet's flux is computed only for the
+// points near its own transits; the rest are exactly 1, as the full computation gives (Flux
+// returns 1 beyond contact and adding 1 − 1 = 0 changes no sum), so the result is the same
+// to the bit.
+func (m *Model) model(ws *workspace, sd *segData, x []float64, orb []orbit, u1, u2, dil float64) []float64 {
 	np, n := m.planets, sd.nsub
 	slot := ws.slot[:len(sd.t)]
 	for i := range slot {
@@ -128,15 +248,8 @@ func (m *Model) model(ws *workspace, sd *segData, x []float64, aR []float64, u1,
 	used := int32(0)
 	for j := 0; j < np; j++ {
 		p := x[perPlanet*j:]
-		period, t0, k, b := p[iPeriod], p[iT0], p[iK], p[iB]
-		// z ≥ 1+k ⇔ sin²φ ≥ ((1+k)² − b²)/(aR² − b²) on the near half of a circular orbit
-		// (z² = b² + (aR² − b²) sin²φ, Winn 2010 with e = 0); the prior keeps b < 1+k < aR.
-		r := ((1+k)*(1+k) - b*b) / (aR[j]*aR[j] - b*b)
-		phiC := math.Pi / 2
-		if r < 1 {
-			phiC = math.Asin(math.Sqrt(r))
-		}
-		reach := phiC/(2*math.Pi) + sd.half/period + contactMargin
+		period, t0 := p[iPeriod], p[iT0]
+		reach := orb[j].reach + sd.half/period + contactMargin
 		near := ws.near[j][:0]
 		for i, t := range sd.t {
 			d := (t - t0) / period
@@ -160,13 +273,12 @@ func (m *Model) model(ws *workspace, sd *segData, x []float64, aR []float64, u1,
 		if len(near) == 0 {
 			continue
 		}
-		p := x[perPlanet*j:]
 		tsub := ws.tsub[:len(near)*n]
 		for q, i := range near {
 			copy(tsub[q*n:(q+1)*n], sd.fine[int(i)*n:(int(i)+1)*n])
 		}
-		z := transit.SeparationCircular(ws.z[:len(tsub)], tsub, p[iPeriod], p[iT0], aR[j], p[iB])
-		fl := transit.Flux(ws.fl[:len(tsub)], z, p[iK], u1, u2)
+		z := m.separation(ws.z[:len(tsub)], tsub, x, j, orb[j])
+		fl := transit.Flux(ws.fl[:len(tsub)], z, x[perPlanet*j+iK], u1, u2)
 		for q, i := range near {
 			blk := sum[int(slot[i])*n : int(slot[i]+1)*n]
 			for s, v := range fl[q*n : (q+1)*n] {
@@ -186,45 +298,67 @@ func (m *Model) model(ws *workspace, sd *segData, x []float64, aR []float64, u1,
 		}
 		mod[i] = s / float64(n)
 	}
+	if dil != 0 {
+		for i, v := range mod {
+			mod[i] = (v + dil) / (1 + dil)
+		}
+	}
 	return mod
 }
 
-// LogPost is the log posterior up to a constant: uniform priors within the bounds (uniform
-// in log10 density and ln jitter, that is log-uniform in them), b < 1+k, a/R* > 1+k, and the
-// Gaussian likelihood with each segment's multiplicative flux normalisation c marginalised
-// analytically under a uniform prior: ∫ exp(−½(C − 2cB + c²A)) dc = √(2π/A) exp(−½(C − B²/A)),
-// with A = Σ w m², B = Σ w f m, C = Σ w f², w = 1/(σ² + s²). Outside the prior it is −Inf.
+// LogPost is the log posterior of the sampled vector x up to a constant: each entry's
+// prior within its support (see param), the limb-darkening priors per band, b < 1+k and a
+// periastron beyond 1+k per planet, and the Gaussian likelihood with each segment's
+// multiplicative flux normalisation c marginalised analytically under a uniform prior:
+// ∫ exp(−½(C − 2cB + c²A)) dc = √(2π/A) exp(−½(C − B²/A)), with A = Σ w m², B = Σ w f m,
+// C = Σ w f², w = 1/(σ² + s²). Outside the prior it is −Inf.
 func (m *Model) LogPost(x []float64) float64 {
-	for i, v := range x {
-		if !(v >= m.lo[i] && v <= m.hi[i]) {
+	lp := 0.0
+	for i, idx := range m.free {
+		p := &m.params[idx]
+		v := x[i]
+		if !(v >= p.lo && v <= p.hi) {
 			return math.Inf(-1)
 		}
+		lp += p.logPrior(v)
 	}
-	np := m.planets
-	base := perPlanet * np
-	rho := math.Pow(10, x[base])
-	u1, u2 := transit.QuadraticFromKipping(x[base+1], x[base+2])
-	var aR [maxPlanets]float64
-	for j := 0; j < np; j++ {
-		p := x[perPlanet*j:]
-		k, b := p[iK], p[iB]
-		if !(b < 1+k) {
-			return math.Inf(-1)
-		}
-		aR[j] = ScaledAxis(p[iPeriod], rho)
-		if !(aR[j] > 1+k) {
-			return math.Inf(-1)
-		}
+	if math.IsInf(lp, -1) || math.IsNaN(lp) {
+		return math.Inf(-1)
 	}
 	ws := m.workspace()
 	defer m.scratch.Put(ws)
-	lp := 0.0
+	full := m.expand(ws.full, x)
+	return m.logPostFull(ws, full, lp)
+}
+
+// logPostFull continues LogPost from the full vector and the log prior of its entries.
+func (m *Model) logPostFull(ws *workspace, full []float64, lp float64) float64 {
+	np := m.planets
+	g := m.global()
+	rho := math.Pow(10, full[g+gDensity])
+	dil := full[g+gDilution]
+	var orb [maxPlanets]orbit
+	for j := 0; j < np; j++ {
+		o, ok := m.geometry(full, j, rho)
+		if !ok {
+			return math.Inf(-1)
+		}
+		orb[j] = o
+	}
+	var u [maxBands][2]float64
+	for i := range m.bands {
+		q1, q2 := full[m.qIndex(i)], full[m.qIndex(i)+1]
+		if m.ld[i].U1Sigma > 0 {
+			lp += m.ld[i].LogPDF(q1, q2)
+		}
+		u[i][0], u[i][1] = transit.QuadraticFromKipping(q1, q2)
+	}
 	for s := range m.segs {
 		sd := &m.segs[s]
-		mod := m.model(ws, sd, x, aR[:np], u1, u2)
+		mod := m.model(ws, sd, full, orb[:np], u[sd.band][0], u[sd.band][1], dil)
 		s2 := 0.0
 		if m.jitter {
-			js := math.Exp(x[base+3+s])
+			js := math.Exp(full[m.jitterIndex(s)])
 			s2 = js * js
 		}
 		lp += segmentLogLike(mod, sd.f, sd.v, s2)

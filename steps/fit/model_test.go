@@ -59,18 +59,44 @@ func windowCurve(trs []truth, n int, window, sigma float64, seed uint64) (*light
 
 // truthVector is the sampled vector of trs in the layout of m (jitter 10 ppm when fitted).
 func truthVector(m *Model, art *Artifact, trs []truth) []float64 {
-	x := make([]float64, m.dim())
+	full := make([]float64, len(m.params))
+	for i := range m.params {
+		full[i] = m.params[i].value
+	}
 	for j, tr := range trs {
-		p := x[perPlanet*j:]
+		p := full[perPlanet*j:]
 		p[iPeriod], p[iK], p[iB] = tr.period, tr.k, tr.b
 		p[iT0] = tr.t0 + float64(art.Reference[j].Transit)*tr.period
+		if m.ecc[j] {
+			p[iSecosw] = math.Sqrt(tr.e) * math.Cos(tr.omega)
+			p[iSesinw] = math.Sqrt(tr.e) * math.Sin(tr.omega)
+		}
 	}
-	base := perPlanet * len(trs)
-	x[base], x[base+1], x[base+2] = math.Log10(trs[0].rho), trs[0].q1, trs[0].q2
-	for s := base + 3; s < len(x); s++ {
-		x[s] = math.Log(1e-5)
+	g := m.global()
+	full[g+gDensity] = math.Log10(trs[0].rho)
+	for i := range m.bands {
+		full[m.qIndex(i)], full[m.qIndex(i)+1] = trs[0].q1, trs[0].q2
+	}
+	if m.jitter {
+		for s := range m.segs {
+			full[m.jitterIndex(s)] = math.Log(1e-5)
+		}
+	}
+	x := make([]float64, 0, m.dim())
+	for _, i := range m.free {
+		x = append(x, full[i])
 	}
 	return x
+}
+
+// freePos is the position in the sampled vector of full entry idx, or −1 when it is fixed.
+func freePos(m *Model, idx int) int {
+	for i, f := range m.free {
+		if f == idx {
+			return i
+		}
+	}
+	return -1
 }
 
 // BenchmarkLogPosterior times one evaluation of the log posterior at the truth, for 500
@@ -107,44 +133,57 @@ func BenchmarkLogPosterior(b *testing.B) {
 // every planet's flux at every sub-exposure of every point, then the block means. It is the
 // reference that the pruned LogPost must match bit for bit.
 func fullLogPost(m *Model, x []float64) float64 {
-	for i, v := range x {
-		if !(v >= m.lo[i] && v <= m.hi[i]) {
-			return math.Inf(-1)
-		}
-	}
-	np := m.planets
-	base := perPlanet * np
-	rho := math.Pow(10, x[base])
-	u1, u2 := transit.QuadraticFromKipping(x[base+1], x[base+2])
-	aR := make([]float64, np)
-	for j := 0; j < np; j++ {
-		p := x[perPlanet*j:]
-		if !(p[iB] < 1+p[iK]) {
-			return math.Inf(-1)
-		}
-		aR[j] = ScaledAxis(p[iPeriod], rho)
-		if !(aR[j] > 1+p[iK]) {
-			return math.Inf(-1)
-		}
-	}
 	lp := 0.0
+	for i, idx := range m.free {
+		p := &m.params[idx]
+		if !(x[i] >= p.lo && x[i] <= p.hi) {
+			return math.Inf(-1)
+		}
+		lp += p.logPrior(x[i])
+	}
+	if math.IsInf(lp, -1) {
+		return lp
+	}
+	full := m.expand(make([]float64, len(m.params)), x)
+	np := m.planets
+	g := m.global()
+	rho := math.Pow(10, full[g+gDensity])
+	dil := full[g+gDilution]
+	orb := make([]orbit, np)
+	for j := 0; j < np; j++ {
+		o, ok := m.geometry(full, j, rho)
+		if !ok {
+			return math.Inf(-1)
+		}
+		orb[j] = o
+	}
+	for i := range m.bands {
+		if m.ld[i].U1Sigma > 0 {
+			lp += m.ld[i].LogPDF(full[m.qIndex(i)], full[m.qIndex(i)+1])
+		}
+	}
 	for s := range m.segs {
 		sd := &m.segs[s]
+		u1, u2 := transit.QuadraticFromKipping(full[m.qIndex(sd.band)], full[m.qIndex(sd.band)+1])
 		sum := make([]float64, len(sd.fine))
 		for i := range sum {
 			sum[i] = 1
 		}
 		for j := 0; j < np; j++ {
-			p := x[perPlanet*j:]
-			z := transit.SeparationCircular(nil, sd.fine, p[iPeriod], p[iT0], aR[j], p[iB])
-			for i, v := range transit.Flux(nil, z, p[iK], u1, u2) {
+			z := m.separation(nil, sd.fine, full, j, orb[j])
+			for i, v := range transit.Flux(nil, z, full[perPlanet*j+iK], u1, u2) {
 				sum[i] += v - 1
 			}
 		}
 		mod := transit.AverageBlocks(nil, sum, sd.nsub)
+		if dil != 0 {
+			for i, v := range mod {
+				mod[i] = (v + dil) / (1 + dil)
+			}
+		}
 		s2 := 0.0
 		if m.jitter {
-			js := math.Exp(x[base+3+s])
+			js := math.Exp(full[m.jitterIndex(s)])
 			s2 = js * js
 		}
 		lp += segmentLogLike(mod, sd.f, sd.v, s2)
@@ -187,8 +226,12 @@ func TestPrunedLogPosteriorIsTheFullOneToTheBit(t *testing.T) {
 						x[i] = x0[i] + 3*scale[i]*r.Normal()
 					}
 				default:
-					for i := range x {
-						x[i] = m.lo[i] + (m.hi[i]-m.lo[i])*r.Float64()
+					for i, idx := range m.free {
+						lo, hi := m.params[idx].lo, m.params[idx].hi
+						if idx == m.global()+gDensity {
+							lo, hi = -2, 2 // the default prior's range
+						}
+						x[i] = lo + (hi-lo)*r.Float64()
 					}
 				}
 				got, want := m.LogPost(x), fullLogPost(m, x)
@@ -238,7 +281,7 @@ func TestChosenSubexposuresMatchAMuchFinerIntegration(t *testing.T) {
 			worst := 0.0
 			for _, tr := range []float64{0, 0.3, 0.5} { // the truth and longer ingresses
 				for j := range c.trs {
-					x[perPlanet*j+iB] = c.trs[j].b + tr
+					x[freePos(m, perPlanet*j+iB)] = c.trs[j].b + tr
 				}
 				a := modelAt(m, x)
 				b := modelAt(fine, x)
@@ -258,16 +301,15 @@ func TestChosenSubexposuresMatchAMuchFinerIntegration(t *testing.T) {
 
 // modelAt is the integrated model of the first segment at x.
 func modelAt(m *Model, x []float64) []float64 {
-	np := m.planets
-	base := perPlanet * np
-	rho := math.Pow(10, x[base])
-	u1, u2 := transit.QuadraticFromKipping(x[base+1], x[base+2])
-	aR := make([]float64, np)
-	for j := range aR {
-		aR[j] = ScaledAxis(x[perPlanet*j+iPeriod], rho)
+	full := m.expand(make([]float64, len(m.params)), x)
+	rho := math.Pow(10, full[m.global()+gDensity])
+	orb := make([]orbit, m.planets)
+	for j := range orb {
+		orb[j], _ = m.geometry(full, j, rho)
 	}
+	u1, u2 := transit.QuadraticFromKipping(full[m.qIndex(0)], full[m.qIndex(0)+1])
 	ws := m.workspace()
-	return append([]float64(nil), m.model(ws, &m.segs[0], x, aR, u1, u2)...)
+	return append([]float64(nil), m.model(ws, &m.segs[0], full, orb, u1, u2, 0)...)
 }
 
 func TestFitWithChosenSubexposuresAgreesWithAFinerOne(t *testing.T) {

@@ -1,0 +1,678 @@
+package derive
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"sort"
+	"strings"
+
+	"dipline/steps"
+	"dipline/steps/internal/astro"
+	"dipline/steps/internal/rng"
+	"dipline/steps/internal/stellar"
+	"dipline/steps/units"
+)
+
+// Fixed choices, each with its reason.
+const (
+	// blockSize is the number of combined draws per parallel block, each block with its own
+	// random stream, so the draws do not depend on the worker count.
+	blockSize = 256
+	// bandJ, bandKs and bandK are the band names looked up in Star.Mags for the spectroscopy metrics;
+	// "K" is accepted for Ks.
+	bandJ, bandKs, bandK = "J", "Ks", "K"
+)
+
+// solarDensity is the nominal Sun's mean density in g/cm³.
+var solarDensity = units.Density.Units["rho_sun"]
+
+// sunAngle is the angular diameter of the nominal Sun seen from 1 au, in degrees:
+// 2 arcsin(R☉/au) (IAU 2015 B3, IAU 2012 B2).
+var sunAngle = 2 * math.Asin(astro.SolarRadius/astro.AU) * 180 / math.Pi
+
+// Options configures Derive.
+type Options struct {
+	// Albedo is the Bond albedo and Redistribution the heat-redistribution factor f of the
+	// equilibrium temperature (astro.RedistributionFull etc.); RedistributionName is its
+	// name for the docs.
+	Albedo, Redistribution float64
+	RedistributionName     string
+	// Masses holds measured planet masses by planet name: value and one-sigma error in M⊕.
+	Masses map[string][2]float64
+	// ESSThreshold is the effective sample size below which the combination is flagged.
+	ESSThreshold float64
+	// Draws is the number of combined draws summarised.
+	Draws int
+	// FitHasStarPrior says the fit already took the star's density in its likelihood, so
+	// its samples are not reweighted again.
+	FitHasStarPrior bool
+	// FitDensityPrior is the fit's own density prior as it states it (e.g.
+	// "star_density log_normal(0.3, 0.1)"), for the method text; "" when unknown.
+	FitDensityPrior string
+	// MaxPlanetRadius (R_J) flags a host hypothesis whose radius exceeds it as not planetary.
+	MaxPlanetRadius float64
+	Seed            uint64
+	// Parallel runs block(i) for i in [0, n); nil runs serially. Results do not depend on it.
+	Parallel func(n int, block func(i int))
+}
+
+// Posterior is the fit's sample table: column names and row-major samples.
+type Posterior struct {
+	Names   []string
+	Samples []float64
+}
+
+func (p Posterior) rows() int {
+	if len(p.Names) == 0 {
+		return 0
+	}
+	return len(p.Samples) / len(p.Names)
+}
+
+func (p Posterior) col(name string) int {
+	for j, n := range p.Names {
+		if n == name {
+			return j
+		}
+	}
+	return -1
+}
+
+// planetCols are the fit columns one planet uses; −1 when absent.
+type planetCols struct {
+	name                            string
+	period, k, b, aR, e, omega, dil int
+}
+
+// planets finds the planets of the posterior: every prefix p with a "p.period" column, in
+// column order.
+func (p Posterior) planets() ([]planetCols, error) {
+	var out []planetCols
+	for _, n := range p.Names {
+		name, ok := strings.CutSuffix(n, ".period")
+		if !ok || strings.Contains(name, ".") {
+			continue
+		}
+		pc := planetCols{name: name, period: p.col(n), k: p.col(name + ".k"), b: p.col(name + ".b"),
+			aR: p.col(name + ".a_over_rstar"), e: p.col(name + ".e"), omega: p.col(name + ".omega"), dil: p.col("dilution")}
+		for _, need := range []struct {
+			i int
+			c string
+		}{{pc.k, "k"}, {pc.b, "b"}, {pc.aR, "a_over_rstar"}} {
+			if need.i < 0 {
+				return nil, fmt.Errorf("the fit has no column %q for planet %s", name+"."+need.c, name)
+			}
+		}
+		if (pc.e < 0) != (pc.omega < 0) {
+			return nil, fmt.Errorf("the fit has only one of %q and %q", name+".e", name+".omega")
+		}
+		out = append(out, pc)
+	}
+	if len(out) == 0 {
+		return nil, errors.New("the fit has no planet (no column named like \"b.period\")")
+	}
+	return out, nil
+}
+
+// quantity indices within a planet's table.
+const (
+	qRatio = iota
+	qDepth
+	qRadiusEarth
+	qRadiusJup
+	qAxisAU
+	qAxisScaled
+	qIncl
+	qImpact
+	qEcc
+	qT14
+	qT23
+	qTeq
+	qInsol
+	qProb
+	qAngle
+	qAngleRel
+	qMass
+	qRV
+	qTSM
+	qESM
+	nQuantities
+)
+
+// qspec describes one quantity: its name, unit, doc, and whether it is bounded below by 0
+// (so the upper-limit rule applies).
+type qspec struct {
+	name, unit, doc string
+	bounded         bool
+}
+
+// Derive combines the fit's posterior with the star's draws and (when d is not nil) the
+// dilution's draws and summarises the derived quantities of every planet. Problems with
+// the inputs are *steps.InputError values; the notes are facts for the user.
+func Derive(post Posterior, star *stellar.Star, dil *stellar.Dilution, o Options) (*Artifact, []string, error) {
+	var notes []string
+	note := func(f string, a ...any) { notes = append(notes, fmt.Sprintf(f, a...)) }
+	nfit := post.rows()
+	if nfit == 0 || len(post.Samples)%len(post.Names) != 0 {
+		return nil, nil, steps.BadInputf("fit: the posterior holds no samples")
+	}
+	pls, err := post.planets()
+	if err != nil {
+		return nil, nil, steps.BadInputf("fit: %v", err)
+	}
+	if o.Draws < 1 {
+		return nil, nil, fmt.Errorf("derive: %d draws", o.Draws)
+	}
+	if star == nil || star.Len() == 0 {
+		return nil, nil, steps.BadInputf("star: the star step gives no draws")
+	}
+	ns := star.Len()
+	for _, s := range []struct {
+		v    []float64
+		name string
+	}{{star.Mass, "mass"}, {star.Teff, "Teff"}, {star.Luminosity, "luminosity"}, {star.Density, "density"}} {
+		if s.v != nil && len(s.v) != ns {
+			return nil, nil, steps.BadInputf("star: %d radius draws but %d %s draws", ns, len(s.v), s.name)
+		}
+	}
+	for i, r := range star.Radius {
+		if !(r > 0) || math.IsInf(r, 0) {
+			return nil, nil, steps.BadInputf("star: radius draw %d is %v R_sun; radii must be positive", i+1, r)
+		}
+	}
+	for name, m := range o.Masses {
+		found := false
+		for _, p := range pls {
+			found = found || p.name == name
+		}
+		if !found {
+			return nil, nil, steps.BadInputf("masses: the fit has no planet %q", name)
+		}
+		if !(m[0] > 0) || !(m[1] >= 0) {
+			return nil, nil, steps.BadInputf("masses: planet %s: mass %v ± %v M_earth must be positive", name, m[0], m[1])
+		}
+	}
+
+	// The star's density: given, or from mass and radius.
+	starRho := star.Density
+	if starRho == nil && star.Mass != nil {
+		starRho = make([]float64, ns)
+		for i := range starRho {
+			starRho[i] = star.Mass[i] / (star.Radius[i] * star.Radius[i] * star.Radius[i]) * solarDensity
+		}
+	}
+	rhoCol := post.col("star_density")
+	fitLnRho := make([]float64, nfit)
+	for i := range fitLnRho {
+		var rho float64
+		if rhoCol >= 0 {
+			rho = post.Samples[i*len(post.Names)+rhoCol]
+		} else { // from the first planet's a/R* and period
+			p := pls[0]
+			row := post.Samples[i*len(post.Names):]
+			rho, _ = astro.DensityFromScaledAxis(row[p.aR], row[p.period]*astro.Day)
+			rho /= 1000
+		}
+		fitLnRho[i] = math.Log(rho)
+	}
+
+	// Weights and pairing.
+	w := make([]float64, nfit)
+	for i := range w {
+		w[i] = 1
+	}
+	var pair *Pairing
+	var method strings.Builder
+	reweighted := false
+	if starRho != nil {
+		lnStar := make([]float64, ns)
+		bad := 0
+		for i, r := range starRho {
+			if r > 0 {
+				lnStar[i] = math.Log(r)
+			} else {
+				lnStar[i] = math.NaN()
+				bad++
+			}
+		}
+		if bad > 0 {
+			note("star: %d of %d density draws are not positive and were left out of the density estimate", bad, ns)
+		}
+		pair = NewPairing(lnStar)
+		if len(pair.X) == 0 {
+			return nil, nil, steps.BadInputf("star: no positive density draw")
+		}
+		outside := 0
+		for _, x := range pair.X {
+			if x < math.Log(fitDensityLo) || x > math.Log(fitDensityHi) {
+				outside++
+			}
+		}
+		if outside > 0 {
+			note("star: %d of %d density draws lie outside the fit's prior range (%g–%g g/cm3); they cannot be matched", outside, len(pair.X), fitDensityLo, fitDensityHi)
+		}
+		if !o.FitHasStarPrior {
+			reweighted = true
+			w = pair.Weights(w, fitLnRho, o.Parallel)
+		}
+	} else {
+		note("star: neither a density nor a mass is given, so the fit's density is not combined with the star; star draws are paired with fit samples at random, independently")
+	}
+	ess := KishESS(w)
+	if ess == 0 {
+		return nil, nil, steps.BadInputf("the fit's stellar density (%.3g–%.3g g/cm3, 16–84 %%) and the star's do not overlap at all; check the star or run the fit with the star's density in its likelihood",
+			sortedQuantile(fitLnRho, 0.16, math.Exp), sortedQuantile(fitLnRho, 0.84, math.Exp))
+	}
+	cw := cumulative(w)
+	lowESS := reweighted && ess < o.ESSThreshold
+	switch {
+	case reweighted:
+		fmt.Fprintf(&method, "fit posterior (%d samples) reweighted by the star's density (Gaussian kernel density estimate in ln ρ over %d star draws, Silverman bandwidth h = %.3g, tabulated every h/20 and interpolated; the fit's prior is uniform in ln ρ, so the weight is the estimate itself; Kish effective sample size %.0f, %.1f %%)",
+			nfit, len(pair.X), pair.H, ess, 100*ess/float64(nfit))
+	case o.FitHasStarPrior:
+		fmt.Fprintf(&method, "fit posterior (%d samples) taken as it is: the fit already had a density prior", nfit)
+		if o.FitDensityPrior != "" {
+			fmt.Fprintf(&method, " (%s)", o.FitDensityPrior)
+		}
+		fmt.Fprintf(&method, ", so it is not reweighted again")
+	default:
+		fmt.Fprintf(&method, "fit posterior (%d samples) taken as it is: the star gives no density", nfit)
+	}
+	if pair != nil {
+		fmt.Fprintf(&method, "; %d draws resampled by weight, each paired with a star draw chosen with probability ∝ the kernel in ln ρ (so radius and mass stay consistent with the transit's density to within h)", o.Draws)
+	} else {
+		fmt.Fprintf(&method, "; %d draws resampled, each paired with a star draw chosen at random (independent pairing: it neglects the correlation between the transit's density and the star's radius and mass)", o.Draws)
+	}
+
+	// Dilution.
+	var hyps []stellar.Hypothesis
+	dilByIndex := false
+	if dil != nil && len(dil.Hypotheses) > 0 {
+		hyps = dil.Hypotheses
+		nd := len(hyps[0].FluxRatio)
+		for _, h := range hyps {
+			// A nil RadiusScale means the host's radius is unknown: only k can be given.
+			if len(h.FluxRatio) != nd || (h.RadiusScale != nil && len(h.RadiusScale) != nd) || nd == 0 {
+				return nil, nil, steps.BadInputf("dilution: hypothesis %q has %d flux-ratio and %d radius-scale draws, the target %d", h.Host, len(h.FluxRatio), len(h.RadiusScale), nd)
+			}
+			for i := range h.FluxRatio {
+				bad := !(h.FluxRatio[i] >= 0) || math.IsInf(h.FluxRatio[i], 0)
+				if h.RadiusScale != nil {
+					bad = bad || !(h.RadiusScale[i] > 0) || math.IsInf(h.RadiusScale[i], 0)
+				}
+				if bad {
+					return nil, nil, steps.BadInputf("dilution: hypothesis %q, draw %d: the flux ratio must be non-negative and the radius scale positive", h.Host, i+1)
+				}
+			}
+		}
+		dilByIndex = nd == ns
+		switch {
+		case pls[0].dil >= 0:
+			fmt.Fprintf(&method, "; the fit modelled the dilution itself (column \"dilution\"), so its k is taken as the target's and the other hosts' k is rescaled from it")
+		case dil.AlreadyCorrected:
+			fmt.Fprintf(&method, "; the light curve was already corrected for crowding, so no dilution is applied for the target")
+		default:
+			fmt.Fprintf(&method, "; dilution applied to k draw by draw, k_true = k_obs √(1 + flux ratio)")
+		}
+		if dilByIndex {
+			fmt.Fprintf(&method, ", each draw taking the dilution draw of the same index as its star draw")
+		} else {
+			fmt.Fprintf(&method, ", each draw taking a dilution draw at random (independent pairing)")
+		}
+	} else {
+		fmt.Fprintf(&method, "; no dilution given: k is taken as the target's own")
+		if pls[0].dil >= 0 {
+			fmt.Fprintf(&method, " (the fit modelled the dilution itself)")
+		}
+	}
+	if len(hyps) > 0 && pls[0].dil < 0 && !dil.AlreadyCorrected {
+		if med := sortedQuantile(hyps[0].FluxRatio, 0.5, func(x float64) float64 { return x }); med > maxRescaledDilution {
+			note("WARNING: the companions add %.0f %% of the target's light; rescaling k after the fit biases it (measured: k high by about 2 %% at 50 %% and 3.6 %% at 100 %%, since a fit of the diluted shape trades k against b). Use the coupled fit, with the dilution in its likelihood", 100*med)
+		}
+	}
+	if lowESS {
+		note("WARNING: the star's density and the fit's agree poorly or the star's is much narrower: only %.0f effective samples of %d survive the reweighting (threshold %g); the summaries are noisy. Run the fit with the star's density in its likelihood (the coupled fit) instead", ess, nfit, o.ESSThreshold)
+	}
+
+	// Measured masses and magnitudes.
+	magJ, hasJ := star.Mags[bandJ]
+	magK, hasK := star.Mags[bandKs]
+	if !hasK {
+		magK, hasK = star.Mags[bandK]
+	}
+
+	// The draws.
+	np := len(pls)
+	nh := 0
+	if len(hyps) > 1 {
+		nh = len(hyps) - 1
+	}
+	vals := make([][][]float64, np) // planet, quantity, draw
+	hvals := make([][][3][]float64, np)
+	for p := range vals {
+		vals[p] = make([][]float64, nQuantities)
+		for q := range vals[p] {
+			vals[p][q] = make([]float64, o.Draws)
+		}
+		hvals[p] = make([][3][]float64, nh)
+		for h := range hvals[p] {
+			for c := 0; c < 3; c++ {
+				hvals[p][h][c] = make([]float64, o.Draws)
+			}
+		}
+	}
+	masses := make([]*[2]float64, np)
+	for p, pc := range pls {
+		if m, ok := o.Masses[pc.name]; ok {
+			masses[p] = &m
+		}
+	}
+	nblocks := (o.Draws + blockSize - 1) / blockSize
+	cols := len(post.Names)
+	runBlocks(o.Parallel, nblocks, func(blk int) {
+		r := rng.Derive(o.Seed, "derive/draws", uint64(blk))
+		lo, hi := blk*blockSize, min((blk+1)*blockSize, o.Draws)
+		for n := lo; n < hi; n++ {
+			i := pickWeighted(cw, r)
+			j := r.Intn(ns)
+			if pair != nil {
+				j = pair.Pick(fitLnRho[i], r)
+			}
+			d := 0
+			if len(hyps) > 0 {
+				d = j
+				if !dilByIndex {
+					d = r.Intn(len(hyps[0].FluxRatio))
+				}
+			}
+			row := post.Samples[i*cols : (i+1)*cols]
+			for p, pc := range pls {
+				var mass float64 = math.NaN()
+				if m := masses[p]; m != nil {
+					mass = truncNormal(r, m[0], m[1])
+				}
+				drawPlanet(vals[p], hvals[p], n, row, pc, star, j, hyps, d, dil, mass, magJ, hasJ, magK, hasK, o)
+			}
+		}
+	})
+
+	// Summaries.
+	a := &Artifact{Method: method.String(), FitSamples: nfit, Draws: o.Draws, ESS: ess,
+		ESSThreshold: o.ESSThreshold, Reweighted: reweighted, LowESS: lowESS}
+	if pair != nil {
+		a.Bandwidth = pair.H
+	}
+	note("%s", a.Method)
+	specs := quantitySpecs(o)
+	for p, pc := range pls {
+		pl := Planet{Name: pc.name}
+		for q := 0; q < nQuantities; q++ {
+			sp := specs[q]
+			if q == qEcc && pc.e < 0 {
+				continue
+			}
+			doc := sp.doc
+			switch q {
+			case qMass, qRV, qTSM:
+				if masses[p] != nil {
+					doc = strings.Replace(doc, massDocCK, massDocMeasured, 1)
+				}
+			}
+			if (q == qTSM && !hasJ) || (q == qESM && !hasK) {
+				band := "J"
+				if q == qESM {
+					band = "Ks"
+				}
+				note("planet %s: %s skipped: the star step gives no apparent %s magnitude", pc.name, sp.name, band)
+				continue
+			}
+			v := vals[p][q]
+			undefined := 0
+			for _, x := range v {
+				if math.IsNaN(x) || math.IsInf(x, 0) {
+					undefined++
+				}
+			}
+			if float64(undefined) > maxUndefined*float64(len(v)) {
+				note("planet %s: %s left out: undefined for %d of %d draws (%s)", pc.name, sp.name, undefined, len(v), undefinedReason(q))
+				continue
+			}
+			qt := Quantity{Name: sp.name, Unit: sp.unit, Doc: doc}
+			if dropped := summarise(&qt, v, sp.bounded); dropped > 0 {
+				note("planet %s: %s summarised over %d of %d draws; %d fell outside the relation's domain (%s)", pc.name, sp.name, len(v)-dropped, len(v), dropped, undefinedReason(q))
+			}
+			pl.Quantities = append(pl.Quantities, qt)
+		}
+		// The transit's own stellar density, before combining.
+		rho := make([]float64, nfit)
+		for i := range rho {
+			row := post.Samples[i*cols:]
+			rho[i], _ = astro.DensityFromScaledAxis(row[pc.aR], row[pc.period]*astro.Day)
+			rho[i] /= 1000
+		}
+		qt := Quantity{Name: "star_density_transit", Unit: "g/cm3",
+			Doc: "mean stellar density from this planet's a/R* and period alone, ρ = 3π(a/R*)³/(G P²) (Seager & Mallén-Ornelas 2003), from the fit's samples before combining with the star: compare it with the star's"}
+		summarise(&qt, rho, false)
+		pl.Quantities = append(pl.Quantities, qt)
+		if masses[p] == nil && hasMass(pl) {
+			note("planet %s: the mass is the Chen & Kipping (2017) mean mass–radius relation evaluated at the radius: a statistical guess, not a measurement, and its spread leaves out the relation's intrinsic scatter; give a measured mass in masses when there is one", pc.name)
+		}
+		for h := 0; h < nh; h++ {
+			hy := hyps[h+1]
+			hr := HostResult{Host: hy.Host}
+			for c, sp := range hostSpecs {
+				qt := Quantity{Name: sp.name, Unit: sp.unit, Doc: sp.doc + ", if the planet orbits " + hy.Host}
+				summarise(&qt, hvals[p][h][c], sp.bounded)
+				hr.Quantities = append(hr.Quantities, qt)
+			}
+			hr.NotPlanetary = hr.Quantities[2].Median > o.MaxPlanetRadius
+			if hr.NotPlanetary {
+				note("planet %s: if it orbited %s its radius would be %s, above %g R_jup: not a planet on that host", pc.name, hy.Host, hr.Quantities[2].Format(), o.MaxPlanetRadius)
+			}
+			pl.Hosts = append(pl.Hosts, hr)
+		}
+		a.Planets = append(a.Planets, pl)
+	}
+	return a, notes, nil
+}
+
+func hasMass(p Planet) bool {
+	for _, q := range p.Quantities {
+		if q.Name == "mass_earth" {
+			return true
+		}
+	}
+	return false
+}
+
+// fitDensityLo, fitDensityHi are the fit's prior bounds on the stellar density (g/cm³,
+// log-uniform; steps/fit).
+const fitDensityLo, fitDensityHi = 0.01, 100.0
+
+// massDocCK and massDocMeasured name the mass's origin in the docs.
+const (
+	massDocCK       = "mass from the Chen & Kipping (2017) mean mass–radius relation (statistical, not a measurement)"
+	massDocMeasured = "measured mass given in masses"
+)
+
+// quantitySpecs lists the per-planet quantities in table order.
+func quantitySpecs(o Options) [nQuantities]qspec {
+	var s [nQuantities]qspec
+	s[qRatio] = qspec{"radius_ratio", "", "radius ratio Rp/R* of a planet on the target, corrected for dilution (k_obs √(1 + flux ratio))", true}
+	s[qDepth] = qspec{"depth_undiluted", "ppm", "occulted area fraction k² the target alone would show, corrected for dilution", true}
+	s[qRadiusEarth] = qspec{"radius_earth", "R_earth", "planet radius on the target, k × R* (IAU 2015 nominal Earth equatorial radius)", true}
+	s[qRadiusJup] = qspec{"radius_jup", "R_jup", "planet radius on the target, k × R* (IAU 2015 nominal Jupiter equatorial radius)", true}
+	s[qAxisAU] = qspec{"a_au", "au", "semi-major axis from the period and the star's mass by Kepler's third law (planet mass neglected; a/R* × R* when the star gives no mass)", false}
+	s[qAxisScaled] = qspec{"a_over_rstar", "", "semi-major axis over the star's radius, from the fit", false}
+	s[qIncl] = qspec{"inclination", "deg", "orbital inclination, i = arccos[b (R*/a)(1 + e sin ω)/(1 − e²)] (Winn 2010)", false}
+	s[qImpact] = qspec{"impact", "", "impact parameter b in stellar radii", true}
+	s[qEcc] = qspec{"eccentricity", "", "orbital eccentricity", true}
+	s[qT14] = qspec{"t14", "h", "first-to-fourth-contact duration (Winn 2010) with the fit's own k, b and a/R*: the transit as observed", false}
+	s[qT23] = qspec{"t23", "h", "second-to-third-contact duration (Winn 2010) with the fit's own k, b and a/R*; 0 for a grazing transit", false}
+	s[qTeq] = qspec{"teq", "K", fmt.Sprintf("equilibrium temperature, Teff (R*/a)^½ [f (1 − A)]^¼, Bond albedo A = %g, %s heat redistribution (f = %.3g); flux-averaged distance when eccentric", o.Albedo, o.RedistributionName, o.Redistribution), false}
+	s[qInsol] = qspec{"insolation", "S_earth", "bolometric flux received relative to Earth's, (L*/L_sun)(1 au/a)², orbit-averaged (÷ √(1 − e²)) when eccentric; L* = R*² (Teff/5772 K)⁴ when the star gives no luminosity", false}
+	s[qProb] = qspec{"transit_probability", "", "geometric probability that the planet's centre crosses the star's disc for a random orientation, (R*/a)(1 + e sin ω)/(1 − e²) (Winn 2010)", false}
+	s[qAngle] = qspec{"star_angle", "deg", "angular diameter of the star seen from the planet at distance a, 2 arcsin(R*/a)", false}
+	s[qAngleRel] = qspec{"star_angle_vs_sun", "", "angular diameter of the star seen from the planet over that of the Sun seen from Earth (2 arcsin(R_sun/1 au) = 0.533 deg)", false}
+	s[qMass] = qspec{"mass_earth", "M_earth", massDocCK, true}
+	s[qRV] = qspec{"rv_amplitude", "m/s", "radial-velocity semi-amplitude the planet induces on the star, K = (2πG/P)^⅓ Mp sin i/(M* + Mp)^⅔/√(1 − e²), using the " + massDocCK, false}
+	s[qTSM] = qspec{"tsm", "", "transmission spectroscopy metric (Kempton et al. 2018), Teq for zero albedo and full redistribution, apparent J magnitude, using the " + massDocCK, false}
+	s[qESM] = qspec{"esm", "", "emission spectroscopy metric at 7.5 µm (Kempton et al. 2018), dayside 1.10 Teq for zero albedo and full redistribution, apparent Ks magnitude", false}
+	return s
+}
+
+// hostSpecs are the quantities reported per companion host hypothesis.
+var hostSpecs = [3]qspec{
+	{"radius_ratio", "", "radius ratio against the host, k_obs √(1 + flux ratio of all other stars over the host's)", true},
+	{"radius_earth", "R_earth", "planet radius, k × R_host", true},
+	{"radius_jup", "R_jup", "planet radius, k × R_host", true},
+}
+
+// undefinedReason says why a quantity can be undefined for a draw.
+func undefinedReason(q int) string {
+	switch q {
+	case qMass, qRV:
+		return "the Chen & Kipping relation gives no mass above about 14 R_earth, where radius does not determine mass, or the star gives no mass"
+	case qTSM:
+		return "the metric's scale factors stop at 10 R_earth, or there is no mass"
+	case qTeq, qInsol, qESM:
+		return "the star gives no effective temperature"
+	case qIncl, qT14, qT23:
+		return "the impact parameter exceeds the projected orbit"
+	}
+	return "outside the relation's domain"
+}
+
+// drawPlanet fills draw n of one planet's quantities.
+func drawPlanet(v [][]float64, hv [][3][]float64, n int, row []float64, pc planetCols, star *stellar.Star, j int,
+	hyps []stellar.Hypothesis, d int, dil *stellar.Dilution, mass, magJ float64, hasJ bool, magK float64, hasK bool, o Options) {
+	nan := math.NaN()
+	per, kObs, b, aR := row[pc.period], row[pc.k], row[pc.b], row[pc.aR]
+	e, om := 0.0, math.Pi/2
+	if pc.e >= 0 {
+		e, om = row[pc.e], row[pc.omega]*math.Pi/180 // the fit gives ω in degrees
+	}
+	// k as the undiluted light curve gives it, and k on the target.
+	kRaw, kTrue := kObs, kObs
+	if pc.dil >= 0 {
+		kRaw = kObs / math.Sqrt(1+row[pc.dil])
+	} else if len(hyps) > 0 && !dil.AlreadyCorrected {
+		kTrue = kObs * math.Sqrt(1+hyps[0].FluxRatio[d])
+	}
+	rs := star.Radius[j]
+	teff, ms, lum := nan, nan, nan
+	if star.Teff != nil {
+		teff = star.Teff[j]
+	}
+	if star.Mass != nil {
+		ms = star.Mass[j]
+	}
+	if star.Luminosity != nil {
+		lum = star.Luminosity[j]
+	} else if star.Teff != nil {
+		t := teff / astro.SolarTeff
+		lum = rs * rs * t * t * t * t
+	}
+	rpSun := kTrue * rs
+	rpEarth := rpSun * astro.SolarRadius / astro.EarthRadius
+	v[qRatio][n] = kTrue
+	v[qDepth][n] = kTrue * kTrue * 1e6
+	v[qRadiusEarth][n] = rpEarth
+	v[qRadiusJup][n] = rpSun * astro.SolarRadius / astro.JupiterRadius
+	aAU := aR * rs * astro.SolarRadius / astro.AU
+	if ms > 0 {
+		aAU, _ = astro.SemiMajorAxisAU(per, ms)
+	}
+	v[qAxisAU][n] = aAU
+	v[qAxisScaled][n] = aR
+	inc, err := astro.Inclination(b, aR, e, om)
+	if err != nil {
+		inc = nan
+	}
+	v[qIncl][n] = inc * 180 / math.Pi
+	v[qImpact][n] = b
+	v[qEcc][n] = e
+	v[qT14][n] = orNaN(astro.TotalDuration(per, aR, kObs, b, e, om)) * 24
+	v[qT23][n] = orNaN(astro.FullDuration(per, aR, kObs, b, e, om)) * 24
+	v[qTeq][n] = orNaN(astro.EquilibriumTemperature(teff, aR, e, o.Albedo, o.Redistribution))
+	v[qInsol][n] = orNaN(astro.Insolation(lum, aAU)) / math.Sqrt(1-e*e)
+	v[qProb][n] = orNaN(astro.TransitProbability(aR, 0, e, om, false))
+	ang := 2 * math.Asin(math.Min(1, 1/aR)) * 180 / math.Pi
+	v[qAngle][n] = ang
+	v[qAngleRel][n] = ang / sunAngle
+	if math.IsNaN(mass) {
+		mass = orNaN(astro.ChenKippingMass(rpEarth))
+	}
+	v[qMass][n] = mass
+	v[qRV][n] = nan
+	if mass > 0 && ms > 0 {
+		v[qRV][n] = orNaN(astro.RVSemiAmplitude(per*astro.Day, mass*astro.EarthGM, ms*astro.SolarGM, inc, e))
+	}
+	teq0 := orNaN(astro.EquilibriumTemperature(teff, aR, e, 0, astro.RedistributionFull))
+	v[qTSM][n], v[qESM][n] = nan, nan
+	if hasJ && mass > 0 {
+		v[qTSM][n] = orNaN(astro.TransmissionMetric(rpEarth, mass, rs, teq0, magJ))
+	}
+	if hasK {
+		v[qESM][n] = orNaN(astro.EmissionMetric(kTrue, teq0, teff, magK))
+	}
+	for h := range hv {
+		hy := hyps[h+1]
+		k := kRaw * math.Sqrt(1+hy.FluxRatio[d])
+		r := math.NaN() // the host's radius is unknown
+		if hy.RadiusScale != nil {
+			r = k * hy.RadiusScale[d] * rs
+		}
+		hv[h][0][n] = k
+		hv[h][1][n] = r * astro.SolarRadius / astro.EarthRadius
+		hv[h][2][n] = r * astro.SolarRadius / astro.JupiterRadius
+	}
+}
+
+// maxRescaledDilution is the largest flux ratio of contaminating to target light for which
+// rescaling k after the fit, k√(1+D), matches a fit of the diluted shape to 1 % of k (for
+// k ≤ 0.2; measured in TestRescaledKMatchesAFitOfTheDilutedShape).
+const maxRescaledDilution = 0.1
+
+// orNaN returns x, or NaN when err is set.
+func orNaN(x float64, err error) float64 {
+	if err != nil {
+		return math.NaN()
+	}
+	return x
+}
+
+// truncNormal draws from a normal of mean m and deviation s truncated to positive values
+// (a measured mass cannot be negative), by redrawing; a hopeless case returns m.
+func truncNormal(r *rng.Stream, m, s float64) float64 {
+	for try := 0; try < 100; try++ {
+		if x := m + s*r.Normal(); x > 0 {
+			return x
+		}
+	}
+	return m
+}
+
+// sortedQuantile returns f of the p-quantile of a copy of v.
+func sortedQuantile(v []float64, p float64, f func(float64) float64) float64 {
+	s := append([]float64(nil), v...)
+	sort.Float64s(s)
+	return f(quantile(s, p))
+}
+
+// par runs body over [0, n) in fixed blocks of blockSize.
+func par(parallel func(int, func(int)), n int, body func(lo, hi int)) {
+	nb := (n + blockSize - 1) / blockSize
+	runBlocks(parallel, nb, func(b int) { body(b*blockSize, min((b+1)*blockSize, n)) })
+}
+
+func runBlocks(parallel func(int, func(int)), n int, block func(int)) {
+	if parallel == nil {
+		for i := 0; i < n; i++ {
+			block(i)
+		}
+		return
+	}
+	parallel(n, block)
+}

@@ -1,0 +1,334 @@
+package fit
+
+import (
+	"context"
+	"errors"
+	"math"
+	"slices"
+	"testing"
+
+	"dipline/steps"
+	"dipline/steps/internal/rng"
+	"dipline/steps/internal/signals"
+	"dipline/steps/internal/steptest"
+	"dipline/steps/internal/transit"
+)
+
+func TestParsePriorReadsTheFourFamilies(t *testing.T) {
+	cases := []struct {
+		name, in string
+		want     Prior
+	}{
+		{"a normal prior gives its mean and sigma", "normal(3.7185, 0.0004)", Prior{Normal, 3.7185, 0.0004}},
+		{"a uniform prior gives its bounds", " uniform( 0 ,0.9 ) ", Prior{Uniform, 0, 0.9}},
+		{"a log-uniform prior gives its bounds", "log_uniform(1, 30)", Prior{LogUniform, 1, 30}},
+		{"a fixed value is one number", "fixed(0.05)", Prior{Fixed, 0.05, 0.05}},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			got, err := ParsePrior(c.in)
+			if err != nil || got != c.want {
+				t.Errorf("ParsePrior(%q) = %+v, %v; want %+v", c.in, got, err, c.want)
+			}
+			if back, err := ParsePrior(got.String()); err != nil || back != got {
+				t.Errorf("String %q does not parse back: %+v, %v", got.String(), back, err)
+			}
+		})
+	}
+	bad := []struct{ name, in string }{
+		{"an unknown family is refused", "gamma(1, 2)"},
+		{"a missing parenthesis is refused", "normal(1, 2"},
+		{"a fixed prior with two numbers is refused", "fixed(1, 2)"},
+		{"a zero sigma is refused", "normal(1, 0)"},
+		{"reversed bounds are refused", "uniform(2, 1)"},
+		{"a log-uniform from zero is refused", "log_uniform(0, 1)"},
+		{"a word for a number is refused", "normal(one, 2)"},
+		{"an infinite bound is refused", "uniform(0, Inf)"},
+	}
+	for _, c := range bad {
+		t.Run(c.name, func(t *testing.T) {
+			if p, err := ParsePrior(c.in); err == nil {
+				t.Errorf("ParsePrior(%q) = %+v, want an error", c.in, p)
+			}
+		})
+	}
+}
+
+func TestParseLimbPrior(t *testing.T) {
+	t.Run("the plus-minus sign and its ASCII spelling both parse", func(t *testing.T) {
+		want := LimbPrior{0.35, 0.05, 0.25, 0.04}
+		for _, s := range []string{"u1 = 0.35 ± 0.05, u2 = 0.25 ± 0.04", "u2=0.25+/-0.04,u1=0.35+/-0.05"} {
+			if got, err := ParseLimbPrior(s); err != nil || got != want {
+				t.Errorf("%q: %+v, %v; want %+v", s, got, err, want)
+			}
+		}
+	})
+	for _, s := range []string{"u1 = 0.35 ± 0.05", "u1 = 0.35, u2 = 0.25", "u1 = 0.3 ± 0, u2 = 0.2 ± 0.1", "u3 = 0.1 ± 0.1, u1 = 0.3 ± 0.1", "u1 = 0.3 ± 0.1, u1 = 0.3 ± 0.1"} {
+		t.Run("a malformed prior is refused: "+s, func(t *testing.T) {
+			if _, err := ParseLimbPrior(s); err == nil {
+				t.Error("no error")
+			}
+		})
+	}
+}
+
+func TestKippingJacobianMatchesFiniteDifferences(t *testing.T) {
+	// Reference: central finite differences of transit.QuadraticFromKipping (numerical
+	// differentiation, step 1e-6, error O(h²) ≈ 1e-12 relative to the derivatives).
+	const h = 1e-6
+	for _, q := range [][2]float64{{0.36, 0.33}, {0.05, 0.9}, {0.8, 0.1}, {0.5, 0.5}, {0.99, 0.01}} {
+		t.Run("the determinant agrees at a point inside the unit square", func(t *testing.T) {
+			u1p, u2p := transit.QuadraticFromKipping(q[0]+h, q[1])
+			u1m, u2m := transit.QuadraticFromKipping(q[0]-h, q[1])
+			a11, a21 := (u1p-u1m)/(2*h), (u2p-u2m)/(2*h)
+			u1p, u2p = transit.QuadraticFromKipping(q[0], q[1]+h)
+			u1m, u2m = transit.QuadraticFromKipping(q[0], q[1]-h)
+			a12, a22 := (u1p-u1m)/(2*h), (u2p-u2m)/(2*h)
+			num := a11*a22 - a12*a21
+			if got := JacobianQ(q[0], q[1]); math.Abs(got-num) > 1e-7 {
+				t.Errorf("q = %v: analytic %v, finite differences %v", q, got, num)
+			}
+		})
+	}
+}
+
+func TestLimbPriorDrawsMapToTheStatedMoments(t *testing.T) {
+	// Monte Carlo: draws of (q1, q2) from the prior density LogPDF (rejection sampling from
+	// the uniform square) mapped to (u1, u2) must have the stated means and sigmas, because
+	// the density in q includes the Jacobian. The stated priors lie well inside the physical
+	// triangle, so truncation moves the moments by far less than the tolerance. 40 000
+	// accepted draws: the standard error of a mean is σ/200, of a σ about σ/280; tolerance
+	// 4 standard errors.
+	cases := []struct {
+		name string
+		lp   LimbPrior
+	}{
+		{"a Sun-like red-band prior", LimbPrior{0.40, 0.05, 0.25, 0.05}},
+		{"a cool star's strongly darkened prior", LimbPrior{0.55, 0.04, 0.15, 0.06}},
+	}
+	for ci, c := range cases {
+		t.Run(c.name+" gives back its means and sigmas", func(t *testing.T) {
+			r := rng.Derive(uint64(ci), "fit-test/limb-prior", 0)
+			const want = 40000
+			var u1s, u2s []float64
+			for len(u1s) < want {
+				q1, q2 := r.Float64(), r.Float64()
+				if math.Log(r.Float64()) < c.lp.LogPDF(q1, q2) { // the density's maximum is exp(0)
+					u1, u2 := transit.QuadraticFromKipping(q1, q2)
+					u1s, u2s = append(u1s, u1), append(u2s, u2)
+				}
+			}
+			for _, v := range []struct {
+				name      string
+				x         []float64
+				mean, sig float64
+			}{{"u1", u1s, c.lp.U1, c.lp.U1Sigma}, {"u2", u2s, c.lp.U2, c.lp.U2Sigma}} {
+				m, s := meanSD(v.x)
+				if math.Abs(m-v.mean) > 4*v.sig/math.Sqrt(want) {
+					t.Errorf("%s mean %.5f, stated %.5f", v.name, m, v.mean)
+				}
+				if math.Abs(s-v.sig) > 4*v.sig/math.Sqrt(2*want) {
+					t.Errorf("%s sigma %.5f, stated %.5f", v.name, s, v.sig)
+				}
+			}
+		})
+	}
+}
+
+func meanSD(x []float64) (float64, float64) {
+	m := 0.0
+	for _, v := range x {
+		m += v
+	}
+	m /= float64(len(x))
+	s := 0.0
+	for _, v := range x {
+		s += (v - m) * (v - m)
+	}
+	return m, math.Sqrt(s / float64(len(x)-1))
+}
+
+func TestPriorsEnterTheLogPosteriorExactly(t *testing.T) {
+	// Two points differing in one parameter: the change of LogPost with a prior minus the
+	// change without it must be the prior's own log ratio, computed here by hand from the
+	// densities' definitions (normal: −½((x−μ)/σ)²; on the density, sampled as log10 ρ, a
+	// prior p(ρ) becomes p(ρ)·ρ·ln 10, and a log-uniform one is flat in log10 ρ).
+	lc, sigs := windowCurve([]truth{hot}, 300, defaultWindow, 300e-6, 4)
+	cases := []struct {
+		name   string
+		key    string
+		prior  Prior
+		idx    int // full index changed
+		x1, x2 float64
+		want   float64
+	}{
+		{"a normal prior on the period", "b.period", Prior{Normal, 3.0, 2e-4}, iPeriod, 3.0001, 2.9997,
+			-0.5 * (math.Pow(0.0001/2e-4, 2) - math.Pow(-0.0003/2e-4, 2))},
+		{"a uniform prior on b is flat inside", "b.b", Prior{Uniform, 0, 0.9}, iB, 0.3, 0.5, 0},
+		{"a log-uniform prior on the density is flat in log10 density", "star_density", Prior{LogUniform, 0.5, 3}, perPlanet + gDensity,
+			math.Log10(1.2), math.Log10(1.6), 0},
+		{"a normal prior on the density carries the Jacobian", "star_density", Prior{Normal, 1.4, 0.1}, perPlanet + gDensity,
+			math.Log10(1.3), math.Log10(1.55), -0.5*(math.Pow(-0.1/0.1, 2)-math.Pow(0.15/0.1, 2)) + math.Log(1.3/1.55)},
+	}
+	for _, c := range cases {
+		t.Run(c.name+" changes the log posterior by its log ratio", func(t *testing.T) {
+			base := Options{Signals: sigs, Window: defaultWindow, Supersample: true}
+			with := base
+			with.Priors = map[string]Prior{c.key: c.prior}
+			m0, art, _, _, _, err := setup(lc, base)
+			if err != nil {
+				t.Fatal(err)
+			}
+			m1, _, _, _, _, err := setup(lc, with)
+			if err != nil {
+				t.Fatal(err)
+			}
+			x := truthVector(m0, art, []truth{hot})
+			pos := freePos(m0, c.idx)
+			at := func(m *Model, v float64) float64 {
+				y := slices.Clone(x)
+				y[pos] = v
+				return m.LogPost(y)
+			}
+			got := (at(m1, c.x1) - at(m1, c.x2)) - (at(m0, c.x1) - at(m0, c.x2))
+			if math.Abs(got-c.want) > 1e-8*math.Max(1, math.Abs(c.want)) {
+				t.Errorf("prior log ratio %.12g, want %.12g", got, c.want)
+			}
+		})
+	}
+	t.Run("a uniform prior excludes points outside it", func(t *testing.T) {
+		o := Options{Signals: sigs, Window: defaultWindow, Priors: map[string]Prior{"b.b": {Uniform, 0, 0.9}}}
+		m, art, _, _, _, err := setup(lc, o)
+		if err != nil {
+			t.Fatal(err)
+		}
+		x := truthVector(m, art, []truth{hot})
+		x[freePos(m, iB)] = 0.95
+		if lp := m.LogPost(x); !math.IsInf(lp, -1) {
+			t.Errorf("b = 0.95 under uniform(0, 0.9): log posterior %v", lp)
+		}
+	})
+}
+
+func TestFixedParametersAreNotSampled(t *testing.T) {
+	lc := synthetic(hot, 7, 800e-6, 3)
+	art, notes := runKind(t, map[string]any{"light_curve": "detrend.x", "signals": "search.x", "max_steps": int64(200),
+		"priors": map[string]string{"b.k": "fixed(0.1)", "star_density": "log_uniform(0.5, 3)"}}, lc, []signals.Signal{start(hot)}, 1, 3)
+	t.Run("b.k is not among the sampled columns", func(t *testing.T) {
+		if slices.Contains(art.Names[:art.Sampled], "b.k") || art.Sampled != 7 {
+			t.Errorf("sampled %v", art.Names[:art.Sampled])
+		}
+	})
+	t.Run("b.k is a constant column at its fixed value", func(t *testing.T) {
+		col := art.Column("b.k")
+		if len(col) == 0 {
+			t.Fatal("no b.k column")
+		}
+		for _, v := range col {
+			if v != 0.1 {
+				t.Fatalf("b.k draw %v", v)
+			}
+		}
+	})
+	t.Run("every density draw lies inside the log-uniform prior's range", func(t *testing.T) {
+		for _, v := range art.Column("star_density") {
+			if !(v >= 0.5 && v <= 3) {
+				t.Fatalf("density draw %v outside 0.5–3", v)
+			}
+		}
+	})
+	t.Run("the priors are listed in the artifact and the notes", func(t *testing.T) {
+		want := []string{"prior: b.k fixed(0.1)", "prior: star_density log_uniform(0.5, 3)"}
+		if !slices.Equal(art.Priors, want) {
+			t.Errorf("priors %q", art.Priors)
+		}
+		for _, w := range want {
+			if !slices.Contains(notes, w) {
+				t.Errorf("no note %q", w)
+			}
+		}
+	})
+}
+
+func TestPriorErrorsNameTheAttributeAndKey(t *testing.T) {
+	cases := []struct {
+		name string
+		set  map[string]any
+		attr string
+	}{
+		{"an unknown prior family", map[string]any{"priors": map[string]string{"b.k": "gamma(1, 2)"}}, "priors"},
+		{"an unknown parameter", map[string]any{"priors": map[string]string{"b.mass": "normal(1, 2)"}}, "priors"},
+		{"a prior on the mid-transit time", map[string]any{"priors": map[string]string{"b.t0": "normal(1, 2)"}}, "priors"},
+		{"a negative density", map[string]any{"priors": map[string]string{"star_density": "uniform(-1, 2)"}}, "priors"},
+		{"a density prior beside a star reference", map[string]any{"star": "star.x", "priors": map[string]string{"star_density": "normal(1, 0.1)"}}, "priors"},
+		{"a fixed k of 2", map[string]any{"priors": map[string]string{"c.k": "fixed(2)"}}, "priors"},
+		{"a malformed limb-darkening prior", map[string]any{"limb_darkening": map[string]string{"red": "u1 = 0.3"}}, "limb_darkening"},
+		{"an eccentric planet e", map[string]any{"eccentric": []string{"e"}}, "eccentric"},
+		{"an eccentric planet beyond those fitted", map[string]any{"planets": int64(1), "eccentric": []string{"c"}}, "eccentric"},
+	}
+	for _, c := range cases {
+		t.Run(c.name+" is refused naming "+c.attr, func(t *testing.T) {
+			c.set["light_curve"], c.set["signals"] = "detrend.x", "search.x"
+			_, err := Kind{}.Prepare(steptest.Values(Kind{}, c.set))
+			var ae *steps.AttrError
+			if !errors.As(err, &ae) || ae.Attr != c.attr {
+				t.Errorf("error %v, want one naming %q", err, c.attr)
+			}
+		})
+	}
+	t.Run("a prior on a planet the search did not give is refused at run time", func(t *testing.T) {
+		lc := synthetic(hot, 7, 800e-6, 3)
+		_, _, err := Fit(context.Background(), lc, Options{Signals: []signals.Signal{start(hot)}, MaxSteps: 100, Ensembles: 2,
+			Window: 2.5, Priors: map[string]Prior{"c.b": {Uniform, 0, 0.9}}})
+		var ae *steps.AttrError
+		if !errors.As(err, &ae) || ae.Attr != "priors" {
+			t.Errorf("error %v", err)
+		}
+	})
+	t.Run("a limb-darkening band no segment has is refused at run time", func(t *testing.T) {
+		lc := synthetic(hot, 7, 800e-6, 3)
+		_, _, err := Fit(context.Background(), lc, Options{Signals: []signals.Signal{start(hot)}, MaxSteps: 100, Ensembles: 2,
+			Window: 2.5, Limb: map[string]LimbPrior{"blue": {0.5, 0.1, 0.2, 0.1}}})
+		var ae *steps.AttrError
+		if !errors.As(err, &ae) || ae.Attr != "limb_darkening" {
+			t.Errorf("error %v", err)
+		}
+	})
+}
+
+func FuzzParsePrior(f *testing.F) {
+	for _, s := range []string{"normal(3.7185, 0.0004)", "uniform(0, 0.9)", "log_uniform(1, 30)", "fixed(0.05)", "normal(", "(,)"} {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, s string) {
+		p, err := ParsePrior(s)
+		if err != nil {
+			return
+		}
+		// Whatever parses is a proper prior that prints back to itself.
+		if q, err := ParsePrior(p.String()); err != nil || q != p {
+			t.Errorf("%q → %+v → %q → %+v, %v", s, p, p.String(), q, err)
+		}
+		if math.IsNaN(p.LogPDF(p.centre())) || math.IsInf(p.LogPDF(p.centre()), 0) {
+			t.Errorf("%q: density at the centre %v", s, p.LogPDF(p.centre()))
+		}
+	})
+}
+
+func FuzzParseLimbPrior(f *testing.F) {
+	for _, s := range []string{"u1 = 0.35 ± 0.05, u2 = 0.25 ± 0.05", "u1=1+/-2,u2=3+/-4", "u1 = ±, u2"} {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, s string) {
+		lp, err := ParseLimbPrior(s)
+		if err != nil {
+			return
+		}
+		if !(lp.U1Sigma > 0 && lp.U2Sigma > 0) {
+			t.Errorf("%q: sigmas %v, %v", s, lp.U1Sigma, lp.U2Sigma)
+		}
+		if v := lp.LogPDF(0.5, 0.5); math.IsNaN(v) {
+			t.Errorf("%q: NaN density", s)
+		}
+	})
+}
