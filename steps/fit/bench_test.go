@@ -48,8 +48,15 @@ func longCurve(trs []truth, days, cadence, sigma float64, seed uint64) *lightcur
 
 // BenchmarkLogPost is one evaluation of the log posterior at the truth of three planets
 // in two years of 30-min data (300 ppm), with supersampling and jitter, as the sampler
-// calls it; it reports likelihood evaluations per second of one core.
+// calls it; it reports likelihood evaluations per second of one core. The sub-benchmarks
+// compare the tabulated transit shape (the default) with direct evaluation of every
+// sub-exposure in the same run.
 func BenchmarkLogPost(b *testing.B) {
+	b.Run("tabulated", func(b *testing.B) { benchLogPost(b, false) })
+	b.Run("direct", func(b *testing.B) { benchLogPost(b, true) })
+}
+
+func benchLogPost(b *testing.B, direct bool) {
 	trs := []truth{hot, small, third}
 	lc := longCurve(trs, 730, 30.0/1440, 300e-6, 1)
 	var sigs []signals.Signal
@@ -60,6 +67,7 @@ func BenchmarkLogPost(b *testing.B) {
 	if err != nil {
 		b.Fatal(err)
 	}
+	m.direct = direct
 	x := truthVector(m, art, trs)
 	if lp := m.LogPost(x); math.IsInf(lp, 0) || math.IsNaN(lp) {
 		b.Fatalf("log posterior %v at the truth", lp)

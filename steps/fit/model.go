@@ -116,7 +116,10 @@ type Model struct {
 	free      []int   // indices of the sampled entries in params
 	maxFine   int
 	maxPoints int
-	scratch   sync.Pool
+	// direct turns off the tabulated transit shape (tabulate), for the tests that compare
+	// the pruned computation with the plain one bit for bit.
+	direct  bool
+	scratch sync.Pool
 }
 
 // dim is the number of sampled parameters.
@@ -146,6 +149,7 @@ func (m *Model) expand(dst, x []float64) []float64 {
 type orbit struct {
 	aR, e, omega float64
 	reach        float64 // half-width, in phase, of the stretch around mid-transit with z < 1+k
+	ingress      float64 // first-to-second contact (days); half of T14 when grazing
 }
 
 // workspace is the scratch space of one LogPost call.
@@ -156,6 +160,11 @@ type workspace struct {
 	mod         []float64 // exposure-averaged model per point
 	slot        []int32   // per point: its block in sum, or −1 when no planet is near
 	near        [maxPlanets][]int32
+	add         []float64 // per point: Σ over tabulated planets of (flux − 1), exposure-averaged
+	table       transit.Table
+	nodes       []float64 // the times of the tabulation grid
+	nodeZ       []float64
+	nodeFlux    []float64
 }
 
 func (m *Model) workspace() *workspace {
@@ -164,7 +173,7 @@ func (m *Model) workspace() *workspace {
 	}
 	n, p := m.maxFine, m.maxPoints
 	w := &workspace{full: make([]float64, len(m.params)), tsub: make([]float64, n), z: make([]float64, n), fl: make([]float64, n),
-		sum: make([]float64, n), mod: make([]float64, p), slot: make([]int32, p)}
+		sum: make([]float64, n), mod: make([]float64, p), slot: make([]int32, p), add: make([]float64, p)}
 	for j := 0; j < m.planets; j++ {
 		w.near[j] = make([]int32, 0, p)
 	}
@@ -198,6 +207,7 @@ func (m *Model) geometry(x []float64, j int, rho float64) (orbit, bool) {
 	if !(o.e < 1) || !(o.aR*(1-o.e) > 1+k) {
 		return orbit{}, false
 	}
+	o.ingress = ingressTime(p[iPeriod], o, k, b)
 	if !m.ecc[j] {
 		// z ≥ 1+k ⇔ sin²φ ≥ ((1+k)² − b²)/(aR² − b²) on the near half of a circular orbit
 		// (z² = b² + (aR² − b²) sin²φ, Winn 2010 with e = 0); b < 1+k < aR.
@@ -221,6 +231,80 @@ func (m *Model) geometry(x []float64, j int, rho float64) (orbit, bool) {
 		o.reach = 0.5
 	}
 	return o, true
+}
+
+// ingressTime is the first-to-second contact time in days (Winn 2010 durations, through
+// astro), or half of T14 for a grazing transit.
+func ingressTime(period float64, o orbit, k, b float64) float64 {
+	t14, err14 := astro.TotalDuration(period, o.aR, k, b, o.e, o.omega)
+	t23, err23 := astro.FullDuration(period, o.aR, k, b, o.e, o.omega)
+	if err14 != nil || err23 != nil || !(t14 > 0) {
+		return 0
+	}
+	return (t14 - t23) / 2
+}
+
+// maxTableNodes bounds a tabulated transit; a finer one is not cheaper than direct
+// evaluation of any realistic data set.
+const maxTableNodes = 1 << 15
+
+// tabulate adds planet j's exposure-averaged flux − 1 to ws.add at the points near, from
+// the transit shape tabulated once on a grid of times from mid-transit (transit.Table):
+// every transit of a planet on a fixed Keplerian orbit is the same function of the time
+// from its own mid-transit.
+//
+// The grid's spacing g divides half the sub-exposure spacing (exposure/2n) an integer r
+// times and is no coarser than transit.TableStep, so each node's n sub-exposure times fall
+// on grid points too: the instantaneous flux is computed once per grid point and each
+// node's exposure average is the mean of n of them — the same midpoint sum (Kipping 2010)
+// that direct evaluation forms, for about one flux evaluation per node instead of n.
+//
+// It returns false, doing nothing, when the table would cost as much as evaluating the
+// points directly, or for instantaneous points (whose curve has corners at the contacts
+// that the interpolation would round).
+func (m *Model) tabulate(ws *workspace, sd *segData, near []int32, x []float64, j int, o orbit, u1, u2 float64) bool {
+	n := sd.nsub
+	if m.direct || n < 2 || !(o.ingress > 0) {
+		return false
+	}
+	p := x[perPlanet*j:]
+	period, t0 := p[iPeriod], p[iT0]
+	half := o.reach*period + sd.half // beyond ±half every sub-exposure is past contact
+	g0 := sd.half / float64(n)       // half the sub-exposure spacing
+	r := max(1, int(math.Ceil(g0/transit.TableStep(o.ingress, 2*sd.half))))
+	g := g0 / float64(r)
+	nodes := int(math.Ceil(2*half/g)) + 1
+	ext := (n - 1) * r // grid points beyond each end that the end nodes' sub-exposures reach
+	if nodes+2*ext > maxTableNodes || 2*(nodes+2*ext) >= len(near)*n {
+		return false
+	}
+	// The instantaneous flux on the grid t0 − half + (i − ext)·g, i = 0 … nodes + 2·ext − 1.
+	ws.table.Start, ws.table.Step = -half, g
+	ws.nodes = ws.table.Nodes(ws.nodes, nodes+2*ext)
+	for i := range ws.nodes {
+		ws.nodes[i] += t0 - float64(ext)*g
+	}
+	// Full-capacity slices: the transit helpers reallocate only when dst is too short.
+	ws.nodeZ = m.separation(ws.nodeZ[:cap(ws.nodeZ)], ws.nodes, x, j, o)
+	ws.nodeFlux = transit.Flux(ws.nodeFlux[:cap(ws.nodeFlux)], ws.nodeZ, p[iK], u1, u2)
+	if cap(ws.table.Y) < nodes {
+		ws.table.Y = make([]float64, nodes)
+	}
+	ws.table.Y = ws.table.Y[:nodes]
+	inv := 1 / float64(n)
+	for i := range ws.table.Y {
+		s := 0.0
+		for q := 0; q < n; q++ {
+			s += ws.nodeFlux[i+ext+(2*q+1-n)*r]
+		}
+		ws.table.Y[i] = s * inv
+	}
+	for _, i := range near {
+		d := sd.t[i] - t0
+		d -= math.Round(d/period) * period
+		ws.add[i] += ws.table.At(d) - 1
+	}
+	return true
 }
 
 // separation writes the separations at times t of planet j in the full vector x.
@@ -268,9 +352,11 @@ func (m *Model) model(ws *workspace, sd *segData, x []float64, orb []orbit, u1, 
 	for i := range sum {
 		sum[i] = 1
 	}
+	add := ws.add[:len(sd.t)]
+	clear(add)
 	for j := 0; j < np; j++ {
 		near := ws.near[j]
-		if len(near) == 0 {
+		if len(near) == 0 || m.tabulate(ws, sd, near, x, j, orb[j], u1, u2) {
 			continue
 		}
 		tsub := ws.tsub[:len(near)*n]
@@ -296,7 +382,7 @@ func (m *Model) model(ws *workspace, sd *segData, x []float64, orb []orbit, u1, 
 		for _, v := range sum[int(sl)*n : int(sl+1)*n] {
 			s += v
 		}
-		mod[i] = s / float64(n)
+		mod[i] = s/float64(n) + add[i]
 	}
 	if dil != 0 {
 		for i, v := range mod {

@@ -92,7 +92,7 @@ func TestTabulatedTransitMatchesDirectEvaluation(t *testing.T) {
 				}
 				rel := worst / depth
 				worstRel = math.Max(worstRel, rel)
-				if rel > 1e-3 {
+				if rel > 3e-4 {
 					t.Errorf("k %.2f b %.2f exposure %.0f min: %d nodes, error %.2g of the depth", k, b, expMin, n, rel)
 				}
 			}
