@@ -64,3 +64,20 @@ dilution "aperture" {
   companions  = companions.imaging
   star        = star.host
 }
+
+# The transit fit: a limb-darkened model integrated over each point's exposure, sampled by
+# two independently seeded ensembles until the kept chains are 50 autocorrelation times
+# long. It takes neither the star nor the dilution (derive combines them afterwards), so a
+# catalogue revision does not re-run it.
+fit "planets" {
+  light_curve = detrend.masked
+  signals     = search.dips
+}
+
+# Radius, orbit, temperature and follow-up metrics per planet: the fit's posterior
+# reweighted by the star's density, the dilution applied to the radius ratio.
+derive "planets" {
+  fit      = fit.planets
+  star     = star.host
+  dilution = dilution.aperture
+}

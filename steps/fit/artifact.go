@@ -4,9 +4,11 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"strconv"
 	"strings"
 
 	"dipline/steps"
+	"dipline/steps/fit/timing"
 	"dipline/steps/internal/codec"
 	"dipline/steps/internal/lightcurve"
 )
@@ -60,6 +62,14 @@ type Artifact struct {
 	Diag                                  []Diagnostic // per sampled parameter
 	Acceptance                            float64      // mean acceptance fraction over walkers and ensembles
 	Walkers, Steps, Burn, Thin, Ensembles int
+	// Beta is the time-averaging factor of the best fit's residuals (Pont, Zucker & Queloz
+	// 2006), NaN when it could not be measured; Inflated says the errors were multiplied by
+	// it before sampling.
+	Beta     float64
+	Inflated bool
+	// Times holds per planet the transit mid-times measured with the shape fixed at the best
+	// fit, epochs counted from the planet's reference transit, and their linear ephemeris.
+	Times []PlanetTimes
 }
 
 // Planets is the number of planets fitted.
@@ -100,9 +110,23 @@ func (a *Artifact) Summary(name string) (median, sigma float64) {
 func (a *Artifact) Figures() []steps.Figure {
 	var figs []steps.Figure
 	frame := a.Frame.Since()
+	minESS := math.Inf(1)
+	for _, d := range a.Diag {
+		minESS = math.Min(minESS, d.ESS)
+	}
 	add := func(name, col, unit, doc string, factor float64) {
 		med, sig := a.Summary(col)
-		figs = append(figs, steps.Figure{Name: name, Value: med * factor, Sigma: sig * factor, Unit: unit,
+		// The Monte Carlo error of a median from ESS effective draws: √(π/2) σ/√ESS for a
+		// near-normal posterior (common practice); derived columns take the smallest ESS.
+		ess := minESS
+		if j := a.column(col); j >= 0 && j < a.Sampled {
+			ess = a.Diag[j].ESS
+		}
+		mc := 0.0
+		if ess > 0 && !math.IsInf(ess, 0) {
+			mc = math.Sqrt(math.Pi/2) * sig * factor / math.Sqrt(ess)
+		}
+		figs = append(figs, steps.Figure{Name: name, Value: med * factor, Sigma: sig * factor, MCError: mc, Unit: unit,
 			Doc: doc + "; posterior median, σ half the 16–84 % range"})
 	}
 	for j := range a.Reference {
@@ -139,10 +163,9 @@ func (a *Artifact) Figures() []steps.Figure {
 	}
 	figs = append(figs, steps.Figure{Name: "window.points", Value: float64(used),
 		Doc: fmt.Sprintf("points in the likelihood: those within %g search durations of a predicted mid-transit; the rest of the light curve is not used", a.Window)})
-	var maxTau, minESS, maxRhat float64 = 0, math.Inf(1), 0
+	var maxTau, maxRhat float64 = 0, 0
 	for _, d := range a.Diag {
 		maxTau = math.Max(maxTau, d.Tau)
-		minESS = math.Min(minESS, d.ESS)
 		if math.IsNaN(d.Rhat) || d.Rhat > maxRhat {
 			maxRhat = d.Rhat
 		}
@@ -153,12 +176,61 @@ func (a *Artifact) Figures() []steps.Figure {
 		steps.Figure{Name: "diag.max_rhat", Value: maxRhat, Doc: "largest rank-normalised split R-hat across ensembles (Vehtari et al. 2021); near 1 when they agree"},
 		steps.Figure{Name: "diag.acceptance", Value: a.Acceptance, Doc: "mean fraction of accepted stretch moves"},
 	)
+	betaDoc := "time-averaging factor β of the best fit's residuals over bins of 10 min to a transit duration (Pont, Zucker & Queloz 2006); 1 for white noise"
+	if a.Inflated {
+		betaDoc += "; the errors were multiplied by it before sampling"
+	}
+	figs = append(figs, steps.Figure{Name: "noise.beta", Value: a.Beta, Doc: betaDoc})
+	return append(figs, a.timeFigures()...)
+}
+
+// timeFigures lists per planet its linear ephemeris from the per-transit times and, per
+// timed transit, the mid-time and its O−C.
+func (a *Artifact) timeFigures() []steps.Figure {
+	var figs []steps.Figure
+	frame := a.Frame.Since()
+	for j, pt := range a.Times {
+		p := planetNames[j] + "."
+		timed := 0
+		for _, t := range pt.Times {
+			if t.Skipped == "" {
+				timed++
+			}
+		}
+		figs = append(figs, steps.Figure{Name: p + "timing.transits", Value: float64(timed),
+			Doc: fmt.Sprintf("transits timed with the shape fixed at the best fit, of %d with points in the fitted windows", len(pt.Times))})
+		if pt.Err != "" {
+			continue
+		}
+		e := pt.Ephemeris
+		figs = append(figs,
+			steps.Figure{Name: p + "timing.period", Value: e.Period, Sigma: e.SigmaPeriod, Unit: "d", Doc: "period of the weighted linear ephemeris through the transit times"},
+			steps.Figure{Name: p + "timing.t_ref", Value: e.TRef, Sigma: e.SigmaTRef, Unit: "d",
+				Doc: fmt.Sprintf("mid-time of transit %d of the linear ephemeris (nearly uncorrelated with its period), %s", e.RefEpoch, frame)},
+			steps.Figure{Name: p + "timing.chi2", Value: e.Chi2, Doc: fmt.Sprintf("χ² of the transit times about the linear ephemeris, %d degrees of freedom", e.Dof)},
+			steps.Figure{Name: p + "timing.p_value", Value: e.PValue, Doc: "probability of a χ² at least this large for a strictly periodic orbit; below 0.01 a caution is printed"},
+		)
+		byEpoch := map[int64]timing.OC{}
+		for _, r := range e.Rows {
+			byEpoch[r.Epoch] = r
+		}
+		for _, t := range pt.Times {
+			r, ok := byEpoch[t.Epoch]
+			if t.Skipped != "" || !ok {
+				continue
+			}
+			n := p + "transit" + strconv.FormatInt(t.Epoch, 10) + "."
+			figs = append(figs,
+				steps.Figure{Name: n + "time", Value: t.Time, Sigma: t.Sigma(), Unit: "d", Doc: "mid-time of this transit, " + frame},
+				steps.Figure{Name: n + "o_minus_c", Value: r.OC, Sigma: r.SigmaOC, Unit: "min", Doc: "observed minus calculated mid-time against the linear ephemeris"})
+		}
+	}
 	return figs
 }
 
 const (
 	tag    = "fit"
-	format = 2
+	format = 3
 )
 
 // Encode returns the canonical encoding.
@@ -194,6 +266,30 @@ func (a *Artifact) Encode() []byte {
 	w.Float(a.Acceptance)
 	for _, v := range []int{a.Walkers, a.Steps, a.Burn, a.Thin, a.Ensembles} {
 		w.Int(int64(v))
+	}
+	w.Float(a.Beta)
+	w.Bool(a.Inflated)
+	w.Uint64(uint64(len(a.Times)))
+	for _, pt := range a.Times {
+		w.String(pt.Err)
+		w.Uint64(uint64(len(pt.Times)))
+		for _, t := range pt.Times {
+			w.Int(t.Epoch)
+			w.Floats([]float64{t.Predicted, t.Time, t.Shift, t.ErrLow, t.ErrHigh, t.Chi2, t.Scale})
+			w.Int(int64(t.Points))
+			w.Int(int64(t.InTransit))
+			w.String(t.Skipped)
+		}
+		e := pt.Ephemeris
+		w.Floats([]float64{e.T0, e.Period, e.SigmaT0, e.SigmaPeriod, e.Cov, e.TRef, e.SigmaTRef, e.Chi2, e.PValue})
+		w.Int(e.RefEpoch)
+		w.Int(int64(e.Dof))
+		w.String(e.Caution)
+		w.Uint64(uint64(len(e.Rows)))
+		for _, r := range e.Rows {
+			w.Int(r.Epoch)
+			w.Floats([]float64{r.Time, r.Sigma, r.OC, r.SigmaOC})
+		}
 	}
 	return w.Bytes()
 }
@@ -243,6 +339,54 @@ func Decode(b []byte) (*Artifact, error) {
 	a.Acceptance = r.Float()
 	for _, p := range []*int{&a.Walkers, &a.Steps, &a.Burn, &a.Thin, &a.Ensembles} {
 		*p = int(r.Int())
+	}
+	a.Beta = r.Float()
+	a.Inflated = r.Bool()
+	npt := r.Uint64()
+	if npt > maxPlanets {
+		return nil, fmt.Errorf("fit artifact: transit times of %d planets", npt)
+	}
+	for i := uint64(0); i < npt; i++ {
+		var pt PlanetTimes
+		pt.Err = r.String()
+		nt := r.Uint64()
+		if nt > 1<<20 {
+			return nil, fmt.Errorf("fit artifact: %d transit times", nt)
+		}
+		for k := uint64(0); k < nt; k++ {
+			t := timing.TransitTime{Epoch: r.Int()}
+			if v := r.Floats(); len(v) == 7 {
+				t.Predicted, t.Time, t.Shift, t.ErrLow, t.ErrHigh, t.Chi2, t.Scale = v[0], v[1], v[2], v[3], v[4], v[5], v[6]
+			} else {
+				return nil, errors.New("fit artifact: a transit time is damaged")
+			}
+			t.Points, t.InTransit = int(r.Int()), int(r.Int())
+			t.Skipped = r.String()
+			pt.Times = append(pt.Times, t)
+		}
+		e := &pt.Ephemeris
+		if v := r.Floats(); len(v) == 9 {
+			e.T0, e.Period, e.SigmaT0, e.SigmaPeriod, e.Cov, e.TRef, e.SigmaTRef, e.Chi2, e.PValue = v[0], v[1], v[2], v[3], v[4], v[5], v[6], v[7], v[8]
+		} else {
+			return nil, errors.New("fit artifact: an ephemeris is damaged")
+		}
+		e.RefEpoch = r.Int()
+		e.Dof = int(r.Int())
+		e.Caution = r.String()
+		nr := r.Uint64()
+		if nr > 1<<20 {
+			return nil, fmt.Errorf("fit artifact: %d O−C rows", nr)
+		}
+		for k := uint64(0); k < nr; k++ {
+			oc := timing.OC{Epoch: r.Int()}
+			if v := r.Floats(); len(v) == 4 {
+				oc.Time, oc.Sigma, oc.OC, oc.SigmaOC = v[0], v[1], v[2], v[3]
+			} else {
+				return nil, errors.New("fit artifact: an O−C row is damaged")
+			}
+			e.Rows = append(e.Rows, oc)
+		}
+		a.Times = append(a.Times, pt)
 	}
 	if err := r.Err(); err != nil {
 		return nil, fmt.Errorf("fit artifact: %w", err)

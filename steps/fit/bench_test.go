@@ -114,3 +114,20 @@ func maxTau(a *Artifact) float64 {
 	}
 	return t
 }
+
+// BenchmarkLogPostSixtyDays is one evaluation of the log posterior of one planet in one
+// 60-day segment of 2-min data (300 ppm), the case of BenchmarkFitSixtyDays.
+func BenchmarkLogPostSixtyDays(b *testing.B) {
+	lc := longCurve([]truth{hot}, 60, 2.0/1440, 300e-6, 2)
+	m, art, _, _, _, err := setup(lc, Options{Signals: []signals.Signal{start(hot)}, Window: defaultWindow, Supersample: true, Jitter: true})
+	if err != nil {
+		b.Fatal(err)
+	}
+	x := truthVector(m, art, []truth{hot})
+	b.ReportAllocs()
+	for b.Loop() {
+		m.LogPost(x)
+	}
+	b.ReportMetric(float64(art.Segments[0].Points), "points")
+	b.ReportMetric(float64(art.Segments[0].NSub), "nsub")
+}

@@ -36,10 +36,22 @@ const (
 	// lengthPerTau is the chain length after burn-in, in autocorrelation times, at which
 	// sampling stops (50τ, REFERENCES §10).
 	lengthPerTau = 50
+	// burnShare is the share of each chain discarded as burn-in. The walkers start in a small
+	// ball around the optimum, so they forget their start within a few τ; a third of a
+	// chain that is at least 75τ long (50τ kept) is 25τ, ample (our choice; the R-hat across
+	// independently started ensembles checks it).
+	burnShare = 3
+	// deShare is the share of sampler steps that use the differential-evolution move rather
+	// than the stretch move (sampler.Options.DEShare): on a 5-D correlated Gaussian it cut τ
+	// from 63 to 20 steps (sampler tests), and on the demo's two-planet posterior (BENCHMARKS.md).
+	deShare = 0.8
 	// chunk is the number of steps run between checks of the autocorrelation time.
 	chunk = 250
-	// walkersPerDim is the ensemble size per parameter (at least 2 are needed).
-	walkersPerDim = 4
+	// walkersPerDim is the ensemble size per parameter: 2, the fewest the stretch move
+	// allows. Sampling runs to 50τ in steps whatever the ensemble size, so the cost grows with
+	// the walkers while τ shrinks more slowly: on the demo, 24 walkers had τ = 512 and 48
+	// had τ = 361 steps, so 24 reach 50τ in 0.7 of the time (BENCHMARKS.md).
+	walkersPerDim = 2
 	// Prior bounds on the stellar density (g/cm³), log-uniform: from giants to late M dwarfs.
 	densityLo, densityHi = 0.01, 100.0
 	// densityMin, densityMax bound the stellar density (g/cm³) whatever the prior: a
@@ -76,6 +88,9 @@ type Options struct {
 	// Dilution, when not nil, is the prior on a sampled dilution D ≥ 0, the flux of other
 	// stars over the target's; the model is (F + D)/(1 + D). A Fixed prior holds it.
 	Dilution *Prior
+	// InflateByBeta multiplies every point's error by the β factor of the best fit's
+	// residuals (Pont, Zucker & Queloz 2006) before sampling, when β > 1.
+	InflateByBeta bool
 	// Parallel runs block(i) for i in [0, n); nil runs serially. Results do not depend on it.
 	Parallel func(n int, block func(i int))
 
@@ -104,6 +119,25 @@ func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, 
 	dim := len(x0)
 	best, bestLP := optimum(m, x0, scale)
 	notes = append(notes, fmt.Sprintf("best fit: Nelder–Mead from the search's values reached log posterior %.6g (start %.6g)", bestLP, m.LogPost(x0)))
+	if beta, err := m.beta(best); err != nil {
+		art.Beta = math.NaN()
+		notes = append(notes, fmt.Sprintf("β factor not measured: %v", err))
+	} else {
+		art.Beta = beta
+		switch {
+		case o.InflateByBeta && beta > 1:
+			for s := range m.segs {
+				for i := range m.segs[s].v {
+					m.segs[s].v[i] *= beta * beta
+				}
+			}
+			art.Inflated = true
+			best, bestLP = optimum(m, best, scale)
+			notes = append(notes, fmt.Sprintf("errors multiplied by β = %.3g, the residuals' time-averaging factor (Pont, Zucker & Queloz 2006), before sampling", beta))
+		case beta > 1.2:
+			notes = append(notes, fmt.Sprintf("caution: the best fit's residuals binned over 10 min to a transit duration scatter %.2g× more than white noise would (β, Pont, Zucker & Queloz 2006); the posterior widths may be too narrow. inflate_by_beta = true multiplies the errors by β", beta))
+		}
+	}
 
 	// Ensembles started in a small ball around the best fit.
 	K := walkersPerDim * dim
@@ -130,11 +164,15 @@ func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, 
 	var taus []float64
 	trusted := false
 	total := 0
+	// τ is estimated (an FFT per walker and parameter, on the caller's goroutine) only at
+	// checkpoints: every chunk steps until it is trusted, then not before the chains could
+	// be long enough for the last estimate.
+	nextCheck := chunk
 	for total < o.MaxSteps {
 		n := min(chunk, o.MaxSteps-total)
 		for e := range ens {
 			seed := rng.DeriveSeed(o.Seed, "fit/ensemble", uint64(e)<<32|uint64(total/chunk))
-			ch, err := sampler.Run(ctx, m.LogPost, last[e], sampler.Options{Steps: n, Seed: seed, Parallel: par})
+			ch, err := sampler.Run(ctx, m.LogPost, last[e], sampler.Options{Steps: n, Seed: seed, Parallel: par, DEShare: deShare})
 			if err != nil {
 				if errors.Is(err, sampler.ErrConfig) {
 					return nil, nil, fmt.Errorf("fit: %w", err)
@@ -147,13 +185,22 @@ func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, 
 			}
 		}
 		total += n
-		burn := total / 2
+		if total < nextCheck && total < o.MaxSteps {
+			continue
+		}
+		burn := total / burnShare
 		taus, trusted = tausOf(ens, dim, burn)
 		if trusted && float64(total-burn) >= lengthPerTau*maxOf(taus) {
 			break
 		}
+		nextCheck = total + chunk
+		if trusted {
+			// The total at which the kept share reaches 50τ, if τ holds.
+			need := int(lengthPerTau*maxOf(taus)*burnShare/(burnShare-1)) + 1
+			nextCheck = max(nextCheck, min(need, o.MaxSteps))
+		}
 	}
-	burn := total / 2
+	burn := total / burnShare
 	tauMax := maxOf(taus)
 	if !trusted || float64(total-burn) < lengthPerTau*tauMax {
 		notes = append(notes, fmt.Sprintf("warning: the chains after burn-in are %d steps, shorter than %d autocorrelation times (%.4g steps): the posterior summaries are preliminary; raise max_steps", total-burn, lengthPerTau, lengthPerTau*tauMax))
@@ -198,6 +245,31 @@ func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, 
 	}
 	art.Best = m.row(best)
 	art.BestLogPost = bestLP
+
+	// Per-transit times with the shape fixed at the best fit.
+	times, err := m.transitTimes(best, o)
+	if err != nil {
+		return nil, nil, err
+	}
+	art.Times = times
+	for j, pt := range times {
+		timed := 0
+		for _, t := range pt.Times {
+			if t.Skipped == "" {
+				timed++
+			}
+		}
+		switch {
+		case pt.Err != "":
+			notes = append(notes, fmt.Sprintf("transit times of planet %s: %s", planetNames[j], pt.Err))
+		default:
+			notes = append(notes, fmt.Sprintf("transit times of planet %s: %d of %d transits timed with the shape fixed at the best fit; linear ephemeris χ² = %.1f for %d degrees of freedom (p = %.2g)",
+				planetNames[j], timed, len(pt.Times), pt.Ephemeris.Chi2, pt.Ephemeris.Dof, pt.Ephemeris.PValue))
+			if pt.Ephemeris.Caution != "" {
+				notes = append(notes, fmt.Sprintf("caution, planet %s: %s", planetNames[j], pt.Ephemeris.Caution))
+			}
+		}
+	}
 	return art, notes, nil
 }
 
@@ -424,6 +496,19 @@ func setup(lc *lightcurve.LightCurve, o Options) (m *Model, art *Artifact, x0, s
 			w /= pr.centre() * math.Ln10
 		}
 		step[idx] = math.Min(step[idx], w)
+	}
+	// With the fit's own density prior and a circular first planet, sample that planet's
+	// total duration in place of log10 ρ (see Model.density): the duration is what the
+	// data measure, so the walkers no longer crawl along the ridge where a larger b trades
+	// against a lower density.
+	if _, user := o.Priors["star_density"]; !user && !m.ecc[0] {
+		dp := &m.params[g+gDensity]
+		m.durationParam, m.rhoPrior = true, dp.prior
+		s0 := o.Signals[0]
+		rho0 := math.Pow(10, start[g+gDensity])
+		t14 := TotalDuration(s0.Period, start[iK], start[iB], ScaledAxis(s0.Period, rho0))
+		*dp = param{name: planetNames[0] + ".duration", lo: 0, hi: s0.Period / 2}
+		start[g+gDensity], step[g+gDensity] = t14, s0.Duration/10
 	}
 	for i := range m.params {
 		p := &m.params[i]
@@ -678,7 +763,7 @@ func (m *Model) row(x []float64) []float64 {
 			out = append(out, full[i])
 		}
 	}
-	rho := math.Pow(10, full[m.global()+gDensity])
+	rho, _, _ := m.density(full)
 	out = append(out, rho)
 	for j := 0; j < m.planets; j++ {
 		p := full[perPlanet*j:]

@@ -190,14 +190,26 @@ func TestDeterministicAcrossWorkers(t *testing.T) {
 	})
 	t.Run("the figures are named as documented", func(t *testing.T) {
 		want := []string{"b.period", "b.t0", "b.k", "b.b", "b.depth", "b.a_over_rstar", "b.t14", "star_density",
-			"window.points", "diag.max_tau", "diag.min_ess", "diag.max_rhat", "diag.acceptance"}
+			"window.points", "diag.max_tau", "diag.min_ess", "diag.max_rhat", "diag.acceptance", "noise.beta",
+			"b.timing.transits", "b.timing.period", "b.timing.t_ref", "b.timing.chi2", "b.timing.p_value"}
 		figs := a1.Figures()
-		if len(figs) != len(want) {
-			t.Fatalf("%d figures, want %d", len(figs), len(want))
+		if len(figs) < len(want) {
+			t.Fatalf("%d figures, want at least %d", len(figs), len(want))
 		}
-		for i, f := range figs {
+		for i, f := range figs[:len(want)] {
 			if f.Name != want[i] {
 				t.Errorf("figure %d is %q, want %q", i, f.Name, want[i])
+			}
+		}
+		// Then per timed transit its time and O−C.
+		rest := figs[len(want):]
+		if len(rest) == 0 || len(rest)%2 != 0 {
+			t.Fatalf("%d per-transit figures, want a time and an O−C per timed transit", len(rest))
+		}
+		for i := 0; i < len(rest); i += 2 {
+			if !strings.HasPrefix(rest[i].Name, "b.transit") || !strings.HasSuffix(rest[i].Name, ".time") ||
+				!strings.HasSuffix(rest[i+1].Name, ".o_minus_c") {
+				t.Errorf("per-transit figures %q, %q", rest[i].Name, rest[i+1].Name)
 			}
 		}
 	})

@@ -46,13 +46,15 @@ import (
 type Kind struct{}
 
 // version is bumped whenever the numbers or the encoding change.
-const version = 2
+const version = 7
 
 // Defaults, each with its reason.
 const (
-	// defaultMaxSteps bounds the steps per ensemble so that a one-planet fit of a month of
-	// 30-min data finishes in seconds; long data sets need more (a Note says so).
-	defaultMaxSteps = 4000
+	// defaultMaxSteps bounds the steps per ensemble; sampling stops as soon as the kept
+	// chains are 50τ long, which for τ of 100–500 steps (measured: 135 for one planet in
+	// 60 days of 2-min data, 510 for the demo's two planets at 30 min; BENCHMARKS.md) takes
+	// 7,500–38,000 steps. A Note says when the cap was reached first.
+	defaultMaxSteps = 50000
 	// defaultEnsembles: two independent ensembles are the fewest for R-hat.
 	defaultEnsembles = 2
 	// defaultWindow keeps points within 2.5 search durations of a mid-transit: the box
@@ -85,7 +87,7 @@ func (Kind) Params() []steps.Param {
 		{Name: "planets", Type: steps.Integer, Optional: true,
 			Doc: "fit the first this many signals jointly (1 to 3); all of the search's signals, up to 3, when absent"},
 		{Name: "max_steps", Type: steps.Integer, Default: int64(defaultMaxSteps),
-			Doc: "the most ensemble updates per ensemble; sampling stops earlier once the chains after burn-in (their second half) are 50 autocorrelation times long"},
+			Doc: "the most ensemble updates per ensemble; sampling stops earlier once the chains after burn-in (the first third is discarded) are 50 autocorrelation times long"},
 		{Name: "ensembles", Type: steps.Integer, Default: int64(defaultEnsembles),
 			Doc: "independently seeded ensembles of walkers (2 to 8), compared by R-hat"},
 		{Name: "window", Type: steps.Number, Default: defaultWindow,
@@ -94,6 +96,8 @@ func (Kind) Params() []steps.Param {
 			Doc: "integrate the model over each point's exposure (needed for long exposures, Kipping 2010); off only for tests and comparisons"},
 		{Name: "jitter", Type: steps.Bool, Default: true,
 			Doc: "fit one white-noise jitter per segment (log-uniform prior, 1 ppm to 10 %), added in quadrature to the stated errors"},
+		{Name: "inflate_by_beta", Type: steps.Bool, Default: false,
+			Doc: "multiply every point's error by the time-averaging factor β of the best fit's residuals (Pont, Zucker & Queloz 2006) before sampling, when β > 1; β is reported either way"},
 		{Name: "priors", Type: steps.StringMap, Optional: true,
 			Doc: "priors replacing the fit's own, by parameter: star_density (g/cm3) and <planet>.period (d), <planet>.k, <planet>.b; each uniform(a, b), normal(mean, sigma), log_uniform(a, b) or fixed(value), e.g. { \"b.period\" = \"normal(3.7185, 0.0004)\", \"b.k\" = \"fixed(0.05)\" }; a fixed parameter is not sampled. Without it: uniform in period, k (0–1) and b (0–1+k), log-uniform density 0.01–100 g/cm3"},
 		{Name: "limb_darkening", Type: steps.StringMap, Optional: true,
@@ -115,14 +119,16 @@ type Config struct {
 	Window      float64
 	Supersample bool
 	Jitter      bool
-	Priors      map[string]Prior
-	Limb        map[string]LimbPrior
-	Eccentric   []string
+	// InflateByBeta multiplies the errors by the residuals' β factor before sampling.
+	InflateByBeta bool
+	Priors        map[string]Prior
+	Limb          map[string]LimbPrior
+	Eccentric     []string
 }
 
 // Prepare checks the values and builds a Config.
 func (Kind) Prepare(v steps.Values) (any, error) {
-	c := Config{Window: v.Float("window"), Supersample: v.Bool("supersample"), Jitter: v.Bool("jitter")}
+	c := Config{Window: v.Float("window"), Supersample: v.Bool("supersample"), Jitter: v.Bool("jitter"), InflateByBeta: v.Bool("inflate_by_beta")}
 	if v.Has("planets") {
 		n := v.Int("planets")
 		if n < 1 || n > maxPlanets {
@@ -341,7 +347,7 @@ func (Kind) Run(ctx context.Context, cfgAny any, in steps.Inputs, env steps.Env)
 	}
 	o := Options{
 		Signals: sigs[:n], MaxSteps: cfg.MaxSteps, Ensembles: cfg.Ensembles, Window: cfg.Window,
-		Supersample: cfg.Supersample, Jitter: cfg.Jitter, Seed: env.Seed,
+		Supersample: cfg.Supersample, Jitter: cfg.Jitter, InflateByBeta: cfg.InflateByBeta, Seed: env.Seed,
 		Priors: priors, Limb: cfg.Limb, Eccentric: cfg.Eccentric, Dilution: dil,
 		Parallel: func(k int, block func(i int)) {
 			env.Pool.Parallel(k, block)

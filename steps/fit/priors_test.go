@@ -173,6 +173,11 @@ func TestPriorsEnterTheLogPosteriorExactly(t *testing.T) {
 	for _, c := range cases {
 		t.Run(c.name+" changes the log posterior by its log ratio", func(t *testing.T) {
 			base := Options{Signals: sigs, Window: defaultWindow, Supersample: true}
+			if c.key == "star_density" {
+				// Both models must sample log10 ρ: the fit's own prior, written out, keeps it
+				// (without it the first planet's duration is sampled instead).
+				base.Priors = map[string]Prior{"star_density": {LogUniform, densityLo, densityHi}}
+			}
 			with := base
 			with.Priors = map[string]Prior{c.key: c.prior}
 			m0, art, _, _, _, err := setup(lc, base)
@@ -331,4 +336,43 @@ func FuzzParseLimbPrior(f *testing.F) {
 			t.Errorf("%q: NaN density", s)
 		}
 	})
+}
+
+func TestDurationParameterCarriesTheDensityPrior(t *testing.T) {
+	// With the fit's own prior, the first planet's total duration T is sampled in place of
+	// log10 ρ; Model.density must return ρ(T) consistent with Winn's (2010) duration (eq. 14,
+	// through TotalDuration) and the log-Jacobian ln|dρ/dT|, checked here against a
+	// central finite difference of ρ(T).
+	lc, sigs := windowCurve([]truth{hot}, 300, defaultWindow, 300e-6, 4)
+	m, art, _, _, _, err := setup(lc, Options{Signals: sigs, Window: defaultWindow, Supersample: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !m.durationParam {
+		t.Fatal("the duration is not sampled with the default density prior")
+	}
+	full := m.expand(make([]float64, len(m.params)), truthVector(m, art, []truth{hot}))
+	idx := m.global() + gDensity
+	for _, b := range []float64{0, 0.4, 0.8, 1.0} {
+		full[iB] = b
+		for _, rhoWant := range []float64{0.3, 1.41, 8} {
+			aR := ScaledAxis(hot.period, rhoWant)
+			full[idx] = TotalDuration(hot.period, hot.k, b, aR)
+			rho, logJac, ok := m.density(full)
+			if !ok || math.Abs(rho/rhoWant-1) > 1e-9 {
+				t.Errorf("b %.1f: ρ(T(%.2f)) = %v (%v)", b, rhoWant, rho, ok)
+				continue
+			}
+			T, h := full[idx], 1e-7
+			full[idx] = T + h
+			up, _, _ := m.density(full)
+			full[idx] = T - h
+			down, _, _ := m.density(full)
+			full[idx] = T
+			fd := math.Log(math.Abs(up-down) / (2 * h))
+			if math.Abs(fd-logJac) > 1e-5 {
+				t.Errorf("b %.1f, ρ %.2f: ln|dρ/dT| = %.8f, finite difference %.8f", b, rhoWant, logJac, fd)
+			}
+		}
+	}
 }

@@ -6,6 +6,7 @@ package kinds
 import (
 	"dipline/steps"
 	"dipline/steps/companions"
+	"dipline/steps/derive"
 	"dipline/steps/detrend"
 	"dipline/steps/dilution"
 	"dipline/steps/fit"
@@ -17,5 +18,5 @@ import (
 // Registry returns every step kind, checked.
 func Registry() (steps.Registry, error) {
 	return steps.NewRegistry(photometry.Kind{}, detrend.Kind{}, search.Kind{}, fit.Kind{},
-		star.Kind{}, companions.Kind{}, dilution.Kind{})
+		star.Kind{}, companions.Kind{}, dilution.Kind{}, derive.Kind{})
 }
