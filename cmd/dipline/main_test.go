@@ -261,3 +261,62 @@ func TestStarterWorkflowRunsOnAFITSFile(t *testing.T) {
 		t.Fatalf("starter overwrote a workflow: exit %d %s", code, errs)
 	}
 }
+
+// A star read from a catalogue row: revising that row re-runs the star alone, the diff
+// names the column with its old and new value and how far the radius moved, and --set
+// tries a value without editing the file.
+const starFlow = `analysis "cli-star" {
+  seed = 2
+}
+
+catalogue "near" {
+  file = "stars.csv"
+}
+
+star "host" {
+  method = "cool-dwarf"
+  teff   = "3400 ± 70 K"
+  row    = catalogue.near["FW-0001"]
+}
+`
+
+// Invented catalogue rows; FW-0001 has M_Ks ≈ 6.0, inside the Mann et al. (2015) range.
+const starsCSV = "id,parallax,parallax_err,ks,ks_err\nFW-0001,40.00,0.05,8.000,0.020\nFW-0002,25.0,0.1,9.5,0.02\n"
+
+func TestCatalogueRevisionAndDiff(t *testing.T) {
+	f := newFolder(t)
+	f.write("analysis.hcl", starFlow)
+	f.write("stars.csv", starsCSV)
+	if code, out, errs := f.dipline("run"); code != 0 {
+		t.Fatalf("run: exit %d\n%s\n%s", code, out, errs)
+	}
+	// Reformatting a number and editing another star's row change nothing here.
+	f.write("stars.csv", strings.Replace(strings.Replace(starsCSV, "40.00", "40.0", 1), "25.0,", "26.0,", 1))
+	if code, out, _ := f.dipline("run"); code != 0 || !strings.Contains(out, "reused    star.host") {
+		t.Fatalf("an edit elsewhere in the catalogue re-ran the star (exit %d):\n%s", code, out)
+	}
+	f.write("stars.csv", strings.Replace(starsCSV, "40.00,0.05,8.000", "39.00,0.05,8.000", 1))
+	if code, out, _ := f.dipline("run"); code != 0 || !strings.Contains(out, "computed  star.host") {
+		t.Fatalf("a new parallax did not re-run the star (exit %d):\n%s", code, out)
+	}
+	code, out, errs := f.dipline("diff")
+	if code != 0 {
+		t.Fatalf("diff: exit %d\n%s", code, errs)
+	}
+	// A closer star is brighter at fixed Ks: the radius grows. 40 → 39 mas moves M_Ks by
+	// 5 log10(40/39) = 0.055 mag, about 1.9 % in radius (Mann et al. 2015 slope near
+	// M_Ks = 6), which is about 0.6 of the relation's 2.9 % scatter.
+	for _, want := range []string{"changed    star.host", `column parallax: 40 → 39`, "radius", "moved 0."} {
+		if !strings.Contains(out, want) {
+			t.Errorf("diff output lacks %q:\n%s", want, out)
+		}
+	}
+	code, out, _ = f.dipline("run", "--set", `catalogue.near["FW-0001"].parallax=41`)
+	if code != 0 || !strings.Contains(out, "computed  star.host") {
+		t.Fatalf("--set on a catalogue value (exit %d):\n%s", code, out)
+	}
+	code, out, _ = f.dipline("trace", "star.host")
+	if code != 0 || !strings.Contains(out, "set on the command line: parallax=41") {
+		t.Errorf("trace does not show the override (exit %d):\n%s", code, out)
+	}
+}

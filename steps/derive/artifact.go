@@ -3,6 +3,7 @@ package derive
 import (
 	"errors"
 	"fmt"
+	"math"
 	"strings"
 
 	"dipline/steps"
@@ -59,8 +60,10 @@ func (a *Artifact) Quantity(planet, name string) *Quantity {
 }
 
 // figure turns a summary into a Figure: the median with σ half the 16–84 % range, or the
-// 95 % upper limit with σ = 0. The rounded text goes into the doc.
-func (q Quantity) figure(name string) steps.Figure {
+// 95 % upper limit with σ = 0. The rounded text goes into the doc. The Monte Carlo error of
+// a median from ess effective draws is √(π/2) σ/√ess (common practice); for a limit it is
+// left at 0, unknown.
+func (q Quantity) figure(name string, ess float64) steps.Figure {
 	f := steps.Figure{Name: name, Unit: q.Unit}
 	if q.UpperLimit {
 		f.Value = q.Limit
@@ -68,6 +71,9 @@ func (q Quantity) figure(name string) steps.Figure {
 	} else {
 		f.Value = q.Median
 		f.Sigma = (q.Hi - q.Lo) / 2
+		if ess > 0 {
+			f.MCError = math.Sqrt(math.Pi/2) * f.Sigma / math.Sqrt(ess)
+		}
 		f.Doc = q.Doc + "; median, 16–84 %: " + q.Format()
 	}
 	return f
@@ -102,12 +108,12 @@ func (a *Artifact) Figures() []steps.Figure {
 		steps.Figure{Name: "combine.fit_samples", Value: float64(a.FitSamples), Doc: a.Method})
 	for _, p := range a.Planets {
 		for _, q := range p.Quantities {
-			figs = append(figs, q.figure(p.Name+"."+q.Name))
+			figs = append(figs, q.figure(p.Name+"."+q.Name, a.ESS))
 		}
 		for _, h := range p.Hosts {
 			pre := p.Name + ".on_" + hostKey(h.Host) + "."
 			for _, q := range h.Quantities {
-				figs = append(figs, q.figure(pre+q.Name))
+				figs = append(figs, q.figure(pre+q.Name, a.ESS))
 			}
 			flag, doc := 0.0, "1 when the radius on this host exceeds the planetary limit, else 0"
 			if h.NotPlanetary {

@@ -65,7 +65,10 @@ func (a *Artifact) Figures() []steps.Figure {
 			continue
 		}
 		m, sg := summary(it.v)
-		figs = append(figs, steps.Figure{Name: it.name, Value: m, Sigma: sg, Unit: it.unit,
+		// The Monte Carlo error of the median of n independent draws, √(π/2) σ/√n (common
+		// practice), so that a run-to-run diff can tell a shift from sampling noise.
+		mc := math.Sqrt(math.Pi/2) * sg / math.Sqrt(float64(len(it.v)))
+		figs = append(figs, steps.Figure{Name: it.name, Value: m, Sigma: sg, MCError: mc, Unit: it.unit,
 			Doc: "median of the draws, σ half their 15.9–84.1 % range: " + it.doc})
 	}
 	return figs
