@@ -85,22 +85,7 @@ func runIn(t *testing.T, edit func(string) string, data map[string]string, overr
 			t.Fatal(err)
 		}
 	}
-	reg, err := kinds.Registry()
-	if err != nil {
-		t.Fatal(err)
-	}
-	w, diags := workflow.LoadWith(filepath.Join(dir, "analysis.hcl"), reg, overrides)
-	if diags.HasErrors() {
-		t.Fatal(diags)
-	}
-	store, err := cache.Open(w.StorePath)
-	if err != nil {
-		t.Fatal(err)
-	}
-	rep, err := workflow.Run(context.Background(), w, store, workflow.Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
+	rep := runDir(t, dir, overrides...)
 	// The periods of the signals each search step found, from its reported figures.
 	out := map[string][]float64{}
 	figs := map[string]map[string]float64{}
@@ -121,6 +106,84 @@ func runIn(t *testing.T, edit func(string) string, data map[string]string, overr
 		}
 	}
 	return out, figs
+}
+
+// runDir runs the workflow in dir, with its store there, and returns the report.
+func runDir(t *testing.T, dir string, overrides ...workflow.Override) *workflow.Report {
+	t.Helper()
+	reg, err := kinds.Registry()
+	if err != nil {
+		t.Fatal(err)
+	}
+	w, diags := workflow.LoadWith(filepath.Join(dir, "analysis.hcl"), reg, overrides)
+	if diags.HasErrors() {
+		t.Fatal(diags)
+	}
+	store, err := cache.Open(w.StorePath)
+	if err != nil {
+		t.Fatal(err)
+	}
+	rep, err := workflow.Run(context.Background(), w, store, workflow.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return rep
+}
+
+// TestACatalogueRevisionRerunsOnlyTheStarsReaders runs the demo, re-runs it (everything
+// reused), then swaps in revision 2 of the catalogue: only the star and what reads it
+// (dilution, derive) are recomputed, never the search or the fit.
+func TestACatalogueRevisionRerunsOnlyTheStarsReaders(t *testing.T) {
+	if testing.Short() {
+		t.Skip("runs the demo workflow")
+	}
+	dir := t.TempDir()
+	src, err := os.ReadFile("analysis.hcl")
+	if err != nil {
+		t.Fatal(err)
+	}
+	files := map[string][]byte{"analysis.hcl": src}
+	for _, name := range []string{"data/fw3318.csv", "data/nearby_stars.csv", "data/nearby_stars_rev2.csv", "data/fw3318_imaging.csv"} {
+		b, err := os.ReadFile(name)
+		if err != nil {
+			t.Fatal(err)
+		}
+		files[name] = b
+	}
+	write := func(name string, b []byte) {
+		os.MkdirAll(filepath.Dir(filepath.Join(dir, name)), 0o755)
+		if err := os.WriteFile(filepath.Join(dir, name), b, 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	for name, b := range files {
+		write(name, b)
+	}
+	statuses := func(rep *workflow.Report) map[string]string {
+		st := map[string]string{}
+		for _, o := range rep.Outcomes {
+			st[o.Step.Addr] = o.Status
+		}
+		return st
+	}
+	runDir(t, dir, shortFit...)
+	for addr, s := range statuses(runDir(t, dir, shortFit...)) {
+		if s != workflow.StatusReused {
+			t.Errorf("second run: %s %s, want reused", addr, s)
+		}
+	}
+	write("data/nearby_stars.csv", files["data/nearby_stars_rev2.csv"])
+	want := map[string]string{"star.host": workflow.StatusComputed, "dilution.aperture": workflow.StatusComputed,
+		"derive.planets": workflow.StatusComputed}
+	for addr, s := range statuses(runDir(t, dir, shortFit...)) {
+		w, ok := want[addr]
+		if !ok {
+			w = workflow.StatusReused
+		}
+		if s != w {
+			t.Errorf("after the revision: %s %s, want %s", addr, s, w)
+		}
+	}
 }
 
 // finds reports whether a signal matches the planet's period to within the scale a box

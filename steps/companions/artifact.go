@@ -78,12 +78,12 @@ func Decode(b []byte) (*List, error) {
 func (l *List) check() error {
 	seen := map[string]bool{}
 	for i, c := range l.Companions {
-		key := FigureName(c.Name)
+		key := FigureName(c.Name) + "\x00" + FigureName(c.Band) // one row per companion and band
 		switch {
 		case c.Name == "" || c.Band == "":
 			return fmt.Errorf("companion %d has no name or no band", i+1)
 		case strings.EqualFold(c.Name, "target") || seen[key]:
-			return fmt.Errorf("companion %d: name %q is reserved or repeated", i+1, c.Name)
+			return fmt.Errorf("companion %d: name %q is reserved or repeated in band %s", i+1, c.Name, c.Band)
 		case math.IsNaN(c.DMag) || math.IsInf(c.DMag, 0):
 			return fmt.Errorf("companion %q: dmag %v", c.Name, c.DMag)
 		case !(c.DMagErr >= 0) || math.IsInf(c.DMagErr, 0):

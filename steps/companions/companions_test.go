@@ -297,3 +297,17 @@ func TestOneCompanionInTwoBands(t *testing.T) {
 		t.Errorf("figures %v: want one companion with Δm 3.5 in Ks and 4.2 in survey-red", got)
 	}
 }
+
+func TestACompanionInTwoBandsDecodes(t *testing.T) {
+	l, _, err := run(t, nil, "name,band,dmag,dmag_err,separation\nB,Ks,3.5,0.1,1.2\nB,survey-red,4.2,0.15,1.2\n")
+	if err != nil {
+		t.Fatal(err)
+	}
+	back, err := Decode(l.Encode())
+	if err != nil {
+		t.Fatalf("a list with one companion in two bands does not decode: %v", err)
+	}
+	if !bytes.Equal(back.Encode(), l.Encode()) {
+		t.Error("round trip changed the bytes")
+	}
+}
