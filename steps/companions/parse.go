@@ -9,6 +9,7 @@ import (
 
 	"dipline/steps"
 	"dipline/steps/internal/stellar"
+	"dipline/steps/internal/textrows"
 )
 
 // Field is one column the table may hold.
@@ -65,9 +66,9 @@ func Parse(file string, data []byte, cols Columns) ([]stellar.Companion, error) 
 	)
 	for len(rest) > 0 && header == nil {
 		var line []byte
-		line, rest = nextLine(rest)
+		line, rest = textrows.NextLine(rest)
 		lineNo++
-		if skippable(line) {
+		if textrows.Skippable(line) {
 			continue
 		}
 		switch {
@@ -118,9 +119,9 @@ func Parse(file string, data []byte, cols Columns) ([]stellar.Companion, error) 
 	seen := map[string]int{}
 	for len(rest) > 0 {
 		var line []byte
-		line, rest = nextLine(rest)
+		line, rest = textrows.NextLine(rest)
 		lineNo++
-		if skippable(line) {
+		if textrows.Skippable(line) {
 			continue
 		}
 		fields := split(line, delim)
@@ -234,23 +235,6 @@ func FigureName(name string) string {
 	return b.String()
 }
 
-// nextLine cuts the first line off b, without its line ending.
-func nextLine(b []byte) (line, rest []byte) {
-	i := bytes.IndexByte(b, '\n')
-	if i < 0 {
-		line, rest = b, nil
-	} else {
-		line, rest = b[:i], b[i+1:]
-	}
-	return bytes.TrimSuffix(line, []byte("\r")), rest
-}
-
-// skippable reports a blank line or a '#' comment.
-func skippable(line []byte) bool {
-	l := bytes.TrimLeft(line, " \t")
-	return len(l) == 0 || l[0] == '#'
-}
-
 // split cuts a line into trimmed fields at delim, or at runs of blanks when delim is 0.
 func split(line []byte, delim byte) []string {
 	var out []string
@@ -271,8 +255,5 @@ func split(line []byte, delim byte) []string {
 }
 
 func unquote(f string) string {
-	if len(f) >= 2 && f[0] == '"' && f[len(f)-1] == '"' {
-		return strings.TrimSpace(f[1 : len(f)-1])
-	}
-	return f
+	return strings.TrimSpace(string(textrows.Unquote([]byte(f))))
 }

@@ -8,6 +8,7 @@ import (
 	"strings"
 
 	"dipline/steps"
+	"dipline/steps/internal/textrows"
 )
 
 // textTable is a delimited text file: a header row of column names, then one row per line.
@@ -31,23 +32,6 @@ func (t *textTable) delimName() string {
 	return "whitespace"
 }
 
-// nextLine cuts the first line off b, without its line ending.
-func nextLine(b []byte) (line, rest []byte) {
-	i := bytes.IndexByte(b, '\n')
-	if i < 0 {
-		line, rest = b, nil
-	} else {
-		line, rest = b[:i], b[i+1:]
-	}
-	return bytes.TrimSuffix(line, []byte("\r")), rest
-}
-
-// skippable reports a blank line or a '#' comment.
-func skippable(line []byte) bool {
-	l := bytes.TrimLeft(line, " \t")
-	return len(l) == 0 || l[0] == '#'
-}
-
 // readTextHeader finds the header row and detects the delimiter from it: a comma if it
 // has one, else a tab if it has one, else runs of blanks.
 func readTextHeader(name string, data []byte) (*textTable, error) {
@@ -59,8 +43,8 @@ func readTextHeader(name string, data []byte) (*textTable, error) {
 	rest := data
 	for n := 1; len(rest) > 0; n++ {
 		var line []byte
-		line, rest = nextLine(rest)
-		if skippable(line) {
+		line, rest = textrows.NextLine(rest)
+		if textrows.Skippable(line) {
 			continue
 		}
 		switch {
@@ -92,25 +76,18 @@ func (t *textTable) split(line []byte, dst [][]byte) [][]byte {
 			if i < 0 {
 				i = len(line)
 			}
-			dst = append(dst, unquote(line[:i]))
+			dst = append(dst, textrows.Unquote(line[:i]))
 			line = line[i:]
 		}
 	}
 	for {
 		i := bytes.IndexByte(line, t.delim)
 		if i < 0 {
-			return append(dst, unquote(bytes.TrimSpace(line)))
+			return append(dst, textrows.Unquote(bytes.TrimSpace(line)))
 		}
-		dst = append(dst, unquote(bytes.TrimSpace(line[:i])))
+		dst = append(dst, textrows.Unquote(bytes.TrimSpace(line[:i])))
 		line = line[i+1:]
 	}
-}
-
-func unquote(f []byte) []byte {
-	if len(f) >= 2 && f[0] == '"' && f[len(f)-1] == '"' {
-		return f[1 : len(f)-1]
-	}
-	return f
 }
 
 // textColumns are the values of the columns asked for, and the line number of each row.
@@ -128,8 +105,8 @@ func (t *textTable) read(idx []int) (*textColumns, error) {
 	rest := t.body
 	for n := t.line + 1; len(rest) > 0; n++ {
 		var line []byte
-		line, rest = nextLine(rest)
-		if skippable(line) {
+		line, rest = textrows.NextLine(rest)
+		if textrows.Skippable(line) {
 			continue
 		}
 		fields = t.split(line, fields)
