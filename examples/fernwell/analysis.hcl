@@ -72,7 +72,7 @@ dilution "aperture" {
 fit "planets" {
   light_curve = detrend.masked
   signals     = search.dips
-  max_steps   = 30000 # a few minutes; this posterior mixes slowly (τ ≈ 700–900 steps), so the fit says its summaries are preliminary
+  max_steps   = 40000 # a few minutes: this posterior mixes slowly (τ ≈ 500 steps, from planet b's poorly constrained b)
 }
 
 # Radius, orbit, temperature and follow-up metrics per planet: the fit's posterior

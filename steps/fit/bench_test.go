@@ -131,3 +131,34 @@ func BenchmarkLogPostSixtyDays(b *testing.B) {
 	b.ReportMetric(float64(art.Segments[0].Points), "points")
 	b.ReportMetric(float64(art.Segments[0].NSub), "nsub")
 }
+
+// BenchmarkFitThreePlanetsTwoYears is the default fit of three planets in two years of
+// 30-min data (300 ppm) on a pool of 2 workers, run until the kept chains are 50τ long or
+// max_steps; it reports the steps, τ and whether 50τ was reached. Minutes:
+// go test ./steps/fit -run '^$' -bench FitThreePlanetsTwoYears -benchtime 1x -timeout 60m
+func BenchmarkFitThreePlanetsTwoYears(b *testing.B) {
+	trs := []truth{hot, small, third}
+	lc := longCurve(trs, 730, 30.0/1440, 300e-6, 1)
+	var sigs []signals.Signal
+	for _, tr := range trs {
+		sigs = append(sigs, start(tr))
+	}
+	k := Kind{}
+	cfg, err := k.Prepare(steptest.Values(k, map[string]any{"light_curve": "detrend.x", "signals": "search.x"}))
+	if err != nil {
+		b.Fatal(err)
+	}
+	in := steps.Inputs{Refs: map[string][]steps.Artifact{
+		"light_curve": {curveArtifact{lc}}, "signals": {searchArtifact{sigs}}}}
+	for b.Loop() {
+		a, err := k.Run(context.Background(), cfg, in, steps.Env{Seed: 1, Pool: steptest.Pool(2)})
+		if err != nil {
+			b.Fatal(err)
+		}
+		fa := a.(*Artifact)
+		tau := maxTau(fa)
+		b.ReportMetric(float64(fa.Steps), "steps")
+		b.ReportMetric(tau, "tau")
+		b.ReportMetric(float64(fa.Steps-fa.Burn)/tau, "kept/tau")
+	}
+}

@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 	"sort"
 	"strings"
 
@@ -510,6 +511,23 @@ func setup(lc *lightcurve.LightCurve, o Options) (m *Model, art *Artifact, x0, s
 		*dp = param{name: planetNames[0] + ".duration", lo: 0, hi: s0.Period / 2}
 		start[g+gDensity], step[g+gDensity] = t14, s0.Duration/10
 	}
+	// Likewise, each planet whose k has the fit's own prior samples a depth-like δ in place
+	// of k (see Model.toPhysical): at fixed δ, b changes the ingress but hardly the depth,
+	// where at fixed k a larger b makes the transit shallower through the limb darkening.
+	u1, u2 := transit.QuadraticFromKipping(start[m.qIndex(0)], start[m.qIndex(0)+1])
+	for j := 0; j < np; j++ {
+		kp := &m.params[perPlanet*j+iK]
+		if _, user := o.Priors[planetNames[j]+".k"]; user || kp.fixed {
+			continue
+		}
+		c, ok := darkening(start[perPlanet*j+iB], u1, u2)
+		if !ok {
+			continue
+		}
+		m.depthParam[j] = true
+		k0 := start[perPlanet*j+iK]
+		start[perPlanet*j+iK], step[perPlanet*j+iK] = k0*k0/c, 0.4*k0*k0/c
+	}
 	for i := range m.params {
 		p := &m.params[i]
 		if p.fixed {
@@ -757,7 +775,13 @@ func (m *Model) shownFixed(i int) bool {
 // row returns the artifact row of the sampled vector x (see columns).
 func (m *Model) row(x []float64) []float64 {
 	full := m.expand(make([]float64, len(m.params)), x)
+	m.toPhysical(full)
 	out := append([]float64(nil), x...)
+	for j := 0; j < m.planets; j++ {
+		if i := slices.Index(m.free, perPlanet*j+iK); i >= 0 && m.depthParam[j] {
+			out[i] = full[perPlanet*j+iK] // the column holds k; the chain samples δ
+		}
+	}
 	for i := range m.params {
 		if m.shownFixed(i) {
 			out = append(out, full[i])

@@ -46,7 +46,7 @@ import (
 type Kind struct{}
 
 // version is bumped whenever the numbers or the encoding change.
-const version = 7
+const version = 8
 
 // Defaults, each with its reason.
 const (

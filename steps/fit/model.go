@@ -2,6 +2,7 @@ package fit
 
 import (
 	"math"
+	"slices"
 	"sync"
 
 	"dipline/steps/internal/astro"
@@ -124,7 +125,10 @@ type Model struct {
 	// (g/cm³), applied with the Jacobian in Model.density.
 	durationParam bool
 	rhoPrior      Prior
-	scratch       sync.Pool
+	// depthParam[j] says planet j's k entry holds δ = k²/c(b, u) instead of k (see
+	// toPhysical); its prior stays uniform in k through the Jacobian.
+	depthParam [maxPlanets]bool
+	scratch    sync.Pool
 }
 
 // dim is the number of sampled parameters.
@@ -449,10 +453,81 @@ func (m *Model) LogPost(x []float64) float64 {
 	return m.logPostFull(ws, full, lp)
 }
 
+// darkening is c(b, u) = ⟨I⟩/I(μ) with μ = √(1 − b²) (0 for a grazing b ≥ 1) for quadratic
+// limb darkening, ⟨I⟩ = 1 − u1/3 − u2/6 the disc's mean intensity over I(1): the small-planet
+// depth is about k²/c (Mandel & Agol 2002 §4). It returns false when I(μ) is not positive.
+func darkening(b, u1, u2 float64) (float64, bool) {
+	mu := 0.0
+	if b < 1 {
+		mu = math.Sqrt(1 - b*b)
+	}
+	i := 1 - u1*(1-mu) - u2*(1-mu)*(1-mu)
+	if !(i > 1e-9) {
+		return 0, false
+	}
+	return (1 - u1/3 - u2/6) / i, true
+}
+
+// toPhysical turns the full vector's sampled coordinates into the model's in place: for each
+// planet with depthParam, the stored δ becomes k = √(δ·c(|b|, u)) with u the first band's limb
+// darkening. Any smooth invertible map is a valid reparametrisation; this one makes the k–b
+// ridge of a shallow transit nearly straight. It returns the log-Jacobian ln|∂k/∂δ| =
+// ln(k/2δ) summed over those planets, which keeps the prior uniform in k, and false when k
+// leaves (0, 1].
+func (m *Model) toPhysical(full []float64) (logJac float64, ok bool) {
+	var u1, u2 float64
+	have := false
+	for j := 0; j < m.planets; j++ {
+		if !m.depthParam[j] {
+			continue
+		}
+		if !have {
+			u1, u2 = transit.QuadraticFromKipping(full[m.qIndex(0)], full[m.qIndex(0)+1])
+			have = true
+		}
+		p := full[perPlanet*j:]
+		d := p[iK]
+		c, okc := darkening(math.Abs(p[iB]), u1, u2)
+		if !okc || !(d > 0) {
+			return 0, false
+		}
+		k := math.Sqrt(d * c)
+		if !(k <= 1) {
+			return 0, false
+		}
+		p[iK] = k
+		logJac += math.Log(k / (2 * d))
+	}
+	return logJac, true
+}
+
+// sampledFrom returns the sampled vector of an artifact row's first Sampled columns, which
+// hold documented values: for a planet with depthParam the k column is turned back into δ.
+func (m *Model) sampledFrom(row []float64) []float64 {
+	x := append([]float64(nil), row[:m.dim()]...)
+	full := m.expand(make([]float64, len(m.params)), x)
+	u1, u2 := transit.QuadraticFromKipping(full[m.qIndex(0)], full[m.qIndex(0)+1])
+	for j := 0; j < m.planets; j++ {
+		i := slices.Index(m.free, perPlanet*j+iK)
+		if i < 0 || !m.depthParam[j] {
+			continue
+		}
+		if c, ok := darkening(math.Abs(full[perPlanet*j+iB]), u1, u2); ok {
+			x[i] = x[i] * x[i] / c
+		}
+	}
+	return x
+}
+
 // logPostFull continues LogPost from the full vector and the log prior of its entries.
 func (m *Model) logPostFull(ws *workspace, full []float64, lp float64) float64 {
 	np := m.planets
 	g := m.global()
+	logJacK, ok := m.toPhysical(full)
+	if !ok {
+		return math.Inf(-1)
+	}
+	lp += logJacK
 	rho, logJac, ok := m.density(full)
 	if !ok {
 		return math.Inf(-1)

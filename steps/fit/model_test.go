@@ -78,6 +78,13 @@ func truthVector(m *Model, art *Artifact, trs []truth) []float64 {
 		tr := trs[0]
 		full[g+gDensity] = TotalDuration(tr.period, tr.k, tr.b, ScaledAxis(tr.period, tr.rho))
 	}
+	u1, u2 := transit.QuadraticFromKipping(trs[0].q1, trs[0].q2)
+	for j, tr := range trs {
+		if m.depthParam[j] {
+			c, _ := darkening(tr.b, u1, u2)
+			full[perPlanet*j+iK] = tr.k * tr.k / c
+		}
+	}
 	for i := range m.bands {
 		full[m.qIndex(i)], full[m.qIndex(i)+1] = trs[0].q1, trs[0].q2
 	}
@@ -151,6 +158,11 @@ func fullLogPost(m *Model, x []float64) float64 {
 	full := m.expand(make([]float64, len(m.params)), x)
 	np := m.planets
 	g := m.global()
+	jacK, okK := m.toPhysical(full)
+	if !okK {
+		return math.Inf(-1)
+	}
+	lp += jacK
 	rho, logJac, ok := m.density(full)
 	if !ok {
 		return math.Inf(-1)
@@ -313,6 +325,7 @@ func TestChosenSubexposuresMatchAMuchFinerIntegration(t *testing.T) {
 // modelAt is the integrated model of the first segment at x.
 func modelAt(m *Model, x []float64) []float64 {
 	full := m.expand(make([]float64, len(m.params)), x)
+	m.toPhysical(full)
 	rho, _, _ := m.density(full)
 	orb := make([]orbit, m.planets)
 	for j := range orb {
@@ -349,7 +362,7 @@ func TestFitWithChosenSubexposuresAgreesWithAFinerOne(t *testing.T) {
 	delta := make([]float64, rows)
 	mean, top := 0.0, math.Inf(-1)
 	for r := range delta {
-		x := art.Samples[r*cols : r*cols+dim]
+		x := m.sampledFrom(art.Samples[r*cols : r*cols+dim])
 		delta[r] = fine.LogPost(x) - m.LogPost(x)
 		mean += delta[r] / float64(rows)
 		top = math.Max(top, delta[r])

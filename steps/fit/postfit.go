@@ -25,6 +25,9 @@ const minBetaWidth = 10.0 / 1440
 // the sampled vector x, or false when x is outside the prior.
 func (m *Model) fullAt(x []float64) (full []float64, orb []orbit, u [][2]float64, ok bool) {
 	full = m.expand(make([]float64, len(m.params)), x)
+	if _, ok = m.toPhysical(full); !ok {
+		return nil, nil, nil, false
+	}
 	rho, _, ok := m.density(full)
 	if !ok {
 		return nil, nil, nil, false

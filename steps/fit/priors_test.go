@@ -352,6 +352,10 @@ func TestDurationParameterCarriesTheDensityPrior(t *testing.T) {
 		t.Fatal("the duration is not sampled with the default density prior")
 	}
 	full := m.expand(make([]float64, len(m.params)), truthVector(m, art, []truth{hot}))
+	if _, ok := m.toPhysical(full); !ok {
+		t.Fatal("the truth's δ does not map back to its k")
+	}
+	m.depthParam[0] = false // full now holds k itself
 	idx := m.global() + gDensity
 	for _, b := range []float64{0, 0.4, 0.8, 1.0} {
 		full[iB] = b
@@ -372,6 +376,51 @@ func TestDurationParameterCarriesTheDensityPrior(t *testing.T) {
 			fd := math.Log(math.Abs(up-down) / (2 * h))
 			if math.Abs(fd-logJac) > 1e-5 {
 				t.Errorf("b %.1f, ρ %.2f: ln|dρ/dT| = %.8f, finite difference %.8f", b, rhoWant, logJac, fd)
+			}
+		}
+	}
+}
+
+func TestDepthParameterKeepsTheRadiusRatioPrior(t *testing.T) {
+	// With the fit's own prior, each planet samples δ = k²/c(b, u) in place of k
+	// (Model.toPhysical); the map must invert exactly (sampledFrom ∘ toPhysical = identity)
+	// and its log-Jacobian ln|∂k/∂δ| must match a central finite difference, so that the
+	// prior stays uniform in k.
+	lc, sigs := windowCurve([]truth{hot}, 300, defaultWindow, 300e-6, 4)
+	m, art, _, _, _, err := setup(lc, Options{Signals: sigs, Window: defaultWindow, Supersample: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !m.depthParam[0] {
+		t.Fatal("δ is not sampled with the default prior on k")
+	}
+	x := truthVector(m, art, []truth{hot})
+	pos := freePos(m, iK)
+	for _, b := range []float64{0, 0.5, 0.9, 1.05} {
+		x[freePos(m, iB)] = b
+		for _, d := range []float64{1e-4, 4e-3, 0.02} {
+			x[pos] = d
+			full := m.expand(make([]float64, len(m.params)), x)
+			jac, ok := m.toPhysical(full)
+			if !ok {
+				t.Fatalf("b %.2f δ %g: no k", b, d)
+			}
+			row := append([]float64(nil), x...)
+			row[pos] = full[iK]
+			if back := m.sampledFrom(row)[pos]; math.Abs(back/d-1) > 1e-12 {
+				t.Errorf("b %.2f δ %g: round trip gives %g", b, d, back)
+			}
+			kAt := func(dd float64) float64 {
+				y := append([]float64(nil), x...)
+				y[pos] = dd
+				f := m.expand(make([]float64, len(m.params)), y)
+				m.toPhysical(f)
+				return f[iK]
+			}
+			h := 1e-6 * d
+			fd := math.Log((kAt(d+h) - kAt(d-h)) / (2 * h))
+			if math.Abs(fd-jac) > 1e-6 {
+				t.Errorf("b %.2f δ %g: ln|dk/dδ| = %.9f, finite difference %.9f", b, d, jac, fd)
 			}
 		}
 	}
