@@ -498,11 +498,11 @@ func setup(lc *lightcurve.LightCurve, o Options) (m *Model, art *Artifact, x0, s
 		}
 		step[idx] = math.Min(step[idx], w)
 	}
-	// With the fit's own density prior and a circular first planet, sample that planet's
-	// total duration in place of log10 ρ (see Model.density): the duration is what the
-	// data measure, so the walkers no longer crawl along the ridge where a larger b trades
-	// against a lower density.
-	if _, user := o.Priors["star_density"]; !user && !m.ecc[0] {
+	// With a circular first planet and a density that is not fixed, sample that planet's
+	// total duration in place of log10 ρ (see Model.density), whatever the density's prior
+	// (it is applied to ρ with the Jacobian): the duration is what the data measure, so the
+	// walkers no longer crawl along the ridge where a larger b trades against a lower density.
+	if !m.ecc[0] && !m.params[g+gDensity].fixed {
 		dp := &m.params[g+gDensity]
 		m.durationParam, m.rhoPrior = true, dp.prior
 		s0 := o.Signals[0]

@@ -148,11 +148,17 @@ func meanSD(x []float64) (float64, float64) {
 	return m, math.Sqrt(s / float64(len(x)-1))
 }
 
+// durationAt is hot's total duration around a star of density rho (g/cm³).
+func durationAt(rho float64) float64 {
+	return TotalDuration(hot.period, hot.k, hot.b, ScaledAxis(hot.period, rho))
+}
+
 func TestPriorsEnterTheLogPosteriorExactly(t *testing.T) {
 	// Two points differing in one parameter: the change of LogPost with a prior minus the
 	// change without it must be the prior's own log ratio, computed here by hand from the
-	// densities' definitions (normal: −½((x−μ)/σ)²; on the density, sampled as log10 ρ, a
-	// prior p(ρ) becomes p(ρ)·ρ·ln 10, and a log-uniform one is flat in log10 ρ).
+	// densities' definitions (normal: −½((x−μ)/σ)²; on the density, a prior p(ρ) is
+	// compared with the default log-uniform one, ∝ 1/ρ, so the ratio gains ln(ρ1/ρ2), and a
+	// log-uniform prior differs from the default by a constant inside its range).
 	lc, sigs := windowCurve([]truth{hot}, 300, defaultWindow, 300e-6, 4)
 	cases := []struct {
 		name   string
@@ -165,19 +171,17 @@ func TestPriorsEnterTheLogPosteriorExactly(t *testing.T) {
 		{"a normal prior on the period", "b.period", Prior{Normal, 3.0, 2e-4}, iPeriod, 3.0001, 2.9997,
 			-0.5 * (math.Pow(0.0001/2e-4, 2) - math.Pow(-0.0003/2e-4, 2))},
 		{"a uniform prior on b is flat inside", "b.b", Prior{Uniform, 0, 0.9}, iB, 0.3, 0.5, 0},
-		{"a log-uniform prior on the density is flat in log10 density", "star_density", Prior{LogUniform, 0.5, 3}, perPlanet + gDensity,
-			math.Log10(1.2), math.Log10(1.6), 0},
+		// The density is sampled through the first planet's duration (Model.density) under
+		// any prior; the points are the durations of densities 1.2 and 1.6 (and 1.3, 1.55) at
+		// the truth's k and b, and the Jacobians cancel between the two models.
+		{"a log-uniform prior on the density is flat in log density", "star_density", Prior{LogUniform, 0.5, 3}, perPlanet + gDensity,
+			durationAt(1.2), durationAt(1.6), 0},
 		{"a normal prior on the density carries the Jacobian", "star_density", Prior{Normal, 1.4, 0.1}, perPlanet + gDensity,
-			math.Log10(1.3), math.Log10(1.55), -0.5*(math.Pow(-0.1/0.1, 2)-math.Pow(0.15/0.1, 2)) + math.Log(1.3/1.55)},
+			durationAt(1.3), durationAt(1.55), -0.5*(math.Pow(-0.1/0.1, 2)-math.Pow(0.15/0.1, 2)) + math.Log(1.3/1.55)},
 	}
 	for _, c := range cases {
 		t.Run(c.name+" changes the log posterior by its log ratio", func(t *testing.T) {
 			base := Options{Signals: sigs, Window: defaultWindow, Supersample: true}
-			if c.key == "star_density" {
-				// Both models must sample log10 ρ: the fit's own prior, written out, keeps it
-				// (without it the first planet's duration is sampled instead).
-				base.Priors = map[string]Prior{"star_density": {LogUniform, densityLo, densityHi}}
-			}
 			with := base
 			with.Priors = map[string]Prior{c.key: c.prior}
 			m0, art, _, _, _, err := setup(lc, base)
