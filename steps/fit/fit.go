@@ -165,9 +165,8 @@ func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, 
 	var taus []float64
 	trusted := false
 	total := 0
-	// τ is estimated (an FFT per walker and parameter, on the caller's goroutine) only at
-	// checkpoints: every chunk steps until it is trusted, then not before the chains could
-	// be long enough for the last estimate.
+	// τ is estimated (an FFT per walker and parameter) only at checkpoints, a quarter of the
+	// chain apart, and once trusted not before the chains could be long enough for it.
 	nextCheck := chunk
 	for total < o.MaxSteps {
 		n := min(chunk, o.MaxSteps-total)
@@ -190,11 +189,14 @@ func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, 
 			continue
 		}
 		burn := total / burnShare
-		taus, trusted = tausOf(ens, dim, burn)
+		taus, trusted = tausOf(ens, dim, burn, par)
 		if trusted && float64(total-burn) >= lengthPerTau*maxOf(taus) {
 			break
 		}
-		nextCheck = total + chunk
+		// Each check costs an FFT per walker and parameter over the whole chain, so the
+		// checks grow apart geometrically (a quarter of the chain at a time, at most a
+		// quarter of overshoot in steps).
+		nextCheck = max(total+chunk, total+total/4)
 		if trusted {
 			// The total at which the kept share reaches 50τ, if τ holds.
 			need := int(lengthPerTau*maxOf(taus)*burnShare/(burnShare-1)) + 1
@@ -704,22 +706,29 @@ func appendChain(acc, c *sampler.Chain) {
 
 // tausOf is, per parameter, the largest autocorrelation time over the ensembles after burn,
 // and whether every estimate is trusted.
-func tausOf(ens []*sampler.Chain, dim, burn int) ([]float64, bool) {
+func tausOf(ens []*sampler.Chain, dim, burn int, par func(n int, block func(i int))) ([]float64, bool) {
 	taus := make([]float64, dim)
-	trusted := true
-	for p := 0; p < dim; p++ {
+	ok := make([]bool, dim)
+	// One block per parameter: each writes only its own entries, so the result does not
+	// depend on how the blocks are scheduled.
+	par(dim, func(p int) {
+		ok[p] = true
 		for _, ch := range ens {
 			ac, err := sampler.AutoCorrTime(ch.Series(p, burn), 0)
 			if err != nil {
-				trusted = false
+				ok[p] = false
 				continue
 			}
 			taus[p] = math.Max(taus[p], ac.Tau)
-			trusted = trusted && ac.Trusted
+			ok[p] = ok[p] && ac.Trusted
 		}
 		if taus[p] < 1 {
 			taus[p] = 1
 		}
+	})
+	trusted := true
+	for _, t := range ok {
+		trusted = trusted && t
 	}
 	return taus, trusted
 }
