@@ -51,10 +51,10 @@ const version = 8
 // Defaults, each with its reason.
 const (
 	// defaultMaxSteps bounds the steps per ensemble; sampling stops as soon as the kept
-	// chains are 50τ long, which for τ of 100–500 steps (measured: 135 for one planet in
-	// 60 days of 2-min data, 510 for the demo's two planets at 30 min; BENCHMARKS.md) takes
-	// 7,500–38,000 steps. A Note says when the cap was reached first.
-	defaultMaxSteps = 50000
+	// chains are 50τ long, which for τ of 50–750 steps (measured: 45 for one planet in
+	// 60 days of 2-min data, 570–740 for the demo's two planets at 30 min; BENCHMARKS.md)
+	// takes 4,000–56,000 steps. A Note says when the cap was reached first.
+	defaultMaxSteps = 100000
 	// defaultEnsembles: two independent ensembles are the fewest for R-hat.
 	defaultEnsembles = 2
 	// defaultWindow keeps points within 2.5 search durations of a mid-transit: the box
