@@ -210,6 +210,7 @@ func (Kind) Run(ctx context.Context, cfgAny any, in steps.Inputs, env steps.Env)
 	for _, s := range notes {
 		env.Note("%s", s)
 	}
+	env.Note("caution: these parameters assume each signal is a planet transiting the star it is assigned to; they do not validate it. Eclipsing binaries, blended background stars and other false-positive scenarios need vetting and follow-up, and the judgement of whoever publishes them")
 	return art, nil
 }
 
