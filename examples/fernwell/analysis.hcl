@@ -67,12 +67,12 @@ dilution "aperture" {
 
 # The transit fit: a limb-darkened model integrated over each point's exposure, sampled by
 # two independently seeded ensembles until the kept chains are 50 autocorrelation times
-# long. It takes neither the star nor the dilution (derive combines them afterwards), so a
-# catalogue revision does not re-run it.
+# long (about two minutes here: planet b's impact parameter is poorly constrained at this
+# cadence, so the chains mix slowly, τ ≈ 670 steps). It takes neither the star nor the
+# dilution (derive combines them afterwards), so a catalogue revision does not re-run it.
 fit "planets" {
   light_curve = detrend.masked
   signals     = search.dips
-  max_steps   = 40000 # a few minutes: this posterior mixes slowly (τ ≈ 500 steps, from planet b's poorly constrained b)
 }
 
 # Radius, orbit, temperature and follow-up metrics per planet: the fit's posterior
