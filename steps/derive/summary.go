@@ -5,6 +5,8 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+
+	"dipline/steps/internal/sampler"
 )
 
 // Summary rules, each with its reason.
@@ -44,19 +46,8 @@ type Quantity struct {
 	Limit      float64
 }
 
-// quantile returns the p-quantile of sorted s by linear interpolation between order
-// statistics (the same rule as the fit step's summaries).
-func quantile(s []float64, p float64) float64 {
-	if len(s) == 0 {
-		return math.NaN()
-	}
-	h := p * float64(len(s)-1)
-	i := int(h)
-	if i+1 >= len(s) {
-		return s[len(s)-1]
-	}
-	return s[i] + (h-float64(i))*(s[i+1]-s[i])
-}
+// quantile is the fit step's rule for summaries, sampler.Quantile.
+var quantile = sampler.Quantile
 
 // summarise sorts v in place (non-finite values first removed) and fills the summary.
 // bounded says the quantity cannot be negative; then the pile-up rule decides whether an

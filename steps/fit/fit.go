@@ -823,16 +823,5 @@ func (m *Model) row(x []float64) []float64 {
 func quantiles(v []float64) (lo, mid, hi float64) {
 	s := append([]float64(nil), v...)
 	sort.Float64s(s)
-	q := func(p float64) float64 {
-		if len(s) == 0 {
-			return math.NaN()
-		}
-		h := p * float64(len(s)-1)
-		i := int(h)
-		if i+1 >= len(s) {
-			return s[len(s)-1]
-		}
-		return s[i] + (h-float64(i))*(s[i+1]-s[i])
-	}
-	return q(0.16), q(0.5), q(0.84)
+	return sampler.Quantile(s, 0.16), sampler.Quantile(s, 0.5), sampler.Quantile(s, 0.84)
 }

@@ -251,3 +251,18 @@ func EnsembleRhat(ensembles []*Chain, p, from int) (float64, error) {
 	}
 	return RankRhat(chains)
 }
+
+// Quantile returns the p-quantile (0 ≤ p ≤ 1) of the sorted draws s by linear interpolation
+// between order statistics (Hyndman & Fan 1996, type 7, the common default), NaN when s is
+// empty. The fit and derive steps summarise posteriors with it.
+func Quantile(s []float64, p float64) float64 {
+	if len(s) == 0 {
+		return math.NaN()
+	}
+	h := p * float64(len(s)-1)
+	i := int(h)
+	if i+1 >= len(s) {
+		return s[len(s)-1]
+	}
+	return s[i] + (h-float64(i))*(s[i+1]-s[i])
+}

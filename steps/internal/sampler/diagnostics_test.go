@@ -171,3 +171,17 @@ func TestEnsembleRhatSeparatesConvergedFromUnmixed(t *testing.T) {
 		}
 	})
 }
+
+func TestQuantileInterpolatesOrderStatistics(t *testing.T) {
+	// Type-7 quantiles of 1…5 (Hyndman & Fan 1996; numpy.percentile's default, from memory):
+	// p 0 → 1, 0.25 → 2, 0.5 → 3, 0.9 → 4.6, 1 → 5.
+	s := []float64{1, 2, 3, 4, 5}
+	for p, want := range map[float64]float64{0: 1, 0.25: 2, 0.5: 3, 0.9: 4.6, 1: 5} {
+		if got := Quantile(s, p); math.Abs(got-want) > 1e-12 {
+			t.Errorf("Quantile(%v) = %v, want %v", p, got, want)
+		}
+	}
+	if !math.IsNaN(Quantile(nil, 0.5)) {
+		t.Error("the quantile of no draws is not NaN")
+	}
+}
