@@ -132,7 +132,8 @@ func runDir(t *testing.T, dir string, overrides ...workflow.Override) *workflow.
 
 // TestACatalogueRevisionRerunsOnlyTheStarsReaders runs the demo, re-runs it (everything
 // reused), then swaps in revision 2 of the catalogue: only the star and what reads it
-// (dilution, derive) are recomputed, never the search or the fit.
+// (dilution, derive) are recomputed, never the search or the fit. Then a prior of the fit
+// changes: the fit and derive are recomputed, nothing else.
 func TestACatalogueRevisionRerunsOnlyTheStarsReaders(t *testing.T) {
 	if testing.Short() {
 		t.Skip("runs the demo workflow")
@@ -182,6 +183,19 @@ func TestACatalogueRevisionRerunsOnlyTheStarsReaders(t *testing.T) {
 		}
 		if s != w {
 			t.Errorf("after the revision: %s %s, want %s", addr, s, w)
+		}
+	}
+	// A prior changed for the fit re-runs the fit and what reads it, nothing upstream.
+	prior := append(append([]workflow.Override(nil), shortFit...),
+		workflow.Override{Addr: "fit.planets", Attr: "priors", Value: `{ "b.b" = "uniform(0, 0.9)" }`})
+	want = map[string]string{"fit.planets": workflow.StatusComputed, "derive.planets": workflow.StatusComputed}
+	for addr, s := range statuses(runDir(t, dir, prior...)) {
+		w, ok := want[addr]
+		if !ok {
+			w = workflow.StatusReused
+		}
+		if s != w {
+			t.Errorf("after a prior changed: %s %s, want %s", addr, s, w)
 		}
 	}
 }
