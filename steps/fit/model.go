@@ -519,42 +519,59 @@ func (m *Model) sampledFrom(row []float64) []float64 {
 	return x
 }
 
-// logPostFull continues LogPost from the full vector and the log prior of its entries.
-func (m *Model) logPostFull(ws *workspace, full []float64, lp float64) float64 {
-	np := m.planets
-	g := m.global()
+// point is the model's state at one full parameter vector, apart from the data: the log
+// posterior's prior terms so far, the orbits, the limb darkening per band and the dilution.
+type point struct {
+	lp  float64
+	orb [maxPlanets]orbit
+	u   [maxBands][2]float64
+	dil float64
+}
+
+// at turns the full vector (sampled coordinates, converted in place by toPhysical) into the
+// model's state, adding to lp, in this order, the Jacobian of δ → k, the density prior with
+// its Jacobian when the duration is sampled, and the limb-darkening priors. It returns false
+// outside the prior (no transit, a planet hitting the star, k beyond 1, ρ out of bounds).
+func (m *Model) at(full []float64, lp float64) (point, bool) {
+	var p point
 	logJacK, ok := m.toPhysical(full)
 	if !ok {
-		return math.Inf(-1)
+		return p, false
 	}
 	lp += logJacK
 	rho, logJac, ok := m.density(full)
 	if !ok {
-		return math.Inf(-1)
+		return p, false
 	}
 	if m.durationParam {
 		lp += m.rhoPrior.LogPDF(rho) + logJac
 	}
-	dil := full[g+gDilution]
-	var orb [maxPlanets]orbit
-	for j := 0; j < np; j++ {
-		o, ok := m.geometry(full, j, rho)
-		if !ok {
-			return math.Inf(-1)
+	for j := 0; j < m.planets; j++ {
+		if p.orb[j], ok = m.geometry(full, j, rho); !ok {
+			return p, false
 		}
-		orb[j] = o
 	}
-	var u [maxBands][2]float64
 	for i := range m.bands {
 		q1, q2 := full[m.qIndex(i)], full[m.qIndex(i)+1]
 		if m.ld[i].U1Sigma > 0 {
 			lp += m.ld[i].LogPDF(q1, q2)
 		}
-		u[i][0], u[i][1] = transit.QuadraticFromKipping(q1, q2)
+		p.u[i][0], p.u[i][1] = transit.QuadraticFromKipping(q1, q2)
 	}
+	p.lp, p.dil = lp, full[m.global()+gDilution]
+	return p, true
+}
+
+// logPostFull continues LogPost from the full vector and the log prior of its entries.
+func (m *Model) logPostFull(ws *workspace, full []float64, lp float64) float64 {
+	pt, ok := m.at(full, lp)
+	if !ok {
+		return math.Inf(-1)
+	}
+	lp = pt.lp
 	for s := range m.segs {
 		sd := &m.segs[s]
-		mod := m.model(ws, sd, full, orb[:np], u[sd.band][0], u[sd.band][1], dil)
+		mod := m.model(ws, sd, full, pt.orb[:m.planets], pt.u[sd.band][0], pt.u[sd.band][1], pt.dil)
 		s2 := 0.0
 		if m.jitter {
 			js := math.Exp(full[m.jitterIndex(s)])

@@ -156,34 +156,13 @@ func fullLogPost(m *Model, x []float64) float64 {
 		return lp
 	}
 	full := m.expand(make([]float64, len(m.params)), x)
-	np := m.planets
-	g := m.global()
-	jacK, okK := m.toPhysical(full)
-	if !okK {
-		return math.Inf(-1)
-	}
-	lp += jacK
-	rho, logJac, ok := m.density(full)
+	// The priors, orbits and limb darkening come from the model's own Model.at; what this
+	// reference computes its own way is the light curve.
+	pt, ok := m.at(full, lp)
 	if !ok {
 		return math.Inf(-1)
 	}
-	if m.durationParam {
-		lp += m.rhoPrior.LogPDF(rho) + logJac
-	}
-	dil := full[g+gDilution]
-	orb := make([]orbit, np)
-	for j := 0; j < np; j++ {
-		o, ok := m.geometry(full, j, rho)
-		if !ok {
-			return math.Inf(-1)
-		}
-		orb[j] = o
-	}
-	for i := range m.bands {
-		if m.ld[i].U1Sigma > 0 {
-			lp += m.ld[i].LogPDF(full[m.qIndex(i)], full[m.qIndex(i)+1])
-		}
-	}
+	lp, orb, dil, np := pt.lp, pt.orb, pt.dil, m.planets
 	for s := range m.segs {
 		sd := &m.segs[s]
 		u1, u2 := transit.QuadraticFromKipping(full[m.qIndex(sd.band)], full[m.qIndex(sd.band)+1])
@@ -325,15 +304,9 @@ func TestChosenSubexposuresMatchAMuchFinerIntegration(t *testing.T) {
 // modelAt is the integrated model of the first segment at x.
 func modelAt(m *Model, x []float64) []float64 {
 	full := m.expand(make([]float64, len(m.params)), x)
-	m.toPhysical(full)
-	rho, _, _ := m.density(full)
-	orb := make([]orbit, m.planets)
-	for j := range orb {
-		orb[j], _ = m.geometry(full, j, rho)
-	}
-	u1, u2 := transit.QuadraticFromKipping(full[m.qIndex(0)], full[m.qIndex(0)+1])
+	pt, _ := m.at(full, 0)
 	ws := m.workspace()
-	return append([]float64(nil), m.model(ws, &m.segs[0], full, orb, u1, u2, 0)...)
+	return append([]float64(nil), m.model(ws, &m.segs[0], full, pt.orb[:m.planets], pt.u[0][0], pt.u[0][1], 0)...)
 }
 
 func TestFitWithChosenSubexposuresAgreesWithAFinerOne(t *testing.T) {

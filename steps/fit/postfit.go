@@ -21,28 +21,15 @@ import (
 // feature worth binning (common practice is 10 min to about a transit duration).
 const minBetaWidth = 10.0 / 1440
 
-// fullAt returns the full parameter vector, the orbits and the limb darkening per band at
-// the sampled vector x, or false when x is outside the prior.
+// fullAt returns the full parameter vector in the model's coordinates, the orbits and the
+// limb darkening per band at the sampled vector x, or false when x is outside the prior.
 func (m *Model) fullAt(x []float64) (full []float64, orb []orbit, u [][2]float64, ok bool) {
 	full = m.expand(make([]float64, len(m.params)), x)
-	if _, ok = m.toPhysical(full); !ok {
-		return nil, nil, nil, false
-	}
-	rho, _, ok := m.density(full)
+	pt, ok := m.at(full, 0)
 	if !ok {
 		return nil, nil, nil, false
 	}
-	orb = make([]orbit, m.planets)
-	for j := range orb {
-		if orb[j], ok = m.geometry(full, j, rho); !ok {
-			return nil, nil, nil, false
-		}
-	}
-	u = make([][2]float64, len(m.bands))
-	for i := range m.bands {
-		u[i][0], u[i][1] = transit.QuadraticFromKipping(full[m.qIndex(i)], full[m.qIndex(i)+1])
-	}
-	return full, orb, u, true
+	return full, pt.orb[:m.planets], pt.u[:len(m.bands)], true
 }
 
 // residualsAt returns, per segment, the residuals f − c·model at the sampled vector x, c
