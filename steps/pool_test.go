@@ -2,6 +2,7 @@ package steps
 
 import (
 	"context"
+	"errors"
 	"sync/atomic"
 	"testing"
 )
@@ -48,5 +49,21 @@ func TestAcquireHonoursCancel(t *testing.T) {
 	cancel()
 	if err := p.Acquire(ctx); err == nil {
 		t.Fatal("Acquire on an empty pool returned without error after cancel")
+	}
+}
+
+type nothing struct{}
+
+func (*nothing) Encode() []byte    { return nil }
+func (*nothing) Figures() []Figure { return nil }
+
+func TestDecodedKeepsAFailedDecodeNil(t *testing.T) {
+	var typedNil *nothing
+	a, err := Decoded(typedNil, errors.New("truncated"))
+	if a != nil || err == nil {
+		t.Errorf("Decoded(typed nil, error) = %v, %v; want a nil Artifact and the error", a, err)
+	}
+	if a, err := Decoded(&nothing{}, nil); a == nil || err != nil {
+		t.Errorf("Decoded(value, nil) = %v, %v", a, err)
 	}
 }

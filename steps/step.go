@@ -190,3 +190,13 @@ func IsInputError(err error) bool {
 	var ie *InputError
 	return errors.As(err, &ie)
 }
+
+// Decoded adapts a kind's typed decoder to Kind.Decode: on an error it returns a nil
+// Artifact, never a typed nil pointer inside a non-nil interface. Use it as
+// `return steps.Decoded(Decode(b))`.
+func Decoded[T Artifact](a T, err error) (Artifact, error) {
+	if err != nil {
+		return nil, err
+	}
+	return a, nil
+}

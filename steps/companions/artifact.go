@@ -40,7 +40,7 @@ func (l *List) Encode() []byte {
 }
 
 // Decode implements steps.Kind.
-func (Kind) Decode(b []byte) (steps.Artifact, error) { return Decode(b) }
+func (Kind) Decode(b []byte) (steps.Artifact, error) { return steps.Decoded(Decode(b)) }
 
 // Decode reads a List back, rejecting truncated, foreign or invalid records.
 func Decode(b []byte) (*List, error) {

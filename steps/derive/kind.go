@@ -215,10 +215,4 @@ func (Kind) Run(ctx context.Context, cfgAny any, in steps.Inputs, env steps.Env)
 }
 
 // Decode reads an artifact back from its canonical encoding.
-func (Kind) Decode(b []byte) (steps.Artifact, error) {
-	a, err := Decode(b)
-	if err != nil {
-		return nil, err
-	}
-	return a, nil
-}
+func (Kind) Decode(b []byte) (steps.Artifact, error) { return steps.Decoded(Decode(b)) }

@@ -118,7 +118,7 @@ func (r *Result) Encode() []byte {
 
 // Decode reads a Result back from its encoding, rejecting truncated, foreign or
 // inconsistent records.
-func (Kind) Decode(b []byte) (steps.Artifact, error) { return Decode(b) }
+func (Kind) Decode(b []byte) (steps.Artifact, error) { return steps.Decoded(Decode(b)) }
 
 // Decode reads a Result back from its encoding.
 func Decode(b []byte) (*Result, error) {

@@ -47,7 +47,7 @@ func (r *Result) Encode() []byte {
 }
 
 // Decode implements steps.Kind.
-func (Kind) Decode(b []byte) (steps.Artifact, error) { return Decode(b) }
+func (Kind) Decode(b []byte) (steps.Artifact, error) { return steps.Decoded(Decode(b)) }
 
 // Decode reads a Result back, rejecting truncated, foreign or inconsistent records.
 func Decode(b []byte) (*Result, error) {

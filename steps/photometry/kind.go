@@ -162,4 +162,4 @@ func (Kind) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env) (s
 }
 
 // Decode implements steps.Kind.
-func (Kind) Decode(b []byte) (steps.Artifact, error) { return DecodeResult(b) }
+func (Kind) Decode(b []byte) (steps.Artifact, error) { return steps.Decoded(DecodeResult(b)) }

@@ -111,13 +111,7 @@ func (a *Artifact) Encode() []byte {
 }
 
 // Decode reads an artifact back; truncated, foreign or inconsistent bytes are an error.
-func (Kind) Decode(b []byte) (steps.Artifact, error) {
-	a, err := Decode(b)
-	if err != nil {
-		return nil, err
-	}
-	return a, nil
-}
+func (Kind) Decode(b []byte) (steps.Artifact, error) { return steps.Decoded(Decode(b)) }
 
 // Decode reads an artifact written by Encode and checks it: a known method, radius and mass
 // present, every quantity with the same number of draws, radius, mass and every other draw
