@@ -33,12 +33,9 @@ func (m *Model) fullAt(x []float64) (full []float64, orb []orbit, u [][2]float64
 }
 
 // residualsAt returns, per segment, the residuals f − c·model at the sampled vector x, c
-// being the segment's best flux normalisation B/A (the marginalised scale's maximum).
-func (m *Model) residualsAt(x []float64) ([][]float64, error) {
-	full, orb, u, ok := m.fullAt(x)
-	if !ok {
-		return nil, errors.New("the best fit lies outside the prior")
-	}
+// being the segment's best flux normalisation B/A (the marginalised scale's maximum); full,
+// orb and u are fullAt's for x.
+func (m *Model) residualsAt(full []float64, orb []orbit, u [][2]float64) [][]float64 {
 	ws := m.workspace()
 	defer m.scratch.Put(ws)
 	dil := full[m.global()+gDilution]
@@ -58,18 +55,17 @@ func (m *Model) residualsAt(x []float64) ([][]float64, error) {
 		}
 		out[s] = r
 	}
-	return out, nil
+	return out
 }
 
 // beta is the β factor of the residuals at x over all segments, with bins from ten minutes
 // to the longest total duration of the planets at x.
 func (m *Model) beta(x []float64) (float64, error) {
-	res, err := m.residualsAt(x)
-	if err != nil {
-		return 0, err
+	full, orb, u, ok := m.fullAt(x)
+	if !ok {
+		return 0, errors.New("the best fit lies outside the prior")
 	}
-	_, orb, _, _ := m.fullAt(x)
-	full := m.expand(make([]float64, len(m.params)), x)
+	res := m.residualsAt(full, orb, u)
 	longest := 0.0
 	for j := range orb {
 		p := full[perPlanet*j:]
