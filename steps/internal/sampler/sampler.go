@@ -1,7 +1,9 @@
 // Package sampler is the numerical core of dipline's posterior sampling: the affine-invariant
 // ensemble sampler with the stretch move of Goodman & Weare (2010, Comm. App. Math. Comp. Sci.
 // 5, 65) in its parallel half-ensemble form (Foreman-Mackey et al. 2013, PASP 125, 306,
-// Algorithm 3), and the diagnostics to judge a chain: the integrated autocorrelation time with
+// Algorithm 3), mixed on request with differential-evolution moves (ter Braak 2006) and
+// independence moves from a fixed Student-t guide (Tierney 1994; see Guide), and the
+// diagnostics to judge a chain: the integrated autocorrelation time with
 // Sokal's automatic window, the effective sample size, and split R-hat across independently
 // seeded ensembles (rank-normalised, Vehtari et al. 2021). It works on plain slices and a
 // log-probability function; it knows nothing of models, priors, workflow files or the cache.
@@ -44,6 +46,13 @@ type Options struct {
 	// move; mixing the two shortens autocorrelation times on curved posteriors. Which move a
 	// step uses is drawn from the seed, never from the data. 0 keeps the pure stretch move.
 	DEShare float64
+	// GuideShare is the share of steps (0 to 1, with DEShare at most 1 in all) that use the
+	// independence move: each walker proposes a draw from Guide and accepts it with the
+	// Metropolis–Hastings ratio for that proposal (see Guide). The steps left after DEShare
+	// and GuideShare use the stretch move.
+	GuideShare float64
+	// Guide is the independence move's proposal density; needed when GuideShare > 0.
+	Guide *Guide
 	// Thin keeps every Thin-th step (steps Thin−1, 2·Thin−1, …); 0 or 1 keeps all.
 	Thin int
 	// Parallel runs block(i) for every i in [0, n), possibly concurrently, and returns when all
@@ -197,10 +206,17 @@ func Run(ctx context.Context, logp func(x []float64) float64, init [][]float64, 
 	if opts.DEShare > 0 && K < 4 {
 		return nil, fmt.Errorf("%w: %d walkers; the differential-evolution move needs two in each half", ErrConfig, K)
 	}
+	if !(opts.GuideShare >= 0 && opts.GuideShare+opts.DEShare <= 1) {
+		return nil, fmt.Errorf("%w: guide share %v with DE share %v: each between 0 and 1, together at most 1", ErrConfig, opts.GuideShare, opts.DEShare)
+	}
+	if opts.GuideShare > 0 && (opts.Guide == nil || len(opts.Guide.Mean) != N) {
+		return nil, fmt.Errorf("%w: guide share %v needs a guide of dimension %d", ErrConfig, opts.GuideShare, N)
+	}
 	moves := rng.Derive(opts.Seed, moveLabel, 0)
 	gamma := 2.38 / math.Sqrt(2*float64(N))
-	de := false
-	y := make([]float64, K*N) // proposal scratch, one row per walker
+	de, guided := false, false
+	gbuf := make([]float64, K*N) // the guide's scratch, one row per walker
+	y := make([]float64, K*N)    // proposal scratch, one row per walker
 	accepted := make([]bool, K)
 	halves := [2][2]int{{0, K / 2}, {K / 2, K}}
 
@@ -208,12 +224,16 @@ func Run(ctx context.Context, logp func(x []float64) float64, init [][]float64, 
 	// [olo, olo+on). It touches only walker lo+i's row, stream and flags, so the blocks of a
 	// half may run in any order or concurrently. Built once: no allocation per step.
 	var lo, hi, olo, on int
-	var deUpdate func(k int, r *rng.Stream)
+	var deUpdate, guideUpdate func(k int, r *rng.Stream)
 	update := func(i int) {
 		k := lo + i
 		r := &streams[k]
-		if de {
+		switch {
+		case de:
 			deUpdate(k, r)
+			return
+		case guided:
+			guideUpdate(k, r)
 			return
 		}
 		// Three draws per update, always, so the stream never depends on data.
@@ -270,8 +290,31 @@ func Run(ctx context.Context, logp func(x []float64) float64, init [][]float64, 
 		}
 	}
 
+	// guideUpdate is update's independence move: N + Nu + 1 draws per update, always.
+	guideUpdate = func(k int, r *rng.Stream) {
+		g := opts.Guide
+		xk := x[k*N : (k+1)*N : (k+1)*N]
+		yk := y[k*N : (k+1)*N : (k+1)*N]
+		d := gbuf[k*N : (k+1)*N : (k+1)*N]
+		g.draw(yk, r)
+		lnU := math.Log(r.Float64())
+		lpy := logp(yk)
+		if math.IsNaN(lpy) || math.IsInf(lpy, 0) {
+			accepted[k] = false
+			return
+		}
+		accepted[k] = lnU < lpy-lp[k]+g.logDensity(xk, d)-g.logDensity(yk, d)
+		if accepted[k] {
+			copy(xk, yk)
+			lp[k] = lpy
+		}
+	}
+
 	for step := 0; step < opts.Steps; step++ {
-		de = moves.Float64() < opts.DEShare
+		// One draw per step picks the move: DE below DEShare, then the guide, then stretch.
+		u := moves.Float64()
+		de = u < opts.DEShare
+		guided = !de && u < opts.DEShare+opts.GuideShare
 		if err := ctx.Err(); err != nil {
 			ch.Samples = ch.Samples[:ch.Stored*K*N]
 			ch.LogProb = ch.LogProb[:ch.Stored*K]

@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"math"
+	"slices"
 	"sync"
 	"sync/atomic"
 	"testing"
@@ -98,23 +99,60 @@ func ball(k int, centre []float64, width float64, seed uint64) [][]float64 {
 // sqrt(Σ_ii τ/(K n)), SE(Σ̂_ij) = sqrt((Σ_ii Σ_jj + Σ_ij²) τ/(K n)) (normal-theory variance
 // of a sample covariance, e.g. Anderson 2003, An Introduction to Multivariate Statistical
 // Analysis, §3.3; from memory), with τ the largest over the parameters.
-// moveMixes are the samplers under test: the pure stretch move and the mixture with
-// differential-evolution steps that the fit uses.
-var moveMixes = []struct {
-	name    string
-	deShare float64
-}{{"the stretch move", 0}, {"stretch and differential-evolution moves", 0.8}}
+// moveMix is one sampler under test: the shares of differential-evolution and independence
+// (guide) steps, the rest being stretch steps.
+type moveMix struct {
+	name                string
+	deShare, guideShare float64
+}
+
+// moveMixes are the samplers under test: the pure stretch move, the mixture with
+// differential-evolution steps, and the mixture with independence steps that the fit uses
+// once it has a guide.
+var moveMixes = []moveMix{
+	{"the stretch move", 0, 0},
+	{"stretch and differential-evolution moves", 0.8, 0},
+	{"stretch, differential-evolution and guide moves", 0.4, 0.5},
+}
+
+// options returns the run's options for mix, with guide for its independence steps.
+func (mix moveMix) options(steps int, seed uint64, guide *Guide) Options {
+	o := Options{Steps: steps, Seed: seed, DEShare: mix.deShare, GuideShare: mix.guideShare}
+	if mix.guideShare > 0 {
+		o.Guide = guide
+	}
+	return o
+}
+
+// offGuide is a deliberately poor guide for g: its centre is half a standard deviation off
+// in every parameter, its scales are 0.8 of the marginal ones and it ignores correlations.
+// The independence move stays valid with it (Tierney 1994); only its acceptance suffers.
+func offGuide(g gaussian) *Guide {
+	n := len(g.mu)
+	mean := make([]float64, n)
+	cov := mat.NewSymDense(n, nil)
+	for i := range mean {
+		sd := math.Sqrt(g.cov.At(i, i))
+		mean[i] = g.mu[i] + 0.5*sd
+		cov.SetSym(i, i, 0.64*sd*sd)
+	}
+	gd, err := NewGuide(mean, cov, GuideNu)
+	if err != nil {
+		panic(err)
+	}
+	return gd
+}
 
 func TestRecoversMeanAndCovarianceOfCorrelatedGaussian(t *testing.T) {
 	for _, mix := range moveMixes {
-		t.Run(mix.name, func(t *testing.T) { recoversGaussian(t, mix.deShare) })
+		t.Run(mix.name, func(t *testing.T) { recoversGaussian(t, mix) })
 	}
 }
 
-func recoversGaussian(t *testing.T, deShare float64) {
+func recoversGaussian(t *testing.T, mix moveMix) {
 	g := kms([]float64{1, -2, 0.5, 3, 0}, []float64{1, 2, 0.5, 3, 1}, 0.6)
 	const K, steps, burn = 32, 6000, 1000
-	ch, err := Run(context.Background(), g.logp, ball(K, g.mu, 0.1, 11), Options{Steps: steps, Seed: 2026, DEShare: deShare})
+	ch, err := Run(context.Background(), g.logp, ball(K, g.mu, 0.1, 11), mix.options(steps, 2026, offGuide(g)))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -181,15 +219,21 @@ func recoversGaussian(t *testing.T, deShare float64) {
 // state: we measured the difference growing about e-fold every 30 steps (1e-14 of the scale
 // after 200 steps, 1e-9 after 400, accept decisions differing by 1200). So the 1000 case is
 // checked over 150 steps, to 1e-12 of the axis scale.
+//
+// The independence move is affine invariant when its guide transforms with the parameters:
+// scaling axis 0 by s scales the guide's mean and the first row of its Cholesky factor by s
+// (chol(AΣA) = A·L for a diagonal A), as a guide fitted to the scaled samples would.
 func TestChainIsAffineInvariant(t *testing.T) {
 	for _, mix := range moveMixes {
-		t.Run(mix.name, func(t *testing.T) { affineInvariant(t, mix.deShare) })
+		t.Run(mix.name, func(t *testing.T) { affineInvariant(t, mix) })
 	}
 }
 
-func affineInvariant(t *testing.T, deShare float64) {
+func affineInvariant(t *testing.T, mix moveMix) {
+	deShare := mix.deShare + mix.guideShare
 	g := kms([]float64{0.3, -1, 2}, []float64{1, 0.5, 2}, 0.7)
 	init := ball(8, g.mu, 0.2, 5)
+	guide := offGuide(g)
 	cases := []struct {
 		name  string
 		scale float64
@@ -207,7 +251,7 @@ func affineInvariant(t *testing.T, deShare float64) {
 				// the scale after 84 steps, so the inexact case is checked over 60.
 				steps = 60
 			}
-			base, err := Run(context.Background(), g.logp, init, Options{Steps: steps, Seed: 77, DEShare: deShare})
+			base, err := Run(context.Background(), g.logp, init, mix.options(steps, 77, guide))
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -222,7 +266,12 @@ func affineInvariant(t *testing.T, deShare float64) {
 				init2[w] = append([]float64(nil), row...)
 				init2[w][0] *= c.scale
 			}
-			got, err := Run(context.Background(), scaled, init2, Options{Steps: steps, Seed: 77, DEShare: deShare})
+			sg := &Guide{Mean: slices.Clone(guide.Mean), Chol: slices.Clone(guide.Chol), Nu: guide.Nu}
+			sg.Mean[0] *= c.scale
+			for j := range 3 {
+				sg.Chol[j] *= c.scale
+			}
+			got, err := Run(context.Background(), scaled, init2, mix.options(steps, 77, sg))
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -361,6 +410,11 @@ func TestBadConfigurationsAreErrors(t *testing.T) {
 		{"zero steps", flat, [][]float64{{0}, {1}}, Options{}},
 		{"a stretch scale of 1", flat, [][]float64{{0}, {1}}, Options{Steps: 10, Stretch: 1}},
 		{"a negative thinning", flat, [][]float64{{0}, {1}}, Options{Steps: 10, Thin: -2}},
+		{"a guide share without a guide", flat, [][]float64{{0}, {1}}, Options{Steps: 10, GuideShare: 0.5}},
+		{"a guide of another dimension", flat, [][]float64{{0}, {1}}, Options{Steps: 10, GuideShare: 0.5,
+			Guide: &Guide{Mean: []float64{0, 0}, Chol: []float64{1, 0, 0, 1}, Nu: 4}}},
+		{"guide and DE shares above 1 together", flat, ball(4, []float64{0}, 1, 1), Options{Steps: 10, DEShare: 0.6, GuideShare: 0.5,
+			Guide: &Guide{Mean: []float64{0}, Chol: []float64{1}, Nu: 4}}},
 	}
 	for _, c := range cases {
 		t.Run(c.name+" is a configuration error", func(t *testing.T) {
