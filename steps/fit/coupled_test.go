@@ -172,7 +172,7 @@ func TestEachBandHasItsOwnLimbDarkening(t *testing.T) {
 	})
 	x := truthVector(m, art, []truth{hot})
 	for i, s := range segs {
-		x[freePos(m, m.qIndex(i))], x[freePos(m, m.qIndex(i)+1)] = s.q1, s.q2
+		x[freePos(m, m.qIndex(i))], x[freePos(m, m.qIndex(i)+1)] = logit(s.q1), logit(s.q2)
 	}
 	y := slices.Clone(x)
 	y[freePos(m, m.qIndex(0))], y[freePos(m, m.qIndex(1))] = x[freePos(m, m.qIndex(1))], x[freePos(m, m.qIndex(0))]
@@ -305,7 +305,7 @@ func eccentricFit(t *testing.T, tr truth, days, cadence float64, maxSteps int64,
 	aR := ScaledAxis(tr.period, tr.rho)
 	f := math.Sqrt(1-tr.e*tr.e) / (1 + tr.e*math.Sin(tr.omega))
 	sig := signals.Signal{Period: tr.period + 2e-4, Epoch: tr.t0 + 0.003,
-		Duration: 0.85 * f * TotalDuration(tr.period, tr.k, tr.b, aR), Depth: 0.9 * tr.k * tr.k}
+		Duration: 0.85 * f * totalDuration(tr.period, tr.k, tr.b, aR), Depth: 0.9 * tr.k * tr.k}
 	star := starArtifact{&stellar.Star{Density: logNormalDraws(tr.rho, 0.05, 4000, 8)}}
 	set := map[string]any{"light_curve": "detrend.x", "signals": "search.x", "star": "star.x",
 		"eccentric": []string{"b"}, "max_steps": maxSteps, "jitter": jitter}

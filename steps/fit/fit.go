@@ -46,6 +46,23 @@ const (
 	// than the stretch move (sampler.Options.DEShare): on a 5-D correlated Gaussian it cut τ
 	// from 63 to 20 steps (sampler tests), and on the demo's two-planet posterior (BENCHMARKS.md).
 	deShare = 0.8
+	// warmStages is the number of warm-up stages of chunk steps, after each of which the
+	// ensembles' guides are refitted (see Fit).
+	// guideShare and guidedDEShare are the shares of steps using the independence move and
+	// the differential-evolution move once the ensembles have their guides (the rest are
+	// stretch moves). Half the steps draw from the guide: on one planet in 60 days of 2-min
+	// data τ fell from 49 to 15 steps, and in the calibration runs the median τ from 92 to
+	// 44 (BENCHMARKS.md); the other moves keep the chains local where the guide fits badly.
+	guideShare, guidedDEShare = 0.5, 0.4
+	// guideAfter is the length of the first phase in autocorrelation times (τ estimated from
+	// its last two thirds), and minFirstPhase its least length in steps: the guide is fitted
+	// to the second half of that phase, which must have spread from the starting ball over
+	// the posterior (τ estimates from a few hundred steps are far too short; our choice).
+	guideAfter    = 10
+	minFirstPhase = 2000
+	// guideGain is the factor by which the first check after the guides are fitted expects
+	// τ to have shrunk (it only places that check; τ is measured there).
+	guideGain = 2
 	// chunk is the number of steps run between checks of the autocorrelation time.
 	chunk = 250
 	// walkersPerDim is the ensemble size per parameter: 2, the fewest the stretch move
@@ -162,22 +179,22 @@ func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, 
 		last[e] = init
 		ens[e] = &sampler.Chain{Walkers: K, Dim: dim, Thin: 1, Accepted: make([]int, K)}
 	}
-	var taus []float64
-	trusted := false
+	// advance runs n steps of every ensemble, each with its guide when it has one.
+	guides := make([]*sampler.Guide, o.Ensembles)
 	total := 0
-	// τ is estimated (an FFT per walker and parameter) only at checkpoints, a quarter of the
-	// chain apart, and once trusted not before the chains could be long enough for it.
-	nextCheck := chunk
-	for total < o.MaxSteps {
-		n := min(chunk, o.MaxSteps-total)
+	advance := func(n int) error {
 		for e := range ens {
 			seed := rng.DeriveSeed(o.Seed, "fit/ensemble", uint64(e)<<32|uint64(total/chunk))
-			ch, err := sampler.Run(ctx, m.LogPost, last[e], sampler.Options{Steps: n, Seed: seed, Parallel: par, DEShare: deShare})
+			so := sampler.Options{Steps: n, Seed: seed, Parallel: par, DEShare: deShare}
+			if guides[e] != nil {
+				so.DEShare, so.GuideShare, so.Guide = guidedDEShare, guideShare, guides[e]
+			}
+			ch, err := sampler.Run(ctx, m.LogPost, last[e], so)
 			if err != nil {
 				if errors.Is(err, sampler.ErrConfig) {
-					return nil, nil, fmt.Errorf("fit: %w", err)
+					return fmt.Errorf("fit: %w", err)
 				}
-				return nil, nil, err
+				return err
 			}
 			appendChain(ens[e], ch)
 			for w := range last[e] {
@@ -185,25 +202,63 @@ func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, 
 			}
 		}
 		total += n
+		return nil
+	}
+	// Two phases. First the stretch and differential-evolution moves alone, from the ball,
+	// until the chains are guideAfter autocorrelation times long; each ensemble's guide is
+	// then fitted to the second half of its own chains (so the ensembles stay independent)
+	// and frozen, and everything so far is burn-in. Then all three moves, until the chains
+	// after burn-in are lengthPerTau autocorrelation times long. A problem that reaches that
+	// length in the first phase (its last two thirds) stops there.
+	burn := 0
+	var taus []float64
+	trusted := false
+	// τ is estimated (an FFT per walker and parameter) only at checkpoints, a quarter of the
+	// chain apart, and once trusted not before the chains could be long enough for it.
+	nextCheck := chunk
+	for total < o.MaxSteps {
+		if err := advance(min(chunk, o.MaxSteps-total)); err != nil {
+			return nil, nil, err
+		}
 		if total < nextCheck && total < o.MaxSteps {
 			continue
 		}
-		burn := total / burnShare
-		taus, trusted = tausOf(ens, dim, burn, par)
-		if trusted && float64(total-burn) >= lengthPerTau*maxOf(taus) {
+		guided := guides[0] != nil
+		from := burn
+		if !guided {
+			from = total / burnShare
+		}
+		taus, trusted = tausOf(ens, dim, from, par)
+		if trusted && float64(total-from) >= lengthPerTau*maxOf(taus) {
+			burn = from
 			break
+		}
+		if !guided && total >= minFirstPhase && float64(total) >= guideAfter*maxOf(taus) {
+			if fitGuides(guides, ens, total/2) {
+				burn = total
+				nextCheck = total + max(chunk, int(lengthPerTau*maxOf(taus)/guideGain))
+				continue
+			}
 		}
 		// Each check costs an FFT per walker and parameter over the whole chain, so the
 		// checks grow apart geometrically (a quarter of the chain at a time, at most a
 		// quarter of overshoot in steps).
-		nextCheck = max(total+chunk, total+total/4)
+		nextCheck = max(total+chunk, total+(total-from)/4)
 		if trusted {
 			// The total at which the kept share reaches 50τ, if τ holds.
-			need := int(lengthPerTau*maxOf(taus)*burnShare/(burnShare-1)) + 1
+			need := from + int(lengthPerTau*maxOf(taus)) + 1
+			if !guided {
+				need = int(lengthPerTau*maxOf(taus)*burnShare/(burnShare-1)) + 1
+			}
 			nextCheck = max(nextCheck, min(need, o.MaxSteps))
 		}
 	}
-	burn := total / burnShare
+	if guides[0] == nil || burn >= total {
+		burn = total / burnShare
+	}
+	if taus == nil || !(burn < total) {
+		taus, trusted = tausOf(ens, dim, burn, par)
+	}
 	tauMax := maxOf(taus)
 	if !trusted || float64(total-burn) < lengthPerTau*tauMax {
 		notes = append(notes, fmt.Sprintf("warning: the chains after burn-in are %d steps, shorter than %d autocorrelation times (%.4g steps): the posterior summaries are preliminary; raise max_steps", total-burn, lengthPerTau, lengthPerTau*tauMax))
@@ -500,21 +555,9 @@ func setup(lc *lightcurve.LightCurve, o Options) (m *Model, art *Artifact, x0, s
 		}
 		step[idx] = math.Min(step[idx], w)
 	}
-	// With a circular first planet and a density that is not fixed, sample that planet's
-	// total duration in place of log10 ρ (see Model.density), whatever the density's prior
-	// (it is applied to ρ with the Jacobian): the duration is what the data measure, so the
-	// walkers no longer crawl along the ridge where a larger b trades against a lower density.
-	if !m.ecc[0] && !m.params[g+gDensity].fixed {
-		dp := &m.params[g+gDensity]
-		m.durationParam, m.rhoPrior = true, dp.prior
-		s0 := o.Signals[0]
-		rho0 := math.Pow(10, start[g+gDensity])
-		t14 := TotalDuration(s0.Period, start[iK], start[iB], ScaledAxis(s0.Period, rho0))
-		*dp = param{name: planetNames[0] + ".duration", lo: 0, hi: s0.Period / 2}
-		start[g+gDensity], step[g+gDensity] = t14, s0.Duration/10
-	}
-	// Likewise, each planet whose k has the fit's own prior samples a depth-like δ in place
-	// of k (see Model.toPhysical): at fixed δ, b changes the ingress but hardly the depth,
+	rhoStart := math.Pow(10, start[g+gDensity])
+	// Each planet whose k has the fit's own prior samples a depth-like δ in place
+	// of k (see Model.radius): at fixed δ, b changes the ingress but hardly the depth,
 	// where at fixed k a larger b makes the transit shallower through the limb darkening.
 	u1, u2 := transit.QuadraticFromKipping(start[m.qIndex(0)], start[m.qIndex(0)+1])
 	for j := 0; j < np; j++ {
@@ -527,8 +570,36 @@ func setup(lc *lightcurve.LightCurve, o Options) (m *Model, art *Artifact, x0, s
 			continue
 		}
 		m.depthParam[j] = true
+		kp.hi = math.Inf(1) // k ≤ 1 is enforced on k itself (Model.radius)
 		k0 := start[perPlanet*j+iK]
 		start[perPlanet*j+iK], step[perPlanet*j+iK] = k0*k0/c, 0.4*k0*k0/c
+	}
+	// Each circular planet whose b is not fixed samples its chord coordinate in place of b
+	// while the density is free (see Model.impact): the data measure each transit's
+	// duration, and at fixed durations the shared density moves every planet's b at once, so
+	// in chords that ridge runs along the density's own axis.
+	for j := 0; j < np && !m.params[g+gDensity].fixed; j++ {
+		bp := &m.params[perPlanet*j+iB]
+		if m.ecc[j] || bp.fixed {
+			continue
+		}
+		m.chordParam[j], m.bPrior[j] = true, bp.prior
+		a := ScaledAxis(o.Signals[j].Period, rhoStart)
+		b0 := start[perPlanet*j+iB]
+		bs := math.Max(b0, startB)
+		dw := 2 * bs * (a*a - 1) / ((a*a - bs*bs) * (a*a - bs*bs)) * step[perPlanet*j+iB] // |dw/db|·Δb
+		// Every b in [0, 1 + k) has a chord in ((1 − (1+k)²)/(a² − (1+k)²), 1/a²], so the
+		// stored coordinate is bounded only by impact.
+		*bp = param{name: bp.name, lo: math.Inf(-1), hi: 1}
+		start[perPlanet*j+iB], step[perPlanet*j+iB] = chord(b0, a), dw
+	}
+	// q1, q2 are sampled as logits (see Model.physical).
+	for i := range m.bands {
+		for _, idx := range []int{m.qIndex(i), m.qIndex(i) + 1} {
+			q := start[idx]
+			m.params[idx].logit, m.params[idx].lo, m.params[idx].hi = true, math.Inf(-1), math.Inf(1)
+			start[idx], step[idx] = logit(q), step[idx]/(q*(1-q))
+		}
 	}
 	for i := range m.params {
 		p := &m.params[i]
@@ -693,6 +764,20 @@ func (m *Model) disperseOrbits(x []float64, r *rng.Stream) {
 	}
 }
 
+// fitGuides fits each ensemble's guide to its chains from step from on (sampler.FitGuide).
+// It reports whether every ensemble has one, and leaves none when any fit fails.
+func fitGuides(guides []*sampler.Guide, ens []*sampler.Chain, from int) bool {
+	for e, ch := range ens {
+		g, err := sampler.FitGuide([]*sampler.Chain{ch}, from, 1)
+		if err != nil {
+			clear(guides)
+			return false
+		}
+		guides[e] = g
+	}
+	return true
+}
+
 // appendChain appends the stored steps of c to acc.
 func appendChain(acc, c *sampler.Chain) {
 	acc.Samples = append(acc.Samples, c.Samples...)
@@ -784,11 +869,22 @@ func (m *Model) shownFixed(i int) bool {
 // row returns the artifact row of the sampled vector x (see columns).
 func (m *Model) row(x []float64) []float64 {
 	full := m.expand(make([]float64, len(m.params)), x)
-	m.toPhysical(full)
+	rho, _, _ := m.physical(full)
 	out := append([]float64(nil), x...)
 	for j := 0; j < m.planets; j++ {
+		// The columns hold k and b where the chain samples δ and the chord coordinate.
 		if i := slices.Index(m.free, perPlanet*j+iK); i >= 0 && m.depthParam[j] {
-			out[i] = full[perPlanet*j+iK] // the column holds k; the chain samples δ
+			out[i] = full[perPlanet*j+iK]
+		}
+		if i := slices.Index(m.free, perPlanet*j+iB); i >= 0 && m.chordParam[j] {
+			out[i] = full[perPlanet*j+iB]
+		}
+	}
+	for i := range m.bands { // the columns hold q1, q2; the chain samples their logits
+		for _, idx := range []int{m.qIndex(i), m.qIndex(i) + 1} {
+			if f := slices.Index(m.free, idx); f >= 0 {
+				out[f] = full[idx]
+			}
 		}
 	}
 	for i := range m.params {
@@ -796,7 +892,6 @@ func (m *Model) row(x []float64) []float64 {
 			out = append(out, full[i])
 		}
 	}
-	rho, _, _ := m.density(full)
 	out = append(out, rho)
 	for j := 0; j < m.planets; j++ {
 		p := full[perPlanet*j:]

@@ -14,16 +14,20 @@
 // points within a few search durations of a predicted mid-transit enter the likelihood.
 // The best fit comes from a Nelder–Mead optimiser started at the search's values; the
 // posterior from two or more independently seeded affine-invariant ensembles (Goodman &
-// Weare 2010) run to 50 autocorrelation times or max_steps, with τ, effective sample size and
-// R-hat per parameter.
+// Weare 2010; with differential-evolution moves, and after burn-in independence moves from a
+// Student-t guide fitted to each ensemble's own burn-in) run to 50 autocorrelation times or
+// max_steps, with τ, effective sample size and R-hat per parameter. The sampler works in
+// coordinates that straighten the posterior (a depth-like δ for k, a chord for b, logits for
+// q1 and q2; Model.physical), with their Jacobians, so the priors hold as documented.
 //
 // By default the fit does not depend on the star or on the dilution (DESIGN principle 6);
 // in coupled mode a `star` reference turns the star's density draws into the density prior
 // (a log-normal fitted to ln ρ) and a `dilution` reference turns the target's flux-ratio
 // draws into the prior of a sampled dilution D (model (F + D)/(1 + D)).
 //
-// It does not fit per-transit times, correlated noise, occultations, or limb darkening other
-// than quadratic; eccentricity from photometry alone is only as good as the density prior.
+// With the shape fixed at the best fit it times each transit (package timing) and reports
+// the residuals' β factor. It does not fit correlated noise, occultations, or limb darkening
+// other than quadratic; eccentricity from photometry alone is only as good as the density prior.
 // Main entry points: Kind (for the engine) and Fit (the library core).
 package fit
 
@@ -46,7 +50,7 @@ import (
 type Kind struct{}
 
 // version is bumped whenever the numbers or the encoding change.
-const version = 8
+const version = 9
 
 // Defaults, each with its reason.
 const (

@@ -29,22 +29,6 @@ func DensityFromAxis(period, aR float64) float64 {
 	return 3 * math.Pi * aR * aR * aR / (gravity * p * p) / 1000
 }
 
-// TotalDuration is the first-to-last-contact duration T14 of a circular orbit (Winn 2010,
-// arXiv:1001.2010, eq. 14 with e = 0): (P/π) asin[√((1+k)² − b²) / (aR sin i)], with
-// aR cos i = b. It is 0 for a non-transiting geometry and P/2 when the argument exceeds 1.
-func TotalDuration(period, k, b, aR float64) float64 {
-	h := (1+k)*(1+k) - b*b
-	if !(h > 0) || !(aR > b) {
-		return 0
-	}
-	sinI := math.Sqrt(1 - (b/aR)*(b/aR))
-	arg := math.Sqrt(h) / (aR * sinI)
-	if arg >= 1 {
-		return period / 2
-	}
-	return period / math.Pi * math.Asin(arg)
-}
-
 // Layout of the full parameter vector. Per planet j, six entries at perPlanet·j: period (d),
 // mid-transit time at the reference epoch (d), k = Rp/R*, impact parameter b, √e cos ω and
 // √e sin ω (fixed at 0 for circular orbits). Then, at global = perPlanet·planets: log10 of
@@ -70,13 +54,23 @@ type param struct {
 	lo, hi float64 // support in the stored coordinate; outside it the posterior is 0
 	prior  Prior   // in the documented unit (the density in g/cm³, not its log10)
 	log10  bool    // the stored coordinate is log10 of the documented value
+	logit  bool    // the stored coordinate is ln(v/(1 − v)) of the documented value v in (0, 1)
 	fixed  bool    // held at value and not sampled
 	value  float64 // the fixed value, stored coordinate
 }
 
 // logPrior is the log prior density of the stored coordinate v, up to a constant: the
-// prior in the documented unit times the Jacobian ρ ln 10 of ρ = 10^v for log10 entries.
+// prior in the documented unit times the Jacobian ρ ln 10 of ρ = 10^v for log10 entries,
+// and q(1 − q) of q = logistic(v) for logit entries (whose flat prior is uniform in q).
 func (p *param) logPrior(v float64) float64 {
+	if p.logit {
+		q := logistic(v)
+		lj := math.Log(q * (1 - q))
+		if p.prior.Shape == Flat {
+			return lj
+		}
+		return p.prior.LogPDF(q) + lj
+	}
 	if p.prior.Shape == Flat {
 		return 0
 	}
@@ -86,6 +80,12 @@ func (p *param) logPrior(v float64) float64 {
 	}
 	return p.prior.LogPDF(v)
 }
+
+// logistic is 1/(1 + e^−v), the inverse of logit.
+func logistic(v float64) float64 { return 1 / (1 + math.Exp(-v)) }
+
+// logit is ln(q/(1 − q)).
+func logit(q float64) float64 { return math.Log(q / (1 - q)) }
 
 // segData is the part of one segment that enters the likelihood; all of it is fixed before
 // sampling.
@@ -120,14 +120,13 @@ type Model struct {
 	// direct turns off the tabulated transit shape (tabulate), for the tests that compare
 	// the pruned computation with the plain one bit for bit.
 	direct bool
-	// durationParam says the density entry of the full vector holds the first planet's
-	// total duration T14 (days) instead of log10 ρ; rhoPrior is then the prior on ρ
-	// (g/cm³), applied with the Jacobian in Model.density.
-	durationParam bool
-	rhoPrior      Prior
 	// depthParam[j] says planet j's k entry holds δ = k²/c(b, u) instead of k (see
-	// toPhysical); its prior stays uniform in k through the Jacobian.
+	// radius); its prior stays uniform in k through the Jacobian.
 	depthParam [maxPlanets]bool
+	// chordParam[j] says planet j's b entry holds the chord coordinate w instead of b (see
+	// impact); bPrior[j] is then the prior on b, applied with the Jacobian.
+	chordParam [maxPlanets]bool
+	bPrior     [maxPlanets]Prior
 	scratch    sync.Pool
 }
 
@@ -242,31 +241,9 @@ func (m *Model) geometry(x []float64, j int, rho float64) (orbit, bool) {
 	return o, true
 }
 
-// density returns the star's mean density (g/cm³) from the full vector and, when the
-// density entry holds the first planet's total duration T (durationParam), the log of the
-// Jacobian |dρ/dT| that turns the prior on ρ into one on T. With h = (1+k)² − b² and
-// s = sin(πT/P), a circular orbit has (a/R*)² = b² + h/s² (Winn 2010 eq. 14 solved for
-// a/R* with a/R* cos i = b), and ρ ∝ (a/R*)³/P² (ScaledAxis), so
-// d ln ρ/dT = (3/2)(a/R*)⁻² · h · (−2 cos(πT/P)/s³) · π/P. It returns false outside the
-// density's hard bounds or for a geometry that cannot transit.
-func (m *Model) density(full []float64) (rho, logJac float64, ok bool) {
-	v := full[m.global()+gDensity]
-	if !m.durationParam {
-		return math.Pow(10, v), 0, true
-	}
-	period, k, b := full[iPeriod], full[iK], full[iB]
-	h := (1+k)*(1+k) - b*b
-	s, c := math.Sincos(math.Pi * v / period)
-	if !(h > 0) || !(s > 0) || !(c > 0) {
-		return 0, 0, false
-	}
-	a2 := b*b + h/(s*s)
-	rho = DensityFromAxis(period, math.Sqrt(a2))
-	if !(rho >= densityMin && rho <= densityMax) {
-		return 0, 0, false
-	}
-	dlnrho := 1.5 / a2 * h * 2 * c / (s * s * s) * math.Pi / period
-	return rho, math.Log(rho * dlnrho), true
+// density returns the star's mean density (g/cm³) from the full vector's log10 entry.
+func (m *Model) density(full []float64) float64 {
+	return math.Pow(10, full[m.global()+gDensity])
 }
 
 // ingressTime is the first-to-second contact time in days (Winn 2010 durations, through
@@ -468,52 +445,124 @@ func darkening(b, u1, u2 float64) (float64, bool) {
 	return (1 - u1/3 - u2/6) / i, true
 }
 
-// toPhysical turns the full vector's sampled coordinates into the model's in place: for each
-// planet with depthParam, the stored δ becomes k = √(δ·c(|b|, u)) with u the first band's limb
-// darkening. Any smooth invertible map is a valid reparametrisation; this one makes the k–b
-// ridge of a shallow transit nearly straight. It returns the log-Jacobian ln|∂k/∂δ| =
-// ln(k/2δ) summed over those planets, which keeps the prior uniform in k, and false when k
-// leaves (0, 1].
-func (m *Model) toPhysical(full []float64) (logJac float64, ok bool) {
-	var u1, u2 float64
-	have := false
+// radius turns planet j's stored δ into k = √(δ·c(|b|, u)) in place, u being the first
+// band's limb darkening (see physical), and returns the log-Jacobian ln|∂k/∂δ| = ln(k/2δ),
+// or false when k leaves (0, 1].
+func (m *Model) radius(full []float64, j int) (float64, bool) {
+	u1, u2 := transit.QuadraticFromKipping(full[m.qIndex(0)], full[m.qIndex(0)+1])
+	p := full[perPlanet*j:]
+	d := p[iK]
+	c, okc := darkening(math.Abs(p[iB]), u1, u2)
+	if !okc || !(d > 0) {
+		return 0, false
+	}
+	k := math.Sqrt(d * c)
+	if !(k <= 1) {
+		return 0, false
+	}
+	p[iK] = k
+	return math.Log(k / (2 * d)), true
+}
+
+// impact turns planet j's stored chord coordinate w into its impact parameter in place,
+// given the star's density ρ: with a = a/R* (ScaledAxis), w = (1 − b²)/(a² − b²) is
+// sin²(πT₁/P) for the time T₁ a circular orbit spends with the planet's centre inside the
+// stellar disc (z < 1; Winn 2010 eq. 14 with k = 0), extended smoothly to grazing orbits
+// (w < 0 for b > 1). So b² = (1 − w a²)/(1 − w). It returns ln|db/dw| =
+// ln((a² − 1)/(2b(1 − w)²)) plus b's log prior when it has one, and false where no b > 0
+// gives w at this density.
+func (m *Model) impact(full []float64, j int, rho float64) (float64, bool) {
+	p := full[perPlanet*j:]
+	w := p[iB]
+	a := ScaledAxis(p[iPeriod], rho)
+	b2 := (1 - w*a*a) / (1 - w)
+	if !(w < 1) || !(b2 > 0) {
+		return 0, false
+	}
+	b := math.Sqrt(b2)
+	p[iB] = b
+	lp := math.Log((a*a - 1) / (2 * b * (1 - w) * (1 - w)))
+	if pr := m.bPrior[j]; pr.Shape != Flat {
+		lp += pr.LogPDF(b)
+	}
+	return lp, true
+}
+
+// chord is impact's inverse: w for impact parameter b at a/R* = a.
+func chord(b, a float64) float64 { return (1 - b*b) / (a*a - b*b) }
+
+// physical turns the full vector's sampled coordinates into the model's in place and
+// returns the star's density. Any smooth invertible map is a valid reparametrisation; these
+// straighten the ridges the data leave or soften the edges of the prior:
+//   - q1, q2 of every band are stored as logits (their Jacobians are in param.logPrior):
+//     the unit square's edges, where a weakly measured limb darkening piles up, become
+//     tails that the ensemble's moves cross without rejection;
+//   - for each planet with depthParam, the stored δ = k²/c(b, u) becomes k (radius): at
+//     fixed δ the k–b ridge of a shallow transit is nearly straight;
+//   - for each planet with chordParam, the stored chord coordinate becomes b at that density
+//     (impact): at fixed chord, a denser star only shortens the ingress, where at fixed b it
+//     shortens the whole transit, so b of every planet would follow ρ along a curved ridge.
+//
+// It returns the log-Jacobians of these maps and the priors on b they carry, so that the
+// priors hold in the documented parameters, and false outside the support.
+func (m *Model) physical(full []float64) (rho, lp float64, ok bool) {
+	for i := range m.bands {
+		full[m.qIndex(i)] = logistic(full[m.qIndex(i)])
+		full[m.qIndex(i)+1] = logistic(full[m.qIndex(i)+1])
+	}
 	for j := 0; j < m.planets; j++ {
-		if !m.depthParam[j] {
+		if m.depthParam[j] && !m.chordParam[j] {
+			l, ok := m.radius(full, j)
+			if !ok {
+				return 0, 0, false
+			}
+			lp += l
+		}
+	}
+	rho = m.density(full)
+	for j := 0; j < m.planets; j++ {
+		if !m.chordParam[j] {
 			continue
 		}
-		if !have {
-			u1, u2 = transit.QuadraticFromKipping(full[m.qIndex(0)], full[m.qIndex(0)+1])
-			have = true
+		l, ok := m.impact(full, j, rho)
+		if !ok {
+			return 0, 0, false
 		}
-		p := full[perPlanet*j:]
-		d := p[iK]
-		c, okc := darkening(math.Abs(p[iB]), u1, u2)
-		if !okc || !(d > 0) {
-			return 0, false
+		lp += l
+		if m.depthParam[j] {
+			if l, ok = m.radius(full, j); !ok {
+				return 0, 0, false
+			}
+			lp += l
 		}
-		k := math.Sqrt(d * c)
-		if !(k <= 1) {
-			return 0, false
-		}
-		p[iK] = k
-		logJac += math.Log(k / (2 * d))
 	}
-	return logJac, true
+	return rho, lp, true
 }
 
 // sampledFrom returns the sampled vector of an artifact row's first Sampled columns, which
-// hold documented values: for a planet with depthParam the k column is turned back into δ.
+// hold documented values: q1, q2 become logits, for a planet with depthParam the k column
+// is turned back into δ, and for one with chordParam the b column into the chord coordinate.
 func (m *Model) sampledFrom(row []float64) []float64 {
 	x := append([]float64(nil), row[:m.dim()]...)
 	full := m.expand(make([]float64, len(m.params)), x)
 	u1, u2 := transit.QuadraticFromKipping(full[m.qIndex(0)], full[m.qIndex(0)+1])
-	for j := 0; j < m.planets; j++ {
-		i := slices.Index(m.free, perPlanet*j+iK)
-		if i < 0 || !m.depthParam[j] {
-			continue
+	for i := range m.bands {
+		for _, idx := range []int{m.qIndex(i), m.qIndex(i) + 1} {
+			if f := slices.Index(m.free, idx); f >= 0 {
+				x[f] = logit(full[idx])
+			}
 		}
-		if c, ok := darkening(math.Abs(full[perPlanet*j+iB]), u1, u2); ok {
-			x[i] = x[i] * x[i] / c
+	}
+	rho := m.density(full)
+	for j := 0; j < m.planets; j++ {
+		p := full[perPlanet*j:]
+		if i := slices.Index(m.free, perPlanet*j+iK); i >= 0 && m.depthParam[j] {
+			if c, ok := darkening(math.Abs(p[iB]), u1, u2); ok {
+				x[i] = p[iK] * p[iK] / c
+			}
+		}
+		if i := slices.Index(m.free, perPlanet*j+iB); i >= 0 && m.chordParam[j] {
+			x[i] = chord(p[iB], ScaledAxis(p[iPeriod], rho))
 		}
 	}
 	return x
@@ -528,24 +577,17 @@ type point struct {
 	dil float64
 }
 
-// at turns the full vector (sampled coordinates, converted in place by toPhysical) into the
-// model's state, adding to lp, in this order, the Jacobian of δ → k, the density prior with
-// its Jacobian when the duration is sampled, and the limb-darkening priors. It returns false
-// outside the prior (no transit, a planet hitting the star, k beyond 1, ρ out of bounds).
+// at turns the full vector (sampled coordinates, converted in place by physical) into the
+// model's state, adding to lp the Jacobians and priors of physical and the limb-darkening
+// priors. It returns false outside the prior (no transit, a planet hitting the star, k
+// beyond 1, ρ out of bounds).
 func (m *Model) at(full []float64, lp float64) (point, bool) {
 	var p point
-	logJacK, ok := m.toPhysical(full)
+	rho, lpPhys, ok := m.physical(full)
 	if !ok {
 		return p, false
 	}
-	lp += logJacK
-	rho, logJac, ok := m.density(full)
-	if !ok {
-		return p, false
-	}
-	if m.durationParam {
-		lp += m.rhoPrior.LogPDF(rho) + logJac
-	}
+	lp += lpPhys
 	for j := 0; j < m.planets; j++ {
 		if p.orb[j], ok = m.geometry(full, j, rho); !ok {
 			return p, false

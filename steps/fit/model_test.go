@@ -74,19 +74,18 @@ func truthVector(m *Model, art *Artifact, trs []truth) []float64 {
 	}
 	g := m.global()
 	full[g+gDensity] = math.Log10(trs[0].rho)
-	if m.durationParam {
-		tr := trs[0]
-		full[g+gDensity] = TotalDuration(tr.period, tr.k, tr.b, ScaledAxis(tr.period, tr.rho))
-	}
 	u1, u2 := transit.QuadraticFromKipping(trs[0].q1, trs[0].q2)
 	for j, tr := range trs {
 		if m.depthParam[j] {
 			c, _ := darkening(tr.b, u1, u2)
 			full[perPlanet*j+iK] = tr.k * tr.k / c
 		}
+		if m.chordParam[j] {
+			full[perPlanet*j+iB] = chord(tr.b, ScaledAxis(tr.period, tr.rho))
+		}
 	}
 	for i := range m.bands {
-		full[m.qIndex(i)], full[m.qIndex(i)+1] = trs[0].q1, trs[0].q2
+		full[m.qIndex(i)], full[m.qIndex(i)+1] = logit(trs[0].q1), logit(trs[0].q2)
 	}
 	if m.jitter {
 		for s := range m.segs {
@@ -219,21 +218,43 @@ func TestPrunedLogPosteriorIsTheFullOneToTheBit(t *testing.T) {
 			r := rng.Derive(uint64(ci), "fit-test/pruning", 0)
 			x := make([]float64, len(x0))
 			finite := 0
-			for trial := 0; trial < 400; trial++ {
+			const trials = 800 // about a quarter of the draws from the prior box are valid
+			for trial := 0; trial < trials; trial++ {
 				switch {
 				case trial == 0:
 					copy(x, x0)
 				case trial%2 == 1:
-					for i := range x {
-						x[i] = x0[i] + 3*scale[i]*r.Normal()
+					for i, idx := range m.free {
+						w := 3.0
+						if idx < m.global() && m.chordParam[idx/perPlanet] && idx%perPlanet == iB {
+							w = 1 // a chord near b = 0 lies within a step of its edge
+						}
+						x[i] = x0[i] + w*scale[i]*r.Normal()
 					}
 				default:
 					for i, idx := range m.free {
 						lo, hi := m.params[idx].lo, m.params[idx].hi
-						if idx == m.global()+gDensity && !m.durationParam {
+						if math.IsInf(hi, 1) {
+							hi = 1 // δ, bounded through k ≤ 1
+						}
+						if m.params[idx].logit {
+							lo, hi = -6, 6 // q from 0.0025 to 0.9975
+						}
+						if idx == m.global()+gDensity {
 							lo, hi = -2, 2 // the default prior's range
 						}
 						x[i] = lo + (hi-lo)*r.Float64()
+						if idx < m.global() && m.chordParam[idx/perPlanet] && idx%perPlanet == iB {
+							x[i] = 0 // b = 1 for now; drawn below at the drawn density
+						}
+					}
+					// A chord coordinate's valid range depends on the density: draw b
+					// uniformly in [0, 1.1] and store its chord.
+					rho, _, _ := m.physical(m.expand(make([]float64, len(m.params)), x))
+					for i, idx := range m.free {
+						if j := idx / perPlanet; idx < m.global() && m.chordParam[j] && idx%perPlanet == iB && rho > 0 {
+							x[i] = chord(1.1*r.Float64(), ScaledAxis(x[freePos(m, perPlanet*j+iPeriod)], rho))
+						}
 					}
 				}
 				got, want := m.LogPost(x), fullLogPost(m, x)
@@ -245,7 +266,7 @@ func TestPrunedLogPosteriorIsTheFullOneToTheBit(t *testing.T) {
 				}
 			}
 			if finite < 100 {
-				t.Errorf("only %d of 400 points had a finite posterior; the check is too weak", finite)
+				t.Errorf("only %d of %d points had a finite posterior; the check is too weak", finite, trials)
 			}
 		})
 	}

@@ -148,10 +148,8 @@ func meanSD(x []float64) (float64, float64) {
 	return m, math.Sqrt(s / float64(len(x)-1))
 }
 
-// durationAt is hot's total duration around a star of density rho (g/cm³).
-func durationAt(rho float64) float64 {
-	return TotalDuration(hot.period, hot.k, hot.b, ScaledAxis(hot.period, rho))
-}
+// chordAt is the chord coordinate (Model.impact) of hot at impact parameter b.
+func chordAt(b float64) float64 { return chord(b, ScaledAxis(hot.period, hot.rho)) }
 
 func TestPriorsEnterTheLogPosteriorExactly(t *testing.T) {
 	// Two points differing in one parameter: the change of LogPost with a prior minus the
@@ -170,14 +168,14 @@ func TestPriorsEnterTheLogPosteriorExactly(t *testing.T) {
 	}{
 		{"a normal prior on the period", "b.period", Prior{Normal, 3.0, 2e-4}, iPeriod, 3.0001, 2.9997,
 			-0.5 * (math.Pow(0.0001/2e-4, 2) - math.Pow(-0.0003/2e-4, 2))},
-		{"a uniform prior on b is flat inside", "b.b", Prior{Uniform, 0, 0.9}, iB, 0.3, 0.5, 0},
-		// The density is sampled through the first planet's duration (Model.density) under
-		// any prior; the points are the durations of densities 1.2 and 1.6 (and 1.3, 1.55) at
-		// the truth's k and b, and the Jacobians cancel between the two models.
+		// b is sampled through its chord coordinate (Model.impact) under any prior that is
+		// not fixed; the Jacobians cancel between the two models.
+		{"a uniform prior on b is flat inside", "b.b", Prior{Uniform, 0, 0.9}, iB, chordAt(0.3), chordAt(0.5), 0},
+		// The density is sampled as log10 ρ, so a prior p(ρ) carries the Jacobian ρ ln 10.
 		{"a log-uniform prior on the density is flat in log density", "star_density", Prior{LogUniform, 0.5, 3}, perPlanet + gDensity,
-			durationAt(1.2), durationAt(1.6), 0},
+			math.Log10(1.2), math.Log10(1.6), 0},
 		{"a normal prior on the density carries the Jacobian", "star_density", Prior{Normal, 1.4, 0.1}, perPlanet + gDensity,
-			durationAt(1.3), durationAt(1.55), -0.5*(math.Pow(-0.1/0.1, 2)-math.Pow(0.15/0.1, 2)) + math.Log(1.3/1.55)},
+			math.Log10(1.3), math.Log10(1.55), -0.5*(math.Pow(-0.1/0.1, 2)-math.Pow(0.15/0.1, 2)) + math.Log(1.3/1.55)},
 	}
 	for _, c := range cases {
 		t.Run(c.name+" changes the log posterior by its log ratio", func(t *testing.T) {
@@ -342,52 +340,9 @@ func FuzzParseLimbPrior(f *testing.F) {
 	})
 }
 
-func TestDurationParameterCarriesTheDensityPrior(t *testing.T) {
-	// With the fit's own prior, the first planet's total duration T is sampled in place of
-	// log10 ρ; Model.density must return ρ(T) consistent with Winn's (2010) duration (eq. 14,
-	// through TotalDuration) and the log-Jacobian ln|dρ/dT|, checked here against a
-	// central finite difference of ρ(T).
-	lc, sigs := windowCurve([]truth{hot}, 300, defaultWindow, 300e-6, 4)
-	m, art, _, _, _, err := setup(lc, Options{Signals: sigs, Window: defaultWindow, Supersample: true})
-	if err != nil {
-		t.Fatal(err)
-	}
-	if !m.durationParam {
-		t.Fatal("the duration is not sampled with the default density prior")
-	}
-	full := m.expand(make([]float64, len(m.params)), truthVector(m, art, []truth{hot}))
-	if _, ok := m.toPhysical(full); !ok {
-		t.Fatal("the truth's δ does not map back to its k")
-	}
-	m.depthParam[0] = false // full now holds k itself
-	idx := m.global() + gDensity
-	for _, b := range []float64{0, 0.4, 0.8, 1.0} {
-		full[iB] = b
-		for _, rhoWant := range []float64{0.3, 1.41, 8} {
-			aR := ScaledAxis(hot.period, rhoWant)
-			full[idx] = TotalDuration(hot.period, hot.k, b, aR)
-			rho, logJac, ok := m.density(full)
-			if !ok || math.Abs(rho/rhoWant-1) > 1e-9 {
-				t.Errorf("b %.1f: ρ(T(%.2f)) = %v (%v)", b, rhoWant, rho, ok)
-				continue
-			}
-			T, h := full[idx], 1e-7
-			full[idx] = T + h
-			up, _, _ := m.density(full)
-			full[idx] = T - h
-			down, _, _ := m.density(full)
-			full[idx] = T
-			fd := math.Log(math.Abs(up-down) / (2 * h))
-			if math.Abs(fd-logJac) > 1e-5 {
-				t.Errorf("b %.1f, ρ %.2f: ln|dρ/dT| = %.8f, finite difference %.8f", b, rhoWant, logJac, fd)
-			}
-		}
-	}
-}
-
 func TestDepthParameterKeepsTheRadiusRatioPrior(t *testing.T) {
 	// With the fit's own prior, each planet samples δ = k²/c(b, u) in place of k
-	// (Model.toPhysical); the map must invert exactly (sampledFrom ∘ toPhysical = identity)
+	// (Model.radius); the map must invert exactly (sampledFrom ∘ radius = identity)
 	// and its log-Jacobian ln|∂k/∂δ| must match a central finite difference, so that the
 	// prior stays uniform in k.
 	lc, sigs := windowCurve([]truth{hot}, 300, defaultWindow, 300e-6, 4)
@@ -398,27 +353,30 @@ func TestDepthParameterKeepsTheRadiusRatioPrior(t *testing.T) {
 	if !m.depthParam[0] {
 		t.Fatal("δ is not sampled with the default prior on k")
 	}
-	x := truthVector(m, art, []truth{hot})
-	pos := freePos(m, iK)
+	// A full vector in documented coordinates (b and q1, q2 themselves) with δ in the k
+	// entry, as physical hands it to radius.
+	doc := m.row(truthVector(m, art, []truth{hot}))
+	pos, bpos := freePos(m, iK), freePos(m, iB)
+	fullAt := func(b, d float64) []float64 {
+		f := m.expand(make([]float64, len(m.params)), doc[:m.dim()])
+		f[iB], f[iK] = b, d
+		return f
+	}
 	for _, b := range []float64{0, 0.5, 0.9, 1.05} {
-		x[freePos(m, iB)] = b
 		for _, d := range []float64{1e-4, 4e-3, 0.02} {
-			x[pos] = d
-			full := m.expand(make([]float64, len(m.params)), x)
-			jac, ok := m.toPhysical(full)
+			full := fullAt(b, d)
+			jac, ok := m.radius(full, 0)
 			if !ok {
 				t.Fatalf("b %.2f δ %g: no k", b, d)
 			}
-			row := append([]float64(nil), x...)
-			row[pos] = full[iK]
+			row := slices.Clone(doc)
+			row[pos], row[bpos] = full[iK], b
 			if back := m.sampledFrom(row)[pos]; math.Abs(back/d-1) > 1e-12 {
 				t.Errorf("b %.2f δ %g: round trip gives %g", b, d, back)
 			}
 			kAt := func(dd float64) float64 {
-				y := append([]float64(nil), x...)
-				y[pos] = dd
-				f := m.expand(make([]float64, len(m.params)), y)
-				m.toPhysical(f)
+				f := fullAt(b, dd)
+				m.radius(f, 0)
 				return f[iK]
 			}
 			h := 1e-6 * d
@@ -426,6 +384,116 @@ func TestDepthParameterKeepsTheRadiusRatioPrior(t *testing.T) {
 			if math.Abs(fd-jac) > 1e-6 {
 				t.Errorf("b %.2f δ %g: ln|dk/dδ| = %.9f, finite difference %.9f", b, d, jac, fd)
 			}
+		}
+	}
+}
+
+func TestChordParameterKeepsTheImpactPrior(t *testing.T) {
+	// Each planet samples its chord coordinate w = (1 − b²)/(a² − b²) in place of b
+	// (Model.impact); here the second. The map must invert exactly, and its log-Jacobian ln|db/dw| must match
+	// a central finite difference, at ordinary, nearly central and grazing b.
+	lc, sigs := windowCurve([]truth{hot, small}, 300, defaultWindow, 300e-6, 4)
+	m, _, _, _, _, err := setup(lc, Options{Signals: sigs, Window: defaultWindow, Supersample: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !m.chordParam[0] || !m.chordParam[1] {
+		t.Fatalf("chord coordinates for planets %v, want both", m.chordParam)
+	}
+	idx := perPlanet + iB
+	full := make([]float64, len(m.params))
+	full[perPlanet+iPeriod] = small.period
+	bAt := func(w, rho float64) (float64, float64) {
+		full[idx] = w
+		lp, ok := m.impact(full, 1, rho)
+		if !ok {
+			return math.NaN(), 0
+		}
+		return full[idx], lp
+	}
+	for _, rho := range []float64{0.3, 1.41, 8} {
+		a := ScaledAxis(small.period, rho)
+		for _, b := range []float64{0.02, 0.3, 0.9, 1.01} {
+			w := chord(b, a)
+			got, jac := bAt(w, rho)
+			if math.Abs(got-b) > 1e-12 {
+				t.Errorf("ρ %.2f b %.2f: round trip gives %v", rho, b, got)
+			}
+			h := 1e-7 * math.Abs(w)
+			up, _ := bAt(w+h, rho)
+			down, _ := bAt(w-h, rho)
+			if fd := math.Log(math.Abs(up-down) / (2 * h)); math.Abs(fd-jac) > 1e-5 {
+				t.Errorf("ρ %.2f b %.2f: ln|db/dw| = %.8f, finite difference %.8f", rho, b, jac, fd)
+			}
+		}
+		if b, _ := bAt(1.0001/(a*a), rho); !math.IsNaN(b) {
+			t.Errorf("ρ %.2f: a chord beyond 1/a² (no real b) was accepted", rho)
+		}
+	}
+}
+
+func TestLogPosteriorCarriesTheJacobianOfDepthAndChord(t *testing.T) {
+	// End to end: with the data removed, LogPost at the sampled point x(θ) must be the
+	// documented prior of θ times |∂θ/∂x|. For the second planet θ = (k, b), sampled as
+	// (δ, chord) with the limb darkening and the density held, so
+	// LogPost(x(θ)) + ln|det ∂x/∂θ| − ln p(b) must not depend on (k, b); the determinant is
+	// taken by central finite differences of sampledFrom (an independent route: it only
+	// inverts the maps). p(b) is a normal prior given in the workflow, so its use is checked
+	// as well as the flat prior on k.
+	lc, sigs := windowCurve([]truth{hot, small}, 300, defaultWindow, 300e-6, 4)
+	bPrior := Prior{Normal, 0.4, 0.3}
+	m, art, _, _, _, err := setup(lc, Options{Signals: sigs, Window: defaultWindow, Supersample: true,
+		Priors: map[string]Prior{"c.b": bPrior}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !m.chordParam[1] || !m.depthParam[1] {
+		t.Fatalf("planet c samples chord %v, depth %v; want both", m.chordParam[1], m.depthParam[1])
+	}
+	m.segs = nil
+	row := m.row(truthVector(m, art, []truth{hot, small}))
+	ik, ib := freePos(m, perPlanet+iK), freePos(m, perPlanet+iB)
+	xOf := func(k, b float64) []float64 {
+		r := append([]float64(nil), row...)
+		r[ik], r[ib] = k, b
+		return m.sampledFrom(r)
+	}
+	var ref float64
+	for n, kb := range [][2]float64{{0.025, 0.2}, {0.025, 0.03}, {0.1, 0.7}, {0.05, 0.98}, {0.1, 1.05}, {0.3, 0.5}} {
+		k, b := kb[0], kb[1]
+		x := xOf(k, b)
+		hk, hb := 1e-6*k, 1e-6*b
+		dk := [2]float64{(xOf(k+hk, b)[ik] - xOf(k-hk, b)[ik]) / (2 * hk), (xOf(k+hk, b)[ib] - xOf(k-hk, b)[ib]) / (2 * hk)}
+		db := [2]float64{(xOf(k, b+hb)[ik] - xOf(k, b-hb)[ik]) / (2 * hb), (xOf(k, b+hb)[ib] - xOf(k, b-hb)[ib]) / (2 * hb)}
+		logDet := math.Log(math.Abs(dk[0]*db[1] - dk[1]*db[0]))
+		c := m.LogPost(x) + logDet - bPrior.LogPDF(b)
+		if math.IsInf(c, 0) || math.IsNaN(c) {
+			t.Fatalf("k %.3f b %.2f: log posterior %v", k, b, m.LogPost(x))
+		}
+		if n == 0 {
+			ref = c
+			continue
+		}
+		if math.Abs(c-ref) > 1e-5 {
+			t.Errorf("k %.3f b %.2f: LogPost + ln|det ∂x/∂θ| − ln p(b) = %.8f, at the first point %.8f", k, b, c, ref)
+		}
+	}
+}
+
+func TestLogitCoordinatesKeepTheUniformPriorOnQ(t *testing.T) {
+	// q1, q2 are sampled as v = ln(q/(1 − q)); a flat prior on q becomes the density
+	// |dq/dv| = q(1 − q) in v, checked against a central finite difference of the logistic,
+	// and the round trip v → q → v is exact to rounding.
+	p := param{logit: true}
+	for _, q := range []float64{1e-4, 0.1, 0.36, 0.5, 0.9, 0.9999} {
+		v := logit(q)
+		if back := logistic(v); math.Abs(back-q) > 1e-15 {
+			t.Errorf("q %g: round trip %g", q, back)
+		}
+		h := 1e-6
+		fd := math.Log((logistic(v+h) - logistic(v-h)) / (2 * h))
+		if got := p.logPrior(v); math.Abs(got-fd) > 1e-6 { // the difference of two numbers near 1 at q = 0.9999
+			t.Errorf("q %g: log prior in v %.10f, ln|dq/dv| by finite difference %.10f", q, got, fd)
 		}
 	}
 }
