@@ -265,6 +265,9 @@ func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, 
 	}
 	thin := max(1, int(tauMax/2))
 	notes = append(notes, fmt.Sprintf("sampling: %d ensembles of %d walkers, %d steps each, the first %d discarded as burn-in, thinned by %d (τ/2, τ = %.4g steps)", o.Ensembles, K, total, burn, thin, tauMax))
+	if guides[0] != nil {
+		notes = append(notes, fmt.Sprintf("sampling: after burn-in, %.0f %% of the steps drew from a Student-t guide fitted to each ensemble's own burn-in (independence moves, Tierney 1994), %.0f %% were differential-evolution moves and the rest stretch moves", 100*guideShare, 100*guidedDEShare))
+	}
 
 	// Diagnostics per sampled parameter.
 	art.Names = m.columns()
