@@ -136,7 +136,7 @@ func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, 
 	}
 	dim := len(x0)
 	best, bestLP := optimum(m, x0, scale)
-	notes = append(notes, fmt.Sprintf("best fit: Nelder–Mead from the search's values reached log posterior %.6g (start %.6g)", bestLP, m.LogPost(x0)))
+	notes = append(notes, fmt.Sprintf("best fit: Nelder–Mead from the search's values reached log posterior %.6g (start %.6g)", bestLP, m.bestLogPost(x0)))
 	if beta, err := m.beta(best); err != nil {
 		art.Beta = math.NaN()
 		notes = append(notes, fmt.Sprintf("β factor not measured: %v", err))
@@ -292,13 +292,14 @@ func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, 
 	}
 	art.Acceptance = float64(acc) / float64(total*K*len(ens))
 
-	// Thinned samples with derived columns; the best fit is the highest posterior seen.
+	// Thinned samples with derived columns; the best fit is the highest posterior density in
+	// the documented parameters seen (Model.bestLogPost).
 	for _, ch := range ens {
 		for s := burn + thin - 1; s < ch.Stored; s += thin {
 			for w := 0; w < K; w++ {
 				x := ch.At(s, w)
 				art.Samples = append(art.Samples, m.row(x)...)
-				if lp := ch.LogProb[s*K+w]; lp > bestLP {
+				if lp := ch.LogProb[s*K+w] - m.logJacobian(x); lp > bestLP {
 					bestLP, best = lp, append([]float64(nil), x...)
 				}
 			}
@@ -676,8 +677,9 @@ func subTimes(t []float64, exposure float64, n int) []float64 {
 	return transit.SubexposureTimes(nil, t, exposure, n)
 }
 
-// optimum maximises the log posterior by Nelder–Mead (gonum) in coordinates scaled so the
-// initial simplex spans scale, restarting once from the result; it returns the best point.
+// optimum maximises the log posterior density in the documented parameters (Model.bestLogPost)
+// by Nelder–Mead (gonum) in coordinates scaled so the initial simplex spans scale, restarting
+// from the result; it returns the best point.
 func optimum(m *Model, x0, scale []float64) ([]float64, float64) {
 	dim := len(x0)
 	toX := func(dst, y []float64) []float64 {
@@ -688,7 +690,7 @@ func optimum(m *Model, x0, scale []float64) ([]float64, float64) {
 	}
 	buf := make([]float64, dim)
 	f := func(y []float64) float64 {
-		lp := m.LogPost(toX(buf, y))
+		lp := m.bestLogPost(toX(buf, y))
 		if math.IsNaN(lp) || math.IsInf(lp, 0) {
 			return 1e300
 		}
@@ -708,7 +710,7 @@ func optimum(m *Model, x0, scale []float64) ([]float64, float64) {
 		}
 	}
 	best := toX(make([]float64, dim), y)
-	return best, m.LogPost(best)
+	return best, m.bestLogPost(best)
 }
 
 // ball draws a walker start near x: a normal offset of 1 % of scale per parameter, drawn
@@ -872,7 +874,7 @@ func (m *Model) shownFixed(i int) bool {
 // row returns the artifact row of the sampled vector x (see columns).
 func (m *Model) row(x []float64) []float64 {
 	full := m.expand(make([]float64, len(m.params)), x)
-	rho, _, _ := m.physical(full)
+	rho, _, _, _ := m.physical(full)
 	out := append([]float64(nil), x...)
 	for j := 0; j < m.planets; j++ {
 		// The columns hold k and b where the chain samples δ and the chord coordinate.

@@ -60,16 +60,15 @@ type param struct {
 }
 
 // logPrior is the log prior density of the stored coordinate v, up to a constant: the
-// prior in the documented unit times the Jacobian ρ ln 10 of ρ = 10^v for log10 entries,
-// and q(1 − q) of q = logistic(v) for logit entries (whose flat prior is uniform in q).
+// prior in the documented unit times the Jacobian ρ ln 10 of ρ = 10^v for log10 entries.
+// For logit entries it is the prior of q = logistic(v) alone (flat: uniform in q); their
+// Jacobian q(1 − q) is added with the others in Model.physical.
 func (p *param) logPrior(v float64) float64 {
 	if p.logit {
-		q := logistic(v)
-		lj := math.Log(q * (1 - q))
 		if p.prior.Shape == Flat {
-			return lj
+			return 0
 		}
-		return p.prior.LogPDF(q) + lj
+		return p.prior.LogPDF(logistic(v))
 	}
 	if p.prior.Shape == Flat {
 		return 0
@@ -469,8 +468,7 @@ func (m *Model) radius(full []float64, j int) (float64, bool) {
 // sin²(πT₁/P) for the time T₁ a circular orbit spends with the planet's centre inside the
 // stellar disc (z < 1; Winn 2010 eq. 14 with k = 0), extended smoothly to grazing orbits
 // (w < 0 for b > 1). So b² = (1 − w a²)/(1 − w). It returns ln|db/dw| =
-// ln((a² − 1)/(2b(1 − w)²)) plus b's log prior when it has one, and false where no b > 0
-// gives w at this density.
+// ln((a² − 1)/(2b(1 − w)²)), and false where no b > 0 gives w at this density.
 func (m *Model) impact(full []float64, j int, rho float64) (float64, bool) {
 	p := full[perPlanet*j:]
 	w := p[iB]
@@ -481,11 +479,7 @@ func (m *Model) impact(full []float64, j int, rho float64) (float64, bool) {
 	}
 	b := math.Sqrt(b2)
 	p[iB] = b
-	lp := math.Log((a*a - 1) / (2 * b * (1 - w) * (1 - w)))
-	if pr := m.bPrior[j]; pr.Shape != Flat {
-		lp += pr.LogPDF(b)
-	}
-	return lp, true
+	return math.Log((a*a - 1) / (2 * b * (1 - w) * (1 - w))), true
 }
 
 // chord is impact's inverse: w for impact parameter b at a/R* = a.
@@ -494,7 +488,7 @@ func chord(b, a float64) float64 { return (1 - b*b) / (a*a - b*b) }
 // physical turns the full vector's sampled coordinates into the model's in place and
 // returns the star's density. Any smooth invertible map is a valid reparametrisation; these
 // straighten the ridges the data leave or soften the edges of the prior:
-//   - q1, q2 of every band are stored as logits (their Jacobians are in param.logPrior):
+//   - q1, q2 of every band are stored as logits:
 //     the unit square's edges, where a weakly measured limb darkening piles up, become
 //     tails that the ensemble's moves cross without rejection;
 //   - for each planet with depthParam, the stored δ = k²/c(b, u) becomes k (radius): at
@@ -503,20 +497,24 @@ func chord(b, a float64) float64 { return (1 - b*b) / (a*a - b*b) }
 //     (impact): at fixed chord, a denser star only shortens the ingress, where at fixed b it
 //     shortens the whole transit, so b of every planet would follow ρ along a curved ridge.
 //
-// It returns the log-Jacobians of these maps and the priors on b they carry, so that the
-// priors hold in the documented parameters, and false outside the support.
-func (m *Model) physical(full []float64) (rho, lp float64, ok bool) {
+// It returns the priors on b that the chords carry (lp) and, separately, the sum of the maps'
+// log-Jacobians (jac): LogPost adds both, so the priors hold in the documented parameters;
+// the best fit leaves jac out (Model.logJacobian). It returns false outside the support.
+func (m *Model) physical(full []float64) (rho, lp, jac float64, ok bool) {
 	for i := range m.bands {
-		full[m.qIndex(i)] = logistic(full[m.qIndex(i)])
-		full[m.qIndex(i)+1] = logistic(full[m.qIndex(i)+1])
+		for _, idx := range []int{m.qIndex(i), m.qIndex(i) + 1} {
+			q := logistic(full[idx])
+			full[idx] = q
+			jac += math.Log(q * (1 - q))
+		}
 	}
 	for j := 0; j < m.planets; j++ {
 		if m.depthParam[j] && !m.chordParam[j] {
 			l, ok := m.radius(full, j)
 			if !ok {
-				return 0, 0, false
+				return 0, 0, 0, false
 			}
-			lp += l
+			jac += l
 		}
 	}
 	rho = m.density(full)
@@ -526,17 +524,40 @@ func (m *Model) physical(full []float64) (rho, lp float64, ok bool) {
 		}
 		l, ok := m.impact(full, j, rho)
 		if !ok {
-			return 0, 0, false
+			return 0, 0, 0, false
 		}
-		lp += l
+		jac += l
+		if pr := m.bPrior[j]; pr.Shape != Flat {
+			lp += pr.LogPDF(full[perPlanet*j+iB])
+		}
 		if m.depthParam[j] {
 			if l, ok = m.radius(full, j); !ok {
-				return 0, 0, false
+				return 0, 0, 0, false
 			}
-			lp += l
+			jac += l
 		}
 	}
-	return rho, lp, true
+	return rho, lp, jac, true
+}
+
+// logJacobian is the sum of the log-Jacobians that LogPost carries at the sampled vector x
+// for its coordinates (logits of q, δ for k, chords for b; log10 ρ keeps its own, the scale
+// its default prior is stated in): LogPost − logJacobian is the posterior density in the
+// documented parameters. The best fit maximises that, since a mode moves under a change of
+// coordinates, and the chord's Jacobian, infinite at b = 0, would pull a weakly measured b to
+// 0. It is 0 outside the support.
+func (m *Model) logJacobian(x []float64) float64 {
+	_, _, jac, ok := m.physical(m.expand(make([]float64, len(m.params)), x))
+	if !ok {
+		return 0
+	}
+	return jac
+}
+
+// bestLogPost is LogPost − logJacobian, the log posterior density in the documented
+// parameters, which the best fit maximises.
+func (m *Model) bestLogPost(x []float64) float64 {
+	return m.LogPost(x) - m.logJacobian(x)
 }
 
 // sampledFrom returns the sampled vector of an artifact row's first Sampled columns, which
@@ -583,11 +604,11 @@ type point struct {
 // beyond 1, ρ out of bounds).
 func (m *Model) at(full []float64, lp float64) (point, bool) {
 	var p point
-	rho, lpPhys, ok := m.physical(full)
+	rho, lpPhys, jac, ok := m.physical(full)
 	if !ok {
 		return p, false
 	}
-	lp += lpPhys
+	lp += lpPhys + jac
 	for j := 0; j < m.planets; j++ {
 		if p.orb[j], ok = m.geometry(full, j, rho); !ok {
 			return p, false

@@ -250,7 +250,7 @@ func TestPrunedLogPosteriorIsTheFullOneToTheBit(t *testing.T) {
 					}
 					// A chord coordinate's valid range depends on the density: draw b
 					// uniformly in [0, 1.1] and store its chord.
-					rho, _, _ := m.physical(m.expand(make([]float64, len(m.params)), x))
+					rho, _, _, _ := m.physical(m.expand(make([]float64, len(m.params)), x))
 					for i, idx := range m.free {
 						if j := idx / perPlanet; idx < m.global() && m.chordParam[j] && idx%perPlanet == iB && rho > 0 {
 							x[i] = chord(1.1*r.Float64(), ScaledAxis(x[freePos(m, perPlanet*j+iPeriod)], rho))

@@ -482,18 +482,36 @@ func TestLogPosteriorCarriesTheJacobianOfDepthAndChord(t *testing.T) {
 
 func TestLogitCoordinatesKeepTheUniformPriorOnQ(t *testing.T) {
 	// q1, q2 are sampled as v = ln(q/(1 − q)); a flat prior on q becomes the density
-	// |dq/dv| = q(1 − q) in v, checked against a central finite difference of the logistic,
-	// and the round trip v → q → v is exact to rounding.
-	p := param{logit: true}
-	for _, q := range []float64{1e-4, 0.1, 0.36, 0.5, 0.9, 0.9999} {
+	// |dq/dv| = q(1 − q) in v. The Jacobian LogPost carries for q1 (Model.logJacobian, the
+	// other coordinates held) must change with v as ln|dq/dv| by a central finite difference
+	// of the logistic, and the round trip v → q → v is exact to rounding.
+	// A workflow prior on k keeps k itself sampled, whose δ's Jacobian would depend on q.
+	lc, sigs := windowCurve([]truth{hot}, 300, defaultWindow, 300e-6, 4)
+	m, art, _, _, _, err := setup(lc, Options{Signals: sigs, Window: defaultWindow, Supersample: true,
+		Priors: map[string]Prior{"b.k": {Uniform, 0.05, 0.2}}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if m.depthParam[0] {
+		t.Fatal("δ sampled despite a workflow prior on k")
+	}
+	x := truthVector(m, art, []truth{hot})
+	pos := freePos(m, m.qIndex(0))
+	fdLog := func(v float64) float64 {
+		h := 1e-6
+		return math.Log((logistic(v+h) - logistic(v-h)) / (2 * h))
+	}
+	x[pos] = logit(0.36)
+	ref := m.logJacobian(x) - fdLog(x[pos])
+	for _, q := range []float64{1e-4, 0.1, 0.5, 0.9, 0.9999} {
 		v := logit(q)
 		if back := logistic(v); math.Abs(back-q) > 1e-15 {
 			t.Errorf("q %g: round trip %g", q, back)
 		}
-		h := 1e-6
-		fd := math.Log((logistic(v+h) - logistic(v-h)) / (2 * h))
-		if got := p.logPrior(v); math.Abs(got-fd) > 1e-6 { // the difference of two numbers near 1 at q = 0.9999
-			t.Errorf("q %g: log prior in v %.10f, ln|dq/dv| by finite difference %.10f", q, got, fd)
+		x[pos] = v
+		// The difference of two numbers near 1 limits the finite difference at q = 0.9999.
+		if got := m.logJacobian(x) - fdLog(v); math.Abs(got-ref) > 1e-6 {
+			t.Errorf("q %g: Jacobian less ln|dq/dv| is %.10f, at q = 0.36 %.10f", q, got, ref)
 		}
 	}
 }
