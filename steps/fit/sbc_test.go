@@ -205,7 +205,7 @@ func sbcRun(i int, sigma float64, maxSteps int) sbcCase {
 // DIPLINE_SBC_CASES sets the number of cases (default 100). The cases run in two
 // goroutines; each is seeded by its index alone, so the result does not depend on that.
 // Measured with fit version 9 (chords for b, logits for q, a fitted guide after burn-in):
-// 100 cases in 213 s on 2 cores, median τ 32 steps, 3 cases short of 50τ; version 7, with
+// 100 cases in 226 s on 2 cores, median τ 29 steps, 3 cases short of 50τ; version 7, with
 // b and log ρ sampled directly, took 1431 s with τ about 500 steps (BENCHMARKS.md).
 func TestSimulationBasedCalibration(t *testing.T) {
 	if os.Getenv("DIPLINE_SBC") != "1" {
