@@ -46,8 +46,6 @@ const (
 	// than the stretch move (sampler.Options.DEShare): on a 5-D correlated Gaussian it cut τ
 	// from 63 to 20 steps (sampler tests), and on the demo's two-planet posterior (BENCHMARKS.md).
 	deShare = 0.8
-	// warmStages is the number of warm-up stages of chunk steps, after each of which the
-	// ensembles' guides are refitted (see Fit).
 	// guideShare and guidedDEShare are the shares of steps using the independence move and
 	// the differential-evolution move once the ensembles have their guides (the rest are
 	// stretch moves). Half the steps draw from the guide: on one planet in 60 days of 2-min
@@ -179,9 +177,10 @@ func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, 
 		last[e] = init
 		ens[e] = &sampler.Chain{Walkers: K, Dim: dim, Thin: 1, Accepted: make([]int, K)}
 	}
-	// advance runs n steps of every ensemble, each with its guide when it has one.
+	// guides[e] is ensemble e's guide once the first phase is over (see below).
 	guides := make([]*sampler.Guide, o.Ensembles)
 	total := 0
+	// advance runs n steps of every ensemble, each with its guide when it has one.
 	advance := func(n int) error {
 		for e := range ens {
 			seed := rng.DeriveSeed(o.Seed, "fit/ensemble", uint64(e)<<32|uint64(total/chunk))
