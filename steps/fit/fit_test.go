@@ -6,6 +6,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 	"strings"
 	"testing"
 
@@ -154,6 +155,24 @@ func TestPosteriorCoversTheTruth(t *testing.T) {
 			}
 		}
 	})
+}
+
+// The guided phase (independence moves after the first phase) is deterministic too: a run
+// long enough to reach it gives the same bytes on one and two workers, and says it used it.
+func TestGuidedPhaseIsDeterministicAcrossWorkers(t *testing.T) {
+	if testing.Short() {
+		t.Skip("-short skips the 3,000-step fits")
+	}
+	lc := synthetic(hot, 7, 800e-6, 3)
+	set := map[string]any{"light_curve": "detrend.x", "signals": "search.x", "max_steps": int64(3000)}
+	a1, notes := runKind(t, set, lc, []signals.Signal{start(hot)}, 1, 5)
+	a2, _ := runKind(t, set, lc, []signals.Signal{start(hot)}, 2, 5)
+	if !slices.ContainsFunc(notes, func(n string) bool { return strings.Contains(n, "Student-t guide") }) {
+		t.Fatalf("the run never reached the guided phase; notes: %q", notes)
+	}
+	if !bytes.Equal(a1.Encode(), a2.Encode()) {
+		t.Error("one and two workers give different bytes")
+	}
 }
 
 func TestDeterministicAcrossWorkers(t *testing.T) {

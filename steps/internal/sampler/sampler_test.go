@@ -322,10 +322,18 @@ func equalBits(a, b []uint64) bool {
 // Determinism (DESIGN.md §Keys): each walker draws from its own stream, so the chain is the
 // same bytes whatever the number of workers, and the seed does change it.
 func TestChainIsIdenticalForAnyWorkerCount(t *testing.T) {
+	for _, mix := range moveMixes {
+		t.Run(mix.name, func(t *testing.T) { identicalForAnyWorkerCount(t, mix) })
+	}
+}
+
+func identicalForAnyWorkerCount(t *testing.T, mix moveMix) {
 	g := kms([]float64{0, 1, 2, 3}, []float64{1, 1, 2, 2}, 0.5)
 	init := ball(12, g.mu, 0.5, 3)
 	run := func(par func(int, func(int)), seed uint64) []uint64 {
-		ch, err := Run(context.Background(), g.logp, init, Options{Steps: 300, Seed: seed, Parallel: par, Thin: 3})
+		o := mix.options(300, seed, offGuide(g))
+		o.Parallel, o.Thin = par, 3
+		ch, err := Run(context.Background(), g.logp, init, o)
 		if err != nil {
 			t.Fatal(err)
 		}
