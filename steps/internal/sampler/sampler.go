@@ -224,6 +224,24 @@ func Run(ctx context.Context, logp func(x []float64) float64, init [][]float64, 
 	// [olo, olo+on). It touches only walker lo+i's row, stream and flags, so the blocks of a
 	// half may run in any order or concurrently. Built once: no allocation per step.
 	var lo, hi, olo, on int
+	// evaluate is logp at walker k's proposal (row k of y); a non-finite value rejects it.
+	evaluate := func(k int) (float64, bool) {
+		lpy := logp(y[k*N : (k+1)*N : (k+1)*N])
+		if math.IsNaN(lpy) || math.IsInf(lpy, 0) {
+			accepted[k] = false
+			return 0, false
+		}
+		return lpy, true
+	}
+	// settle records the decision on walker k's proposal of log-probability lpy, moving the
+	// walker there when it is accepted.
+	settle := func(k int, lpy float64, accept bool) {
+		accepted[k] = accept
+		if accept {
+			copy(x[k*N:(k+1)*N], y[k*N:(k+1)*N])
+			lp[k] = lpy
+		}
+	}
 	var deUpdate, guideUpdate func(k int, r *rng.Stream)
 	update := func(i int) {
 		k := lo + i
@@ -247,15 +265,8 @@ func Run(ctx context.Context, logp func(x []float64) float64, init [][]float64, 
 		for d := range yk {
 			yk[d] = xj[d] + z*(xk[d]-xj[d])
 		}
-		lpy := logp(yk)
-		if math.IsNaN(lpy) || math.IsInf(lpy, 0) {
-			accepted[k] = false
-			return
-		}
-		accepted[k] = lnU < float64(N-1)*math.Log(z)+lpy-lp[k]
-		if accepted[k] {
-			copy(xk, yk)
-			lp[k] = lpy
+		if lpy, ok := evaluate(k); ok {
+			settle(k, lpy, lnU < float64(N-1)*math.Log(z)+lpy-lp[k])
 		}
 	}
 
@@ -278,15 +289,8 @@ func Run(ctx context.Context, logp func(x []float64) float64, init [][]float64, 
 		for d := range yk {
 			yk[d] = xk[d] + g*(xa[d]-xb[d])
 		}
-		lpy := logp(yk)
-		if math.IsNaN(lpy) || math.IsInf(lpy, 0) {
-			accepted[k] = false
-			return
-		}
-		accepted[k] = lnU < lpy-lp[k]
-		if accepted[k] {
-			copy(xk, yk)
-			lp[k] = lpy
+		if lpy, ok := evaluate(k); ok {
+			settle(k, lpy, lnU < lpy-lp[k])
 		}
 	}
 
@@ -298,15 +302,8 @@ func Run(ctx context.Context, logp func(x []float64) float64, init [][]float64, 
 		d := gbuf[k*N : (k+1)*N : (k+1)*N]
 		g.draw(yk, r)
 		lnU := math.Log(r.Float64())
-		lpy := logp(yk)
-		if math.IsNaN(lpy) || math.IsInf(lpy, 0) {
-			accepted[k] = false
-			return
-		}
-		accepted[k] = lnU < lpy-lp[k]+g.logDensity(xk, d)-g.logDensity(yk, d)
-		if accepted[k] {
-			copy(xk, yk)
-			lp[k] = lpy
+		if lpy, ok := evaluate(k); ok {
+			settle(k, lpy, lnU < lpy-lp[k]+g.logDensity(xk, d)-g.logDensity(yk, d))
 		}
 	}
 
