@@ -176,28 +176,12 @@ func TestACatalogueRevisionRerunsOnlyTheStarsReaders(t *testing.T) {
 	write("data/nearby_stars.csv", files["data/nearby_stars_rev2.csv"])
 	want := map[string]string{"star.host": workflow.StatusComputed, "dilution.aperture": workflow.StatusComputed,
 		"derive.planets": workflow.StatusComputed}
-	for addr, s := range statuses(runDir(t, dir, shortFit...)) {
-		w, ok := want[addr]
-		if !ok {
-			w = workflow.StatusReused
-		}
-		if s != w {
-			t.Errorf("after the revision: %s %s, want %s", addr, s, w)
-		}
-	}
+	expectStatuses(t, "after the revision", statuses(runDir(t, dir, shortFit...)), want)
 	// A prior changed for the fit re-runs the fit and what reads it, nothing upstream.
 	prior := append(append([]workflow.Override(nil), shortFit...),
 		workflow.Override{Addr: "fit.planets", Attr: "priors", Value: `{ "b.b" = "uniform(0, 0.9)" }`})
 	want = map[string]string{"fit.planets": workflow.StatusComputed, "derive.planets": workflow.StatusComputed}
-	for addr, s := range statuses(runDir(t, dir, prior...)) {
-		w, ok := want[addr]
-		if !ok {
-			w = workflow.StatusReused
-		}
-		if s != w {
-			t.Errorf("after a prior changed: %s %s, want %s", addr, s, w)
-		}
-	}
+	expectStatuses(t, "after a prior changed", statuses(runDir(t, dir, prior...)), want)
 }
 
 // finds reports whether a signal matches the planet's period to within the scale a box
@@ -323,5 +307,20 @@ func TestTheFastLightCurveStillShowsPlanetB(t *testing.T) {
 	got, _ := runIn(t, edit, map[string]string{"data/fw3318_fast.csv": "data/fw3318_fast.csv"}, shortFit...)
 	if !finds(got["search.dips"], b.PeriodD, b.T14H/24, 30) {
 		t.Errorf("planet b not found in the 30-day, 10-minute light curve: %+v", got["search.dips"])
+	}
+}
+
+// expectStatuses checks every step's status in got against want, steps not in want being
+// expected reused; when says which run it was.
+func expectStatuses(t *testing.T, when string, got, want map[string]string) {
+	t.Helper()
+	for addr, s := range got {
+		w, ok := want[addr]
+		if !ok {
+			w = workflow.StatusReused
+		}
+		if s != w {
+			t.Errorf("%s: %s %s, want %s", when, addr, s, w)
+		}
 	}
 }
