@@ -303,16 +303,16 @@ func Decode(b []byte) (*Artifact, error) {
 	a := &Artifact{}
 	a.Frame = lightcurve.ReadFrame(r)
 	a.Window = r.Float()
-	ns := r.Uint64()
-	if ns > 4096 {
-		return nil, fmt.Errorf("fit artifact: %d segments", ns)
+	ns, err := count(r, 4096, "segments")
+	if err != nil {
+		return nil, err
 	}
 	for i := uint64(0); i < ns; i++ {
 		a.Segments = append(a.Segments, SegmentInfo{ID: r.String(), Band: r.String(), Exposure: r.Float(), Points: int(r.Int()), NSub: int(r.Int())})
 	}
-	np := r.Uint64()
-	if np > maxPlanets {
-		return nil, fmt.Errorf("fit artifact: %d planets", np)
+	np, err := count(r, maxPlanets, "planets")
+	if err != nil {
+		return nil, err
 	}
 	for i := uint64(0); i < np; i++ {
 		a.Reference = append(a.Reference, Reference{Transit: r.Int(), Time: r.Float()})
@@ -336,48 +336,48 @@ func Decode(b []byte) (*Artifact, error) {
 	}
 	a.Beta = r.Float()
 	a.Inflated = r.Bool()
-	npt := r.Uint64()
-	if npt > maxPlanets {
-		return nil, fmt.Errorf("fit artifact: transit times of %d planets", npt)
+	npt, err := count(r, maxPlanets, "planets with transit times")
+	if err != nil {
+		return nil, err
 	}
 	for i := uint64(0); i < npt; i++ {
 		var pt PlanetTimes
 		pt.Err = r.String()
-		nt := r.Uint64()
-		if nt > 1<<20 {
-			return nil, fmt.Errorf("fit artifact: %d transit times", nt)
+		nt, err := count(r, 1<<20, "transit times")
+		if err != nil {
+			return nil, err
 		}
 		for k := uint64(0); k < nt; k++ {
 			t := timing.TransitTime{Epoch: r.Int()}
-			if v := r.Floats(); len(v) == 7 {
-				t.Predicted, t.Time, t.Shift, t.ErrLow, t.ErrHigh, t.Chi2, t.Scale = v[0], v[1], v[2], v[3], v[4], v[5], v[6]
-			} else {
-				return nil, errors.New("fit artifact: a transit time is damaged")
+			v, err := floats(r, 7, "a transit time")
+			if err != nil {
+				return nil, err
 			}
+			t.Predicted, t.Time, t.Shift, t.ErrLow, t.ErrHigh, t.Chi2, t.Scale = v[0], v[1], v[2], v[3], v[4], v[5], v[6]
 			t.Points, t.InTransit = int(r.Int()), int(r.Int())
 			t.Skipped = r.String()
 			pt.Times = append(pt.Times, t)
 		}
 		e := &pt.Ephemeris
-		if v := r.Floats(); len(v) == 9 {
-			e.T0, e.Period, e.SigmaT0, e.SigmaPeriod, e.Cov, e.TRef, e.SigmaTRef, e.Chi2, e.PValue = v[0], v[1], v[2], v[3], v[4], v[5], v[6], v[7], v[8]
-		} else {
-			return nil, errors.New("fit artifact: an ephemeris is damaged")
+		v, err := floats(r, 9, "an ephemeris")
+		if err != nil {
+			return nil, err
 		}
+		e.T0, e.Period, e.SigmaT0, e.SigmaPeriod, e.Cov, e.TRef, e.SigmaTRef, e.Chi2, e.PValue = v[0], v[1], v[2], v[3], v[4], v[5], v[6], v[7], v[8]
 		e.RefEpoch = r.Int()
 		e.Dof = int(r.Int())
 		e.Caution = r.String()
-		nr := r.Uint64()
-		if nr > 1<<20 {
-			return nil, fmt.Errorf("fit artifact: %d O−C rows", nr)
+		nr, err := count(r, 1<<20, "O−C rows")
+		if err != nil {
+			return nil, err
 		}
 		for k := uint64(0); k < nr; k++ {
 			oc := timing.OC{Epoch: r.Int()}
-			if v := r.Floats(); len(v) == 4 {
-				oc.Time, oc.Sigma, oc.OC, oc.SigmaOC = v[0], v[1], v[2], v[3]
-			} else {
-				return nil, errors.New("fit artifact: an O−C row is damaged")
+			v, err := floats(r, 4, "an O−C row")
+			if err != nil {
+				return nil, err
 			}
+			oc.Time, oc.Sigma, oc.OC, oc.SigmaOC = v[0], v[1], v[2], v[3]
 			e.Rows = append(e.Rows, oc)
 		}
 		a.Times = append(a.Times, pt)
@@ -390,4 +390,22 @@ func Decode(b []byte) (*Artifact, error) {
 		return nil, errors.New("fit artifact: columns, samples, best fit and diagnostics disagree")
 	}
 	return a, nil
+}
+
+// count reads a list's length, refusing one beyond limit (damaged or foreign bytes).
+func count(r *codec.Reader, limit uint64, what string) (uint64, error) {
+	n := r.Uint64()
+	if n > limit {
+		return 0, fmt.Errorf("fit artifact: %d %s", n, what)
+	}
+	return n, nil
+}
+
+// floats reads a group of exactly n numbers, what naming it in the error.
+func floats(r *codec.Reader, n int, what string) ([]float64, error) {
+	v := r.Floats()
+	if len(v) != n {
+		return nil, fmt.Errorf("fit artifact: %s is damaged", what)
+	}
+	return v, nil
 }
