@@ -560,7 +560,7 @@ func setup(lc *lightcurve.LightCurve, o Options) (m *Model, art *Artifact, x0, s
 	}
 	rhoStart := math.Pow(10, start[g+gDensity])
 	// Each planet whose k has the fit's own prior samples a depth-like δ in place
-	// of k (see Model.radius): at fixed δ, b changes the ingress but hardly the depth,
+	// of k (see radius): at fixed δ, b changes the ingress but hardly the depth,
 	// where at fixed k a larger b makes the transit shallower through the limb darkening.
 	u1, u2 := transit.QuadraticFromKipping(start[m.qIndex(0)], start[m.qIndex(0)+1])
 	for j := 0; j < np; j++ {
@@ -573,7 +573,7 @@ func setup(lc *lightcurve.LightCurve, o Options) (m *Model, art *Artifact, x0, s
 			continue
 		}
 		m.depthParam[j] = true
-		kp.hi = math.Inf(1) // k ≤ 1 is enforced on k itself (Model.radius)
+		kp.hi = math.Inf(1) // k ≤ 1 is enforced on k itself (radius)
 		k0 := start[perPlanet*j+iK]
 		start[perPlanet*j+iK], step[perPlanet*j+iK] = k0*k0/c, 0.4*k0*k0/c
 	}

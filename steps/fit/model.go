@@ -444,11 +444,10 @@ func darkening(b, u1, u2 float64) (float64, bool) {
 	return (1 - u1/3 - u2/6) / i, true
 }
 
-// radius turns planet j's stored δ into k = √(δ·c(|b|, u)) in place, u being the first
-// band's limb darkening (see physical), and returns the log-Jacobian ln|∂k/∂δ| = ln(k/2δ),
-// or false when k leaves (0, 1].
-func (m *Model) radius(full []float64, j int) (float64, bool) {
-	u1, u2 := transit.QuadraticFromKipping(full[m.qIndex(0)], full[m.qIndex(0)+1])
+// radius turns planet j's stored δ into k = √(δ·c(|b|, u)) in place, u = (u1, u2) being the
+// first band's limb darkening (see physical), and returns the log-Jacobian
+// ln|∂k/∂δ| = ln(k/2δ), or false when k leaves (0, 1].
+func radius(full []float64, j int, u1, u2 float64) (float64, bool) {
 	p := full[perPlanet*j:]
 	d := p[iK]
 	c, okc := darkening(math.Abs(p[iB]), u1, u2)
@@ -508,9 +507,10 @@ func (m *Model) physical(full []float64) (rho, lp, jac float64, ok bool) {
 			jac += math.Log(q * (1 - q))
 		}
 	}
+	u1, u2 := transit.QuadraticFromKipping(full[m.qIndex(0)], full[m.qIndex(0)+1])
 	for j := 0; j < m.planets; j++ {
 		if m.depthParam[j] && !m.chordParam[j] {
-			l, ok := m.radius(full, j)
+			l, ok := radius(full, j, u1, u2)
 			if !ok {
 				return 0, 0, 0, false
 			}
@@ -531,7 +531,7 @@ func (m *Model) physical(full []float64) (rho, lp, jac float64, ok bool) {
 			lp += pr.LogPDF(full[perPlanet*j+iB])
 		}
 		if m.depthParam[j] {
-			if l, ok = m.radius(full, j); !ok {
+			if l, ok = radius(full, j, u1, u2); !ok {
 				return 0, 0, 0, false
 			}
 			jac += l

@@ -342,7 +342,7 @@ func FuzzParseLimbPrior(f *testing.F) {
 
 func TestDepthParameterKeepsTheRadiusRatioPrior(t *testing.T) {
 	// With the fit's own prior, each planet samples δ = k²/c(b, u) in place of k
-	// (Model.radius); the map must invert exactly (sampledFrom ∘ radius = identity)
+	// (radius); the map must invert exactly (sampledFrom ∘ radius = identity)
 	// and its log-Jacobian ln|∂k/∂δ| must match a central finite difference, so that the
 	// prior stays uniform in k.
 	lc, sigs := windowCurve([]truth{hot}, 300, defaultWindow, 300e-6, 4)
@@ -357,6 +357,7 @@ func TestDepthParameterKeepsTheRadiusRatioPrior(t *testing.T) {
 	// entry, as physical hands it to radius.
 	doc := m.row(truthVector(m, art, []truth{hot}))
 	pos, bpos := freePos(m, iK), freePos(m, iB)
+	u1, u2 := transit.QuadraticFromKipping(hot.q1, hot.q2)
 	fullAt := func(b, d float64) []float64 {
 		f := m.expand(make([]float64, len(m.params)), doc[:m.dim()])
 		f[iB], f[iK] = b, d
@@ -365,7 +366,7 @@ func TestDepthParameterKeepsTheRadiusRatioPrior(t *testing.T) {
 	for _, b := range []float64{0, 0.5, 0.9, 1.05} {
 		for _, d := range []float64{1e-4, 4e-3, 0.02} {
 			full := fullAt(b, d)
-			jac, ok := m.radius(full, 0)
+			jac, ok := radius(full, 0, u1, u2)
 			if !ok {
 				t.Fatalf("b %.2f δ %g: no k", b, d)
 			}
@@ -376,7 +377,7 @@ func TestDepthParameterKeepsTheRadiusRatioPrior(t *testing.T) {
 			}
 			kAt := func(dd float64) float64 {
 				f := fullAt(b, dd)
-				m.radius(f, 0)
+				radius(f, 0, u1, u2)
 				return f[iK]
 			}
 			h := 1e-6 * d
