@@ -47,6 +47,23 @@ type Artifact interface {
 	Figures() []Figure
 }
 
+// Cautioner is implemented by artifacts whose numbers need a word of caution: a period
+// that may be an alias, a signal carried by one event, a star that disagrees with the
+// transit. Each caution is one plain sentence, derived from the artifact's own science (so
+// it is the same whether the step was computed or reused). The results file lists them
+// beside the step's figures and the run summary prints them.
+type Cautioner interface {
+	Cautions() []string
+}
+
+// CautionsOf returns a's cautions, or nil when it has none or gives none.
+func CautionsOf(a Artifact) []string {
+	if c, ok := a.(Cautioner); ok {
+		return c.Cautions()
+	}
+	return nil
+}
+
 // Figure is one reported number with its uncertainty and unit.
 type Figure struct {
 	// Name is a dotted path unique within the artifact, e.g. "signal1.period".
