@@ -64,6 +64,34 @@ func CautionsOf(a Artifact) []string {
 	return nil
 }
 
+// The three verdicts a test can give, in plain words of our own.
+const (
+	VerdictAgree    = "agree"    // the data agree with the tested hypothesis (e.g. a planet)
+	VerdictCaution  = "caution"  // something is worth a look, not a failure on its own
+	VerdictDisagree = "disagree" // the data disagree with the tested hypothesis
+)
+
+// Verdict is one test's judgement of one subject (a signal, a planet) of an artifact.
+type Verdict struct {
+	// Subject is what was tested, as in the figure names ("signal1").
+	Subject string
+	// Test names the test in a word or two of snake case ("odd_even").
+	Test string
+	// Verdict is VerdictAgree, VerdictCaution or VerdictDisagree.
+	Verdict string
+	// Threshold says what the verdict was measured against and where that comes from
+	// ("3 σ; common practice").
+	Threshold string
+	// Reason is one plain line saying why.
+	Reason string
+}
+
+// Judge is implemented by artifacts that judge their subjects (a vet step's). The results
+// file lists the verdicts beside the step's figures, and the run summary counts them.
+type Judge interface {
+	Verdicts() []Verdict
+}
+
 // Figure is one reported number with its uncertainty and unit.
 type Figure struct {
 	// Name is a dotted path unique within the artifact, e.g. "signal1.period".
