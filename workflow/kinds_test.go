@@ -147,14 +147,18 @@ func (noisy) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env) (
 	return toyNum(float64(in.Ref("input").(toyNum)) + float64(env.Seed%1000)/1000), nil
 }
 
-// trouble fails, panics, or waits for cancellation, as told.
+// trouble fails (as a program fault, on bad input or on its own attribute), panics, waits
+// for cancellation, or calls troubleHook and gives a number, as told.
 type trouble struct{ toyBase }
+
+// troubleHook is what a trouble step in mode "hook" calls before giving its number.
+var troubleHook func()
 
 func (trouble) Name() string { return "trouble" }
 func (trouble) Doc() string  { return "misbehaves" }
 func (trouble) Params() []steps.Param {
 	return []steps.Param{
-		{Name: "mode", Type: steps.String, Choices: []string{"fail", "panic", "block"}},
+		{Name: "mode", Type: steps.String, Choices: []string{"fail", "bad_input", "attr", "panic", "block", "hook"}},
 		{Name: "after", Type: steps.RefList, Optional: true},
 	}
 }
@@ -164,9 +168,16 @@ func (trouble) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env)
 	switch cfg.(steps.Values).Str("mode") {
 	case "fail":
 		return nil, fmt.Errorf("told to fail")
+	case "bad_input":
+		return nil, steps.BadInputf("data.txt:3: told the data are bad")
+	case "attr":
+		return nil, steps.Attrf("mode", "told the setting does not suit the data")
 	case "panic":
 		var m map[string]int
 		m["x"] = 1 // a deliberate nil-map panic
+	case "hook":
+		troubleHook()
+		return toyNum(1), nil
 	}
 	<-ctx.Done()
 	return nil, ctx.Err()
@@ -234,8 +245,53 @@ func (lookup) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env) 
 	return toyEstimate{value: plx + teff + c.offset[0] + c.offset[1], sigma: 0.5, mc: 0.03}, nil
 }
 
+// judged is the artifact of the judge kind: a number with a caution when it is odd and a
+// verdict on its parity.
+type judged float64
+
+func (j judged) Encode() []byte {
+	return binary.LittleEndian.AppendUint64([]byte("jdg1"), steps.FloatBits(float64(j)))
+}
+func (j judged) Figures() []steps.Figure {
+	return []steps.Figure{{Name: "value", Value: float64(j), Doc: "the judged number"}}
+}
+func (j judged) odd() bool { return math.Mod(float64(j), 2) == 1 }
+func (j judged) Cautions() []string {
+	if j.odd() {
+		return []string{"the number is odd"}
+	}
+	return nil
+}
+func (j judged) Verdicts() []steps.Verdict {
+	v := steps.Verdict{Subject: "value", Test: "parity", Verdict: steps.VerdictAgree, Threshold: "even; a toy rule", Reason: "the number is even"}
+	if j.odd() {
+		v.Verdict, v.Reason = steps.VerdictCaution, "the number is odd"
+	}
+	return []steps.Verdict{v}
+}
+
+// judge passes its input on as a judged number.
+type judge struct{ toyBase }
+
+func (judge) Name() string { return "judge" }
+func (judge) Doc() string  { return "judges a number" }
+func (judge) Params() []steps.Param {
+	return []steps.Param{{Name: "input", Type: steps.Ref}}
+}
+func (judge) Prepare(v steps.Values) (any, error) { return v, nil }
+func (judge) Decode(b []byte) (steps.Artifact, error) {
+	if len(b) != 12 || string(b[:4]) != "jdg1" {
+		return nil, errors.New("not a judged artifact")
+	}
+	return judged(math.Float64frombits(binary.LittleEndian.Uint64(b[4:]))), nil
+}
+func (judge) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
+	calls.add("judge")
+	return judged(in.Ref("input").Figures()[0].Value), nil
+}
+
 func toyRegistry() steps.Registry {
-	r, err := steps.NewRegistry(source{}, combine{}, floor{}, noisy{}, trouble{}, lookup{})
+	r, err := steps.NewRegistry(source{}, combine{}, floor{}, noisy{}, trouble{}, lookup{}, judge{})
 	if err != nil {
 		panic(err)
 	}

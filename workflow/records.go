@@ -88,23 +88,54 @@ var toolOnce = sync.OnceValue(func() Tool {
 func ToolInfo() Tool { return toolOnce() }
 
 // ResultsFile is the documented results file a run writes to the output folder: every
-// reported number with the step and step key it came from. See DEVELOPERS.md, "The
-// results file".
+// step's status, every finished step's numbers with the step key they came from, its
+// cautions and verdicts, and each step that failed or did not run with the reason. See
+// DEVELOPERS.md, "Provenance, runs and the results file".
 type ResultsFile struct {
-	Schema   string        `json:"schema"`
-	Analysis string        `json:"analysis"`
-	Workflow string        `json:"workflow"`
-	Run      string        `json:"run"`
-	Steps    []StepResults `json:"steps"`
+	Schema   string `json:"schema"`
+	Analysis string `json:"analysis"`
+	Workflow string `json:"workflow"`
+	Run      string `json:"run"`
+	// Statuses counts the steps by status (computed, reused, failed, skipped).
+	Statuses map[string]int `json:"statuses"`
+	// Failures lists the steps that failed or did not run, in the workflow's order;
+	// empty when every step finished.
+	Failures []FailureEntry `json:"failures"`
+	Steps    []StepResults  `json:"steps"`
 }
 
-// StepResults lists one step's numbers.
+// FailureEntry is one step that failed or did not run.
+type FailureEntry struct {
+	Step   string `json:"step"`
+	Kind   string `json:"kind"`
+	Status string `json:"status"`
+	// Cause is CauseInput, CauseProgram, CauseUpstream or CauseStopped.
+	Cause   string `json:"cause"`
+	Message string `json:"message"`
+}
+
+// StepResults is one step's line: its status and, when it finished, its numbers.
 type StepResults struct {
-	Address   string        `json:"address"`
-	Kind      string        `json:"kind"`
-	StepKey   string        `json:"step_key"`
-	ResultKey string        `json:"result_key"`
-	Figures   []FigureEntry `json:"figures"`
+	Step      string `json:"step"`
+	Kind      string `json:"kind"`
+	Status    string `json:"status"`
+	StepKey   string `json:"step_key,omitempty"`
+	ResultKey string `json:"result_key,omitempty"`
+	// Cause and Message say why a step failed or did not run.
+	Cause    string         `json:"cause,omitempty"`
+	Message  string         `json:"message,omitempty"`
+	Cautions []string       `json:"cautions,omitempty"`
+	Verdicts []VerdictEntry `json:"verdicts,omitempty"`
+	Figures  []FigureEntry  `json:"figures"`
+}
+
+// VerdictEntry is one test's judgement of one subject (steps.Verdict).
+type VerdictEntry struct {
+	Subject   string `json:"subject"`
+	Test      string `json:"test"`
+	Verdict   string `json:"verdict"`
+	Threshold string `json:"threshold"`
+	Reason    string `json:"reason"`
 }
 
 // FigureEntry is one number with the step key beside it.
@@ -119,7 +150,38 @@ type FigureEntry struct {
 }
 
 // resultsSchema names the results file's format.
-const resultsSchema = "dipline-results/1"
+const resultsSchema = "dipline-results/2"
+
+// resultsOf builds the results file of a run from its outcomes, in the workflow's order.
+func resultsOf(w *Workflow, runID string, outcomes []*Outcome) ResultsFile {
+	rf := ResultsFile{Schema: resultsSchema, Analysis: w.Name, Workflow: w.Path, Run: runID,
+		Statuses: map[string]int{StatusComputed: 0, StatusReused: 0, StatusFailed: 0, StatusSkipped: 0},
+		Failures: []FailureEntry{}, Steps: []StepResults{}}
+	for _, o := range outcomes {
+		rf.Statuses[o.Status]++
+		sr := StepResults{Step: o.Step.Addr, Kind: o.Step.Kind.Name(), Status: o.Status, Figures: []FigureEntry{}}
+		if !o.StepKey.IsZero() {
+			sr.StepKey = o.StepKey.String()
+		}
+		if !o.Finished() {
+			sr.Cause, sr.Message = o.Cause, o.Message
+			rf.Failures = append(rf.Failures, FailureEntry{Step: sr.Step, Kind: sr.Kind, Status: o.Status,
+				Cause: o.Cause, Message: o.Message})
+			rf.Steps = append(rf.Steps, sr)
+			continue
+		}
+		sr.ResultKey = o.ResultKey.String()
+		sr.Cautions = steps.CautionsOf(o.Artifact)
+		if j, ok := o.Artifact.(steps.Judge); ok {
+			for _, v := range j.Verdicts() {
+				sr.Verdicts = append(sr.Verdicts, VerdictEntry(v))
+			}
+		}
+		sr.Figures = figureEntries(o.Artifact.Figures(), sr.StepKey)
+		rf.Steps = append(rf.Steps, sr)
+	}
+	return rf
+}
 
 func figureEntries(figs []steps.Figure, stepKey string) []FigureEntry {
 	out := make([]FigureEntry, 0, len(figs))

@@ -21,7 +21,7 @@ const (
 	StatusComputed = "computed" // ran and stored its result
 	StatusReused   = "reused"   // its step key was known; the stored result was used
 	StatusFailed   = "failed"   // it returned an error
-	StatusSkipped  = "skipped"  // it did not run because an upstream step failed or the run was stopped
+	StatusSkipped  = "skipped"  // it did not run: a step it reads did not finish, or the run was stopped
 )
 
 // Options tune a run; none of them can change a result.
@@ -39,7 +39,7 @@ type Options struct {
 
 // Event is one step's outcome in a run.
 type Event struct {
-	Address   string  `json:"address"`
+	Step      string  `json:"step"` // kind.label
 	Kind      string  `json:"kind"`
 	Status    string  `json:"status"`
 	StepKey   string  `json:"step_key"`
@@ -50,32 +50,47 @@ type Event struct {
 	Notes []string `json:"notes,omitempty"`
 	// Warning says what went wrong with a stored result that had to be recomputed.
 	Warning string `json:"warning,omitempty"`
-	Error   string `json:"error,omitempty"`
+	// Error says why a step failed or was skipped (the outcome's Message).
+	Error string `json:"error,omitempty"`
 }
 
 // Outcome is what a run produced for one step.
 type Outcome struct {
 	Step      *Step
 	Status    string
-	StepKey   cache.StepKey
+	StepKey   cache.StepKey // zero when the step stopped before its key was known
 	ResultKey cache.ResultKey
 	Artifact  steps.Artifact
 	Seconds   float64
-	Err       error
+	// Err is why the step failed or was skipped; Cause classifies it (CauseInput, …) and
+	// Message says it for the user (an attribute's mistake names the block and attribute).
+	Err     error
+	Cause   string
+	Message string
+	// failedUpstream lists, for a step skipped because of failures upstream, the steps
+	// that failed, so a skip further down names them rather than the skip between.
+	failedUpstream []string
 }
+
+// Finished reports whether the step has a result (computed or reused).
+func (o *Outcome) Finished() bool { return o.Artifact != nil }
 
 // Report is the outcome of a whole run.
 type Report struct {
 	Run      cache.Run
 	Outcomes []*Outcome // in the workflow's order
-	// ResultsPath is the results file written, or "" when the run failed.
+	// ResultsPath is the results file written, or "" when it could not be written.
 	ResultsPath string
 }
 
 // Run computes or reuses every step of w, storing each computed result at once (so an
 // interrupted run keeps its finished work), then writes the run record and the results
-// file. The first failure cancels the steps still running; steps not yet started are
-// skipped. The caller holds the store's run lock.
+// file. A step that fails stops only the steps that read its result, directly or through
+// others: they are skipped with the reason, and every other step still runs. Only an
+// interruption (ctx cancelled) or a fault of the store stops the whole run. The run record
+// and the results file are written in every case, with every finished step's figures and
+// each failure and skip; when any step did not finish, or the record or the file could not
+// be written, the error is a *RunError. The caller holds the store's run lock.
 func Run(ctx context.Context, w *Workflow, store *cache.Store, opt Options) (*Report, error) {
 	if opt.Workers <= 0 {
 		opt.Workers = runtime.NumCPU()
@@ -83,12 +98,12 @@ func Run(ctx context.Context, w *Workflow, store *cache.Store, opt Options) (*Re
 	if opt.Now == nil {
 		opt.Now = time.Now
 	}
-	ctx, cancel := context.WithCancelCause(ctx)
-	defer cancel(nil)
+	runCtx, stop := context.WithCancelCause(ctx)
+	defer stop(nil)
 	pool := steps.NewPool(opt.Workers)
 	started := opt.Now()
 
-	r := &runner{w: w, store: store, pool: pool, opt: opt, done: map[*Step]chan struct{}{},
+	r := &runner{w: w, store: store, pool: pool, opt: opt, parent: ctx, stop: stop, done: map[*Step]chan struct{}{},
 		out: map[*Step]*Outcome{}}
 	for _, s := range w.Order {
 		r.done[s] = make(chan struct{})
@@ -100,7 +115,7 @@ func Run(ctx context.Context, w *Workflow, store *cache.Store, opt Options) (*Re
 		go func() {
 			defer wg.Done()
 			defer close(r.done[s])
-			r.step(ctx, cancel, s)
+			r.step(runCtx, s)
 		}()
 	}
 	wg.Wait()
@@ -113,49 +128,29 @@ func Run(ctx context.Context, w *Workflow, store *cache.Store, opt Options) (*Re
 			run.Overrides[o.Addr+"."+o.Attr] = o.Value
 		}
 	}
-	var firstErr error
+	runErr := &RunError{}
 	for _, s := range w.Steps {
 		o := r.out[s]
 		rep.Outcomes = append(rep.Outcomes, o)
 		run.Steps = append(run.Steps, cache.RunStep{Address: s.Addr, Kind: s.Kind.Name(), StepKey: o.StepKey,
 			ResultKey: o.ResultKey, Status: o.Status, Seconds: o.Seconds})
-		if o.Err != nil && firstErr == nil && o.Status == StatusFailed {
-			firstErr = fmt.Errorf("%s: %w", s.Addr, o.Err)
-		}
-	}
-	if firstErr == nil {
-		if cause := context.Cause(ctx); cause != nil && !errors.Is(cause, context.Canceled) {
-			firstErr = cause
-		} else if ctx.Err() != nil {
-			firstErr = ctx.Err()
-		}
+		runErr.add(o)
+		runErr.Interrupted = runErr.Interrupted || (o.Cause == CauseStopped && ctx.Err() != nil)
 	}
 	rep.Run = run
-	if err := store.PutRun(run); err != nil && firstErr == nil {
-		firstErr = fmt.Errorf("writing the run record: %w", err)
-	}
-	if firstErr != nil {
-		return rep, firstErr
+	if err := store.PutRun(run); err != nil {
+		runErr.Faults = append(runErr.Faults, fmt.Errorf("writing the run record: %w", err))
 	}
 	path := filepath.Join(w.OutputDir, "results.json")
 	if err := writeAtomic(path, marshal(resultsOf(w, run.ID, rep.Outcomes))); err != nil {
-		return rep, fmt.Errorf("writing the results file: %w", err)
+		runErr.Faults = append(runErr.Faults, fmt.Errorf("writing the results file: %w", err))
+	} else {
+		rep.ResultsPath = path
 	}
-	rep.ResultsPath = path
-	return rep, nil
-}
-
-func resultsOf(w *Workflow, runID string, outcomes []*Outcome) ResultsFile {
-	rf := ResultsFile{Schema: resultsSchema, Analysis: w.Name, Workflow: w.Path, Run: runID}
-	for _, o := range outcomes {
-		if o.Artifact == nil {
-			continue
-		}
-		sk := o.StepKey.String()
-		rf.Steps = append(rf.Steps, StepResults{Address: o.Step.Addr, Kind: o.Step.Kind.Name(), StepKey: sk,
-			ResultKey: o.ResultKey.String(), Figures: figureEntries(o.Artifact.Figures(), sk)})
+	if runErr.empty() {
+		return rep, nil
 	}
-	return rf
+	return rep, runErr
 }
 
 type runner struct {
@@ -163,23 +158,24 @@ type runner struct {
 	store *cache.Store
 	pool  *steps.Pool
 	opt   Options
-	done  map[*Step]chan struct{}
-	out   map[*Step]*Outcome
+	// parent is the caller's context (cancelled on an interruption); stop ends the whole
+	// run, and only a store fault calls it.
+	parent context.Context
+	stop   context.CancelCauseFunc
+	done   map[*Step]chan struct{}
+	out    map[*Step]*Outcome
 
 	evMu sync.Mutex
 }
 
 func (r *runner) emit(o *Outcome, notes []string, warning string) {
-	ev := Event{Address: o.Step.Addr, Kind: o.Step.Kind.Name(), Status: o.Status, Seconds: o.Seconds,
-		Notes: notes, Warning: warning}
+	ev := Event{Step: o.Step.Addr, Kind: o.Step.Kind.Name(), Status: o.Status, Seconds: o.Seconds,
+		Notes: notes, Warning: warning, Error: o.Message}
 	if !o.StepKey.IsZero() {
 		ev.StepKey = o.StepKey.String()
 	}
 	if !o.ResultKey.IsZero() {
 		ev.ResultKey = o.ResultKey.String()
-	}
-	if o.Err != nil {
-		ev.Error = o.Err.Error()
 	}
 	r.evMu.Lock()
 	defer r.evMu.Unlock()
@@ -192,30 +188,43 @@ func (r *runner) emit(o *Outcome, notes []string, warning string) {
 	}
 }
 
-func (r *runner) step(ctx context.Context, cancel context.CancelCauseFunc, s *Step) {
+func (r *runner) step(ctx context.Context, s *Step) {
 	o := r.out[s]
-	// Wait for the upstream steps; any of them failing or the run ending skips this one.
+	// Wait for the upstream steps; one that did not finish skips this one.
 	upstream := map[string]cache.ResultKey{}
+	var failed []string
+	stopped := false
 	for _, d := range s.Deps {
 		<-r.done[d]
 		do := r.out[d]
-		if do.Artifact == nil {
-			o.Status = StatusSkipped
-			o.Err = fmt.Errorf("%s did not give a result", d.Addr)
-			r.emit(o, nil, "")
-			return
+		switch {
+		case do.Finished():
+			upstream[d.Addr] = do.ResultKey
+		case do.Cause == CauseStopped:
+			stopped = true
+		case do.Status == StatusFailed:
+			failed = appendNew(failed, d.Addr)
+		default:
+			for _, f := range do.failedUpstream {
+				failed = appendNew(failed, f)
+			}
 		}
-		upstream[d.Addr] = do.ResultKey
 	}
-	if ctx.Err() != nil {
-		o.Status = StatusSkipped
-		o.Err = ctx.Err()
-		r.emit(o, nil, "")
+	switch {
+	case stopped:
+		r.skip(o, CauseStopped, r.stopReason(ctx, false))
+		return
+	case len(failed) > 0:
+		o.failedUpstream = failed
+		r.skip(o, CauseUpstream, fmt.Errorf("not run: %s failed", joinAnd(failed)))
+		return
+	case ctx.Err() != nil:
+		r.skip(o, CauseStopped, r.stopReason(ctx, false))
 		return
 	}
 	key, err := r.w.StepKey(s, upstream)
 	if err != nil {
-		r.fail(cancel, o, err)
+		r.fail(o, err)
 		return
 	}
 	o.StepKey = key
@@ -223,7 +232,7 @@ func (r *runner) step(ctx context.Context, cancel context.CancelCauseFunc, s *St
 	// Reuse a stored result when the key is known and its bytes check out.
 	warning := ""
 	if rk, ok, err := r.store.Lookup(key); err != nil {
-		r.fail(cancel, o, err)
+		r.storeFault(o, err)
 		return
 	} else if ok {
 		data, err := r.store.Get(rk)
@@ -241,7 +250,7 @@ func (r *runner) step(ctx context.Context, cancel context.CancelCauseFunc, s *St
 		case errors.Is(err, cache.ErrMissing):
 			warning = fmt.Sprintf("the stored result %s is missing; computing it again", rk.Short())
 		default:
-			r.fail(cancel, o, err)
+			r.storeFault(o, err)
 			return
 		}
 	}
@@ -273,8 +282,7 @@ func (r *runner) step(ctx context.Context, cancel context.CancelCauseFunc, s *St
 		env.Seed = r.w.StepSeed(s)
 	}
 	if err := r.pool.Acquire(ctx); err != nil {
-		o.Status, o.Err = StatusSkipped, err
-		r.emit(o, nil, warning)
+		r.skip(o, CauseStopped, r.stopReason(ctx, false))
 		return
 	}
 	began := r.opt.Now()
@@ -283,14 +291,18 @@ func (r *runner) step(ctx context.Context, cancel context.CancelCauseFunc, s *St
 	o.Seconds = time.Since(t0).Seconds()
 	r.pool.Release(1)
 	if err != nil {
-		r.fail(cancel, o, err)
+		if ctx.Err() != nil { // stopped while it ran
+			r.skip(o, CauseStopped, r.stopReason(ctx, true))
+			return
+		}
+		r.fail(o, err)
 		return
 	}
 	data := art.Encode()
 	rk := cache.ResultKeyOf(data)
 	prov := r.provenance(s, key, rk, upstream, env, notes, began, o.Seconds)
 	if err := r.store.Commit(cache.Entry{Step: key, Result: rk, Data: data, Provenance: marshal(prov)}); err != nil {
-		r.fail(cancel, o, fmt.Errorf("storing the result: %w", err))
+		r.storeFault(o, fmt.Errorf("storing the result: %w", err))
 		return
 	}
 	o.Status, o.ResultKey, o.Artifact = StatusComputed, rk, art
@@ -301,12 +313,12 @@ func (r *runner) step(ctx context.Context, cancel context.CancelCauseFunc, s *St
 func runGuarded(ctx context.Context, s *Step, in steps.Inputs, env steps.Env) (art steps.Artifact, err error) {
 	defer func() {
 		if p := recover(); p != nil {
-			err = fmt.Errorf("internal error (please report it): %v", p)
+			art, err = nil, &internalError{fmt.Errorf("internal error (please report it): %v", p)}
 		}
 	}()
 	art, err = s.Kind.Run(ctx, s.Config, in, env)
 	if err == nil && art == nil {
-		err = errors.New("the step gave no result")
+		err = &internalError{errors.New("internal error (please report it): the step gave no result")}
 	}
 	if err == nil && ctx.Err() != nil {
 		err = ctx.Err()
@@ -314,13 +326,25 @@ func runGuarded(ctx context.Context, s *Step, in steps.Inputs, env steps.Env) (a
 	return art, err
 }
 
-func (r *runner) fail(cancel context.CancelCauseFunc, o *Outcome, err error) {
-	o.Status, o.Err = StatusFailed, err
-	if errors.Is(err, context.Canceled) {
-		o.Status = StatusSkipped
-	} else {
-		cancel(fmt.Errorf("%s: %w", o.Step.Addr, err))
-	}
+// fail records a step's own failure; it stops nothing but the steps that read its result.
+func (r *runner) fail(o *Outcome, err error) {
+	o.Status, o.Err, o.Cause = StatusFailed, err, causeOf(err)
+	o.Message = r.w.message(o.Step, err)
+	r.emit(o, nil, "")
+}
+
+// storeFault records a failure of the store and stops the whole run: a store that cannot
+// be read or written cannot keep any further result.
+func (r *runner) storeFault(o *Outcome, err error) {
+	err = &storeError{err}
+	r.stop(fmt.Errorf("%s: %w", o.Step.Addr, err))
+	o.Status, o.Err, o.Cause, o.Message = StatusFailed, err, CauseProgram, err.Error()
+	r.emit(o, nil, "")
+}
+
+// skip records a step that did not run, with the reason.
+func (r *runner) skip(o *Outcome, cause string, why error) {
+	o.Status, o.Err, o.Cause, o.Message = StatusSkipped, why, cause, why.Error()
 	r.emit(o, nil, "")
 }
 

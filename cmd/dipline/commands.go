@@ -1,6 +1,7 @@
 package main
 
 import (
+	"errors"
 	"flag"
 	"fmt"
 	"os"
@@ -75,17 +76,37 @@ func (c *cli) run(args []string) int {
 	defer stop()
 	t0 := time.Now()
 	rep, err := workflow.Run(ctx, w, store, opt)
-	if err != nil {
-		if errorsIsCanceled(err) {
-			fmt.Fprintln(c.err, "dipline run: stopped; finished steps are stored, the rest will run next time")
-			return exitFailed
-		}
+	if rep == nil { // Run gives a report whenever it ran
 		fmt.Fprintln(c.err, "dipline run:", err)
 		return exitFor(err)
 	}
-	c.printSummary(w, rep)
-	fmt.Fprintf(c.out, "run %s · %.2f s · results in %s\n", rep.Run.ID, time.Since(t0).Seconds(), rel(rep.ResultsPath))
-	return exitOK
+	c.printSummary(rep)
+	code := exitOK
+	if err != nil {
+		code = exitFor(err)
+		c.printUnfinished(rep)
+		var re *workflow.RunError
+		switch {
+		case errors.As(err, &re) && re.Interrupted:
+			fmt.Fprintln(c.err, "dipline run: stopped; finished steps are stored, the rest will run next time")
+		case errors.As(err, &re):
+			for _, o := range re.Failed {
+				fmt.Fprintf(c.err, "dipline run: %s failed: %s\n", o.Step.Addr, o.Message)
+			}
+			for _, f := range re.Faults {
+				fmt.Fprintln(c.err, "dipline run:", f)
+			}
+			fmt.Fprintf(c.err, "dipline run: %s\n", unfinishedLine(re, rep.ResultsPath != ""))
+		default:
+			fmt.Fprintln(c.err, "dipline run:", err)
+		}
+	}
+	line := fmt.Sprintf("run %s · %.2f s", rep.Run.ID, time.Since(t0).Seconds())
+	if rep.ResultsPath != "" {
+		line += " · results in " + rel(rep.ResultsPath)
+	}
+	fmt.Fprintln(c.out, line)
+	return code
 }
 
 func rel(p string) string {
@@ -105,42 +126,17 @@ func (c *cli) printEvent(ev workflow.Event) {
 		key = ev.StepKey[:12]
 	}
 	if ev.Warning != "" {
-		fmt.Fprintf(c.out, "  !  %s: %s\n", ev.Address, ev.Warning)
+		fmt.Fprintf(c.out, "  !  %s: %s\n", ev.Step, ev.Warning)
 	}
-	fmt.Fprintf(c.out, "  %s  %-28s %7.2f s  %s\n", mark, ev.Address, ev.Seconds, key)
+	fmt.Fprintf(c.out, "  %s  %-28s %7.2f s  %s\n", mark, ev.Step, ev.Seconds, key)
 	if ev.Status == workflow.StatusComputed {
 		for _, n := range ev.Notes {
 			fmt.Fprintf(c.out, "      · %s\n", n)
 		}
 	}
-	if ev.Status == workflow.StatusFailed {
+	if ev.Status == workflow.StatusFailed || ev.Status == workflow.StatusSkipped {
 		fmt.Fprintf(c.out, "      %s\n", ev.Error)
 	}
-}
-
-// printSummary prints the figures of the steps nothing else takes results from: the ends
-// of the workflow's chains.
-func (c *cli) printSummary(w *workflow.Workflow, rep *workflow.Report) {
-	taken := map[string]bool{}
-	for _, s := range w.Steps {
-		for _, d := range s.Deps {
-			taken[d.Addr] = true
-		}
-	}
-	for _, o := range rep.Outcomes {
-		if taken[o.Step.Addr] || o.Artifact == nil {
-			continue
-		}
-		figs := o.Artifact.Figures()
-		if len(figs) == 0 {
-			continue
-		}
-		fmt.Fprintf(c.out, "\n%s (step key %s)\n", o.Step.Addr, o.StepKey.Short())
-		for _, f := range figs {
-			fmt.Fprintf(c.out, "  %-26s %s %s\n", f.Name, workflow.FormatValue(f.Value, f.Sigma), f.Unit)
-		}
-	}
-	fmt.Fprintln(c.out)
 }
 
 func (c *cli) check(args []string) int {

@@ -22,12 +22,15 @@ import (
 	"dipline/workflow"
 )
 
-// Exit statuses.
+// Exit statuses (the table in README.md, "Commands").
 const (
 	exitOK      = 0
-	exitFailed  = 1 // the program could not finish (a store or file-system fault)
-	exitBadUser = 2 // the workflow, its data or the command line is at fault
+	exitFailed  = 1 // a fault of the program or the store, or an interrupted run
+	exitBadUser = 2 // the workflow, its settings, its data or the command line is at fault
 )
+
+// registry gives the step kinds; tests add toy kinds to it.
+var registry = kinds.Registry
 
 const usage = `dipline — transit analyses as one workflow file, recomputed only where inputs change.
 
@@ -65,7 +68,7 @@ func realMain(args []string, stdout, stderr io.Writer) (code int) {
 		fmt.Fprint(stdout, usage)
 		return exitOK
 	}
-	reg, err := kinds.Registry()
+	reg, err := registry()
 	if err != nil {
 		fmt.Fprintln(stderr, "dipline:", err)
 		return exitFailed
@@ -141,9 +144,19 @@ func (c *cli) printDiags(diags hcl.Diagnostics) {
 	}
 }
 
-// exitFor picks the exit status for an error from a run.
+// exitFor picks the exit status for an error from a run: 1 when any failure is a fault of
+// the program or the store (or the run was interrupted), else 2 when the user's data or
+// settings are at fault.
 func exitFor(err error) int {
-	if steps.IsInputError(err) {
+	var re *workflow.RunError
+	if errors.As(err, &re) {
+		if re.Program() || re.Interrupted {
+			return exitFailed
+		}
+		return exitBadUser
+	}
+	var ae *steps.AttrError
+	if steps.IsInputError(err) || errors.As(err, &ae) {
 		return exitBadUser
 	}
 	return exitFailed
@@ -152,5 +165,3 @@ func exitFor(err error) int {
 func interruptible() (context.Context, context.CancelFunc) {
 	return signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 }
-
-func errorsIsCanceled(err error) bool { return errors.Is(err, context.Canceled) }

@@ -102,7 +102,8 @@ func TestRunThenReuse(t *testing.T) {
 		t.Errorf("the 2.5-day transit was not found (period %v):\n%s", p, out)
 	}
 	ev, err := os.ReadFile(filepath.Join(f.dir, "events.jsonl"))
-	if err != nil || strings.Count(string(ev), "\n") != 3 || !strings.Contains(string(ev), `"status":"computed"`) {
+	if err != nil || strings.Count(string(ev), "\n") != 3 || !strings.Contains(string(ev), `"status":"computed"`) ||
+		!strings.Contains(string(ev), `"step":"search.dips"`) || strings.Contains(string(ev), `"address"`) {
 		t.Fatalf("event log: %v\n%s", err, ev)
 	}
 	code, out, _ = f.dipline("run")

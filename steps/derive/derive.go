@@ -260,13 +260,28 @@ func Derive(post Posterior, star *stellar.Star, dil *stellar.Dilution, o Options
 		note("star: neither a density nor a mass is given, so the fit's density is not combined with the star; star draws are paired with fit samples at random, independently")
 	}
 	ess := KishESS(w)
-	if ess == 0 {
-		return nil, nil, steps.BadInputf("the fit's stellar density (%.3g–%.3g g/cm3, 16–84 %%) and the star's do not overlap at all; check the star or run the fit with the star's density in its likelihood",
-			sortedQuantile(fitLnRho, 0.16, math.Exp), sortedQuantile(fitLnRho, 0.84, math.Exp))
+	var fitDensity, starDensity [3]float64
+	if pair != nil {
+		fitDensity = densityRange(fitLnRho)
+		starDensity = densityRange(pair.X)
+	}
+	// The densities do not overlap: no fit sample lies within the kernel's reach of a star
+	// draw. The fit's samples are then used with equal weights, each paired with a star
+	// draw at random, and the artifact says why (Cautions).
+	mismatch := reweighted && ess < minESS
+	if mismatch {
+		reweighted = false
+		pair = nil
+		for i := range w {
+			w[i] = 1
+		}
 	}
 	cw := cumulative(w)
 	lowESS := reweighted && ess < o.ESSThreshold
 	switch {
+	case mismatch:
+		fmt.Fprintf(&method, "fit posterior (%d samples) taken with equal weights, NOT combined with the star's density: the reweighting by it left a Kish effective sample size of %.3g, below the floor of %g, as the transit's density and the star's do not overlap",
+			nfit, ess, float64(minESS))
 	case reweighted:
 		fmt.Fprintf(&method, "fit posterior (%d samples) reweighted by the star's density (Gaussian kernel density estimate in ln ρ over %d star draws, Silverman bandwidth h = %.3g, tabulated every h/20 and interpolated; the fit's prior is uniform in ln ρ, so the weight is the estimate itself; Kish effective sample size %.0f, %.1f %%)",
 			nfit, len(pair.X), pair.H, ess, 100*ess/float64(nfit))
@@ -279,9 +294,12 @@ func Derive(post Posterior, star *stellar.Star, dil *stellar.Dilution, o Options
 	default:
 		fmt.Fprintf(&method, "fit posterior (%d samples) taken as it is: the star gives no density", nfit)
 	}
-	if pair != nil {
+	switch {
+	case pair != nil:
 		fmt.Fprintf(&method, "; %d draws resampled by weight, each paired with a star draw chosen with probability ∝ the kernel in ln ρ (so radius and mass stay consistent with the transit's density to within h)", o.Draws)
-	} else {
+	case mismatch:
+		fmt.Fprintf(&method, "; %d draws resampled, each paired with a star draw chosen at random (independent pairing: the star's radius and mass are NOT consistent with the transit's density)", o.Draws)
+	default:
 		fmt.Fprintf(&method, "; %d draws resampled, each paired with a star draw chosen at random (independent pairing: it neglects the correlation between the transit's density and the star's radius and mass)", o.Draws)
 	}
 
@@ -326,13 +344,10 @@ func Derive(post Posterior, star *stellar.Star, dil *stellar.Dilution, o Options
 			fmt.Fprintf(&method, " (the fit modelled the dilution itself)")
 		}
 	}
+	// The median flux ratio applied to k after the fit; Cautions warns when it is large.
+	rescaled := 0.0
 	if len(hyps) > 0 && pls[0].dil < 0 && !dil.AlreadyCorrected {
-		if med := sortedQuantile(hyps[0].FluxRatio, 0.5, func(x float64) float64 { return x }); med > maxRescaledDilution {
-			note("WARNING: the companions add %.0f %% of the target's light; rescaling k after the fit biases it (measured: k high by about 2 %% at 50 %% and 3.6 %% at 100 %%, since a fit of the diluted shape trades k against b). Use the coupled fit, with the dilution in its likelihood", 100*med)
-		}
-	}
-	if lowESS {
-		note("WARNING: the star's density and the fit's agree poorly or the star's is much narrower: only %.0f effective samples of %d survive the reweighting (threshold %g); the summaries are noisy. Run the fit with the star's density in its likelihood (the coupled fit) instead", ess, nfit, o.ESSThreshold)
+		rescaled = sortedQuantile(hyps[0].FluxRatio, 0.5, func(x float64) float64 { return x })
 	}
 
 	// Measured masses and magnitudes.
@@ -399,7 +414,8 @@ func Derive(post Posterior, star *stellar.Star, dil *stellar.Dilution, o Options
 
 	// Summaries.
 	a := &Artifact{Method: method.String(), FitSamples: nfit, Draws: o.Draws, ESS: ess,
-		ESSThreshold: o.ESSThreshold, Reweighted: reweighted, LowESS: lowESS}
+		ESSThreshold: o.ESSThreshold, Reweighted: reweighted, LowESS: lowESS, Mismatch: mismatch,
+		FitDensity: fitDensity, StarDensity: starDensity, Rescaled: rescaled}
 	if pair != nil {
 		a.Bandwidth = pair.H
 	}
@@ -451,7 +467,7 @@ func Derive(post Posterior, star *stellar.Star, dil *stellar.Dilution, o Options
 			rho[i], _ = astro.DensityFromScaledAxis(row[pc.aR], row[pc.period]*astro.Day)
 			rho[i] /= 1000
 		}
-		qt := Quantity{Name: "star_density_transit", Unit: "g/cm3",
+		qt := Quantity{Name: transitDensityName, Unit: "g/cm3",
 			Doc: "mean stellar density from this planet's a/R* and period alone, ρ = 3π(a/R*)³/(G P²) (Seager & Mallén-Ornelas 2003), from the fit's samples before combining with the star: compare it with the star's"}
 		summarise(&qt, rho, false)
 		pl.Quantities = append(pl.Quantities, qt)
@@ -484,6 +500,34 @@ func hasMass(p Planet) bool {
 		}
 	}
 	return false
+}
+
+// transitDensityName names each planet's stellar density from its own transit.
+const transitDensityName = "star_density_transit"
+
+// minESS is the floor of the Kish effective sample size below which the fit's samples are
+// not reweighted by the star's density at all: 1 effective sample. Kish's ESS is at least 1
+// as soon as one weight is positive, so below 1 means every weight is zero: no fit sample
+// lies within the kernel's reach (kernelReach bandwidths) of any star draw, and the two
+// densities do not overlap. Any positive weight gives a valid reweighting, however noisy,
+// which the low-ESS caution (below ess_threshold) already flags; a higher floor would also
+// catch a star far narrower than the fit (TestLowESSWarns: ESS ≈ 3 with the densities in
+// agreement), where "do not overlap" would be false.
+const minESS = 1
+
+// densityRange returns the 16th, 50th and 84th percentiles of exp(x) for draws x of ln ρ.
+func densityRange(x []float64) [3]float64 {
+	s := make([]float64, 0, len(x))
+	for _, v := range x {
+		if !math.IsNaN(v) && !math.IsInf(v, 0) {
+			s = append(s, v)
+		}
+	}
+	if len(s) == 0 {
+		return [3]float64{}
+	}
+	sort.Float64s(s)
+	return [3]float64{math.Exp(quantile(s, 0.16)), math.Exp(quantile(s, 0.5)), math.Exp(quantile(s, 0.84))}
 }
 
 // fitDensityLo, fitDensityHi are the fit's prior bounds on the stellar density (g/cm³,

@@ -8,7 +8,9 @@
 // 6), so this step combines them afterwards: the fit's samples are importance-reweighted by
 // a kernel density estimate of the star's density (the fit's prior being log-uniform), each
 // resampled draw is paired with a star draw close in density, and the effective sample size
-// is reported with a warning below a threshold. Dilution is applied to the radius ratio draw
+// is reported with a caution below a threshold. When the two densities do not overlap at
+// all, the step does not fail: the fit's samples keep equal weights, each paired with a star
+// draw at random, every planet figure is marked provisional and a caution says why. Dilution is applied to the radius ratio draw
 // by draw, for the target and for each companion host. It fits nothing and re-reads no light
 // curve; the numbers come from steps/internal/astro. Main entry points: Kind (for the
 // engine) and Derive (the library core).
@@ -33,7 +35,7 @@ import (
 type Kind struct{}
 
 // version is bumped whenever the numbers or the encoding change.
-const version = 1
+const version = 2
 
 // Defaults, each with its reason.
 const (

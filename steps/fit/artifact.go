@@ -184,6 +184,50 @@ func (a *Artifact) Figures() []steps.Figure {
 	return append(figs, a.timeFigures()...)
 }
 
+// The levels above which the fit's diagnostics give a caution.
+const (
+	// betaCaution is the β factor of the residuals above which the fit's note warns that
+	// the posterior widths may be too narrow (the 1.2 of Run's note in fit.go).
+	betaCaution = 1.2
+	// rhatCaution is the rank-normalised split R-hat above which the ensembles are taken to
+	// disagree: Vehtari et al. (2021, Bayesian Analysis 16, 667) recommend R-hat < 1.01.
+	rhatCaution = 1.01
+)
+
+// Cautions says in plain sentences what makes the fit's numbers doubtful, from what the
+// artifact stores (so a reused fit says it too): residuals with red noise the errors do not
+// carry, chains shorter than lengthPerTau autocorrelation times, ensembles that disagree,
+// and transit times that scatter about the linear ephemeris.
+func (a *Artifact) Cautions() []string {
+	var c []string
+	if a.Beta > betaCaution && !a.Inflated {
+		c = append(c, fmt.Sprintf("The best fit's residuals binned over 10 min to a transit duration scatter %.2g× more than white noise would (β, Pont, Zucker & Queloz 2006): the posterior widths may be too narrow. inflate_by_beta = true multiplies the errors by β.", a.Beta))
+	}
+	tau, rhat, worst := 0.0, 0.0, -1
+	for j, d := range a.Diag {
+		if math.IsNaN(d.Tau) {
+			tau = math.NaN()
+		} else if !math.IsNaN(tau) {
+			tau = math.Max(tau, d.Tau)
+		}
+		if d.Rhat > rhat {
+			rhat, worst = d.Rhat, j
+		}
+	}
+	if kept := a.Steps - a.Burn; len(a.Diag) > 0 && !(float64(kept) >= lengthPerTau*tau) {
+		c = append(c, fmt.Sprintf("The chains after burn-in are %d steps, shorter than %d autocorrelation times (%.4g steps): the posterior summaries are preliminary; raise max_steps.", kept, lengthPerTau, lengthPerTau*tau))
+	}
+	if rhat > rhatCaution && worst < len(a.Names) {
+		c = append(c, fmt.Sprintf("The independently started ensembles disagree: R-hat of %s is %.3g, above %g (Vehtari et al. 2021), so the posterior may not be fully explored; raise max_steps or look for a second mode.", a.Names[worst], rhat, rhatCaution))
+	}
+	for j, pt := range a.Times {
+		if pt.Err == "" && pt.Ephemeris.Caution != "" && j < len(planetNames) {
+			c = append(c, fmt.Sprintf("Planet %s: %s.", planetNames[j], strings.TrimSuffix(pt.Ephemeris.Caution, ".")))
+		}
+	}
+	return c
+}
+
 // timeFigures lists per planet its linear ephemeris from the per-transit times and, per
 // timed transit, the mid-time and its O−C.
 func (a *Artifact) timeFigures() []steps.Figure {

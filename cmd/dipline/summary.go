@@ -1,0 +1,166 @@
+package main
+
+import (
+	"fmt"
+	"strings"
+
+	"dipline/steps"
+	"dipline/workflow"
+)
+
+// summaryWidth is the width to which the run summary wraps its sentences.
+const summaryWidth = 100
+
+// printSummary prints, after a run, the figures of the finished steps whose results no
+// finished step takes (the ends of the workflow's chains, or what was reached before a
+// failure), then every finished step's test counts and cautions, reused or computed.
+func (c *cli) printSummary(rep *workflow.Report) {
+	taken := map[string]bool{}
+	for _, o := range rep.Outcomes {
+		if !o.Finished() {
+			continue
+		}
+		for _, d := range o.Step.Deps {
+			taken[d.Addr] = true
+		}
+	}
+	for _, o := range rep.Outcomes {
+		if taken[o.Step.Addr] || !o.Finished() {
+			continue
+		}
+		figs := o.Artifact.Figures()
+		if len(figs) == 0 {
+			continue
+		}
+		fmt.Fprintf(c.out, "\n%s (step key %s)\n", o.Step.Addr, o.StepKey.Short())
+		for _, f := range figs {
+			fmt.Fprintf(c.out, "  %-26s %s %s\n", f.Name, workflow.FormatValue(f.Value, f.Sigma), f.Unit)
+		}
+	}
+	c.printJudgements(rep)
+	fmt.Fprintln(c.out)
+}
+
+// printJudgements prints, for every finished step with verdicts or cautions, one count
+// line per tested subject and each caution.
+func (c *cli) printJudgements(rep *workflow.Report) {
+	header := false
+	for _, o := range rep.Outcomes {
+		if !o.Finished() {
+			continue
+		}
+		counts := verdictCounts(o.Artifact)
+		cautions := steps.CautionsOf(o.Artifact)
+		if len(counts) == 0 && len(cautions) == 0 {
+			continue
+		}
+		if !header {
+			fmt.Fprintf(c.out, "\ntests and cautions\n")
+			header = true
+		}
+		fmt.Fprintf(c.out, "  %s\n", o.Step.Addr)
+		for _, line := range counts {
+			fmt.Fprintf(c.out, "    %s\n", line)
+		}
+		for _, s := range cautions {
+			fmt.Fprint(c.out, wrap(s, "    ! ", "      ", summaryWidth))
+		}
+	}
+}
+
+// verdictCounts says, per subject of an artifact's verdicts in the order they first
+// appear, how many of its tests disagree and how many give a caution:
+// "signal1: 0 of 7 tests disagree, 1 caution".
+func verdictCounts(a steps.Artifact) []string {
+	j, ok := a.(steps.Judge)
+	if !ok {
+		return nil
+	}
+	type tally struct{ tests, disagree, caution int }
+	var order []string
+	by := map[string]*tally{}
+	for _, v := range j.Verdicts() {
+		t := by[v.Subject]
+		if t == nil {
+			t = &tally{}
+			by[v.Subject] = t
+			order = append(order, v.Subject)
+		}
+		t.tests++
+		switch v.Verdict {
+		case steps.VerdictDisagree:
+			t.disagree++
+		case steps.VerdictCaution:
+			t.caution++
+		}
+	}
+	lines := make([]string, 0, len(order))
+	for _, s := range order {
+		t := by[s]
+		lines = append(lines, fmt.Sprintf("%s: %d of %d %s disagree, %s", s, t.disagree, t.tests,
+			plural(t.tests, "test", "tests"), count(t.caution, "caution", "cautions")))
+	}
+	return lines
+}
+
+// printUnfinished lists the steps that failed or did not run, and why.
+func (c *cli) printUnfinished(rep *workflow.Report) {
+	fmt.Fprintln(c.out, "did not finish")
+	for _, o := range rep.Outcomes {
+		switch o.Status {
+		case workflow.StatusFailed:
+			fmt.Fprint(c.out, wrap(o.Step.Addr+" failed: "+o.Message, "  ", "      ", summaryWidth))
+		case workflow.StatusSkipped:
+			fmt.Fprint(c.out, wrap(o.Step.Addr+": "+o.Message, "  ", "      ", summaryWidth))
+		}
+	}
+	fmt.Fprintln(c.out)
+}
+
+// unfinishedLine says in one line how many steps failed and did not run, and where the
+// finished steps' results are.
+func unfinishedLine(re *workflow.RunError, written bool) string {
+	s := fmt.Sprintf("%d %s failed", len(re.Failed), plural(len(re.Failed), "step", "steps"))
+	if n := len(re.Skipped); n > 0 {
+		s += fmt.Sprintf(" and %d not run", n)
+	}
+	if written {
+		return s + "; the finished steps' results are stored and in the results file"
+	}
+	return s + "; the finished steps' results are stored"
+}
+
+func plural(n int, one, many string) string {
+	if n == 1 {
+		return one
+	}
+	return many
+}
+
+// count says "no cautions", "1 caution", "3 cautions".
+func count(n int, one, many string) string {
+	if n == 0 {
+		return "no " + many
+	}
+	return fmt.Sprintf("%d %s", n, plural(n, one, many))
+}
+
+// wrap breaks s into lines of at most width characters (a longer word stands alone), the
+// first starting with first and the rest with rest; each line ends in a newline.
+func wrap(s, first, rest string, width int) string {
+	var b strings.Builder
+	line, prefix := "", first
+	for _, w := range strings.Fields(s) {
+		if line != "" && len([]rune(prefix+line+" "+w)) > width {
+			b.WriteString(prefix + line + "\n")
+			line, prefix = "", rest
+		}
+		if line == "" {
+			line = w
+		} else {
+			line += " " + w
+		}
+	}
+	b.WriteString(prefix + line + "\n")
+	return b.String()
+}

@@ -1,0 +1,181 @@
+package workflow
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"strings"
+
+	"dipline/steps"
+)
+
+// The causes of a step that did not finish: what the results file says and what decides
+// the command's exit status.
+const (
+	// CauseInput: the user's data or settings are at fault (a bad row, a truncated file, an
+	// attribute the data cannot support). Fixing them and running again finishes the step.
+	CauseInput = "input"
+	// CauseProgram: a fault of the program (an internal error, a recovered panic) or of the
+	// store.
+	CauseProgram = "program"
+	// CauseUpstream: skipped because a step it reads failed, directly or through others.
+	CauseUpstream = "upstream"
+	// CauseStopped: skipped or cut short because the run was interrupted or the store failed.
+	CauseStopped = "stopped"
+)
+
+// internalError marks a program fault caught by the engine (a recovered panic, a step
+// that returned neither a result nor an error).
+type internalError struct{ err error }
+
+func (e *internalError) Error() string { return e.err.Error() }
+func (e *internalError) Unwrap() error { return e.err }
+
+// storeError marks a fault of the store, which stops the whole run.
+type storeError struct{ err error }
+
+func (e *storeError) Error() string { return "the store failed: " + e.err.Error() }
+func (e *storeError) Unwrap() error { return e.err }
+
+// causeOf classifies a step's own error: the user's input (a *steps.InputError or a
+// *steps.AttrError) or a fault of the program (anything else, including a recovered panic).
+func causeOf(err error) string {
+	var ie *internalError
+	var se *storeError
+	var ae *steps.AttrError
+	switch {
+	case errors.As(err, &ie) || errors.As(err, &se):
+		return CauseProgram
+	case steps.IsInputError(err) || errors.As(err, &ae):
+		return CauseInput
+	}
+	return CauseProgram
+}
+
+// message says a step's failure for the user. A mistake in an attribute found only when
+// the step ran names the file and line, the block and the attribute:
+// `analysis.hcl line 25: fit "planets": eccentric: "c" is not one of the 1 planet(s) fitted (b)`.
+func (w *Workflow) message(s *Step, err error) string {
+	var ae *steps.AttrError
+	if !errors.As(err, &ae) {
+		return err.Error()
+	}
+	r, ok := s.attrRanges[ae.Attr]
+	if !ok {
+		r = s.block
+	}
+	where := ""
+	if r.Filename != "" {
+		where = fmt.Sprintf("%s line %d: ", r.Filename, r.Start.Line)
+	}
+	return fmt.Sprintf("%s%s %q: %s: %s", where, s.Kind.Name(), s.Label, ae.Attr, ae.Msg)
+}
+
+// stopReason says why a step did not run, or did not finish when it had started, once the
+// run's context has ended.
+func (r *runner) stopReason(ctx context.Context, started bool) error {
+	what := "not run"
+	if started {
+		what = "stopped"
+	}
+	if r.parent.Err() != nil {
+		return fmt.Errorf("%s: the run was interrupted", what)
+	}
+	return fmt.Errorf("%s: the run ended after a fault of the store (%v)", what, context.Cause(ctx))
+}
+
+// RunError is the error of a run in which some step did not finish, or whose run record or
+// results file could not be written. The finished steps' results are stored and in the
+// results file all the same.
+type RunError struct {
+	// Failed are the steps that failed, Skipped those that did not run (each with its
+	// reason), in the workflow's order.
+	Failed, Skipped []*Outcome
+	// Interrupted says the caller stopped the run before every step had finished.
+	Interrupted bool
+	// Faults are failures to write the run record or the results file.
+	Faults []error
+}
+
+func (e *RunError) add(o *Outcome) {
+	switch o.Status {
+	case StatusFailed:
+		e.Failed = append(e.Failed, o)
+	case StatusSkipped:
+		e.Skipped = append(e.Skipped, o)
+	}
+}
+
+func (e *RunError) empty() bool {
+	return len(e.Failed) == 0 && len(e.Skipped) == 0 && !e.Interrupted && len(e.Faults) == 0
+}
+
+// Program reports whether any failure is a fault of the program or of the store, rather
+// than of the user's input.
+func (e *RunError) Program() bool {
+	if len(e.Faults) > 0 {
+		return true
+	}
+	for _, o := range e.Failed {
+		if o.Cause == CauseProgram {
+			return true
+		}
+	}
+	return false
+}
+
+// Error says which steps failed and why, and how many others did not run.
+func (e *RunError) Error() string {
+	var parts []string
+	if e.Interrupted {
+		parts = append(parts, "the run was interrupted")
+	}
+	for _, o := range e.Failed {
+		parts = append(parts, fmt.Sprintf("%s failed: %s", o.Step.Addr, o.Message))
+	}
+	if n := len(e.Skipped); n > 0 {
+		parts = append(parts, fmt.Sprintf("%d %s not run", n, plural(n, "step was", "steps were")))
+	}
+	for _, f := range e.Faults {
+		parts = append(parts, f.Error())
+	}
+	return strings.Join(parts, "; ")
+}
+
+// Unwrap gives the failed steps' own errors and the faults, so that errors.Is and
+// errors.As reach them.
+func (e *RunError) Unwrap() []error {
+	var errs []error
+	if e.Interrupted {
+		errs = append(errs, context.Canceled)
+	}
+	for _, o := range e.Failed {
+		errs = append(errs, o.Err)
+	}
+	return append(errs, e.Faults...)
+}
+
+func plural(n int, one, many string) string {
+	if n == 1 {
+		return one
+	}
+	return many
+}
+
+// joinAnd joins names as "a", "a and b", "a, b and c".
+func joinAnd(names []string) string {
+	if len(names) < 2 {
+		return strings.Join(names, "")
+	}
+	return strings.Join(names[:len(names)-1], ", ") + " and " + names[len(names)-1]
+}
+
+// appendNew appends s to list unless it is already there.
+func appendNew(list []string, s string) []string {
+	for _, x := range list {
+		if x == s {
+			return list
+		}
+	}
+	return append(list, s)
+}
