@@ -104,13 +104,15 @@ func (a *Artifact) Figures() []steps.Figure {
 			steps.Figure{Name: p + "transits", Value: float64(d.Strength.Transits),
 				Doc: "transits with data: at least half the points their duration spans"},
 		)
+		figs = append(figs, checkFigures(p, d)...)
 	}
 	return figs
 }
 
 const (
-	tag    = "search"
-	format = 1
+	tag = "search"
+	// format 2 adds each signal's rival periods and spread over its transits.
+	format = 2
 	// maxPasses bounds the passes a decoder accepts (max_signals is at most 20).
 	maxPasses = 64
 )
@@ -143,6 +145,7 @@ func (a *Artifact) Encode() []byte {
 			}
 			w.Int(int64(d.Shape.InTransitPoints))
 			w.Int(int64(d.Strength.Transits))
+			writeChecks(w, d)
 		}
 	}
 	return w.Bytes()
@@ -204,6 +207,9 @@ func Decode(b []byte) (*Artifact, error) {
 			}
 			d.Shape.InTransitPoints = int(r.Int())
 			d.Strength.Transits = int(r.Int())
+			if err := readChecks(r, d); err != nil && bad == nil {
+				bad = fmt.Errorf("search artifact: pass %d: %w", k+1, err)
+			}
 			p.Found = d
 		}
 		if len(pw) != 4*g.N || len(du) != 4*g.N || p.Peak < 0 || p.Peak >= max(g.N, 1) {

@@ -9,7 +9,9 @@
 //
 // Main entry point: Kind (register it with the engine). The artifact, *Artifact, gives its
 // signals through signals.Source, so detrend (masking), fit, vet and ephemeris steps can
-// take it. It does not detrend, fit a transit model or judge whether a signal is a planet.
+// take it, and says in plain words (steps.Cautioner) when a signal's period is doubtful: the
+// data prefer half or twice it, one or two transits carry it, or only two transits have data.
+// It does not detrend, fit a transit model or judge whether a signal is a planet.
 package search
 
 import (
@@ -28,8 +30,9 @@ import (
 // Kind is the search step kind.
 type Kind struct{}
 
-// version is bumped whenever the numbers or the encoding change.
-const version = 1
+// version is bumped whenever the numbers or the encoding change. 2: each signal's rival
+// periods (P/2, 2P) and spread over its transits, with cautions.
+const version = 2
 
 // Defaults, each with its reason.
 const (

@@ -219,3 +219,18 @@ func BenchmarkFoldFloorSingleSub(b *testing.B) {
 		}
 	})
 }
+
+// BenchmarkChecks4yr times the rival-period and per-transit checks of one detection on the
+// four-year light curve (part of BenchmarkRefine4yr).
+func BenchmarkChecks4yr(b *testing.B) {
+	s := fourYears()
+	p := prepare(s, nil, s.Cadence())
+	d := dip{period: 9.7, epoch: 3.1}
+	dur := CentralDuration(d.period, benchDensity)
+	b.ResetTimer()
+	for range b.N {
+		if r, _ := checkDetection(p, 1/d.period, d.epoch, dur); r.Preferred != PreferFound {
+			b.Fatal("the benchmark signal prefers another period")
+		}
+	}
+}

@@ -8,7 +8,9 @@
 // highest peak by its signal detection efficiency (SDE) against the spectrum with its slow
 // trend removed, refines an accepted peak with the
 // exact, unbinned statistic on a zooming local grid (which gives the period's error), measures
-// depth, transits with data and SNR, masks the transits and searches again.
+// depth, transits with data and SNR, checks the signal against half and twice its period
+// and against being carried by one or two transits (checks.go, with the box models of
+// steps/internal/boxmodel), masks the transits and searches again.
 //
 // It works on plain slices (Series) and knows nothing of workflow files, caches or
 // terminals; parallel work goes through a Parallel function over fixed-size frequency

@@ -41,11 +41,14 @@ type Pass struct {
 }
 
 // Detection is one accepted periodic dip, grouped as when it happens (Timing), what it
-// looks like (Shape) and how strongly the data hold it (Strength).
+// looks like (Shape), how strongly the data hold it (Strength), how it fares against half
+// and twice its period (Rivals) and how it is shared among its transits (Spread).
 type Detection struct {
 	Timing   Timing
 	Shape    Shape
 	Strength Strength
+	Rivals   Rivals
+	Spread   Spread
 }
 
 // Timing is the linear ephemeris with one-sigma errors from the Δχ² = 1 region of the box
@@ -165,6 +168,7 @@ func detect(p *prepared, g Grid, sp spectrum, peak int, score, mask float64) *De
 		return nil
 	}
 	per := 1 / r.freq
+	rivals, spread := checkDetection(p, r.freq, r.centre, r.dur)
 	return &Detection{
 		Timing: Timing{
 			Period: per, PeriodSigma: r.freqSigma * per * per,
@@ -178,6 +182,7 @@ func detect(p *prepared, g Grid, sp spectrum, peak int, score, mask float64) *De
 			SDE: score, SNR: m.snr, DeltaChi2: r.stat * p.sumW,
 			BinnedNoise: m.binnedNoise, Transits: m.transits,
 		},
+		Rivals: rivals, Spread: spread,
 	}
 }
 
