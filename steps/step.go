@@ -69,6 +69,9 @@ const (
 	VerdictAgree    = "agree"    // the data agree with the tested hypothesis (e.g. a planet)
 	VerdictCaution  = "caution"  // something is worth a look, not a failure on its own
 	VerdictDisagree = "disagree" // the data disagree with the tested hypothesis
+	// VerdictNotRun is not a judgement: the test could not run (no fit, no star, too few
+	// points), and its Reason says why.
+	VerdictNotRun = "not run"
 )
 
 // Verdict is one test's judgement of one subject (a signal, a planet) of an artifact.
@@ -77,7 +80,7 @@ type Verdict struct {
 	Subject string
 	// Test names the test in a word or two of snake case ("odd_even").
 	Test string
-	// Verdict is VerdictAgree, VerdictCaution or VerdictDisagree.
+	// Verdict is VerdictAgree, VerdictCaution, VerdictDisagree or VerdictNotRun.
 	Verdict string
 	// Threshold says what the verdict was measured against and where that comes from
 	// ("3 σ; common practice").

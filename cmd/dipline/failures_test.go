@@ -27,7 +27,7 @@ func (a toyArtifact) Figures() []steps.Figure {
 }
 
 // Cautions and Verdicts: signal1 fails one test of three and gets a caution from another;
-// signal2 passes its one test.
+// signal2 passes its one test and cannot run another.
 func (a toyArtifact) Cautions() []string { return []string{"the toy caution"} }
 func (a toyArtifact) Verdicts() []steps.Verdict {
 	return []steps.Verdict{
@@ -35,6 +35,7 @@ func (a toyArtifact) Verdicts() []steps.Verdict {
 		{Subject: "signal1", Test: "b", Verdict: steps.VerdictDisagree},
 		{Subject: "signal2", Test: "a", Verdict: steps.VerdictAgree},
 		{Subject: "signal1", Test: "c", Verdict: steps.VerdictCaution},
+		{Subject: "signal2", Test: "d", Verdict: steps.VerdictNotRun},
 	}
 }
 
@@ -233,7 +234,7 @@ func TestTheSummaryCountsTestsAndPrintsCautions(t *testing.T) {
 			}
 			for _, want := range []string{"tests and cautions\n", "  judge.v\n",
 				"    signal1: 1 of 3 tests disagree, 1 caution\n",
-				"    signal2: 0 of 1 test disagree, no cautions\n",
+				"    signal2: 0 of 1 test disagree, no cautions (1 not run)\n",
 				"    ! the toy caution\n"} {
 				if !strings.Contains(out, want) {
 					t.Errorf("summary lacks %q:\n%s", want, out)

@@ -69,14 +69,14 @@ func (c *cli) printJudgements(rep *workflow.Report) {
 }
 
 // verdictCounts says, per subject of an artifact's verdicts in the order they first
-// appear, how many of its tests disagree and how many give a caution:
-// "signal1: 0 of 7 tests disagree, 1 caution".
+// appear, how many of the tests that ran disagree and how many give a caution, and how
+// many could not run: "signal1: 0 of 5 tests disagree, 1 caution (2 not run)".
 func verdictCounts(a steps.Artifact) []string {
 	j, ok := a.(steps.Judge)
 	if !ok {
 		return nil
 	}
-	type tally struct{ tests, disagree, caution int }
+	type tally struct{ tests, disagree, caution, notRun int }
 	var order []string
 	by := map[string]*tally{}
 	for _, v := range j.Verdicts() {
@@ -85,6 +85,10 @@ func verdictCounts(a steps.Artifact) []string {
 			t = &tally{}
 			by[v.Subject] = t
 			order = append(order, v.Subject)
+		}
+		if v.Verdict == steps.VerdictNotRun {
+			t.notRun++
+			continue
 		}
 		t.tests++
 		switch v.Verdict {
@@ -97,8 +101,12 @@ func verdictCounts(a steps.Artifact) []string {
 	lines := make([]string, 0, len(order))
 	for _, s := range order {
 		t := by[s]
-		lines = append(lines, fmt.Sprintf("%s: %d of %d %s disagree, %s", s, t.disagree, t.tests,
-			plural(t.tests, "test", "tests"), count(t.caution, "caution", "cautions")))
+		line := fmt.Sprintf("%s: %d of %d %s disagree, %s", s, t.disagree, t.tests,
+			plural(t.tests, "test", "tests"), count(t.caution, "caution", "cautions"))
+		if t.notRun > 0 {
+			line += fmt.Sprintf(" (%d not run)", t.notRun)
+		}
+		lines = append(lines, line)
 	}
 	return lines
 }

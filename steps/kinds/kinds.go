@@ -13,10 +13,11 @@ import (
 	"dipline/steps/photometry"
 	"dipline/steps/search"
 	"dipline/steps/star"
+	"dipline/steps/vet"
 )
 
 // Registry returns every step kind, checked.
 func Registry() (steps.Registry, error) {
 	return steps.NewRegistry(photometry.Kind{}, detrend.Kind{}, search.Kind{}, fit.Kind{},
-		star.Kind{}, companions.Kind{}, dilution.Kind{}, derive.Kind{})
+		star.Kind{}, companions.Kind{}, dilution.Kind{}, derive.Kind{}, vet.Kind{})
 }

@@ -87,6 +87,12 @@ var Irradiance = &Dimension{Name: "irradiance", Base: "W/m2", Units: map[string]
 	"W/m2": 1, "erg/s/cm2": 1e-3,
 }}
 
+// Length (a wavelength, say the effective wavelength of a photometric band) is measured in
+// metres, so that it enters the SI numerics of steps/internal/astro unchanged.
+var Length = &Dimension{Name: "length", Base: "m", Units: map[string]float64{
+	"nm": 1e-9, "um": 1e-6, "mm": 1e-3, "m": 1,
+}}
+
 // Names lists the dimension's units, smallest first.
 func (d *Dimension) Names() []string {
 	n := make([]string, 0, len(d.Units))

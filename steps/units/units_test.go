@@ -120,3 +120,33 @@ func TestNominalRatios(t *testing.T) {
 		t.Errorf("au per pc = %v", got)
 	}
 }
+
+func TestParseLength(t *testing.T) {
+	// SI prefixes (BIPM SI Brochure, 9th edition): nano 1e-9, micro 1e-6, milli 1e-3.
+	cases := []struct {
+		name, in string
+		want     float64
+	}{
+		{"a band's wavelength in nanometres", "800 nm", 8e-7},
+		{"the same wavelength in micrometres", "0.8 um", 8e-7},
+		{"an infrared wavelength in micrometres", "4.5 um", 4.5e-6},
+		{"a millimetre", "1 mm", 1e-3},
+		{"a metre", "1 m", 1},
+	}
+	for _, c := range cases {
+		t.Run(c.name+" converts to metres", func(t *testing.T) {
+			got, err := Length.Parse(c.in)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if math.Abs(got-c.want) > 1e-15*c.want {
+				t.Errorf("%q = %v m, want %v", c.in, got, c.want)
+			}
+		})
+	}
+	t.Run("a wavelength without a unit is refused", func(t *testing.T) {
+		if _, err := Length.Parse("800"); err == nil || !strings.Contains(err.Error(), "has no unit") {
+			t.Errorf("Parse(\"800\") error = %v", err)
+		}
+	})
+}

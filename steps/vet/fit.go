@@ -1,0 +1,140 @@
+package vet
+
+import (
+	"fmt"
+	"math"
+
+	"dipline/steps/internal/astro"
+)
+
+// planetDraws are one fitted planet's posterior draws, row by row.
+type planetDraws struct {
+	period, t0, k, b, aR []float64
+	// e and omega (rad) are nil for a circular orbit.
+	e, omega []float64
+	// density is the fit's star_density column (g/cm³), nil when it has none.
+	density   []float64
+	eccentric bool
+}
+
+// n is the number of draws.
+func (p *planetDraws) n() int { return len(p.period) }
+
+// eccentricity returns draw i's e and ω (0, 0 on a circular orbit).
+func (p *planetDraws) eccentricity(i int) (e, omega float64) {
+	if !p.eccentric {
+		return 0, 0
+	}
+	return p.e[i], p.omega[i]
+}
+
+// planetLetter is the fit's name of the j-th planet (steps/fit names them b, c, d in the
+// search's order).
+func planetLetter(j int) string {
+	if j < 0 || j > 24 {
+		return ""
+	}
+	return string(rune('b' + j))
+}
+
+// matchFit gives tg the fit's draws of the planet with its index when the fit has one and
+// its period agrees with the signal's; otherwise it says why not.
+func (v *vetter) matchFit(tg *target) {
+	fit := v.d.Fit
+	letter := planetLetter(tg.index)
+	if tg.index >= fit.Planets() {
+		tg.fitNote = fmt.Sprintf("the fit has %d planet(s), none for this signal; the tests that need a fit were not run for it", fit.Planets())
+		return
+	}
+	col := func(name string) []float64 { return fit.Column(letter + "." + name) }
+	p := &planetDraws{period: col("period"), t0: col("t0"), k: col("k"), b: col("b"), aR: col("a_over_rstar"),
+		e: col("e"), omega: col("omega"), density: fit.Column("star_density")}
+	n := len(p.period)
+	for _, c := range []struct {
+		v    []float64
+		name string
+	}{{p.period, "period"}, {p.t0, "t0"}, {p.k, "k"}, {p.b, "b"}, {p.aR, "a_over_rstar"}} {
+		if len(c.v) == 0 || len(c.v) != n {
+			tg.fitNote = fmt.Sprintf("the fit has no usable column %s.%s; the tests that need a fit were not run for this signal", letter, c.name)
+			return
+		}
+	}
+	if p.density != nil && len(p.density) != n {
+		p.density = nil
+	}
+	if len(p.e) == n && len(p.omega) == n {
+		p.eccentric = true
+		for i := range p.omega {
+			p.omega[i] *= math.Pi / 180 // the fit's column is in degrees
+		}
+	} else {
+		p.e, p.omega = nil, nil
+	}
+	per, perSig, _ := oneSigma(finiteSorted(p.period))
+	t0, _, _ := oneSigma(finiteSorted(p.t0))
+	tol := v.periodTolerance(tg.sig.Duration)
+	if d := math.Abs(per - tg.sig.Period); d > tol*tg.sig.Period+5*perSig {
+		tg.fitNote = fmt.Sprintf("the fit's planet %s has period %.6g d, not this signal's %.6g d (they differ by more than %.2g %% plus 5 σ): the fit was not used for it", letter, per, tg.sig.Period, 100*tol)
+		return
+	}
+	tg.planet, tg.post = letter, p
+	tg.fitNote = fmt.Sprintf("planet %s of the fit (period %.6g d against the search's %.6g d); its period and mid-time place the transits", letter, per, tg.sig.Period)
+	tg.eph.Period, tg.eph.Epoch = per, t0
+}
+
+// periodTolerance is the relative tolerance of a period comparison for a signal of
+// duration dur: dur/T over a baseline T. Two periods whose ratio is off an exact value by
+// less than this put every transit within one duration of where the exact ratio puts it
+// over the whole baseline, so the data cannot tell them apart; a box search's period error
+// is about P·dur/(T·SNR) (the mid-time error, about a duration over the SNR, spread over
+// T/P cycles; common practice), below this for any detected signal.
+func (v *vetter) periodTolerance(dur float64) float64 {
+	if v.o.RatioTolerance > 0 {
+		return v.o.RatioTolerance
+	}
+	if !(v.baseline > 0) {
+		return math.Inf(1)
+	}
+	return dur / v.baseline
+}
+
+// contacts returns draw i's total and full durations T14, T23 in days (Winn 2010 through
+// astro); T23 is 0 for a grazing chord. ok is false when the draw's geometry is invalid.
+func (p *planetDraws) contacts(i int) (t14, t23 float64, ok bool) {
+	e, w := p.eccentricity(i)
+	t14, err1 := astro.TotalDuration(p.period[i], p.aR[i], p.k[i], p.b[i], e, w)
+	t23, err2 := astro.FullDuration(p.period[i], p.aR[i], p.k[i], p.b[i], e, w)
+	return t14, t23, err1 == nil && err2 == nil && t14 > 0
+}
+
+// grazingShare is the share of draws with b + k > 1, and its binomial Monte Carlo error
+// √(p(1−p)/n) treating the draws as independent.
+func (p *planetDraws) grazingShare() (share, mc float64) {
+	g := 0
+	for i := range p.b {
+		if p.b[i]+p.k[i] > 1 {
+			g++
+		}
+	}
+	n := float64(p.n())
+	share = float64(g) / n
+	return share, math.Sqrt(share * (1 - share) / n)
+}
+
+// transitDensity returns the draws of the star's density (g/cm³) the transit implies: the
+// fit's star_density column, or from a/R* and the period by Kepler's third law (Seager &
+// Mallén-Ornelas 2003, through astro) when it has none.
+func (p *planetDraws) transitDensity() []float64 {
+	if p.density != nil {
+		return p.density
+	}
+	out := make([]float64, p.n())
+	for i := range out {
+		rho, err := astro.DensityFromScaledAxis(p.aR[i], p.period[i]*astro.Day)
+		out[i] = rho / 1000
+		if err != nil {
+			out[i] = math.NaN()
+		}
+	}
+	return out
+}

@@ -1,0 +1,121 @@
+package vet
+
+import (
+	"fmt"
+	"math"
+
+	"dipline/steps"
+	"dipline/steps/internal/boxmodel"
+)
+
+// oddEven compares the box depths of the even- and odd-numbered transits (transit 0 at the
+// signal's epoch): one fit with a common level and one depth per parity
+// (steps/internal/boxmodel). The level is shared, so the difference's error is
+// √(1/W_even + 1/W_odd) times the noise scale (W the sum of the weights in each group),
+// and times the excess scatter of single transits' depths within each parity when there is
+// one (transitScatter): a depth that jitters from transit to transit (a coarse cadence
+// sampling the ingress differently each time, spots crossed, residual trends) must not
+// pass for an alternation.
+// When the data disagree (the dips alternate and the period is likely twice the signal's;
+// REFERENCES §12: a few σ suggests a binary at twice the period), it returns the parity of
+// the deeper transits (0 even, 1 odd), else −1.
+func (v *vetter) oddEven(tg *target, w []float64, scale float64) (Test, int64) {
+	const name = "odd_even"
+	eph := tg.eph
+	transits := [2]map[int64]bool{{}, {}}
+	group := func(i int) int {
+		n, in := eph.Inside(v.t[i])
+		if !in {
+			return -1
+		}
+		g := int(n & 1)
+		if w[i] > 0 {
+			transits[g][n] = true
+		}
+		return g
+	}
+	r := boxmodel.Fit(v.f, w, 2, group)
+	if r.Points[0] == 0 || r.Points[1] == 0 || math.IsNaN(r.Level) {
+		return notRun(name, fmt.Sprintf("the light curve has %d even- and %d odd-numbered transits with data; both are needed", len(transits[0]), len(transits[1]))), -1
+	}
+	jitter, dof := v.transitScatter(eph, w, scale)
+	diff := r.Depth[1] - r.Depth[0]
+	sd := scale * jitter * math.Sqrt(1/r.Weight[0]+1/r.Weight[1])
+	z := math.Abs(diff) / sd
+	p := tg.name + "." + name + "."
+	t := Test{Name: name,
+		Threshold: fmt.Sprintf("%.3g σ; common practice (REFERENCES §12 gives no published value)", v.o.OddEvenSigma),
+		Figures: []steps.Figure{
+			{Name: p + "sigma", Value: z, Doc: "|odd − even| box depth over its error, the errors scaled by the noise scale and the transit scatter"},
+			{Name: p + "transit_scatter", Value: jitter,
+				Doc: fmt.Sprintf("factor applied for the scatter of single transits' box depths about their parity's mean: √(χ²/ν) with ν = %d, at least 1 (1 when ν < %d)", dof, minScatterDOF)},
+			{Name: p + "even_depth", Value: r.Depth[0] * 1e6, Sigma: scale * jitter * r.Sigma[0] * 1e6, Unit: "ppm",
+				Doc: fmt.Sprintf("box depth of the even-numbered transits (%d with data; transit 0 at the signal's epoch)", len(transits[0]))},
+			{Name: p + "odd_depth", Value: r.Depth[1] * 1e6, Sigma: scale * jitter * r.Sigma[1] * 1e6, Unit: "ppm",
+				Doc: fmt.Sprintf("box depth of the odd-numbered transits (%d with data)", len(transits[1]))},
+		}}
+	if z >= v.o.OddEvenSigma {
+		t.Verdict = steps.VerdictDisagree
+		t.Reason = fmt.Sprintf("odd and even transits differ by %s (%.1f σ; even %s, odd %s): the dips alternate, as a binary's two eclipses at twice the period do",
+			ppm(math.Abs(diff)), z, ppm(r.Depth[0]), ppm(r.Depth[1]))
+		if r.Depth[1] > r.Depth[0] {
+			return t, 1
+		}
+		return t, 0
+	}
+	t.Verdict = steps.VerdictAgree
+	t.Reason = fmt.Sprintf("odd and even depths agree within %.1f σ (even %s, odd %s)", z, ppm(r.Depth[0]), ppm(r.Depth[1]))
+	return t, -1
+}
+
+// minScatterDOF is the fewest degrees of freedom from which the transits' scatter is
+// trusted: with ν = 4 a χ²/ν is uncertain by √(2/ν) = 71 %, enough to see a scatter twice
+// the expected (common practice for a variance from few points).
+const minScatterDOF = 4
+
+// transitScatter returns √(χ²/ν), at least 1, of the single transits' box depths about the
+// mean depth of their parity (each with its own error, scaled), ν the number of transits
+// with data less two; 1 when ν < minScatterDOF. The depths come from one boxmodel fit with
+// a depth per transit and the level shared.
+func (v *vetter) transitScatter(eph boxmodel.Ephemeris, w []float64, scale float64) (factor float64, dof int) {
+	index := map[int64]int{}
+	var cycles []int64
+	for i := range v.t {
+		if n, in := eph.Inside(v.t[i]); in && w[i] > 0 {
+			if _, seen := index[n]; !seen {
+				index[n] = len(cycles)
+				cycles = append(cycles, n)
+			}
+		}
+	}
+	r := boxmodel.Fit(v.f, w, len(cycles), func(i int) int {
+		if n, in := eph.Inside(v.t[i]); in {
+			if g, ok := index[n]; ok {
+				return g
+			}
+		}
+		return -1
+	})
+	var sw, swd [2]float64
+	for g, n := range cycles {
+		if r.Points[g] > 0 && !math.IsNaN(r.Depth[g]) {
+			wg := r.Weight[g] / (scale * scale)
+			sw[n&1] += wg
+			swd[n&1] += wg * r.Depth[g]
+		}
+	}
+	chi2, used := 0.0, 0
+	for g, n := range cycles {
+		if r.Points[g] == 0 || math.IsNaN(r.Depth[g]) || sw[n&1] == 0 {
+			continue
+		}
+		d := r.Depth[g] - swd[n&1]/sw[n&1]
+		chi2 += d * d * r.Weight[g] / (scale * scale)
+		used++
+	}
+	dof = used - 2
+	if dof < minScatterDOF {
+		return 1, dof
+	}
+	return math.Max(1, math.Sqrt(chi2/float64(dof))), dof
+}
