@@ -212,6 +212,24 @@ type Source interface {
 	LightCurve() *LightCurve
 }
 
+// Variability is the star's own periodic variability (rotating spots, pulsation) as a
+// detrend step measured it in the trend it removed. A signal at one of these periods, or at
+// a small multiple or fraction of one, is more likely what the trend left of the star than
+// a transit.
+type Variability struct {
+	// Periods are the strongest periods of the trend, strongest first, in days; empty when
+	// none stands out of the periodogram's noise.
+	Periods []float64
+	// Amplitudes are the semi-amplitudes of the sinusoids at Periods, relative flux.
+	Amplitudes []float64
+}
+
+// VariabilitySource is implemented by artifacts that measured the star's own variability
+// (a detrend step's result).
+type VariabilitySource interface {
+	Variability() Variability
+}
+
 // Frame names a time axis: times are days since the Julian date RefInt + RefFrac on
 // TimeScale. Artifacts that report times (a search's epochs, a fit's mid-times) carry one.
 type Frame struct {
