@@ -20,13 +20,17 @@ type Result struct {
 	Curve *lightcurve.LightCurve
 	// Trends has one entry per input segment.
 	Trends []SegmentTrend
-	// Estimator is "biweight", "robust-spline" or "running-median".
+	// Estimator is "local-polynomial", "biweight", "robust-spline" or "running-median";
+	// Degree the local polynomial's degree (0 for the others).
 	Estimator string
+	Degree    int
 	// Scale is the time scale of the trend in days: the window span, or the knot spacing
 	// of the spline.
 	Scale float64
 	// SplitAtGap is the gap threshold used, in days.
 	SplitAtGap float64
+	// Star is the star's own periodic variability, measured in the trend.
+	Star lightcurve.Variability
 }
 
 // SegmentTrend is the trend of one input segment, point by point.
@@ -42,6 +46,10 @@ type SegmentTrend struct {
 // LightCurve returns the detrended light curve, so that a search or another detrend can
 // take this step as its input.
 func (r *Result) LightCurve() *lightcurve.LightCurve { return r.Curve }
+
+// Variability returns the star's own periods found in the trend, so that a vet step can
+// tell a transit from what the detrend left of the star.
+func (r *Result) Variability() lightcurve.Variability { return r.Star }
 
 func newResult(lc *lightcurve.LightCurve, out []robust.Result, estimator string, scale, gap float64) *Result {
 	res := &Result{
@@ -93,15 +101,20 @@ func (r *Result) count(m robust.Mark) int {
 
 const (
 	tag       = "detrend"
-	formatVer = 1
+	formatVer = 2
+	// maxStarPeriods bounds the star's periods a decoder accepts.
+	maxStarPeriods = 16
 )
 
 // Encode returns the canonical encoding.
 func (r *Result) Encode() []byte {
 	w := codec.NewWriter(tag, formatVer)
 	w.String(r.Estimator)
+	w.Int(int64(r.Degree))
 	w.Float(r.Scale)
 	w.Float(r.SplitAtGap)
+	w.Floats(r.Star.Periods)
+	w.Floats(r.Star.Amplitudes)
 	r.Curve.Write(w)
 	w.Uint64(uint64(len(r.Trends)))
 	for _, t := range r.Trends {
@@ -125,8 +138,11 @@ func Decode(b []byte) (*Result, error) {
 	rd := codec.NewReader(b, tag, formatVer)
 	r := &Result{}
 	r.Estimator = rd.String()
+	r.Degree = int(rd.Int())
 	r.Scale = rd.Float()
 	r.SplitAtGap = rd.Float()
+	r.Star.Periods = rd.Floats()
+	r.Star.Amplitudes = rd.Floats()
 	r.Curve = lightcurve.Read(rd)
 	n := rd.Uint64()
 	if n != uint64(len(r.Curve.Segments)) {
@@ -158,9 +174,15 @@ func Decode(b []byte) (*Result, error) {
 // check verifies the invariants a decoded record must hold.
 func (r *Result) check() error {
 	switch r.Estimator {
-	case estBiweight, estSpline, estMedian:
+	case estLocal, estBiweight, estSpline, estMedian:
 	default:
 		return fmt.Errorf("unknown estimator %q", r.Estimator)
+	}
+	if r.Degree < 0 || r.Degree > 2 || (r.Estimator != estLocal && r.Degree != 0) {
+		return fmt.Errorf("degree %d for estimator %q", r.Degree, r.Estimator)
+	}
+	if len(r.Star.Periods) != len(r.Star.Amplitudes) || len(r.Star.Periods) > maxStarPeriods {
+		return fmt.Errorf("%d star periods with %d amplitudes", len(r.Star.Periods), len(r.Star.Amplitudes))
 	}
 	if err := r.Curve.Validate(); err != nil {
 		return err

@@ -16,6 +16,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"strings"
 
 	"dipline/steps"
 	"dipline/steps/detrend/robust"
@@ -34,10 +35,11 @@ var (
 )
 
 // version is bumped whenever the numbers or the encoding change.
-const version = 1
+const version = 2
 
 // The estimator names written in a workflow.
 const (
+	estLocal    = "local-polynomial"
 	estBiweight = "biweight"
 	estSpline   = "robust-spline"
 	estMedian   = "running-median"
@@ -45,10 +47,18 @@ const (
 
 // Defaults, each with its reason.
 const (
-	// defaultSpan is the full width of the biweight window. A windowed location estimate
-	// keeps a transit shorter than about a third of its span (Hippke et al. 2019, AJ 158,
-	// 143, from memory): 0.5 d keeps transits up to 4 h, those of most short-period planets.
+	// defaultSpan is the full width of the window of the location estimators (biweight,
+	// running median), and of the local polynomial when the light curve is too short or too
+	// sparse for ChooseSpan. A windowed location estimate keeps a transit shorter than about
+	// a third of its span (Hippke et al. 2019, AJ 158, 143, from memory): 0.5 d keeps
+	// transits up to 4 h, those of most short-period planets.
 	defaultSpan = 0.5
+	// spanReference is the transit duration the local polynomial's window is chosen for when
+	// the workflow does not give a span: a small planet on an orbit of a few days around the
+	// small stars dipline is for crosses in 1–3 hours (Winn 2010's T14 for 0.2–0.6 R☉ and
+	// periods of 1–10 d; common practice), and the choice changes little across that range
+	// because the trend's bias grows as the fourth power of the window.
+	spanReference = 2.0 / 24
 	// defaultKnots gives the spline the same time scale as the default span.
 	defaultKnots = 0.5
 	// defaultC is the biweight tuning constant in unscaled MADs found best for transit
@@ -61,6 +71,14 @@ const (
 	// duration or ephemeris slightly off still leaves ingress and egress out of the trend
 	// (common practice).
 	defaultMaskFactor = 1.5
+	// defaultDegree is the local polynomial's degree: a quadratic cancels the curvature term
+	// of the bias that a location or a line leaves (½ f''·h²/12 for a window of width h;
+	// measured in robust/local_test.go).
+	defaultDegree = 2
+	// localFits is the number of fits of the local polynomial: one plain and three
+	// reweighted by the previous residuals, the default of R's loess for its robust
+	// ("symmetric") family (loess.control(iterations = 4), from R's documentation).
+	localFits = 4
 	// defaultMinPoints is the fewest usable points a window needs for a trend: fewer make
 	// the median and MAD meaningless.
 	defaultMinPoints = 5
@@ -88,10 +106,12 @@ func (Kind) Params() []steps.Param {
 	return []steps.Param{
 		{Name: "light_curve", Type: steps.Ref, Kinds: []string{"photometry", "detrend"},
 			Doc: "the light curve to detrend: a photometry step, or another detrend step"},
-		{Name: "estimator", Type: steps.String, Choices: []string{estBiweight, estSpline, estMedian}, Default: estBiweight,
-			Doc: "how the trend is estimated: Tukey biweight location in a sliding time window, a cubic spline refitted with outliers clipped, or the median in a sliding time window"},
-		{Name: "span", Type: steps.Quantity, Dim: units.Time, Default: defaultSpan,
-			Doc: "full width in time of the sliding window (biweight, running-median); transits up to about a third of it survive unmasked"},
+		{Name: "estimator", Type: steps.String, Choices: []string{estLocal, estBiweight, estSpline, estMedian}, Default: estLocal,
+			Doc: "how the trend is estimated: a robust locally weighted polynomial in a sliding time window (Cleveland 1979), Tukey biweight location in a sliding time window, a cubic spline refitted with outliers clipped, or the median in a sliding time window"},
+		{Name: "degree", Type: steps.Integer, Default: int64(defaultDegree),
+			Doc: "degree of the local polynomial (local-polynomial): 0, 1 or 2; a quadratic follows a curved trend without bias, a location (0) or a line (1) leaves ½ f''·h²/12 beside every turn"},
+		{Name: "span", Type: steps.Quantity, Dim: units.Time, Optional: true,
+			Doc: "full width in time of the sliding window. For local-polynomial, by default chosen from the light curve among 0.25–4 d: without a mask the window that keeps the most of an unmasked 2-hour transit for the bias the star's variability leaves, with a mask the window of least trend error; for biweight and running-median 0.5 d, which keeps transits up to about a third of it"},
 		{Name: "knot_spacing", Type: steps.Quantity, Dim: units.Time, Default: defaultKnots,
 			Doc: "spacing in time of the spline's knots (robust-spline); knots are dropped where there are too few points"},
 		{Name: "biweight_c", Type: steps.Number, Default: defaultC,
@@ -114,7 +134,8 @@ func (Kind) Params() []steps.Param {
 // Config is the decoded configuration of one detrend block.
 type Config struct {
 	Estimator   string
-	Span        float64 // days
+	Degree      int
+	Span        float64 // days; 0 = choose from the data (local-polynomial)
 	KnotSpacing float64 // days
 	C           float64
 	FlareSigma  float64
@@ -128,16 +149,20 @@ type Config struct {
 func (Kind) Prepare(v steps.Values) (any, error) {
 	c := Config{
 		Estimator:   v.Str("estimator"),
-		Span:        v.Float("span"),
 		KnotSpacing: v.Float("knot_spacing"),
 		C:           v.Float("biweight_c"),
 		FlareSigma:  v.Float("flare_sigma"),
 		MaskFactor:  v.Float("mask_factor"),
 	}
 	switch c.Estimator {
-	case estBiweight, estSpline, estMedian:
+	case estLocal, estBiweight, estSpline, estMedian:
 	default:
-		return nil, steps.Attrf("estimator", "%q is not an estimator; use %q, %q or %q", c.Estimator, estBiweight, estSpline, estMedian)
+		return nil, steps.Attrf("estimator", "%q is not an estimator; use %q, %q, %q or %q", c.Estimator, estLocal, estBiweight, estSpline, estMedian)
+	}
+	if d := v.Int("degree"); d < 0 || d > 2 {
+		return nil, steps.Attrf("degree", "must be 0, 1 or 2, not %d", d)
+	} else {
+		c.Degree = int(d)
 	}
 	positive := func(name string, x float64, what string) error {
 		if !(x > 0) || math.IsInf(x, 0) {
@@ -145,8 +170,13 @@ func (Kind) Prepare(v steps.Values) (any, error) {
 		}
 		return nil
 	}
-	if err := positive("span", c.Span, "time"); err != nil {
-		return nil, err
+	if v.Has("span") {
+		c.Span = v.Float("span")
+		if err := positive("span", c.Span, "time"); err != nil {
+			return nil, err
+		}
+	} else if c.Estimator != estLocal {
+		c.Span = defaultSpan
 	}
 	if err := positive("knot_spacing", c.KnotSpacing, "time"); err != nil {
 		return nil, err
@@ -282,10 +312,13 @@ func Detrend(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool 
 		scale = cfg.KnotSpacing
 	case estMedian:
 		rc.Estimator = robust.RunningMedian
+	case estLocal:
+		rc.Estimator = robust.LocalPoly
+		rc.Degree, rc.Iterations = cfg.Degree, localFits
 	default:
 		rc.Estimator = robust.Biweight
 	}
-	if len(sigs) > 0 && cfg.Estimator != estSpline {
+	if len(sigs) > 0 && cfg.Estimator != estSpline && cfg.Span > 0 {
 		longest := 0.0
 		for _, s := range sigs {
 			longest = max(longest, s.Duration*cfg.MaskFactor)
@@ -299,10 +332,38 @@ func Detrend(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool 
 	if pool != nil {
 		par = pool.Parallel
 	}
+	if rc.Span == 0 {
+		rc.Span, scale = chooseSpan(series, cfg.Degree, len(sigs) > 0, gap, par, &notes)
+	}
 	out := robust.Detrend(rc, series, par)
 	res := newResult(lc, out, cfg.Estimator, scale, gap)
+	if cfg.Estimator == estLocal {
+		res.Degree = cfg.Degree
+	}
 	if n := res.count(robust.NoTrend); n > 0 {
 		notes = append(notes, fmt.Sprintf("%d points dropped: fewer than %d usable points within their window", n, cfg.MinPoints))
 	}
 	return res, notes
+}
+
+// chooseSpan picks the local polynomial's window from the data (robust.ChooseSpan), for a
+// masked pass (follow the star) or an unmasked one (keep the transits), and says why in a
+// note; when the data cannot tell it keeps defaultSpan and says so.
+func chooseSpan(series []robust.Series, degree int, masked bool, gap float64, par robust.Parallel, notes *[]string) (span, scale float64) {
+	goal, why := robust.KeepTransits, "keeps the most of an unmasked 2-hour transit's signal to noise for the bias the star's variability leaves"
+	if masked {
+		goal, why = robust.FollowStar, "is the widest window whose bias stays under a tenth of the noise, the transits being masked"
+	}
+	ch, ok := robust.ChooseSpan(series, degree, goal, spanReference, gap, par)
+	if !ok {
+		*notes = append(*notes, fmt.Sprintf("span: %.3g d (too few evenly spaced points to choose one from the data)", defaultSpan))
+		return defaultSpan, defaultSpan
+	}
+	var tried []string
+	for _, tr := range ch.Trials {
+		tried = append(tried, fmt.Sprintf("%.3g d: bias %.0f ppm, keeps %.0f %%", tr.Span, tr.Bias*1e6, tr.Kept*100))
+	}
+	*notes = append(*notes, fmt.Sprintf("span: %.3g d, chosen from the light curve: it %s (noise per 2 h %.0f ppm; tried %s)",
+		ch.Span, why, ch.Noise*1e6, strings.Join(tried, "; ")))
+	return ch.Span, ch.Span
 }

@@ -121,7 +121,7 @@ func TestPrepareNamesTheAttributeAtFault(t *testing.T) {
 			t.Fatal(err)
 		}
 		c := cfg.(Config)
-		if c.Estimator != "biweight" || c.Span != 0.5 || c.C != 5 || c.FlareSigma != 3 || c.SplitAtGap != 0 || c.MaskCount != 0 {
+		if c.Estimator != "local-polynomial" || c.Degree != 2 || c.Span != 0 || c.C != 5 || c.FlareSigma != 3 || c.SplitAtGap != 0 || c.MaskCount != 0 {
 			t.Fatalf("defaults decoded as %+v", c)
 		}
 	})
@@ -238,7 +238,7 @@ func TestTheDerivedGapIsNoted(t *testing.T) {
 	if len(notes) == 0 || !strings.Contains(notes[0], "split_at_gap") {
 		t.Errorf("notes %q do not mention the derived gap", notes)
 	}
-	res, notes = run(t, map[string]any{"split_at_gap": 2.0}, lc, nil, 1)
+	res, notes = run(t, map[string]any{"split_at_gap": 2.0, "span": 0.5}, lc, nil, 1)
 	if res.SplitAtGap != 2 || len(notes) != 0 {
 		t.Errorf("given gap: %v d, notes %q", res.SplitAtGap, notes)
 	}

@@ -16,6 +16,9 @@ const (
 	// Spline is a cubic B-spline with knots every KnotSpacing, fitted with iterative
 	// two-sided clipping (RobustSpline).
 	Spline
+	// LocalPoly is a robust locally weighted polynomial of degree Degree in the time window
+	// ±Span/2 (Cleveland 1979; LocalFilter).
+	LocalPoly
 )
 
 // Mark says what became of one input point.
@@ -47,6 +50,9 @@ type Config struct {
 	KnotSpacing float64
 	// C is the biweight tuning constant in (unscaled) median absolute deviations.
 	C float64
+	// Degree is LocalPoly's polynomial degree (0, 1 or 2) and Iterations its number of
+	// fits (the first plain, each later one reweighted by the previous residuals).
+	Degree, Iterations int
 	// FlareSigma removes points more than this many robust sigmas above the trend; zero or
 	// less turns flare removal off. Points below the trend are never removed.
 	FlareSigma float64
@@ -140,8 +146,8 @@ type piece struct {
 // Detrend estimates the trend of every series and marks every point. Each series is split
 // at gaps longer than cfg.GapOver and each piece is filtered on its own. Masked points are
 // left out of the estimate; where a masked point's own window is too thin, its trend is
-// interpolated linearly in time between the nearest unmasked points with a trend (or held
-// at the one on its side). Flares are then removed upward only: points whose relative
+// interpolated linearly in time between the nearest unmasked points with a trend on both
+// sides (dropped when there is a side without one). Flares are then removed upward only: points whose relative
 // residual f/trend − 1 exceeds cfg.FlareSigma times the piece's robust scatter (1.4826·MAD
 // of the residuals of unmasked points) are marked and left out, and the trend re-estimated,
 // until no new flare appears. Points below the trend are never removed. par may be nil.
@@ -195,7 +201,7 @@ func Detrend(cfg Config, series []Series, par Parallel) []Result {
 				continue
 			}
 			act = append(act, pi)
-			if cfg.Estimator == Spline {
+			if cfg.Estimator == Spline || cfg.Estimator == LocalPoly {
 				jobs = append(jobs, job{pi, p.from, p.to})
 				continue
 			}
@@ -231,6 +237,8 @@ func Detrend(cfg Config, series []Series, par Parallel) []Result {
 			switch cfg.Estimator {
 			case Spline:
 				RobustSpline(dst, t, f, u, cfg.KnotSpacing, cfg.SplineSigma, minPts)
+			case LocalPoly:
+				LocalFilter(dst, t, f, errOf(s, p.from, p.to), u, LocalFit{Half: half, Degree: cfg.Degree, Iterations: cfg.Iterations, MinPoints: minPts}, par)
 			case RunningMedian:
 				MedianFilter(dst, t, f, u, half, minPts, jb.from-p.from, jb.to-p.from)
 			default:
@@ -253,7 +261,7 @@ func Detrend(cfg Config, series []Series, par Parallel) []Result {
 			if last || !(cfg.FlareSigma > 0) {
 				return
 			}
-			p.newFlares = findFlares(p.newFlares, s.Time[lo:hi], s.Flux[lo:hi], tr, use[p.s][lo:hi],
+			p.newFlares = findFlares(p.newFlares, s.Time[lo:hi], s.Flux[lo:hi], errOf(s, lo, hi), tr, use[p.s][lo:hi],
 				flare[p.s][lo:hi], marks, cfg.FlareSigma, minPts)
 		})
 		for _, pi := range act {
@@ -282,7 +290,9 @@ func Detrend(cfg Config, series []Series, par Parallel) []Result {
 
 // fillMasked copies the raw trend into tr and, at masked points whose raw trend is NaN,
 // interpolates linearly in time between the nearest unmasked points with a finite raw
-// trend on either side, or takes the one on the only side that has one.
+// trend on either side. A masked point with such a point on one side only (a masked
+// stretch at the end of a piece, too long for its own window) keeps NaN and is dropped:
+// holding the last value flat would pass a made-up trend off as the star's.
 func fillMasked(tr, raw, t []float64, mask []bool, marks []Mark) {
 	copy(tr, raw)
 	if mask == nil {
@@ -311,15 +321,9 @@ func fillMasked(tr, raw, t []float64, mask []bool, marks []Mark) {
 				}
 			}
 		}
-		nx := next[j]
-		switch {
-		case prev >= 0 && nx >= 0:
+		if nx := next[j]; prev >= 0 && nx >= 0 {
 			w := (t[j] - t[prev]) / (t[nx] - t[prev])
 			tr[j] = raw[prev] + w*(raw[nx]-raw[prev])
-		case prev >= 0:
-			tr[j] = raw[prev]
-		case nx >= 0:
-			tr[j] = raw[nx]
 		}
 	}
 }
@@ -329,8 +333,10 @@ func fillMasked(tr, raw, t []float64, mask []bool, marks []Mark) {
 // residuals of the points used for the trend together with those already taken as flares:
 // leaving the flares out would shrink the scatter every round (the upper tail goes, the
 // lower stays) and eat into the noise itself. With fewer than minPoints points the piece is
-// left alone.
-func findFlares(dst, t, f, tr []float64, use, flare []bool, marks []Mark, k float64, minPoints int) []float64 {
+// left alone. The scatter is at least the median stated error (e, nil when none): a point
+// within a few of its own error bars of the trend is no flare, even where the trend fits
+// the rest more closely than the errors say (noise-free test data, errors overstated).
+func findFlares(dst, t, f, e, tr []float64, use, flare []bool, marks []Mark, k float64, minPoints int) []float64 {
 	res := make([]float64, 0, len(t))
 	for j := range t {
 		if (use[j] || flare[j]) && tr[j] > 0 && finite(tr[j]) {
@@ -340,7 +346,7 @@ func findFlares(dst, t, f, tr []float64, use, flare []bool, marks []Mark, k floa
 	if len(res) < max(minPoints, 3) {
 		return dst
 	}
-	sigma := max(RobustSigma(res), sigmaFloor)
+	sigma := max(RobustSigma(res), sigmaFloor, madScale*noiseFloor(e, use))
 	thr := k * sigma
 	for j := range t {
 		if marks[j] == NonFinite || flare[j] || !(tr[j] > 0) || !finite(tr[j]) {
@@ -353,6 +359,14 @@ func findFlares(dst, t, f, tr []float64, use, flare []bool, marks []Mark, k floa
 		}
 	}
 	return dst
+}
+
+// errOf returns the errors of points [from, to) of s, or nil when it has none.
+func errOf(s Series, from, to int) []float64 {
+	if s.Err == nil {
+		return nil
+	}
+	return s.Err[from:to]
 }
 
 func finite(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }

@@ -12,11 +12,21 @@ var estimators = []struct {
 	{"biweight", Biweight},
 	{"running median", RunningMedian},
 	{"robust spline", Spline},
+	{"local quadratic", LocalPoly},
 }
 
 func baseConfig(e Estimator) Config {
 	return Config{Estimator: e, Span: 0.5, KnotSpacing: 0.5, C: 5, FlareSigma: 3, SplineSigma: 3,
-		MinPoints: 5, GapOver: 0.5}
+		MinPoints: 5, GapOver: 0.5, Degree: 2, Iterations: 4}
+}
+
+// constant returns n copies of v.
+func constant(n int, v float64) []float64 {
+	out := make([]float64, n)
+	for i := range out {
+		out[i] = v
+	}
+	return out
 }
 
 // boxTransit is a periodic box-shaped dip.
@@ -74,7 +84,10 @@ func TestMaskedTransitSurvivesAndTheWaveGoes(t *testing.T) {
 		t.Run("the "+e.name+" keeps the depth and removes the wave", func(t *testing.T) {
 			cfg := baseConfig(e.est)
 			cfg.FlareSigma = 0 // noise-free: the robust scatter is meaningless
-			res := Detrend(cfg, []Series{{Time: tm, Flux: f, Mask: mask}}, nil)[0]
+			// Noise-free flux with stated errors of 100 ppm: the local polynomial's
+			// robustness weights take their scale from the errors when the residuals are
+			// smaller (a bias of a few ppm is no outlier); the other estimators ignore them.
+			res := Detrend(cfg, []Series{{Time: tm, Flux: f, Err: constant(len(tm), 1e-4), Mask: mask}}, nil)[0]
 			var far, near, in []float64
 			for i := range tm {
 				if res.Marks[i] == NoTrend || res.Marks[i] == Flare {
@@ -269,7 +282,10 @@ func TestAStepAcrossAGapDoesNotLeak(t *testing.T) {
 			res = Detrend(cfg, []Series{{Time: tm, Flux: f}}, nil)[0]
 			l, r, _, _ = edgeMeans(res)
 			t.Logf("unsplit control: edge means off by %.1f and %.1f ppm", l*1e6, r*1e6)
-			if math.Abs(l) <= bl && math.Abs(r) <= br {
+			// A local quadratic bends into a step, so unsplit it leaks less than the bound at
+			// this step size; the split is the same code for every estimator, and the control
+			// has its teeth in the location estimators and the spline.
+			if e.est != LocalPoly && math.Abs(l) <= bl && math.Abs(r) <= br {
 				t.Errorf("control: without a split the level did not leak; the check has no teeth")
 			}
 		})
@@ -297,7 +313,7 @@ func TestLaterRoundsEqualAFreshPass(t *testing.T) {
 			flares := 0
 			use := make([]bool, len(tm))
 			for i, m := range res.Marks {
-				use[i] = m == Kept || m == NoTrend
+				use[i] = !mask[i] && (m == Kept || m == NoTrend)
 				if m == Flare {
 					flares++
 				}
