@@ -13,11 +13,12 @@ const summaryWidth = 100
 
 // printSummary prints, after a run, the figures of the finished steps whose results no
 // finished step takes (the ends of the workflow's chains, or what was reached before a
-// failure), then every finished step's test counts and cautions, reused or computed.
+// failure; a step that only judges others, such as vet, ends no chain), then every finished
+// step's test counts and cautions, reused or computed.
 func (c *cli) printSummary(rep *workflow.Report) {
 	taken := map[string]bool{}
 	for _, o := range rep.Outcomes {
-		if !o.Finished() {
+		if !o.Finished() || judges(o) {
 			continue
 		}
 		for _, d := range o.Step.Deps {
@@ -25,7 +26,7 @@ func (c *cli) printSummary(rep *workflow.Report) {
 		}
 	}
 	for _, o := range rep.Outcomes {
-		if taken[o.Step.Addr] || !o.Finished() {
+		if taken[o.Step.Addr] || !o.Finished() || judges(o) {
 			continue
 		}
 		figs := o.Artifact.Figures()
@@ -39,6 +40,15 @@ func (c *cli) printSummary(rep *workflow.Report) {
 	}
 	c.printJudgements(rep)
 	fmt.Fprintln(c.out)
+}
+
+// judges reports whether a finished step judges others (a vet step): it reads the steps it
+// tests without ending their chain, so they keep their place among the final steps, and its
+// own verdicts are counted in the tests-and-cautions block rather than listed figure by
+// figure (the results file has them all).
+func judges(o *workflow.Outcome) bool {
+	_, ok := o.Artifact.(steps.Judge)
+	return ok
 }
 
 // printJudgements prints, for every finished step with verdicts or cautions, one count

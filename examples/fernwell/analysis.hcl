@@ -12,12 +12,12 @@ photometry "survey" {
   band      = "survey-red"
 }
 
-# Remove the spot modulation with a sliding biweight; flares are clipped upward only.
-# The window should be about three times the longest transit sought, short enough to
-# follow the 2.6-day rotation.
+# Remove the spot modulation with a robust local quadratic in a sliding window; flares are
+# clipped upward only. The window is chosen from the light curve: the run prints the choice
+# and what it weighed (here 0.71 d: wider windows keep more of a transit but leave more of
+# the 2.6-day rotation behind).
 detrend "spots" {
   light_curve = photometry.survey
-  span        = "0.3 d" # ≈ 3 × 2.3 h, a central transit at P = 10 d for this density
 }
 
 # A first search finds the strongest dips.
@@ -30,8 +30,7 @@ search "first" {
 # their full depth, and search once more.
 detrend "masked" {
   light_curve = photometry.survey
-  span        = "0.3 d" # ≈ 3 × 2.3 h, a central transit at P = 10 d for this density
-  mask        = search.first
+  mask        = search.first # with the transits masked, the widest window of negligible bias
 }
 
 search "dips" {
@@ -67,9 +66,8 @@ dilution "aperture" {
 
 # The transit fit: a limb-darkened model integrated over each point's exposure, sampled by
 # two independently seeded ensembles until the kept chains are 50 autocorrelation times
-# long (about two minutes here: planet b's impact parameter is poorly constrained at this
-# cadence, so the chains mix slowly, τ ≈ 670 steps). It takes neither the star nor the
-# dilution (derive combines them afterwards), so a catalogue revision does not re-run it.
+# long (about twenty seconds here). It takes neither the star nor the dilution (derive
+# combines them afterwards), so a catalogue revision does not re-run it.
 fit "planets" {
   light_curve = detrend.masked
   signals     = search.dips
@@ -81,4 +79,17 @@ derive "planets" {
   fit      = fit.planets
   star     = star.host
   dilution = dilution.aperture
+}
+
+# Test both signals against what else could make them: odd and even depths, a secondary
+# eclipse, the shape, the star's density against the transits', the faintest blended star
+# that could mimic them, period ratios, the star's own periods, the radius. Each test says
+# whether the data agree, give a caution or disagree. Vetting supports, and does not
+# replace, a validation of the planets.
+vet "planets" {
+  signals     = search.dips
+  light_curve = detrend.masked
+  fit         = fit.planets
+  star        = star.host
+  derive      = derive.planets
 }

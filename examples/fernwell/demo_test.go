@@ -175,12 +175,13 @@ func TestACatalogueRevisionRerunsOnlyTheStarsReaders(t *testing.T) {
 	}
 	write("data/nearby_stars.csv", files["data/nearby_stars_rev2.csv"])
 	want := map[string]string{"star.host": workflow.StatusComputed, "dilution.aperture": workflow.StatusComputed,
-		"derive.planets": workflow.StatusComputed}
+		"derive.planets": workflow.StatusComputed, "vet.planets": workflow.StatusComputed}
 	expectStatuses(t, "after the revision", statuses(runDir(t, dir, shortFit...)), want)
 	// A prior changed for the fit re-runs the fit and what reads it, nothing upstream.
 	prior := append(append([]workflow.Override(nil), shortFit...),
 		workflow.Override{Addr: "fit.planets", Attr: "priors", Value: `{ "b.b" = "uniform(0, 0.9)" }`})
-	want = map[string]string{"fit.planets": workflow.StatusComputed, "derive.planets": workflow.StatusComputed}
+	want = map[string]string{"fit.planets": workflow.StatusComputed, "derive.planets": workflow.StatusComputed,
+		"vet.planets": workflow.StatusComputed}
 	expectStatuses(t, "after a prior changed", statuses(runDir(t, dir, prior...)), want)
 }
 
@@ -235,7 +236,7 @@ func TestTheWorkflowFindsBothPlanetsAndARawSearchMissesC(t *testing.T) {
 
 // TestTheFullDemoCoversTheTruth runs the demo exactly as the README does (the fit to 50
 // autocorrelation times) and checks that every fitted and derived quantity with a truth
-// value covers it within 3σ. It takes about 20 s on 2 cores (fit version 9; version 8 took
+// value covers it within 3σ, and that the vet step disagrees with neither planet. It takes about 20 s on 2 cores (fit version 9; version 8 took
 // minutes and ran only behind DIPLINE_LONG); -short skips it.
 func TestTheFullDemoCoversTheTruth(t *testing.T) {
 	if testing.Short() {
@@ -258,6 +259,13 @@ func TestTheFullDemoCoversTheTruth(t *testing.T) {
 			if !(sig > 0) || math.Abs(got-c.truth) > 3*sig {
 				t.Errorf("%s %s = %.5g ± %.2g, truth %.5g", c.step, c.fig, got, sig, c.truth)
 			}
+		}
+	}
+	// Both injected signals are planets on the target: no vet test may disagree.
+	for _, s := range []string{"signal1", "signal2"} {
+		d, ok := figs["vet.planets"][s+".disagree"]
+		if !ok || d != 0 {
+			t.Errorf("vet.planets %s.disagree = %v (present %v), want 0", s, d, ok)
 		}
 	}
 }
