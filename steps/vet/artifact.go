@@ -42,7 +42,7 @@ type Signal struct {
 	// noiseScale); NaN when the light curve was too short to measure it.
 	NoiseScale float64
 	// Tests are in a fixed order: odd_even, secondary, shape, density, blend, depth,
-	// period_ratio, radius.
+	// period_ratio, radius, star_period.
 	Tests []Test
 }
 
@@ -61,6 +61,7 @@ var testTitles = map[string]string{
 	"depth":        "depth consistency",
 	"period_ratio": "period ratios",
 	"radius":       "radius",
+	"star_period":  "the star's own period",
 }
 
 func title(test string) string {
@@ -117,14 +118,28 @@ func (a *Artifact) Verdicts() []steps.Verdict {
 // validationCaution is printed with every vetting.
 const validationCaution = "vetting supports, and does not replace, a statistical validation of a planet: these tests can show that a signal is unlikely to be a planet on the target, but passing them does not make it one; the judgement is the scientist's"
 
-// Cautions gives one line per signal summarising its disagreements, cautions and tests
-// not run, and the caution that vetting does not validate a planet.
+// Cautions gives one line per doubtful signal summarising its disagreements, cautions and
+// tests not run, and the caution that vetting does not validate a planet.
 func (a *Artifact) Cautions() []string {
 	var out []string
 	for _, s := range a.Signals {
-		out = append(out, s.summary())
+		if s.doubtful() {
+			out = append(out, s.summary())
+		}
 	}
 	return append(out, validationCaution)
+}
+
+// doubtful reports whether a signal needs a line among the cautions: a test disagrees or
+// gives a caution, or the fit could not be matched to it. A signal every test agrees with
+// is counted in the run summary ("0 of 7 tests disagree") and needs no caution of its own.
+func (s Signal) doubtful() bool {
+	for _, t := range s.Tests {
+		if t.Verdict == steps.VerdictDisagree || t.Verdict == steps.VerdictCaution {
+			return true
+		}
+	}
+	return s.FitNote != "" && s.Planet == ""
 }
 
 // summary is the signal's line for the run summary.

@@ -6,7 +6,8 @@
 // geometric albedo it would need after the hottest day side's thermal light; the shape
 // (V-shaped or grazing); the star's density against the transit's; the faintest blended
 // source able to make the transit's shape; the depth in each segment and band; the ratios
-// between the signals' periods; and the radius from a derive step.
+// between the signals' periods; the radius from a derive step; and the star's own periods,
+// as the light curve's detrend step measured them in the trend it removed.
 //
 // It runs on the light curve (normally the masked detrend the fit used) with the signals
 // of a search, and uses a fit, a star and a derive step when given. It fits no transit
@@ -35,7 +36,7 @@ import (
 type Kind struct{}
 
 // version is bumped whenever the numbers, the wording or the encoding change.
-const version = 1
+const version = 2
 
 // Defaults, each with its source.
 const (
@@ -72,6 +73,16 @@ const (
 	// defaultDepthAlarm: a caution when the χ² of one common depth has p < 0.0027, the
 	// two-sided normal tail beyond 3σ (common practice).
 	defaultDepthAlarm = 0.0027
+	// defaultVariabilityRatio: a signal at the star's own period P★ or a fraction P★/k
+	// disagrees when the star's semi-amplitude there is at least 10 times the dip's depth.
+	// A windowed trend leaves a share of a sinusoid of period P★ that grows with the
+	// window h: a local location with tricube weights leaves 17 % at h = P★/2 and 4 % at
+	// P★/4, a local quadratic 0.7 % and 0.04 %, a local quadratic at h = P★ 9 % (the
+	// weighted least-squares gain at the window's centre, computed in the tests); beside a
+	// masked stretch or at a piece's end, where the window is one-sided, more. A dip of a
+	// tenth of the star's semi-amplitude is therefore well within what a detrend leaves,
+	// and a transit that happens to fall on the star's period is rarer than such a residual.
+	defaultVariabilityRatio = 10.0
 )
 
 // fitDensityPriorTag starts the fit artifact's Priors entry for a density prior other than
@@ -90,7 +101,7 @@ func (Kind) Random() bool { return false }
 
 // Doc is one sentence for the kinds listing.
 func (Kind) Doc() string {
-	return "Tests each signal of a search against the hypothesis of a planet on the target (odd/even depths, secondary eclipse and albedo, shape, stellar density, blended sources, depth per segment and band, period ratios, radius) and says for each whether the data agree, give a caution or disagree."
+	return "Tests each signal of a search against the hypothesis of a planet on the target (odd/even depths, secondary eclipse and albedo, shape, stellar density, blended sources, depth per segment and band, period ratios, radius, the star's own period) and says for each whether the data agree, give a caution or disagree."
 }
 
 // Params is the block's schema.
@@ -128,6 +139,10 @@ func (Kind) Params() []steps.Param {
 			Doc: "relative tolerance for a period ratio near n, 1/n or p/q; by default the longer duration over the baseline, within which the data cannot tell two periods apart"},
 		{Name: "max_planet_radius", Type: steps.Quantity, Dim: units.Radius, Default: deriveMaxPlanetRadius(),
 			Doc: "with a derive step: a radius on the target above this disagrees; by default the derive step's own default, \"2 R_jup\""},
+		{Name: "star_period_tolerance", Type: steps.Number, Optional: true,
+			Doc: "relative tolerance for a signal's period near one of the star's periods P★, P★/2, P★/3, 2P★ or 3P★; by default P★/(4L) + D/T, a quarter of the star periodogram's resolution over the longest gap-free stretch L plus the signal's duration D over the baseline T"},
+		{Name: "variability_depth_ratio", Type: steps.Number, Default: defaultVariabilityRatio,
+			Doc: "the star's semi-amplitude at a period, over the dip's depth, from which a signal at that period or a fraction of it disagrees rather than gives a caution"},
 	}
 }
 
@@ -145,6 +160,7 @@ func (Kind) Prepare(v steps.Values) (any, error) {
 		VShapeFraction: v.Float("v_shape_fraction"), DensitySigma: v.Float("density_sigma"),
 		DepthAlarm: v.Float("depth_false_alarm"), RatioTolerance: v.Float("ratio_tolerance"),
 		MaxPlanetRadius: v.Float("max_planet_radius") / rJupInSun,
+		StarTolerance:   v.Float("star_period_tolerance"), VariabilityRatio: v.Float("variability_depth_ratio"),
 	}
 	finite := func(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }
 	checks := []struct {
@@ -164,6 +180,8 @@ func (Kind) Prepare(v steps.Values) (any, error) {
 		{"depth_false_alarm", o.DepthAlarm > 0 && o.DepthAlarm < 1, "a probability between 0 and 1", o.DepthAlarm},
 		{"ratio_tolerance", !v.Has("ratio_tolerance") || (o.RatioTolerance > 0 && o.RatioTolerance < 0.5), "a relative tolerance between 0 and 0.5", o.RatioTolerance},
 		{"max_planet_radius", o.MaxPlanetRadius > 0 && finite(o.MaxPlanetRadius), "a positive radius", o.MaxPlanetRadius},
+		{"star_period_tolerance", !v.Has("star_period_tolerance") || (o.StarTolerance > 0 && o.StarTolerance < 0.5), "a relative tolerance between 0 and 0.5", o.StarTolerance},
+		{"variability_depth_ratio", o.VariabilityRatio > 0 && finite(o.VariabilityRatio), "a positive ratio", o.VariabilityRatio},
 	}
 	for _, c := range checks {
 		if !c.ok {
@@ -191,6 +209,10 @@ func (Kind) Run(ctx context.Context, cfgAny any, in steps.Inputs, env steps.Env)
 		return nil, errors.New("vet: light_curve does not refer to a step with a light curve")
 	}
 	d := Data{Light: src.LightCurve(), Signals: ss.Signals()}
+	if vs, ok := src.(lightcurve.VariabilitySource); ok {
+		vb := vs.Variability()
+		d.Variability = &vb
+	}
 	if a := in.Ref("fit"); a != nil {
 		post, ok := a.(Posterior)
 		if !ok {

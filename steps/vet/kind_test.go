@@ -12,6 +12,7 @@ import (
 	"dipline/steps/derive"
 	"dipline/steps/internal/codec"
 	"dipline/steps/internal/golden"
+	"dipline/steps/internal/lightcurve"
 	"dipline/steps/internal/signals"
 	"dipline/steps/internal/steptest"
 	"dipline/steps/units"
@@ -27,7 +28,12 @@ func fixture(t *testing.T) *Artifact {
 	second.Period *= 2
 	second.Epoch += planet.Period / 2
 	f := planetFit(planet.Period, planet.Epoch+4*planet.Period, planet.K, planet.B, rho, 2024)
-	a, _ := run(t, inputs(lc, []signals.Signal{planetSignal(), second}, f, solarStar(rho), radii("b", 0.47, 0.49, 0.51)))
+	in := inputs(lc, []signals.Signal{planetSignal(), second}, f, solarStar(rho), radii("b", 0.47, 0.49, 0.51))
+	// The light curve comes with the star's own variability, at a period unrelated to both
+	// signals' (4.9 d: 3.3 and 6.6 d are 0.67 and 1.35 times it).
+	in.Refs["light_curve"] = []steps.Artifact{detrendedArtifact{curveArtifact{lc},
+		lightcurve.Variability{Periods: []float64{4.9}, Amplitudes: []float64{0.002}}}}
+	a, _ := run(t, in)
 	return a
 }
 
@@ -111,8 +117,8 @@ func TestTheArtifactJudgesEveryTest(t *testing.T) {
 	t.Run("every verdict is one of the three words or not run, with a threshold and a reason", func(t *testing.T) {
 		ok := map[string]bool{steps.VerdictAgree: true, steps.VerdictCaution: true, steps.VerdictDisagree: true, NotRun: true}
 		vs := a.Verdicts()
-		if len(vs) != 2*8 {
-			t.Errorf("%d verdicts, want 8 per signal", len(vs))
+		if len(vs) != 2*9 {
+			t.Errorf("%d verdicts, want 9 per signal", len(vs))
 		}
 		for _, v := range vs {
 			if !ok[v.Verdict] || v.Threshold == "" || v.Reason == "" || v.Subject == "" {
@@ -130,7 +136,8 @@ func TestTheArtifactJudgesEveryTest(t *testing.T) {
 		}
 		for _, name := range []string{"signal1.disagree", "signal2.disagree", "signal1.odd_even.sigma", "signal1.secondary.depth",
 			"signal1.secondary.significance", "signal1.secondary.albedo", "signal1.blend.max_delta_mag", "signal1.density.ratio",
-			"signal1.shape.grazing_probability", "signal1.depth.segments_p_value", "signal1.period_ratio.signal2", "signal1.radius.radius_jup"} {
+			"signal1.shape.grazing_probability", "signal1.depth.segments_p_value", "signal1.period_ratio.signal2", "signal1.radius.radius_jup",
+			"signal1.star_period.nearest", "signal1.star_period.ratio", "signal2.star_period.tolerance"} {
 			if !seen[name] {
 				t.Errorf("no figure %s", name)
 			}

@@ -38,6 +38,9 @@ type Data struct {
 	Fit    Posterior
 	Star   *stellar.Star
 	Derive Radii
+	// Variability is the star's own variability as the light curve's detrend step measured
+	// it in the trend it removed; nil when the light curve's step does not measure it.
+	Variability *lightcurve.Variability
 	// FitDensityPrior is the density prior the fit states it took in place of its own
 	// log-uniform one (e.g. "star_density log_normal(1.1, 0.05)" in coupled mode), or "":
 	// its density is then not independent of the star's.
@@ -57,6 +60,8 @@ type Options struct {
 	DepthAlarm         float64 // p-value of the common-depth χ² giving a caution
 	RatioTolerance     float64 // relative tolerance of period ratios; 0: derived from the data
 	MaxPlanetRadius    float64 // R_J
+	StarTolerance      float64 // relative tolerance of a match with the star's periods; 0: derived from the data
+	VariabilityRatio   float64 // star's semi-amplitude over the dip's depth from which a match at P★ or P★/k disagrees
 }
 
 // minPoints is the fewest light-curve points the tests accept.
@@ -70,6 +75,9 @@ func Vet(d Data, o Options) (*Artifact, []string, error) {
 	}
 	if err := d.Light.Validate(); err != nil {
 		return nil, nil, steps.BadInputf("light_curve: %v", err)
+	}
+	if err := checkVariability(d.Variability); err != nil {
+		return nil, nil, err
 	}
 	for j, s := range d.Signals {
 		if !(s.Period > 0) || !(s.Duration > 0) || !(s.Duration < s.Period) || math.IsNaN(s.Epoch) || math.IsInf(s.Epoch, 0) {
@@ -143,7 +151,7 @@ func (v *vetter) vetOne(tg *target) Signal {
 		for _, name := range []string{"odd_even", "secondary", "shape", "depth"} {
 			s.Tests = append(s.Tests, notRun(name, why))
 		}
-		s.Tests = append(s.Tests, v.density(tg), v.blend(tg), v.periodRatio(tg), v.radius(tg))
+		s.Tests = append(s.Tests, v.density(tg), v.blend(tg), v.periodRatio(tg), v.radius(tg), v.starPeriod(tg))
 		return s
 	}
 	w := v.weights(tg, false)
@@ -155,8 +163,26 @@ func (v *vetter) vetOne(tg *target) Signal {
 	s.Tests = append(s.Tests, v.shape(tg, w, scale))
 	s.Tests = append(s.Tests, v.density(tg), v.blend(tg))
 	s.Tests = append(s.Tests, v.depth(tg, w, scale))
-	s.Tests = append(s.Tests, v.periodRatio(tg), v.radius(tg))
+	s.Tests = append(s.Tests, v.periodRatio(tg), v.radius(tg), v.starPeriod(tg))
 	return s
+}
+
+// checkVariability refuses a variability whose lists do not pair up or hold a period that
+// is not positive or an amplitude that is negative.
+func checkVariability(vb *lightcurve.Variability) error {
+	if vb == nil {
+		return nil
+	}
+	if len(vb.Periods) != len(vb.Amplitudes) {
+		return steps.BadInputf("light_curve: the star's variability lists %d periods and %d amplitudes", len(vb.Periods), len(vb.Amplitudes))
+	}
+	for j, p := range vb.Periods {
+		a := vb.Amplitudes[j]
+		if !(p > 0) || math.IsInf(p, 0) || !(a >= 0) || math.IsInf(a, 0) {
+			return steps.BadInputf("light_curve: the star's variability has period %v d with amplitude %v; periods must be positive and amplitudes at least 0", p, a)
+		}
+	}
+	return nil
 }
 
 // notRun is a test that could not run, with the reason.
