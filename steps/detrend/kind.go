@@ -21,6 +21,7 @@ import (
 	"dipline/steps"
 	"dipline/steps/detrend/robust"
 	"dipline/steps/internal/lightcurve"
+	"dipline/steps/internal/periodogram"
 	"dipline/steps/internal/signals"
 	"dipline/steps/units"
 )
@@ -35,7 +36,7 @@ var (
 )
 
 // version is bumped whenever the numbers or the encoding change.
-const version = 2
+const version = 3
 
 // The estimator names written in a workflow.
 const (
@@ -340,6 +341,7 @@ func Detrend(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool 
 	if cfg.Estimator == estLocal {
 		res.Degree = cfg.Degree
 	}
+	res.Star = starPeriods(lc, out, gap, scale, &notes)
 	if n := res.count(robust.NoTrend); n > 0 {
 		notes = append(notes, fmt.Sprintf("%d points dropped: fewer than %d usable points within their window", n, cfg.MinPoints))
 	}
@@ -366,4 +368,36 @@ func chooseSpan(series []robust.Series, degree int, masked bool, gap float64, pa
 	*notes = append(*notes, fmt.Sprintf("span: %.3g d, chosen from the light curve: it %s (noise per 2 h %.0f ppm; tried %s)",
 		ch.Span, why, ch.Noise*1e6, strings.Join(tried, "; ")))
 	return ch.Span, ch.Span
+}
+
+// starPeriods measures the star's own periodic variability in the trend: the strongest
+// periods of its gap-free pieces (periodogram.Variability), which a vet step compares with
+// the signals found, and says what it found.
+func starPeriods(lc *lightcurve.LightCurve, out []robust.Result, gap, scale float64, notes *[]string) lightcurve.Variability {
+	var pieces []periodogram.Piece
+	for i, s := range lc.Segments {
+		tr := out[i].Trend
+		start := 0
+		for j := 1; j <= len(s.Time); j++ {
+			if j == len(s.Time) || s.Time[j]-s.Time[j-1] > gap {
+				pieces = append(pieces, periodogram.Piece{Time: s.Time[start:j], Value: tr[start:j]})
+				start = j
+			}
+		}
+	}
+	v, err := periodogram.Variability(pieces, periodogram.Options{Smoothing: scale})
+	if err != nil {
+		*notes = append(*notes, fmt.Sprintf("star's periods: not measured (%v)", err))
+		return lightcurve.Variability{}
+	}
+	if len(v.Periods) == 0 {
+		*notes = append(*notes, "star's periods: none stands out in the trend")
+		return v
+	}
+	var found []string
+	for k, p := range v.Periods {
+		found = append(found, fmt.Sprintf("%.4g d (semi-amplitude %.3g %%)", p, 100*v.Amplitudes[k]))
+	}
+	*notes = append(*notes, "star's periods in the trend: "+strings.Join(found, ", "))
+	return v
 }

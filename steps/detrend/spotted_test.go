@@ -128,3 +128,18 @@ func lastNote(n []string) string {
 	}
 	return s
 }
+
+// The trend carries the star's own period: the spotted star's 4.2-day rotation must come
+// out of it within its periodogram's resolution (the peak's width, P²/baseline = 0.4 d over
+// 45 days; we ask for 2 %), with its 1.5 % semi-amplitude within 5 %.
+func TestSpottedStarPeriodIsMeasuredInTheTrend(t *testing.T) {
+	lc, _ := spottedStar(true)
+	res, notes := run(t, nil, lc, nil, 2)
+	v := res.Variability()
+	if len(v.Periods) == 0 {
+		t.Fatalf("no period found; notes %q", notes)
+	}
+	if math.Abs(v.Periods[0]/spottedRotation-1) > 0.02 || math.Abs(v.Amplitudes[0]/spottedAmp-1) > 0.05 {
+		t.Errorf("strongest period %.4f d, semi-amplitude %.4f; want %.1f d and %.3f", v.Periods[0], v.Amplitudes[0], spottedRotation, spottedAmp)
+	}
+}

@@ -104,6 +104,11 @@ const blockSize = 2048
 // clipping eats the whole turn (seen on spotted-star light curves with ten rounds).
 const maxFlareRounds = 2
 
+// localFlareRounds is maxFlareRounds for the local polynomial: its robustness weights
+// already give a flare's points no weight beyond about four sigmas, so one re-estimate
+// after removing the flares is all it needs, and each costs a full robust fit.
+const localFlareRounds = 1
+
 // gapFloor is the shortest gap at which series are split by default: half a day covers
 // the data downlinks and pointing resets after which an instrument's level commonly jumps
 // (common practice), while a few missing cadences never split a series.
@@ -245,7 +250,7 @@ func Detrend(cfg Config, series []Series, par Parallel) []Result {
 				BiweightFilter(dst, t, f, u, half, cfg.C, minPts, jb.from-p.from, jb.to-p.from)
 			}
 		})
-		last := round == maxFlareRounds
+		last := round == maxFlareRounds || (cfg.Estimator == LocalPoly && round == localFlareRounds)
 		par(len(act), func(k int) {
 			p := &pieces[act[k]]
 			s := series[p.s]
