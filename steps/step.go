@@ -14,6 +14,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"strings"
 )
 
 // Kind is one step kind: the block type of the workflow language and the code behind it.
@@ -93,6 +94,20 @@ type Verdict struct {
 // file lists the verdicts beside the step's figures, and the run summary counts them.
 type Judge interface {
 	Verdicts() []Verdict
+}
+
+// FigureKey turns a label (a host star's name, a segment id, a band) into a part of a
+// figure's name: lower-case letters and digits kept, everything else "_".
+func FigureKey(s string) string {
+	var b strings.Builder
+	for _, r := range strings.ToLower(s) {
+		if r >= 'a' && r <= 'z' || r >= '0' && r <= '9' {
+			b.WriteRune(r)
+		} else {
+			b.WriteByte('_')
+		}
+	}
+	return b.String()
 }
 
 // Figure is one reported number with its uncertainty and unit.

@@ -4,7 +4,6 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"strings"
 
 	"dipline/steps"
 	"dipline/steps/internal/codec"
@@ -89,19 +88,6 @@ func (q Quantity) figure(name string, ess float64) steps.Figure {
 	return f
 }
 
-// hostKey turns a host name into a figure-name part: lower case letters, digits and "_".
-func hostKey(s string) string {
-	var b strings.Builder
-	for _, r := range strings.ToLower(s) {
-		if r >= 'a' && r <= 'z' || r >= '0' && r <= '9' {
-			b.WriteRune(r)
-		} else {
-			b.WriteByte('_')
-		}
-	}
-	return b.String()
-}
-
 // effectiveSamples is the number of effective fit samples behind the summaries: the
 // reweighting's ESS, or every sample when they kept equal weights.
 func (a *Artifact) effectiveSamples() float64 {
@@ -153,7 +139,7 @@ func (a *Artifact) Figures() []steps.Figure {
 			figs = append(figs, f)
 		}
 		for _, h := range p.Hosts {
-			pre := p.Name + ".on_" + hostKey(h.Host) + "."
+			pre := p.Name + ".on_" + steps.FigureKey(h.Host) + "."
 			for _, q := range h.Quantities {
 				figs = append(figs, mark(q.figure(pre+q.Name, ess)))
 			}

@@ -532,7 +532,7 @@ func TestDisjointDensitiesGiveProvisionalFigures(t *testing.T) {
 		t.Fatalf("mismatch %v, reweighted %v, ESS %v, method %q", a.Mismatch, a.Reweighted, a.ESS, a.Method)
 	}
 	t.Run("the radius is k times the star's radius", func(t *testing.T) {
-		// R⊕/R☉ = 0.0091679 (IAU 2015 B3 nominal values, REFERENCES §4); the star's radius is
+		// R⊕/R☉ = 0.0091679 (IAU 2015 Resolution B3 nominal values); the star's radius is
 		// 1 R☉ in every draw, the k draws' median is within 1e-5 of 0.03.
 		want := k / 0.0091679
 		if got := mustQuantity(t, a, "b", "radius_earth").Median; math.Abs(got-want) > 0.003 {

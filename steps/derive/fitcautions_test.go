@@ -13,7 +13,7 @@ import (
 // TestTheFitsCautions checks fit.Artifact.Cautions, which derive's users read beside its
 // own (it lives here because this task may not add files to steps/fit). The levels are the
 // fit's: β above 1.2 (its note in steps/fit/fit.go), chains after burn-in shorter than 50
-// autocorrelation times (its stopping rule, REFERENCES §10) and R-hat above 1.01 (Vehtari
+// autocorrelation times (its stopping rule, DEVELOPERS.md) and R-hat above 1.01 (Vehtari
 // et al. 2021, Bayesian Analysis 16, 667).
 func TestTheFitsCautions(t *testing.T) {
 	settled := func() *fit.Artifact {

@@ -1,5 +1,6 @@
 // Package detrend is the detrend step kind: it divides a light curve by a robust estimate
-// of its slow trend — a time-windowed Tukey biweight (the default), a robust cubic spline,
+// of its slow trend — a robust local quadratic in a sliding time window whose width is
+// chosen from the data (the default), a time-windowed Tukey biweight, a robust cubic spline,
 // or a running median — so that a transit search sees a flat light curve. It splits the
 // series at long gaps, removes flares (upward outliers only, never dips), and, given the
 // signals of a search step, leaves their transits out of the trend so that they come
@@ -99,7 +100,7 @@ func (Kind) Random() bool { return false }
 
 // Doc is one sentence for the kinds listing.
 func (Kind) Doc() string {
-	return "Divides a light curve by a robust trend (Tukey biweight, robust spline or running median), removing flares upward only and sparing masked transits."
+	return "Divides a light curve by a robust trend (a local quadratic in a window chosen from the data by default; Tukey biweight, robust spline or running median), removing flares upward only, sparing masked transits and measuring the star's own periods."
 }
 
 // Params is the block's schema.

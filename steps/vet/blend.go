@@ -11,7 +11,8 @@ import (
 const (
 	// blendPercentile is the percentile of T12/T13 the bound takes: 99.7 %, about the
 	// one-sided 3σ point, so the bound holds for nearly every chord the data allow
-	// (Vanderburg et al. 2019 take a high percentile of the posterior; REFERENCES §16).
+	// (Vanderburg et al. 2019, ApJL 881, L19, take a high percentile of the posterior; from
+	// memory).
 	blendPercentile = 0.997
 	// maxGrazingShare is the largest share of grazing draws the bound accepts: the
 	// geometry behind it needs a second contact, and once more than 1 − 0.997 of the draws

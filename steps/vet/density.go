@@ -54,7 +54,7 @@ func logSummary(x []float64) (med, sigma, mc float64, n int) {
 // the two σ in quadrature (the draws are independent, as the fit does not take the star by
 // default; when it took a density prior, the reason says so). Its rule: a caution beyond DensitySigma, never "disagree", since an eccentric
 // orbit moves the circular-orbit density by ((1 + e sin ω)/√(1 − e²))³ (Dawson & Johnson
-// 2012, ApJ 756, 122; REFERENCES §16).
+// 2012, ApJ 756, 122; from memory).
 func (v *vetter) density(tg *target) Test {
 	const name = "density"
 	switch {

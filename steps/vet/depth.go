@@ -69,20 +69,6 @@ func commonDepth(gs []groupDepth) (chi2 float64, dof int, p float64) {
 	return chi2, dof, distuv.ChiSquared{K: float64(dof)}.Survival(chi2)
 }
 
-// figureKey turns a segment id or band into a figure-name part: lower-case letters,
-// digits and "_".
-func figureKey(s string) string {
-	var b strings.Builder
-	for _, r := range strings.ToLower(s) {
-		if r >= 'a' && r <= 'z' || r >= '0' && r <= '9' {
-			b.WriteRune(r)
-		} else {
-			b.WriteByte('_')
-		}
-	}
-	return b.String()
-}
-
 // depth tests whether the segments, and the bands when there are several, share one
 // depth: χ² of the independent box depths about their weighted mean. Its rule: a caution
 // when the probability of so large a χ² falls below DepthAlarm. Between bands a different
@@ -131,7 +117,7 @@ func (v *vetter) depth(tg *target, w []float64, scale float64) Test {
 			steps.Figure{Name: pre + what + "_chi2", Value: chi2, Doc: fmt.Sprintf("χ² of the %d %s' box depths about their weighted mean, %d degrees of freedom", len(gs), what, dof)},
 			steps.Figure{Name: pre + what + "_p_value", Value: p, Doc: fmt.Sprintf("probability of a χ² at least this large if the %s share one depth", what)})
 		for _, g := range gs {
-			t.Figures = append(t.Figures, steps.Figure{Name: pre + strings.TrimSuffix(what, "s") + "_" + figureKey(g.label), Value: g.depth * 1e6, Sigma: g.sigma * 1e6, Unit: "ppm",
+			t.Figures = append(t.Figures, steps.Figure{Name: pre + strings.TrimSuffix(what, "s") + "_" + steps.FigureKey(g.label), Value: g.depth * 1e6, Sigma: g.sigma * 1e6, Unit: "ppm",
 				Doc: fmt.Sprintf("box depth in %s %q alone", strings.TrimSuffix(what, "s"), g.label)})
 		}
 		line := fmt.Sprintf("%d %s: χ² = %.1f for %d degrees of freedom, p = %.2g", len(gs), what, chi2, dof, p)

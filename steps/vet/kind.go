@@ -36,12 +36,12 @@ import (
 type Kind struct{}
 
 // version is bumped whenever the numbers, the wording or the encoding change.
-const version = 2
+const version = 3
 
 // Defaults, each with its source.
 const (
 	// defaultOddEvenSigma: odd and even depths differing by 3σ or more disagree (common
-	// practice; REFERENCES §12 gives no published threshold).
+	// practice; we know of no published threshold).
 	defaultOddEvenSigma = 3.0
 	// defaultSecondaryAlarm is the family-wise false-alarm probability of the secondary
 	// search, 0.00135: about the one-sided normal tail beyond 3σ (Φ(−3) = 0.0013499;

@@ -17,7 +17,7 @@ import (
 // sampling the ingress differently each time, spots crossed, residual trends) must not
 // pass for an alternation.
 // When the data disagree (the dips alternate and the period is likely twice the signal's;
-// REFERENCES §12: a few σ suggests a binary at twice the period), it returns the parity of
+// a few σ suggests a binary at twice the period, common practice), it returns the parity of
 // the deeper transits (0 even, 1 odd), else −1.
 func (v *vetter) oddEven(tg *target, w []float64, scale float64) (Test, int64) {
 	const name = "odd_even"
@@ -44,7 +44,7 @@ func (v *vetter) oddEven(tg *target, w []float64, scale float64) (Test, int64) {
 	z := math.Abs(diff) / sd
 	p := tg.name + "." + name + "."
 	t := Test{Name: name,
-		Threshold: fmt.Sprintf("%.3g σ; common practice (REFERENCES §12 gives no published value)", v.o.OddEvenSigma),
+		Threshold: fmt.Sprintf("%.3g σ; common practice (no published value)", v.o.OddEvenSigma),
 		Figures: []steps.Figure{
 			{Name: p + "sigma", Value: z, Doc: "|odd − even| box depth over its error, the errors scaled by the noise scale and the transit scatter"},
 			{Name: p + "transit_scatter", Value: jitter,

@@ -15,7 +15,7 @@ import (
 //	T_day = Teff √(R*/a) (2/3)^¼,
 //
 // the ε = 0, A_B = 0 case of T_d = T0 (1 − A_B)^¼ (2/3 − 5ε/12)^¼, T0 = Teff √(R*/a), of
-// Cowan & Agol (2011, ApJ 729, 54; from memory, REFERENCES §7). It is astro's equilibrium
+// Cowan & Agol (2011, ApJ 729, 54; from memory). It is astro's equilibrium
 // temperature with the "none" redistribution factor f = 2/3, so the formula lives in one
 // place. teff in K, aR = a/R*.
 func DayTemperature(teff, aR float64) (float64, error) {
@@ -84,7 +84,7 @@ func SidakThreshold(alpha float64, n int) float64 {
 //
 // Measured against the combined light of target and source instead of the target alone,
 // F_b/F_tot = 10^{−0.4 Δm_tot} ≥ δ/ρ² gives Δm_tot ≤ 2.5 log10(ρ²/δ), the form of Vanderburg
-// et al. (2019, ApJL 881, L19; REFERENCES §16 gives it from memory): the two agree for a
+// et al. (2019, ApJL 881, L19; from memory): the two agree for a
 // faint source. Limb darkening lets a central eclipse be deeper than k² (by 1/(1 − u1/3 −
 // u2/6), about 1.2 for a Sun-like star), which would loosen the bound by up to 2.5 log10
 // of that factor; like the published bound, this one is geometric.
@@ -110,7 +110,7 @@ func ChordIngressRatio(k, b, aR, e, omega float64) float64 {
 }
 
 // MinEccentricity returns the smallest eccentricity that explains a circular-orbit density
-// ratio r = ρ_circ/ρ_true: by Dawson & Johnson (2012, ApJ 756, 122; REFERENCES §16) ρ_circ =
+// ratio r = ρ_circ/ρ_true: by Dawson & Johnson (2012, ApJ 756, 122; from memory) ρ_circ =
 // ρ_true g³ with g = (1 + e sin ω)/√(1 − e²), which ranges over [√((1−e)/(1+e)),
 // √((1+e)/(1−e))]; so the least e has g² = (1+e)/(1−e) (or its inverse), e = |g² − 1|/(g² + 1).
 func MinEccentricity(r float64) float64 {

@@ -44,8 +44,8 @@ func TestDayTemperatureAndPlanckRatioAgainstWorkedValues(t *testing.T) {
 		}
 	})
 	t.Run("Earth's day side would be 394 K", func(t *testing.T) {
-		// 278.3 K (the zero-albedo equilibrium temperature of Earth with f = 1/4, REFERENCES
-		// §7) times (8/3)^¼ = (2/3 / (1/4))^¼ gives 394.4 K.
+		// 278.3 K (the zero-albedo equilibrium temperature of Earth with f = 1/4, from
+		// Teff☉ = 5772 K and IAU nominal R☉/au) times (8/3)^¼ = (2/3 / (1/4))^¼ gives 394.4 K.
 		aR := astro.AU / astro.SolarRadius
 		tDay, _ := DayTemperature(astro.SolarTeff, aR)
 		if math.Abs(tDay-278.3*math.Pow(8.0/3, 0.25)) > 0.2 {

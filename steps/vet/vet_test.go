@@ -11,7 +11,7 @@ import (
 	"dipline/steps/internal/synth"
 )
 
-// The binary at half its period (issue 9's scenario; REFERENCES §12: an eclipsing binary
+// The binary at half its period (issue 9's scenario; common practice: an eclipsing binary
 // found at half its period shows odd and even depths that differ, and a secondary eclipse
 // comparable to the primary at twice the period).
 func TestABinaryAtHalfItsPeriodDisagrees(t *testing.T) {
@@ -153,7 +153,7 @@ func TestMissingInputsAreReportedAsNotRun(t *testing.T) {
 	})
 }
 
-// Harmonics and aliases between signals (REFERENCES §12; the issue: a signal at P/2 or 2P
+// Harmonics and aliases between signals (the issue: a signal at P/2 or 2P
 // of another is recognised).
 func TestPeriodRatiosRecogniseHarmonics(t *testing.T) {
 	lc := makeCurve(planetNoise, 4, planet)

@@ -18,8 +18,8 @@ import "math"
 // A location estimate (the biweight, the median) in a window is biased wherever the trend
 // is curved, by about ½ f''·h²/12 for a window of width h, and beside a masked stretch,
 // where the window becomes one-sided and a slope leaves a shelf; a local line removes the
-// slope bias and a local quadratic the curvature term as well (REFERENCES §16, from memory;
-// measured in local_test.go). Masked points and flares get zero weight, and the fit is still
+// slope bias and a local quadratic the curvature term as well (from memory; measured in
+// local_test.go and spotted_test.go). Masked points and flares get zero weight, and the fit is still
 // evaluated at their times, so the trend runs straight through a masked transit.
 
 // localStat holds the weighted moments of one window: Σw u^k for k = 0…4 and Σw u^k y for

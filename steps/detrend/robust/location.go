@@ -1,7 +1,9 @@
 // Package robust holds the numerical core of the detrend step: robust estimates of a light
-// curve's slow trend in plain Go over plain slices. It offers three estimators — a sliding
-// Tukey biweight location in a time window, a sliding median in a time window, and a cubic
-// B-spline least-squares fit with iterative clipping — and a driver, Detrend, that splits
+// curve's slow trend in plain Go over plain slices. It offers four estimators — a robust
+// locally weighted polynomial in a time window (Cleveland 1979; LocalFilter, with
+// ChooseSpan to pick its window from the data), a sliding Tukey biweight location in a time
+// window, a sliding median in a time window, and a cubic B-spline least-squares fit with
+// iterative clipping — and a driver, Detrend, that splits
 // each series at long gaps, excludes masked (in-transit) points from the estimate, removes
 // flares upward only, and reports a mark for every point. It knows nothing of workflow
 // files, caches or terminals; the step kind in the parent folder adapts it.

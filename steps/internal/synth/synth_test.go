@@ -5,8 +5,9 @@ import (
 	"testing"
 )
 
-// T14 of the Earth transiting the Sun, central, circular: 13.095 h (REFERENCES §4, computed
-// there from IAU 2015 nominal values: k = 0.0091679, a/R* = 215.032).
+// T14 of the Earth transiting the Sun, central, circular: 13.095 h (Winn 2010,
+// arXiv:1001.2010, with IAU 2015 B3 nominal values: k = 0.0091679, a/R* = 215.032; worked
+// independently at high precision).
 func TestTransitDurationOfTheEarth(t *testing.T) {
 	p := Transit{Period: 365.25, K: 0.0091679, B: 0, AR: 215.032}
 	if got := p.T14() * 24; math.Abs(got-13.095) > 0.002 {

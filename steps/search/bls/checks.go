@@ -272,25 +272,34 @@ func transitScatter(each fitted, first int64) float64 {
 	return math.Sqrt(chi2 / float64(nu))
 }
 
+// The box groups of the three rival models (boxmodel.Fit's group functions): one depth at
+// P, one at P/2 (the transits and half-way between them), and at 2P the even (0) and odd
+// (1) transits.
+func (b *boxes) atPeriod(i int) int {
+	if b.inP[i] {
+		return 0
+	}
+	return -1
+}
+
+func (b *boxes) atHalf(i int) int {
+	if b.inP[i] || b.inHalf[i] {
+		return 0
+	}
+	return -1
+}
+
+func (b *boxes) byParity(i int) int {
+	if b.inP[i] {
+		return int(b.cycle[i] & 1) // 0: even, 1: odd (two's complement keeps the parity of negatives)
+	}
+	return -1
+}
+
 func (b *boxes) rivals(each fitted, first int64) Rivals {
-	one := b.fit(1, func(i int) int {
-		if b.inP[i] {
-			return 0
-		}
-		return -1
-	})
-	half := b.fit(1, func(i int) int {
-		if b.inP[i] || b.inHalf[i] {
-			return 0
-		}
-		return -1
-	})
-	double := b.fit(2, func(i int) int {
-		if b.inP[i] {
-			return int(b.cycle[i] & 1) // 0: even, 1: odd (two's complement keeps the parity of negatives)
-		}
-		return -1
-	})
+	one := b.fit(1, b.atPeriod)
+	half := b.fit(1, b.atHalf)
+	double := b.fit(2, b.byParity)
 	r := Rivals{PointScatter: b.pointScatter(), TransitScatter: transitScatter(each, first)}
 	s := r.ErrorScale()
 	r.Half = b.compare(half, 0, one, s)

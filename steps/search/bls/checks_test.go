@@ -166,24 +166,9 @@ func TestRatioErrorEqualsFiniteDifferenceCovariance(t *testing.T) {
 	}
 	p := prepare(s, nil, 0.02)
 	b := newBoxes(p, boxmodel.Ephemeris{Period: 0.7, Epoch: 0.31, Duration: 0.09})
-	one := b.fit(1, func(i int) int {
-		if b.inP[i] {
-			return 0
-		}
-		return -1
-	})
-	half := b.fit(1, func(i int) int {
-		if b.inP[i] || b.inHalf[i] {
-			return 0
-		}
-		return -1
-	})
-	odd := b.fit(2, func(i int) int {
-		if b.inP[i] {
-			return int(b.cycle[i] & 1)
-		}
-		return -1
-	})
+	one := b.fit(1, b.atPeriod)
+	half := b.fit(1, b.atHalf)
+	odd := b.fit(2, b.byParity)
 	grad := func(m fitted, g int) []float64 {
 		out := make([]float64, len(p.flux))
 		for i := range p.flux {
@@ -262,18 +247,8 @@ func TestPointScatterFollowsTheScatter(t *testing.T) {
 		t.Errorf("error scale %g from scatters %g and %g", s, r.PointScatter, r.TransitScatter)
 	}
 	b := newBoxes(p0, boxmodel.Ephemeris{Period: 1, Epoch: 0.5, Duration: 0.105})
-	one := boxmodel.Fit(p0.flux, p0.invVar, 1, func(i int) int {
-		if b.inP[i] {
-			return 0
-		}
-		return -1
-	})
-	two := boxmodel.Fit(p0.flux, p0.invVar, 2, func(i int) int {
-		if b.inP[i] {
-			return int(b.cycle[i] & 1)
-		}
-		return -1
-	})
+	one := boxmodel.Fit(p0.flux, p0.invVar, 1, b.atPeriod)
+	two := boxmodel.Fit(p0.flux, p0.invVar, 2, b.byParity)
 	near(t, "ΔBIC(2P)", r.DoubleDeltaBIC, (two.Chi2-one.Chi2)/(s*s)+math.Log(1000), 1e-9)
 	near(t, "σ of the odd depth", r.Odd.DepthSigma, s*two.Sigma[1], 1e-15)
 }
