@@ -186,8 +186,8 @@ func (a *Artifact) Figures() []steps.Figure {
 
 // The levels above which the fit's diagnostics give a caution.
 const (
-	// betaCaution is the β factor of the residuals above which the fit's note warns that
-	// the posterior widths may be too narrow (the 1.2 of Run's note in fit.go).
+	// betaCaution is the β factor of the residuals above which the fit cautions that the
+	// posterior widths may be too narrow (common practice).
 	betaCaution = 1.2
 	// rhatCaution is the rank-normalised split R-hat above which the ensembles are taken to
 	// disagree: Vehtari et al. (2021, Bayesian Analysis 16, 667) recommend R-hat < 1.01.

@@ -150,9 +150,8 @@ func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, 
 			art.Inflated = true
 			best, bestLP = optimum(m, best, scale)
 			notes = append(notes, fmt.Sprintf("errors multiplied by β = %.3g, the residuals' time-averaging factor (Pont, Zucker & Queloz 2006), before sampling", beta))
-		case beta > 1.2:
-			notes = append(notes, fmt.Sprintf("caution: the best fit's residuals binned over 10 min to a transit duration scatter %.2g× more than white noise would (β, Pont, Zucker & Queloz 2006); the posterior widths may be too narrow. inflate_by_beta = true multiplies the errors by β", beta))
 		}
+		// Above betaCaution without inflation, the artifact's Cautions say so.
 	}
 
 	// Ensembles started in a small ball around the best fit.
@@ -326,9 +325,6 @@ func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, 
 		default:
 			notes = append(notes, fmt.Sprintf("transit times of planet %s: %d of %d transits timed with the shape fixed at the best fit; linear ephemeris χ² = %.1f for %d degrees of freedom (p = %.2g)",
 				planetNames[j], timed, len(pt.Times), pt.Ephemeris.Chi2, pt.Ephemeris.Dof, pt.Ephemeris.PValue))
-			if pt.Ephemeris.Caution != "" {
-				notes = append(notes, fmt.Sprintf("caution, planet %s: %s", planetNames[j], pt.Ephemeris.Caution))
-			}
 		}
 	}
 	return art, notes, nil
