@@ -113,7 +113,7 @@ func (Kind) Params() []steps.Param {
 		{Name: "degree", Type: steps.Integer, Default: int64(defaultDegree),
 			Doc: "degree of the local polynomial (local-polynomial): 0, 1 or 2; a quadratic follows a curved trend without bias, a location (0) or a line (1) leaves ½ f''·h²/12 beside every turn"},
 		{Name: "span", Type: steps.Quantity, Dim: units.Time, Optional: true,
-			Doc: "full width in time of the sliding window. For local-polynomial, by default chosen from the light curve among 0.25–4 d: without a mask the window that keeps the most of an unmasked 2-hour transit for the bias the star's variability leaves, with a mask the window of least trend error; for biweight and running-median 0.5 d, which keeps transits up to about a third of it"},
+			Doc: "full width in time of the sliding window. For local-polynomial, by default chosen from the light curve among 0.25–4 d: without a mask the window that keeps the most of an unmasked 2-hour transit's signal for the bias the star's variability leaves, with a mask the widest window whose bias stays under a tenth of the noise (the run says what it weighed); for biweight and running-median 0.5 d, which keeps transits up to about a third of it"},
 		{Name: "knot_spacing", Type: steps.Quantity, Dim: units.Time, Default: defaultKnots,
 			Doc: "spacing in time of the spline's knots (robust-spline); knots are dropped where there are too few points"},
 		{Name: "biweight_c", Type: steps.Number, Default: defaultC,
