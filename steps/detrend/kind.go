@@ -37,7 +37,7 @@ var (
 )
 
 // version is bumped whenever the numbers or the encoding change.
-const version = 3
+const version = 4
 
 // The estimator names written in a workflow.
 const (

@@ -11,7 +11,7 @@ import (
 // The artifact's encoding: its own tag and format version, bumped with any layout change.
 const (
 	artifactTag     = "photometry"
-	artifactVersion = 1
+	artifactVersion = 2
 )
 
 // SegmentStats are the per-segment facts the light curve itself does not keep.
@@ -39,9 +39,7 @@ func (r *Result) Encode() []byte {
 	w.Uint64(uint64(len(r.Stats)))
 	for _, s := range r.Stats {
 		w.Float(s.Cadence)
-		w.Int(int64(s.Dropped.NonFinite))
-		w.Int(int64(s.Dropped.Flagged))
-		w.Int(int64(s.Dropped.BadError))
+		lightcurve.WriteDropped(w, s.Dropped)
 	}
 	return w.Bytes()
 }
@@ -61,9 +59,7 @@ func DecodeResult(b []byte) (*Result, error) {
 	for i := uint64(0); i < n; i++ {
 		var s SegmentStats
 		s.Cadence = rd.Float()
-		s.Dropped.NonFinite = int(rd.Int())
-		s.Dropped.Flagged = int(rd.Int())
-		s.Dropped.BadError = int(rd.Int())
+		s.Dropped = lightcurve.ReadDropped(rd)
 		res.Stats = append(res.Stats, s)
 	}
 	if err := rd.Err(); err != nil {
@@ -89,6 +85,7 @@ func (r *Result) Figures() []steps.Figure {
 			steps.Figure{Name: p + "dropped_flagged", Value: float64(st.Dropped.Flagged), Doc: "rows dropped by their quality flag"},
 			steps.Figure{Name: p + "dropped_not_finite", Value: float64(st.Dropped.NonFinite), Doc: "rows dropped for a missing or non-finite time, flux or error"},
 			steps.Figure{Name: p + "dropped_bad_error", Value: float64(st.Dropped.BadError), Doc: "rows dropped for a zero or negative error"},
+			steps.Figure{Name: p + "dropped_duplicate_time", Value: float64(st.Dropped.Duplicate), Doc: "rows dropped because an earlier row of the file has the same time (the first is kept)"},
 		)
 	}
 	out = append(out, steps.Figure{Name: "baseline", Value: r.LC.Baseline(), Unit: "d", Doc: "last time minus first time"})

@@ -120,12 +120,40 @@ func flagBits(v float64) (uint64, bool) {
 	return uint64(int64(v)), true
 }
 
+// dropDuplicateTimes keeps, among rows of equal time (keep is in time order, ties in file
+// order), only the first in the file, counts the others in d.Duplicate and says so with the
+// first example. Two measurements at one instant cannot both be right, and keeping both
+// would weigh that instant twice; the first is kept rather than the mean so that no flux is
+// invented, and the note says whether the dropped fluxes differed.
+func dropDuplicateTimes(r *rawSegment, keep []int, d *lightcurve.Dropped, note noteFunc) []int {
+	out := keep[:0]
+	first, differ := -1, 0
+	for k, i := range keep {
+		if k > 0 && r.time[i] == r.time[out[len(out)-1]] {
+			d.Duplicate++
+			if first < 0 {
+				first = i
+			}
+			if r.flux[i] != r.flux[out[len(out)-1]] {
+				differ++
+			}
+			continue
+		}
+		out = append(out, i)
+	}
+	if d.Duplicate > 0 {
+		note("%s: the time %s is also on an earlier row; %d row(s) repeating an earlier time dropped, the first of each kept (%d of them with a different flux)",
+			r.where(first), strconv.FormatFloat(r.time[first], 'g', -1, 64), d.Duplicate, differ)
+	}
+	return out
+}
+
 // build drops the unusable rows of one file, sorts, normalises by the median flux,
 // estimates errors if the file has none, and settles the cadence and exposure.
 //
 // A row is dropped for the first reason that applies, in this order: its flag AND the mask
 // is nonzero; its time, flux or error is not finite (NaN, ±Inf, or a FITS TNULL value); its
-// error is zero or negative.
+// error is zero or negative; its time repeats an earlier usable row's.
 func build(cfg *Config, r *rawSegment, id string, note noteFunc) (built, error) {
 	n := len(r.time)
 	keep := make([]int, 0, n)
@@ -176,6 +204,10 @@ func build(cfg *Config, r *rawSegment, id string, note noteFunc) (built, error) 
 	if !sorted {
 		sort.SliceStable(keep, func(a, b int) bool { return r.time[keep[a]] < r.time[keep[b]] })
 		note("%s: rows are not in time order; sorted by time", r.file)
+	}
+	keep = dropDuplicateTimes(r, keep, &d, note)
+	if len(keep) < 2 {
+		return built{}, steps.BadInputf("%s: every usable row has the same time; a segment needs at least 2 distinct times", r.file)
 	}
 
 	m := len(keep)
@@ -298,9 +330,7 @@ func combine(cfg *Config, bs []built, note noteFunc) *lightcurve.LightCurve {
 			note("%s: times moved by %s d onto the reference JD %d + %g of %s", b.file, strconv.FormatFloat(off, 'g', -1, 64), lc.RefInt, lc.RefFrac, bs[0].file)
 		}
 		lc.Segments = append(lc.Segments, b.seg)
-		lc.Dropped.NonFinite += b.stats.Dropped.NonFinite
-		lc.Dropped.Flagged += b.stats.Dropped.Flagged
-		lc.Dropped.BadError += b.stats.Dropped.BadError
+		lc.Dropped = lc.Dropped.Add(b.stats.Dropped)
 	}
 	return lc
 }

@@ -234,3 +234,44 @@ func TestLongHeadersAreCutInMessages(t *testing.T) {
 		t.Fatalf("error (%d bytes) %v", len(fmt.Sprint(err)), err)
 	}
 }
+
+// Rows repeating an earlier row's time: the first in the file is kept, the rest dropped,
+// counted and named in a note (line of the first repeat, and how many carried another
+// flux); a file whose usable rows all share one time is refused. Invented rows.
+func TestDuplicateTimesAreDroppedAndCounted(t *testing.T) {
+	csv := "time,flux,flux_err\n" +
+		"2460000.10,1.000,0.001\n" +
+		"2460000.20,1.001,0.001\n" +
+		"2460000.20,1.001,0.001\n" + // an exact repeat
+		"2460000.30,0.999,0.001\n" +
+		"2460000.20,1.050,0.001\n" + // the same time again, out of order, another flux
+		"2460000.40,1.002,0.001\n"
+	res, notes, err := runKind(t, nil, []steps.File{{Name: "dup.csv", Data: []byte(csv)}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	seg := res.LC.Segments[0]
+	if len(seg.Time) != 4 || res.Stats[0].Dropped.Duplicate != 2 || res.LC.Dropped.Duplicate != 2 {
+		t.Fatalf("%d points, %d and %d duplicates dropped; want 4 and 2", len(seg.Time), res.Stats[0].Dropped.Duplicate, res.LC.Dropped.Duplicate)
+	}
+	// The kept flux at 0.20 is the first row's, 1.001 (relative to the median of the four).
+	med := (1.000 + 1.001) / 2 // the median of 0.999, 1.000, 1.001, 1.002
+	if got := seg.Flux[1] * med; math.Abs(got-1.001) > 1e-12 {
+		t.Errorf("kept flux %.6f, want the first row's 1.001", got)
+	}
+	joined := strings.Join(notes, "\n")
+	if !strings.Contains(joined, "dup.csv:4") || !strings.Contains(joined, "2 row(s) repeating an earlier time dropped") || !strings.Contains(joined, "1 of them with a different flux") {
+		t.Errorf("notes do not name the repeats: %q", notes)
+	}
+	figs := map[string]float64{}
+	for _, f := range res.Figures() {
+		figs[f.Name] = f.Value
+	}
+	if figs["segment1.dropped_duplicate_time"] != 2 {
+		t.Errorf("figures %v", figs)
+	}
+	_, _, err = runKind(t, nil, []steps.File{{Name: "one.csv", Data: []byte("time,flux\n2460000.5,1\n2460000.5,1.1\n2460000.5,0.9\n")}})
+	if err == nil || !strings.Contains(err.Error(), "one.csv: every usable row has the same time") || !steps.IsInputError(err) {
+		t.Errorf("one time only: %v", err)
+	}
+}

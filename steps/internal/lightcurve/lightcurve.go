@@ -44,10 +44,32 @@ type Dropped struct {
 	NonFinite int // NaN or infinite time, flux or error, or a TNULL value
 	Flagged   int // a quality flag under the mask was set
 	BadError  int // a zero or negative error
+	Duplicate int // a time already taken by an earlier row of the same file
 }
 
 // Total is the number of rows dropped.
-func (d Dropped) Total() int { return d.NonFinite + d.Flagged + d.BadError }
+func (d Dropped) Total() int { return d.NonFinite + d.Flagged + d.BadError + d.Duplicate }
+
+// Add returns the sums of d's and o's counts.
+func (d Dropped) Add(o Dropped) Dropped {
+	return Dropped{NonFinite: d.NonFinite + o.NonFinite, Flagged: d.Flagged + o.Flagged,
+		BadError: d.BadError + o.BadError, Duplicate: d.Duplicate + o.Duplicate}
+}
+
+// write and readDropped keep the counts' encoding in one place.
+func (d Dropped) write(w *codec.Writer) {
+	for _, v := range []int{d.NonFinite, d.Flagged, d.BadError, d.Duplicate} {
+		w.Int(int64(v))
+	}
+}
+
+// WriteDropped appends the counts to w, for artifacts that keep them apart from a light curve.
+func WriteDropped(w *codec.Writer, d Dropped) { d.write(w) }
+
+// ReadDropped reads counts written by WriteDropped.
+func ReadDropped(r *codec.Reader) Dropped {
+	return Dropped{NonFinite: int(r.Int()), Flagged: int(r.Int()), BadError: int(r.Int()), Duplicate: int(r.Int())}
+}
 
 // LightCurve is a set of segments on one time scale and reference epoch.
 type LightCurve struct {
@@ -135,7 +157,7 @@ func (lc *LightCurve) Validate() error {
 
 const (
 	tag     = "lightcurve"
-	version = 1
+	version = 2
 )
 
 // Write appends the light curve to w (for artifacts that embed one).
@@ -143,9 +165,7 @@ func (lc *LightCurve) Write(w *codec.Writer) {
 	w.String(lc.TimeScale)
 	w.Int(lc.RefInt)
 	w.Float(lc.RefFrac)
-	w.Int(int64(lc.Dropped.NonFinite))
-	w.Int(int64(lc.Dropped.Flagged))
-	w.Int(int64(lc.Dropped.BadError))
+	lc.Dropped.write(w)
 	w.Uint64(uint64(len(lc.Segments)))
 	for _, s := range lc.Segments {
 		w.String(s.ID)
@@ -166,9 +186,7 @@ func Read(r *codec.Reader) *LightCurve {
 	lc.TimeScale = r.String()
 	lc.RefInt = r.Int()
 	lc.RefFrac = r.Float()
-	lc.Dropped.NonFinite = int(r.Int())
-	lc.Dropped.Flagged = int(r.Int())
-	lc.Dropped.BadError = int(r.Int())
+	lc.Dropped = ReadDropped(r)
 	n := r.Uint64()
 	if n > 1<<20 {
 		n = 0
