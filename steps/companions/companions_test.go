@@ -231,7 +231,7 @@ func TestGolden(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	golden.Check(t, "../..", Kind{}.Name(), Kind{}.Version(), l.Encode())
+	golden.Check(t, "../..", Kind{}.Name(), Kind{}.Version(), l)
 }
 
 // FuzzParse feeds arbitrary tables to Parse: it must never panic, and whatever it accepts

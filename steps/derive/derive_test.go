@@ -745,7 +745,7 @@ func TestGolden(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	golden.Check(t, "../..", Kind{}.Name(), Kind{}.Version(), art.Encode())
+	golden.Check(t, "../..", Kind{}.Name(), Kind{}.Version(), art)
 }
 
 // TestDeterministicForAnyWorkerCount: the same inputs give the same bytes with 1 to 4

@@ -333,7 +333,7 @@ func TestGolden(t *testing.T) {
 	// Guards the version: these bytes may change only with a version bump.
 	lc, sig := fixture(2, 150)
 	res, _ := run(t, nil, lc, []signals.Signal{sig}, 1)
-	golden.Check(t, "../..", Kind{}.Name(), Kind{}.Version(), res.Encode())
+	golden.Check(t, "../..", Kind{}.Name(), Kind{}.Version(), res)
 }
 
 // BenchmarkRun measures the step on 70,000 points at 29.4-min cadence (about 1,430 d in 7

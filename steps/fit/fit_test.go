@@ -231,7 +231,7 @@ func TestDeterministicAcrossWorkers(t *testing.T) {
 			}
 		}
 	})
-	golden.Check(t, "../..", "fit", version, a1.Encode())
+	golden.Check(t, "../..", "fit", version, a1)
 }
 
 func TestPrepareNamesTheAttribute(t *testing.T) {

@@ -387,7 +387,7 @@ func TestGoldenOnTheFixtures(t *testing.T) {
 	if !bytes.Equal(res.Encode(), again.Encode()) {
 		t.Fatal("two runs on the same files gave different bytes")
 	}
-	golden.Check(t, "../..", Kind{}.Name(), Kind{}.Version(), res.Encode())
+	golden.Check(t, "../..", Kind{}.Name(), Kind{}.Version(), res)
 }
 
 func TestRegistryAcceptsTheSchema(t *testing.T) {

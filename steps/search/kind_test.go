@@ -199,7 +199,7 @@ func TestRunRefusesABrokenLightCurve(t *testing.T) {
 
 func TestGoldenRecord(t *testing.T) {
 	art, _ := run(t, defaults(), fixture(), nil)
-	golden.Check(t, "../..", Kind{}.Name(), Kind{}.Version(), art.Encode())
+	golden.Check(t, "../..", Kind{}.Name(), Kind{}.Version(), art)
 }
 
 func FuzzDecode(f *testing.F) {

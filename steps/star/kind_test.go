@@ -589,7 +589,7 @@ func TestArtifact(t *testing.T) {
 		}
 	})
 	t.Run("its bytes match the golden record", func(t *testing.T) {
-		golden.Check(t, "../..", Kind{}.Name(), Kind{}.Version(), b)
+		golden.Check(t, "../..", Kind{}.Name(), Kind{}.Version(), a)
 	})
 }
 
