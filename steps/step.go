@@ -48,6 +48,14 @@ type Artifact interface {
 	Figures() []Figure
 }
 
+// Inspector is implemented by kinds that read files and can look at them without running:
+// `dipline check` calls Inspect with the same configuration, files and catalogue rows Run
+// would get (no references, no seed), so that what a run would refuse in the data is
+// caught before anything runs. Errors are the user's (file and row, as Run gives them).
+type Inspector interface {
+	Inspect(cfg any, in Inputs) error
+}
+
 // Cautioner is implemented by artifacts whose numbers need a word of caution: a period
 // that may be an alias, a signal carried by one event, a star that disagrees with the
 // transit. Each caution is one plain sentence, derived from the artifact's own science (so

@@ -93,6 +93,14 @@ func (Kind) Prepare(v steps.Values) (any, error) {
 	return c, nil
 }
 
+// Inspect reads the files as Run does and returns what Run would refuse, so that
+// `dipline check` catches a bad row before anything runs. Reading is all this kind does,
+// so the inspection is the run itself, its result discarded.
+func (k Kind) Inspect(cfg any, in steps.Inputs) error {
+	_, err := k.Run(context.Background(), cfg, in, steps.Env{})
+	return err
+}
+
 // Run implements steps.Kind: it parses the one file.
 func (Kind) Run(ctx context.Context, cfgAny any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
 	cfg, ok := cfgAny.(Config)

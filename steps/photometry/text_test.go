@@ -275,3 +275,23 @@ func TestDuplicateTimesAreDroppedAndCounted(t *testing.T) {
 		t.Errorf("one time only: %v", err)
 	}
 }
+
+// Inspect (what `dipline check` calls) refuses what Run refuses, with the same words: a
+// flux cell that is not a number names the file, line and column.
+func TestInspectRefusesWhatRunRefuses(t *testing.T) {
+	csv := "time,flux,flux_err\n2460000.1,1.0,0.001\n2460000.2,oops,0.001\n2460000.3,1.0,0.001\n"
+	files := []steps.File{{Name: "bad.csv", Data: []byte(csv)}}
+	cfg, err := Kind{}.Prepare(values(nil))
+	if err != nil {
+		t.Fatal(err)
+	}
+	ierr := Kind{}.Inspect(cfg, steps.Inputs{Files: map[string][]steps.File{"files": files}})
+	_, _, rerr := runKind(t, nil, files)
+	if ierr == nil || rerr == nil || ierr.Error() != rerr.Error() || !steps.IsInputError(ierr) || !strings.Contains(ierr.Error(), "bad.csv:3: column flux") {
+		t.Errorf("inspect %v, run %v", ierr, rerr)
+	}
+	good := []steps.File{{Name: "good.csv", Data: []byte("time,flux\n2460000.1,1\n2460000.2,1.1\n2460000.3,0.9\n")}}
+	if err := (Kind{}).Inspect(cfg, steps.Inputs{Files: map[string][]steps.File{"files": good}}); err != nil {
+		t.Errorf("a good file: %v", err)
+	}
+}
