@@ -1,8 +1,11 @@
 package cache
 
 import (
+	"bytes"
 	"encoding/json"
+	"errors"
 	"fmt"
+	"io"
 	"os"
 	"path/filepath"
 	"strings"
@@ -54,19 +57,45 @@ func (e *BusyError) Error() string {
 // Unwrap lets errors.Is(err, ErrBusy) recognise a BusyError.
 func (e *BusyError) Unwrap() error { return ErrBusy }
 
+// ErrNotALock: a file where the run lock belongs holds something else. LockRun leaves it
+// exactly as it is.
+var ErrNotALock = errors.New("not a dipline run lock")
+
+// maxLockBytes bounds a lock file that can be ours: a holder record is under 200 bytes.
+const maxLockBytes = 4096
+
+// IsRunLock tells whether data, the content of a lock file, can be dipline's: empty (no run
+// holds it, or one has just created it) or a holder record.
+func IsRunLock(data []byte) bool {
+	t := bytes.TrimSpace(data)
+	if len(t) == 0 {
+		return true
+	}
+	var h holder
+	return len(data) <= maxLockBytes && json.Unmarshal(t, &h) == nil && h.PID > 0
+}
+
 // LockRun takes the run lock of the store at storePath. If another process (or another
 // goroutine: each LockRun opens the file anew) holds it, LockRun calls onWait once with a
 // description of the holder, then tries again every 100 ms until wait has passed and
 // returns a *BusyError. A wait of 0 tries once; a negative wait waits for ever. onWait may
 // be nil.
+//
+// The lock file is opened without truncating it and without following a symbolic link; a
+// file there that is not a run lock (IsRunLock) is left intact and LockRun fails with
+// ErrNotALock, so that a store named beside someone's file cannot damage it.
 func LockRun(storePath string, wait time.Duration, onWait func(holder string)) (*RunLock, error) {
 	path := storePath + ".lock"
 	if err := os.MkdirAll(filepath.Dir(path), 0o755); err != nil {
 		return nil, fmt.Errorf("cannot make the store's folder: %w", err)
 	}
-	f, err := os.OpenFile(path, os.O_RDWR|os.O_CREATE, 0o644)
+	f, err := os.OpenFile(path, os.O_RDWR|os.O_CREATE|openNoFollow, 0o644)
 	if err != nil {
 		return nil, fmt.Errorf("run lock: %w", err)
+	}
+	if err := checkOurs(f, path, false); err != nil {
+		f.Close()
+		return nil, err
 	}
 	start := time.Now()
 	waited := false
@@ -77,6 +106,12 @@ func LockRun(storePath string, wait time.Duration, onWait func(holder string)) (
 			return nil, fmt.Errorf("run lock %s: %w", path, err)
 		}
 		if ok {
+			// The content is read under the lock only: a holder writes its record under it.
+			if err := checkOurs(f, path, true); err != nil {
+				unlock(f)
+				f.Close()
+				return nil, err
+			}
 			break
 		}
 		who := readHolder(f)
@@ -102,6 +137,36 @@ func LockRun(storePath string, wait time.Duration, onWait func(holder string)) (
 		f.WriteAt(append(rec, '\n'), 0)
 	}
 	return &RunLock{f: f, path: path}, nil
+}
+
+// checkOurs fails with ErrNotALock when the lock file is not a regular file or is too large
+// to be a run lock and, when content is set, when it holds something other than a run lock.
+// It reads at most maxLockBytes and writes nothing.
+func checkOurs(f *os.File, path string, content bool) error {
+	st, err := f.Stat()
+	if err != nil {
+		return fmt.Errorf("run lock %s: %w", path, err)
+	}
+	if !st.Mode().IsRegular() {
+		return fmt.Errorf("%s is %w (it is not a regular file); dipline leaves it as it is: move it aside or name another store", path, ErrNotALock)
+	}
+	if st.Size() > maxLockBytes {
+		return fmt.Errorf("%s is %w (it holds %d bytes of other data); dipline leaves it as it is: move it aside or name another store",
+			path, ErrNotALock, st.Size())
+	}
+	if !content {
+		return nil
+	}
+	buf := make([]byte, maxLockBytes+1)
+	n, err := f.ReadAt(buf, 0)
+	if err != nil && !errors.Is(err, io.EOF) {
+		return fmt.Errorf("run lock %s: %w", path, err)
+	}
+	if !IsRunLock(buf[:n]) {
+		return fmt.Errorf("%s is %w (it holds %d bytes of other data); dipline leaves it as it is: move it aside or name another store",
+			path, ErrNotALock, st.Size())
+	}
+	return nil
 }
 
 // readHolder describes the lock's holder from the lock file; the holder may be writing it

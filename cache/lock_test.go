@@ -8,6 +8,7 @@ import (
 	"io"
 	"os"
 	"os/exec"
+	"path/filepath"
 	"strings"
 	"sync/atomic"
 	"testing"
@@ -190,7 +191,7 @@ func TestAnotherProcessHoldingTheLock(t *testing.T) {
 		}
 	})
 	t.Run("a prune refuses to start", func(t *testing.T) {
-		if _, err := s.Prune(PrunePolicy{KeepLast: 1}); !errors.Is(err, ErrBusy) {
+		if _, err := s.Prune(PrunePolicy{Spare: 1}); !errors.Is(err, ErrBusy) {
 			t.Errorf("Prune: %v, want ErrBusy", err)
 		}
 	})
@@ -233,5 +234,93 @@ func TestReadsAreNotStarvedByARunCommittingWithoutPause(t *testing.T) {
 		if _, err := s.Stats(); err != nil {
 			t.Fatalf("read %d during continuous commits: %v", i, err)
 		}
+	}
+}
+
+func TestALockFileThatIsNotOursIsLeftIntact(t *testing.T) {
+	cases := []struct {
+		name string
+		body string
+	}{
+		{"a text file", "my notes, not a lock\n"},
+		{"a JSON record without a holder", `{"pid": 0, "note": "someone else's"}`},
+		{"a file larger than any holder record", strings.Repeat("x", maxLockBytes+1)},
+	}
+	for _, c := range cases {
+		t.Run(c.name+" keeps its bytes and the run is refused", func(t *testing.T) {
+			dir := t.TempDir()
+			store := filepath.Join(dir, "store.db")
+			if err := os.WriteFile(store+".lock", []byte(c.body), 0o600); err != nil {
+				t.Fatal(err)
+			}
+			l, err := LockRun(store, 0, nil)
+			if err == nil {
+				l.Release()
+				t.Fatal("LockRun took someone else's file as its lock")
+			}
+			if !errors.Is(err, ErrNotALock) || !strings.Contains(err.Error(), "leaves it as it is") {
+				t.Errorf("err = %v, want ErrNotALock", err)
+			}
+			got, _ := os.ReadFile(store + ".lock")
+			if string(got) != c.body {
+				t.Errorf("the file now holds %d bytes %.40q, was %d bytes", len(got), got, len(c.body))
+			}
+		})
+	}
+	t.Run("a symbolic link in the lock's place is not followed", func(t *testing.T) {
+		dir := t.TempDir()
+		target := filepath.Join(dir, "victim.txt")
+		const body = "precious\n"
+		if err := os.WriteFile(target, []byte(body), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		store := filepath.Join(dir, "store.db")
+		if err := os.Symlink(target, store+".lock"); err != nil {
+			t.Fatal(err)
+		}
+		if l, err := LockRun(store, 0, nil); err == nil {
+			l.Release()
+			t.Fatal("LockRun followed a link")
+		}
+		if got, _ := os.ReadFile(target); string(got) != body {
+			t.Errorf("the link's target now holds %q", got)
+		}
+	})
+}
+
+func TestARecordLeftByAKilledRunIsTakenOver(t *testing.T) {
+	store := filepath.Join(t.TempDir(), "store.db")
+	stale := `{"pid":4242,"host":"elsewhere","since":"2025-01-02T03:04:05Z"}` + "\n"
+	if err := os.WriteFile(store+".lock", []byte(stale), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	l, err := LockRun(store, 0, nil)
+	if err != nil {
+		t.Fatalf("a stale holder record blocked the lock: %v", err)
+	}
+	got, _ := os.ReadFile(store + ".lock")
+	if !strings.Contains(string(got), fmt.Sprintf(`"pid":%d`, os.Getpid())) {
+		t.Errorf("the lock file holds %q, want our own record", got)
+	}
+	l.Release()
+}
+
+func TestIsRunLockKnowsOurRecords(t *testing.T) {
+	cases := []struct {
+		name string
+		data string
+		want bool
+	}{
+		{"an empty file is a free lock", "", true},
+		{"a holder record is ours", `{"pid":12,"since":"2025-01-02T03:04:05Z"}` + "\n", true},
+		{"text is not", "hello", false},
+		{"a record without a pid is not", `{"since":"2025-01-02T03:04:05Z"}`, false},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			if got := IsRunLock([]byte(c.data)); got != c.want {
+				t.Errorf("IsRunLock(%q) = %v", c.data, got)
+			}
+		})
 	}
 }

@@ -9,6 +9,9 @@ import (
 	"time"
 )
 
+// openNoFollow makes opening the lock file fail when it is a symbolic link.
+const openNoFollow = syscall.O_NOFOLLOW
+
 // tryLock takes an exclusive flock on f without blocking; false means someone else holds it.
 // flock locks belong to the open file description, so two opens in one process exclude
 // each other just as two processes do.

@@ -54,18 +54,24 @@ func (s *Store) Merge(otherPath string) (MergeReport, error) {
 	}
 	defer lock.Release()
 
-	other, err := openDB(otherPath, true)
-	if err != nil {
-		return rep, fmt.Errorf("merge: %w", err)
-	}
-	if other == nil {
-		return rep, nil // an empty store
-	}
-	defer other.Close()
-	if err := other.View(func(tx *bolt.Tx) error { return checkFormat(tx, otherPath) }); err != nil {
-		return rep, err
-	}
+	var h handle
+	err = guarded(otherPath, func() { closeSoon(h.db, h.f) }, func() error {
+		if err := openDB(otherPath, true, &h); err != nil || h.db == nil {
+			return err // an error, or an empty store
+		}
+		err := mergeFrom(s, h.db, otherPath, &rep)
+		h.db.Close()
+		return err
+	})
+	return rep, err
+}
 
+// mergeFrom copies the entries of the other store's open database into s, bucket by bucket
+// in batches.
+func mergeFrom(s *Store, other *bolt.DB, otherPath string, rep *MergeReport) error {
+	if err := other.View(func(tx *bolt.Tx) error { return checkFormat(tx, otherPath) }); err != nil {
+		return err
+	}
 	for _, b := range []struct {
 		name  []byte
 		merge func(tx *bolt.Tx, k, v []byte) error
@@ -84,7 +90,7 @@ func (s *Store) Merge(otherPath string) (MergeReport, error) {
 				batch, next = copyBatch(tx, b.name, after)
 				return nil
 			}); err != nil {
-				return rep, err
+				return err
 			}
 			if len(batch) > 0 {
 				err := s.update(func(tx *bolt.Tx) error {
@@ -96,7 +102,7 @@ func (s *Store) Merge(otherPath string) (MergeReport, error) {
 					return nil
 				})
 				if err != nil {
-					return rep, fmt.Errorf("merge %s: %w", otherPath, err)
+					return fmt.Errorf("merge %s: %w", otherPath, err)
 				}
 			}
 			if next == nil {
@@ -105,7 +111,7 @@ func (s *Store) Merge(otherPath string) (MergeReport, error) {
 			after = next
 		}
 	}
-	return rep, nil
+	return nil
 }
 
 func (r *MergeReport) conflict(what string, key []byte, hexKey bool, reason string) {

@@ -53,7 +53,7 @@ func TestPruneByAgeKeepsPinnedRunsAndWhatTheyUse(t *testing.T) {
 		t.Fatal(err)
 	}
 
-	rep, err := s.Prune(PrunePolicy{OlderThan: 5 * 24 * time.Hour, Now: t0.Add(10*24*time.Hour + time.Hour)})
+	rep, err := s.Prune(PrunePolicy{Aged: 5 * 24 * time.Hour, Now: t0.Add(10*24*time.Hour + time.Hour)})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -99,11 +99,11 @@ func TestPruneByCountAndAge(t *testing.T) {
 		policy  PrunePolicy
 		dropped []string
 	}{
-		{"keeping the last one drops all older but the pinned", PrunePolicy{KeepLast: 1}, []string{"r2", "r3"}},
-		{"keeping the last three drops nothing since the fourth is pinned", PrunePolicy{KeepLast: 3}, nil},
+		{"keeping the last one drops all older but the pinned", PrunePolicy{Spare: 1}, []string{"r2", "r3"}},
+		{"keeping the last three drops nothing since the fourth is pinned", PrunePolicy{Spare: 3}, nil},
 		{"with both limits a run must be old and beyond the count",
-			PrunePolicy{KeepLast: 1, OlderThan: 36 * time.Hour, Now: t0.Add(3 * 24 * time.Hour)}, []string{"r2"}},
-		{"an age limit alone drops the old runs", PrunePolicy{OlderThan: 36 * time.Hour, Now: t0.Add(3 * 24 * time.Hour)}, []string{"r2"}},
+			PrunePolicy{Spare: 1, Aged: 36 * time.Hour, Now: t0.Add(3 * 24 * time.Hour)}, []string{"r2"}},
+		{"an age limit alone drops the old runs", PrunePolicy{Aged: 36 * time.Hour, Now: t0.Add(3 * 24 * time.Hour)}, []string{"r2"}},
 		{"no limit drops no run", PrunePolicy{}, nil},
 	}
 	for _, tc := range tests {
@@ -154,7 +154,7 @@ func TestPruneShrinksTheFile(t *testing.T) {
 	keep := entry("new", blob(1, 4096))
 	putRun(t, s, "new", t0.Add(48*time.Hour), keep)
 
-	rep, err := s.Prune(PrunePolicy{OlderThan: 24 * time.Hour, Now: t0.Add(49 * time.Hour)})
+	rep, err := s.Prune(PrunePolicy{Aged: 24 * time.Hour, Now: t0.Add(49 * time.Hour)})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -188,7 +188,7 @@ func TestPruneShrinksTheFile(t *testing.T) {
 }
 
 func TestPruneOfAStoreNotYetWritten(t *testing.T) {
-	rep, err := newStore(t).Prune(PrunePolicy{KeepLast: 1})
+	rep, err := newStore(t).Prune(PrunePolicy{Spare: 1})
 	if err != nil || !reflect.DeepEqual(rep, PruneReport{}) {
 		t.Errorf("Prune = %+v, %v", rep, err)
 	}

@@ -2,10 +2,13 @@ package cache
 
 import (
 	"crypto/rand"
+	"crypto/sha256"
 	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"fmt"
+	"regexp"
+	"slices"
 	"sort"
 	"strings"
 	"time"
@@ -15,7 +18,10 @@ import (
 )
 
 // Run is the record of one run of a workflow: what was asked and which keys each step had.
-// It is stored as JSON under its ID.
+// It is stored as JSON under its ID. The engine writes it when the run starts (State
+// RunUnderWay), adds each step's line as the step finishes (CommitStep), and writes it
+// whole when the run ends (State RunEnded); so a run that is killed leaves a record of
+// everything it stored, and Prune keeps that for a while.
 type Run struct {
 	ID        string            `json:"id"`
 	Started   time.Time         `json:"started"`
@@ -23,7 +29,26 @@ type Run struct {
 	File      string            `json:"workflow_file"`       // the path as the user gave it
 	Overrides map[string]string `json:"overrides,omitempty"` // command-line settings, name → value
 	Steps     []RunStep         `json:"steps"`
+	// State is RunUnderWay from the run's start until its end, then RunEnded. Records
+	// written before runs had states have none, and count as ended.
+	State string    `json:"state,omitempty"`
+	Ended time.Time `json:"ended,omitzero"`
+	// PID and Host name the process that made the run, so that a record still under way
+	// can be told from the record of the run holding the store's run lock now.
+	PID  int    `json:"pid,omitempty"`
+	Host string `json:"host,omitempty"`
 }
+
+// A run record's states. RunInterrupted is never stored: it is what a record still
+// RunUnderWay means when no live process holds the store's run lock for it.
+const (
+	RunUnderWay    = "under way"
+	RunEnded       = "ended"
+	RunInterrupted = "interrupted"
+)
+
+// HasEnded reports whether the run's record was completed at its end.
+func (r Run) HasEnded() bool { return r.State != RunUnderWay }
 
 // RunStep is one step's line in a run record.
 type RunStep struct {
@@ -87,35 +112,109 @@ func (s *Store) PutRun(r Run) error {
 	})
 }
 
-// Runs returns every run record, oldest first (by start time, then id).
-func (s *Store) Runs() ([]Run, error) {
-	var runs []Run
-	err := s.view(func(tx *bolt.Tx) error {
-		var err error
-		runs, err = readRuns(tx)
-		return err
+// BadRecord is a run or provenance record that cannot be read. Commands report it and go
+// on without it; Verify lists it; Salvage drops it.
+type BadRecord struct {
+	Bucket string // "runs" or "provenance"
+	Key    string // the run id, or the step key in hex
+	Why    string
+	// Keys are the step and result keys that can still be made out in the record's bytes
+	// (every stretch of 64 hex digits in them): Prune keeps what they name, since it
+	// cannot tell what the record referred to.
+	Keys []string
+	sum  [32]byte // SHA-256 of the bytes found, so DropDamaged deletes only those
+}
+
+func (b BadRecord) String() string {
+	what := "run record"
+	if b.Bucket == string(bucketProvenance) {
+		what = "provenance record of step key"
+	}
+	return fmt.Sprintf("%s %s cannot be read: %s", what, clip(b.Key), b.Why)
+}
+
+// ProvenanceProblem makes the BadRecord of a provenance record that the engine cannot read,
+// for Verify's report and DropDamaged.
+func ProvenanceProblem(k StepKey, rec []byte, why error) BadRecord {
+	return badRecord(bucketProvenance, k.String(), why, rec)
+}
+
+// EachProvenance calls fn with every provenance record, one at a time, in step-key order.
+// It reads in batches, each in its own short transaction, and fn gets copies. A key of the
+// wrong length is passed as far as it fits.
+func (s *Store) EachProvenance(fn func(k StepKey, rec []byte)) error {
+	return s.scan(bucketProvenance, func(k, v []byte) {
+		var sk StepKey
+		copy(sk[:], k)
+		fn(sk, v)
 	})
+}
+
+// Runs returns every run record that reads, oldest first (by start time, then id). A record
+// that does not read is skipped; RunRecords lists those too.
+func (s *Store) Runs() ([]Run, error) {
+	runs, _, err := s.RunRecords()
 	return runs, err
 }
 
-func readRuns(tx *bolt.Tx) ([]Run, error) {
+// RunRecords returns every run record that reads, oldest first, and every one that does
+// not, each with what is wrong. One bad record never hides the others.
+func (s *Store) RunRecords() ([]Run, []BadRecord, error) {
 	var runs []Run
+	var bad []BadRecord
+	err := s.view(func(tx *bolt.Tx) error {
+		runs, bad = readRuns(tx)
+		return nil
+	})
+	return runs, bad, err
+}
+
+// readRuns decodes the run records one by one.
+func readRuns(tx *bolt.Tx) ([]Run, []BadRecord) {
+	var runs []Run
+	var bad []BadRecord
 	if b := tx.Bucket(bucketRuns); b != nil {
-		err := b.ForEach(func(k, v []byte) error {
-			var r Run
-			if err := json.Unmarshal(v, &r); err != nil {
-				return fmt.Errorf("run record %q: %w", clip(string(k)), err)
+		b.ForEach(func(k, v []byte) error {
+			r, err := decodeRun(k, v)
+			if err != nil {
+				bad = append(bad, badRecord(bucketRuns, string(k), err, v))
+				return nil
 			}
-			r.ID = string(k)
 			runs = append(runs, r)
 			return nil
 		})
-		if err != nil {
-			return nil, err
-		}
 	}
 	sortRuns(runs)
-	return runs, nil
+	return runs, bad
+}
+
+// decodeRun reads one run record. Its key is its id; the id inside must agree.
+func decodeRun(k, v []byte) (Run, error) {
+	var r Run
+	if err := json.Unmarshal(v, &r); err != nil {
+		return r, fmt.Errorf("not a run record (%v)", err)
+	}
+	if r.ID != "" && r.ID != string(k) {
+		return r, fmt.Errorf("it holds the record of run %q", clip(r.ID))
+	}
+	r.ID = string(k)
+	for i, st := range r.Steps {
+		if st.Address == "" && st.StepKey.IsZero() {
+			return r, fmt.Errorf("its step line %d is empty", i+1)
+		}
+	}
+	return r, nil
+}
+
+// hexRun finds runs of 64 hex digits: the keys a damaged JSON record still names.
+var hexRun = regexp.MustCompile(`[0-9a-fA-F]{64}`)
+
+func badRecord(bucket []byte, key string, err error, v []byte) BadRecord {
+	b := BadRecord{Bucket: string(bucket), Key: key, Why: err.Error(), sum: sha256.Sum256(v)}
+	for _, m := range hexRun.FindAll(v, -1) {
+		b.Keys = append(b.Keys, strings.ToLower(string(m)))
+	}
+	return b
 }
 
 func sortRuns(runs []Run) {
@@ -128,23 +227,17 @@ func sortRuns(runs []Run) {
 }
 
 // FindRun returns the run named by ref: a full id, a prefix matching exactly one id,
-// "latest" (the most recently started run) or "previous" (the one before it).
+// "latest" (the most recently started run that has ended) or "previous" (the ended run
+// before it). A run that is under way or was interrupted is named by its id. A record that
+// does not read is skipped, unless ref names it, which is an error saying what is wrong.
 func (s *Store) FindRun(ref string) (Run, error) {
-	runs, err := s.Runs()
+	runs, bad, err := s.RunRecords()
 	if err != nil {
 		return Run{}, err
 	}
-	if len(runs) == 0 {
-		return Run{}, fmt.Errorf("run %q: the store holds no runs: %w", clip(ref), ErrMissing)
-	}
 	switch ref {
-	case RefLatest:
-		return runs[len(runs)-1], nil
-	case RefPrevious:
-		if len(runs) < 2 {
-			return Run{}, fmt.Errorf("run %q: the store holds only one run: %w", ref, ErrMissing)
-		}
-		return runs[len(runs)-2], nil
+	case RefLatest, RefPrevious:
+		return pickEnded(runs, ref)
 	case "":
 		return Run{}, errors.New("no run given")
 	}
@@ -159,6 +252,14 @@ func (s *Store) FindRun(ref string) (Run, error) {
 	}
 	switch len(matches) {
 	case 0:
+		for _, b := range bad {
+			if strings.HasPrefix(b.Key, ref) {
+				return Run{}, fmt.Errorf("run %q: the %v", clip(ref), b)
+			}
+		}
+		if len(runs) == 0 {
+			return Run{}, fmt.Errorf("run %q: the store holds no runs: %w", clip(ref), ErrMissing)
+		}
 		return Run{}, fmt.Errorf("run %q: no run id starts so: %w", clip(ref), ErrMissing)
 	case 1:
 		return matches[0], nil
@@ -173,6 +274,60 @@ func (s *Store) FindRun(ref string) (Run, error) {
 	}
 	return Run{}, fmt.Errorf("run %q is ambiguous: %d runs start so (%s); give more of the id",
 		ref, len(matches), strings.Join(ids, ", "))
+}
+
+// pickEnded returns the latest or previous of the runs that have ended.
+func pickEnded(runs []Run, ref string) (Run, error) {
+	ended := make([]Run, 0, len(runs))
+	for _, r := range runs {
+		if r.HasEnded() {
+			ended = append(ended, r)
+		}
+	}
+	switch {
+	case len(ended) == 0 && len(runs) > 0:
+		return Run{}, fmt.Errorf("run %q: no run in the store has ended (%d did not finish; name one by its id): %w", ref, len(runs), ErrMissing)
+	case len(ended) == 0:
+		return Run{}, fmt.Errorf("run %q: the store holds no runs: %w", ref, ErrMissing)
+	case ref == RefLatest:
+		return ended[len(ended)-1], nil
+	case len(ended) < 2:
+		return Run{}, fmt.Errorf("run %q: the store holds only one run that has ended: %w", ref, ErrMissing)
+	}
+	return ended[len(ended)-2], nil
+}
+
+// CommitStep stores a step's entries (as Commit does) and puts step lines into the record
+// of run runID, in one transaction: a run killed right after it still has a record naming
+// what it stored. The record must exist (the engine writes it when the run starts); a line
+// with the address of one already there replaces it.
+func (s *Store) CommitStep(runID string, lines []RunStep, entries ...Entry) error {
+	if err := checkEntries(entries); err != nil {
+		return err
+	}
+	return s.update(func(tx *bolt.Tx) error {
+		if err := putEntries(tx, entries); err != nil {
+			return err
+		}
+		b := tx.Bucket(bucketRuns)
+		v := b.Get([]byte(runID))
+		if v == nil {
+			return fmt.Errorf("run %q has no record to add its steps to: %w", clip(runID), ErrMissing)
+		}
+		r, err := decodeRun([]byte(runID), v)
+		if err != nil {
+			return &DamagedError{Path: s.path, Problem: fmt.Sprintf("the record of run %s cannot be read (%v)", clip(runID), err)}
+		}
+		for _, st := range lines {
+			r.Steps = slices.DeleteFunc(r.Steps, func(x RunStep) bool { return x.Address == st.Address })
+			r.Steps = append(r.Steps, st)
+		}
+		data, err := json.Marshal(r)
+		if err != nil {
+			return err
+		}
+		return b.Put([]byte(runID), data)
+	})
 }
 
 // Pin marks a run as one to keep (for instance the run behind a publication), with a note

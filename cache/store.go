@@ -1,7 +1,8 @@
 // Package cache is dipline's content store: it keeps artifacts' bytes by their result key,
 // maps step keys to result keys, and holds provenance records, run records and pins, all in
 // one bbolt file. It verifies a result's SHA-256 on every read, prunes runs nobody pinned,
-// compacts the file, verifies and repairs it, and merges the stores of survey shards.
+// compacts the file, verifies it, salvages a damaged one into a new file, and merges the
+// stores of survey shards.
 //
 // It knows no HCL and no astronomy: provenance records are opaque bytes from the engine,
 // and it never decides what to compute. The main entry point is Open, which returns a Store;
@@ -13,6 +14,11 @@
 // number) can run while a long run is in progress; bbolt's own file lock only serialises
 // the individual transactions (a waiting call blocks in the kernel and gets in between two
 // commits). Whole runs are kept apart by the separate RunLock.
+//
+// A damaged file is an error, never a crash: before bbolt maps a file into memory its size
+// and header pages are checked (fileformat.go), every call runs guarded against bbolt's
+// panics and memory faults (damage.go), and what a damaged file still holds is read with
+// dipline's own page reader (pagewalk.go), for Verify and Salvage.
 package cache
 
 import (
@@ -158,6 +164,18 @@ func (s *Store) Provenance(k StepKey) ([]byte, bool, error) {
 // hash to its result key. A result already stored is written only if its stored bytes fail
 // their checksum, so a damaged entry is repaired by recomputing it.
 func (s *Store) Commit(entries ...Entry) error {
+	if err := checkEntries(entries); err != nil {
+		return err
+	}
+	if len(entries) == 0 {
+		return nil
+	}
+	return s.update(func(tx *bolt.Tx) error { return putEntries(tx, entries) })
+}
+
+// checkEntries checks, before any transaction, that each entry's data hash to its result
+// key and fit in the store.
+func checkEntries(entries []Entry) error {
 	for i, e := range entries {
 		if got := ResultKeyOf(e.Data); got != e.Result {
 			return fmt.Errorf("commit entry %d (step key %s): data hash to %s, not to its result key %s",
@@ -168,30 +186,30 @@ func (s *Store) Commit(entries ...Entry) error {
 				i+1, e.Step.Short(), len(e.Data), bolt.MaxValueSize)
 		}
 	}
-	if len(entries) == 0 {
-		return nil
-	}
-	return s.update(func(tx *bolt.Tx) error {
-		steps, results, prov := tx.Bucket(bucketSteps), tx.Bucket(bucketResults), tx.Bucket(bucketProvenance)
-		for _, e := range entries {
-			if old := results.Get(e.Result[:]); old == nil || sha256.Sum256(old) != e.Result {
-				// Put keeps a reference to the value until commit; the caller's slice must
-				// not change underneath it, so store a copy.
-				if err := results.Put(e.Result[:], bytes.Clone(nonNil(e.Data))); err != nil {
-					return err
-				}
-			}
-			if err := steps.Put(e.Step[:], bytes.Clone(e.Result[:])); err != nil {
+	return nil
+}
+
+// putEntries writes checked entries in the transaction tx.
+func putEntries(tx *bolt.Tx, entries []Entry) error {
+	steps, results, prov := tx.Bucket(bucketSteps), tx.Bucket(bucketResults), tx.Bucket(bucketProvenance)
+	for _, e := range entries {
+		if old := results.Get(e.Result[:]); old == nil || sha256.Sum256(old) != e.Result {
+			// Put keeps a reference to the value until commit; the caller's slice must
+			// not change underneath it, so store a copy.
+			if err := results.Put(e.Result[:], bytes.Clone(nonNil(e.Data))); err != nil {
 				return err
 			}
-			if e.Provenance != nil {
-				if err := prov.Put(e.Step[:], bytes.Clone(e.Provenance)); err != nil {
-					return err
-				}
+		}
+		if err := steps.Put(e.Step[:], bytes.Clone(e.Result[:])); err != nil {
+			return err
+		}
+		if e.Provenance != nil {
+			if err := prov.Put(e.Step[:], bytes.Clone(e.Provenance)); err != nil {
+				return err
 			}
 		}
-		return nil
-	})
+	}
+	return nil
 }
 
 // Stats are a store's counts and sizes.
@@ -234,35 +252,43 @@ func (s *Store) Stats() (Stats, error) {
 // view runs fn in a read-only transaction. If the database file does not exist yet (or is
 // being created), fn is not called: the store is empty.
 func (s *Store) view(fn func(tx *bolt.Tx) error) error {
-	db, err := openDB(s.path, true)
-	if err != nil || db == nil {
-		return err
-	}
-	defer db.Close()
-	return db.View(func(tx *bolt.Tx) error {
-		if err := checkFormat(tx, s.path); err != nil {
-			return err
-		}
-		return fn(tx)
+	return s.withDB(true, func(db *bolt.DB) error {
+		return db.View(func(tx *bolt.Tx) error {
+			if err := checkFormat(tx, s.path); err != nil {
+				return err
+			}
+			return fn(tx)
+		})
 	})
 }
 
 // update runs fn in one read-write transaction, with every bucket present.
 func (s *Store) update(fn func(tx *bolt.Tx) error) error {
-	db, err := openDB(s.path, false)
-	if err != nil {
-		return err
-	}
-	err = db.Update(func(tx *bolt.Tx) error {
-		if err := prepare(tx, s.path); err != nil {
+	return s.withDB(false, func(db *bolt.DB) error {
+		return db.Update(func(tx *bolt.Tx) error {
+			if err := prepare(tx, s.path); err != nil {
+				return err
+			}
+			return fn(tx)
+		})
+	})
+}
+
+// withDB opens the database, calls fn and closes it again, all guarded (see guarded): a
+// damaged file gives a *DamagedError, never a crash. A read-only call on a store whose file
+// does not exist yet does not call fn.
+func (s *Store) withDB(readOnly bool, fn func(db *bolt.DB) error) error {
+	var h handle
+	return guarded(s.path, func() { closeSoon(h.db, h.f) }, func() error {
+		if err := openDB(s.path, readOnly, &h); err != nil || h.db == nil {
 			return err
 		}
-		return fn(tx)
+		err := fn(h.db)
+		if cerr := h.db.Close(); err == nil && cerr != nil {
+			err = fmt.Errorf("store %s: %w", s.path, cerr)
+		}
+		return err
 	})
-	if cerr := db.Close(); err == nil && cerr != nil {
-		err = fmt.Errorf("store %s: %w", s.path, cerr)
-	}
-	return err
 }
 
 // prepare creates missing buckets and checks (or records) the store's format.
@@ -290,28 +316,42 @@ func checkFormat(tx *bolt.Tx, path string) error {
 	return nil
 }
 
-// openDB opens the bbolt file. A read-only open returns (nil, nil) when the file does not
-// exist or is still empty (its creator has not written the first pages yet).
+// handle is an open database and the file under it, kept so that a panic can let go of
+// the file (and its lock) even when bbolt cannot close cleanly.
+type handle struct {
+	db *bolt.DB
+	f  *os.File
+}
+
+// errEmpty: a read-only open found the file empty (its creator has not written the first
+// pages yet); the store holds nothing.
+var errEmpty = errors.New("store file is empty")
+
+// openDB opens the bbolt file into h. A read-only open leaves h.db nil when the file does
+// not exist or is still empty.
+//
+// Once bbolt's lock on the file is held, and before bbolt maps it into memory, the file's
+// size and meta pages are checked (checkLayout): bbolt trusts them, and a file cut short
+// would make it read past the end of the file. A damaged file gives a *DamagedError.
 //
 // After bbolt has locked the file, openDB checks that the path still names the same file:
 // Prune compacts into a new file and renames it over the old one, and a process that opened
 // the old file just before must not write into it after the rename.
-func openDB(path string, readOnly bool) (*bolt.DB, error) {
+func openDB(path string, readOnly bool, h *handle) error {
 	deadline := time.Now().Add(openTimeout)
 	for {
 		if readOnly {
 			fi, err := os.Stat(path)
 			if errors.Is(err, os.ErrNotExist) || (err == nil && fi.Size() == 0) {
-				return nil, nil
+				return nil
 			}
 		}
-		var f *os.File
 		opts := &bolt.Options{
 			Timeout:  openTimeout,
 			ReadOnly: readOnly,
 			OpenFile: func(name string, flag int, perm os.FileMode) (*os.File, error) {
-				var err error
-				if f, err = os.OpenFile(name, flag, perm); err != nil {
+				f, err := os.OpenFile(name, flag, perm)
+				if err != nil {
 					return nil, err
 				}
 				ok, err := lockDB(f, !readOnly, openTimeout)
@@ -323,29 +363,59 @@ func openDB(path string, readOnly bool) (*bolt.DB, error) {
 					}
 					return nil, err
 				}
+				if err := checkOpened(f, name, readOnly); err != nil {
+					f.Close()
+					return nil, err
+				}
+				h.f = f
 				return f, nil
 			},
 		}
 		db, err := bolt.Open(path, 0o644, opts)
 		if err != nil {
-			if errors.Is(err, berrors.ErrTimeout) {
-				return nil, fmt.Errorf("store %s: another dipline command held it for more than %s: %w", path, openTimeout, ErrBusy)
+			var de *DamagedError
+			switch {
+			case errors.As(err, &de):
+				return err
+			case errors.Is(err, berrors.ErrTimeout):
+				return fmt.Errorf("store %s: another dipline command held it for more than %s: %w", path, openTimeout, ErrBusy)
+			case readOnly && (errors.Is(err, os.ErrNotExist) || errors.Is(err, errEmpty)):
+				return nil
 			}
-			if readOnly && errors.Is(err, os.ErrNotExist) {
-				return nil, nil
-			}
-			return nil, fmt.Errorf("store %s: %w", path, err)
+			return fmt.Errorf("store %s: %w", path, err)
 		}
-		held, err1 := f.Stat()
+		held, err1 := h.f.Stat()
 		named, err2 := os.Stat(path)
 		if err1 == nil && err2 == nil && os.SameFile(held, named) {
-			return db, nil
+			h.db = db
+			return nil
 		}
 		db.Close()
+		h.f = nil
 		if time.Now().After(deadline) {
-			return nil, fmt.Errorf("store %s: the file kept being replaced for %s while opening it: %w", path, openTimeout, ErrBusy)
+			return fmt.Errorf("store %s: the file kept being replaced for %s while opening it: %w", path, openTimeout, ErrBusy)
 		}
 	}
+}
+
+// checkOpened checks a locked store file before bbolt reads it: an empty file is new (bbolt
+// writes its first pages when opening it for writing), anything else must have sound meta
+// pages and the length they give.
+func checkOpened(f *os.File, path string, readOnly bool) error {
+	fi, err := f.Stat()
+	if err != nil {
+		return err
+	}
+	if fi.Size() == 0 {
+		if readOnly {
+			return errEmpty
+		}
+		return nil
+	}
+	if _, err := checkLayout(f, fi.Size()); err != nil {
+		return &DamagedError{Path: path, Problem: err.Error()}
+	}
+	return nil
 }
 
 func get(tx *bolt.Tx, bucket, key []byte) []byte {

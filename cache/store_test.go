@@ -179,14 +179,12 @@ func TestCommitKeepsExistingProvenanceWhenGivenNone(t *testing.T) {
 func TestAStoreOfAnotherFormatIsRefused(t *testing.T) {
 	s := newStore(t)
 	mustCommit(t, s, entry("a", []byte("a")))
-	db, err := openDB(s.Path(), false)
+	err := s.withDB(false, func(db *bolt.DB) error {
+		return db.Update(func(tx *bolt.Tx) error { return tx.Bucket(bucketMeta).Put(keyFormat, []byte("dipline store 99")) })
+	})
 	if err != nil {
 		t.Fatal(err)
 	}
-	if err := db.Update(func(tx *bolt.Tx) error { return tx.Bucket(bucketMeta).Put(keyFormat, []byte("dipline store 99")) }); err != nil {
-		t.Fatal(err)
-	}
-	db.Close()
 	if _, _, err := s.Lookup(stepKey("a")); err == nil || !strings.Contains(err.Error(), "dipline store 99") {
 		t.Errorf("Lookup in a store of another format: %v", err)
 	}

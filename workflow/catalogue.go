@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"crypto/sha256"
 	"encoding/csv"
+	"errors"
 	"fmt"
 	"io"
 	"math"
@@ -38,13 +39,27 @@ type Catalogue struct {
 	index  map[string]int // lower-case column name → position
 	rows   map[string]*catRow
 	order  []string // ids in file order
+	// data is the file's bytes; a row's cells are read from them when a step asks, so
+	// that the index holds one entry per row whatever the number of columns.
+	data  []byte
+	comma rune
+	// indexBytes is what the index takes in memory, as parse charges it.
+	indexBytes int64
 }
 
 type catRow struct {
-	line  int
-	cells []string
-	dups  []int // lines of later rows with the same id
+	line       int
+	start, end int64 // the row's bytes in data (comment lines before it included)
+	dups       []int // lines of later rows with the same id, the first maxListed of them
+	moreDups   int   // how many more there are
 }
+
+// rowBytes is what one row takes in the catalogue's index beside its id: the map entry, the
+// row record and its place in the order. We measured at most 155 bytes per row with 10-byte
+// ids (Go 1.26, amd64; TestTheCatalogueIndexCostsWhatItCharges keeps it an upper bound).
+// parse charges it against the data bound, so that a file of short rows cannot take ten
+// times its size in memory.
+const rowBytes = 176
 
 // RowInput is one catalogue row a step reads: the asked-for columns' parsed values, after
 // any command-line override.
@@ -115,7 +130,9 @@ func (w *Workflow) decodeCatalogue(b *hcl.Block) (*Catalogue, hcl.Diagnostics) {
 		return nil, append(diags, fd)
 	}
 	c.Path, c.Digest = fi.Path, fi.Digest
-	if err := c.parse(fi.Data, idCol); err != nil {
+	err := c.parse(fi.Data, idCol, w.fo.left)
+	w.fo.left = max(0, w.fo.left-c.indexBytes)
+	if err != nil {
 		return nil, append(diags, attrDiag(a.Expr.Range(), "Unreadable catalogue", err.Error()))
 	}
 	return c, diags
@@ -123,37 +140,32 @@ func (w *Workflow) decodeCatalogue(b *hcl.Block) (*Catalogue, hcl.Diagnostics) {
 
 // parse reads a comma- or tab-separated table with a header; lines starting with '#' are
 // comments. Cells are kept as text: a step's columns are parsed when it asks for them, so
-// that a bad cell in a column nobody reads stops nothing.
-func (c *Catalogue) parse(data []byte, idCol string) error {
-	lines := bytes.Split(data, []byte("\n"))
-	headerAt := -1
-	for i, l := range lines {
-		t := bytes.TrimSpace(l)
-		if len(t) > 0 && t[0] != '#' {
-			headerAt = i
-			break
-		}
-	}
-	if headerAt < 0 {
+// that a bad cell in a column nobody reads stops nothing. The index may take at most budget
+// bytes (rowBytes and the id per row).
+func (c *Catalogue) parse(data []byte, idCol string, budget int64) error {
+	headerLine, ok := firstLine(data)
+	if !ok {
 		return fmt.Errorf("%s: no header line", c.Path)
 	}
-	r := csv.NewReader(bytes.NewReader(data))
-	r.Comment = '#'
-	r.FieldsPerRecord = -1
-	r.TrimLeadingSpace = true
-	if bytes.Contains(lines[headerAt], []byte("\t")) && !bytes.Contains(lines[headerAt], []byte(",")) {
-		r.Comma = '\t'
+	c.data, c.comma = data, ','
+	if bytes.Contains(headerLine, []byte("\t")) && !bytes.Contains(headerLine, []byte(",")) {
+		c.comma = '\t'
 	}
+	if err := checkWidth(c.Path, data, byte(c.comma)); err != nil {
+		return err
+	}
+	r := c.reader(data)
 	c.index = map[string]int{}
 	c.rows = map[string]*catRow{}
 	first := true
+	var start int64
 	for {
 		rec, err := r.Read()
 		if err == io.EOF {
 			break
 		}
 		if err != nil {
-			return fmt.Errorf("%s: %v", c.Path, err)
+			return csvError(c.Path, err)
 		}
 		line, _ := r.FieldPos(0)
 		if first {
@@ -162,39 +174,146 @@ func (c *Catalogue) parse(data []byte, idCol string) error {
 			for j, h := range rec {
 				h = strings.ToLower(strings.TrimSpace(h))
 				if _, dup := c.index[h]; dup {
-					return fmt.Errorf("%s:%d: column %q appears twice in the header", c.Path, line, rec[j])
+					_, col := r.FieldPos(j)
+					return fmt.Errorf("%s:%d:%d: column %s appears twice in the header", c.Path, line, col, quote(rec[j]))
 				}
 				c.index[h] = j
 			}
 			j, ok := c.index[strings.ToLower(idCol)]
 			if !ok {
-				return fmt.Errorf("%s:%d: no id column %q in the header (%s)%s", c.Path, line, idCol,
-					strings.Join(c.header, ", "), suggest(idCol, c.header))
+				return fmt.Errorf("%s:%d: no id column %s in the header (columns: %s).%s", c.Path, line, quote(idCol),
+					listSome(c.header, "columns"), suggest(idCol, c.header))
 			}
 			c.IDColumn = c.header[j]
+			start = r.InputOffset()
 			continue
 		}
 		if len(rec) == 1 && strings.TrimSpace(rec[0]) == "" {
+			start = r.InputOffset()
 			continue
 		}
 		if len(rec) != len(c.header) {
-			return fmt.Errorf("%s:%d: %d cells, but the header has %d columns", c.Path, line, len(rec), len(c.header))
+			return fmt.Errorf("%s:%d: %s cells, but the header has %s columns", c.Path, line, thousands(len(rec)), thousands(len(c.header)))
 		}
 		id := strings.TrimSpace(rec[c.index[strings.ToLower(c.IDColumn)]])
 		if id == "" {
-			return fmt.Errorf("%s:%d: the id column %q is blank", c.Path, line, c.IDColumn)
+			_, col := r.FieldPos(c.index[strings.ToLower(c.IDColumn)])
+			return fmt.Errorf("%s:%d:%d: the id column %s is blank", c.Path, line, col, quote(c.IDColumn))
 		}
 		if prev := c.rows[id]; prev != nil {
-			prev.dups = append(prev.dups, line)
+			if len(prev.dups) < maxListed {
+				prev.dups = append(prev.dups, line)
+			} else {
+				prev.moreDups++
+			}
+			start = r.InputOffset()
 			continue
 		}
-		c.rows[id] = &catRow{line: line, cells: rec}
+		if c.indexBytes += rowBytes + int64(len(id)); c.indexBytes > budget {
+			return fmt.Errorf("%s:%d: the catalogue's rows take more memory than the data bound allows (%s in all, each row some %d bytes beside its cells); if the file is right, raise the bound with dipline --max-data",
+				c.Path, line, FormatSize(budget), rowBytes)
+		}
+		// The id is copied: it would otherwise keep the whole record alive.
+		id = strings.Clone(id)
+		c.rows[id] = &catRow{line: line, start: start, end: r.InputOffset()}
 		c.order = append(c.order, id)
+		start = r.InputOffset()
 	}
 	if first {
 		return fmt.Errorf("%s: no header line", c.Path)
 	}
 	return nil
+}
+
+// reader reads records of the catalogue's format from b.
+func (c *Catalogue) reader(b []byte) *csv.Reader {
+	r := csv.NewReader(bytes.NewReader(b))
+	r.Comment = '#'
+	r.FieldsPerRecord = -1
+	r.TrimLeadingSpace = true
+	r.Comma = c.comma
+	return r
+}
+
+// cells reads a row's cells again from the file's bytes.
+func (c *Catalogue) cells(row *catRow) ([]string, error) {
+	rec, err := c.reader(c.data[row.start:row.end]).Read()
+	if err != nil || len(rec) != len(c.header) {
+		return nil, fmt.Errorf("%s:%d: the row no longer reads as it did (%v)", c.Path, row.line, err)
+	}
+	return rec, nil
+}
+
+// maxCatalogueColumns bounds the cells of a catalogue's row: published catalogues carry a
+// few hundred columns (from memory). The CSV reader holds 24 bytes per cell of a row before
+// we see the row, so a line of a billion commas would otherwise take gigabytes.
+const maxCatalogueColumns = 10000
+
+// checkWidth refuses a row of more than maxCatalogueColumns cells before the CSV reader
+// reads it. It counts separators outside quotes, record by record, skipping comment lines:
+// an upper bound on the reader's cells, since the reader stops at the first quote out of
+// place.
+func checkWidth(path string, data []byte, comma byte) error {
+	line, recLine, seps, quoted, atStart := 1, 1, 0, false, true
+	for i := 0; i < len(data); i++ {
+		b := data[i]
+		if atStart && !quoted && seps == 0 && b == '#' {
+			j := bytes.IndexByte(data[i:], '\n')
+			if j < 0 {
+				break
+			}
+			i += j - 1 // the newline is read next
+			continue
+		}
+		atStart = false
+		switch {
+		case b == '"':
+			quoted = !quoted
+		case b == comma && !quoted:
+			if seps++; seps >= maxCatalogueColumns {
+				return fmt.Errorf("%s:%d: a row of more than %s cells; a catalogue may have at most %s columns", path, recLine,
+					thousands(maxCatalogueColumns), thousands(maxCatalogueColumns))
+			}
+		case b == '\n':
+			line, atStart = line+1, true
+			if !quoted {
+				seps, recLine = 0, line
+			}
+		}
+	}
+	return nil
+}
+
+// firstLine is the first line that is neither blank nor a comment.
+func firstLine(data []byte) ([]byte, bool) {
+	for len(data) > 0 {
+		line := data
+		if i := bytes.IndexByte(data, '\n'); i >= 0 {
+			line, data = data[:i], data[i+1:]
+		} else {
+			data = nil
+		}
+		if t := bytes.TrimSpace(line); len(t) > 0 && t[0] != '#' {
+			return line, true
+		}
+	}
+	return nil, false
+}
+
+// csvError says in our words what the CSV reader found wrong, with the line and column.
+func csvError(path string, err error) error {
+	var pe *csv.ParseError
+	if !errors.As(err, &pe) {
+		return fmt.Errorf("%s: %v", path, unwrapPath(err))
+	}
+	what := pe.Err.Error()
+	switch {
+	case errors.Is(pe.Err, csv.ErrBareQuote):
+		what = `a quote (") inside a cell that does not start with one; quote the whole cell and double the quotes inside it`
+	case errors.Is(pe.Err, csv.ErrQuote):
+		what = "a quoted cell is not closed, or its closing quote is followed by more text"
+	}
+	return fmt.Errorf("%s:%d:%d: %s", path, pe.Line, pe.Column, what)
 }
 
 // column finds the file's column for a name a step asks for: through the block's renames,
@@ -241,6 +360,10 @@ func (w *Workflow) decodeRow(s *Step, p steps.Param, expr hcl.Expression) (any, 
 		return nil, hcl.Diagnostics{d}
 	}
 	c := w.catalogues[label]
+	if c == nil && w.unreadable[label] {
+		return nil, hcl.Diagnostics{attrDiag(expr.Range(), "Unreadable catalogue",
+			fmt.Sprintf("catalogue %q did not load; the message about its file says why.", label))}
+	}
 	if c == nil {
 		names := make([]string, 0, len(w.catalogues))
 		for n := range w.catalogues {
@@ -253,15 +376,19 @@ func (w *Workflow) decodeRow(s *Step, p steps.Param, expr hcl.Expression) (any, 
 	row := c.rows[id]
 	if row == nil {
 		return nil, hcl.Diagnostics{attrDiag(expr.Range(), "No such row",
-			fmt.Sprintf("%s has no row with %s %q.%s", c.Path, c.IDColumn, id, suggest(id, c.order)))}
+			fmt.Sprintf("%s has no row with %s %s.%s", c.Path, clip(c.IDColumn), quote(id), suggest(id, c.order)))}
 	}
 	if len(row.dups) > 0 {
 		lines := make([]string, len(row.dups))
 		for i, l := range row.dups {
 			lines[i] = strconv.Itoa(l)
 		}
+		listed := listSome(lines, "lines")
+		if row.moreDups > 0 {
+			listed += fmt.Sprintf(", … and %s more lines", thousands(row.moreDups))
+		}
 		return nil, hcl.Diagnostics{attrDiag(expr.Range(), "Ambiguous row",
-			fmt.Sprintf("%s has %q on line %d and again on line(s) %s; keep one.", c.Path, id, row.line, strings.Join(lines, ", ")))}
+			fmt.Sprintf("%s has %s on line %d and again on line(s) %s; keep one.", c.Path, quote(id), row.line, listed))}
 	}
 	s.Rows[p.Name] = &RowInput{Catalogue: label, Path: c.Path, Line: row.line, ID: id}
 	return rowAddress(label, id), nil
@@ -282,6 +409,11 @@ func (w *Workflow) resolveRows(s *Step) hcl.Diagnostics {
 			continue
 		}
 		c := w.catalogues[in.Catalogue]
+		cells, err := c.cells(c.rows[in.ID])
+		if err != nil {
+			diags = append(diags, attrDiag(s.attrRanges[p.Name], "Unreadable catalogue", err.Error()))
+			continue
+		}
 		row := c.rows[in.ID]
 		required, optional := cr.Columns(p.Name)
 		in.Values, in.Columns = map[string]float64{}, map[string]string{}
@@ -298,12 +430,12 @@ func (w *Workflow) resolveRows(s *Step) hcl.Diagnostics {
 				if i < len(required) {
 					diags = append(diags, attrDiag(s.attrRanges[p.Name], "Missing catalogue column",
 						fmt.Sprintf("%s needs a column %q, which %s lacks (columns: %s). Rename it in the catalogue block, e.g. columns = { %s = \"...\" }.%s",
-							s.Addr, name, c.Path, strings.Join(c.header, ", "), name, suggest(name, c.header))))
+							s.Addr, name, c.Path, listSome(c.header, "columns"), name, suggest(name, c.header))))
 				}
 				continue
 			}
 			in.Columns[name] = c.header[j]
-			cell := strings.TrimSpace(row.cells[j])
+			cell := strings.TrimSpace(cells[j])
 			if o := w.rowOverride(in.Catalogue, in.ID, name, c.header[j]); o != nil {
 				o.used = true
 				cell = o.Value
@@ -312,7 +444,7 @@ func (w *Workflow) resolveRows(s *Step) hcl.Diagnostics {
 			v, blank, err := parseCell(cell)
 			if err != nil {
 				diags = append(diags, attrDiag(s.attrRanges[p.Name], "Bad catalogue value",
-					fmt.Sprintf("%s:%d, column %s (%s): %v", c.Path, row.line, c.header[j], in.ID, err)))
+					fmt.Sprintf("%s:%d, column %s (%s): %v", c.Path, row.line, clip(c.header[j]), clip(in.ID), err)))
 				continue
 			}
 			if !blank {
@@ -332,7 +464,7 @@ func parseCell(s string) (v float64, blank bool, err error) {
 	}
 	v, err = strconv.ParseFloat(s, 64)
 	if err != nil || math.IsInf(v, 0) || math.IsNaN(v) {
-		return 0, false, fmt.Errorf("%q is not a number", s)
+		return 0, false, fmt.Errorf("%s is not a number", quote(s))
 	}
 	return v, false, nil
 }

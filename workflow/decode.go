@@ -7,7 +7,6 @@ import (
 	"strings"
 
 	"github.com/hashicorp/hcl/v2"
-	"github.com/hashicorp/hcl/v2/hclsyntax"
 	"github.com/zclconf/go-cty/cty"
 
 	"dipline/steps"
@@ -57,7 +56,7 @@ func (w *Workflow) parseOverrides(list []Override) hcl.Diagnostics {
 			continue
 		}
 		name := "--set " + o.Addr + "." + o.Attr
-		expr, d := hclsyntax.ParseExpression([]byte(o.Value), name, hcl.InitialPos)
+		expr, d := parseValue([]byte(o.Value), name)
 		if d.HasErrors() {
 			diags = append(diags, d...)
 			continue
@@ -233,7 +232,7 @@ func (w *Workflow) decodeParam(s *Step, p steps.Param, expr hcl.Expression) (any
 		}
 		if len(p.Choices) > 0 && !contains(p.Choices, sv) {
 			return nil, hcl.Diagnostics{attrDiag(r, "Unknown choice for "+p.Name,
-				fmt.Sprintf("%q is not one of %s.%s", sv, strings.Join(quoteAll(p.Choices), ", "), suggest(sv, p.Choices)))}
+				fmt.Sprintf("%s is not one of %s.%s", quote(sv), strings.Join(quoteAll(p.Choices), ", "), suggest(sv, p.Choices)))}
 		}
 		return sv, nil
 	case steps.Quantity:
@@ -330,7 +329,7 @@ func refAddr(expr hcl.Expression) (string, *hcl.Diagnostic) {
 	if v, d := expr.Value(nil); !d.HasErrors() {
 		if s, ok := str(v); ok && strings.Count(s, ".") == 1 {
 			return "", attrDiag(expr.Range(), "Quoted step reference",
-				fmt.Sprintf("Write the reference without quotes: %s", s))
+				fmt.Sprintf("Write the reference without quotes: %s", clip(s)))
 		}
 	}
 	tr, diags := hcl.AbsTraversalForExpr(expr)
@@ -365,7 +364,7 @@ func describe(v cty.Value) string {
 	case v.IsNull():
 		return "null"
 	case v.Type() == cty.String:
-		return fmt.Sprintf("the string %q", v.AsString())
+		return "the string " + quote(v.AsString())
 	case v.Type() == cty.Number:
 		return "the number " + v.AsBigFloat().Text('g', -1)
 	case v.Type() == cty.Bool:

@@ -2,6 +2,7 @@ package workflow
 
 import (
 	"encoding/json"
+	"errors"
 	"fmt"
 	"math"
 	"sort"
@@ -101,24 +102,24 @@ func diffStep(store *cache.Store, reg steps.Registry, os, ns cache.RunStep) (Ste
 		return d, nil
 	}
 	d.State = "recomputed"
-	oldP, errO := provenanceOf(store, os.StepKey)
-	newP, errN := provenanceOf(store, ns.StepKey)
-	if errO == nil && errN == nil {
-		d.Why = recordChanges(oldP, newP)
-		oldIn := map[string]string{}
-		for _, in := range oldP.Inputs {
-			oldIn[in.Param+"\x00"+in.Address] = in.ResultKey
-		}
-		for _, in := range newP.Inputs {
-			if rk, ok := oldIn[in.Param+"\x00"+in.Address]; ok && rk != in.ResultKey {
-				d.Why = append(d.Why, fmt.Sprintf("the result of %s changed", in.Address))
+	oldP, whyO, err := provenanceOf(store, os.StepKey)
+	if err != nil {
+		return d, err
+	}
+	newP, whyN, err := provenanceOf(store, ns.StepKey)
+	if err != nil {
+		return d, err
+	}
+	if oldP != nil && newP != nil {
+		d.Why = provenanceChanges(oldP, newP)
+	} else {
+		var why []string
+		for _, w := range []struct{ run, why string }{{"old", whyO}, {"new", whyN}} {
+			if w.why != "" {
+				why = append(why, "the "+w.run+" run's "+w.why)
 			}
 		}
-		if oldP.Seed != nil && newP.Seed != nil && *oldP.Seed != *newP.Seed {
-			d.Why = append(d.Why, fmt.Sprintf("its seed changed: %d → %d", *oldP.Seed, *newP.Seed))
-		}
-	} else {
-		d.Why = []string{"a provenance record is missing (pruned?), so the cause cannot be shown"}
+		d.Why = append(d.Why, "the cause cannot be shown: "+joinAnd(why))
 	}
 	if os.ResultKey == ns.ResultKey || os.ResultKey.IsZero() || ns.ResultKey.IsZero() {
 		return d, nil
@@ -128,13 +129,12 @@ func diffStep(store *cache.Store, reg steps.Registry, os, ns cache.RunStep) (Ste
 	if kind == nil || reg[os.Kind] != kind {
 		return d, nil
 	}
-	oldF, err := figuresOf(store, kind, os.ResultKey)
-	if err != nil {
-		return d, err
-	}
-	newF, err := figuresOf(store, kind, ns.ResultKey)
-	if err != nil {
-		return d, err
+	oldF, errO := figuresOf(store, kind, os.ResultKey)
+	newF, errN := figuresOf(store, kind, ns.ResultKey)
+	if errO != nil || errN != nil {
+		// A result that is gone or damaged stops only this step's comparison.
+		d.Why = append(d.Why, "its numbers cannot be compared: "+errors.Join(errO, errN).Error())
+		return d, nil
 	}
 	byName := map[string]steps.Figure{}
 	for _, f := range oldF {
@@ -170,19 +170,41 @@ func shiftSize(s Shift) float64 {
 	return math.Abs(s.InSigma)
 }
 
-func provenanceOf(store *cache.Store, key cache.StepKey) (*Provenance, error) {
+// provenanceChanges lists what differs between a step's two provenance records: its own
+// settings, files, rows and version, the upstream results it read, and its seed.
+func provenanceChanges(oldP, newP *Provenance) []string {
+	why := recordChanges(oldP, newP)
+	oldIn := map[string]string{}
+	for _, in := range oldP.Inputs {
+		oldIn[in.Param+"\x00"+in.Address] = in.ResultKey
+	}
+	for _, in := range newP.Inputs {
+		if rk, ok := oldIn[in.Param+"\x00"+in.Address]; ok && rk != in.ResultKey {
+			why = append(why, fmt.Sprintf("the result of %s changed", in.Address))
+		}
+	}
+	if oldP.Seed != nil && newP.Seed != nil && *oldP.Seed != *newP.Seed {
+		why = append(why, fmt.Sprintf("its seed changed: %d → %d", *oldP.Seed, *newP.Seed))
+	}
+	return why
+}
+
+// provenanceOf reads one provenance record. A record that is missing or does not read is
+// no error: it gives a nil record and says why ("" when it read). Only a failure of the
+// store itself is an error.
+func provenanceOf(store *cache.Store, key cache.StepKey) (*Provenance, string, error) {
 	b, ok, err := store.Provenance(key)
 	if err != nil {
-		return nil, err
+		return nil, "", err
 	}
 	if !ok {
-		return nil, fmt.Errorf("no provenance for %s", key.Short())
+		return nil, "provenance record is missing (pruned?)", nil
 	}
 	var p Provenance
 	if err := json.Unmarshal(b, &p); err != nil {
-		return nil, err
+		return nil, fmt.Sprintf("provenance record cannot be read (%v)", err), nil
 	}
-	return &p, nil
+	return &p, "", nil
 }
 
 func figuresOf(store *cache.Store, kind steps.Kind, rk cache.ResultKey) ([]steps.Figure, error) {

@@ -36,20 +36,5 @@ func inspectGuarded(in steps.Inspector, s *Step) (err error) {
 			err = fmt.Errorf("internal error while inspecting (please report it): %v", p)
 		}
 	}()
-	return in.Inspect(s.Config, readInputs(s))
-}
-
-// readInputs gives a step the files and catalogue rows it reads, as Run receives them
-// (references are left empty: they are other steps' results).
-func readInputs(s *Step) steps.Inputs {
-	in := steps.Inputs{Refs: map[string][]steps.Artifact{}, Files: map[string][]steps.File{}, Rows: map[string]steps.Row{}}
-	for name, row := range s.Rows {
-		in.Rows[name] = row.Row()
-	}
-	for name, files := range s.Files {
-		for _, f := range files {
-			in.Files[name] = append(in.Files[name], steps.File{Name: f.Path, Data: f.Data})
-		}
-	}
-	return in
+	return in.Inspect(s.Config, stepInputs(s, nil))
 }

@@ -1,7 +1,10 @@
 // Package workflow turns a workflow file into a graph of steps and runs it.
 //
 // Load parses and validates a file against the registered step kinds and reports every
-// mistake as an hcl.Diagnostic with its file:line:col. Run walks the graph: it derives each
+// mistake as an hcl.Diagnostic with its file:line:col. A workflow is shared between
+// collaborators, so Load trusts nothing in it: every path it names is opened inside the
+// workflow's folder (or a folder the user allows, Access), and the file, its values and its
+// data are held to stated bounds (bounds.go). Run walks the graph: it derives each
 // step's key from its decoded configuration, the result keys of the steps it references and
 // the digests of the files it reads, reuses a stored result when the key is known, and
 // otherwise runs the step on the shared token pool and commits the result with its
@@ -16,12 +19,9 @@ import (
 	"crypto/sha256"
 	"fmt"
 	"math"
-	"os"
 	"path/filepath"
-	"strings"
 
 	"github.com/hashicorp/hcl/v2"
-	"github.com/hashicorp/hcl/v2/hclparse"
 	"github.com/hashicorp/hcl/v2/hclsyntax"
 	"github.com/zclconf/go-cty/cty"
 
@@ -46,7 +46,8 @@ type Workflow struct {
 	Name string
 	// Seed is the workflow seed every random stream derives from.
 	Seed uint64
-	// StorePath and OutputDir are absolute.
+	// StorePath and OutputDir are absolute; Load has checked them, and made their folders,
+	// inside the workflow's folder or a folder the user allowed.
 	StorePath string
 	OutputDir string
 	// Steps are in file order; Order is a topological order of them.
@@ -64,6 +65,11 @@ type Workflow struct {
 	byAddr     map[string]*Step
 	overrides  map[string]*override
 	catalogues map[string]*Catalogue
+	// unreadable holds the labels of catalogue blocks that did not load, so that the steps
+	// reading them are not told the block does not exist.
+	unreadable map[string]bool
+	// fo holds the open folders while loading; nil afterwards.
+	fo *folders
 }
 
 // Step is one step block.
@@ -98,29 +104,44 @@ type FileInput struct {
 // Step returns the step at an address, or nil.
 func (w *Workflow) Step(addr string) *Step { return w.byAddr[addr] }
 
-// Load reads, parses and validates a workflow file. The returned diagnostics may hold
-// warnings alongside a usable workflow; on errors the workflow is nil.
+// Load reads, parses and validates a workflow file, confined to its folder. The returned
+// diagnostics may hold warnings alongside a usable workflow; on errors the workflow is nil.
 func Load(path string, reg steps.Registry) (*Workflow, hcl.Diagnostics) {
-	return load(path, reg, nil)
+	return LoadWithAccess(path, reg, nil, Access{})
 }
 
-func load(path string, reg steps.Registry, overrides []Override) (*Workflow, hcl.Diagnostics) {
-	src, err := os.ReadFile(path)
-	if err != nil {
-		return nil, hcl.Diagnostics{{Severity: hcl.DiagError, Summary: "Cannot read workflow",
-			Detail: err.Error()}}
+// LoadWith is Load with command-line overrides applied to step attributes.
+func LoadWith(path string, reg steps.Registry, overrides []Override) (*Workflow, hcl.Diagnostics) {
+	return LoadWithAccess(path, reg, overrides, Access{})
+}
+
+// LoadWithAccess is LoadWith with the folders beyond the workflow's own that the user lets
+// it use, and the bound on the data it reads.
+func LoadWithAccess(path string, reg steps.Registry, overrides []Override, acc Access) (*Workflow, hcl.Diagnostics) {
+	w, diags := load(path, reg, overrides, acc)
+	return w, capDiagnostics(diags)
+}
+
+func load(path string, reg steps.Registry, overrides []Override, acc Access) (*Workflow, hcl.Diagnostics) {
+	src, diags := readWorkflow(path)
+	if diags.HasErrors() {
+		return nil, diags
 	}
-	parser := hclparse.NewParser()
-	f, diags := parser.ParseHCL(src, path)
+	f, diags := parseWorkflow(src, path)
 	if diags.HasErrors() {
 		return nil, diags
 	}
 	dir, err := filepath.Abs(filepath.Dir(path))
 	if err != nil {
-		return nil, hcl.Diagnostics{{Severity: hcl.DiagError, Summary: "Cannot resolve folder", Detail: err.Error()}}
+		return nil, hcl.Diagnostics{{Severity: hcl.DiagError, Summary: "Cannot find the workflow's folder", Detail: err.Error()}}
 	}
-	w := &Workflow{Path: path, Dir: dir, Digest: sha256.Sum256(src), byAddr: map[string]*Step{},
-		StorePath: filepath.Join(dir, defaultStore), OutputDir: filepath.Join(dir, defaultOutput)}
+	fo, d := openFolders(dir, acc)
+	if d.HasErrors() {
+		return nil, d
+	}
+	defer fo.close()
+	w := &Workflow{Path: path, Dir: dir, Digest: sha256.Sum256(src), byAddr: map[string]*Step{}, fo: fo}
+	defer func() { w.fo = nil }()
 	if d := w.parseOverrides(overrides); d.HasErrors() {
 		return nil, d
 	}
@@ -134,7 +155,7 @@ func load(path string, reg steps.Registry, overrides []Override) (*Workflow, hcl
 	diags = append(diags, d...)
 
 	// Catalogues first: steps name their rows.
-	w.catalogues = map[string]*Catalogue{}
+	w.catalogues, w.unreadable = map[string]*Catalogue{}, map[string]bool{}
 	for _, b := range content.Blocks {
 		if b.Type != catalogueBlock {
 			continue
@@ -149,9 +170,14 @@ func load(path string, reg steps.Registry, overrides []Override) (*Workflow, hcl
 		if c != nil {
 			w.catalogues[c.Label] = c
 			w.Catalogues = append(w.Catalogues, c)
+		} else {
+			w.unreadable[b.Labels[0]] = true
 		}
 	}
 	sawSettings := false
+	places := settingsPlaces{store: defaultStore, output: defaultOutput,
+		storeAt: hcl.Range{Filename: path, Start: hcl.InitialPos, End: hcl.InitialPos}}
+	places.outputAt = places.storeAt
 	for _, b := range content.Blocks {
 		if b.Type == catalogueBlock {
 			continue
@@ -163,7 +189,7 @@ func load(path string, reg steps.Registry, overrides []Override) (*Workflow, hcl
 				continue
 			}
 			sawSettings = true
-			diags = append(diags, w.decodeSettings(b)...)
+			diags = append(diags, w.decodeSettings(b, &places)...)
 			continue
 		}
 		s := &Step{Kind: reg[b.Type], Label: b.Labels[0], Addr: b.Type + "." + b.Labels[0], block: b.DefRange,
@@ -199,11 +225,24 @@ func load(path string, reg steps.Registry, overrides []Override) (*Workflow, hcl
 	if diags.HasErrors() {
 		return nil, diags
 	}
+	// Last, so that a workflow with mistakes makes no folders.
+	diags = append(diags, w.place(places)...)
+	if diags.HasErrors() {
+		return nil, diags
+	}
 	return w, diags
 }
 
-func (w *Workflow) decodeSettings(b *hcl.Block) hcl.Diagnostics {
+// settingsPlaces are the store and output paths as the analysis block writes them (or
+// their defaults), with where they are written.
+type settingsPlaces struct {
+	store, output     string
+	storeAt, outputAt hcl.Range
+}
+
+func (w *Workflow) decodeSettings(b *hcl.Block, places *settingsPlaces) hcl.Diagnostics {
 	w.Name = b.Labels[0]
+	places.storeAt, places.outputAt = b.DefRange, b.DefRange
 	content, diags := b.Body.Content(&hcl.BodySchema{Attributes: []hcl.AttributeSchema{
 		{Name: "seed", Required: true}, {Name: "store"}, {Name: "output"},
 	}})
@@ -219,7 +258,7 @@ func (w *Workflow) decodeSettings(b *hcl.Block) hcl.Diagnostics {
 			}
 		}
 	}
-	for name, dst := range map[string]*string{"store": &w.StorePath, "output": &w.OutputDir} {
+	for _, name := range []string{"store", "output"} {
 		a := content.Attributes[name]
 		if a == nil {
 			continue
@@ -234,11 +273,28 @@ func (w *Workflow) decodeSettings(b *hcl.Block) hcl.Diagnostics {
 			diags = append(diags, attrDiag(a.Expr.Range(), "Invalid path", "Give a path as a string, relative to the workflow's folder."))
 			continue
 		}
-		*dst = filepath.Join(w.Dir, s)
-		if filepath.IsAbs(s) {
-			*dst = s
+		if name == "store" {
+			places.store, places.storeAt = s, a.Expr.Range()
+		} else {
+			places.output, places.outputAt = s, a.Expr.Range()
 		}
 	}
+	return diags
+}
+
+// place checks the store and output paths and makes their folders, inside the workflow's
+// folder or one the user allowed.
+func (w *Workflow) place(p settingsPlaces) hcl.Diagnostics {
+	var diags hcl.Diagnostics
+	store, d := w.fo.place(p.store, p.storeAt, "store", false)
+	if d != nil {
+		diags = append(diags, d)
+	}
+	out, d := w.fo.place(p.output, p.outputAt, "output", true)
+	if d != nil {
+		diags = append(diags, d)
+	}
+	w.StorePath, w.OutputDir = store, out
 	return diags
 }
 
@@ -264,28 +320,8 @@ func attrDiag(r hcl.Range, summary, detail string) *hcl.Diagnostic {
 	return &hcl.Diagnostic{Severity: hcl.DiagError, Summary: summary, Detail: detail, Subject: r.Ptr()}
 }
 
-// readFile reads a file a step names, which must stay inside the workflow's folder.
+// readFile reads a file a step or a catalogue names, inside the workflow's folder or one
+// the user allowed, within the bound on data (access.go).
 func (w *Workflow) readFile(p string, r hcl.Range) (*FileInput, *hcl.Diagnostic) {
-	if filepath.IsAbs(p) {
-		return nil, attrDiag(r, "File outside the workflow", fmt.Sprintf("%q is an absolute path; name data files relative to the workflow's folder, so a collaborator's copy reads the same files.", p))
-	}
-	full := filepath.Join(w.Dir, p)
-	rel, err := filepath.Rel(w.Dir, full)
-	if err != nil || rel == ".." || strings.HasPrefix(rel, ".."+string(filepath.Separator)) {
-		return nil, attrDiag(r, "File outside the workflow", fmt.Sprintf("%q leaves the workflow's folder; keep data files inside it.", p))
-	}
-	data, err := os.ReadFile(full)
-	if err != nil {
-		detail := err.Error()
-		if os.IsNotExist(err) {
-			detail = fmt.Sprintf("There is no file %q (looked in %s).", p, w.Dir)
-		}
-		return nil, attrDiag(r, "Missing file", detail)
-	}
-	return &FileInput{Path: p, Data: data, Digest: sha256.Sum256(data)}, nil
-}
-
-// LoadWith is Load with command-line overrides applied to step attributes.
-func LoadWith(path string, reg steps.Registry, overrides []Override) (*Workflow, hcl.Diagnostics) {
-	return load(path, reg, overrides)
+	return w.fo.readFile(p, r)
 }

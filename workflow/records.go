@@ -3,6 +3,8 @@ package workflow
 import (
 	"encoding/hex"
 	"encoding/json"
+	"errors"
+	"fmt"
 	"os"
 	"path/filepath"
 	"runtime"
@@ -10,6 +12,7 @@ import (
 	"sync"
 	"time"
 
+	"dipline/cache"
 	"dipline/steps"
 )
 
@@ -30,6 +33,35 @@ type Provenance struct {
 	Tool      Tool              `json:"tool"`
 	Started   time.Time         `json:"started"`
 	Seconds   float64           `json:"seconds"`
+}
+
+// CheckProvenance says whether a stored provenance record reads: JSON of a Provenance that
+// names the step key it is stored under. Verify lists the records that do not, and a
+// salvage drops them.
+func CheckProvenance(k cache.StepKey, rec []byte) error {
+	var p Provenance
+	if err := json.Unmarshal(rec, &p); err != nil {
+		return fmt.Errorf("not a provenance record (%v)", err)
+	}
+	switch {
+	case p.StepKey == "":
+		return errors.New("it names no step key")
+	case p.StepKey != k.String():
+		return fmt.Errorf("it names another step key, %.12s…", p.StepKey)
+	}
+	return nil
+}
+
+// BadProvenance reads the store's provenance records one at a time and returns those that
+// do not read, each with what is wrong.
+func BadProvenance(store *cache.Store) ([]cache.BadRecord, error) {
+	var bad []cache.BadRecord
+	err := store.EachProvenance(func(k cache.StepKey, rec []byte) {
+		if err := CheckProvenance(k, rec); err != nil {
+			bad = append(bad, cache.ProvenanceProblem(k, rec, err))
+		}
+	})
+	return bad, err
 }
 
 // InputRecord is one referenced step's keys at the time of computation.

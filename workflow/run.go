@@ -6,6 +6,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"os"
 	"path/filepath"
 	"runtime"
 	"sort"
@@ -101,45 +102,41 @@ func Run(ctx context.Context, w *Workflow, store *cache.Store, opt Options) (*Re
 	runCtx, stop := context.WithCancelCause(ctx)
 	defer stop(nil)
 	pool := steps.NewPool(opt.Workers)
-	started := opt.Now()
 
 	r := &runner{w: w, store: store, pool: pool, opt: opt, parent: ctx, stop: stop, done: map[*Step]chan struct{}{},
-		out: map[*Step]*Outcome{}}
+		out: map[*Step]*Outcome{}, run: startRecord(w, opt.Now())}
 	for _, s := range w.Order {
 		r.done[s] = make(chan struct{})
 		r.out[s] = &Outcome{Step: s}
 	}
-	var wg sync.WaitGroup
-	for _, s := range w.Order {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			defer close(r.done[s])
-			r.step(runCtx, s)
-		}()
+	runErr := &RunError{}
+	// The record is written before any step runs, and each step's line is added as it
+	// finishes, so a run that is killed leaves a record of all it stored (cache.Run).
+	if err := store.PutRun(r.run); err != nil {
+		err = fmt.Errorf("writing the run record: %w", err)
+		runErr.Faults = append(runErr.Faults, err)
+		for _, o := range r.out {
+			o.Status, o.Err, o.Cause, o.Message = StatusSkipped, err, CauseStopped, "not run: the run's record could not be written"
+		}
+	} else {
+		r.runAll(runCtx)
 	}
-	wg.Wait()
 
 	rep := &Report{}
-	run := cache.Run{ID: cache.NewRunID(started), Started: started.UTC(), Workflow: hexKey(w.Digest), File: w.Path}
-	if len(w.Overrides) > 0 {
-		run.Overrides = map[string]string{}
-		for _, o := range w.Overrides {
-			run.Overrides[o.Addr+"."+o.Attr] = o.Value
-		}
-	}
-	runErr := &RunError{}
+	run := r.run
+	run.State, run.Ended = cache.RunEnded, opt.Now().UTC()
 	for _, s := range w.Steps {
 		o := r.out[s]
 		rep.Outcomes = append(rep.Outcomes, o)
-		run.Steps = append(run.Steps, cache.RunStep{Address: s.Addr, Kind: s.Kind.Name(), StepKey: o.StepKey,
-			ResultKey: o.ResultKey, Status: o.Status, Seconds: o.Seconds})
+		run.Steps = append(run.Steps, stepLine(o))
 		runErr.add(o)
 		runErr.Interrupted = runErr.Interrupted || (o.Cause == CauseStopped && ctx.Err() != nil)
 	}
 	rep.Run = run
-	if err := store.PutRun(run); err != nil {
-		runErr.Faults = append(runErr.Faults, fmt.Errorf("writing the run record: %w", err))
+	if len(runErr.Faults) == 0 {
+		if err := store.PutRun(run); err != nil {
+			runErr.Faults = append(runErr.Faults, fmt.Errorf("writing the run record: %w", err))
+		}
 	}
 	path := filepath.Join(w.OutputDir, "results.json")
 	if err := writeAtomic(path, marshal(resultsOf(w, run.ID, rep.Outcomes))); err != nil {
@@ -153,6 +150,56 @@ func Run(ctx context.Context, w *Workflow, store *cache.Store, opt Options) (*Re
 	return rep, runErr
 }
 
+// startRecord is a run's record as it starts: under way, with no step yet.
+func startRecord(w *Workflow, started time.Time) cache.Run {
+	host, _ := os.Hostname()
+	run := cache.Run{ID: cache.NewRunID(started), Started: started.UTC(), Workflow: hexKey(w.Digest), File: w.Path,
+		Steps: []cache.RunStep{}, State: cache.RunUnderWay, PID: os.Getpid(), Host: host}
+	if len(w.Overrides) > 0 {
+		run.Overrides = map[string]string{}
+		for _, o := range w.Overrides {
+			run.Overrides[o.Addr+"."+o.Attr] = o.Value
+		}
+	}
+	return run
+}
+
+// stepLine is a step's line in the run record.
+func stepLine(o *Outcome) cache.RunStep {
+	return cache.RunStep{Address: o.Step.Addr, Kind: o.Step.Kind.Name(), StepKey: o.StepKey,
+		ResultKey: o.ResultKey, Status: o.Status, Seconds: o.Seconds}
+}
+
+// runAll runs every step in its own goroutine and waits for them all.
+func (r *runner) runAll(ctx context.Context) {
+	var wg sync.WaitGroup
+	for _, s := range r.w.Order {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			defer close(r.done[s])
+			defer r.recoverStep(s)
+			r.step(ctx, s)
+		}()
+	}
+	wg.Wait()
+}
+
+// recoverStep turns a panic anywhere in a step's goroutine (the engine's own code around
+// the step, not only the step's Run, which runGuarded covers) into the step's failure, a
+// fault of the program: the run goes on, and no panic reaches the user.
+func (r *runner) recoverStep(s *Step) {
+	p := recover()
+	if p == nil {
+		return
+	}
+	o := r.out[s]
+	err := &internalError{fmt.Errorf("internal error (please report it): %v", p)}
+	o.Status, o.Err, o.Cause, o.Message = StatusFailed, err, CauseProgram, err.Error()
+	o.Artifact, o.ResultKey = nil, cache.ResultKey{}
+	r.emit(o, nil, "")
+}
+
 type runner struct {
 	w     *Workflow
 	store *cache.Store
@@ -164,6 +211,13 @@ type runner struct {
 	stop   context.CancelCauseFunc
 	done   map[*Step]chan struct{}
 	out    map[*Step]*Outcome
+	// run is the run's record as written at its start.
+	run cache.Run
+	// reused holds the lines of reused steps not yet in the stored record: they are
+	// written before the next computation starts (and with the final record), which spares
+	// a run that reuses everything a transaction per step.
+	reused   []cache.RunStep
+	reusedMu sync.Mutex
 
 	evMu sync.Mutex
 }
@@ -241,6 +295,7 @@ func (r *runner) step(ctx context.Context, s *Step) {
 			art, derr := s.Kind.Decode(data)
 			if derr == nil {
 				o.Status, o.ResultKey, o.Artifact = StatusReused, rk, art
+				r.note(stepLine(o))
 				r.emit(o, r.storedNotes(key), "")
 				return
 			}
@@ -255,31 +310,23 @@ func (r *runner) step(ctx context.Context, s *Step) {
 		}
 	}
 
-	in := steps.Inputs{Refs: map[string][]steps.Artifact{}, Files: map[string][]steps.File{}, Rows: map[string]steps.Row{}}
-	for name, row := range s.Rows {
-		in.Rows[name] = row.Row()
-	}
-	for name, addrs := range s.Refs {
-		for _, a := range addrs {
-			in.Refs[name] = append(in.Refs[name], r.out[r.w.byAddr[a]].Artifact)
-		}
-	}
-	for name, files := range s.Files {
-		for _, f := range files {
-			in.Files[name] = append(in.Files[name], steps.File{Name: f.Path, Data: f.Data})
-		}
-	}
+	in := stepInputs(s, func(a string) steps.Artifact { return r.out[r.w.byAddr[a]].Artifact })
 	var (
 		notes   []string
 		notesMu sync.Mutex
 	)
-	env := steps.Env{Pool: r.pool, Notef: func(format string, args ...any) {
+	env := r.w.stepEnv(s, r.pool, func(format string, args ...any) {
 		notesMu.Lock()
 		notes = append(notes, fmt.Sprintf(format, args...))
 		notesMu.Unlock()
-	}}
-	if s.Kind.Random() {
-		env.Seed = r.w.StepSeed(s)
+	})
+	// Before a computation, which may be long, the record gets the reused steps' lines, so
+	// a run killed during it names every result it had used.
+	if lines := r.noted(); len(lines) > 0 {
+		if err := r.store.CommitStep(r.run.ID, lines); err != nil {
+			r.storeFault(o, fmt.Errorf("recording the reused steps in the run record: %w", err))
+			return
+		}
 	}
 	if err := r.pool.Acquire(ctx); err != nil {
 		r.skip(o, CauseStopped, r.stopReason(ctx, false))
@@ -301,12 +348,30 @@ func (r *runner) step(ctx context.Context, s *Step) {
 	data := art.Encode()
 	rk := cache.ResultKeyOf(data)
 	prov := r.provenance(s, key, rk, upstream, env, notes, began, o.Seconds)
-	if err := r.store.Commit(cache.Entry{Step: key, Result: rk, Data: data, Provenance: marshal(prov)}); err != nil {
+	line := cache.RunStep{Address: s.Addr, Kind: s.Kind.Name(), StepKey: key, ResultKey: rk, Status: StatusComputed, Seconds: o.Seconds}
+	entry := cache.Entry{Step: key, Result: rk, Data: data, Provenance: marshal(prov)}
+	if err := r.store.CommitStep(r.run.ID, append(r.noted(), line), entry); err != nil {
 		r.storeFault(o, fmt.Errorf("storing the result: %w", err))
 		return
 	}
 	o.Status, o.ResultKey, o.Artifact = StatusComputed, rk, art
 	r.emit(o, notes, warning)
+}
+
+// note keeps a reused step's line for the next commit.
+func (r *runner) note(line cache.RunStep) {
+	r.reusedMu.Lock()
+	r.reused = append(r.reused, line)
+	r.reusedMu.Unlock()
+}
+
+// noted takes the reused steps' lines kept so far.
+func (r *runner) noted() []cache.RunStep {
+	r.reusedMu.Lock()
+	defer r.reusedMu.Unlock()
+	lines := r.reused
+	r.reused = nil
+	return lines
 }
 
 // runGuarded runs a step, turning a panic into an error so that no panic reaches the user.

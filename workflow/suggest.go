@@ -1,12 +1,35 @@
 package workflow
 
-import "fmt"
+import "unicode/utf8"
+
+// A suggestion is a courtesy for a mistyped name; these bound what it may cost when the
+// candidates are a large catalogue's ids.
+const (
+	// maxSuggestRunes: names longer than this are not typed by hand.
+	maxSuggestRunes = 64
+	// maxSuggestWork bounds the cells of the edit-distance tables computed for one
+	// suggestion, some 0.1 s of work; candidates beyond it are not considered.
+	maxSuggestWork = 20_000_000
+)
 
 // suggest returns ` Did you mean "x"?` for the closest candidate within a small edit
 // distance, or "".
 func suggest(given string, candidates []string) string {
 	best, bestD := "", 3 // at most two edits away
+	n := utf8.RuneCountInString(given)
+	if n > maxSuggestRunes {
+		return ""
+	}
+	work := 0
 	for _, c := range candidates {
+		// Lengths that differ by bestD or more cannot be closer.
+		m := utf8.RuneCountInString(c)
+		if abs(m-n) >= bestD {
+			continue
+		}
+		if work += (n + 1) * (m + 1); work > maxSuggestWork {
+			break
+		}
 		if d := editDistance(given, c); d < bestD {
 			best, bestD = c, d
 		}
@@ -14,7 +37,7 @@ func suggest(given string, candidates []string) string {
 	if best == "" {
 		return ""
 	}
-	return fmt.Sprintf(" Did you mean %q?", best)
+	return " Did you mean " + quote(best) + "?"
 }
 
 // editDistance is the Levenshtein distance between a and b, in runes.
@@ -37,4 +60,11 @@ func editDistance(a, b string) int {
 		prev, cur = cur, prev
 	}
 	return prev[len(rb)]
+}
+
+func abs(n int) int {
+	if n < 0 {
+		return -n
+	}
+	return n
 }

@@ -14,6 +14,10 @@ import (
 type TraceNode struct {
 	Provenance Provenance
 	Inputs     []*TraceNode
+	// Problem says why the step's provenance record is missing or cannot be read. The
+	// node then holds what the record that led to it knew (address, kind, keys), with the
+	// problem as a note, and the trace goes on with the other steps.
+	Problem string
 }
 
 // TraceTarget is what a trace starts from: a step, and optionally one of its figures.
@@ -81,36 +85,55 @@ func Trace(store *cache.Store, reg steps.Registry, runRef, target string) (*Trac
 			return nil, fmt.Errorf("%s has no figure %q.%s", addr, figName, suggest(figName, names))
 		}
 	}
-	t.Root, err = traceNode(store, rs.StepKey, map[string]*TraceNode{})
+	t.Root, err = traceNode(store, stepRef{rs.Address, rs.Kind, rs.StepKey.String(), rs.ResultKey.String()}, map[string]*TraceNode{})
 	return t, err
 }
 
-func traceNode(store *cache.Store, key cache.StepKey, seen map[string]*TraceNode) (*TraceNode, error) {
-	if n := seen[key.String()]; n != nil {
+// stepRef is what leads a trace to a step: its address, kind and keys, as the run record
+// or the reading step's provenance gives them.
+type stepRef struct{ address, kind, stepKey, resultKey string }
+
+// traceNode reads the provenance of the step ref names, then of the steps it read. A record
+// that is missing or does not read becomes a node with its Problem; only a failure of the
+// store itself stops the trace.
+func traceNode(store *cache.Store, ref stepRef, seen map[string]*TraceNode) (*TraceNode, error) {
+	if n := seen[ref.stepKey]; n != nil {
 		return n, nil
+	}
+	key, err := cache.ParseStepKey(ref.stepKey)
+	if err != nil {
+		return problemNode(ref, fmt.Sprintf("the step key recorded for it does not read (%v)", err)), nil
 	}
 	b, ok, err := store.Provenance(key)
 	if err != nil {
 		return nil, err
 	}
 	if !ok {
-		return nil, fmt.Errorf("no provenance record for step key %s (pruned?)", key.Short())
+		return problemNode(ref, "no provenance record is stored for its step key (pruned, or dropped by a salvage)"), nil
 	}
 	n := &TraceNode{}
 	if err := json.Unmarshal(b, &n.Provenance); err != nil {
-		return nil, fmt.Errorf("provenance record %s: %w", key.Short(), err)
+		return problemNode(ref, fmt.Sprintf("its provenance record cannot be read (%v)", err)), nil
 	}
-	seen[key.String()] = n
+	seen[ref.stepKey] = n
 	for _, in := range n.Provenance.Inputs {
-		k, err := cache.ParseStepKey(in.StepKey)
-		if err != nil {
-			return nil, err
-		}
-		child, err := traceNode(store, k, seen)
+		child, err := traceNode(store, stepRef{in.Address, kindOf(in.Address), in.StepKey, in.ResultKey}, seen)
 		if err != nil {
 			return nil, err
 		}
 		n.Inputs = append(n.Inputs, child)
 	}
 	return n, nil
+}
+
+// problemNode stands for a step whose provenance cannot be shown.
+func problemNode(ref stepRef, problem string) *TraceNode {
+	return &TraceNode{Problem: problem, Provenance: Provenance{Address: ref.address, Kind: ref.kind,
+		StepKey: ref.stepKey, ResultKey: ref.resultKey, Notes: []string{problem}}}
+}
+
+// kindOf is the kind in an address "kind.label".
+func kindOf(addr string) string {
+	kind, _, _ := strings.Cut(addr, ".")
+	return kind
 }

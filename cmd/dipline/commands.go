@@ -54,6 +54,9 @@ func (c *cli) run(args []string) int {
 	})
 	if err != nil {
 		fmt.Fprintln(c.err, "dipline run:", err)
+		if errors.Is(err, cache.ErrNotALock) {
+			return exitBadUser // a file of someone else's where the lock belongs
+		}
 		return exitFailed
 	}
 	defer lock.Release()
@@ -150,7 +153,15 @@ func (c *cli) check(args []string) int {
 	if !ok {
 		return exitBadUser
 	}
-	fmt.Fprintf(c.out, "%s: %d steps, no mistakes found\n", path, len(w.Steps))
+	// The data too: what a run would refuse in a file is caught here, before anything runs.
+	if refused := workflow.Inspect(w); len(refused) > 0 {
+		for _, r := range refused {
+			fmt.Fprintf(c.err, "%s %s: %v\n", w.Path, r.Step.Addr, r.Err)
+		}
+		fmt.Fprintf(c.out, "%s: %d steps; the data of %d would be refused\n", path, len(w.Steps), len(refused))
+		return exitBadUser
+	}
+	fmt.Fprintf(c.out, "%s: %d steps, no mistakes found in the workflow or its data\n", path, len(w.Steps))
 	for _, s := range w.Order {
 		var deps []string
 		for _, d := range s.Deps {
@@ -166,33 +177,15 @@ func (c *cli) check(args []string) int {
 }
 
 func (c *cli) openStore(path string) (*workflow.Workflow, *cache.Store, int) {
-	w, ok := c.load(path, nil)
-	if !ok {
-		return nil, nil, exitBadUser
-	}
-	store, err := cache.Open(w.StorePath)
-	if err != nil {
-		fmt.Fprintln(c.err, "dipline:", err)
-		return nil, nil, exitFailed
-	}
-	return w, store, exitOK
+	return c.openStoreWith(path, true)
 }
 
 // storeArgs parses a command's options, takes the workflow file from the positionals,
 // checks that want further arguments remain (any number when want < 0; usage says what
-// they are) and opens the workflow's store. A non-zero code means the command is over.
+// they are) and opens the workflow's store, refusing one whose file is cut short or whose
+// header is damaged (store.go, storeArgsWith). A non-zero code means the command is over.
 func (c *cli) storeArgs(fs *flag.FlagSet, args []string, want int, usage string) (*workflow.Workflow, *cache.Store, []string, int) {
-	pos, ok := c.flags(fs, args)
-	if !ok {
-		return nil, nil, nil, exitBadUser
-	}
-	path, rest := splitWorkflow(pos)
-	if want >= 0 && len(rest) != want {
-		fmt.Fprintf(c.err, "dipline %s: %s\n", fs.Name(), usage)
-		return nil, nil, nil, exitBadUser
-	}
-	w, store, code := c.openStore(path)
-	return w, store, rest, code
+	return c.storeArgsWith(fs, args, want, usage, true)
 }
 
 func (c *cli) pending(args []string) int {
@@ -202,8 +195,7 @@ func (c *cli) pending(args []string) int {
 	}
 	verdicts, err := workflow.Pending(w, store)
 	if err != nil {
-		fmt.Fprintln(c.err, "dipline pending:", err)
-		return exitFailed
+		return c.storeFailed("pending", err)
 	}
 	n := 0
 	for _, v := range verdicts {
@@ -298,35 +290,54 @@ func (c *cli) runs(args []string) int {
 	if code != exitOK {
 		return code
 	}
-	runs, err := store.Runs()
+	runs, bad, err := store.RunRecords()
 	if err != nil {
-		fmt.Fprintln(c.err, "dipline runs:", err)
-		return exitFailed
+		return c.storeFailed("runs", err)
 	}
 	pins, err := store.Pins()
 	if err != nil {
-		fmt.Fprintln(c.err, "dipline runs:", err)
-		return exitFailed
+		return c.storeFailed("runs", err)
 	}
+	live := store.Liveness()
 	for _, r := range runs {
-		counts := map[string]int{}
-		for _, s := range r.Steps {
-			counts[s.Status]++
-		}
-		line := fmt.Sprintf("%s  %s  %d computed, %d reused", r.ID, r.Started.Local().Format("2006-01-02 15:04"),
-			counts[workflow.StatusComputed], counts[workflow.StatusReused])
-		if n := counts[workflow.StatusFailed]; n > 0 {
-			line += fmt.Sprintf(", %d failed", n)
-		}
-		if note, ok := pins[r.ID]; ok {
-			line += "  [pinned: " + note + "]"
-		}
-		for k, v := range r.Overrides {
-			line += fmt.Sprintf("  --set %s=%s", k, v)
-		}
-		fmt.Fprintln(c.out, line)
+		fmt.Fprintln(c.out, runLine(r, live.StateOf(r), pins))
+	}
+	for _, b := range bad {
+		fmt.Fprintf(c.out, "%.80s  its record cannot be read (%s); skipped (`dipline store verify --drop-damaged` removes it)\n", b.Key, b.Why)
 	}
 	return exitOK
+}
+
+// runLine describes one run: its id and start, what its steps did, whether it is still
+// under way or was interrupted, its pin and its command-line settings.
+func runLine(r cache.Run, state string, pins map[string]string) string {
+	counts := map[string]int{}
+	for _, s := range r.Steps {
+		counts[s.Status]++
+	}
+	line := fmt.Sprintf("%s  %s  %d computed, %d reused", r.ID, r.Started.Local().Format("2006-01-02 15:04"),
+		counts[workflow.StatusComputed], counts[workflow.StatusReused])
+	if n := counts[workflow.StatusFailed]; n > 0 {
+		line += fmt.Sprintf(", %d failed", n)
+	}
+	switch state {
+	case cache.RunUnderWay:
+		line += fmt.Sprintf(" so far  [under way, pid %d]", r.PID)
+	case cache.RunInterrupted:
+		line += "  [interrupted: stopped before it ended; what it stored is kept]"
+	}
+	if note, ok := pins[r.ID]; ok {
+		line += "  [pinned: " + note + "]"
+	}
+	keys := make([]string, 0, len(r.Overrides))
+	for k := range r.Overrides {
+		keys = append(keys, k)
+	}
+	sort.Strings(keys)
+	for _, k := range keys {
+		line += fmt.Sprintf("  --set %s=%s", k, r.Overrides[k])
+	}
+	return line
 }
 
 func (c *cli) pin(args []string) int {
@@ -339,8 +350,7 @@ func (c *cli) pin(args []string) int {
 	}
 	run, err := store.FindRun(rest[0])
 	if err != nil {
-		fmt.Fprintln(c.err, "dipline pin:", err)
-		return exitBadUser
+		return c.lookupFailed("pin", err)
 	}
 	if *remove {
 		err = store.Unpin(run.ID)
@@ -348,8 +358,7 @@ func (c *cli) pin(args []string) int {
 		err = store.Pin(run.ID, *note)
 	}
 	if err != nil {
-		fmt.Fprintln(c.err, "dipline pin:", err)
-		return exitFailed
+		return c.storeFailed("pin", err)
 	}
 	verb := "pinned"
 	if *remove {

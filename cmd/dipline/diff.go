@@ -29,8 +29,7 @@ func (c *cli) diff(args []string) int {
 	}
 	rep, err := workflow.Diff(store, c.reg, oldRef, newRef)
 	if err != nil {
-		fmt.Fprintln(c.err, "dipline diff:", err)
-		return exitBadUser
+		return c.lookupFailed("diff", err)
 	}
 	fmt.Fprintf(c.out, "from run %s (%s)\n  to run %s (%s)\n", rep.Old.ID, rep.Old.Started.Local().Format("2006-01-02 15:04:05"),
 		rep.New.ID, rep.New.Started.Local().Format("2006-01-02 15:04:05"))

@@ -36,7 +36,7 @@ const usage = `dipline — transit analyses as one workflow file, recomputed onl
 
 Usage:
   dipline run     [workflow.hcl] [--workers N] [--events FILE] [--wait DURATION] [--set kind.label.attr=value]
-  dipline check   [workflow.hcl]                 validate the workflow without computing
+  dipline check   [workflow.hcl]                 validate the workflow and its data without computing
   dipline pending [workflow.hcl]                 what a run would recompute, and why
   dipline trace   [workflow.hcl] kind.label[/figure] [--run RUN]
                                                  the chain from a result down to its input files
@@ -46,11 +46,17 @@ Usage:
                                                  and latest) and how far each number moved
   dipline pin     [workflow.hcl] RUN [--note TEXT] [--remove]
                                                  keep a run (and all it used) safe from pruning
-  dipline store   stats|verify|prune|merge [workflow.hcl] [options]
+  dipline store   stats|verify|prune|merge|salvage [workflow.hcl] [options]
+                                                 look after the store (dipline store help)
   dipline kinds                                  the step kinds and their attributes
   dipline starter LIGHTCURVE [--out analysis.hcl] write a starter workflow for a light curve
 
-The workflow file defaults to analysis.hcl in the current folder.
+The workflow file defaults to analysis.hcl in the current folder. A workflow reads and
+writes only inside its own folder; these options, before or after the command, widen that:
+  --also-allow DIR   let the workflow use DIR too (its files, or a store or results there);
+                     repeatable
+  --max-data SIZE    let its data files and catalogues take up to SIZE in all, e.g. 2GiB
+                     (default 512MiB)
 `
 
 func main() {
@@ -74,6 +80,16 @@ func realMain(args []string, stdout, stderr io.Writer) (code int) {
 		return exitFailed
 	}
 	c := &cli{reg: reg, out: stdout, err: stderr}
+	global := flag.NewFlagSet("dipline", flag.ContinueOnError)
+	c.globalFlags(global)
+	global.SetOutput(stderr)
+	if err := global.Parse(args); err != nil {
+		return exitBadUser
+	}
+	if args = global.Args(); len(args) == 0 {
+		fmt.Fprintf(stderr, "dipline: name a command\n\n%s", usage)
+		return exitBadUser
+	}
 	cmds := map[string]func([]string) int{
 		"run": c.run, "check": c.check, "pending": c.pending, "trace": c.trace, "runs": c.runs,
 		"pin": c.pin, "diff": c.diff, "store": c.storeCmd, "kinds": c.kinds, "starter": c.starter,
@@ -90,11 +106,31 @@ type cli struct {
 	reg steps.Registry
 	out io.Writer
 	err io.Writer
+	// access is what the workflow may reach beyond its folder (--also-allow, --max-data).
+	access workflow.Access
+}
+
+// globalFlags adds the options every command that reads a workflow takes: given before the
+// command or among its own options.
+func (c *cli) globalFlags(fs *flag.FlagSet) {
+	fs.Func("also-allow", "let the workflow use this folder too (repeatable)", func(dir string) error {
+		if dir == "" {
+			return errors.New("name a folder")
+		}
+		c.access.Allow = append(c.access.Allow, dir)
+		return nil
+	})
+	fs.Func("max-data", "let the workflow's data files and catalogues take up to this much in all, e.g. 2GiB", func(s string) error {
+		n, err := workflow.ParseSize(s)
+		c.access.MaxData = n
+		return err
+	})
 }
 
 // flags parses options placed anywhere among the arguments and returns the positionals.
 func (c *cli) flags(fs *flag.FlagSet, args []string) ([]string, bool) {
 	fs.SetOutput(c.err)
+	c.globalFlags(fs)
 	var pos []string
 	for {
 		if err := fs.Parse(args); err != nil {
@@ -118,7 +154,7 @@ func splitWorkflow(pos []string) (string, []string) {
 }
 
 func (c *cli) load(path string, overrides []workflow.Override) (*workflow.Workflow, bool) {
-	w, diags := workflow.LoadWith(path, c.reg, overrides)
+	w, diags := workflow.LoadWithAccess(path, c.reg, overrides, c.access)
 	c.printDiags(diags)
 	return w, w != nil && !diags.HasErrors()
 }
@@ -148,6 +184,9 @@ func (c *cli) printDiags(diags hcl.Diagnostics) {
 // the program or the store (or the run was interrupted), else 2 when the user's data or
 // settings are at fault.
 func exitFor(err error) int {
+	if damagedStore(err) { // a damaged store file is not the program's fault (store.go)
+		return exitBadUser
+	}
 	var re *workflow.RunError
 	if errors.As(err, &re) {
 		if re.Program() || re.Interrupted {

@@ -193,7 +193,7 @@ func TestStoreVerifyPinAndPrune(t *testing.T) {
 	}
 	f.write("analysis.hcl", strings.Replace(workflowText, `span        = "0.5 d"`, `span        = "0.7 d"`, 1))
 	f.dipline("run")
-	code, out, _ := f.dipline("store", "prune", "--keep-last", "1")
+	code, out, _ := f.dipline("store", "prune", "--spare", "1")
 	if code != 0 || !strings.Contains(out, "dropped 0 runs") {
 		t.Fatalf("prune dropped a pinned run (exit %d):\n%s", code, out)
 	}

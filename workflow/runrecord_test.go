@@ -1,0 +1,149 @@
+package workflow
+
+import (
+	"context"
+	"errors"
+	"os"
+	"strings"
+	"testing"
+
+	"dipline/cache"
+)
+
+func TestARunIsRecordedFromItsStart(t *testing.T) {
+	p := newProject(t, map[string]string{
+		"analysis.hcl": "analysis \"toy\" { seed = 1 }\nsource \"a\" { files = \"x.txt\" }\ntrouble \"h\" {\n  mode  = \"hook\"\n  after = [source.a]\n}\n",
+		"x.txt":        "3\n",
+	})
+	w, err := p.load()
+	if err != nil {
+		t.Fatal(err)
+	}
+	store, err := cache.Open(w.StorePath)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// While trouble.h runs, source.a has finished: the record must be there, under way,
+	// with source.a's line.
+	var during []cache.Run
+	troubleHook = func() { during, _ = store.Runs() }
+	defer func() { troubleHook = nil }()
+	if _, err := Run(context.Background(), w, store, Options{Workers: 2}); err != nil {
+		t.Fatal(err)
+	}
+	if len(during) != 1 || during[0].State != cache.RunUnderWay || during[0].PID != os.Getpid() {
+		t.Fatalf("records during the run: %+v", during)
+	}
+	if len(during[0].Steps) != 1 || during[0].Steps[0].Address != "source.a" || during[0].Steps[0].ResultKey.IsZero() {
+		t.Errorf("the record under way lists %+v, want source.a with its result", during[0].Steps)
+	}
+	after, err := store.Runs()
+	if err != nil || len(after) != 1 || after[0].State != cache.RunEnded || after[0].Ended.IsZero() || len(after[0].Steps) != 2 {
+		t.Errorf("the record after the run: %+v, %v", after, err)
+	}
+}
+
+func TestAPanicAroundAStepIsAFaultOfThatStepOnly(t *testing.T) {
+	// A panic in the engine's own code in a step's goroutine (here: while it reports the
+	// step's outcome) must not crash the run: that step fails as a fault of the program,
+	// and the others finish.
+	p := chainProject(t)
+	onEvent := func(ev Event) {
+		if ev.Step == "floor.fa" && ev.Status == StatusComputed {
+			panic("a fault while reporting")
+		}
+	}
+	rep, _, err := p.runWith(context.Background(), Options{OnEvent: onEvent})
+	re := runError(t, err)
+	if !re.Program() {
+		t.Errorf("run error %v: want a fault of the program", err)
+	}
+	if o := outcomeOf(t, rep, "floor.fa"); o.Status != StatusFailed || o.Cause != CauseProgram || !strings.Contains(o.Message, "internal error") {
+		t.Errorf("floor.fa: %s, %s, %q", o.Status, o.Cause, o.Message)
+	}
+	if o := outcomeOf(t, rep, "source.b"); o.Status != StatusComputed {
+		t.Errorf("source.b: %s, want computed", o.Status)
+	}
+	if o := outcomeOf(t, rep, "combine.sum"); o.Status != StatusSkipped || o.Cause != CauseUpstream {
+		t.Errorf("combine.sum: %s, %s; want skipped after floor.fa", o.Status, o.Cause)
+	}
+}
+
+func TestARunOnADamagedStoreRunsNothingAndSaysSo(t *testing.T) {
+	p := chainProject(t)
+	p.run()
+	w, _ := p.load()
+	if err := os.Truncate(w.StorePath, 3*4096); err != nil {
+		t.Fatal(err)
+	}
+	rep, rf, err := p.runWith(context.Background(), Options{})
+	if !errors.Is(err, cache.ErrDamaged) || !strings.Contains(err.Error(), "cut short") {
+		t.Fatalf("run on a store cut short: %v", err)
+	}
+	for _, o := range rep.Outcomes {
+		if o.Status != StatusSkipped || o.Cause != CauseStopped {
+			t.Errorf("%s: %s, %s; want skipped", o.Step.Addr, o.Status, o.Cause)
+		}
+	}
+	if len(rf.Failures) != len(rep.Outcomes) {
+		t.Errorf("the results file lists %d of %d steps as not run", len(rf.Failures), len(rep.Outcomes))
+	}
+}
+
+func TestABadProvenanceRecordDoesNotStopTraceOrDiff(t *testing.T) {
+	p := chainProject(t)
+	_, first := p.run()
+	p.write("data/a.txt", "1.25\n3.5\n") // floor.fa and combine.sum change
+	_, second := p.run()
+	w, _ := p.load()
+	store, _ := cache.Open(w.StorePath)
+	var badKey cache.StepKey
+	for _, s := range second.Run.Steps {
+		if s.Address == "source.a" {
+			badKey = s.StepKey
+		}
+	}
+	if err := cache.PutRawForTest(w.StorePath, "provenance", badKey[:], []byte(`{"address": "source.a", "kind`)); err != nil {
+		t.Fatal(err)
+	}
+	t.Run("trace shows the others and says what is wrong with it", func(t *testing.T) {
+		tr, err := Trace(store, toyRegistry(), "", "combine.sum")
+		if err != nil {
+			t.Fatal(err)
+		}
+		var bad *TraceNode
+		var walk func(n *TraceNode)
+		walk = func(n *TraceNode) {
+			if n.Provenance.Address == "source.a" {
+				bad = n
+			}
+			for _, c := range n.Inputs {
+				walk(c)
+			}
+		}
+		walk(tr.Root)
+		if bad == nil || !strings.Contains(bad.Problem, "cannot be read") || bad.Provenance.StepKey != badKey.String() {
+			t.Errorf("the node of the bad record: %+v", bad)
+		}
+		if len(tr.Root.Inputs) != 2 {
+			t.Errorf("combine.sum has %d inputs traced, want 2", len(tr.Root.Inputs))
+		}
+	})
+	t.Run("diff goes on and says why a cause cannot be shown", func(t *testing.T) {
+		d, err := Diff(store, toyRegistry(), first.Run.ID, second.Run.ID)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, s := range d.Steps {
+			if s.Address == "source.a" && (s.State != "changed" || !strings.Contains(strings.Join(s.Why, " "), "cannot be read")) {
+				t.Errorf("source.a: %s %v", s.State, s.Why)
+			}
+		}
+	})
+	t.Run("verify's check of provenance records names it", func(t *testing.T) {
+		bad, err := BadProvenance(store)
+		if err != nil || len(bad) != 1 || bad[0].Key != badKey.String() {
+			t.Errorf("BadProvenance = %v, %v", bad, err)
+		}
+	})
+}
