@@ -31,11 +31,16 @@ type VerifyReport struct {
 	// BadRecords are run records that do not read; the engine adds the provenance
 	// records that do not read (the store cannot judge them) before DropDamaged.
 	BadRecords []BadRecord
+	// Disagreeing are step keys whose mapping the engine found at odds with their
+	// provenance (a result the provenance does not name, no provenance at all); the engine
+	// adds them, and DropDamaged deletes their mapping and provenance so the next run
+	// computes those steps afresh.
+	Disagreeing []StepKey
 }
 
 // OK reports whether Verify found nothing wrong.
 func (r VerifyReport) OK() bool {
-	return len(r.Corrupt) == 0 && len(r.Missing) == 0 && !r.FileDamaged() && len(r.BadRecords) == 0
+	return len(r.Corrupt) == 0 && len(r.Missing) == 0 && !r.FileDamaged() && len(r.BadRecords) == 0 && len(r.Disagreeing) == 0
 }
 
 // FileDamaged reports whether the file's layout or pages are damaged, which DropDamaged
@@ -241,6 +246,12 @@ func dropTx(tx *bolt.Tx, r VerifyReport) (int, error) {
 		return 0, err
 	}
 	dropped += n
+	for _, sk := range r.Disagreeing {
+		if err := tx.Bucket(bucketProvenance).Delete(sk[:]); err != nil {
+			return 0, err
+		}
+		stale = append(stale, bytes.Clone(sk[:]))
+	}
 	for _, k := range stale {
 		if steps.Get(k) == nil {
 			continue // listed twice

@@ -196,9 +196,42 @@ func (w *Workflow) planAll(store *cache.Store, opt RecomputeOptions) (*Recompute
 		plans[i] = w.planRecompute(rs, e, ok)
 		checked[rs.StepKey] = true
 	}
-	rep.Problems, rep.Mappings = entryProblems(list, checked)
+	rep.Problems, _, rep.Mappings = entryProblems(list, checked)
 	rep.Problems = append(rep.Problems, runProblems(runs, entries, checked)...)
 	return rep, plans, nil
+}
+
+// Agreement is what StoreAgreement found.
+type Agreement struct {
+	// Problems are in plain sentences; Disagreeing the step keys whose entries are at odds
+	// with their provenance (what DropDamaged removes); Mappings the mappings checked.
+	Problems    []string
+	Disagreeing []cache.StepKey
+	Mappings    int
+}
+
+// StoreAgreement checks, without running anything, that the store agrees with itself:
+// every step key maps to the result its provenance names (with a provenance record that
+// reads and describes that key), and every step of every run record that gave a result has
+// such an entry. `store verify` runs it; Recompute runs it for the steps it does not run
+// again.
+func StoreAgreement(store *cache.Store) (Agreement, error) {
+	runs, err := store.Runs()
+	if err != nil {
+		return Agreement{}, err
+	}
+	list, err := store.StepEntries()
+	if err != nil {
+		return Agreement{}, err
+	}
+	entries := make(map[cache.StepKey]cache.StepEntry, len(list))
+	for _, e := range list {
+		entries[e.Step] = e
+	}
+	var a Agreement
+	a.Problems, a.Disagreeing, a.Mappings = entryProblems(list, nil)
+	a.Problems = append(a.Problems, runProblems(runs, entries, nil)...)
+	return a, nil
 }
 
 // runPlans runs the planned steps that are ready, each on a token of one pool of the
@@ -547,8 +580,9 @@ func (w *Workflow) storedArtifacts(store *cache.Store, s *Step, upstream map[str
 // step by step: a malformed entry, a mapping without provenance, a provenance record that
 // cannot be read or describes another key, a mapping to a result its provenance does not
 // name. It returns the problems and the number of mappings.
-func entryProblems(list []cache.StepEntry, checked map[cache.StepKey]bool) ([]string, int) {
+func entryProblems(list []cache.StepEntry, checked map[cache.StepKey]bool) ([]string, []cache.StepKey, int) {
 	var out []string
+	var bad []cache.StepKey
 	mappings := 0
 	for _, e := range list {
 		if e.Mapped {
@@ -557,6 +591,7 @@ func entryProblems(list []cache.StepEntry, checked map[cache.StepKey]bool) ([]st
 		if checked[e.Step] {
 			continue
 		}
+		n := len(out)
 		switch {
 		case e.Malformed:
 			out = append(out, fmt.Sprintf("the store's entry for step key %s is malformed", e.Step.Short()))
@@ -572,8 +607,11 @@ func entryProblems(list []cache.StepEntry, checked map[cache.StepKey]bool) ([]st
 					e.Step, prov.Address, e.Result, named))
 			}
 		}
+		if len(out) > n {
+			bad = append(bad, e.Step)
+		}
 	}
-	return out, mappings
+	return out, bad, mappings
 }
 
 // runProblems checks that every step of every run record that gave a result has a

@@ -45,6 +45,21 @@ func TestVerifyRecomputesTheStoredSteps(t *testing.T) {
 	if code != exitBadUser || !strings.Contains(out, "search.dips") || !strings.Contains(out, detrend.ResultKey[:12]) {
 		t.Fatalf("swapped mapping: exit %d\n%s%s", code, out, errs)
 	}
+	// Plain verify sees it too (the mapping against its provenance, nothing run), and
+	// --drop-damaged removes it, so the next run computes the search afresh.
+	code, out, _ = f.dipline("store", "verify")
+	if code != exitBadUser || !strings.Contains(out, "the mapping disagrees with the provenance: step key "+search.StepKey) {
+		t.Fatalf("plain verify: exit %d\n%s", code, out)
+	}
+	if code, out, _ = f.dipline("store", "verify", "--drop-damaged"); code != exitOK || !strings.Contains(out, "removed 1 damaged entries") {
+		t.Fatalf("drop: exit %d\n%s", code, out)
+	}
+	if code, out, _ = f.dipline("run"); code != exitOK || !strings.Contains(out, "computed  search.dips") {
+		t.Fatalf("run after the drop: exit %d\n%s", code, out)
+	}
+	if p, ok := figureIn(stepIn(t, f.results(), "search.dips"), "signal1.period"); !ok || p < 2.4 || p > 2.6 {
+		t.Errorf("the search after the drop finds %v (present %v), want the 2.5-d dips", p, ok)
+	}
 }
 
 // `check` reads the data too: a light curve a run would refuse is refused before anything

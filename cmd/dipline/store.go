@@ -95,18 +95,29 @@ func (c *cli) verifyStored(store *cache.Store, drop bool) int {
 	if err != nil {
 		return c.storeFailed("store verify", err)
 	}
+	var agree workflow.Agreement
 	if !rep.FileDamaged() {
 		bad, err := workflow.BadProvenance(store)
 		if err != nil {
 			return c.storeFailed("store verify", err)
 		}
 		rep.BadRecords = append(rep.BadRecords, bad...)
+		if agree, err = workflow.StoreAgreement(store); err != nil {
+			return c.storeFailed("store verify", err)
+		}
+		rep.Disagreeing = agree.Disagreeing
 	}
 	c.printVerify(rep)
+	for _, p := range agree.Problems {
+		fmt.Fprintf(c.out, "  %s\n", p)
+	}
 	switch {
-	case rep.OK():
-		fmt.Fprintln(c.out, "every result matches its key, and every record and page reads")
+	case rep.OK() && len(agree.Problems) == 0:
+		fmt.Fprintln(c.out, "every result matches its key, every step key the result its provenance names, and every record and page reads")
 		return exitOK
+	case rep.OK():
+		fmt.Fprintln(c.out, "a run record lists results its step keys' provenance does not name; the store's entries themselves agree")
+		return exitBadUser
 	case rep.FileDamaged():
 		fmt.Fprintf(c.out, "the file itself is damaged: `dipline store salvage --into NEW.db` copies all that still reads into a new store\n")
 		return exitBadUser
