@@ -152,134 +152,158 @@ type piece struct {
 // at gaps longer than cfg.GapOver and each piece is filtered on its own. Masked points are
 // left out of the estimate; where a masked point's own window is too thin, its trend is
 // interpolated linearly in time between the nearest unmasked points with a trend on both
-// sides (dropped when there is a side without one). Flares are then removed upward only: points whose relative
-// residual f/trend − 1 exceeds cfg.FlareSigma times the piece's robust scatter (1.4826·MAD
-// of the residuals of unmasked points) are marked and left out, and the trend re-estimated,
-// until no new flare appears. Points below the trend are never removed. par may be nil.
+// sides (dropped when there is a side without one). Flares are then removed upward only:
+// points whose relative residual f/trend − 1 exceeds cfg.FlareSigma times the piece's robust
+// scatter (1.4826·MAD of the residuals of unmasked points) are marked and left out, and the
+// trend re-estimated, until no new flare appears. Points below the trend are never removed.
+// par may be nil.
 func Detrend(cfg Config, series []Series, par Parallel) []Result {
 	if par == nil {
-		par = func(n int, block func(int)) {
-			for i := 0; i < n; i++ {
-				block(i)
-			}
+		par = serial
+	}
+	d := newDriver(cfg, series, par)
+	for round := 0; ; round++ {
+		jobs, act := d.jobs(round)
+		if len(act) == 0 {
+			break
+		}
+		par(len(jobs), func(k int) { d.estimate(jobs[k]) })
+		last := round == maxFlareRounds || (cfg.Estimator == LocalPoly && round == localFlareRounds)
+		par(len(act), func(k int) { d.settle(&d.pieces[act[k]], last) })
+		for _, pi := range act {
+			d.pieces[pi].active = len(d.pieces[pi].newFlares) > 0
 		}
 	}
-	minPts := max(cfg.MinPoints, 1)
-	half := cfg.Span / 2
-	out := make([]Result, len(series))
-	raw := make([][]float64, len(series))
-	use := make([][]bool, len(series))
-	flare := make([][]bool, len(series))
-	var pieces []piece
+	d.mark()
+	return d.out
+}
+
+// driver holds Detrend's state: per series the output, the raw trend of the last estimate,
+// which points may enter a window and which are flares; and the gap-free pieces.
+type driver struct {
+	cfg        Config
+	series     []Series
+	par        Parallel
+	minPts     int
+	half       float64
+	out        []Result
+	raw        [][]float64
+	use, flare [][]bool
+	pieces     []piece
+}
+
+// job is one unit of parallel work: points [from, to) of piece p.
+type job struct{ p, from, to int }
+
+// newDriver marks the unusable points and cuts every series into pieces at its gaps.
+func newDriver(cfg Config, series []Series, par Parallel) *driver {
+	d := &driver{cfg: cfg, series: series, par: par, minPts: max(cfg.MinPoints, 1), half: cfg.Span / 2,
+		out: make([]Result, len(series)), raw: make([][]float64, len(series)),
+		use: make([][]bool, len(series)), flare: make([][]bool, len(series))}
 	for si, s := range series {
 		n := len(s.Time)
-		out[si] = Result{Trend: make([]float64, n), Marks: make([]Mark, n)}
-		raw[si] = make([]float64, n)
-		use[si] = make([]bool, n)
-		flare[si] = make([]bool, n)
+		d.out[si] = Result{Trend: make([]float64, n), Marks: make([]Mark, n)}
+		d.raw[si], d.use[si], d.flare[si] = make([]float64, n), make([]bool, n), make([]bool, n)
 		for j := 0; j < n; j++ {
 			ok := finite(s.Flux[j]) && finite(s.Time[j]) && (s.Err == nil || finite(s.Err[j]))
 			if !ok {
-				out[si].Marks[j] = NonFinite
+				d.out[si].Marks[j] = NonFinite
 			}
-			use[si][j] = ok && !(s.Mask != nil && s.Mask[j])
+			d.use[si][j] = ok && !(s.Mask != nil && s.Mask[j])
 		}
 		start := 0
 		for j := 1; j <= n; j++ {
 			if j == n || s.Time[j]-s.Time[j-1] > cfg.GapOver {
-				pieces = append(pieces, piece{s: si, from: start, to: j, active: true})
-				out[si].Pieces++
+				d.pieces = append(d.pieces, piece{s: si, from: start, to: j, active: true})
+				d.out[si].Pieces++
 				start = j
 			}
 		}
 	}
+	return d
+}
 
-	type job struct{ p, from, to int }
-	var jobs []job
-	var act []int
-	for round := 0; ; round++ {
-		jobs = jobs[:0]
-		act = act[:0]
-		for pi := range pieces {
-			p := &pieces[pi]
-			if !p.active {
-				continue
+// jobs lists the work of one round and the pieces still active. The whole-piece
+// estimators (spline, local polynomial) redo a piece; the window filters redo, after the
+// first round, only the points whose window holds a new flare, in runs cut into blocks of
+// at most blockSize.
+func (d *driver) jobs(round int) (jobs []job, act []int) {
+	for pi := range d.pieces {
+		p := &d.pieces[pi]
+		if !p.active {
+			continue
+		}
+		act = append(act, pi)
+		switch {
+		case d.cfg.Estimator == Spline || d.cfg.Estimator == LocalPoly:
+			jobs = append(jobs, job{pi, p.from, p.to})
+		case round == 0:
+			for b := p.from; b < p.to; b += blockSize {
+				jobs = append(jobs, job{pi, b, min(b+blockSize, p.to)})
 			}
-			act = append(act, pi)
-			if cfg.Estimator == Spline || cfg.Estimator == LocalPoly {
-				jobs = append(jobs, job{pi, p.from, p.to})
-				continue
-			}
-			t := series[p.s].Time
-			if round == 0 {
-				for b := p.from; b < p.to; b += blockSize {
-					jobs = append(jobs, job{pi, b, min(b+blockSize, p.to)})
-				}
-				continue
-			}
-			// Only points whose window holds a new flare change: recompute those, in runs
-			// cut into blocks of at most blockSize.
-			tp := t[p.from:p.to]
+		default:
+			tp := d.series[p.s].Time[p.from:p.to]
 			end := 0
 			for _, tf := range p.newFlares {
-				lo := max(sort.SearchFloat64s(tp, tf-half), end)
-				hi := sort.Search(len(tp), func(j int) bool { return tp[j] > tf+half })
+				lo := max(sort.SearchFloat64s(tp, tf-d.half), end)
+				hi := sort.Search(len(tp), func(j int) bool { return tp[j] > tf+d.half })
 				for b := lo; b < hi; b += blockSize {
 					jobs = append(jobs, job{pi, p.from + b, p.from + min(b+blockSize, hi)})
 				}
 				end = max(end, hi)
 			}
 		}
-		if len(act) == 0 {
-			break
-		}
-		par(len(jobs), func(k int) {
-			jb := jobs[k]
-			p := pieces[jb.p]
-			s := series[p.s]
-			t, f := s.Time[p.from:p.to], s.Flux[p.from:p.to]
-			u, dst := use[p.s][p.from:p.to], raw[p.s][p.from:p.to]
-			switch cfg.Estimator {
-			case Spline:
-				RobustSpline(dst, t, f, u, cfg.KnotSpacing, cfg.SplineSigma, minPts)
-			case LocalPoly:
-				LocalFilter(dst, t, f, errOf(s, p.from, p.to), u, LocalFit{Half: half, Degree: cfg.Degree, Iterations: cfg.Iterations, MinPoints: minPts}, par)
-			case RunningMedian:
-				MedianFilter(dst, t, f, u, half, minPts, jb.from-p.from, jb.to-p.from)
-			default:
-				BiweightFilter(dst, t, f, u, half, cfg.C, minPts, jb.from-p.from, jb.to-p.from)
-			}
-		})
-		last := round == maxFlareRounds || (cfg.Estimator == LocalPoly && round == localFlareRounds)
-		par(len(act), func(k int) {
-			p := &pieces[act[k]]
-			s := series[p.s]
-			lo, hi := p.from, p.to
-			var mask []bool
-			if s.Mask != nil {
-				mask = s.Mask[lo:hi]
-			}
-			marks := out[p.s].Marks[lo:hi]
-			tr := out[p.s].Trend[lo:hi]
-			fillMasked(tr, raw[p.s][lo:hi], s.Time[lo:hi], mask, marks)
-			p.newFlares = p.newFlares[:0]
-			if last || !(cfg.FlareSigma > 0) {
-				return
-			}
-			p.newFlares = findFlares(p.newFlares, s.Time[lo:hi], s.Flux[lo:hi], errOf(s, lo, hi), tr, use[p.s][lo:hi],
-				flare[p.s][lo:hi], marks, cfg.FlareSigma, minPts)
-		})
-		for _, pi := range act {
-			pieces[pi].active = len(pieces[pi].newFlares) > 0
-		}
 	}
+	return jobs, act
+}
 
-	for si, s := range series {
-		r := out[si]
+// estimate computes the raw trend of one job with the configured estimator.
+func (d *driver) estimate(jb job) {
+	p := d.pieces[jb.p]
+	s := d.series[p.s]
+	t, f := s.Time[p.from:p.to], s.Flux[p.from:p.to]
+	u, dst := d.use[p.s][p.from:p.to], d.raw[p.s][p.from:p.to]
+	switch d.cfg.Estimator {
+	case Spline:
+		RobustSpline(dst, t, f, u, d.cfg.KnotSpacing, d.cfg.SplineSigma, d.minPts)
+	case LocalPoly:
+		LocalFilter(dst, t, f, errOf(s, p.from, p.to), u,
+			LocalFit{Half: d.half, Degree: d.cfg.Degree, Iterations: d.cfg.Iterations, MinPoints: d.minPts}, d.par)
+	case RunningMedian:
+		MedianFilter(dst, t, f, u, d.half, d.minPts, jb.from-p.from, jb.to-p.from)
+	default:
+		BiweightFilter(dst, t, f, u, d.half, d.cfg.C, d.minPts, jb.from-p.from, jb.to-p.from)
+	}
+}
+
+// settle turns a piece's raw trend into its trend (masked points bridged) and, unless this
+// is the last round, finds its new flares.
+func (d *driver) settle(p *piece, last bool) {
+	s := d.series[p.s]
+	lo, hi := p.from, p.to
+	var mask []bool
+	if s.Mask != nil {
+		mask = s.Mask[lo:hi]
+	}
+	marks := d.out[p.s].Marks[lo:hi]
+	tr := d.out[p.s].Trend[lo:hi]
+	fillMasked(tr, d.raw[p.s][lo:hi], s.Time[lo:hi], mask, marks)
+	p.newFlares = p.newFlares[:0]
+	if last || !(d.cfg.FlareSigma > 0) {
+		return
+	}
+	p.newFlares = findFlares(p.newFlares, s.Time[lo:hi], s.Flux[lo:hi], errOf(s, lo, hi), tr, d.use[p.s][lo:hi],
+		d.flare[p.s][lo:hi], marks, d.cfg.FlareSigma, d.minPts)
+}
+
+// mark gives every point its final mark.
+func (d *driver) mark() {
+	for si, s := range d.series {
+		r := d.out[si]
 		for j := range r.Marks {
 			switch {
 			case r.Marks[j] == NonFinite:
-			case flare[si][j]:
+			case d.flare[si][j]:
 				r.Marks[j] = Flare
 			case !(r.Trend[j] > 0) || math.IsInf(r.Trend[j], 0):
 				r.Marks[j] = NoTrend
@@ -290,7 +314,6 @@ func Detrend(cfg Config, series []Series, par Parallel) []Result {
 			}
 		}
 	}
-	return out
 }
 
 // fillMasked copies the raw trend into tr and, at masked points whose raw trend is NaN,
