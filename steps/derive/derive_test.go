@@ -20,7 +20,7 @@ import (
 )
 
 // earthK is Earth's radius over the Sun's, IAU 2015 B3 nominal values (0.0091679,
-// REFERENCES §4 [V]).
+// computed independently at high precision).
 const earthK = astro.EarthRadius / astro.SolarRadius
 
 // earthYear is the sidereal year in days (from memory; the STYLE guide's own example).
@@ -62,16 +62,21 @@ func TestEarthAroundTheSun(t *testing.T) {
 		{"the semi-major axis is 1 au", "a_au", 1, 1e-4,
 			"Kepler's third law with the IAU 2015 B3 (GM)☉ and the IAU 2012 B2 au (STYLE.md check)"},
 		{"the equilibrium temperature is 255 K at A = 0.3 with full redistribution", "teq", 254.6, 0.1,
-			"REFERENCES §7: 254.6 K [V]; ≈255 K on educational pages [C]"},
+			"full-redistribution Teq, common practice; 254.6 K computed independently; textbook ≈255 K"},
 		{"the insolation is Earth's", "insolation", 1, 2e-4, "definition (S/S⊕ at 1 au around 1 L☉)"},
 		{"the radius is one Earth radius", "radius_earth", 1, 1e-8, "IAU 2015 B3 nominal radii"},
-		{"the transit probability is R☉/au", "transit_probability", 0.0046505, 2e-7, "REFERENCES §4 [V]: 0.0046505"},
-		{"T14 is 13.095 h", "t14", 13.095, 3e-3, "REFERENCES §4 [V]: 13.095 h (P = 365.25 d)"},
-		{"T23 is 12.857 h", "t23", 12.857, 3e-3, "REFERENCES §4 [V]: 12.857 h"},
+		{"the transit probability is R☉/au", "transit_probability", 0.0046505, 2e-7,
+			"Winn 2010, arXiv:1001.2010, from memory; computed independently: 0.0046505"},
+		{"T14 is 13.095 h", "t14", 13.095, 3e-3,
+			"Winn 2010, arXiv:1001.2010, from memory; computed independently: 13.095 h (P = 365.25 d)"},
+		{"T23 is 12.857 h", "t23", 12.857, 3e-3,
+			"Winn 2010, arXiv:1001.2010, from memory; computed independently: 12.857 h"},
 		{"the Sun looks as large as from Earth", "star_angle_vs_sun", 1, 1e-4, "same distance, same star"},
-		{"the RV amplitude is 8.946 cm/s", "rv_amplitude", 0.08946, 1e-5, "REFERENCES §9 [V]: 0.08946 m/s for Earth–Sun"},
+		{"the RV amplitude is 8.946 cm/s", "rv_amplitude", 0.08946, 1e-5,
+			"RV semi-amplitude, common practice; computed independently: 0.08946 m/s for Earth–Sun"},
 		{"the inclination is 90 deg", "inclination", 90, 1e-9, "b = 0 (Winn 2010)"},
-		{"the transit density is the Sun's", "star_density_transit", 1.40978, 1e-5, "REFERENCES §4 [V]: ρ☉ = 1409.78 kg/m³"},
+		{"the transit density is the Sun's", "star_density_transit", 1.40978, 1e-5,
+			"Seager & Mallén-Ornelas 2003, ApJ 585, 1038; computed independently: ρ☉ = 1409.78 kg/m³"},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
@@ -84,8 +89,8 @@ func TestEarthAroundTheSun(t *testing.T) {
 }
 
 // TestChenKippingMassOfEarth checks the statistical mass path: 1 R⊕ gives
-// 10^(−0.00346/0.279) = 0.9718 M⊕, the coefficient Kempton et al. (2018) quote for the
-// Terran regime (REFERENCES §8, from memory), and the caution is noted.
+// 10^(−0.00346/0.279) = 0.9718 M⊕, the coefficient Kempton et al. (2018, PASP 130, 114401)
+// quote for the Terran regime (from memory), and the caution is noted.
 func TestChenKippingMassOfEarth(t *testing.T) {
 	post := posterior(500, []planetTruth{{period: earthYear, k: earthK, sdK: 1e-9}}, fixedLnRho(solarDensity), 1)
 	a, notes, err := Derive(Posterior{post.Names, post.Samples}, sun(200, nil), nil, defaultOptions())
@@ -104,8 +109,8 @@ func TestChenKippingMassOfEarth(t *testing.T) {
 }
 
 // TestDepthsAcrossTheSun: Jupiter and Earth across the nominal Sun give 1.056 % and
-// 84.05 ppm (REFERENCES §15 [V] from IAU nominal values), and those depths give back one
-// Jupiter and one Earth radius.
+// 84.05 ppm (computed independently from the IAU 2015 B3 nominal radii), and those depths
+// give back one Jupiter and one Earth radius.
 func TestDepthsAcrossTheSun(t *testing.T) {
 	cases := []struct {
 		name      string
@@ -128,7 +133,8 @@ func TestDepthsAcrossTheSun(t *testing.T) {
 				t.Fatal(err)
 			}
 			if d := mustQuantity(t, a, "b", "depth_undiluted").Median; math.Abs(d-c.depthPPM) > c.depthTol {
-				t.Errorf("depth %.6g ppm, want %.6g ± %g (REFERENCES §15)", d, c.depthPPM, c.depthTol)
+				t.Errorf("depth %.6g ppm, want %.6g ± %g (computed independently from IAU 2015 B3 radii)",
+					d, c.depthPPM, c.depthTol)
 			}
 			if r := mustQuantity(t, a, "b", c.radius).Median; math.Abs(r-1) > c.radiusTol {
 				t.Errorf("%s = %.8g, want 1 ± %g", c.radius, r, c.radiusTol)
@@ -271,8 +277,8 @@ func TestKishESS(t *testing.T) {
 }
 
 // TestDilution: Δm = 0 (an equal twin) multiplies k by √2 and Δm = 2.5 by √1.1 (Ciardi et
-// al. 2015; REFERENCES §14 [V]); a planet on a faint companion comes out too large and is
-// flagged.
+// al. 2015, ApJ 805, 16, form from memory; computed independently); a planet on a faint
+// companion comes out too large and is flagged.
 func TestDilution(t *testing.T) {
 	const k = 0.05
 	twin, _ := astro.FluxRatio(0)
@@ -607,7 +613,7 @@ func TestCoupledFitIsNotReweighted(t *testing.T) {
 }
 
 // TestEccentricColumns: with b.e and b.omega in the fit the eccentricity is reported and the
-// insolation is orbit-averaged, S ∝ 1/(a²√(1 − e²)) (REFERENCES §7, from memory).
+// insolation is orbit-averaged, S ∝ 1/(a²√(1 − e²)) (common practice, from memory).
 func TestEccentricColumns(t *testing.T) {
 	const e = 0.6
 	circ := posterior(300, []planetTruth{{period: earthYear, k: earthK, sdK: 1e-9}}, fixedLnRho(solarDensity), 1)
@@ -895,7 +901,7 @@ func TestWeightsMatchExactDensity(t *testing.T) {
 
 // TestFitThatModelledDilution: when the fit has a "dilution" column (a coupled fit that
 // modelled the flux ratio), its k is the target's already; a twin companion's k is
-// k/√(1+D)·√(1+1/1) = k for D = 1 (REFERENCES §14: Δm = 0).
+// k/√(1+D)·√(1+1/1) = k for D = 1 (Δm = 0; Ciardi et al. 2015, ApJ 805, 16, from memory).
 func TestFitThatModelledDilution(t *testing.T) {
 	const k = 0.05
 	post := posterior(300, []planetTruth{{period: 3, k: k, sdK: 1e-12, b: 0.2}}, fixedLnRho(solarDensity), 3)

@@ -17,7 +17,7 @@ import (
 	"dipline/steps/internal/steptest"
 )
 
-// cadence294 is the 29.4-min long cadence of a space survey (REFERENCES §15), in days.
+// cadence294 is the 29.4-min long cadence of a space survey (common practice), in days.
 const cadence294 = 29.4 / 1440
 
 // photometry stands in for a photometry step's artifact.

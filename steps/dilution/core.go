@@ -14,12 +14,12 @@ import (
 )
 
 // mann15Scatter is the fractional scatter of the Mann et al. (2015, ApJ 804, 64) Ks–radius
-// relation, 2.89 % (Table 1, from memory; REFERENCES §6). A companion radius estimated from
+// relation, 2.89 % (Table 1, from memory). A companion radius estimated from
 // the relation is drawn with this scatter, independently of the target's.
 const mann15Scatter = 0.0289
 
 // mann15MinMK and mann15MaxMK bound the Mann et al. (2015) relation, 4.6 ≤ M_Ks ≤ 9.8 (from
-// memory; REFERENCES §6), as astro.MannRadius enforces.
+// memory), as astro.MannRadius enforces.
 const mann15MinMK, mann15MaxMK = 4.6, 9.8
 
 // maxOutsideFraction is the largest share of a companion's M_K draws that may fall beyond
@@ -153,7 +153,7 @@ func Compute(cfg Config, in Input, seed uint64) (*Result, []string, error) {
 		ratio[j] = rj
 	}
 
-	// Planet on the target: FluxRatio = Σ_j F_j/F_t (REFERENCES §14).
+	// Planet on the target: FluxRatio = Σ_j F_j/F_t (common practice).
 	tgt := make([]float64, n)
 	for _, rj := range ratio {
 		for i, x := range rj {

@@ -106,7 +106,7 @@ func TestTargetRadiusFactorMatchesCiardi(t *testing.T) {
 		dm   float64
 		want float64
 	}{
-		// REFERENCES §14, Ciardi et al. 2015 (ApJ 805, 16) form: X_R = √(1 + 10^(−0.4 Δm)).
+		// Ciardi et al. 2015 (ApJ 805, 16) form, from memory: X_R = √(1 + 10^(−0.4 Δm)).
 		{"an equal twin doubles the light, X_R = √2", 0, math.Sqrt2},
 		{"a companion 2.5 mag fainter gives X_R = √1.1", 2.5, math.Sqrt(1.1)},
 	}
@@ -128,8 +128,8 @@ func TestTargetRadiusFactorMatchesCiardi(t *testing.T) {
 
 func TestPlanetOnCompanionMatchesClosedForm(t *testing.T) {
 	// Two companions, Δm 1 and 2 in the light curve's band; B has R = 0.3 R_sun exactly and
-	// the target 0.5 R_sun, so R_B/R_t = 0.6. Closed form (REFERENCES §14, Ciardi et al.
-	// 2015): X_R = 0.6 √((1 + 10^−0.4 + 10^−0.8) · 10^0.4) = 1.1864222253239811 and
+	// the target 0.5 R_sun, so R_B/R_t = 0.6. Closed form (Ciardi et al. 2015, from memory):
+	// X_R = 0.6 √((1 + 10^−0.4 + 10^−0.8) · 10^0.4) = 1.1864222253239811 and
 	// FluxRatio_B = (1 + 10^−0.8)/10^−0.4 = 2.909993602063078, FluxRatio_C =
 	// (1 + 10^−0.4)/10^−0.8 = 8.821459876311511, target 0.5565964897996085 (evaluated by
 	// hand with python3).
@@ -186,11 +186,11 @@ func TestMonteCarloSigmaMatchesFirstOrderPropagation(t *testing.T) {
 }
 
 func TestCompanionRadiusFromMann(t *testing.T) {
-	// Target M_K = 6.0 and R = 0.44430 (Mann et al. 2015 at M_K 6.0, REFERENCES §6 [V]);
-	// the companion is 1.5 mag fainter in Ks, M_K = 7.5, R = 0.25650 (same check values), so
-	// R_B/R_t = 0.5773126; its draws carry the relation's 2.89 % scatter (from memory), so
-	// σ = 0.0289 × 0.5773 = 0.01668. Tolerances: 4 standard errors of the median
-	// (1.25 σ/√N) and 3 % on σ.
+	// Target M_K = 6.0 and R = 0.44430 (Mann et al. 2015, ApJ 804, 64, at M_K 6.0, computed
+	// independently); the companion is 1.5 mag fainter in Ks, M_K = 7.5, R = 0.25650 (same
+	// check values), so R_B/R_t = 0.5773126; its draws carry the relation's 2.89 % scatter
+	// (from memory), so σ = 0.0289 × 0.5773 = 0.01668. Tolerances: 4 standard errors of the
+	// median (1.25 σ/√N) and 3 % on σ.
 	st := star{}.with(20000, 0.44430, 6.0)
 	r, _ := must(t, setup{lc: lightCurve("Ks", false), comps: []stellar.Companion{comp("B", "Ks", 1.5, 0)}, star: &st, seed: 3})
 	rs := Summarize(r.Hypotheses[1].RadiusScale)
@@ -206,7 +206,7 @@ func TestCompanionRadiusFromMann(t *testing.T) {
 }
 
 func TestCompanionOutsideMannRangeGetsNoRadius(t *testing.T) {
-	// M_K = 9.0 + 1.5 = 10.5 is beyond the relation's 9.8 (REFERENCES §6, from memory).
+	// M_K = 9.0 + 1.5 = 10.5 is beyond the relation's 9.8 (Mann et al. 2015, from memory).
 	st := star{}.with(100, 0.2, 9.0)
 	r, notes := must(t, setup{set: map[string]any{"draws": int64(100)}, lc: lightCurve("Ks", false),
 		comps: []stellar.Companion{comp("B", "Ks", 1.5, 0)}, star: &st})
@@ -218,7 +218,7 @@ func TestCompanionOutsideMannRangeGetsNoRadius(t *testing.T) {
 func TestCompanionNearTheRangeEdgeIsTakenAtTheEdge(t *testing.T) {
 	// M_K = 6.0 + 3.75 ± 0.02 = 9.75 ± 0.02: about 0.6 % of draws (normal tail beyond 2.5σ,
 	// from memory) pass 9.8 and are taken at the edge. Median R_B/R_t = R(9.75)/R(6.0) =
-	// 0.11655/0.44430 = 0.2623228 (Mann et al. 2015 polynomial, REFERENCES §6, python3);
+	// 0.11655/0.44430 = 0.2623228 (Mann et al. 2015 polynomial, from memory; python3);
 	// tolerance 4 standard errors of the median, σ ≈ 0.0289 × 0.262.
 	st := star{}.with(20000, 0.44430, 6.0)
 	r, _ := must(t, setup{lc: lightCurve("Ks", false), comps: []stellar.Companion{comp("B", "Ks", 3.75, 0.02)}, star: &st, seed: 8})
@@ -298,7 +298,7 @@ func withDraws(set map[string]any) map[string]any {
 
 func TestBandRelationIsApplied(t *testing.T) {
 	// Δm_Ks = 2 exactly, Δm_red = 0.1 + 1.2 × 2 = 2.5 → X_R = √1.1 (Ciardi et al. 2015 form,
-	// REFERENCES §14). With a scatter of 0.1 mag, σ_F ≈ 0.4 ln10 × 0.1 × 0.1 = 0.0092103
+	// from memory). With a scatter of 0.1 mag, σ_F ≈ 0.4 ln10 × 0.1 × 0.1 = 0.0092103
 	// (first-order propagation, python3); 5 % allows the curvature at 0.1 mag and the
 	// sampling error of 20000 draws.
 	rel := map[string]string{"from": "Ks", "to": "survey-red", "slope": "1.2", "offset": "0.1", "source": "an invented colour relation"}
@@ -533,7 +533,7 @@ func FuzzDecode(f *testing.F) {
 
 func TestACompanionInTwoBandsUsesTheLightCurvesBand(t *testing.T) {
 	// The flux ratio comes from the row in the light curve's band (Δm 2.5 → F_c/F_t = 0.1,
-	// REFERENCES §14); the Ks row is there for the radius only.
+	// common practice); the Ks row is there for the radius only.
 	comps := []stellar.Companion{
 		{Name: "B", Band: "Ks", DMag: 1.0, DMagErr: 1e-9, Separation: 1, Radius: math.NaN(), RadiusErr: math.NaN()},
 		{Name: "B", Band: "red", DMag: 2.5, DMagErr: 1e-9, Separation: 1, Radius: math.NaN(), RadiusErr: math.NaN()},

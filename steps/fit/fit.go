@@ -35,7 +35,7 @@ const (
 	// integration error with the noise; the factor is our choice).
 	integrationShare = 0.1
 	// lengthPerTau is the chain length after burn-in, in autocorrelation times, at which
-	// sampling stops (50τ, REFERENCES §10).
+	// sampling stops (50τ, common practice).
 	lengthPerTau = 50
 	// burnShare is the share of each chain discarded as burn-in. The walkers start in a small
 	// ball around the optimum, so they forget their start within a few τ; a third of a

@@ -94,8 +94,9 @@ func runKind(t *testing.T, set map[string]any, lc *lightcurve.LightCurve, sig []
 }
 
 func TestHelpersMatchPublishedValues(t *testing.T) {
-	// Check values from REFERENCES §4 [V]: the nominal Sun's density 1.40978 g/cm³
-	// (IAU 2015 B3 nominal GM and R, CODATA 2018 G) and P = 365.25 d give a/R* = 215.029.
+	// Check values computed independently at high precision: the nominal Sun's density
+	// 1.40978 g/cm³ (IAU 2015 B3 nominal GM and R, CODATA 2018 G) and P = 365.25 d give
+	// a/R* = 215.029 (Seager & Mallén-Ornelas 2003, ApJ 585, 1038).
 	const rhoSun = 1.40978
 	cases := []struct {
 		name      string

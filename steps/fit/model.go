@@ -17,7 +17,7 @@ const (
 
 // ScaledAxis is a/R* of a circular orbit of period P (days) around a star of mean density
 // rho (g/cm³) by Kepler's third law, a/R* = (G ρ P² / 3π)^{1/3}, neglecting the planet's
-// mass (Seager & Mallén-Ornelas 2003, ApJ 585, 1038; REFERENCES §4).
+// mass (Seager & Mallén-Ornelas 2003, ApJ 585, 1038).
 func ScaledAxis(period, rho float64) float64 {
 	p := period * secondsPerDay
 	return math.Cbrt(gravity * rho * 1000 * p * p / (3 * math.Pi))

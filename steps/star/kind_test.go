@@ -59,8 +59,8 @@ func exactDwarf(mk float64) map[string]any {
 		"teff": meas(3400, 0), "relation_scatter": false, "draws": int64(minDraws)}
 }
 
-// Check values of REFERENCES §6 [V], recomputed there from the Mann et al. (2015, ApJ 804,
-// 64, Table 1) and Mann et al. (2019, ApJ 871, 63, Table 6) coefficients (from memory).
+// Check values computed independently from the Mann et al. (2015, ApJ 804, 64, Table 1)
+// and Mann et al. (2019, ApJ 871, 63, Table 6) coefficients (from memory).
 func TestCoolDwarfReproducesMannCheckValues(t *testing.T) {
 	cases := []struct {
 		mk, r, m float64
@@ -89,7 +89,7 @@ func TestCoolDwarfReproducesMannCheckValues(t *testing.T) {
 // With [Fe/H] the Mann et al. (2015) form (1.9305 − 0.3466 M_K + 0.01647 M_K²)(1 + 0.04458
 // [Fe/H]) is used (Table 1, from memory); at M_K = 6.0 it gives 0.44382 R_sun for solar
 // metallicity and 0.449756 R_sun at +0.3 dex (computed from those coefficients with
-// python3, REFERENCES §6 form).
+// python3).
 func TestCoolDwarfUsesTheMetallicityForm(t *testing.T) {
 	for _, c := range []struct {
 		feh, r float64
@@ -107,9 +107,9 @@ func TestCoolDwarfUsesTheMetallicityForm(t *testing.T) {
 }
 
 // GJ 411: Ks ≈ 3.34, parallax ≈ 392.6 mas (rough recollections, from memory) give M_Ks = 6.31
-// and a Mann et al. (2015) radius of 0.399 R_sun [V, REFERENCES §6], within the relation's
-// 2.89 % scatter of the interferometric 0.3924 ± 0.0033 R_sun (Boyajian et al. 2012, ApJ
-// 757, 112; from memory).
+// and a Mann et al. (2015) radius of 0.399 R_sun (computed independently), within the
+// relation's 2.89 % scatter of the interferometric 0.3924 ± 0.0033 R_sun (Boyajian et al.
+// 2012, ApJ 757, 112; from memory).
 func TestGJ411SanityValue(t *testing.T) {
 	a, _ := mustRun(t, map[string]any{"method": "cool-dwarf", "parallax": meas(0.3926, 0), "ks": meas(3.34, 0),
 		"teff": meas(3500, 0), "relation_scatter": false, "draws": int64(minDraws)}, steps.Inputs{}, 1)
@@ -168,7 +168,7 @@ func TestRadiusSpreadMatchesFirstOrderPropagation(t *testing.T) {
 }
 
 // The Sun: L = 1 L_sun and Teff = 5772 K give R = 1 R_sun, since the IAU 2015 B3 nominal
-// values satisfy (L/(4πσR²))^¼ = 5772.00 K (REFERENCES §1 [V]); its log g is
+// values satisfy (L/(4πσR²))^¼ = 5772.00 K (computed independently); its log g is
 // log10(100·GM_sun/R_sun²) = 4.438 (IAU 2015 B3 values) and its density the nominal solar one.
 func TestSunThroughStefanBoltzmann(t *testing.T) {
 	a, _ := mustRun(t, map[string]any{"method": "stefan-boltzmann", "luminosity": meas(1, 0), "teff": meas(5772, 0),
@@ -193,7 +193,7 @@ func TestSunThroughStefanBoltzmann(t *testing.T) {
 			t.Errorf("luminosity %.6f L_sun, want 1", l)
 		}
 	})
-	t.Run("the Sun's Teff and log g give 1.049 M_sun by Torres et al. (2010) [V, REFERENCES §6]", func(t *testing.T) {
+	t.Run("the Sun's Teff and log g give 1.049 M_sun by Torres et al. (2010), computed independently", func(t *testing.T) {
 		a, notes := mustRun(t, map[string]any{"method": "stefan-boltzmann", "luminosity": meas(1, 0), "teff": meas(5772, 0),
 			"logg": meas(4.438, 0), "relation_scatter": false, "draws": int64(minDraws)}, steps.Inputs{}, 1)
 		m, _ := summary(a.Star.Mass)
@@ -211,7 +211,7 @@ func hasNote(notes []string, part string) bool {
 }
 
 // A companion of equal Ks brightness (Δm = 0) halves the host's share of the blend: the host
-// is 2.5 log10 2 = 0.7526 mag fainter (Pogson's ratio, common practice; REFERENCES §14).
+// is 2.5 log10 2 = 0.7526 mag fainter (Pogson's ratio, common practice).
 func TestCompanionLightIsRemovedFromKs(t *testing.T) {
 	base := exactDwarf(6.0)
 	base["companions"] = "companions.imaging"
@@ -303,8 +303,8 @@ func TestBenchmarkTransfer(t *testing.T) {
 }
 
 // The local slopes are central differences of the relations; the analytic derivatives of
-// the REFERENCES §6 coefficients (Mann et al. 2015 quadratic, Mann et al. 2019 quintic in
-// log10 M; from memory) must agree to 1e-6.
+// the coefficients of Mann et al. 2015 (ApJ 804, 64; quadratic) and Mann et al. 2019 (ApJ
+// 871, 63; quintic in log10 M), from memory, must agree to 1e-6.
 func TestSlopesMatchAnalyticDerivatives(t *testing.T) {
 	a := []float64{-0.642, -0.208, -8.43e-4, 7.87e-3, 1.42e-4, -2.13e-4}
 	for _, mk := range []float64{4.6, 5.2, 6.31, 8.0, 9.8} {
@@ -328,8 +328,8 @@ func TestSlopesMatchAnalyticDerivatives(t *testing.T) {
 	}
 }
 
-// Past its range a relation is continued by its own polynomial: the REFERENCES §6
-// coefficients (from memory) give R(4.0) = 1.9515 − 0.3520·4 + 0.0168·16 = 0.8123 and
+// Past its range a relation is continued by its own polynomial: the Mann et al. (2015,
+// 2019) coefficients (from memory) give R(4.0) = 1.9515 − 0.3520·4 + 0.0168·16 = 0.8123 and
 // M(11.5) = 0.068302 M_sun.
 func TestRelationsAreContinuedByTheirOwnPolynomial(t *testing.T) {
 	r, err := mannRadius(4.0, 0, false)

@@ -17,23 +17,23 @@ const (
 // Fractional scatter of the relations about their fits, drawn per sample when the
 // relation_scatter attribute is true.
 const (
-	// scatterMann15 is the Mann et al. (2015) radius relation's scatter without [Fe/H]
-	// (2.89 %), scatterMann15FeH with it (2.70 %) (Table 1; from memory, REFERENCES §6).
+	// scatterMann15 is the Mann et al. (2015, ApJ 804, 64) radius relation's scatter without
+	// [Fe/H] (2.89 %), scatterMann15FeH with it (2.70 %) (Table 1; from memory).
 	scatterMann15    = 0.0289
 	scatterMann15FeH = 0.0270
 	// scatterMann19 is the Mann et al. (2019, ApJ 871, 63) mass relation's scatter, about
-	// 2 % (from memory, REFERENCES §6; the abstract quotes 2–3 % precision).
+	// 2 % (from memory; the abstract quotes 2–3 % precision).
 	scatterMann19 = 0.020
 	// scatterTorresLogM is the scatter of the Torres, Andersen & Giménez (2010, A&ARv 18, 67)
-	// mass calibration in log10 M, 0.027 dex (from memory, REFERENCES §6).
+	// mass calibration in log10 M, 0.027 dex (from memory).
 	scatterTorresLogM = 0.027
 	// scatterColourTeff is the scatter of the Mann et al. (2015) V−J temperature relation,
 	// 55 K (from memory).
 	scatterColourTeff = 55.0
 )
 
-// Valid ranges of the relations in absolute Ks magnitude (from memory, REFERENCES §6; the
-// same values astro enforces).
+// Valid ranges of the relations in absolute Ks magnitude (from memory; the same values
+// astro enforces).
 const (
 	mann15Lo, mann15Hi = 4.6, 9.8
 	mann19Lo, mann19Hi = 4.0, 11.0

@@ -44,7 +44,7 @@ func TestParseRejects(t *testing.T) {
 }
 
 func TestSolarDensity(t *testing.T) {
-	// ρ☉ = 1409.78 kg m⁻³ from IAU 2015 B3 nominal values (REFERENCES.md §4, computed there).
+	// ρ☉ = 1409.78 kg m⁻³ from IAU 2015 B3 nominal values (computed independently).
 	got, err := Density.Parse("1 rho_sun")
 	if err != nil {
 		t.Fatal(err)

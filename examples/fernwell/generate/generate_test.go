@@ -189,7 +189,8 @@ func TestSplitmix64(t *testing.T) {
 }
 
 // TestGeometry checks derive on the Sun and Earth against the check values of
-// REFERENCES.md §4 (computed there from Winn 2010 and IAU 2015 B3 nominal values): for
+// Winn (2010, arXiv:1001.2010) with IAU 2015 Resolution B3 nominal values, worked
+// independently at high precision: for
 // P = 365.25 d, circular, b = 0, k = 0.0091679: a/R* = 215.029, T14 = 13.095 h,
 // T23 = 12.857 h. Without limb darkening the depth at b = 0 is exactly k² (Mandel & Agol
 // 2002, uniform source with the planet inside the disc).
@@ -217,7 +218,7 @@ func TestGeometry(t *testing.T) {
 	}
 
 	// Each planet's deficit at mid-transit must be its undiluted depth, the diluted depth
-	// times 1 + F_c/F_t (REFERENCES §14), and the transit must last exactly T14. The edge
+	// times 1 + F_c/F_t (third light, common practice; from memory), and the transit must last exactly T14. The edge
 	// is found by bisection on the model itself.
 	s, c := fw3318, fw3318B
 	f := c.fluxRatio()
@@ -243,8 +244,8 @@ func TestGeometry(t *testing.T) {
 }
 
 // TestOccultedFlux holds the quadrature of occult.go to the Mandel & Agol (2002) closed
-// form: the check values of REFERENCES.md §2 (u1 = 0.4, u2 = 0.25; verified there against
-// an independent 30-digit radial integration), every case of their Table 1 included; and
+// form: check values at u1 = 0.4, u2 = 0.25 computed by an independent 30-digit radial
+// integration of the occulted intensity, every case of their Table 1 included; and
 // to two values at this demo's limb darkening from an independent route, scipy's dblquad
 // over the planet's disc (python3-scipy 1.10.1; the script is quoted below).
 func TestOccultedFlux(t *testing.T) {
@@ -657,8 +658,8 @@ func num(t *testing.T, row map[string]string, col string) float64 {
 }
 
 // Mann et al. (2015, ApJ 804, 64) radius and Mann et al. (2019, ApJ 871, 63) mass from
-// absolute Ks, with the coefficients of REFERENCES.md §6 (from memory there; its check
-// values R(6.0) = 0.44430, M(6.0) = 0.4404 were verified from them and are tested below).
+// absolute Ks, with the published coefficients (from memory; the check values
+// R(6.0) = 0.44430, M(6.0) = 0.4404 were verified from them and are tested below).
 func mannRadius(mk float64) float64 { return 1.9515 - 0.3520*mk + 0.01680*mk*mk }
 
 func mannMass(mk float64) float64 {
@@ -671,8 +672,8 @@ func mannMass(mk float64) float64 {
 }
 
 // absFromCatalogue is the host's absolute Ks from a catalogue row: the blended Ks with the
-// companion's light taken out (REFERENCES §14), then the distance modulus with the
-// parallax (REFERENCES §6).
+// companion's light taken out (F_c/F_t = 10^(−0.4 Δm), common practice), then the distance
+// modulus with the parallax (common practice).
 func absFromCatalogue(t *testing.T, row map[string]string, dKs float64) float64 {
 	ks := num(t, row, "ks") + 2.5*math.Log10(1+math.Pow(10, -0.4*dKs))
 	return ks + 5*math.Log10(num(t, row, "parallax")/1000) + 5
@@ -774,9 +775,9 @@ func TestImagingTable(t *testing.T) {
 		{"the companion is 3.5 mag fainter in Ks", num(t, ks, "dmag"), 3.5, 1e-9},
 		{"the companion is 4.2 mag fainter in the light curve's band", num(t, band, "dmag"), 4.2, 1e-9},
 		{"both rows put it 1.2 arcsec away", num(t, ks, "separation") + num(t, band, "separation"), 2.4, 1e-9},
-		// F_c/F_t = 10^(−0.4 Δm) in the light curve's band (REFERENCES §14).
+		// F_c/F_t = 10^(−0.4 Δm) in the light curve's band (Pogson's ratio, common practice).
 		{"truth.json's flux ratio is the band row's", d.truth.Companion.FluxRatioBand, math.Pow(10, -0.4*num(t, band, "dmag")), 1e-12},
-		// δ_true = δ_obs (1 + F_c/F_t) (REFERENCES §14).
+		// δ_true = δ_obs (1 + F_c/F_t) (third light, common practice; from memory).
 		{"planet b's undiluted depth is its diluted depth times one plus the flux ratio",
 			d.truth.Planets[0].DepthUndilutedPPM, d.truth.Planets[0].DepthDilutedPPM * (1 + d.truth.Companion.FluxRatioBand), 1e-9},
 		{"planet c's undiluted depth is its diluted depth times one plus the flux ratio",

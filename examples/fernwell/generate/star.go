@@ -63,7 +63,7 @@ type companion struct {
 }
 
 // fluxRatio is the companion's light over the host's in the light curve's band,
-// F_c/F_t = 10^(−0.4 Δm) (REFERENCES §14).
+// F_c/F_t = 10^(−0.4 Δm) (Pogson's ratio, common practice).
 func (c *companion) fluxRatio() float64 {
 	if c == nil {
 		return 0

@@ -51,7 +51,7 @@ func directBiweight(x []float64, c float64) float64 {
 }
 
 func TestBiweightLocationMatchesDirectDefinition(t *testing.T) {
-	// Source: the definition (Mosteller & Tukey 1977, REFERENCES §11), implemented slowly
+	// Source: the definition (Mosteller & Tukey 1977, from memory), implemented slowly
 	// above. Agreement to 1e-9 of the scale c·MAD: our iteration stops at 1e-10 of it.
 	rng := newNoise(1)
 	cases := []struct {

@@ -13,5 +13,5 @@ func (n *noise) uniform() float64 { return n.s.Float64() }
 
 func (n *noise) normal() float64 { return n.s.Normal() }
 
-// cadence294 is the 29.4-min long cadence of a space survey, in days (REFERENCES §15).
+// cadence294 is the 29.4-min long cadence of a space survey, in days (common practice).
 const cadence294 = 29.4 / 1440

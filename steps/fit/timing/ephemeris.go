@@ -21,8 +21,8 @@ type Ephemeris struct {
 	SigmaT0, SigmaPeriod float64 // one-sigma errors, days
 	Cov                  float64 // covariance of T0 and Period, days²
 	// RefEpoch is the epoch nearest the weighted mean epoch; at it the mid-time TRef is
-	// nearly uncorrelated with the period (REFERENCES §13), so TRef ± SigmaTRef is the
-	// epoch to quote.
+	// nearly uncorrelated with the period (common practice, from memory), so TRef ±
+	// SigmaTRef is the epoch to quote.
 	RefEpoch        int64
 	TRef, SigmaTRef float64
 	Rows            []OC

@@ -249,7 +249,7 @@ func TestEphemerisAgreesWithNormalEquations(t *testing.T) {
 	if eph.Dof != 7 || len(eph.Rows) != 9 {
 		t.Errorf("dof %d with %d rows, want 7 and 9 (the skipped transit left out)", eph.Dof, len(eph.Rows))
 	}
-	// σ²(T_ref) = σ²_T0 + n²σ²_P + 2n cov (REFERENCES §13).
+	// σ²(T_ref) = σ²_T0 + n²σ²_P + 2n cov (standard propagation, common practice; from memory).
 	n := float64(eph.RefEpoch)
 	if v := eph.SigmaT0*eph.SigmaT0 + n*n*eph.SigmaPeriod*eph.SigmaPeriod + 2*n*eph.Cov; math.Abs(math.Sqrt(v)-eph.SigmaTRef) > 1e-6*eph.SigmaTRef {
 		t.Errorf("σ(T_ref) %.6g, propagation gives %.6g", eph.SigmaTRef, math.Sqrt(v))

@@ -28,7 +28,7 @@ func totalOverTarget(dms []float64) (float64, error) {
 // UndilutedDepth returns the transit depth the target alone would show,
 // δ_true = δ_obs (1 + Σ 10^{−0.4 Δm_i}), for an observed depth and the magnitude
 // differences dms (companion minus target, light-curve band) of every star in the aperture
-// (REFERENCES §14, standard, from memory).
+// (common practice, from memory).
 func UndilutedDepth(observed float64, dms []float64) (float64, error) {
 	if !finite(observed) {
 		return 0, domainf("depth %g must be finite", observed)

@@ -7,7 +7,7 @@ import (
 )
 
 // Ciardi et al. (2015, ApJ 805, 16) radius correction (form from memory); check values
-// REFERENCES §14 [V]: Δm = 0 → √2, Δm = 2.5 → √1.1.
+// computed independently: Δm = 0 → √2, Δm = 2.5 → √1.1.
 func TestRadiusCorrection(t *testing.T) {
 	cases := []struct {
 		name string
@@ -27,7 +27,7 @@ func TestRadiusCorrection(t *testing.T) {
 		{"a planet on an equal twin is corrected by √2 too",
 			func() (float64, error) { return CompanionRadiusCorrection([]float64{0}, 0, 1) }, math.Sqrt2},
 		// Planet on a companion 2.5 mag fainter with 0.5 the target's radius:
-		// F_tot/F_c = 1.1 · 10 = 11, X_R = 0.5 √11 (REFERENCES §14 form, hand arithmetic).
+		// F_tot/F_c = 1.1 · 10 = 11, X_R = 0.5 √11 (Ciardi et al. 2015 form, hand arithmetic).
 		{"a planet on a fainter, smaller companion is 0.5√11 times larger than assumed",
 			func() (float64, error) { return CompanionRadiusCorrection([]float64{2.5}, 0, 0.5) }, 0.5 * math.Sqrt(11)},
 		// Depth: 1000 ppm observed with an equal twin is 2000 ppm undiluted.

@@ -2,8 +2,8 @@ package astro
 
 import "math"
 
-// Heat-redistribution factors f for EquilibriumTemperature (REFERENCES §7, from memory;
-// convention of Cowan & Agol 2011, ApJ 729, 54).
+// Heat-redistribution factors f for EquilibriumTemperature (from memory; convention of
+// Cowan & Agol 2011, ApJ 729, 54).
 const (
 	// RedistributionFull spreads absorbed light over the whole sphere: f = 1/4.
 	RedistributionFull = 0.25
@@ -17,7 +17,7 @@ const (
 // Teq = Teff (R*/a)^{1/2} [f (1 − A_B)]^{1/4}, for host effective temperature teff (K),
 // scaled semi-major axis aR = a/R*, eccentricity e, Bond albedo in [0, 1] and
 // redistribution factor f (see RedistributionFull). An eccentric orbit uses the
-// flux-averaged distance a (1 − e²)^{1/4} (REFERENCES §7, from memory).
+// flux-averaged distance a (1 − e²)^{1/4} (common practice, from memory).
 func EquilibriumTemperature(teff, aR, e, albedo, f float64) (float64, error) {
 	if !finite(teff, aR, e, albedo, f) || teff <= 0 || aR <= 0 || f <= 0 {
 		return 0, domainf("Teff %g, a/R* %g and f %g must be positive", teff, aR, f)
@@ -51,7 +51,7 @@ func InsolationFromTeff(rStarSun, teff, aAU float64) (float64, error) {
 // RVSemiAmplitude returns the star's radial-velocity semi-amplitude in m s⁻¹,
 // K = (2π/P)^{1/3} G Mp sin i / [G (M* + Mp)]^{2/3} / √(1 − e²), for period in s, planet and
 // star mass parameters gmPlanet and gmStar (G·M in m³ s⁻², so the measured G cancels),
-// inclination inc (rad) and eccentricity e (REFERENCES §9).
+// inclination inc (rad) and eccentricity e (common practice).
 func RVSemiAmplitude(period, gmPlanet, gmStar, inc, e float64) (float64, error) {
 	if !finite(period, gmPlanet, gmStar, inc, e) || period <= 0 || gmPlanet < 0 || gmStar <= 0 {
 		return 0, domainf("period %g and stellar GM %g must be positive, planet GM %g non-negative", period, gmStar, gmPlanet)
@@ -64,8 +64,8 @@ func RVSemiAmplitude(period, gmPlanet, gmStar, inc, e float64) (float64, error) 
 }
 
 // Chen & Kipping (2017, ApJ 834, 17) mean mass–radius relation, R ∝ M^S piecewise, in
-// Earth units. Slopes, transitions and the Terran normalisation are from memory
-// (REFERENCES §9); continuity fixes the other normalisations.
+// Earth units. Slopes, transitions and the Terran normalisation are from memory;
+// continuity fixes the other normalisations.
 var (
 	ckSlope = [4]float64{0.279, 0.589, -0.044, 0.881} // Terran, Neptunian, Jovian, Stellar
 	// ckBreak are the transition masses in M⊕: 2.04 M⊕, 0.414 M_J, 0.080 M☉.

@@ -7,7 +7,7 @@ import (
 	"testing"
 )
 
-// Earth around the nominal Sun at 1 au, full redistribution: REFERENCES §7 [V] gives
+// Earth around the nominal Sun at 1 au, full redistribution, computed independently:
 // Teq = 254.6 K at A_B = 0.3 and 278.3 K at A_B = 0 (textbook ≈ 255 K).
 func TestEquilibriumTemperature(t *testing.T) {
 	aR := AU / SolarRadius
@@ -57,7 +57,7 @@ func TestInsolation(t *testing.T) {
 		got, want float64
 	}{
 		{"the Sun at 1 au gives Earth's insolation (definition)", must(InsolationFromTeff(1, SolarTeff, 1)), 1},
-		// REFERENCES §7: S/S⊕ = (R*/R☉)²(Teff/5772)⁴(1 au/a)²: 0.5² · 0.5⁴ / 0.1² = 1.5625.
+		// Common practice: S/S⊕ = (R*/R☉)²(Teff/5772)⁴(1 au/a)²: 0.5² · 0.5⁴ / 0.1² = 1.5625.
 		{"a half-size star at half the Sun's temperature at 0.1 au gives 1.5625 Earth insolations", must(InsolationFromTeff(0.5, SolarTeff/2, 0.1)), 1.5625},
 		{"a 4 L☉ star at 2 au gives Earth's insolation (inverse square law)", must(Insolation(4, 2)), 1},
 	}
@@ -77,8 +77,9 @@ func must(x float64, err error) float64 {
 	return x
 }
 
-// REFERENCES §9 [V, nominal constants, Julian year]: Earth–Sun 0.08946 m/s; 1 M_J at 1 yr
-// 28.414 m/s; 1 M_J at 11.862 yr 12.459 m/s. Constants IAU 2015 Resolution B3.
+// Computed independently with nominal constants and the Julian year: Earth–Sun 0.08946 m/s;
+// 1 M_J at 1 yr 28.414 m/s; 1 M_J at 11.862 yr 12.459 m/s. Constants IAU 2015 Resolution B3;
+// the semi-amplitude formula is common practice.
 func TestRVSemiAmplitude(t *testing.T) {
 	cases := []struct {
 		name               string
@@ -106,7 +107,7 @@ func TestRVSemiAmplitude(t *testing.T) {
 }
 
 // Chen & Kipping (2017, ApJ 834, 17); slopes, transitions and the Terran normalisation
-// are from memory (REFERENCES §9).
+// are from memory.
 func TestChenKipping(t *testing.T) {
 	t.Run("one Earth mass maps to 10^0.00346 = 1.00800 Earth radii", func(t *testing.T) {
 		r, err := ChenKippingRadius(1)
@@ -134,8 +135,8 @@ func TestChenKipping(t *testing.T) {
 			}
 		}
 	})
-	// Kempton et al. (2018) quote the inverse as 0.9718 Rp^3.58 below 1.23 R⊕ and
-	// 1.436 Rp^1.70 up to 14.26 R⊕ (from memory, REFERENCES §8): our inversion agrees to
+	// Kempton et al. (2018, PASP 130, 114401) quote the inverse as 0.9718 Rp^3.58 below
+	// 1.23 R⊕ and 1.436 Rp^1.70 up to 14.26 R⊕ (from memory): our inversion agrees to
 	// their rounding of coefficients and exponents: 0.3 %, or 0.6 % at 10 R⊕ where the
 	// exponent 1/0.589 = 1.698, rounded to 1.70, contributes 10^0.0022 − 1 = 0.5 %.
 	inv := []struct {

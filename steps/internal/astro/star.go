@@ -2,7 +2,8 @@ package astro
 
 import "math"
 
-// Valid absolute-K ranges of the M-dwarf relations (from memory; REFERENCES §6 [M]).
+// Valid absolute-K ranges of the M-dwarf relations (from memory; Mann et al. 2015, ApJ 804,
+// 64, and Mann et al. 2019, ApJ 871, 63).
 const (
 	// mann15MinMK, mann15MaxMK bound the Mann et al. (2015) radius relation: 4.6 ≤ M_Ks ≤ 9.8.
 	mann15MinMK, mann15MaxMK = 4.6, 9.8

@@ -15,7 +15,7 @@ import (
 const DefaultWindowFactor = 5.0
 
 // minLengthPerTau is the chain length, in units of τ, below which an estimate of τ is not
-// trusted (50τ, common practice in public autocorrelation code; see REFERENCES.md §10).
+// trusted (50τ, common practice in public autocorrelation code).
 const minLengthPerTau = 50
 
 // AutoCorr is the integrated autocorrelation time of one parameter.

@@ -24,7 +24,8 @@ func ar1(phi float64, walkers, n int, seed uint64) [][]float64 {
 	return out
 }
 
-// For an AR(1) process ρ(t) = φ^t, so τ_int = (1+φ)/(1−φ) (standard; REFERENCES.md §10).
+// For an AR(1) process ρ(t) = φ^t, so τ_int = (1+φ)/(1−φ) (standard, common practice;
+// from memory).
 // Sokal (1997) gives the variance of the windowed estimate as var(τ̂) ≈ 2(2M+1)/n · τ² for
 // n draws and window M (from memory); we allow four of those standard errors.
 func TestAutocorrelationTimeOfAR1(t *testing.T) {

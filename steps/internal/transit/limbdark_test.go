@@ -34,7 +34,7 @@ func TestKippingMapsSquareOntoPhysicalTriangle(t *testing.T) {
 }
 
 func TestKippingKnownPoints(t *testing.T) {
-	// Worked by hand from the formulas of Kipping (2013) quoted in REFERENCES §3.
+	// Worked by hand from the formulas of Kipping (2013, MNRAS 435, 2152).
 	cases := []struct{ u1, u2, q1, q2 float64 }{
 		{0.4, 0.25, 0.4225, 0.4 / 1.3},
 		{1, 0, 1, 0.5}, // linear law, fully dark limb

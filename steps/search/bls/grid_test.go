@@ -5,7 +5,7 @@ import (
 	"testing"
 )
 
-// Nominal solar values, IAU 2015 Resolution B3 (REFERENCES §1).
+// Nominal solar values, IAU 2015 Resolution B3 (Prša et al. 2016, AJ 152, 41).
 const (
 	nominalGMSun = 1.3271244e20 // m³ s⁻²
 	nominalRSun  = 6.957e8      // m
@@ -87,14 +87,15 @@ func TestGridRefusesNonsense(t *testing.T) {
 func TestStellarGeometry(t *testing.T) {
 	rhoSun := densityOf(1, 1)
 	t.Run("the nominal Sun's density is 1.40978 g/cm³", func(t *testing.T) {
-		// REFERENCES §4 [V]: ρ☉ = 1409.78 kg m⁻³ from IAU B3 GM☉, R☉ and CODATA 2018 G.
+		// ρ☉ = 1409.78 kg m⁻³ from IAU B3 GM☉, R☉ and CODATA 2018 G, computed independently.
 		if math.Abs(rhoSun-1.40978) > 1e-5 {
 			t.Errorf("ρ☉ = %.6f g/cm³", rhoSun)
 		}
 	})
 	t.Run("the Earth's orbit has a/R* = 215.029 and a central duration of 12.9764 h", func(t *testing.T) {
-		// a/R* = 215.029 (REFERENCES §4 [V]); T = (P/π)·arcsin(R/a) = 12.976430 h computed
-		// independently with python3 from GM☉ and R☉ (Winn 2010, k → 0, b = 0).
+		// a/R* = 215.029 (Seager & Mallén-Ornelas 2003, ApJ 585, 1038; computed independently);
+		// T = (P/π)·arcsin(R/a) = 12.976430 h computed independently with python3 from GM☉
+		// and R☉ (Winn 2010, k → 0, b = 0).
 		if a := ScaledAxis(365.25, rhoSun); math.Abs(a-215.029) > 1e-3 {
 			t.Errorf("a/R* = %.4f", a)
 		}

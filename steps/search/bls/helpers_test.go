@@ -76,7 +76,7 @@ func synth(seed uint64, span, cadence, sigma, gap float64, dips ...dip) Series {
 }
 
 // solarDensity is the mean density of the nominal Sun in g/cm³ (IAU 2015 Resolution B3
-// R☉ and (GM)☉, CODATA 2018 G), ≈ 1.40978 (REFERENCES §4).
+// R☉ and (GM)☉, CODATA 2018 G), ≈ 1.40978 (computed independently).
 var solarDensity = 1.3271244e20 / 6.67430e-11 / (4.0 / 3 * math.Pi * math.Pow(6.957e8, 3)) / 1000
 
 // defaultOptions is a search of the given range around a Sun-like star.
