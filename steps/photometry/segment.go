@@ -155,6 +155,52 @@ func dropDuplicateTimes(r *rawSegment, keep []int, d *lightcurve.Dropped, note n
 // is nonzero; its time, flux or error is not finite (NaN, ±Inf, or a FITS TNULL value); its
 // error is zero or negative; its time repeats an earlier usable row's.
 func build(cfg *Config, r *rawSegment, id string, note noteFunc) (built, error) {
+	keep, d, err := usableRows(cfg, r, note)
+	if err != nil {
+		return built{}, err
+	}
+	keep = inTimeOrder(r, keep, note)
+	keep = dropDuplicateTimes(r, keep, &d, note)
+	if len(keep) < 2 {
+		return built{}, steps.BadInputf("%s: every usable row has the same time; a segment needs at least 2 distinct times", r.file)
+	}
+
+	m := len(keep)
+	s := lightcurve.Segment{
+		ID: id, Band: cfg.Band, Instrument: r.instrument,
+		CrowdingCorrected: cfg.CrowdingCorrected, Contamination: cfg.Contamination,
+		Time: make([]float64, m), Flux: make([]float64, m), Err: make([]float64, m),
+	}
+	for k, i := range keep {
+		s.Time[k], s.Flux[k] = r.time[i], r.flux[i]
+		if r.err != nil {
+			s.Err[k] = r.err[i]
+		}
+	}
+	if s.Band == "" && r.band != "" {
+		s.Band = r.band
+		note("%s: band %q from the FITS FILTER keyword", r.file, r.band)
+	}
+	if err := settleReference(r, &s, note); err != nil {
+		return built{}, err
+	}
+	if err := normalise(r, &s, note); err != nil {
+		return built{}, err
+	}
+	cadence := median(diffs(make([]float64, 0, m), s.Time), make([]float64, m-1))
+	if err := settleExposure(cfg, r, &s, cadence, note); err != nil {
+		return built{}, err
+	}
+	return built{
+		seg:    s,
+		stats:  SegmentStats{Cadence: cadence, Dropped: d},
+		refInt: r.refInt, refFrac: r.refFrac, file: r.file,
+	}, nil
+}
+
+// usableRows lists the rows kept, counting the others by reason (see build), and refuses a
+// file that leaves fewer than 2.
+func usableRows(cfg *Config, r *rawSegment, note noteFunc) ([]int, lightcurve.Dropped, error) {
 	n := len(r.time)
 	keep := make([]int, 0, n)
 	var d lightcurve.Dropped
@@ -163,7 +209,7 @@ func build(cfg *Config, r *rawSegment, id string, note noteFunc) (built, error) 
 		if r.flag != nil {
 			bits, ok := flagBits(r.flag[i])
 			if !ok {
-				return built{}, steps.BadInputf("%s: column %s: %v is not a whole-number flag", r.where(i), r.cols[FlagCol], r.flag[i])
+				return nil, d, steps.BadInputf("%s: column %s: %v is not a whole-number flag", r.where(i), r.cols[FlagCol], r.flag[i])
 			}
 			if bits&cfg.FlagMask != 0 {
 				d.Flagged++
@@ -191,42 +237,28 @@ func build(cfg *Config, r *rawSegment, id string, note noteFunc) (built, error) 
 		note("%s: column %s: %s is not a positive error; %d such rows dropped", r.where(firstBad), r.cols[ErrorCol], strconv.FormatFloat(r.err[firstBad], 'g', -1, 64), d.BadError)
 	}
 	if len(keep) < 2 {
-		return built{}, steps.BadInputf("%s: %d of %d rows are left (%d flagged, %d not finite, %d with a non-positive error); a segment needs at least 2",
+		return nil, d, steps.BadInputf("%s: %d of %d rows are left (%d flagged, %d not finite, %d with a non-positive error); a segment needs at least 2",
 			r.file, len(keep), n, d.Flagged, d.NonFinite, d.BadError)
 	}
-	sorted := true
+	return keep, d, nil
+}
+
+// inTimeOrder sorts the kept rows by time (stably, so ties keep their file order) when
+// the file did not, and says so.
+func inTimeOrder(r *rawSegment, keep []int, note noteFunc) []int {
 	for k := 1; k < len(keep); k++ {
 		if r.time[keep[k]] < r.time[keep[k-1]] {
-			sorted = false
+			sort.SliceStable(keep, func(a, b int) bool { return r.time[keep[a]] < r.time[keep[b]] })
+			note("%s: rows are not in time order; sorted by time", r.file)
 			break
 		}
 	}
-	if !sorted {
-		sort.SliceStable(keep, func(a, b int) bool { return r.time[keep[a]] < r.time[keep[b]] })
-		note("%s: rows are not in time order; sorted by time", r.file)
-	}
-	keep = dropDuplicateTimes(r, keep, &d, note)
-	if len(keep) < 2 {
-		return built{}, steps.BadInputf("%s: every usable row has the same time; a segment needs at least 2 distinct times", r.file)
-	}
+	return keep
+}
 
-	m := len(keep)
-	s := lightcurve.Segment{
-		ID: id, Band: cfg.Band, Instrument: r.instrument,
-		CrowdingCorrected: cfg.CrowdingCorrected, Contamination: cfg.Contamination,
-		Time: make([]float64, m), Flux: make([]float64, m), Err: make([]float64, m),
-	}
-	for k, i := range keep {
-		s.Time[k], s.Flux[k] = r.time[i], r.flux[i]
-		if r.err != nil {
-			s.Err[k] = r.err[i]
-		}
-	}
-	if s.Band == "" && r.band != "" {
-		s.Band = r.band
-		note("%s: band %q from the FITS FILTER keyword", r.file, r.band)
-	}
-
+// settleReference refuses a first time that is no plausible Julian date, and for full
+// Julian dates takes the first point's whole day as the reference.
+func settleReference(r *rawSegment, s *lightcurve.Segment, note noteFunc) error {
 	start := s.Time[0]
 	if r.hasRef {
 		start += float64(r.refInt) + r.refFrac
@@ -236,10 +268,9 @@ func build(cfg *Config, r *rawSegment, id string, note noteFunc) (built, error) 
 		if r.hasRef {
 			how = fmt.Sprintf("with the reference JD %d + %g from %s", r.refInt, r.refFrac, r.refFrom)
 		}
-		return built{}, steps.BadInputf("%s: the first time %g %s is JD %.1f, not a plausible Julian date; state the Julian date of time 0 with time_zero, or remove it if the file holds full Julian dates",
+		return steps.BadInputf("%s: the first time %g %s is JD %.1f, not a plausible Julian date; state the Julian date of time 0 with time_zero, or remove it if the file holds full Julian dates",
 			r.file, s.Time[0], how, start)
 	}
-
 	if !r.hasRef {
 		// Full Julian dates: keep the whole day of the first point as the reference, so
 		// that times are small; subtracting a whole number of days near the values is exact.
@@ -250,58 +281,60 @@ func build(cfg *Config, r *rawSegment, id string, note noteFunc) (built, error) 
 		r.refInt, r.refFrac = int64(day), 0
 		note("%s: times read as full Julian dates; reference set to JD %d, the first point's day", r.file, r.refInt)
 	}
+	return nil
+}
 
-	scratch := make([]float64, m)
-	med := median(s.Flux, scratch)
+// normalise divides flux and errors by the median flux and, for a file without errors,
+// sets every error to the point-to-point scatter.
+func normalise(r *rawSegment, s *lightcurve.Segment, note noteFunc) error {
+	m := len(s.Flux)
+	med := median(s.Flux, make([]float64, m))
 	if !(med > 0) || math.IsInf(med, 0) {
-		return built{}, steps.BadInputf("%s: column %s: the median flux is %g; relative flux needs a positive median", r.file, r.cols[FluxCol], med)
+		return steps.BadInputf("%s: column %s: the median flux is %g; relative flux needs a positive median", r.file, r.cols[FluxCol], med)
 	}
 	for k := range s.Flux {
 		s.Flux[k] /= med
 		s.Err[k] /= med
 	}
 	note("%s: flux and errors divided by the median flux %s", r.file, strconv.FormatFloat(med, 'g', 8, 64))
-
-	if r.err == nil {
-		if m < 3 {
-			return built{}, steps.BadInputf("%s: no error column, and %d points are too few to estimate errors from their scatter", r.file, m)
-		}
-		sigma := PointScatter(s.Flux)
-		if !(sigma > 0) || math.IsInf(sigma, 0) {
-			return built{}, steps.BadInputf("%s: no error column, and the point-to-point scatter is %g, so no error can be estimated; add an error column", r.file, sigma)
-		}
-		for k := range s.Err {
-			s.Err[k] = sigma
-		}
-		note("%s: no error column; every point's error set to %s (1.4826 × MAD of successive differences / √2 of the normalised flux)", r.file, strconv.FormatFloat(sigma, 'g', 4, 64))
+	if r.err != nil {
+		return nil
 	}
+	if m < 3 {
+		return steps.BadInputf("%s: no error column, and %d points are too few to estimate errors from their scatter", r.file, m)
+	}
+	sigma := PointScatter(s.Flux)
+	if !(sigma > 0) || math.IsInf(sigma, 0) {
+		return steps.BadInputf("%s: no error column, and the point-to-point scatter is %g, so no error can be estimated; add an error column", r.file, sigma)
+	}
+	for k := range s.Err {
+		s.Err[k] = sigma
+	}
+	note("%s: no error column; every point's error set to %s (1.4826 × MAD of successive differences / √2 of the normalised flux)", r.file, strconv.FormatFloat(sigma, 'g', 4, 64))
+	return nil
+}
 
-	cadence := median(diffs(scratch[:0], s.Time), make([]float64, m-1))
-	switch {
-	case cfg.HasExposure:
+// settleExposure takes one point's exposure from the workflow, a header keyword no longer
+// than the cadence, or the median cadence, in that order, and says which.
+func settleExposure(cfg *Config, r *rawSegment, s *lightcurve.Segment, cadence float64, note noteFunc) error {
+	if cfg.HasExposure {
 		s.Exposure = cfg.Exposure
-	default:
-		for _, c := range r.exposure {
-			if c.days > 0 && c.days <= maxExposureRatio*cadence {
-				s.Exposure = c.days
-				note("%s: exposure %s of one point from the header keyword %s = %s", r.file, minutes(c.days), c.key, c.text)
-				break
-			}
-			note("%s: header keyword %s = %s ignored as the exposure of one point: it is not between 0 and the median cadence %s", r.file, c.key, c.text, minutes(cadence))
-		}
-		if s.Exposure == 0 {
-			if !(cadence > 0) {
-				return built{}, steps.BadInputf("%s: the median time step is %g d, so no exposure can be derived from it; state exposure", r.file, cadence)
-			}
-			s.Exposure = cadence
-			note("%s: exposure of one point taken as the median cadence, %s", r.file, minutes(cadence))
-		}
+		return nil
 	}
-	return built{
-		seg:    s,
-		stats:  SegmentStats{Cadence: cadence, Dropped: d},
-		refInt: r.refInt, refFrac: r.refFrac, file: r.file,
-	}, nil
+	for _, c := range r.exposure {
+		if c.days > 0 && c.days <= maxExposureRatio*cadence {
+			s.Exposure = c.days
+			note("%s: exposure %s of one point from the header keyword %s = %s", r.file, minutes(c.days), c.key, c.text)
+			return nil
+		}
+		note("%s: header keyword %s = %s ignored as the exposure of one point: it is not between 0 and the median cadence %s", r.file, c.key, c.text, minutes(cadence))
+	}
+	if !(cadence > 0) {
+		return steps.BadInputf("%s: the median time step is %g d, so no exposure can be derived from it; state exposure", r.file, cadence)
+	}
+	s.Exposure = cadence
+	note("%s: exposure of one point taken as the median cadence, %s", r.file, minutes(cadence))
+	return nil
 }
 
 func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
