@@ -12,6 +12,8 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+
+	"dipline/steps/internal/astro"
 )
 
 // Dimension is a physical dimension with its accepted units, each given as its size in the
@@ -22,13 +24,13 @@ type Dimension struct {
 	Units map[string]float64
 }
 
-// solarDensity is the mean density of the nominal Sun in g/cm³:
-// (GM)☉ / G / (4/3 π R☉³) with IAU 2015 Resolution B3 nominal values and CODATA 2018 G.
-var solarDensity = 1.3271244e20 / 6.67430e-11 / (4.0 / 3 * math.Pi * math.Pow(6.957e8, 3)) / 1000
+// solarDensity is the mean density of the nominal Sun in g/cm³, (GM)☉ / G / (4/3 π R☉³)
+// with IAU 2015 Resolution B3 nominal values and CODATA 2018 G (astro.SolarDensity).
+var solarDensity = astro.SolarDensity / astro.GramPerCm3
 
-// Time is measured in days.
+// Time is measured in days; a year is the Julian year.
 var Time = &Dimension{Name: "time", Base: "d", Units: map[string]float64{
-	"s": 1.0 / 86400, "min": 1.0 / 1440, "h": 1.0 / 24, "d": 1, "yr": 365.25,
+	"s": 1 / astro.Day, "min": 1.0 / 1440, "h": 1.0 / 24, "d": 1, "yr": astro.JulianYear / astro.Day,
 }}
 
 // Density is measured in g/cm³; "rho_sun" is the nominal solar mean density.
@@ -36,18 +38,18 @@ var Density = &Dimension{Name: "density", Base: "g/cm3", Units: map[string]float
 	"g/cm3": 1, "kg/m3": 1e-3, "rho_sun": solarDensity,
 }}
 
-// Nominal solar and planetary values (IAU 2015 Resolution B3) and the parsec (IAU 2015
-// Resolution B2), in SI; steps/internal/astro holds the same values for the numerics.
+// Nominal solar and planetary values (IAU 2015 Resolution B3), the au (IAU 2012
+// Resolution B2) and the parsec (IAU 2015 Resolution B2), in SI, from astro's one table.
 const (
-	rSun     = 6.957e8        // m
-	rEarthEq = 6.3781e6       // m, equatorial
-	rJupEq   = 7.1492e7       // m, equatorial
-	gmSun    = 1.3271244e20   // m³ s⁻²
-	gmEarth  = 3.986004e14    // m³ s⁻²
-	gmJup    = 1.2668653e17   // m³ s⁻²
-	lSun     = 3.828e26       // W
-	au       = 1.495978707e11 // m, IAU 2012 Resolution B2
-	parsec   = au * 648000 / math.Pi
+	rSun     = astro.SolarRadius   // m
+	rEarthEq = astro.EarthRadius   // m, equatorial
+	rJupEq   = astro.JupiterRadius // m, equatorial
+	gmSun    = astro.SolarGM       // m³ s⁻²
+	gmEarth  = astro.EarthGM       // m³ s⁻²
+	gmJup    = astro.JupiterGM     // m³ s⁻²
+	lSun     = astro.SolarLuminosity
+	au       = astro.AU
+	parsec   = astro.Parsec
 )
 
 // Radius (of a star or planet) is measured in nominal solar radii.

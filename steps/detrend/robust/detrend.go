@@ -3,6 +3,8 @@ package robust
 import (
 	"math"
 	"sort"
+
+	"dipline/steps/internal/parallel"
 )
 
 // Estimator selects how the trend is estimated.
@@ -88,10 +90,6 @@ type Result struct {
 	Pieces int
 }
 
-// Parallel runs block(i) for every i in [0, n), possibly concurrently. Each block writes
-// only its own part of the output, so the result does not depend on the scheduling.
-type Parallel func(n int, block func(i int))
-
 // blockSize is the number of points in one unit of parallel work for the window filters.
 // It is fixed, never derived from the worker count, and the value of a point does not
 // depend on it anyway: each point's window is built from the same set of values.
@@ -157,7 +155,7 @@ type piece struct {
 // scatter (1.4826·MAD of the residuals of unmasked points) are marked and left out, and the
 // trend re-estimated, until no new flare appears. Points below the trend are never removed.
 // par may be nil.
-func Detrend(cfg Config, series []Series, par Parallel) []Result {
+func Detrend(cfg Config, series []Series, par parallel.Func) []Result {
 	if par == nil {
 		par = serial
 	}
@@ -183,7 +181,7 @@ func Detrend(cfg Config, series []Series, par Parallel) []Result {
 type driver struct {
 	cfg        Config
 	series     []Series
-	par        Parallel
+	par        parallel.Func
 	minPts     int
 	half       float64
 	out        []Result
@@ -196,7 +194,7 @@ type driver struct {
 type job struct{ p, from, to int }
 
 // newDriver marks the unusable points and cuts every series into pieces at its gaps.
-func newDriver(cfg Config, series []Series, par Parallel) *driver {
+func newDriver(cfg Config, series []Series, par parallel.Func) *driver {
 	d := &driver{cfg: cfg, series: series, par: par, minPts: max(cfg.MinPoints, 1), half: cfg.Span / 2,
 		out: make([]Result, len(series)), raw: make([][]float64, len(series)),
 		use: make([][]bool, len(series)), flare: make([][]bool, len(series))}

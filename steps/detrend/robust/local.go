@@ -1,6 +1,10 @@
 package robust
 
-import "math"
+import (
+	"math"
+
+	"dipline/steps/internal/parallel"
+)
 
 // Robust locally weighted polynomial regression in a sliding time window (Cleveland 1979,
 // JASA 74, 829): at each point a polynomial of degree 0, 1 or 2 in time is fitted by
@@ -115,7 +119,7 @@ const localBlock = 1024
 // when there are none), used only to floor the robustness scale. The robustness weights are
 // shared by the whole series (one scale s for all residuals), so a series is one unit: call
 // it once per piece. par may be nil.
-func LocalFilter(dst, t, f, e []float64, use []bool, cfg LocalFit, par Parallel) {
+func LocalFilter(dst, t, f, e []float64, use []bool, cfg LocalFit, par parallel.Func) {
 	n := len(t)
 	if n == 0 {
 		return

@@ -3,6 +3,8 @@ package robust
 import (
 	"math"
 	"sort"
+
+	"dipline/steps/internal/parallel"
 )
 
 // Choosing the window of the local polynomial from the light curve itself.
@@ -85,7 +87,7 @@ type SpanChoice struct {
 // Series are split at gaps longer than gapOver. ok is false when the data are too few or
 // too noisy to tell (fewer than two usable bins in every piece); the caller then keeps a
 // fixed default.
-func ChooseSpan(series []Series, degree int, goal SpanGoal, ref, gapOver float64, par Parallel) (SpanChoice, bool) {
+func ChooseSpan(series []Series, degree int, goal SpanGoal, ref, gapOver float64, par parallel.Func) (SpanChoice, bool) {
 	cadence := MedianCadence(series)
 	if !(cadence > 0) || !(ref > 0) {
 		return SpanChoice{}, false

@@ -11,6 +11,8 @@ import (
 	"errors"
 	"fmt"
 	"math"
+
+	"dipline/steps/internal/parallel"
 )
 
 // Defaults of Options, each with its reason.
@@ -72,7 +74,7 @@ type Options struct {
 	MinInTransit, MinOutOfTransit int
 	// Parallel runs block(i) for i in [0, n), one transit per block; nil runs serially. The
 	// results do not depend on it.
-	Parallel func(n int, block func(i int))
+	Parallel parallel.Func
 }
 
 // TransitTime is the measured mid-time of one transit, or why it has none.

@@ -52,6 +52,9 @@ const (
 	JulianYear = 365.25 * Day
 	// Parsec is 648000/π au in m (IAU 2015 Resolution B2; from memory).
 	Parsec = 648000 / math.Pi * AU
+	// GramPerCm3 is one g cm⁻³ in kg m⁻³ (exact, SI): the step kinds give densities in
+	// g/cm³, the functions here take kg m⁻³.
+	GramPerCm3 = 1000.0
 )
 
 // Masses as GM/G, as IAU 2015 B3 recommends: GM is exact, G carries the uncertainty.

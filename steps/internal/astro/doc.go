@@ -9,6 +9,10 @@
 // returns plain float64 in SI units unless its name or doc comment says otherwise; inputs
 // outside a relation's domain give an error, never a panic. It knows nothing of workflow
 // files, the cache or the terminal, and it neither fits nor samples: uncertainties and
-// scatter are the caller's business. Typical entry points are SemiMajorAxis,
-// TotalDuration, MannRadius, EquilibriumTemperature and TargetRadiusCorrection.
+// scatter are the caller's business. Each constant and formula is written here once: the
+// step kinds, which work in days and g/cm³, call these functions rather than repeat them
+// (ScaledAxisFromGRho takes G·ρ and P in whichever time unit the caller keeps, so each
+// caller's arithmetic, and its results, stay as they were). Typical entry points are
+// SemiMajorAxis, ScaledAxisFromGRho, TotalDuration, MannRadius, EquilibriumTemperature and
+// TargetRadiusCorrection.
 package astro

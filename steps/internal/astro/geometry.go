@@ -45,14 +45,50 @@ func transitFactor(e, omega float64) float64 {
 	return (1 - e*e) / (1 + e*math.Sin(omega))
 }
 
+// ScaledAxisFromGRho returns a/R* = (Gρ P² / 3π)^{1/3}, the semi-major axis in stellar
+// radii of a planet of negligible mass on an orbit of period P around a star of mean
+// density ρ: Kepler's third law a³ = GM* P²/4π² with M* = (4π/3) ρ R*³ (Seager &
+// Mallén-Ornelas 2003, ApJ 585, 1038). Only the dimensionless Gρ P² enters, so gRho = G·ρ
+// and period may be in any reciprocal units of time (s⁻² and s, or d⁻² and d). This is the
+// one place the law is written for a/R*: ScaledAxisFromDensity and the step kinds, which
+// work in days and g/cm³, fold their units into gRho or the period and call it.
+func ScaledAxisFromGRho(gRho, period float64) (float64, error) {
+	if !finite(gRho, period) || gRho <= 0 || period <= 0 {
+		return 0, domainf("G·ρ %g and period %g must be positive", gRho, period)
+	}
+	return math.Cbrt(gRho * period * period / (3 * math.Pi)), nil
+}
+
+// PeriodFromScaledAxis inverts ScaledAxisFromGRho: the period P = √(3π (a/R*)³ / Gρ) of
+// an orbit at a/R* = aR around a star with G·ρ = gRho, in the unit of time of gRho (Seager
+// & Mallén-Ornelas 2003, ApJ 585, 1038, solved for P).
+func PeriodFromScaledAxis(aR, gRho float64) (float64, error) {
+	if !finite(aR, gRho) || aR <= 0 || gRho <= 0 {
+		return 0, domainf("a/R* %g and G·ρ %g must be positive", aR, gRho)
+	}
+	return math.Sqrt(3 * math.Pi * aR * aR * aR / gRho), nil
+}
+
+// ScaledAxisAtPeriod returns a/R* at period p1 of a planet of negligible mass whose a/R* is
+// aR at period p0 around the same star: at a fixed stellar density Kepler's third law gives
+// a ∝ P^{2/3}, so a/R* = aR (p1/p0)^{2/3}. The periods may be in any one unit.
+func ScaledAxisAtPeriod(aR, p0, p1 float64) (float64, error) {
+	if !finite(aR, p0, p1) || aR <= 0 || p0 <= 0 || p1 <= 0 {
+		return 0, domainf("a/R* %g and periods %g and %g must be positive", aR, p0, p1)
+	}
+	r := p1 / p0
+	return aR * math.Cbrt(r*r), nil
+}
+
 // ScaledAxisFromDensity returns a/R* for a planet of negligible mass on a period of
 // period seconds around a star of mean density rho (kg m⁻³):
-// a/R* = (G ρ P² / 3π)^{1/3} (Seager & Mallén-Ornelas 2003, ApJ 585, 1038).
+// a/R* = (G ρ P² / 3π)^{1/3} (Seager & Mallén-Ornelas 2003, ApJ 585, 1038), through
+// ScaledAxisFromGRho.
 func ScaledAxisFromDensity(rho, period float64) (float64, error) {
 	if !finite(rho, period) || rho <= 0 || period <= 0 {
 		return 0, domainf("density %g and period %g must be positive", rho, period)
 	}
-	return math.Cbrt(G * rho * period * period / (3 * math.Pi)), nil
+	return ScaledAxisFromGRho(G*rho, period)
 }
 
 // DensityFromScaledAxis returns the stellar mean density in kg m⁻³ implied by a/R* and a
@@ -188,4 +224,14 @@ func TransitDepth(rp, rs float64) (float64, error) {
 	}
 	k := rp / rs
 	return k * k, nil
+}
+
+// AngularDiameter returns the angle in radians that a sphere of radius r subtends seen from
+// a distance d from its centre (one length unit for both), 2 arcsin(r/d); π from inside it
+// (d ≤ r) (common practice).
+func AngularDiameter(r, d float64) (float64, error) {
+	if !finite(r, d) || r < 0 || d <= 0 {
+		return 0, domainf("radius %g must be non-negative and distance %g positive", r, d)
+	}
+	return 2 * math.Asin(math.Min(1, r/d)), nil
 }

@@ -183,3 +183,66 @@ func TestGeometryEdgeCases(t *testing.T) {
 		})
 	}
 }
+
+// Kepler's third law in its a/R* form (Seager & Mallén-Ornelas 2003, ApJ 585, 1038), in two
+// unit systems, with its inverse, its rescaling with the period and the central duration
+// (Winn 2010, arXiv:1001.2010, k → 0, b = 0). Check values computed independently at 40
+// digits from IAU 2015 Resolution B3 (GM☉, R☉), CODATA 2018 G and the IAU 2012 au:
+// a/R* = 215.02945 for P = 365.25 d; the orbit grazing the nominal Sun (a/R* = 1) has
+// P = 10008.225 s; the Roche-type limit a/R* = 3 (Ofir 2014, A&A 561, A138) has
+// P = 0.60190118 d; a central transit over that year lasts 12.976430 h.
+func TestKeplerForms(t *testing.T) {
+	year := 365.25
+	aSI, _ := ScaledAxisFromGRho(G*SolarDensity, year*Day)
+	aDays, _ := ScaledAxisFromGRho(G*SolarDensity*Day*Day, year)
+	pSurface, _ := PeriodFromScaledAxis(1, G*SolarDensity)
+	pRoche, _ := PeriodFromScaledAxis(3, G*SolarDensity*Day*Day)
+	pBack, _ := PeriodFromScaledAxis(aDays, G*SolarDensity*Day*Day)
+	central, _ := TotalDuration(year, aDays, 0, 0, 0, 0)
+	// Mars: P = 686.980 d and a = 1.52368 au (J2000 mean elements, from memory), scaled from
+	// Earth's orbit (P = 365.25636 d, a = 1 au) by a ∝ P^{2/3}; Mars's mass (3e-7 M☉) and
+	// the rounding of the elements leave 1e-5.
+	mars, _ := ScaledAxisAtPeriod(1, 365.25636, 686.980)
+	// The Sun seen from 1 au: 2 arcsin(R☉/au) = 1918.4624″ (computed independently from IAU
+	// 2015 B3 R☉ and the IAU 2012 au), the familiar half degree (32′).
+	sunAngle, _ := AngularDiameter(SolarRadius, AU)
+	inside, _ := AngularDiameter(2, 1)
+	cases := []struct {
+		name      string
+		got, want float64
+		tol       float64 // relative
+	}{
+		{"a year around the nominal Sun gives a/R* = 215.02945 in seconds", aSI, 215.02945, 5e-8},
+		{"the same law in days gives the same a/R*", aDays, aSI, 1e-15},
+		{"the orbit grazing the nominal Sun takes 10008.225 s", pSurface, 10008.225, 5e-8},
+		{"the Roche-type limit of the Sun lies at 0.60190118 d", pRoche, 0.60190118, 5e-8},
+		{"the period comes back from a/R*", pBack, year, 1e-14},
+		{"a central transit across a year lasts 12.976430 h", central * 24, 12.976430, 5e-8},
+		{"Mars's period puts it 1.52368 au from the Sun", mars, 1.52368, 1e-4},
+		{"the Sun spans 1918.4624 arcsec from one au", sunAngle * 180 / math.Pi * 3600, 1918.4624, 5e-8},
+		{"a sphere seen from inside spans π", inside, math.Pi, 0},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			if e := relErr(c.got, c.want); e > c.tol {
+				t.Errorf("got %.12g, want %.12g (rel err %.3g > %.3g)", c.got, c.want, e, c.tol)
+			}
+		})
+	}
+	bad := []struct {
+		name string
+		err  error
+	}{
+		{"a negative G·ρ is refused", func() error { _, e := ScaledAxisFromGRho(-1, 10); return e }()},
+		{"a zero a/R* has no period", func() error { _, e := PeriodFromScaledAxis(0, 1); return e }()},
+		{"a zero period cannot be rescaled", func() error { _, e := ScaledAxisAtPeriod(10, 0, 1); return e }()},
+		{"a sphere seen from its centre is refused", func() error { _, e := AngularDiameter(1, 0); return e }()},
+	}
+	for _, c := range bad {
+		t.Run(c.name, func(t *testing.T) {
+			if !errors.Is(c.err, ErrDomain) {
+				t.Errorf("got %v, want ErrDomain", c.err)
+			}
+		})
+	}
+}

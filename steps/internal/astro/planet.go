@@ -38,14 +38,14 @@ func Insolation(lumSun, aAU float64) (float64, error) {
 	return lumSun / (aAU * aAU), nil
 }
 
-// InsolationFromTeff is Insolation with L*/L☉ = (R*/R☉)² (Teff/5772 K)⁴, for radius
-// rStarSun in R☉, teff in K and aAU in au (IAU 2015 B3 nominal Sun).
+// InsolationFromTeff is Insolation with L*/L☉ = (R*/R☉)² (Teff/5772 K)⁴ (NominalLuminosity),
+// for radius rStarSun in R☉, teff in K and aAU in au (IAU 2015 B3 nominal Sun).
 func InsolationFromTeff(rStarSun, teff, aAU float64) (float64, error) {
-	if !finite(rStarSun, teff) || rStarSun <= 0 || teff <= 0 {
-		return 0, domainf("radius %g R☉ and Teff %g K must be positive", rStarSun, teff)
+	lum, err := NominalLuminosity(rStarSun, teff)
+	if err != nil {
+		return 0, err
 	}
-	t := teff / SolarTeff
-	return Insolation(rStarSun*rStarSun*t*t*t*t, aAU)
+	return Insolation(lum, aAU)
 }
 
 // RVSemiAmplitude returns the star's radial-velocity semi-amplitude in m s⁻¹,

@@ -95,6 +95,55 @@ func RadiusFromLuminosity(lum, teff float64) (float64, error) {
 	return math.Sqrt(lum/(4*math.Pi*StefanBoltzmann)) / (teff * teff), nil
 }
 
+// Luminosity returns the luminosity in W of a star of radius (m) and effective
+// temperature teff (K) by the Stefan–Boltzmann law, L = 4πR²σTeff⁴; RadiusFromLuminosity is
+// its inverse.
+func Luminosity(radius, teff float64) (float64, error) {
+	if !finite(radius, teff) || radius <= 0 || teff <= 0 {
+		return 0, domainf("radius %g and temperature %g must be positive", radius, teff)
+	}
+	t2 := teff * teff
+	return 4 * math.Pi * StefanBoltzmann * radius * radius * t2 * t2, nil
+}
+
+// NominalLuminosity returns L*/L☉ = (R*/R☉)² (Teff/5772 K)⁴ for radius rStarSun in R☉ and
+// teff in K, the Stefan–Boltzmann law scaled to the nominal Sun of IAU 2015 B3. It differs
+// from Luminosity/L☉ by the B3 rounding of the nominal values (a few parts in a million,
+// see TestNominalConstantsAreConsistent), not in substance.
+func NominalLuminosity(rStarSun, teff float64) (float64, error) {
+	if !finite(rStarSun, teff) || rStarSun <= 0 || teff <= 0 {
+		return 0, domainf("radius %g R☉ and Teff %g K must be positive", rStarSun, teff)
+	}
+	t := teff / SolarTeff
+	return rStarSun * rStarSun * t * t * t * t, nil
+}
+
+// MeanDensity returns the mean density in kg m⁻³ of a body of mass (kg) and radius (m),
+// ρ = M / (4/3 π R³) (common practice).
+func MeanDensity(mass, radius float64) (float64, error) {
+	if !finite(mass, radius) || mass <= 0 || radius <= 0 {
+		return 0, domainf("mass %g and radius %g must be positive", mass, radius)
+	}
+	return mass / (4.0 / 3 * math.Pi * math.Pow(radius, 3)), nil
+}
+
+// SolarDensity is the mean density of the nominal Sun in kg m⁻³, (GM)☉/G / (4/3 π R☉³)
+// ≈ 1409.78 (IAU 2015 Resolution B3, CODATA 2018 G). It is computed once, by MeanDensity, so
+// that the unit "rho_sun" and StellarDensityCGS carry the same bits.
+var SolarDensity, _ = MeanDensity(SolarMass, SolarRadius)
+
+// solarDensityCGS is SolarDensity in g/cm³.
+var solarDensityCGS = SolarDensity / GramPerCm3
+
+// StellarDensityCGS returns the mean density in g/cm³, the step kinds' unit, of a star of
+// mass massSun (M☉) and radius radiusSun (R☉): ρ = ρ☉ M/R³ with ρ☉ = SolarDensity.
+func StellarDensityCGS(massSun, radiusSun float64) (float64, error) {
+	if !finite(massSun, radiusSun) || massSun <= 0 || radiusSun <= 0 {
+		return 0, domainf("mass %g M☉ and radius %g R☉ must be positive", massSun, radiusSun)
+	}
+	return solarDensityCGS * massSun / (radiusSun * radiusSun * radiusSun), nil
+}
+
 // torresMass and torresRadius are the coefficients a1…a7 and b1…b7 of Torres, Andersen &
 // Giménez (2010, A&ARv 18, 67) (from memory; σ(log M) = 0.027, σ(log R) = 0.014).
 var (

@@ -147,3 +147,50 @@ func TestTorresSun(t *testing.T) {
 		t.Errorf("negative Teff: got %v", err)
 	}
 }
+
+// Mean densities and the Stefan–Boltzmann luminosity. Check values computed independently at
+// 40 digits from IAU 2015 Resolution B3 (GM☉, R☉, (GM)⊕, L☉, Teff☉) and CODATA 2018 G and σ:
+// ρ☉ = 1409.7798 kg m⁻³, the Sun's mean density of 1.41 g/cm³ (from memory); the Earth,
+// with its mean radius 6371.0 km (IUGG, from memory), 5513.414 kg m⁻³, its mean density of
+// 5.51 g/cm³ (from memory); 4πR☉²σTeff☉⁴ = 0.99999762 L☉, the nominal values agreeing
+// within B3's rounding.
+func TestDensityAndLuminosity(t *testing.T) {
+	dwarf := must(StellarDensityCGS(0.5, 0.5))
+	mDwarf := must(Luminosity(0.3*SolarRadius, 3300)) / SolarLuminosity
+	cases := []struct {
+		name      string
+		got, want float64
+		tol       float64 // relative
+	}{
+		{"the nominal Sun's mean density is 1409.7798 kg per cubic metre", SolarDensity, 1409.7798, 5e-8},
+		{"the Earth's mean density is 5513.414 kg per cubic metre", must(MeanDensity(EarthMass, 6.3710e6)), 5513.414, 5e-7},
+		{"a star of one solar mass and radius has the Sun's density in g/cm³", must(StellarDensityCGS(1, 1)), SolarDensity / 1000, 1e-15},
+		{"a star of half the Sun's mass and radius is four times as dense", dwarf, 5.6391193, 5e-8},
+		{"the nominal Sun radiates 0.99999762 nominal luminosities", must(Luminosity(SolarRadius, SolarTeff)) / SolarLuminosity, 0.99999762, 5e-9},
+		{"the nominal Sun has one nominal luminosity", must(NominalLuminosity(1, SolarTeff)), 1, 0},
+		{"a star twice the Sun's radius at its temperature has four", must(NominalLuminosity(2, SolarTeff)), 4, 1e-15},
+		{"both forms agree within B3's rounding for an M dwarf", must(NominalLuminosity(0.3, 3300)), mDwarf, 3e-6},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			if e := relErr(c.got, c.want); e > c.tol {
+				t.Errorf("got %.12g, want %.12g (rel err %.3g > %.3g)", c.got, c.want, e, c.tol)
+			}
+		})
+	}
+	for _, c := range []struct {
+		name string
+		err  error
+	}{
+		{"a zero radius has no density", func() error { _, e := MeanDensity(1, 0); return e }()},
+		{"a negative stellar mass is refused", func() error { _, e := StellarDensityCGS(-1, 1); return e }()},
+		{"a NaN temperature is refused", func() error { _, e := Luminosity(1, math.NaN()); return e }()},
+		{"a zero radius has no luminosity", func() error { _, e := NominalLuminosity(0, 5000); return e }()},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			if !errors.Is(c.err, ErrDomain) {
+				t.Errorf("got %v, want ErrDomain", c.err)
+			}
+		})
+	}
+}

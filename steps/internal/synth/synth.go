@@ -13,6 +13,7 @@ import (
 	"math"
 	"strings"
 
+	"dipline/steps/internal/astro"
 	"dipline/steps/internal/rng"
 	"dipline/steps/internal/transit"
 )
@@ -160,10 +161,11 @@ func (p Transit) Apply(df, t []float64) {
 	}
 }
 
-// T14 is the first-to-last-contact duration of the circular transit in days (Winn 2010).
+// T14 is the first-to-last-contact duration of the circular transit in days (Winn 2010,
+// astro.TotalDuration); 0 when the planet misses the star or the orbit is not a valid one.
 func (p Transit) T14() float64 {
-	s := math.Sqrt((1+p.K)*(1+p.K)-p.B*p.B) / math.Sqrt(p.AR*p.AR-p.B*p.B)
-	return p.Period / math.Pi * math.Asin(s)
+	t, _ := astro.TotalDuration(p.Period, p.AR, p.K, p.B, 0, 0)
+	return t
 }
 
 // Binary is an eclipsing binary at its true Period: a primary eclipse of depth Primary at

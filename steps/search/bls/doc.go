@@ -13,7 +13,7 @@
 // steps/internal/boxmodel), masks the transits and searches again.
 //
 // It works on plain slices (Series) and knows nothing of workflow files, caches or
-// terminals; parallel work goes through a Parallel function over fixed-size frequency
+// terminals; parallel work goes through a parallel.Func over fixed-size frequency
 // blocks, so the result is the same for any number of workers. It does not detrend, fit a
 // limb-darkened transit model or vet signals: later steps do.
 package bls

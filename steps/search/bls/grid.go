@@ -3,42 +3,53 @@ package bls
 import (
 	"fmt"
 	"math"
+
+	"dipline/steps/internal/astro"
 )
 
-// gravity is Newton's constant in m³ kg⁻¹ s⁻² (CODATA 2018).
-const gravity = 6.67430e-11
-
-// secondsPerDay converts the Julian day to seconds.
-const secondsPerDay = 86400.0
-
-// gRho returns G·ρ in d⁻² for a mean stellar density in g/cm³ (×1000 to kg/m³).
+// gRho returns G·ρ in d⁻² for a mean stellar density in g/cm³: the one combination of the
+// star's density that Kepler's third law needs for a/R* (astro.ScaledAxisFromGRho), with
+// G and the day from astro's table.
 func gRho(density float64) float64 {
-	return gravity * density * 1000 * secondsPerDay * secondsPerDay
+	return astro.G * density * astro.GramPerCm3 * astro.Day * astro.Day
 }
 
 // ScaledAxis returns a/R*, the orbital semi-major axis in stellar radii, of a circular orbit
 // of period p (days) around a star of mean density ρ (g/cm³), from Kepler's third law with a
-// negligible planet mass: a/R* = (G ρ P² / (3π))^{1/3} (Seager & Mallén-Ornelas 2003, ApJ
-// 585, 1038).
+// negligible planet mass (astro.ScaledAxisFromGRho; Seager & Mallén-Ornelas 2003, ApJ 585,
+// 1038); NaN outside the law's domain.
 func ScaledAxis(p, density float64) float64 {
-	return math.Cbrt(gRho(density) * p * p / (3 * math.Pi))
+	a, err := astro.ScaledAxisFromGRho(gRho(density), p)
+	if err != nil {
+		return math.NaN()
+	}
+	return a
 }
 
 // CentralDuration returns the duration in days of a central (b = 0) transit of a point-like
-// planet on a circular orbit of period p: T(P) = (P/π)·arcsin(R*/a) (Winn 2010, eq. 14 with
-// k → 0, b = 0, e = 0). For a/R* ≤ 1 the orbit lies inside the star and half the period is
-// returned.
+// planet on a circular orbit of period p: T(P) = (P/π)·arcsin(R*/a), Winn's (2010) total
+// duration with k → 0, b = 0, e = 0 (astro.TotalDuration). For a/R* ≤ 1 the orbit lies
+// inside the star and half the period is returned.
 func CentralDuration(p, density float64) float64 {
 	a := ScaledAxis(p, density)
 	if a <= 1 {
 		return p / 2
 	}
-	return p / math.Pi * math.Asin(1/a)
+	t, err := astro.TotalDuration(p, a, 0, 0, 0, 0)
+	if err != nil {
+		return math.NaN()
+	}
+	return t
 }
 
-// PeriodAtAxis returns the period in days at which a/R* equals a: P = sqrt(3π a³/(Gρ)).
+// PeriodAtAxis returns the period in days at which a/R* equals a: P = sqrt(3π a³/(Gρ))
+// (astro.PeriodFromScaledAxis); NaN outside its domain.
 func PeriodAtAxis(a, density float64) float64 {
-	return math.Sqrt(3 * math.Pi * a * a * a / gRho(density))
+	p, err := astro.PeriodFromScaledAxis(a, gRho(density))
+	if err != nil {
+		return math.NaN()
+	}
+	return p
 }
 
 // rocheAxis is the orbit, in stellar radii, that Ofir (2014, A&A 561, A138) takes as the

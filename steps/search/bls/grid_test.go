@@ -3,20 +3,24 @@ package bls
 import (
 	"math"
 	"testing"
+
+	"dipline/steps/internal/astro"
 )
 
-// Nominal solar values, IAU 2015 Resolution B3 (Prša et al. 2016, AJ 152, 41).
+// Nominal solar values, IAU 2015 Resolution B3 (Prša et al. 2016, AJ 152, 41), from astro's
+// table.
 const (
-	nominalGMSun = 1.3271244e20 // m³ s⁻²
-	nominalRSun  = 6.957e8      // m
+	nominalGMSun = astro.SolarGM // m³ s⁻²
+	nominalRSun  = astro.SolarRadius
 )
 
 // densityOf returns the mean density in g/cm³ of a star of the given mass and radius in
-// nominal solar units, ρ = 3M/(4πR³) with M = GM/G (CODATA 2018 G).
+// nominal solar units, ρ = 3M/(4πR³) with M = GM/G (CODATA 2018 G), written out here
+// rather than through astro so that the grid is checked against an independent density.
 func densityOf(mass, radius float64) float64 {
 	gm := mass * nominalGMSun
 	r := radius * nominalRSun
-	return 3 * gm / gravity / (4 * math.Pi * r * r * r) / 1000
+	return 3 * gm / astro.G / (4 * math.Pi * r * r * r) / 1000
 }
 
 func TestGridFollowsOfir(t *testing.T) {
@@ -38,15 +42,15 @@ func TestGridFollowsOfir(t *testing.T) {
 			// Ofir (2014, A&A 561, A138), in SI from R* and GM* directly (no G, no density):
 			// A = (2π)^{2/3}/π · R*/(GM*)^{1/3} / (S·OS), N = (f_max^{1/3} − f_min^{1/3} + A/3)·3/A.
 			r, gm := c.radius*nominalRSun, c.mass*nominalGMSun
-			s := c.span * secondsPerDay
+			s := c.span * astro.Day
 			a := math.Pow(2*math.Pi, 2.0/3) / math.Pi * r / math.Cbrt(gm) / (s * c.oversam)
-			fmin, fmax := 1/(c.pmax*secondsPerDay), 1/(c.pmin*secondsPerDay)
+			fmin, fmax := 1/(c.pmax*astro.Day), 1/(c.pmin*astro.Day)
 			nOfir := (math.Cbrt(fmax) - math.Cbrt(fmin) + a/3) * 3 / a
 			if float64(g.N) > nOfir+1e-6 || float64(g.N) <= nOfir-1 {
 				t.Errorf("N_freq = %d, Ofir's count is %.4f", g.N, nOfir)
 			}
 			// The step in f^{1/3}: Ofir's A/3 in s^{-1/3} is A/3·86400^{1/3} in d^{-1/3}.
-			if want := a / 3 * math.Cbrt(secondsPerDay); math.Abs(g.Step/want-1) > 1e-12 {
+			if want := a / 3 * math.Cbrt(astro.Day); math.Abs(g.Step/want-1) > 1e-12 {
 				t.Errorf("step in f^(1/3) = %.15g d^-1/3, Ofir's A/3 = %.15g", g.Step, want)
 			}
 			// Uniform in f^{1/3}, inside the requested range.

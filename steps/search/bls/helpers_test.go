@@ -1,6 +1,10 @@
 package bls
 
-import "math"
+import (
+	"math"
+
+	"dipline/steps/internal/astro"
+)
 
 // normals is a seeded stream of standard normal draws: splitmix64 (Steele, Lea & Flood
 // 2014) for uniforms and the Box–Muller transform for normals, written here so the fixtures
@@ -76,8 +80,8 @@ func synth(seed uint64, span, cadence, sigma, gap float64, dips ...dip) Series {
 }
 
 // solarDensity is the mean density of the nominal Sun in g/cm³ (IAU 2015 Resolution B3
-// R☉ and (GM)☉, CODATA 2018 G), ≈ 1.40978 (computed independently).
-var solarDensity = 1.3271244e20 / 6.67430e-11 / (4.0 / 3 * math.Pi * math.Pow(6.957e8, 3)) / 1000
+// R☉ and (GM)☉, CODATA 2018 G), ≈ 1.40978 (computed independently), from astro's table.
+var solarDensity = astro.SolarDensity / astro.GramPerCm3
 
 // defaultOptions is a search of the given range around a Sun-like star.
 func defaultOptions(pmin, pmax float64) Options {

@@ -1,6 +1,10 @@
 package bls
 
-import "math"
+import (
+	"math"
+
+	"dipline/steps/internal/parallel"
+)
 
 // The box durations scanned at period P run from durShort·T(P) to durLong·T(P), where T(P)
 // is the central-transit duration for the stated density (CentralDuration), and never below
@@ -30,20 +34,6 @@ func durationRange(p, density, cadence float64) (lo, hi float64) {
 	lo = math.Max(durShort*t, cadence)
 	hi = math.Max(durLong*t, lo)
 	return lo, hi
-}
-
-// Parallel runs block(i) for i in [0, n), possibly concurrently; each block writes only its
-// own part of the output. steps.Pool.Parallel has this shape. Nil runs the blocks in order.
-type Parallel func(n int, block func(i int))
-
-func (par Parallel) run(n int, block func(i int)) {
-	if par == nil {
-		for i := 0; i < n; i++ {
-			block(i)
-		}
-		return
-	}
-	par(n, block)
 }
 
 // bin accumulates the normalised weight and weighted residual of the points in one phase bin.
@@ -216,10 +206,10 @@ type spectrum struct {
 
 // periodogram computes the spectrum over the grid in fixed blocks of freqBlock frequencies;
 // every frequency is computed on its own, so the result does not depend on the workers.
-func periodogram(p *prepared, g Grid, par Parallel, progress func()) spectrum {
+func periodogram(p *prepared, g Grid, par parallel.Func, progress func()) spectrum {
 	sp := spectrum{power: make([]float64, g.N), duration: make([]float64, g.N), centre: make([]float64, g.N)}
 	nblk := (g.N + freqBlock - 1) / freqBlock
-	par.run(nblk, func(b int) {
+	par.Run(nblk, func(b int) {
 		var sc scratch
 		end := min(g.N, (b+1)*freqBlock)
 		put := func(j int, bx box) {

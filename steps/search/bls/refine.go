@@ -135,9 +135,9 @@ func (rf *refiner) fold(f float64) {
 	}
 }
 
-// edges returns the span of left-edge positions of a box whose first point inside is i,
-// and of right-edge positions of one whose last point inside is j: half a cadence beyond
-// the outermost points.
+// leftSpan returns the span of left-edge positions of a box whose first point inside is i,
+// and rightSpan that of right-edge positions of one whose last point inside is j: half a
+// cadence beyond the outermost points.
 func (rf *refiner) leftSpan(i int) (lo, hi float64) {
 	if i == 0 {
 		return rf.buf[0].u - rf.p.cadence/2, rf.buf[0].u
@@ -145,6 +145,7 @@ func (rf *refiner) leftSpan(i int) (lo, hi float64) {
 	return rf.buf[i-1].u, rf.buf[i].u
 }
 
+// rightSpan: see leftSpan.
 func (rf *refiner) rightSpan(j int) (lo, hi float64) {
 	if j == len(rf.buf)-1 {
 		return rf.buf[j].u, rf.buf[j].u + rf.p.cadence/2
@@ -185,6 +186,7 @@ func (rf *refiner) boxes(per float64, st int, visit func(i, j int, l, r float64)
 	}
 }
 
+// rightMid returns the midpoint of rightSpan(j), the right edge a box ending at j is scanned with.
 func (rf *refiner) rightMid(j int) float64 {
 	a, b := rf.rightSpan(j)
 	return (a + b) / 2
@@ -305,12 +307,14 @@ type refined struct {
 // weighted accumulates a mean and variance under weights.
 type weighted struct{ w, m1, m2 float64 }
 
+// add adds x with the given weight; within is the variance of x inside what it stands for.
 func (a *weighted) add(weight, x, within float64) {
 	a.w += weight
 	a.m1 += weight * x
 	a.m2 += weight * (x*x + within)
 }
 
+// meanSD returns the weighted mean and standard deviation.
 func (a weighted) meanSD() (float64, float64) {
 	m := a.m1 / a.w
 	return m, math.Sqrt(math.Max(0, a.m2/a.w-m*m))
@@ -320,55 +324,92 @@ func (a weighted) meanSD() (float64, float64) {
 // allow. c0 and d0 are the coarse box centre (since t0) and duration.
 func refine(p *prepared, density, f0, df, c0, d0 float64) (refined, bool) {
 	rf := newRefiner(p, density, f0, c0, d0, profileMaxSpan*df)
-	sumW := p.sumW
-	tol := 1 / sumW // Δχ² = 1 in units of s²/(r(1−r))
+	pk, ok := rf.zoom(f0, df)
+	if !ok {
+		return refined{}, false
+	}
+	trials := rf.walk(pk)
+	freq, freqSigma, ok := frequencyPosterior(trials, pk.top, p.sumW)
+	if !ok {
+		return refined{}, false
+	}
+	out := refined{freq: freq, freqSigma: freqSigma}
 
-	// Zoom until the Δχ² = 1 region is resolved.
+	// Epoch and duration at the chosen frequency, from the boxes near the best one.
+	b, bi, bj := rf.scanAt(out.freq)
+	if b.stat <= 0 {
+		return refined{}, false
+	}
+	c, cs, d, ds, peak := rf.posterior(1/out.freq, bi, bj, b.stat)
+	if peak <= 0 {
+		return refined{}, false
+	}
+	out.centre, out.centreSigma = rf.tc+c, cs
+	out.dur, out.durSigma = d, ds
+	out.stat = peak
+	return out, true
+}
+
+// profilePeak is what the zoom finds: the trial frequency with the largest statistic top,
+// and the frequencies fLo … fHi between which the statistic lies within Δχ² = 1 of it.
+type profilePeak struct {
+	fLo, fHi, fTop, top float64
+}
+
+// zoom scans the frequency profile around f0 (grid step df), zooming in until the Δχ² = 1
+// region spans profileResolved trial steps and widening (up to profileMaxSpan grid steps)
+// while the region reaches the scan's edge. ok is false when no frequency gives a dip.
+func (rf *refiner) zoom(f0, df float64) (pk profilePeak, ok bool) {
+	tol := 1 / rf.p.sumW // Δχ² = 1 in units of s²/(r(1−r))
 	fc, h := f0, profileSpan*df
-	var fLo, fHi, fTop, step, top float64
+	var step float64
 	prof := make([]float64, 2*profilePoints+1)
 	for zoom := 0; zoom < profileZooms; zoom++ {
 		step = h / profilePoints
-		top = 0
+		pk.top = 0
 		for k := range prof {
 			f := fc + float64(k-profilePoints)*step
 			prof[k] = rf.scan(f).stat
-			if prof[k] > top {
-				top, fTop = prof[k], f
+			if prof[k] > pk.top {
+				pk.top, pk.fTop = prof[k], f
 			}
 		}
-		if top <= 0 {
-			return refined{}, false
+		if pk.top <= 0 {
+			return profilePeak{}, false
 		}
 		lo, hi := -1, -1
 		for k, v := range prof {
-			if v >= top-tol {
+			if v >= pk.top-tol {
 				if lo < 0 {
 					lo = k
 				}
 				hi = k
 			}
 		}
-		fLo = fc + float64(lo-profilePoints)*step
-		fHi = fc + float64(hi-profilePoints)*step
+		pk.fLo = fc + float64(lo-profilePoints)*step
+		pk.fHi = fc + float64(hi-profilePoints)*step
 		if (lo == 0 || hi == len(prof)-1) && h < profileMaxSpan*df {
-			fc, h = (fLo+fHi)/2, math.Min(2*h, profileMaxSpan*df) // the region reaches an edge: widen
+			fc, h = (pk.fLo+pk.fHi)/2, math.Min(2*h, profileMaxSpan*df) // the region reaches an edge: widen
 			continue
 		}
 		if hi-lo >= profileResolved || step < fc*1e-13 {
 			break
 		}
-		fc = (fLo + fHi) / 2
-		h = math.Max(fHi-fLo, 2*step) // the region will span about half the new range
+		fc = (pk.fLo + pk.fHi) / 2
+		h = math.Max(pk.fHi-pk.fLo, 2*step) // the region will span about half the new range
 	}
+	return pk, true
+}
 
-	// Walk outwards from the best frequency until Δχ² has dropped by profileDrop: at a fine
-	// step across the Δχ² = 1 region, growing by profileGrowth per step beyond it. Each
-	// trial frequency stands for the interval half-way to its neighbours and carries the
-	// weight exp(Δχ²/2).
-	fine := math.Max((fHi-fLo)/profileFine, fTop*1e-13)
-	type trial struct{ f, v float64 }
-	trials := []trial{{fTop, rf.scan(fTop).stat}}
+// profileTrial is one trial frequency of the final walk and its statistic.
+type profileTrial struct{ f, v float64 }
+
+// walk scans outwards from the best frequency until Δχ² has dropped by profileDrop: at a
+// fine step across the Δχ² = 1 region, growing by profileGrowth per step beyond it. It
+// returns the trials sorted by frequency.
+func (rf *refiner) walk(pk profilePeak) []profileTrial {
+	fine := math.Max((pk.fHi-pk.fLo)/profileFine, pk.fTop*1e-13)
+	trials := []profileTrial{{pk.fTop, rf.scan(pk.fTop).stat}}
 	for _, dir := range []float64{-1, 1} {
 		off, dx := 0.0, fine
 		for k := 1; k <= profileWalk; k++ {
@@ -376,15 +417,23 @@ func refine(p *prepared, density, f0, df, c0, d0 float64) (refined, bool) {
 			if k > profileFine {
 				dx *= profileGrowth
 			}
-			f := fTop + dir*off
+			f := pk.fTop + dir*off
 			v := rf.scan(f).stat
-			trials = append(trials, trial{f, v})
-			if (top-v)*sumW > profileDrop {
+			trials = append(trials, profileTrial{f, v})
+			if (pk.top-v)*rf.p.sumW > profileDrop {
 				break
 			}
 		}
 	}
-	slices.SortFunc(trials, func(a, b trial) int { return cmp.Compare(a.f, b.f) })
+	slices.SortFunc(trials, func(a, b profileTrial) int { return cmp.Compare(a.f, b.f) })
+	return trials
+}
+
+// frequencyPosterior returns the mean and standard deviation of the frequency under the
+// profile likelihood: each trial stands for the interval half-way to its neighbours and
+// carries the weight exp(Δχ²/2), Δχ² measured from the largest statistic met (at least
+// top). ok is false when no trial carries weight.
+func frequencyPosterior(trials []profileTrial, top, sumW float64) (freq, sigma float64, ok bool) {
 	for _, t := range trials {
 		top = math.Max(top, t.v)
 	}
@@ -403,22 +452,8 @@ func refine(p *prepared, density, f0, df, c0, d0 float64) (refined, bool) {
 		fw.add(math.Exp(-(top-t.v)*sumW/2)*(b-a), t.f, (b-a)*(b-a)/12)
 	}
 	if fw.w <= 0 {
-		return refined{}, false
+		return 0, 0, false
 	}
-	out := refined{}
-	out.freq, out.freqSigma = fw.meanSD()
-
-	// Epoch and duration at the chosen frequency, from the boxes near the best one.
-	b, bi, bj := rf.scanAt(out.freq)
-	if b.stat <= 0 {
-		return refined{}, false
-	}
-	c, cs, d, ds, peak := rf.posterior(1/out.freq, bi, bj, b.stat)
-	if peak <= 0 {
-		return refined{}, false
-	}
-	out.centre, out.centreSigma = rf.tc+c, cs
-	out.dur, out.durSigma = d, ds
-	out.stat = peak
-	return out, true
+	freq, sigma = fw.meanSD()
+	return freq, sigma, true
 }

@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 	"sync"
+
+	"dipline/steps/internal/parallel"
 )
 
 // Options configure a search. Times are in days, the density in g/cm³.
@@ -83,7 +85,7 @@ const minPoints = 20
 // signals are found. par spreads fixed blocks of frequencies over workers (nil: serial);
 // progress, if not nil, is called after each block with the pass number (from 0), the
 // blocks done and the blocks in the pass.
-func Search(s Series, o Options, par Parallel, progress func(pass, done, total int)) (*Result, error) {
+func Search(s Series, o Options, par parallel.Func, progress func(pass, done, total int)) (*Result, error) {
 	if err := s.Check(); err != nil {
 		return nil, err
 	}
