@@ -39,7 +39,7 @@ func (l *List) Encode() []byte {
 	return w.Bytes()
 }
 
-// Decode implements steps.Kind.
+// Decode implements steps.Typed.
 func (Kind) Decode(b []byte) (steps.Artifact, error) { return steps.Decoded(Decode(b)) }
 
 // Decode reads a List back, rejecting truncated, foreign or invalid records.

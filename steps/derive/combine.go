@@ -4,6 +4,7 @@ import (
 	"math"
 	"sort"
 
+	"dipline/steps/internal/parallel"
 	"dipline/steps/internal/rng"
 )
 
@@ -116,8 +117,8 @@ const gridStep = 1.0 / 20
 // the samples' range and interpolated by a cubic Lagrange polynomial through the four
 // nearest nodes; a sample whose stencil touches a zero of the density, or outside the
 // table, is evaluated exactly. The relative error against exact evaluation is below 1e-6
-// (TestWeightsMatchExactDensity). parallel runs fixed-size blocks; nil runs serially.
-func (p *Pairing) Weights(dst, x []float64, parallel func(int, func(int))) []float64 {
+// (TestWeightsMatchExactDensity). run runs fixed-size blocks; nil runs serially.
+func (p *Pairing) Weights(dst, x []float64, run parallel.Func) []float64 {
 	if len(dst) < len(x) {
 		dst = make([]float64, len(x))
 	}
@@ -140,14 +141,14 @@ func (p *Pairing) Weights(dst, x []float64, parallel func(int, func(int))) []flo
 		if nodes < len(x) {
 			g0 = lo - step
 			table = make([]float64, nodes)
-			par(parallel, nodes, func(a, b int) {
+			par(run, nodes, func(a, b int) {
 				for m := a; m < b; m++ {
 					table[m] = math.Log(p.Density(g0 + float64(m)*step))
 				}
 			})
 		}
 	}
-	par(parallel, len(x), func(a, b int) {
+	par(run, len(x), func(a, b int) {
 		for i := a; i < b; i++ {
 			dst[i] = p.interpolate(x[i], table, g0, step)
 		}

@@ -44,8 +44,8 @@ type BandRelation struct {
 	Source                 string
 }
 
-// Config is the dilution step's decoded configuration.
-type Config struct {
+// Options is the numerical core's configuration, built from a block's Config.
+type Options struct {
 	// Draws is the number of Monte Carlo samples per hypothesis.
 	Draws int
 	// Relation converts companions' Δm into the light curve's band; nil when none is stated.
@@ -80,146 +80,219 @@ func isKs(b string) bool {
 // order. It returns the artifact and the facts worth telling the user. Streams are derived
 // from seed per companion and purpose, so the draws of one companion do not depend on the
 // others'.
-func Compute(cfg Config, in Input, seed uint64) (*Result, []string, error) {
+func Compute(cfg Options, in Input, seed uint64) (*Result, []string, error) {
 	n := cfg.Draws
 	if n < 1 {
 		return nil, nil, fmt.Errorf("dilution: %d draws", n)
 	}
-	var notes []string
-	note := func(f string, a ...any) { notes = append(notes, fmt.Sprintf(f, a...)) }
-	res := &Result{Dilution: stellar.Dilution{Band: in.Band}}
-
-	ones := make([]float64, n)
-	for i := range ones {
-		ones[i] = 1
-	}
+	h := newHypotheses(cfg, in, seed)
 	if in.CrowdingCorrected {
-		res.AlreadyCorrected = true
-		res.Hypotheses = []stellar.Hypothesis{{Host: targetHost, FluxRatio: make([]float64, n), RadiusScale: ones}}
-		res.RadiusSource = []string{"the target"}
-		note("the light curve is already corrected for crowding; no second correction (flux ratio 0, radius factor 1)")
-		if len(in.Companions) > 0 {
-			note("planet-on-companion hypotheses are not formed: a crowding-corrected flux no longer holds the companions' light in a known proportion")
-		}
-		return res, notes, nil
+		h.alreadyCorrected()
+		return h.res, h.notes, nil
 	}
 	if len(in.Companions) > 0 && strings.TrimSpace(in.Band) == "" {
 		return nil, nil, steps.BadInputf("light_curve: the light curve has no band, so the companions' magnitude differences cannot be matched to it; set band in the photometry step")
 	}
-
 	comps, ksRows, err := perCompanion(in.Companions, in.Band, cfg.Relation)
 	if err != nil {
 		return nil, nil, err
 	}
-	in.Companions = comps
+	h.comps, h.ksRows = comps, ksRows
+	if err := h.fluxRatios(); err != nil {
+		return nil, nil, err
+	}
+	h.onTarget()
+	if len(comps) == 0 {
+		h.note("no companions: flux ratio 0, radius factor 1")
+		return h.res, h.notes, nil
+	}
+	h.targetStar()
+	for j, c := range comps {
+		if err := h.onCompanion(j, c); err != nil {
+			return nil, nil, err
+		}
+	}
+	h.note("planet-on-companion hypotheses assume the companion is bound, at the target's distance")
+	return h.res, h.notes, nil
+}
 
-	// Δm of every companion in the light curve's band, and the native draws (for radii).
-	nc := len(in.Companions)
-	native := make([][]float64, nc)
-	ratio := make([][]float64, nc) // F_j/F_t
-	for j, c := range in.Companions {
-		s := rng.Derive(seed, "dmag", uint64(j))
-		nat := make([]float64, n)
+// hypotheses holds what the phases of Compute share: the inputs, the result and notes so
+// far, and what each phase leaves for the next.
+type hypotheses struct {
+	cfg   Options
+	in    Input
+	seed  uint64
+	n     int // draws per hypothesis
+	res   *Result
+	notes []string
+	ones  []float64 // the target's radius factor, 1 for every draw
+
+	// Set by Compute from perCompanion: one row per companion, and its Ks row when the
+	// chosen row is in another band.
+	comps  []stellar.Companion
+	ksRows map[int]stellar.Companion
+
+	// Set by fluxRatios, per companion: its Δm draws in its own band (for radii) and its
+	// flux over the target's in the light curve's band.
+	native, ratio [][]float64
+
+	// Set by targetStar: the target's radius draws (nil without a star step) and its
+	// absolute Ks magnitude draws (nil unless one per radius draw).
+	rt, mk []float64
+}
+
+// newHypotheses starts a computation of cfg.Draws draws per hypothesis.
+func newHypotheses(cfg Options, in Input, seed uint64) *hypotheses {
+	ones := make([]float64, cfg.Draws)
+	for i := range ones {
+		ones[i] = 1
+	}
+	return &hypotheses{cfg: cfg, in: in, seed: seed, n: cfg.Draws, ones: ones,
+		res: &Result{Dilution: stellar.Dilution{Band: in.Band}}}
+}
+
+// note records a fact for the user.
+func (h *hypotheses) note(format string, a ...any) {
+	h.notes = append(h.notes, fmt.Sprintf(format, a...))
+}
+
+// alreadyCorrected gives the one hypothesis of a crowding-corrected light curve: the
+// planet on the target, with nothing left to correct.
+func (h *hypotheses) alreadyCorrected() {
+	res := h.res
+	res.AlreadyCorrected = true
+	res.Hypotheses = []stellar.Hypothesis{{Host: targetHost, FluxRatio: make([]float64, h.n), RadiusScale: h.ones}}
+	res.RadiusSource = []string{"the target"}
+	h.note("the light curve is already corrected for crowding; no second correction (flux ratio 0, radius factor 1)")
+	if len(h.in.Companions) > 0 {
+		h.note("planet-on-companion hypotheses are not formed: a crowding-corrected flux no longer holds the companions' light in a known proportion")
+	}
+}
+
+// fluxRatios draws every companion's Δm, converts it to the light curve's band where
+// needed, and turns it into the companion's flux over the target's.
+func (h *hypotheses) fluxRatios() error {
+	nc := len(h.comps)
+	h.native = make([][]float64, nc)
+	h.ratio = make([][]float64, nc) // F_j/F_t
+	for j, c := range h.comps {
+		s := rng.Derive(h.seed, "dmag", uint64(j))
+		nat := make([]float64, h.n)
 		for i := range nat {
 			nat[i] = c.DMag + c.DMagErr*s.Normal()
 		}
-		native[j] = nat
+		h.native[j] = nat
 		dm := nat
-		if !sameBand(c.Band, in.Band) {
-			r := cfg.Relation
-			switch {
-			case r == nil:
-				return nil, nil, steps.BadInputf("companions: %q has its magnitude difference in band %q but the light curve is in band %q; state a band_relation from %q to %q (with its source) or give the difference in %q",
-					c.Name, c.Band, in.Band, c.Band, in.Band, in.Band)
-			case !sameBand(r.From, c.Band) || !sameBand(r.To, in.Band):
-				return nil, nil, steps.BadInputf("companions: %q has its magnitude difference in band %q and the light curve is in band %q, but band_relation converts %q to %q",
-					c.Name, c.Band, in.Band, r.From, r.To)
+		if !sameBand(c.Band, h.in.Band) {
+			var err error
+			if dm, err = h.toBand(j, c, nat); err != nil {
+				return err
 			}
-			sc := rng.Derive(seed, "band", uint64(j))
-			dm = make([]float64, n)
-			for i, x := range nat {
-				dm[i] = r.Offset + r.Slope*x + r.Scatter*sc.Normal()
-			}
-			note("companion %s: Δm in %s = %g + %g × Δm in %s, scatter %g mag (source: %s)",
-				c.Name, in.Band, r.Offset, r.Slope, r.From, r.Scatter, r.Source)
 		}
-		rj := make([]float64, n)
+		rj := make([]float64, h.n)
 		for i, x := range dm {
 			rj[i] = math.Pow(10, -0.4*x)
 			if !(rj[i] > 0) || math.IsInf(rj[i], 0) {
-				return nil, nil, steps.BadInputf("companions: %q: a magnitude difference of %g mag gives no finite flux ratio", c.Name, x)
+				return steps.BadInputf("companions: %q: a magnitude difference of %g mag gives no finite flux ratio", c.Name, x)
 			}
 		}
-		ratio[j] = rj
+		h.ratio[j] = rj
 	}
+	return nil
+}
 
-	// Planet on the target: FluxRatio = Σ_j F_j/F_t (common practice).
-	tgt := make([]float64, n)
-	for _, rj := range ratio {
+// toBand converts companion j's Δm draws nat from its own band to the light curve's by the
+// stated band relation, with the relation's scatter drawn on its own stream.
+func (h *hypotheses) toBand(j int, c stellar.Companion, nat []float64) ([]float64, error) {
+	band, r := h.in.Band, h.cfg.Relation
+	switch {
+	case r == nil:
+		return nil, steps.BadInputf("companions: %q has its magnitude difference in band %q but the light curve is in band %q; state a band_relation from %q to %q (with its source) or give the difference in %q",
+			c.Name, c.Band, band, c.Band, band, band)
+	case !sameBand(r.From, c.Band) || !sameBand(r.To, band):
+		return nil, steps.BadInputf("companions: %q has its magnitude difference in band %q and the light curve is in band %q, but band_relation converts %q to %q",
+			c.Name, c.Band, band, r.From, r.To)
+	}
+	sc := rng.Derive(h.seed, "band", uint64(j))
+	dm := make([]float64, h.n)
+	for i, x := range nat {
+		dm[i] = r.Offset + r.Slope*x + r.Scatter*sc.Normal()
+	}
+	h.note("companion %s: Δm in %s = %g + %g × Δm in %s, scatter %g mag (source: %s)",
+		c.Name, band, r.Offset, r.Slope, r.From, r.Scatter, r.Source)
+	return dm, nil
+}
+
+// onTarget adds the hypothesis of the planet on the target: FluxRatio = Σ_j F_j/F_t
+// (common practice).
+func (h *hypotheses) onTarget() {
+	tgt := make([]float64, h.n)
+	for _, rj := range h.ratio {
 		for i, x := range rj {
 			tgt[i] += x
 		}
 	}
-	res.Hypotheses = append(res.Hypotheses, stellar.Hypothesis{Host: targetHost, FluxRatio: tgt, RadiusScale: ones})
-	res.RadiusSource = append(res.RadiusSource, "the target")
-	if nc == 0 {
-		note("no companions: flux ratio 0, radius factor 1")
-		return res, notes, nil
-	}
+	h.res.Hypotheses = append(h.res.Hypotheses, stellar.Hypothesis{Host: targetHost, FluxRatio: tgt, RadiusScale: h.ones})
+	h.res.RadiusSource = append(h.res.RadiusSource, "the target")
+}
 
-	// The target's radius draws, when a star step is referenced.
-	var rt, mk []float64
-	if in.Star != nil {
-		rt = in.Star.Radius
-		if rt == nil {
-			rt = []float64{}
-		}
-		if len(in.Star.MagK) == len(rt) {
-			mk = in.Star.MagK
-		}
-		if len(rt) > 0 && len(rt) != n {
-			note("star: %d draws cycled over %d", len(rt), n)
-		}
-		if len(mk) > 0 && in.Star.Relation != "" && !strings.Contains(in.Star.Relation, "Mann") {
-			note("star: the target's radius comes from %s; companions' radii from M_K use %s", in.Star.Relation, mann15Name)
-		}
+// targetStar takes the target's radius and absolute Ks draws, when a star step is
+// referenced, and notes how they will be used.
+func (h *hypotheses) targetStar() {
+	star := h.in.Star
+	if star == nil {
+		return
 	}
+	h.rt = star.Radius
+	if h.rt == nil {
+		h.rt = []float64{}
+	}
+	if len(star.MagK) == len(h.rt) {
+		h.mk = star.MagK
+	}
+	if len(h.rt) > 0 && len(h.rt) != h.n {
+		h.note("star: %d draws cycled over %d", len(h.rt), h.n)
+	}
+	if len(h.mk) > 0 && star.Relation != "" && !strings.Contains(star.Relation, "Mann") {
+		h.note("star: the target's radius comes from %s; companions' radii from M_K use %s", star.Relation, mann15Name)
+	}
+}
 
-	// Planet on companion j: FluxRatio = (F_t + Σ_{i≠j} F_i)/F_j, i.e. (1 + Σ_{i≠j} r_i)/r_j.
-	for j, c := range in.Companions {
-		fr := make([]float64, n)
-		for i := range fr {
-			others := 1.0
-			for k := range ratio {
-				if k != j {
-					others += ratio[k][i]
-				}
-			}
-			fr[i] = others / ratio[j][i]
-		}
-		h := stellar.Hypothesis{Host: c.Name, FluxRatio: fr}
-		rc, nat := c, native[j]
-		if ks, ok := ksRows[j]; ok && !isKs(c.Band) {
-			// The radius comes from the Δm in Ks, drawn on its own stream.
-			rc, nat = ks, make([]float64, n)
-			s := rng.Derive(seed, "dmag-ks", uint64(j))
-			for i := range nat {
-				nat[i] = ks.DMag + ks.DMagErr*s.Normal()
+// onCompanion adds the hypothesis of the planet on companion j:
+// FluxRatio = (F_t + Σ_{i≠j} F_i)/F_j, i.e. (1 + Σ_{i≠j} r_i)/r_j, with the companion's
+// radius over the target's when it can be had.
+func (h *hypotheses) onCompanion(j int, c stellar.Companion) error {
+	fr := make([]float64, h.n)
+	for i := range fr {
+		others := 1.0
+		for k := range h.ratio {
+			if k != j {
+				others += h.ratio[k][i]
 			}
 		}
-		rs, src, err := radiusScale(rc, nat, rt, mk, seed, j)
-		if err != nil {
-			return nil, nil, err
-		}
-		if rs == nil {
-			note("planet on %s: no radius scale (%s); only its flux ratio is given", c.Name, src)
-		}
-		h.RadiusScale = rs
-		res.Hypotheses = append(res.Hypotheses, h)
-		res.RadiusSource = append(res.RadiusSource, src)
+		fr[i] = others / h.ratio[j][i]
 	}
-	note("planet-on-companion hypotheses assume the companion is bound, at the target's distance")
-	return res, notes, nil
+	hyp := stellar.Hypothesis{Host: c.Name, FluxRatio: fr}
+	rc, nat := c, h.native[j]
+	if ks, ok := h.ksRows[j]; ok && !isKs(c.Band) {
+		// The radius comes from the Δm in Ks, drawn on its own stream.
+		rc, nat = ks, make([]float64, h.n)
+		s := rng.Derive(h.seed, "dmag-ks", uint64(j))
+		for i := range nat {
+			nat[i] = ks.DMag + ks.DMagErr*s.Normal()
+		}
+	}
+	rs, src, err := radiusScale(rc, nat, h.rt, h.mk, h.seed, j)
+	if err != nil {
+		return err
+	}
+	if rs == nil {
+		h.note("planet on %s: no radius scale (%s); only its flux ratio is given", c.Name, src)
+	}
+	hyp.RadiusScale = rs
+	h.res.Hypotheses = append(h.res.Hypotheses, hyp)
+	h.res.RadiusSource = append(h.res.RadiusSource, src)
+	return nil
 }
 
 // radiusScale draws R_j/R_t for companion j from its given radius, or from the target's

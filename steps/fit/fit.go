@@ -7,17 +7,16 @@ import (
 	"math"
 	"slices"
 	"sort"
-	"strings"
 
 	"gonum.org/v1/gonum/optimize"
 
 	"dipline/steps"
 	"dipline/steps/internal/astro"
 	"dipline/steps/internal/lightcurve"
+	"dipline/steps/internal/parallel"
 	"dipline/steps/internal/rng"
 	"dipline/steps/internal/sampler"
 	"dipline/steps/internal/signals"
-	"dipline/steps/internal/transit"
 )
 
 // Limits and fixed choices, each with its reason.
@@ -34,6 +33,7 @@ const (
 	// point error: a tenth (after Kipping 2010, MNRAS 408, 1758, who sets N by comparing the
 	// integration error with the noise; the factor is our choice).
 	integrationShare = 0.1
+	// From lengthPerTau to chunk: the sampling schedule (sampler.Schedule, which runs it).
 	// lengthPerTau is the chain length after burn-in, in autocorrelation times, at which
 	// sampling stops (50τ, common practice).
 	lengthPerTau = 50
@@ -108,7 +108,7 @@ type Options struct {
 	// residuals (Pont, Zucker & Queloz 2006) before sampling, when β > 1.
 	InflateByBeta bool
 	// Parallel runs block(i) for i in [0, n); nil runs serially. Results do not depend on it.
-	Parallel func(n int, block func(i int))
+	Parallel parallel.Func
 
 	nsub int // sub-exposures per point instead of subexposures' choice, for tests
 }
@@ -119,168 +119,144 @@ var planetNames = [maxPlanets]string{"b", "c", "d"}
 // Fit fits the transit model to lc and samples its posterior. Problems with the data are
 // *steps.InputError values; the notes are facts for the user.
 func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, []string, error) {
-	np := len(o.Signals)
-	if np == 0 || np > maxPlanets {
-		return nil, nil, fmt.Errorf("fit: %d planets, must be 1 to %d", np, maxPlanets)
+	if err := checkSignals(o.Signals); err != nil {
+		return nil, nil, err
 	}
-	for j, s := range o.Signals {
-		if !(s.Period > 0) || !(s.Duration > 0) || !(s.Duration < s.Period) || math.IsNaN(s.Epoch) {
-			return nil, nil, steps.BadInputf("signals: signal %d has period %v d, duration %v d, epoch %v: cannot start a fit", j+1, s.Period, s.Duration, s.Epoch)
-		}
-	}
-	m, art, x0, scale, notes, err := setup(lc, o)
+	p, err := newProblem(lc, o)
 	if err != nil {
 		return nil, nil, err
 	}
-	dim := len(x0)
-	best, bestLP := optimum(m, x0, scale)
-	notes = append(notes, fmt.Sprintf("best fit: Nelder–Mead from the search's values reached log posterior %.6g (start %.6g)", bestLP, m.bestLogPost(x0)))
-	if beta, err := m.beta(best); err != nil {
-		art.Beta = math.NaN()
-		notes = append(notes, fmt.Sprintf("β factor not measured: %v", err))
-	} else {
-		art.Beta = beta
-		switch {
-		case o.InflateByBeta && beta > 1:
-			for s := range m.segs {
-				for i := range m.segs[s].v {
-					m.segs[s].v[i] *= beta * beta
-				}
-			}
-			art.Inflated = true
-			best, bestLP = optimum(m, best, scale)
-			notes = append(notes, fmt.Sprintf("errors multiplied by β = %.3g, the residuals' time-averaging factor (Pont, Zucker & Queloz 2006), before sampling", beta))
+	best, bestLP := p.bestFit(o)
+	run, err := sampler.RunEnsembles(ctx, p.m.LogPost, p.walkerStarts(best, o), schedule(o))
+	if err != nil {
+		if errors.Is(err, sampler.ErrConfig) {
+			return nil, nil, fmt.Errorf("fit: %w", err)
 		}
-		// Above betaCaution without inflation, the artifact's Cautions say so.
+		return nil, nil, err
 	}
+	thin := p.noteSampling(run)
+	p.diagnose(run, thin)
+	best = p.keepSamples(run, thin, best, bestLP)
+	if err := p.timeTransits(best, o); err != nil {
+		return nil, nil, err
+	}
+	return p.art, p.notes, nil
+}
 
-	// Ensembles started in a small ball around the best fit.
-	K := walkersPerDim * dim
-	par := o.Parallel
-	if par == nil {
-		par = func(n int, block func(i int)) {
-			for i := 0; i < n; i++ {
-				block(i)
-			}
+// checkSignals checks that there are 1 to maxPlanets signals, each one a start for a fit.
+func checkSignals(sigs []signals.Signal) error {
+	np := len(sigs)
+	if np == 0 || np > maxPlanets {
+		return fmt.Errorf("fit: %d planets, must be 1 to %d", np, maxPlanets)
+	}
+	for j, s := range sigs {
+		if !(s.Period > 0) || !(s.Duration > 0) || !(s.Duration < s.Period) || math.IsNaN(s.Epoch) {
+			return steps.BadInputf("signals: signal %d has period %v d, duration %v d, epoch %v: cannot start a fit", j+1, s.Period, s.Duration, s.Epoch)
 		}
 	}
-	ens := make([]*sampler.Chain, o.Ensembles)
-	last := make([][][]float64, o.Ensembles)
-	for e := range ens {
+	return nil
+}
+
+// problem is a fit under way: the model over the points kept, the artifact so far, the
+// start point and the start scale per sampled parameter (from newProblem), and the notes.
+type problem struct {
+	m         *Model
+	art       *Artifact
+	x0, scale []float64
+	notes     []string
+}
+
+// bestFit runs the optimiser from the start point and measures the β factor of its
+// residuals; with InflateByBeta and β > 1 it multiplies the errors by β and optimises
+// again. It returns the best point and its log posterior (Model.bestLogPost).
+func (p *problem) bestFit(o Options) ([]float64, float64) {
+	m, art := p.m, p.art
+	best, bestLP := optimum(m, p.x0, p.scale)
+	p.notes = append(p.notes, fmt.Sprintf("best fit: Nelder–Mead from the search's values reached log posterior %.6g (start %.6g)", bestLP, m.bestLogPost(p.x0)))
+	beta, err := m.beta(best)
+	if err != nil {
+		art.Beta = math.NaN()
+		p.notes = append(p.notes, fmt.Sprintf("β factor not measured: %v", err))
+		return best, bestLP
+	}
+	art.Beta = beta
+	if o.InflateByBeta && beta > 1 {
+		for s := range m.segs {
+			for i := range m.segs[s].v {
+				m.segs[s].v[i] *= beta * beta
+			}
+		}
+		art.Inflated = true
+		best, bestLP = optimum(m, best, p.scale)
+		p.notes = append(p.notes, fmt.Sprintf("errors multiplied by β = %.3g, the residuals' time-averaging factor (Pont, Zucker & Queloz 2006), before sampling", beta))
+	}
+	// Above betaCaution without inflation, the artifact's Cautions say so.
+	return best, bestLP
+}
+
+// walkerStarts draws each ensemble's walkers, from the ensemble's own stream, in a small
+// ball around the best fit, with each eccentric planet's orbit spread over the unit disk
+// (disperseOrbits).
+func (p *problem) walkerStarts(best []float64, o Options) [][][]float64 {
+	K := walkersPerDim * len(best)
+	starts := make([][][]float64, o.Ensembles)
+	for e := range starts {
 		r := rng.Derive(o.Seed, "fit/start", uint64(e))
 		init := make([][]float64, K)
 		for w := range init {
-			init[w] = ball(m, best, scale, r)
-			m.disperseOrbits(init[w], r)
+			init[w] = ball(p.m, best, p.scale, r)
+			p.m.disperseOrbits(init[w], r)
 		}
-		last[e] = init
-		ens[e] = &sampler.Chain{Walkers: K, Dim: dim, Thin: 1, Accepted: make([]int, K)}
+		starts[e] = init
 	}
-	// guides[e] is ensemble e's guide once the first phase is over (see below).
-	guides := make([]*sampler.Guide, o.Ensembles)
-	total := 0
-	// advance runs n steps of every ensemble, each with its guide when it has one.
-	advance := func(n int) error {
-		for e := range ens {
-			seed := rng.DeriveSeed(o.Seed, "fit/ensemble", uint64(e)<<32|uint64(total/chunk))
-			so := sampler.Options{Steps: n, Seed: seed, Parallel: par, DEShare: deShare}
-			if guides[e] != nil {
-				so.DEShare, so.GuideShare, so.Guide = guidedDEShare, guideShare, guides[e]
-			}
-			ch, err := sampler.Run(ctx, m.LogPost, last[e], so)
-			if err != nil {
-				if errors.Is(err, sampler.ErrConfig) {
-					return fmt.Errorf("fit: %w", err)
-				}
-				return err
-			}
-			appendChain(ens[e], ch)
-			for w := range last[e] {
-				last[e][w] = append([]float64(nil), ch.At(ch.Stored-1, w)...)
-			}
-		}
-		total += n
-		return nil
-	}
-	// Two phases. First the stretch and differential-evolution moves alone, from the ball,
-	// until the chains are guideAfter autocorrelation times long; each ensemble's guide is
-	// then fitted to the second half of its own chains (so the ensembles stay independent)
-	// and frozen, and everything so far is burn-in. Then all three moves, until the chains
-	// after burn-in are lengthPerTau autocorrelation times long. A problem that reaches that
-	// length in the first phase (its last two thirds) stops there.
-	burn := 0
-	var taus []float64
-	trusted := false
-	// τ is estimated (an FFT per walker and parameter) only at checkpoints, a quarter of the
-	// chain apart, and once trusted not before the chains could be long enough for it.
-	nextCheck := chunk
-	for total < o.MaxSteps {
-		if err := advance(min(chunk, o.MaxSteps-total)); err != nil {
-			return nil, nil, err
-		}
-		if total < nextCheck && total < o.MaxSteps {
-			continue
-		}
-		guided := guides[0] != nil
-		from := burn
-		if !guided {
-			from = total / burnShare
-		}
-		taus, trusted = tausOf(ens, dim, from, par)
-		if trusted && float64(total-from) >= lengthPerTau*maxOf(taus) {
-			burn = from
-			break
-		}
-		if !guided && total >= minFirstPhase && float64(total) >= guideAfter*maxOf(taus) {
-			if fitGuides(guides, ens, total/2) {
-				burn = total
-				nextCheck = total + max(chunk, int(lengthPerTau*maxOf(taus)/guideGain))
-				continue
-			}
-		}
-		// Each check costs an FFT per walker and parameter over the whole chain, so the
-		// checks grow apart geometrically (a quarter of the chain at a time, at most a
-		// quarter of overshoot in steps).
-		nextCheck = max(total+chunk, total+(total-from)/4)
-		if trusted {
-			// The total at which the kept share reaches 50τ, if τ holds.
-			need := from + int(lengthPerTau*maxOf(taus)) + 1
-			if !guided {
-				need = int(lengthPerTau*maxOf(taus)*burnShare/(burnShare-1)) + 1
-			}
-			nextCheck = max(nextCheck, min(need, o.MaxSteps))
-		}
-	}
-	if guides[0] == nil || burn >= total {
-		burn = total / burnShare
-	}
-	if taus == nil || !(burn < total) {
-		taus, trusted = tausOf(ens, dim, burn, par)
-	}
-	tauMax := maxOf(taus)
-	if !trusted || float64(total-burn) < lengthPerTau*tauMax {
-		notes = append(notes, fmt.Sprintf("warning: the chains after burn-in are %d steps, shorter than %d autocorrelation times (%.4g steps): the posterior summaries are preliminary; raise max_steps", total-burn, lengthPerTau, lengthPerTau*tauMax))
-	}
-	thin := max(1, int(tauMax/2))
-	notes = append(notes, fmt.Sprintf("sampling: %d ensembles of %d walkers, %d steps each, the first %d discarded as burn-in, thinned by %d (τ/2, τ = %.4g steps)", o.Ensembles, K, total, burn, thin, tauMax))
-	if guides[0] != nil {
-		notes = append(notes, fmt.Sprintf("sampling: after burn-in, %.0f %% of the steps drew from a Student-t guide fitted to each ensemble's own burn-in (independence moves, Tierney 1994), %.0f %% were differential-evolution moves and the rest stretch moves", 100*guideShare, 100*guidedDEShare))
-	}
+	return starts
+}
 
-	// Diagnostics per sampled parameter.
-	art.Names = m.columns()
+// schedule is the fit's sampling schedule, from the constants above.
+func schedule(o Options) sampler.Schedule {
+	return sampler.Schedule{
+		MaxSteps: o.MaxSteps, Chunk: chunk, LengthPerTau: lengthPerTau, BurnShare: burnShare,
+		GuideAfter: guideAfter, MinFirstPhase: minFirstPhase, GuideGain: guideGain,
+		DEShare: deShare, GuidedDEShare: guidedDEShare, GuideShare: guideShare,
+		Seed: o.Seed, SeedLabel: "fit/ensemble", Parallel: o.Parallel,
+	}
+}
+
+// noteSampling notes how the sampling went, with a warning when the chains after burn-in
+// are shorter than lengthPerTau autocorrelation times, and returns the thinning: τ/2.
+func (p *problem) noteSampling(run *sampler.Sampling) (thin int) {
+	K := walkersPerDim * len(p.x0)
+	tauMax := run.MaxTau()
+	if !run.Trusted || float64(run.Steps-run.Burn) < lengthPerTau*tauMax {
+		p.notes = append(p.notes, fmt.Sprintf("warning: the chains after burn-in are %d steps, shorter than %d autocorrelation times (%.4g steps): the posterior summaries are preliminary; raise max_steps", run.Steps-run.Burn, lengthPerTau, lengthPerTau*tauMax))
+	}
+	thin = max(1, int(tauMax/2))
+	p.notes = append(p.notes, fmt.Sprintf("sampling: %d ensembles of %d walkers, %d steps each, the first %d discarded as burn-in, thinned by %d (τ/2, τ = %.4g steps)", len(run.Chains), K, run.Steps, run.Burn, thin, tauMax))
+	if run.Guided {
+		p.notes = append(p.notes, fmt.Sprintf("sampling: after burn-in, %.0f %% of the steps drew from a Student-t guide fitted to each ensemble's own burn-in (independence moves, Tierney 1994), %.0f %% were differential-evolution moves and the rest stretch moves", 100*guideShare, 100*guidedDEShare))
+	}
+	return thin
+}
+
+// diagnose fills the artifact's columns, sampling figures and diagnostics per sampled
+// parameter: τ, the effective sample size over all ensembles and R-hat across them, and
+// the mean acceptance.
+func (p *problem) diagnose(run *sampler.Sampling, thin int) {
+	art, dim := p.art, len(p.x0)
+	K, ens := walkersPerDim*dim, run.Chains
+	art.Names = p.m.columns()
 	art.Sampled = dim
-	art.Walkers, art.Steps, art.Burn, art.Thin, art.Ensembles = K, total, burn, thin, o.Ensembles
-	for p := 0; p < dim; p++ {
+	art.Walkers, art.Steps, art.Burn, art.Thin, art.Ensembles = K, run.Steps, run.Burn, thin, len(ens)
+	for i := 0; i < dim; i++ {
 		ess := 0.0
 		for range ens {
-			ess += sampler.EffectiveSamples(K, total-burn, taus[p])
+			ess += sampler.EffectiveSamples(K, run.Steps-run.Burn, run.Taus[i])
 		}
-		rh, err := sampler.EnsembleRhat(ens, p, burn)
+		rh, err := sampler.EnsembleRhat(ens, i, run.Burn)
 		if err != nil || math.IsNaN(rh) {
 			rh = math.NaN()
 		}
-		art.Diag = append(art.Diag, Diagnostic{Tau: taus[p], ESS: ess, Rhat: rh})
+		art.Diag = append(art.Diag, Diagnostic{Tau: run.Taus[i], ESS: ess, Rhat: rh})
 	}
 	acc := 0
 	for _, ch := range ens {
@@ -288,12 +264,18 @@ func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, 
 			acc += a
 		}
 	}
-	art.Acceptance = float64(acc) / float64(total*K*len(ens))
+	art.Acceptance = float64(acc) / float64(run.Steps*K*len(ens))
+}
 
-	// Thinned samples with derived columns; the best fit is the highest posterior density in
-	// the documented parameters seen (Model.bestLogPost).
-	for _, ch := range ens {
-		for s := burn + thin - 1; s < ch.Stored; s += thin {
+// keepSamples stores the thinned draws after burn-in with their derived columns, and the
+// best fit: the highest posterior density in the documented parameters seen
+// (Model.bestLogPost), from the optimiser (best, bestLP) or the chains. It returns the
+// best fit's sampled vector.
+func (p *problem) keepSamples(run *sampler.Sampling, thin int, best []float64, bestLP float64) []float64 {
+	m, art := p.m, p.art
+	K := walkersPerDim * len(p.x0)
+	for _, ch := range run.Chains {
+		for s := run.Burn + thin - 1; s < ch.Stored; s += thin {
 			for w := 0; w < K; w++ {
 				x := ch.At(s, w)
 				art.Samples = append(art.Samples, m.row(x)...)
@@ -305,13 +287,17 @@ func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, 
 	}
 	art.Best = m.row(best)
 	art.BestLogPost = bestLP
+	return best
+}
 
-	// Per-transit times with the shape fixed at the best fit.
-	times, err := m.transitTimes(best, o)
+// timeTransits measures the per-transit times with the shape fixed at the best fit, and
+// notes how many were timed and how well a linear ephemeris fits them.
+func (p *problem) timeTransits(best []float64, o Options) error {
+	times, err := p.m.transitTimes(best, o)
 	if err != nil {
-		return nil, nil, err
+		return err
 	}
-	art.Times = times
+	p.art.Times = times
 	for j, pt := range times {
 		timed := 0
 		for _, t := range pt.Times {
@@ -321,355 +307,13 @@ func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, 
 		}
 		switch {
 		case pt.Err != "":
-			notes = append(notes, fmt.Sprintf("transit times of planet %s: %s", planetNames[j], pt.Err))
+			p.notes = append(p.notes, fmt.Sprintf("transit times of planet %s: %s", planetNames[j], pt.Err))
 		default:
-			notes = append(notes, fmt.Sprintf("transit times of planet %s: %d of %d transits timed with the shape fixed at the best fit; linear ephemeris χ² = %.1f for %d degrees of freedom (p = %.2g)",
+			p.notes = append(p.notes, fmt.Sprintf("transit times of planet %s: %d of %d transits timed with the shape fixed at the best fit; linear ephemeris χ² = %.1f for %d degrees of freedom (p = %.2g)",
 				planetNames[j], timed, len(pt.Times), pt.Ephemeris.Chi2, pt.Ephemeris.Dof, pt.Ephemeris.PValue))
 		}
 	}
-	return art, notes, nil
-}
-
-// setup selects the points near the predicted transits, builds the model over them and
-// returns it with the artifact's frame and segment list, the start point, the start scale
-// per sampled parameter and the notes so far.
-func setup(lc *lightcurve.LightCurve, o Options) (m *Model, art *Artifact, x0, scale []float64, notes []string, err error) {
-	fail := func(e error) (*Model, *Artifact, []float64, []float64, []string, error) {
-		return nil, nil, nil, nil, nil, e
-	}
-	np := len(o.Signals)
-	m = &Model{planets: np, jitter: o.Jitter}
-	art = &Artifact{Frame: lc.Frame(), Window: o.Window}
-	for _, name := range o.Eccentric {
-		j := planetIndex(name)
-		if j < 0 || j >= np {
-			return fail(steps.Attrf("eccentric", "%q is not one of the %d planet(s) fitted (%s)", name, np, strings.Join(planetNames[:np], ", ")))
-		}
-		m.ecc[j] = true
-	}
-	for key := range o.Priors {
-		if err := checkPriorKey(key); err != nil {
-			return fail(steps.Attrf("priors", "key %q: %v", key, err))
-		}
-		if pl, _, ok := strings.Cut(key, "."); ok && planetIndex(pl) >= np {
-			return fail(steps.Attrf("priors", "key %q: planet %s is not fitted (%d planet(s))", key, pl, np))
-		}
-	}
-	bandSeen := map[string]bool{}
-	for _, seg := range lc.Segments {
-		bandSeen[seg.Band] = true
-	}
-	for band := range o.Limb {
-		if band != "default" && !bandSeen[band] {
-			return fail(steps.Attrf("limb_darkening", "band %q: no segment of the light curve has this band", band))
-		}
-	}
-
-	// Points within Window search durations of a predicted mid-transit of any planet.
-	// The selection is fixed before fitting so the likelihood is a smooth function.
-	kept := 0
-	sumW := make([]float64, np)
-	sumWT := make([]float64, np)
-	bandIndex := map[string]int{}
-	for si := range lc.Segments {
-		seg := &lc.Segments[si]
-		var sd segData
-		for i, t := range seg.Time {
-			f, e := seg.Flux[i], seg.Err[i]
-			if math.IsNaN(t) || math.IsInf(t, 0) || math.IsNaN(f) || math.IsInf(f, 0) || !(e > 0) || math.IsInf(e, 0) {
-				return fail(steps.BadInputf("light_curve: segment %s, point %d: time %v, flux %v, error %v are not usable", seg.ID, i+1, t, f, e))
-			}
-			in := false
-			for j, s := range o.Signals {
-				if s.InTransit(t, 2*o.Window) {
-					in = true
-					sumW[j] += 1 / (e * e)
-					sumWT[j] += t / (e * e)
-				}
-			}
-			if in {
-				sd.t = append(sd.t, t)
-				sd.f = append(sd.f, f)
-				sd.v = append(sd.v, e*e)
-			}
-		}
-		if len(sd.t) == 0 {
-			continue
-		}
-		b, ok := bandIndex[seg.Band]
-		if !ok {
-			if len(m.bands) == maxBands {
-				return fail(steps.BadInputf("light_curve: more than %d distinct bands; the fit takes at most %d", maxBands, maxBands))
-			}
-			b = len(m.bands)
-			bandIndex[seg.Band] = b
-			m.bands = append(m.bands, seg.Band)
-			lp, ok := o.Limb[seg.Band]
-			if !ok {
-				lp = o.Limb["default"]
-			}
-			m.ld = append(m.ld, lp)
-		}
-		sd.band = b
-		sd.nsub = 1
-		if o.Supersample && seg.Exposure > 0 && !math.IsInf(seg.Exposure, 0) {
-			sigma := typicalError(sd.v)
-			for _, s := range o.Signals {
-				k := math.Sqrt(math.Max(s.Depth, 1e-6))
-				sd.nsub = max(sd.nsub, subexposures(seg.Exposure, k*k, s.Duration*k/(1+k), sigma))
-			}
-			if o.nsub > 0 {
-				sd.nsub = o.nsub
-			}
-		}
-		exposure := seg.Exposure
-		if !(exposure > 0) || math.IsInf(exposure, 0) {
-			exposure = 0
-		}
-		if sd.nsub > 1 {
-			sd.half = exposure / 2
-		}
-		sd.fine = make([]float64, len(sd.t)*sd.nsub)
-		// SubexposureTimes with n = 1 returns the mid-times themselves.
-		copy(sd.fine, subTimes(sd.t, exposure, sd.nsub))
-		m.maxFine = max(m.maxFine, len(sd.fine))
-		m.maxPoints = max(m.maxPoints, len(sd.t))
-		m.segs = append(m.segs, sd)
-		kept += len(sd.t)
-		art.Segments = append(art.Segments, SegmentInfo{ID: seg.ID, Band: seg.Band, Exposure: seg.Exposure, Points: len(sd.t), NSub: sd.nsub})
-	}
-	for j := range o.Signals {
-		if sumW[j] == 0 {
-			return fail(steps.BadInputf("light_curve: no points within %g durations of any transit of signal %d (period %.6g d)", o.Window, j+1, o.Signals[j].Period))
-		}
-	}
-	if kept < 10 {
-		return fail(steps.BadInputf("light_curve: only %d points near the transits; at least 10 are needed", kept))
-	}
-	notes = append(notes, fmt.Sprintf("likelihood: %d points within %g search durations of a predicted mid-transit, in %d segment(s); the rest of the light curve is left out", kept, o.Window, len(m.segs)))
-	for _, s := range art.Segments {
-		notes = append(notes, fmt.Sprintf("exposure: segment %s, %.4g min, integrated with %d sub-exposure(s) per point (bound on the integration error: %g of the median point error)", s.ID, s.Exposure*1440, s.NSub, integrationShare))
-	}
-
-	// The full parameter vector with its supports and start values. Reference epochs near
-	// the weighted centre; bounds on period and mid-time keep every modelled transit inside
-	// the fixed windows.
-	var start, step []float64
-	add := func(p param, x0, sc float64) {
-		m.params = append(m.params, p)
-		start = append(start, x0)
-		step = append(step, sc)
-	}
-	for j, s := range o.Signals {
-		centre := sumWT[j] / sumW[j]
-		n := math.Round((centre - s.Epoch) / s.Period)
-		t0 := s.Epoch + n*s.Period
-		nmax := 1.0
-		for _, sd := range m.segs {
-			for _, t := range sd.t {
-				if s.InTransit(t, 2*o.Window) {
-					nmax = math.Max(nmax, math.Abs(math.Round((t-t0)/s.Period)))
-				}
-			}
-		}
-		art.Reference = append(art.Reference, Reference{Transit: int64(n), Time: t0})
-		dP := s.Duration / nmax
-		k0 := math.Min(math.Sqrt(math.Max(s.Depth, 1e-6)), 0.9)
-		pl := planetNames[j] + "."
-		add(param{name: pl + "period", lo: math.Max(s.Period-dP, s.Period/2), hi: s.Period + dP}, s.Period, dP/10)
-		add(param{name: pl + "t0", lo: t0 - s.Duration, hi: t0 + s.Duration}, t0, s.Duration/10)
-		add(param{name: pl + "k", lo: 0, hi: 1}, k0, 0.2*k0)
-		add(param{name: pl + "b", lo: 0, hi: 2}, startB, 0.1)
-		hidden := !m.ecc[j]
-		add(param{name: pl + "secosw", lo: -1, hi: 1, fixed: hidden}, 0, 0.1)
-		add(param{name: pl + "sesinw", lo: -1, hi: 1, fixed: hidden}, 0, 0.1)
-	}
-	s0 := o.Signals[0]
-	k0 := start[iK]
-	aR0 := s0.Period / (math.Pi * s0.Duration) * math.Sqrt((1+k0)*(1+k0)-startB*startB)
-	rho0 := math.Min(math.Max(DensityFromAxis(s0.Period, aR0), 2*densityLo), densityHi/2)
-	add(param{name: "log10_star_density", lo: math.Log10(densityMin), hi: math.Log10(densityMax), log10: true,
-		prior: Prior{Shape: LogUniform, A: densityLo, B: densityHi}}, math.Log10(rho0), 0.1)
-	if d := o.Dilution; d != nil {
-		m.dilution = true
-		if d.Shape == Fixed {
-			add(param{name: "dilution", fixed: true, value: d.A}, d.A, 0)
-		} else {
-			c := d.centre()
-			add(param{name: "dilution", lo: 0, hi: math.MaxFloat64, prior: *d}, c, math.Min(d.width(), math.Max(c, 0.01)))
-		}
-	} else {
-		add(param{name: "dilution", fixed: true}, 0, 0)
-	}
-	for _, band := range m.bands {
-		q1, q2 := "q1", "q2"
-		if band != "" {
-			q1, q2 = "q1["+band+"]", "q2["+band+"]"
-		}
-		add(param{name: q1, lo: 0, hi: 1}, startQ1, 0.1)
-		add(param{name: q2, lo: 0, hi: 1}, startQ2, 0.1)
-	}
-	for i, lp := range m.ld {
-		if lp.U1Sigma > 0 {
-			q1, q2 := transit.KippingFromQuadratic(lp.U1, lp.U2)
-			if q1 > 0 && q1 < 1 && q2 > 0 && q2 < 1 {
-				start[m.qIndex(i)], start[m.qIndex(i)+1] = q1, q2
-			}
-		}
-	}
-	if o.Jitter {
-		for s := range m.segs {
-			add(param{name: fmt.Sprintf("segment%d.ln_jitter", s+1), lo: math.Log(jitterLo), hi: math.Log(jitterHi)}, math.Log(1e-5), 1)
-		}
-	}
-
-	// The workflow's priors replace the fit's own; the supports stay.
-	g := m.global()
-	for key, pr := range o.Priors {
-		idx := g + gDensity
-		if key != "star_density" {
-			pl, par, _ := strings.Cut(key, ".")
-			idx = perPlanet*planetIndex(pl) + map[string]int{"period": iPeriod, "k": iK, "b": iB}[par]
-		}
-		p := &m.params[idx]
-		p.prior = pr
-		v := pr.centre()
-		if p.log10 {
-			v = math.Log10(v)
-		}
-		if pr.Shape == Fixed {
-			p.fixed, p.value, p.prior = true, v, Prior{}
-			if !(v >= p.lo && v <= p.hi) {
-				return fail(steps.Attrf("priors", "key %q: %s lies outside what the data allow for it (%.6g to %.6g)", key, pr, p.lo, p.hi))
-			}
-			start[idx] = v
-			continue
-		}
-		if key == "star_density" || math.IsInf(p.logPrior(start[idx]), -1) {
-			start[idx] = math.Min(math.Max(v, p.lo), p.hi)
-		}
-		w := pr.width()
-		if p.log10 {
-			w /= pr.centre() * math.Ln10
-		}
-		step[idx] = math.Min(step[idx], w)
-	}
-	rhoStart := math.Pow(10, start[g+gDensity])
-	// Each planet whose k has the fit's own prior samples a depth-like δ in place
-	// of k (see radius): at fixed δ, b changes the ingress but hardly the depth,
-	// where at fixed k a larger b makes the transit shallower through the limb darkening.
-	u1, u2 := transit.QuadraticFromKipping(start[m.qIndex(0)], start[m.qIndex(0)+1])
-	for j := 0; j < np; j++ {
-		kp := &m.params[perPlanet*j+iK]
-		if _, user := o.Priors[planetNames[j]+".k"]; user || kp.fixed {
-			continue
-		}
-		c, ok := darkening(start[perPlanet*j+iB], u1, u2)
-		if !ok {
-			continue
-		}
-		m.depthParam[j] = true
-		kp.hi = math.Inf(1) // k ≤ 1 is enforced on k itself (radius)
-		k0 := start[perPlanet*j+iK]
-		start[perPlanet*j+iK], step[perPlanet*j+iK] = k0*k0/c, 0.4*k0*k0/c
-	}
-	// Each circular planet whose b is not fixed samples its chord coordinate in place of b
-	// while the density is free (see Model.impact): the data measure each transit's
-	// duration, and at fixed durations the shared density moves every planet's b at once, so
-	// in chords that ridge runs along the density's own axis.
-	for j := 0; j < np && !m.params[g+gDensity].fixed; j++ {
-		bp := &m.params[perPlanet*j+iB]
-		if m.ecc[j] || bp.fixed {
-			continue
-		}
-		m.chordParam[j], m.bPrior[j] = true, bp.prior
-		a := ScaledAxis(o.Signals[j].Period, rhoStart)
-		b0 := start[perPlanet*j+iB]
-		bs := math.Max(b0, startB)
-		dw := 2 * bs * (a*a - 1) / ((a*a - bs*bs) * (a*a - bs*bs)) * step[perPlanet*j+iB] // |dw/db|·Δb
-		// Every b in [0, 1 + k) has a chord in ((1 − (1+k)²)/(a² − (1+k)²), 1/a²], so the
-		// stored coordinate is bounded only by impact.
-		*bp = param{name: bp.name, lo: math.Inf(-1), hi: 1}
-		start[perPlanet*j+iB], step[perPlanet*j+iB] = chord(b0, a), dw
-	}
-	// q1, q2 are sampled as logits (see Model.physical).
-	for i := range m.bands {
-		for _, idx := range []int{m.qIndex(i), m.qIndex(i) + 1} {
-			q := start[idx]
-			m.params[idx].logit, m.params[idx].lo, m.params[idx].hi = true, math.Inf(-1), math.Inf(1)
-			start[idx], step[idx] = logit(q), step[idx]/(q*(1-q))
-		}
-	}
-	for i := range m.params {
-		p := &m.params[i]
-		if p.fixed {
-			p.value = start[i]
-			continue
-		}
-		m.free = append(m.free, i)
-		x0 = append(x0, start[i])
-		scale = append(scale, step[i])
-	}
-	var pn []string
-	for key, pr := range o.Priors {
-		pn = append(pn, fmt.Sprintf("prior: %s %s", key, pr))
-	}
-	if o.Dilution != nil {
-		pn = append(pn, fmt.Sprintf("prior: dilution %s", *o.Dilution))
-	}
-	for i, band := range m.bands {
-		if lp := m.ld[i]; lp.U1Sigma > 0 {
-			pn = append(pn, fmt.Sprintf("prior: band %q: u1 = %g ± %g, u2 = %g ± %g (Gaussian, sampled in q1, q2)", band, lp.U1, lp.U1Sigma, lp.U2, lp.U2Sigma))
-		}
-	}
-	sort.Strings(pn)
-	notes = append(notes, pn...)
-	art.Priors = pn
-	m.maxFine = max(m.maxFine, 1)
-	if lp := m.LogPost(x0); math.IsInf(lp, 0) || math.IsNaN(lp) {
-		return fail(steps.BadInputf("signals: the start values give no valid model (log posterior %v)", lp))
-	}
-	return m, art, x0, scale, notes, nil
-}
-
-// subexposures is the number N of sub-exposures per point for an exposure of length T, a
-// transit of depth δ whose ingress lasts τ, and points of error σ: the least N for which a
-// bound on the midpoint-rule error is below ε = integrationShare·σ, capped at maxSub. The
-// bound is our derivation for a trapezoid (ingress a linear ramp of slope s = δ/τ): the
-// midpoint rule is exact on the linear pieces; a sub-interval of width h = T/N holding one
-// kink errs in its integral by at most s h²/8, and by no more when it holds both ends of a
-// ramp shorter than h (error δ(h−τ)/2 ≤ s h²/8 since (h−2τ)² ≥ 0) or when a step-like ramp
-// is reduced to δh/2; kinks in different sub-intervals err with opposite signs. Averaged
-// over T: E ≤ min(δT/(8τN²), δ/(2N)), so N ≥ min(√(δT/(8τε)), δ/(2ε)). The error falls
-// as 1/N² (Kipping 2010, MNRAS 408, 1758). τ is taken from the search's box (its duration
-// times k/(1+k)), short of the true ingress, which errs on the safe side; the limb-darkened
-// model is smoother than the trapezoid (model_test.go measures the real error).
-func subexposures(exposure, depth, ingress, sigma float64) int {
-	eps := integrationShare * sigma
-	if !(exposure > 0) || !(depth > 0) || !(eps > 0) {
-		return 1
-	}
-	n := math.Inf(1)
-	if ingress > 0 {
-		n = math.Sqrt(depth * exposure / (8 * ingress * eps))
-	}
-	n = math.Ceil(math.Min(n, depth/(2*eps)))
-	return int(math.Max(1, math.Min(maxSub, n)))
-}
-
-// typicalError is the median point error √v of a segment.
-func typicalError(v []float64) float64 {
-	s := append([]float64(nil), v...)
-	sort.Float64s(s)
-	return math.Sqrt(s[len(s)/2])
-}
-
-// subTimes wraps transit.SubexposureTimes, with exposure 0 giving the mid-times.
-func subTimes(t []float64, exposure float64, n int) []float64 {
-	if n == 1 || exposure == 0 {
-		return append([]float64(nil), t...)
-	}
-	return transit.SubexposureTimes(nil, t, exposure, n)
+	return nil
 }
 
 // optimum maximises the log posterior density in the documented parameters (Model.bestLogPost)
@@ -736,19 +380,12 @@ func ball(m *Model, x, scale []float64, r *rng.Stream) []float64 {
 // ball stays on the part of it the optimiser happened to reach, one started across the
 // disk spreads along the ridge during burn-in (our choice, after trying both).
 func (m *Model) disperseOrbits(x []float64, r *rng.Stream) {
+	lay := m.layout()
 	for j := 0; j < m.planets; j++ {
 		if !m.ecc[j] {
 			continue
 		}
-		ic, is := -1, -1
-		for i, f := range m.free {
-			switch f {
-			case perPlanet*j + iSecosw:
-				ic = i
-			case perPlanet*j + iSesinw:
-				is = i
-			}
-		}
+		ic, is := slices.Index(m.free, lay.Secosw(j)), slices.Index(m.free, lay.Sesinw(j))
 		c0, s0 := x[ic], x[is]
 		for try := 0; ; try++ {
 			if try == 100 {
@@ -762,68 +399,6 @@ func (m *Model) disperseOrbits(x []float64, r *rng.Stream) {
 			}
 		}
 	}
-}
-
-// fitGuides fits each ensemble's guide to its chains from step from on (sampler.FitGuide).
-// It reports whether every ensemble has one, and leaves none when any fit fails.
-func fitGuides(guides []*sampler.Guide, ens []*sampler.Chain, from int) bool {
-	for e, ch := range ens {
-		g, err := sampler.FitGuide([]*sampler.Chain{ch}, from, 1)
-		if err != nil {
-			clear(guides)
-			return false
-		}
-		guides[e] = g
-	}
-	return true
-}
-
-// appendChain appends the stored steps of c to acc.
-func appendChain(acc, c *sampler.Chain) {
-	acc.Samples = append(acc.Samples, c.Samples...)
-	acc.LogProb = append(acc.LogProb, c.LogProb...)
-	acc.Stored += c.Stored
-	acc.Steps += c.Steps
-	for w, a := range c.Accepted {
-		acc.Accepted[w] += a
-	}
-}
-
-// tausOf is, per parameter, the largest autocorrelation time over the ensembles after burn,
-// and whether every estimate is trusted.
-func tausOf(ens []*sampler.Chain, dim, burn int, par func(n int, block func(i int))) ([]float64, bool) {
-	taus := make([]float64, dim)
-	ok := make([]bool, dim)
-	// One block per parameter: each writes only its own entries, so the result does not
-	// depend on how the blocks are scheduled.
-	par(dim, func(p int) {
-		ok[p] = true
-		for _, ch := range ens {
-			ac, err := sampler.AutoCorrTime(ch.Series(p, burn), 0)
-			if err != nil {
-				ok[p] = false
-				continue
-			}
-			taus[p] = math.Max(taus[p], ac.Tau)
-			ok[p] = ok[p] && ac.Trusted
-		}
-		if taus[p] < 1 {
-			taus[p] = 1
-		}
-	})
-	trusted := true
-	for _, t := range ok {
-		trusted = trusted && t
-	}
-	return taus, trusted
-}
-
-func maxOf(v []float64) float64 {
-	m := 0.0
-	for _, x := range v {
-		m = math.Max(m, x)
-	}
-	return m
 }
 
 // columns names the columns of the artifact: the sampled parameters, the user-fixed ones
@@ -856,14 +431,11 @@ func (m *Model) shownFixed(i int) bool {
 	if !m.params[i].fixed {
 		return false
 	}
-	if i == m.global()+gDilution {
+	lay := m.layout()
+	if i == lay.Dilution() {
 		return m.dilution
 	}
-	if i < m.global() {
-		r := i % perPlanet
-		return r != iSecosw && r != iSesinw
-	}
-	return true
+	return !lay.eccentricity(i)
 }
 
 // row returns the artifact row of the sampled vector x (see columns).
@@ -871,17 +443,18 @@ func (m *Model) row(x []float64) []float64 {
 	full := m.expand(make([]float64, len(m.params)), x)
 	rho, _, _, _ := m.physical(full)
 	out := append([]float64(nil), x...)
+	lay := m.layout()
 	for j := 0; j < m.planets; j++ {
 		// The columns hold k and b where the chain samples δ and the chord coordinate.
-		if i := slices.Index(m.free, perPlanet*j+iK); i >= 0 && m.depthParam[j] {
-			out[i] = full[perPlanet*j+iK]
+		if i := slices.Index(m.free, lay.K(j)); i >= 0 && m.depthParam[j] {
+			out[i] = full[lay.K(j)]
 		}
-		if i := slices.Index(m.free, perPlanet*j+iB); i >= 0 && m.chordParam[j] {
-			out[i] = full[perPlanet*j+iB]
+		if i := slices.Index(m.free, lay.B(j)); i >= 0 && m.chordParam[j] {
+			out[i] = full[lay.B(j)]
 		}
 	}
 	for i := range m.bands { // the columns hold q1, q2; the chain samples their logits
-		for _, idx := range []int{m.qIndex(i), m.qIndex(i) + 1} {
+		for _, idx := range []int{lay.Q1(i), lay.Q2(i)} {
 			if f := slices.Index(m.free, idx); f >= 0 {
 				out[f] = full[idx]
 			}
@@ -894,18 +467,17 @@ func (m *Model) row(x []float64) []float64 {
 	}
 	out = append(out, rho)
 	for j := 0; j < m.planets; j++ {
-		p := full[perPlanet*j:]
-		aR := ScaledAxis(p[iPeriod], rho)
+		period, k := full[lay.Period(j)], full[lay.K(j)]
+		aR := ScaledAxis(period, rho)
 		e, w := 0.0, 0.0
 		if m.ecc[j] {
-			e = p[iSecosw]*p[iSecosw] + p[iSesinw]*p[iSesinw]
-			w = math.Atan2(p[iSesinw], p[iSecosw])
+			e, w = lay.eccentricOrbit(full, j)
 		}
-		t14, err := astro.TotalDuration(p[iPeriod], aR, p[iK], p[iB], e, w)
+		t14, err := astro.TotalDuration(period, aR, k, full[lay.B(j)], e, w)
 		if err != nil {
 			t14 = 0
 		}
-		out = append(out, p[iK]*p[iK], aR, t14)
+		out = append(out, k*k, aR, t14)
 		if m.ecc[j] {
 			out = append(out, e, w*180/math.Pi)
 		}

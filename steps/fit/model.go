@@ -9,44 +9,27 @@ import (
 	"dipline/steps/internal/transit"
 )
 
-// The constants come from the project's one table of them (CODATA 2018 G, the Julian day).
-const (
-	gravity       = astro.G
-	secondsPerDay = astro.Day
-)
-
-// ScaledAxis is a/R* of a circular orbit of period P (days) around a star of mean density
-// rho (g/cm³) by Kepler's third law, a/R* = (G ρ P² / 3π)^{1/3}, neglecting the planet's
-// mass (Seager & Mallén-Ornelas 2003, ApJ 585, 1038).
+// ScaledAxis is a/R* of an orbit of period P (days) around a star of mean density rho
+// (g/cm³) by Kepler's third law, neglecting the planet's mass (astro.ScaledAxisFromGRho;
+// Seager & Mallén-Ornelas 2003, ApJ 585, 1038); NaN outside the law's domain. G·ρ is taken
+// in s⁻² and P in s, the order of operations the fit's recorded results were made with.
 func ScaledAxis(period, rho float64) float64 {
-	p := period * secondsPerDay
-	return math.Cbrt(gravity * rho * 1000 * p * p / (3 * math.Pi))
+	a, err := astro.ScaledAxisFromGRho(astro.G*rho*astro.GramPerCm3, period*astro.Day)
+	if err != nil {
+		return math.NaN()
+	}
+	return a
 }
 
-// DensityFromAxis inverts ScaledAxis: ρ = 3π (a/R*)³ / (G P²), in g/cm³.
+// DensityFromAxis inverts ScaledAxis: ρ = 3π (a/R*)³ / (G P²) in g/cm³
+// (astro.DensityFromScaledAxis); NaN outside its domain.
 func DensityFromAxis(period, aR float64) float64 {
-	p := period * secondsPerDay
-	return 3 * math.Pi * aR * aR * aR / (gravity * p * p) / 1000
+	rho, err := astro.DensityFromScaledAxis(aR, period*astro.Day)
+	if err != nil {
+		return math.NaN()
+	}
+	return rho / astro.GramPerCm3
 }
-
-// Layout of the full parameter vector. Per planet j, six entries at perPlanet·j: period (d),
-// mid-transit time at the reference epoch (d), k = Rp/R*, impact parameter b, √e cos ω and
-// √e sin ω (fixed at 0 for circular orbits). Then, at global = perPlanet·planets: log10 of
-// the stellar density (g/cm³) and the dilution D (fixed at 0 unless sampled); then q1, q2
-// per band; then, when jitter is on, one ln σ_jitter per segment. The sampled vector is the
-// full one without the fixed entries, in the same order.
-const (
-	perPlanet = 6
-	iPeriod   = 0
-	iT0       = 1
-	iK        = 2
-	iB        = 3
-	iSecosw   = 4
-	iSesinw   = 5
-	gDensity  = 0
-	gDilution = 1
-	nGlobal   = 2
-)
 
 // param is one entry of the full parameter vector.
 type param struct {
@@ -112,7 +95,7 @@ type Model struct {
 	bands     []string    // distinct segment bands ("" for segments without one)
 	ld        []LimbPrior // per band; zero U1Sigma means the flat prior on q1, q2
 	segs      []segData
-	params    []param // the full vector
+	params    []param // the full vector (see layout)
 	free      []int   // indices of the sampled entries in params
 	maxFine   int
 	maxPoints int
@@ -131,15 +114,6 @@ type Model struct {
 
 // dim is the number of sampled parameters.
 func (m *Model) dim() int { return len(m.free) }
-
-// global is the index of the first global entry of the full vector.
-func (m *Model) global() int { return perPlanet * m.planets }
-
-// qIndex is the index of q1 of band i in the full vector.
-func (m *Model) qIndex(i int) int { return m.global() + nGlobal + 2*i }
-
-// jitterIndex is the index of segment s's ln jitter in the full vector.
-func (m *Model) jitterIndex(s int) int { return m.global() + nGlobal + 2*len(m.bands) + s }
 
 // expand writes the full vector for the sampled vector x into dst.
 func (m *Model) expand(dst, x []float64) []float64 {
@@ -201,20 +175,19 @@ func meanAnomaly(f, e float64) float64 {
 // false when the prior excludes them: b < 1 + k, e < 1 and a periastron distance
 // a/R*·(1 − e) beyond 1 + k (the planet does not touch the star).
 func (m *Model) geometry(x []float64, j int, rho float64) (orbit, bool) {
-	p := x[perPlanet*j:]
-	k, b := p[iK], p[iB]
+	lay := m.layout()
+	period, k, b := x[lay.Period(j)], x[lay.K(j)], x[lay.B(j)]
 	if !(b < 1+k) {
 		return orbit{}, false
 	}
-	o := orbit{aR: ScaledAxis(p[iPeriod], rho)}
+	o := orbit{aR: ScaledAxis(period, rho)}
 	if m.ecc[j] {
-		o.e = p[iSecosw]*p[iSecosw] + p[iSesinw]*p[iSesinw]
-		o.omega = math.Atan2(p[iSesinw], p[iSecosw])
+		o.e, o.omega = lay.eccentricOrbit(x, j)
 	}
 	if !(o.e < 1) || !(o.aR*(1-o.e) > 1+k) {
 		return orbit{}, false
 	}
-	o.ingress = ingressTime(p[iPeriod], o, k, b)
+	o.ingress = ingressTime(period, o, k, b)
 	if !m.ecc[j] {
 		// z ≥ 1+k ⇔ sin²φ ≥ ((1+k)² − b²)/(aR² − b²) on the near half of a circular orbit
 		// (z² = b² + (aR² − b²) sin²φ, Winn 2010 with e = 0); b < 1+k < aR.
@@ -242,7 +215,7 @@ func (m *Model) geometry(x []float64, j int, rho float64) (orbit, bool) {
 
 // density returns the star's mean density (g/cm³) from the full vector's log10 entry.
 func (m *Model) density(full []float64) float64 {
-	return math.Pow(10, full[m.global()+gDensity])
+	return math.Pow(10, full[m.layout().Density()])
 }
 
 // ingressTime is the first-to-second contact time in days (Winn 2010 durations, through
@@ -279,8 +252,8 @@ func (m *Model) tabulate(ws *workspace, sd *segData, near []int32, x []float64, 
 	if m.direct || n < 2 || !(o.ingress > 0) {
 		return false
 	}
-	p := x[perPlanet*j:]
-	period, t0 := p[iPeriod], p[iT0]
+	lay := m.layout()
+	period, t0 := x[lay.Period(j)], x[lay.T0(j)]
 	half := o.reach*period + sd.half // beyond ±half every sub-exposure is past contact
 	g0 := sd.half / float64(n)       // half the sub-exposure spacing
 	r := max(1, int(math.Ceil(g0/transit.TableStep(o.ingress, 2*sd.half))))
@@ -298,7 +271,7 @@ func (m *Model) tabulate(ws *workspace, sd *segData, near []int32, x []float64, 
 	}
 	// Full-capacity slices: the transit helpers reallocate only when dst is too short.
 	ws.nodeZ = m.separation(ws.nodeZ[:cap(ws.nodeZ)], ws.nodes, x, j, o)
-	ws.nodeFlux = transit.Flux(ws.nodeFlux[:cap(ws.nodeFlux)], ws.nodeZ, p[iK], u1, u2)
+	ws.nodeFlux = transit.Flux(ws.nodeFlux[:cap(ws.nodeFlux)], ws.nodeZ, x[lay.K(j)], u1, u2)
 	if cap(ws.table.Y) < nodes {
 		ws.table.Y = make([]float64, nodes)
 	}
@@ -321,11 +294,12 @@ func (m *Model) tabulate(ws *workspace, sd *segData, near []int32, x []float64, 
 
 // separation writes the separations at times t of planet j in the full vector x.
 func (m *Model) separation(dst, t, x []float64, j int, o orbit) []float64 {
-	p := x[perPlanet*j:]
+	lay := m.layout()
+	period, t0, b := x[lay.Period(j)], x[lay.T0(j)], x[lay.B(j)]
 	if m.ecc[j] {
-		return transit.SeparationEccentric(dst, t, p[iPeriod], p[iT0], o.aR, p[iB], o.e, o.omega)
+		return transit.SeparationEccentric(dst, t, period, t0, o.aR, b, o.e, o.omega)
 	}
-	return transit.SeparationCircular(dst, t, p[iPeriod], p[iT0], o.aR, p[iB])
+	return transit.SeparationCircular(dst, t, period, t0, o.aR, b)
 }
 
 // model writes into ws.mod the model of segment sd: per point the mean over its
@@ -337,14 +311,14 @@ func (m *Model) separation(dst, t, x []float64, j int, o orbit) []float64 {
 // to the bit.
 func (m *Model) model(ws *workspace, sd *segData, x []float64, orb []orbit, u1, u2, dil float64) []float64 {
 	np, n := m.planets, sd.nsub
+	lay := m.layout()
 	slot := ws.slot[:len(sd.t)]
 	for i := range slot {
 		slot[i] = -1
 	}
 	used := int32(0)
 	for j := 0; j < np; j++ {
-		p := x[perPlanet*j:]
-		period, t0 := p[iPeriod], p[iT0]
+		period, t0 := x[lay.Period(j)], x[lay.T0(j)]
 		reach := orb[j].reach + sd.half/period + contactMargin
 		near := ws.near[j][:0]
 		for i, t := range sd.t {
@@ -376,7 +350,7 @@ func (m *Model) model(ws *workspace, sd *segData, x []float64, orb []orbit, u1, 
 			copy(tsub[q*n:(q+1)*n], sd.fine[int(i)*n:(int(i)+1)*n])
 		}
 		z := m.separation(ws.z[:len(tsub)], tsub, x, j, orb[j])
-		fl := transit.Flux(ws.fl[:len(tsub)], z, x[perPlanet*j+iK], u1, u2)
+		fl := transit.Flux(ws.fl[:len(tsub)], z, x[lay.K(j)], u1, u2)
 		for q, i := range near {
 			blk := sum[int(slot[i])*n : int(slot[i]+1)*n]
 			for s, v := range fl[q*n : (q+1)*n] {
@@ -448,9 +422,9 @@ func darkening(b, u1, u2 float64) (float64, bool) {
 // first band's limb darkening (see physical), and returns the log-Jacobian
 // ln|∂k/∂δ| = ln(k/2δ), or false when k leaves (0, 1].
 func radius(full []float64, j int, u1, u2 float64) (float64, bool) {
-	p := full[perPlanet*j:]
-	d := p[iK]
-	c, okc := darkening(math.Abs(p[iB]), u1, u2)
+	var lay layout // a planet's entries do not depend on how many planets and bands follow
+	d := full[lay.K(j)]
+	c, okc := darkening(math.Abs(full[lay.B(j)]), u1, u2)
 	if !okc || !(d > 0) {
 		return 0, false
 	}
@@ -458,7 +432,7 @@ func radius(full []float64, j int, u1, u2 float64) (float64, bool) {
 	if !(k <= 1) {
 		return 0, false
 	}
-	p[iK] = k
+	full[lay.K(j)] = k
 	return math.Log(k / (2 * d)), true
 }
 
@@ -469,15 +443,15 @@ func radius(full []float64, j int, u1, u2 float64) (float64, bool) {
 // (w < 0 for b > 1). So b² = (1 − w a²)/(1 − w). It returns ln|db/dw| =
 // ln((a² − 1)/(2b(1 − w)²)), and false where no b > 0 gives w at this density.
 func (m *Model) impact(full []float64, j int, rho float64) (float64, bool) {
-	p := full[perPlanet*j:]
-	w := p[iB]
-	a := ScaledAxis(p[iPeriod], rho)
+	lay := m.layout()
+	w := full[lay.B(j)]
+	a := ScaledAxis(full[lay.Period(j)], rho)
 	b2 := (1 - w*a*a) / (1 - w)
 	if !(w < 1) || !(b2 > 0) {
 		return 0, false
 	}
 	b := math.Sqrt(b2)
-	p[iB] = b
+	full[lay.B(j)] = b
 	return math.Log((a*a - 1) / (2 * b * (1 - w) * (1 - w))), true
 }
 
@@ -500,14 +474,15 @@ func chord(b, a float64) float64 { return (1 - b*b) / (a*a - b*b) }
 // log-Jacobians (jac): LogPost adds both, so the priors hold in the documented parameters;
 // the best fit leaves jac out (Model.logJacobian). It returns false outside the support.
 func (m *Model) physical(full []float64) (rho, lp, jac float64, ok bool) {
+	lay := m.layout()
 	for i := range m.bands {
-		for _, idx := range []int{m.qIndex(i), m.qIndex(i) + 1} {
+		for _, idx := range []int{lay.Q1(i), lay.Q2(i)} {
 			q := logistic(full[idx])
 			full[idx] = q
 			jac += math.Log(q * (1 - q))
 		}
 	}
-	u1, u2 := transit.QuadraticFromKipping(full[m.qIndex(0)], full[m.qIndex(0)+1])
+	u1, u2 := transit.QuadraticFromKipping(full[lay.Q1(0)], full[lay.Q2(0)])
 	for j := 0; j < m.planets; j++ {
 		if m.depthParam[j] && !m.chordParam[j] {
 			l, ok := radius(full, j, u1, u2)
@@ -528,7 +503,7 @@ func (m *Model) physical(full []float64) (rho, lp, jac float64, ok bool) {
 		}
 		jac += l
 		if pr := m.bPrior[j]; pr.Shape != Flat {
-			lp += pr.LogPDF(full[perPlanet*j+iB])
+			lp += pr.LogPDF(full[lay.B(j)])
 		}
 		if m.depthParam[j] {
 			if l, ok = radius(full, j, u1, u2); !ok {
@@ -566,9 +541,10 @@ func (m *Model) bestLogPost(x []float64) float64 {
 func (m *Model) sampledFrom(row []float64) []float64 {
 	x := append([]float64(nil), row[:m.dim()]...)
 	full := m.expand(make([]float64, len(m.params)), x)
-	u1, u2 := transit.QuadraticFromKipping(full[m.qIndex(0)], full[m.qIndex(0)+1])
+	lay := m.layout()
+	u1, u2 := transit.QuadraticFromKipping(full[lay.Q1(0)], full[lay.Q2(0)])
 	for i := range m.bands {
-		for _, idx := range []int{m.qIndex(i), m.qIndex(i) + 1} {
+		for _, idx := range []int{lay.Q1(i), lay.Q2(i)} {
 			if f := slices.Index(m.free, idx); f >= 0 {
 				x[f] = logit(full[idx])
 			}
@@ -576,14 +552,14 @@ func (m *Model) sampledFrom(row []float64) []float64 {
 	}
 	rho := m.density(full)
 	for j := 0; j < m.planets; j++ {
-		p := full[perPlanet*j:]
-		if i := slices.Index(m.free, perPlanet*j+iK); i >= 0 && m.depthParam[j] {
-			if c, ok := darkening(math.Abs(p[iB]), u1, u2); ok {
-				x[i] = p[iK] * p[iK] / c
+		k, b := full[lay.K(j)], full[lay.B(j)]
+		if i := slices.Index(m.free, lay.K(j)); i >= 0 && m.depthParam[j] {
+			if c, ok := darkening(math.Abs(b), u1, u2); ok {
+				x[i] = k * k / c
 			}
 		}
-		if i := slices.Index(m.free, perPlanet*j+iB); i >= 0 && m.chordParam[j] {
-			x[i] = chord(p[iB], ScaledAxis(p[iPeriod], rho))
+		if i := slices.Index(m.free, lay.B(j)); i >= 0 && m.chordParam[j] {
+			x[i] = chord(b, ScaledAxis(full[lay.Period(j)], rho))
 		}
 	}
 	return x
@@ -614,14 +590,15 @@ func (m *Model) at(full []float64, lp float64) (point, bool) {
 			return p, false
 		}
 	}
+	lay := m.layout()
 	for i := range m.bands {
-		q1, q2 := full[m.qIndex(i)], full[m.qIndex(i)+1]
+		q1, q2 := full[lay.Q1(i)], full[lay.Q2(i)]
 		if m.ld[i].U1Sigma > 0 {
 			lp += m.ld[i].LogPDF(q1, q2)
 		}
 		p.u[i][0], p.u[i][1] = transit.QuadraticFromKipping(q1, q2)
 	}
-	p.lp, p.dil = lp, full[m.global()+gDilution]
+	p.lp, p.dil = lp, full[lay.Dilution()]
 	return p, true
 }
 
@@ -632,12 +609,13 @@ func (m *Model) logPostFull(ws *workspace, full []float64, lp float64) float64 {
 		return math.Inf(-1)
 	}
 	lp = pt.lp
+	lay := m.layout()
 	for s := range m.segs {
 		sd := &m.segs[s]
 		mod := m.model(ws, sd, full, pt.orb[:m.planets], pt.u[sd.band][0], pt.u[sd.band][1], pt.dil)
 		s2 := 0.0
 		if m.jitter {
-			js := math.Exp(full[m.jitterIndex(s)])
+			js := math.Exp(full[lay.Jitter(s)])
 			s2 = js * js
 		}
 		lp += segmentLogLike(mod, sd.f, sd.v, s2)

@@ -38,7 +38,7 @@ func (m *Model) fullAt(x []float64) (full []float64, orb []orbit, u [][2]float64
 func (m *Model) residualsAt(full []float64, orb []orbit, u [][2]float64) [][]float64 {
 	ws := m.workspace()
 	defer m.scratch.Put(ws)
-	dil := full[m.global()+gDilution]
+	dil := full[m.layout().Dilution()]
 	out := make([][]float64, len(m.segs))
 	for s := range m.segs {
 		sd := &m.segs[s]
@@ -67,9 +67,9 @@ func (m *Model) beta(x []float64) (float64, error) {
 	}
 	res := m.residualsAt(full, orb, u)
 	longest := 0.0
+	lay := m.layout()
 	for j := range orb {
-		p := full[perPlanet*j:]
-		longest = math.Max(longest, 2*orb[j].reach*p[iPeriod])
+		longest = math.Max(longest, 2*orb[j].reach*full[lay.Period(j)])
 	}
 	var time, resid []float64
 	var starts []int
@@ -100,13 +100,14 @@ func (m *Model) curve(out, t []float64, sd *segData, full []float64, orb []orbit
 	for i := range sum {
 		sum[i] = 1
 	}
+	lay := m.layout()
 	for j := 0; j < m.planets; j++ {
 		z := m.separation(sc.z[:need], fine, full, j, orb[j])
-		for i, v := range transit.Flux(sc.fl[:need], z, full[perPlanet*j+iK], u[0], u[1]) {
+		for i, v := range transit.Flux(sc.fl[:need], z, full[lay.K(j)], u[0], u[1]) {
 			sum[i] += v - 1
 		}
 	}
-	dil := full[m.global()+gDilution]
+	dil := full[lay.Dilution()]
 	for i := range t {
 		s := 0.0
 		for _, v := range sum[i*n : (i+1)*n] {
@@ -135,62 +136,9 @@ func (m *Model) transitTimes(x []float64, o Options) ([]PlanetTimes, error) {
 	}
 	out := make([]PlanetTimes, m.planets)
 	for j := 0; j < m.planets; j++ {
-		p := full[perPlanet*j:]
-		period, t0 := p[iPeriod], p[iT0]
 		half := o.Window * o.Signals[j].Duration
-		t14 := 2 * orb[j].reach * period
-		type key struct {
-			seg int
-			n   int64
-		}
-		groups := map[key][]int{}
-		count := map[int64]map[int]int{}
-		var epochs []int64
-		for s := range m.segs {
-			sd := &m.segs[s]
-			for i, t := range sd.t {
-				n := int64(math.Round((t - t0) / period))
-				if math.Abs(t-t0-float64(n)*period) > half {
-					continue
-				}
-				if count[n] == nil {
-					count[n] = map[int]int{}
-					epochs = append(epochs, n)
-				}
-				count[n][s]++
-				groups[key{s, n}] = append(groups[key{s, n}], i)
-			}
-		}
-		slices.Sort(epochs)
-		var trs []timing.Transit
-		for _, n := range epochs {
-			best, most := -1, 0
-			for s := range m.segs {
-				if c := count[n][s]; c > most {
-					best, most = s, c
-				}
-			}
-			sd := &m.segs[best]
-			idx := groups[key{best, n}]
-			tr := timing.Transit{Epoch: n, Predicted: t0 + float64(n)*period}
-			js := 0.0
-			if m.jitter {
-				js = math.Exp(full[m.jitterIndex(best)])
-			}
-			for _, i := range idx {
-				tr.Time = append(tr.Time, sd.t[i])
-				tr.Flux = append(tr.Flux, sd.f[i])
-				tr.Err = append(tr.Err, math.Sqrt(sd.v[i]+js*js))
-			}
-			shifted := append([]float64(nil), full...)
-			sc := &curveScratch{}
-			uu := u[sd.band]
-			tr.Model = func(dt float64, t, out []float64) {
-				shifted[perPlanet*j+iT0] = t0 + dt
-				m.curve(out, t, sd, shifted, orb, uu, sc)
-			}
-			trs = append(trs, tr)
-		}
+		t14 := 2 * orb[j].reach * full[m.layout().Period(j)]
+		trs := m.transits(full, orb, u, j, half)
 		if len(trs) == 0 {
 			out[j].Err = "no transit has points in the fitted windows"
 			continue
@@ -214,4 +162,66 @@ func (m *Model) transitTimes(x []float64, o Options) ([]PlanetTimes, error) {
 		out[j].Ephemeris = eph
 	}
 	return out, nil
+}
+
+// transits gathers planet j's transits for timing at the full vector full (orb and u as
+// fullAt gives them): per epoch, in order, the points within half days of the predicted
+// mid-time on the segment holding most of them, and the model of that segment with
+// planet j's mid-times shifted by dt.
+func (m *Model) transits(full []float64, orb []orbit, u [][2]float64, j int, half float64) []timing.Transit {
+	lay := m.layout()
+	period, t0 := full[lay.Period(j)], full[lay.T0(j)]
+	type key struct {
+		seg int
+		n   int64
+	}
+	groups := map[key][]int{}
+	count := map[int64]map[int]int{}
+	var epochs []int64
+	for s := range m.segs {
+		sd := &m.segs[s]
+		for i, t := range sd.t {
+			n := int64(math.Round((t - t0) / period))
+			if math.Abs(t-t0-float64(n)*period) > half {
+				continue
+			}
+			if count[n] == nil {
+				count[n] = map[int]int{}
+				epochs = append(epochs, n)
+			}
+			count[n][s]++
+			groups[key{s, n}] = append(groups[key{s, n}], i)
+		}
+	}
+	slices.Sort(epochs)
+	var trs []timing.Transit
+	for _, n := range epochs {
+		best, most := -1, 0
+		for s := range m.segs {
+			if c := count[n][s]; c > most {
+				best, most = s, c
+			}
+		}
+		sd := &m.segs[best]
+		idx := groups[key{best, n}]
+		tr := timing.Transit{Epoch: n, Predicted: t0 + float64(n)*period}
+		js := 0.0
+		if m.jitter {
+			js = math.Exp(full[lay.Jitter(best)])
+		}
+		for _, i := range idx {
+			tr.Time = append(tr.Time, sd.t[i])
+			tr.Flux = append(tr.Flux, sd.f[i])
+			tr.Err = append(tr.Err, math.Sqrt(sd.v[i]+js*js))
+		}
+		shifted := append([]float64(nil), full...)
+		sc := &curveScratch{}
+		uu := u[sd.band]
+		tr.Model = func(dt float64, t, out []float64) {
+			shifted[lay.T0(j)] = t0 + dt
+			m.curve(out, t, sd, shifted, orb, uu, sc)
+		}
+		trs = append(trs, tr)
+	}
+	return trs
 }

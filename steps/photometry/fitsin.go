@@ -134,6 +134,7 @@ func chooseTable(cfg *Config, file string, f *fits.File, note noteFunc) (*fits.B
 		file, strings.Join(seen, "; "))
 }
 
+// columnNames lists a table's column names in order.
 func columnNames(t *fits.BinaryTable) []string {
 	var n []string
 	for _, c := range t.Columns() {
@@ -164,18 +165,9 @@ func readFITS(cfg *Config, file string, data []byte, note noteFunc) (*rawSegment
 	note("%s: columns %s", at, describeChoice(chosen))
 
 	cols := t.Columns()
-	var vals [nRoles][]float64
-	for role := Role(0); role < nRoles; role++ {
-		if idx[role] < 0 {
-			continue
-		}
-		c := cols[idx[role]]
-		if vals[role], err = c.Floats(0, nil); err != nil {
-			return nil, steps.BadInputf("%s: %v", file, err)
-		}
-		if c.Repeat > 1 {
-			note("%s: column %s holds %d values per row; the first is used", at, c.Name, c.Repeat)
-		}
+	vals, err := readRoles(cols, idx, file, at, note)
+	if err != nil {
+		return nil, err
 	}
 	r.time, r.flux, r.err, r.flag = vals[TimeCol], vals[FluxCol], vals[ErrorCol], vals[FlagCol]
 
@@ -189,22 +181,69 @@ func readFITS(cfg *Config, file string, data []byte, note noteFunc) (*rawSegment
 	if err := readReference(h, r, at); err != nil {
 		return nil, err
 	}
-	// keyUnit is the unit of time keywords: TIMEUNIT, or seconds by default (FITS 4.0 §9.3).
-	keyUnit := 1.0 / 86400
-	if u, ok, err := h.str("TIMEUNIT", ""); err != nil {
+	keyUnit, err := keywordTimeUnit(h, at)
+	if err != nil {
 		return nil, err
-	} else if ok {
-		if keyUnit, ok = timeUnit(u); !ok {
-			return nil, steps.BadInputf("%s: TIMEUNIT = '%s' is not a time unit this step reads (d, s, min, h, a)", at, u)
+	}
+	shift, err := timeShift(h, keyUnit, at, note)
+	if err != nil {
+		return nil, err
+	}
+	for i, v := range r.time {
+		r.time[i] = v*perUnit + shift
+	}
+	if r.exposure, err = exposureCandidates(h, keyUnit, file); err != nil {
+		return nil, err
+	}
+	if err := readBandAndInstrument(h, r); err != nil {
+		return nil, err
+	}
+	return r, nil
+}
+
+// readRoles reads the column chosen for each role (idx[role], −1 when none) as floats,
+// noting a column that holds several values per row, of which the first is used.
+func readRoles(cols []*fits.Column, idx [nRoles]int, file, at string, note noteFunc) ([nRoles][]float64, error) {
+	var vals [nRoles][]float64
+	for role := Role(0); role < nRoles; role++ {
+		if idx[role] < 0 {
+			continue
+		}
+		c := cols[idx[role]]
+		var err error
+		if vals[role], err = c.Floats(0, nil); err != nil {
+			return vals, steps.BadInputf("%s: %v", file, err)
+		}
+		if c.Repeat > 1 {
+			note("%s: column %s holds %d values per row; the first is used", at, c.Name, c.Repeat)
 		}
 	}
+	return vals, nil
+}
 
+// keywordTimeUnit returns days per unit of the time keywords: TIMEUNIT, or seconds by
+// default (FITS 4.0 §9.3).
+func keywordTimeUnit(h fitsHDU, at string) (float64, error) {
+	keyUnit := units.Time.Units["s"]
+	if u, ok, err := h.str("TIMEUNIT", ""); err != nil {
+		return 0, err
+	} else if ok {
+		if keyUnit, ok = timeUnit(u); !ok {
+			return 0, steps.BadInputf("%s: TIMEUNIT = '%s' is not a time unit this step reads (d, s, min, h, a)", at, u)
+		}
+	}
+	return keyUnit, nil
+}
+
+// timeShift returns what to add to the times, in days: the offsets TIMEZERO and TIMEOFFS,
+// and the move to mid-exposure when TIMEPIXR says the stamps are elsewhere in the bin.
+func timeShift(h fitsHDU, keyUnit float64, at string, note noteFunc) (float64, error) {
 	// Offsets of the time column in its own unit: TIMEZERO (and its newer name TIMEOFFS).
 	shift := 0.0
 	for _, key := range []string{"TIMEZERO", "TIMEOFFS"} {
 		v, ok, err := h.num(key)
 		if err != nil {
-			return nil, err
+			return 0, err
 		}
 		if ok && v != 0 {
 			shift += v * keyUnit
@@ -214,23 +253,26 @@ func readFITS(cfg *Config, file string, data []byte, note noteFunc) (*rawSegment
 	// Time stamps at a fraction TIMEPIXR of the bin (0.5 = mid-exposure, the FITS default)
 	// are moved to mid-exposure with the bin width TIMEDEL.
 	if pixr, ok, err := h.num("TIMEPIXR"); err != nil {
-		return nil, err
+		return 0, err
 	} else if ok && pixr != 0.5 {
 		del, okd, err := h.num("TIMEDEL")
 		if err != nil {
-			return nil, err
+			return 0, err
 		}
 		if !okd {
-			return nil, steps.BadInputf("%s: TIMEPIXR = %g says the times are not mid-exposure, and there is no TIMEDEL to move them by", at, pixr)
+			return 0, steps.BadInputf("%s: TIMEPIXR = %g says the times are not mid-exposure, and there is no TIMEDEL to move them by", at, pixr)
 		}
 		d := (0.5 - pixr) * del * keyUnit
 		shift += d
 		note("%s: times moved by %s to mid-exposure (TIMEPIXR = %g, TIMEDEL = %g)", at, minutes(d), pixr, del)
 	}
-	for i, v := range r.time {
-		r.time[i] = v*perUnit + shift
-	}
+	return shift, nil
+}
 
+// exposureCandidates reads every exposure keyword present, in exposureKeys order, in the
+// unit its comment gives in square brackets or else in TIMEUNIT (keyUnit days).
+func exposureCandidates(h fitsHDU, keyUnit float64, file string) ([]exposureCandidate, error) {
+	var out []exposureCandidate
 	for _, key := range exposureKeys {
 		c := h.card(key)
 		if c == nil {
@@ -254,22 +296,30 @@ func readFITS(cfg *Config, file string, data []byte, note noteFunc) (*rawSegment
 		} else {
 			text += " (in TIMEUNIT)"
 		}
-		r.exposure = append(r.exposure, exposureCandidate{key: key, days: v * days, text: text})
+		out = append(out, exposureCandidate{key: key, days: v * days, text: text})
 	}
+	return out, nil
+}
+
+// readBandAndInstrument reads the band from FILTER and the instrument from INSTRUME, or
+// TELESCOP when that is absent or blank.
+func readBandAndInstrument(h fitsHDU, r *rawSegment) error {
+	var err error
 	if r.band, _, err = h.str("FILTER", ""); err != nil {
-		return nil, err
+		return err
 	}
 	if r.instrument, _, err = h.str("INSTRUME", ""); err != nil {
-		return nil, err
+		return err
 	}
 	if r.instrument == "" {
 		if r.instrument, _, err = h.str("TELESCOP", ""); err != nil {
-			return nil, err
+			return err
 		}
 	}
-	return r, nil
+	return nil
 }
 
+// describeChoice lists the chosen column of each role, for a note.
 func describeChoice(chosen [nRoles]string) string {
 	var parts []string
 	for r, c := range chosen {

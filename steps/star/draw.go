@@ -10,7 +10,6 @@ import (
 	"dipline/steps/internal/astro"
 	"dipline/steps/internal/rng"
 	"dipline/steps/internal/stellar"
-	"dipline/steps/units"
 )
 
 // The methods, as written in the method attribute.
@@ -121,6 +120,7 @@ type drawer struct {
 	notes []string
 }
 
+// notef records a fact for the user.
 func (d *drawer) notef(format string, a ...any) { d.notes = append(d.notes, fmt.Sprintf(format, a...)) }
 
 // stream returns the random stream of one named input or scatter term.
@@ -259,35 +259,66 @@ func (d *drawer) checkRange(rel mkRelation, central float64, mk []float64, from 
 // (roughly; from memory).
 const fehLo, fehHi = -0.6, 0.5
 
+// coolDwarf draws an M dwarf's radius and mass from its absolute Ks magnitude (Mann et al.
+// 2015 and 2019), and its Teff as given or from V−J.
 func (d *drawer) coolDwarf() error {
-	in := d.in
-	plx, err := d.distanceDraws()
+	mk, from, err := d.absoluteKs()
 	if err != nil {
 		return err
 	}
+	if err := d.coolDwarfRadius(mk, from); err != nil {
+		return err
+	}
+	if err := d.coolDwarfMass(mk, from); err != nil {
+		return err
+	}
+	// Teff: given, else from V−J.
+	switch {
+	case d.in.Teff != nil:
+		return d.givenTeff()
+	case d.in.V != nil && d.in.J != nil:
+		return d.colourTeff()
+	}
+	return fmt.Errorf("star: cool-dwarf method without teff or V and J")
+}
+
+// absoluteKs draws the absolute Ks magnitude from Ks (less the companions' light) and the
+// parallax, checks it against the ranges of both relations, and keeps it in the star. from
+// names the inputs for messages.
+func (d *drawer) absoluteKs() (mk []float64, from string, err error) {
+	in := d.in
+	plx, err := d.distanceDraws()
+	if err != nil {
+		return nil, "", err
+	}
 	ks := d.sample(in.Ks, "ks")
 	corr, centralCorr := d.companionCorrection()
-	mk := make([]float64, d.n)
+	mk = make([]float64, d.n)
 	for i := range mk {
 		if mk[i], err = astro.AbsoluteMagnitude(ks[i]+corr[i], plx[i]); err != nil {
-			return steps.BadInputf("%s: %v", in.Parallax.Where, err)
+			return nil, "", steps.BadInputf("%s: %v", in.Parallax.Where, err)
 		}
 	}
 	centralMK, err := astro.AbsoluteMagnitude(in.Ks.Value+centralCorr, in.Parallax.Value)
 	if err != nil {
-		return steps.BadInputf("%s: %v", in.Parallax.Where, err)
+		return nil, "", steps.BadInputf("%s: %v", in.Parallax.Where, err)
 	}
-	from := fmt.Sprintf("Ks %.3f (%s) and parallax %.4g mas (%s)", in.Ks.Value, in.Ks.Where, in.Parallax.Value, in.Parallax.Where)
+	from = fmt.Sprintf("Ks %.3f (%s) and parallax %.4g mas (%s)", in.Ks.Value, in.Ks.Where, in.Parallax.Value, in.Parallax.Where)
 	if err := d.checkRange(mann15Radius, centralMK, mk, from); err != nil {
-		return err
+		return nil, "", err
 	}
 	if err := d.checkRange(mann19Mass, centralMK, mk, from); err != nil {
-		return err
+		return nil, "", err
 	}
 	d.s.MagK = mk
 	d.s.Relation = RelationMann2015
+	return mk, from, nil
+}
 
-	// Radius: Mann et al. (2015), with the [Fe/H] form when [Fe/H] is given.
+// coolDwarfRadius draws the radius from M_Ks by Mann et al. (2015), with the [Fe/H] form
+// when [Fe/H] is given.
+func (d *drawer) coolDwarfRadius(mk []float64, from string) error {
+	in := d.in
 	var feh []float64
 	scat := scatterMann15
 	d.b.Radius = fmt.Sprintf("Mann et al. (2015) M_Ks–radius relation, scatter %.2f %%", 100*scatterMann15)
@@ -308,14 +339,20 @@ func (d *drawer) coolDwarf() error {
 		if feh != nil {
 			f = feh[i]
 		}
+		var err error
 		if d.s.Radius[i], err = mannRadius(m, f, feh != nil); err != nil {
 			return steps.BadInputf("%s: %v", from, err)
 		}
 	}
 	d.scatter(d.s.Radius, scat, "radius")
+	return nil
+}
 
+// coolDwarfMass draws the mass from M_Ks by Mann et al. (2019).
+func (d *drawer) coolDwarfMass(mk []float64, from string) error {
 	d.s.Mass = make([]float64, d.n)
 	for i, m := range mk {
+		var err error
 		if d.s.Mass[i], err = mannMass(m); err != nil {
 			return steps.BadInputf("%s: %v", from, err)
 		}
@@ -325,39 +362,41 @@ func (d *drawer) coolDwarf() error {
 	if !d.opt.Scatter {
 		d.b.Mass += " (not drawn)"
 	}
-
-	// Teff: given, else from V−J.
-	switch {
-	case in.Teff != nil:
-		return d.givenTeff()
-	case in.V != nil && in.J != nil:
-		v, j := d.sample(in.V, "v"), d.sample(in.J, "j")
-		d.s.Teff = make([]float64, d.n)
-		for i := range v {
-			d.s.Teff[i] = ColourTeff(v[i] - j[i])
-		}
-		if d.opt.Scatter {
-			g := d.stream("scatter/teff", 0)
-			for i := range d.s.Teff {
-				d.s.Teff[i] += scatterColourTeff * g.Normal()
-			}
-		}
-		vj := in.V.Value - in.J.Value
-		if vj < colourLo || vj > colourHi {
-			d.notef("V−J = %.2f is outside the %.1f–%.1f over which the Mann et al. (2015) colour–temperature relation is used; Teff is extrapolated", vj, colourLo, colourHi)
-		}
-		d.b.Teff = fmt.Sprintf("Mann et al. (2015) V−J relation (coefficients from memory), scatter %g K; V and J are blends: companions are not removed", scatterColourTeff)
-		return positive(d.s.Teff, "Teff from V−J", in.V)
-	}
-	return fmt.Errorf("star: cool-dwarf method without teff or V and J")
+	return nil
 }
 
+// colourTeff draws Teff from V−J by the Mann et al. (2015) colour–temperature relation.
+func (d *drawer) colourTeff() error {
+	in := d.in
+	v, j := d.sample(in.V, "v"), d.sample(in.J, "j")
+	d.s.Teff = make([]float64, d.n)
+	for i := range v {
+		d.s.Teff[i] = ColourTeff(v[i] - j[i])
+	}
+	if d.opt.Scatter {
+		g := d.stream("scatter/teff", 0)
+		for i := range d.s.Teff {
+			d.s.Teff[i] += scatterColourTeff * g.Normal()
+		}
+	}
+	vj := in.V.Value - in.J.Value
+	if vj < colourLo || vj > colourHi {
+		d.notef("V−J = %.2f is outside the %.1f–%.1f over which the Mann et al. (2015) colour–temperature relation is used; Teff is extrapolated", vj, colourLo, colourHi)
+	}
+	d.b.Teff = fmt.Sprintf("Mann et al. (2015) V−J relation (coefficients from memory), scatter %g K; V and J are blends: companions are not removed", scatterColourTeff)
+	return positive(d.s.Teff, "Teff from V−J", in.V)
+}
+
+// givenTeff draws Teff as given.
 func (d *drawer) givenTeff() error {
 	d.s.Teff = d.sample(d.in.Teff, "teff")
 	d.b.Teff = "as given"
 	return positive(d.s.Teff, "Teff", d.in.Teff)
 }
 
+// stefanBoltzmann takes Teff as given and the luminosity as given or from the bolometric
+// flux and distance, for the radius by the Stefan–Boltzmann law; the mass is given or comes
+// from log g by Torres et al. (2010).
 func (d *drawer) stefanBoltzmann() error {
 	in := d.in
 	if _, err := d.distanceDraws(); err != nil {
@@ -440,6 +479,8 @@ const torresMinMass = 0.6
 // mid-M dwarfs (d² ln R/dM_K² ≈ −0.04 mag⁻² from the Mann et al. 2015 quadratic).
 const largeTransfer = 0.5
 
+// benchmark transfers a benchmark star's measured radius and mass to the target through
+// the local slopes of the Mann relations in absolute Ks.
 func (d *drawer) benchmark() error {
 	in := d.in
 	mk0 := in.BenchAbsK.Value
@@ -506,6 +547,7 @@ func (d *drawer) benchmark() error {
 	return nil
 }
 
+// given takes the radius and mass (and Teff, when there is one) as given.
 func (d *drawer) given() error {
 	in := d.in
 	d.s.Radius = d.sample(in.Radius, "radius")
@@ -534,15 +576,14 @@ func (d *drawer) finish() error {
 	if s.Luminosity == nil && s.Teff != nil {
 		s.Luminosity = make([]float64, n)
 		for i := range s.Luminosity {
-			r := s.Radius[i] * astro.SolarRadius
-			t2 := s.Teff[i] * s.Teff[i]
-			s.Luminosity[i] = 4 * math.Pi * astro.StefanBoltzmann * r * r * t2 * t2 / astro.SolarLuminosity
+			// Teff is positive by now; a radius that is not is refused below, with the mass.
+			l, _ := astro.Luminosity(s.Radius[i]*astro.SolarRadius, s.Teff[i])
+			s.Luminosity[i] = l / astro.SolarLuminosity
 		}
 		d.b.Luminosity = "Stefan–Boltzmann law, L = 4πR²σTeff⁴"
 	}
 	s.LogG = make([]float64, n)
 	s.Density = make([]float64, n)
-	rhoSun := units.Density.Units["rho_sun"]
 	for i := range s.LogG {
 		r, m := s.Radius[i], s.Mass[i]
 		if !(r > 0) || !(m > 0) || math.IsInf(r, 0) || math.IsInf(m, 0) {
@@ -550,7 +591,7 @@ func (d *drawer) finish() error {
 		}
 		rm := r * astro.SolarRadius
 		s.LogG[i] = math.Log10(100 * astro.SolarGM * m / (rm * rm))
-		s.Density[i] = rhoSun * m / (r * r * r)
+		s.Density[i], _ = astro.StellarDensityCGS(m, r) // m, r checked above
 	}
 	mags := map[string]*Measured{"Ks": d.in.Ks, "J": d.in.J, "V": d.in.V}
 	for band, m := range mags {

@@ -5,15 +5,13 @@ import (
 	"math"
 
 	"dipline/steps"
+	"dipline/steps/internal/astro"
 	"dipline/steps/internal/stellar"
-	"dipline/steps/units"
 )
 
-// solarDensity is the nominal Sun's mean density in g/cm³.
-var solarDensity = units.Density.Units["rho_sun"]
-
 // starDensity returns the star's density draws in g/cm³: its own, or M/R³ in solar units
-// times the Sun's density when it gives mass and radius; nil when it gives neither.
+// times the Sun's density (astro.StellarDensityCGS; NaN for a draw without a positive mass
+// and radius) when it gives mass and radius; nil when it gives neither.
 func starDensity(s *stellar.Star) []float64 {
 	if s == nil {
 		return nil
@@ -26,8 +24,11 @@ func starDensity(s *stellar.Star) []float64 {
 	}
 	out := make([]float64, len(s.Mass))
 	for i := range out {
-		r := s.Radius[i]
-		out[i] = s.Mass[i] / (r * r * r) * solarDensity
+		rho, err := astro.StellarDensityCGS(s.Mass[i], s.Radius[i])
+		if err != nil {
+			rho = math.NaN()
+		}
+		out[i] = rho
 	}
 	return out
 }

@@ -36,16 +36,57 @@ type dip struct {
 // as the primary, so that the other half of the dips is what it tests.
 func (v *vetter) secondary(tg *target, scale float64, deeper int64) Test {
 	const name = "secondary"
-	eph := tg.eph
-	doubled := deeper >= 0
-	if doubled {
-		eph.Epoch += float64(deeper) * eph.Period
-		eph.Period *= 2
+	s := secondarySearch{eph: tg.eph, doubled: deeper >= 0}
+	if s.doubled {
+		s.eph.Epoch += float64(deeper) * s.eph.Period
+		s.eph.Period *= 2
 	}
-	dur, per := eph.Duration, eph.Period
+	dur, per := s.eph.Duration, s.eph.Period
 	if per < 3*dur {
 		return notRun(name, fmt.Sprintf("the orbit (%.4g d) leaves less than one duration (%.3g h) clear of the transit on either side", per, dur*24))
 	}
+	if !v.searchSecondary(&s, tg, scale) {
+		return notRun(name, "too few points away from the transit to search")
+	}
+	s.nHalf = independent(2 * halfWindow)
+	s.nAny = independent((per - 2*dur) / dur)
+	s.zHalf, s.zAny = SidakThreshold(v.o.SecondaryAlarm, s.nHalf), SidakThreshold(v.o.SecondaryAlarm, s.nAny)
+
+	p := tg.name + "." + name + "."
+	t := Test{Name: name, Threshold: fmt.Sprintf("significance %.2f σ near phase 0.5 (%d independent phases) and %.2f σ anywhere (%d phases): a family-wise false-alarm probability of %.3g (about the one-sided normal tail beyond 3 σ; common practice), Šidák-corrected (Šidák 1967, JASA 62, 626); a significant dip disagrees when it is %.3g of the transit's depth or more, or needs a geometric albedo above %.3g",
+		s.zHalf, s.nHalf, s.zAny, s.nAny, v.o.SecondaryAlarm, v.o.SecondaryRatio, v.o.MaxAlbedo)}
+	t.Figures = s.figures(p, v.o.SecondaryAlarm)
+	sigHalf, sigAny := s.half.signif >= s.zHalf, s.wide.signif >= s.zAny
+	judged := s.half
+	if !sigHalf && sigAny {
+		judged = s.wide
+	}
+	alb := v.albedo(tg, s.eph, s.doubled, s.priDepth, judged)
+	t.Figures = append(t.Figures, alb.figures(p)...)
+	t.Verdict, t.Reason = s.judge(v.o, alb, judged, sigHalf, sigAny)
+	return t
+}
+
+// secondarySearch is what the secondary-eclipse search found at the ephemeris it folded on.
+type secondarySearch struct {
+	eph     boxmodel.Ephemeris
+	doubled bool // the period is twice the signal's
+	// priDepth and priSigma are the primary transit's box depth and its error.
+	priDepth, priSigma float64
+	// half is the most significant dip near phase 0.5 and wide the most significant
+	// anywhere away from the transit.
+	half, wide dip
+	// nHalf and nAny are the independent phases searched for each, and zHalf and zAny the
+	// significance each must reach.
+	nHalf, nAny int
+	zHalf, zAny float64
+}
+
+// searchSecondary fits the primary transit, masks it, and finds the most significant dips
+// near phase 0.5 and anywhere, re-fitting both with the shared box fit; false when too
+// few points are left away from the transit.
+func (v *vetter) searchSecondary(s *secondarySearch, tg *target, scale float64) bool {
+	eph, dur := s.eph, s.eph.Duration
 	w := v.weights(tg, true)
 	prim := boxmodel.Fit(v.f, w, 1, func(i int) int {
 		if _, in := eph.Inside(v.t[i]); in {
@@ -58,12 +99,13 @@ func (v *vetter) secondary(tg *target, scale float64, deeper int64) Test {
 			w[i] = 0
 		}
 	}
-	half, wide, ok := v.scan(eph, w, scale)
+	var ok bool
+	s.half, s.wide, ok = v.scan(eph, w, scale)
 	if !ok {
-		return notRun(name, "too few points away from the transit to search")
+		return false
 	}
 	// Report the best dips' numbers from the shared box fit.
-	for _, d := range []*dip{&half, &wide} {
+	for _, d := range []*dip{&s.half, &s.wide} {
 		sh := eph.Shifted(d.phase)
 		r := boxmodel.Fit(v.f, w, 1, func(i int) int {
 			if _, in := sh.Inside(v.t[i]); in {
@@ -74,74 +116,72 @@ func (v *vetter) secondary(tg *target, scale float64, deeper int64) Test {
 		d.depth, d.sigma = r.Depth[0], scale*r.Sigma[0]
 		d.signif = d.depth / d.sigma
 	}
-	nHalf := independent(2 * halfWindow)
-	nAny := independent((per - 2*dur) / dur)
-	zHalf, zAny := SidakThreshold(v.o.SecondaryAlarm, nHalf), SidakThreshold(v.o.SecondaryAlarm, nAny)
-	priDepth, priSigma := prim.Depth[0], scale*prim.Sigma[0]
+	s.priDepth, s.priSigma = prim.Depth[0], scale*prim.Sigma[0]
+	return true
+}
 
-	p := tg.name + "." + name + "."
-	t := Test{Name: name, Threshold: fmt.Sprintf("significance %.2f σ near phase 0.5 (%d independent phases) and %.2f σ anywhere (%d phases): a family-wise false-alarm probability of %.3g (about the one-sided normal tail beyond 3 σ; common practice), Šidák-corrected (Šidák 1967, JASA 62, 626); a significant dip disagrees when it is %.3g of the transit's depth or more, or needs a geometric albedo above %.3g",
-		zHalf, nHalf, zAny, nAny, v.o.SecondaryAlarm, v.o.SecondaryRatio, v.o.MaxAlbedo)}
+// figures are the search's numbers under the test's prefix p; alarm is the family-wise
+// false-alarm probability the thresholds are set for.
+func (s *secondarySearch) figures(p string, alarm float64) []steps.Figure {
 	periodDoc := "period folded for the search: the signal's"
-	if doubled {
+	if s.doubled {
 		periodDoc = "period folded for the search: twice the signal's, as the odd and even dips differ; the deeper ones are the primary"
 	}
-	t.Figures = []steps.Figure{
-		{Name: p + "period", Value: per, Unit: "d", Doc: periodDoc},
-		{Name: p + "primary_depth", Value: priDepth * 1e6, Sigma: priSigma * 1e6, Unit: "ppm", Doc: "box depth of the primary transit at that period"},
+	half, wide := s.half, s.wide
+	return []steps.Figure{
+		{Name: p + "period", Value: s.eph.Period, Unit: "d", Doc: periodDoc},
+		{Name: p + "primary_depth", Value: s.priDepth * 1e6, Sigma: s.priSigma * 1e6, Unit: "ppm", Doc: "box depth of the primary transit at that period"},
 		{Name: p + "depth", Value: half.depth * 1e6, Sigma: half.sigma * 1e6, Unit: "ppm",
 			Doc: fmt.Sprintf("box depth of the most significant dip of the transit's duration within %g duration of phase 0.5", halfWindow)},
 		{Name: p + "phase", Value: half.phase, Doc: "phase of that dip (0 at mid-transit)"},
 		{Name: p + "significance", Value: half.signif, Doc: "that dip's depth over its error (errors scaled by the noise scale)"},
-		{Name: p + "threshold", Value: zHalf, Doc: fmt.Sprintf("significance it must reach: family-wise false-alarm probability %.3g over %d independent phases, Šidák-corrected", v.o.SecondaryAlarm, nHalf)},
+		{Name: p + "threshold", Value: s.zHalf, Doc: fmt.Sprintf("significance it must reach: family-wise false-alarm probability %.3g over %d independent phases, Šidák-corrected", alarm, s.nHalf)},
 		{Name: p + "anywhere_depth", Value: wide.depth * 1e6, Sigma: wide.sigma * 1e6, Unit: "ppm",
 			Doc: "box depth of the most significant dip of the transit's duration anywhere at least one duration from the transit (eccentric orbits)"},
 		{Name: p + "anywhere_phase", Value: wide.phase, Doc: "phase of that dip (0 at mid-transit)"},
 		{Name: p + "anywhere_significance", Value: wide.signif, Doc: "that dip's depth over its error"},
-		{Name: p + "anywhere_threshold", Value: zAny, Doc: fmt.Sprintf("significance it must reach: family-wise false-alarm probability %.3g over %d independent phases, Šidák-corrected", v.o.SecondaryAlarm, nAny)},
+		{Name: p + "anywhere_threshold", Value: s.zAny, Doc: fmt.Sprintf("significance it must reach: family-wise false-alarm probability %.3g over %d independent phases, Šidák-corrected", alarm, s.nAny)},
 	}
-	sigHalf, sigAny := half.signif >= zHalf, wide.signif >= zAny
-	judged := half
-	if !sigHalf && sigAny {
-		judged = wide
-	}
-	alb := v.albedo(tg, eph, doubled, priDepth, judged)
-	t.Figures = append(t.Figures, alb.figures(p)...)
+}
+
+// judge gives the verdict on the judged dip (the one near phase 0.5 unless only a dip
+// elsewhere is significant) and the reason, in words.
+func (s *secondarySearch) judge(o Options, alb albedoResult, judged dip, sigHalf, sigAny bool) (verdict, reason string) {
 	at := func(d dip) string {
 		return fmt.Sprintf("%s at phase %.3f (%.1f σ)", ppm(d.depth), d.phase, d.signif)
 	}
 	where := ""
-	if doubled {
+	if s.doubled {
 		where = "at twice the signal's period (the odd and even dips differ), "
 	}
 	switch {
 	case !sigHalf && !sigAny:
-		t.Verdict = steps.VerdictAgree
-		t.Reason = fmt.Sprintf("%sno significant dip away from the transit: near phase 0.5 the deepest is %s, below %.2f σ; anywhere, %s, below %.2f σ",
-			where, at(half), zHalf, at(wide), zAny)
-	case judged.depth >= v.o.SecondaryRatio*priDepth:
-		t.Verdict = steps.VerdictDisagree
-		t.Reason = fmt.Sprintf("%sa significant dip of %s, %.2f of the transit's depth: eclipses of comparable depth are a binary's",
-			where, at(judged), judged.depth/priDepth)
-	case alb.ok && alb.albedo > v.o.MaxAlbedo:
-		t.Verdict = steps.VerdictDisagree
-		t.Reason = fmt.Sprintf("%sa significant dip of %s: a planet would need a geometric albedo of %.3g (after %s of the hottest day side's thermal light), above %.3g",
-			where, at(judged), alb.albedo, ppm(alb.thermal), v.o.MaxAlbedo)
+		verdict = steps.VerdictAgree
+		reason = fmt.Sprintf("%sno significant dip away from the transit: near phase 0.5 the deepest is %s, below %.2f σ; anywhere, %s, below %.2f σ",
+			where, at(s.half), s.zHalf, at(s.wide), s.zAny)
+	case judged.depth >= o.SecondaryRatio*s.priDepth:
+		verdict = steps.VerdictDisagree
+		reason = fmt.Sprintf("%sa significant dip of %s, %.2f of the transit's depth: eclipses of comparable depth are a binary's",
+			where, at(judged), judged.depth/s.priDepth)
+	case alb.ok && alb.albedo > o.MaxAlbedo:
+		verdict = steps.VerdictDisagree
+		reason = fmt.Sprintf("%sa significant dip of %s: a planet would need a geometric albedo of %.3g (after %s of the hottest day side's thermal light), above %.3g",
+			where, at(judged), alb.albedo, ppm(alb.thermal), o.MaxAlbedo)
 	case sigHalf && alb.ok:
-		t.Verdict = steps.VerdictAgree
-		t.Reason = fmt.Sprintf("%sa significant dip of %s, as a planet's occultation with a geometric albedo of %.2g (after %s of thermal light) would give",
+		verdict = steps.VerdictAgree
+		reason = fmt.Sprintf("%sa significant dip of %s, as a planet's occultation with a geometric albedo of %.2g (after %s of thermal light) would give",
 			where, at(judged), alb.albedo, ppm(alb.thermal))
 	case sigHalf:
-		t.Verdict = steps.VerdictCaution
-		t.Reason = fmt.Sprintf("%sa significant dip of %s, small beside the transit, whose albedo cannot be judged", where, at(judged))
+		verdict = steps.VerdictCaution
+		reason = fmt.Sprintf("%sa significant dip of %s, small beside the transit, whose albedo cannot be judged", where, at(judged))
 	default:
-		t.Verdict = steps.VerdictCaution
-		t.Reason = fmt.Sprintf("%sa significant dip of %s, away from phase 0.5: an eccentric planet's occultation, another body's transit or a systematic", where, at(judged))
+		verdict = steps.VerdictCaution
+		reason = fmt.Sprintf("%sa significant dip of %s, away from phase 0.5: an eccentric planet's occultation, another body's transit or a systematic", where, at(judged))
 	}
 	if !alb.ok {
-		t.Reason += "; the albedo was not computed: " + alb.why
+		reason += "; the albedo was not computed: " + alb.why
 	}
-	return t
+	return verdict, reason
 }
 
 // independent is the number of independent box positions in a stretch of the given length
@@ -213,6 +253,7 @@ type albedoResult struct {
 	k                                float64
 }
 
+// figures are the albedo's numbers under the test's prefix p; none when it was not computed.
 func (a albedoResult) figures(p string) []steps.Figure {
 	if !a.ok {
 		return nil
@@ -239,7 +280,7 @@ func (v *vetter) albedo(tg *target, eph boxmodel.Ephemeris, doubled bool, priDep
 	case tg.post != nil:
 		aR, _, _ := oneSigma(finiteSorted(tg.post.aR))
 		per, _, _ := oneSigma(finiteSorted(tg.post.period))
-		r.aR = aR * math.Cbrt((eph.Period/per)*(eph.Period/per))
+		r.aR, _ = astro.ScaledAxisAtPeriod(aR, per, eph.Period) // 0, refused below, when undefined
 		if !doubled {
 			r.k, _, _ = oneSigma(finiteSorted(tg.post.k))
 		}

@@ -8,7 +8,10 @@
 // seeded ensembles (rank-normalised, Vehtari et al. 2021). It works on plain slices and a
 // log-probability function; it knows nothing of models, priors, workflow files or the cache.
 // Every walker draws from its own random stream, derived from the seed and the walker's index,
-// so a chain is byte-identical for any worker count. Main entry point: Run.
+// so a chain is byte-identical for any worker count. Main entry points: Run for one ensemble
+// and a fixed number of steps, and RunEnsembles for independently seeded ensembles run to a
+// Schedule (burn-in, guides, and a stop once the chains are long enough in autocorrelation
+// times).
 package sampler
 
 import (
@@ -17,6 +20,7 @@ import (
 	"fmt"
 	"math"
 
+	"dipline/steps/internal/parallel"
 	"dipline/steps/internal/rng"
 )
 
@@ -58,7 +62,7 @@ type Options struct {
 	// Parallel runs block(i) for every i in [0, n), possibly concurrently, and returns when all
 	// are done (the signature of steps.Pool.Parallel). Nil runs them in order on the caller.
 	// When it is not nil, logp must be safe for concurrent use.
-	Parallel func(n int, block func(i int))
+	Parallel parallel.Func
 	// Progress, if not nil, is called on the caller's goroutine after every step.
 	Progress func(done, total int)
 }
@@ -125,42 +129,112 @@ var ErrConfig = errors.New("sampler: bad configuration")
 // ±Inf at a proposal rejects it. The context is checked between steps; on cancellation Run
 // returns the steps stored so far together with the context's error.
 func Run(ctx context.Context, logp func(x []float64) float64, init [][]float64, opts Options) (*Chain, error) {
-	K := len(init)
-	if K == 0 {
-		return nil, fmt.Errorf("%w: no walkers", ErrConfig)
-	}
-	N := len(init[0])
-	if N == 0 {
-		return nil, fmt.Errorf("%w: walkers have no parameters", ErrConfig)
-	}
-	if K < 2*N {
-		return nil, fmt.Errorf("%w: %d walkers for %d parameters; the stretch move needs at least %d (twice the dimension)", ErrConfig, K, N, 2*N)
-	}
-	if opts.Steps <= 0 {
-		return nil, fmt.Errorf("%w: steps = %d, must be positive", ErrConfig, opts.Steps)
-	}
-	a := opts.Stretch
-	if a == 0 {
-		a = DefaultStretch
-	}
-	if !(a > 1) || math.IsInf(a, 1) {
-		return nil, fmt.Errorf("%w: stretch scale %v, must be finite and > 1", ErrConfig, opts.Stretch)
-	}
-	thin := opts.Thin
-	if thin == 0 {
-		thin = 1
-	}
-	if thin < 0 {
-		return nil, fmt.Errorf("%w: thin = %d, must be positive", ErrConfig, opts.Thin)
+	a, thin, err := checkOptions(init, opts)
+	if err != nil {
+		return nil, err
 	}
 	par := opts.Parallel
 	if par == nil {
 		par = serial
 	}
+	w, err := startWalkers(logp, init, par)
+	if err != nil {
+		return nil, err
+	}
+	if err := checkMoves(w.K, w.N, opts); err != nil {
+		return nil, err
+	}
+	w.prepare(opts, a)
+	stored := opts.Steps / thin
+	ch := &Chain{
+		Walkers: w.K, Dim: w.N, Thin: thin,
+		Samples:  make([]float64, stored*w.K*w.N),
+		LogProb:  make([]float64, stored*w.K),
+		Accepted: make([]int, w.K),
+	}
+	return w.run(ctx, ch, opts, par)
+}
 
-	// Current state, walker-major.
-	x := make([]float64, K*N)
-	lp := make([]float64, K)
+// checkOptions checks the ensemble's shape and the options that do not concern the moves,
+// and returns the stretch scale and the thinning to use.
+func checkOptions(init [][]float64, opts Options) (a float64, thin int, err error) {
+	K := len(init)
+	if K == 0 {
+		return 0, 0, fmt.Errorf("%w: no walkers", ErrConfig)
+	}
+	N := len(init[0])
+	if N == 0 {
+		return 0, 0, fmt.Errorf("%w: walkers have no parameters", ErrConfig)
+	}
+	if K < 2*N {
+		return 0, 0, fmt.Errorf("%w: %d walkers for %d parameters; the stretch move needs at least %d (twice the dimension)", ErrConfig, K, N, 2*N)
+	}
+	if opts.Steps <= 0 {
+		return 0, 0, fmt.Errorf("%w: steps = %d, must be positive", ErrConfig, opts.Steps)
+	}
+	a = opts.Stretch
+	if a == 0 {
+		a = DefaultStretch
+	}
+	if !(a > 1) || math.IsInf(a, 1) {
+		return 0, 0, fmt.Errorf("%w: stretch scale %v, must be finite and > 1", ErrConfig, opts.Stretch)
+	}
+	thin = opts.Thin
+	if thin == 0 {
+		thin = 1
+	}
+	if thin < 0 {
+		return 0, 0, fmt.Errorf("%w: thin = %d, must be positive", ErrConfig, opts.Thin)
+	}
+	return a, thin, nil
+}
+
+// checkMoves checks the shares of the differential-evolution and independence moves, and
+// the guide, for K walkers of dimension N.
+func checkMoves(K, N int, opts Options) error {
+	if !(opts.DEShare >= 0 && opts.DEShare <= 1) {
+		return fmt.Errorf("%w: DE share %v, must be between 0 and 1", ErrConfig, opts.DEShare)
+	}
+	if opts.DEShare > 0 && K < 4 {
+		return fmt.Errorf("%w: %d walkers; the differential-evolution move needs two in each half", ErrConfig, K)
+	}
+	if !(opts.GuideShare >= 0 && opts.GuideShare+opts.DEShare <= 1) {
+		return fmt.Errorf("%w: guide share %v with DE share %v: each between 0 and 1, together at most 1", ErrConfig, opts.GuideShare, opts.DEShare)
+	}
+	if opts.GuideShare > 0 && (opts.Guide == nil || len(opts.Guide.Mean) != N) {
+		return fmt.Errorf("%w: guide share %v needs a guide of dimension %d", ErrConfig, opts.GuideShare, N)
+	}
+	return nil
+}
+
+// walkers is the state of one Run: the ensemble's positions and log-probabilities
+// (walker-major), each walker's random stream, and the scratch of the moves.
+type walkers struct {
+	logp     func(x []float64) float64
+	K, N     int       // walkers, parameters
+	x        []float64 // positions, one row per walker
+	lp       []float64 // log-probabilities at x
+	y        []float64 // proposal scratch, one row per walker
+	gbuf     []float64 // the guide's scratch, one row per walker
+	accepted []bool    // whether each walker's last proposal was accepted
+	streams  []rng.Stream
+	a        float64 // stretch scale
+	gamma    float64 // differential-evolution step, 2.38/√(2N)
+	guide    *Guide
+	// de and guided say which move the current step uses (neither: the stretch move).
+	de, guided bool
+	// The current half-step moves walkers lo, lo+1, … against the complementary half
+	// [olo, olo+on).
+	lo, olo, on int
+	// update is w.move bound once, so that a step allocates nothing.
+	update func(i int)
+}
+
+// startWalkers copies init into a new ensemble state after checking it, and evaluates logp
+// at every start.
+func startWalkers(logp func(x []float64) float64, init [][]float64, par parallel.Func) (*walkers, error) {
+	K, N := len(init), len(init[0])
+	w := &walkers{logp: logp, K: K, N: N, x: make([]float64, K*N), lp: make([]float64, K)}
 	for k, row := range init {
 		if len(row) != N {
 			return nil, fmt.Errorf("%w: walker %d has %d parameters, walker 0 has %d", ErrConfig, k, len(row), N)
@@ -170,168 +244,75 @@ func Run(ctx context.Context, logp func(x []float64) float64, init [][]float64, 
 				return nil, fmt.Errorf("%w: walker %d starts with parameter %d = %v", ErrConfig, k, i, v)
 			}
 		}
-		copy(x[k*N:], row)
+		copy(w.x[k*N:], row)
 	}
 	for i := 0; i < N; i++ {
 		same := true
 		for k := 1; k < K && same; k++ {
-			same = x[k*N+i] == x[i]
+			same = w.x[k*N+i] == w.x[i]
 		}
 		if same {
-			return nil, fmt.Errorf("%w: all walkers start with parameter %d = %v; the ensemble could never move in it", ErrConfig, i, x[i])
+			return nil, fmt.Errorf("%w: all walkers start with parameter %d = %v; the ensemble could never move in it", ErrConfig, i, w.x[i])
 		}
 	}
-	par(K, func(k int) { lp[k] = logp(x[k*N : (k+1)*N : (k+1)*N]) })
-	for k, v := range lp {
+	par(K, func(k int) { w.lp[k] = logp(w.row(w.x, k)) })
+	for k, v := range w.lp {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
 			return nil, fmt.Errorf("%w: log-probability at walker %d's start is %v, must be finite", ErrConfig, k, v)
 		}
 	}
+	return w, nil
+}
 
-	streams := make([]rng.Stream, K)
-	for k := range streams {
-		streams[k].Seed(rng.DeriveSeed(opts.Seed, walkerLabel, uint64(k)))
+// prepare seeds the walkers' streams and allocates the moves' scratch, for the stretch
+// scale a.
+func (w *walkers) prepare(opts Options, a float64) {
+	w.streams = make([]rng.Stream, w.K)
+	for k := range w.streams {
+		w.streams[k].Seed(rng.DeriveSeed(opts.Seed, walkerLabel, uint64(k)))
 	}
+	w.a, w.gamma, w.guide = a, 2.38/math.Sqrt(2*float64(w.N)), opts.Guide
+	w.gbuf = make([]float64, w.K*w.N)
+	w.y = make([]float64, w.K*w.N)
+	w.accepted = make([]bool, w.K)
+	w.update = w.move
+}
 
-	stored := opts.Steps / thin
-	ch := &Chain{
-		Walkers: K, Dim: N, Thin: thin,
-		Samples:  make([]float64, stored*K*N),
-		LogProb:  make([]float64, stored*K),
-		Accepted: make([]int, K),
-	}
-	if !(opts.DEShare >= 0 && opts.DEShare <= 1) {
-		return nil, fmt.Errorf("%w: DE share %v, must be between 0 and 1", ErrConfig, opts.DEShare)
-	}
-	if opts.DEShare > 0 && K < 4 {
-		return nil, fmt.Errorf("%w: %d walkers; the differential-evolution move needs two in each half", ErrConfig, K)
-	}
-	if !(opts.GuideShare >= 0 && opts.GuideShare+opts.DEShare <= 1) {
-		return nil, fmt.Errorf("%w: guide share %v with DE share %v: each between 0 and 1, together at most 1", ErrConfig, opts.GuideShare, opts.DEShare)
-	}
-	if opts.GuideShare > 0 && (opts.Guide == nil || len(opts.Guide.Mean) != N) {
-		return nil, fmt.Errorf("%w: guide share %v needs a guide of dimension %d", ErrConfig, opts.GuideShare, N)
-	}
+// row is walker k's row of v (positions, proposals or scratch), capped at its end.
+func (w *walkers) row(v []float64, k int) []float64 {
+	return v[k*w.N : (k+1)*w.N : (k+1)*w.N]
+}
+
+// run performs opts.Steps ensemble updates, storing every ch.Thin-th state in ch.
+func (w *walkers) run(ctx context.Context, ch *Chain, opts Options, par parallel.Func) (*Chain, error) {
+	K, N := w.K, w.N
 	moves := rng.Derive(opts.Seed, moveLabel, 0)
-	gamma := 2.38 / math.Sqrt(2*float64(N))
-	de, guided := false, false
-	gbuf := make([]float64, K*N) // the guide's scratch, one row per walker
-	y := make([]float64, K*N)    // proposal scratch, one row per walker
-	accepted := make([]bool, K)
 	halves := [2][2]int{{0, K / 2}, {K / 2, K}}
-
-	// update moves walker lo+i of the active half [lo, hi) against the complementary half
-	// [olo, olo+on). It touches only walker lo+i's row, stream and flags, so the blocks of a
-	// half may run in any order or concurrently. Built once: no allocation per step.
-	var lo, hi, olo, on int
-	// evaluate is logp at walker k's proposal (row k of y); a non-finite value rejects it.
-	evaluate := func(k int) (float64, bool) {
-		lpy := logp(y[k*N : (k+1)*N : (k+1)*N])
-		if math.IsNaN(lpy) || math.IsInf(lpy, 0) {
-			accepted[k] = false
-			return 0, false
-		}
-		return lpy, true
-	}
-	// settle records the decision on walker k's proposal of log-probability lpy, moving the
-	// walker there when it is accepted.
-	settle := func(k int, lpy float64, accept bool) {
-		accepted[k] = accept
-		if accept {
-			copy(x[k*N:(k+1)*N], y[k*N:(k+1)*N])
-			lp[k] = lpy
-		}
-	}
-	var deUpdate, guideUpdate func(k int, r *rng.Stream)
-	update := func(i int) {
-		k := lo + i
-		r := &streams[k]
-		switch {
-		case de:
-			deUpdate(k, r)
-			return
-		case guided:
-			guideUpdate(k, r)
-			return
-		}
-		// Three draws per update, always, so the stream never depends on data.
-		j := olo + r.Intn(on)
-		u := r.Float64()
-		z := (1 + (a-1)*u) * (1 + (a-1)*u) / a // inverse CDF of g(z) ∝ z^(−1/2) on [1/a, a]
-		lnU := math.Log(r.Float64())
-		xk := x[k*N : (k+1)*N : (k+1)*N]
-		xj := x[j*N : (j+1)*N : (j+1)*N]
-		yk := y[k*N : (k+1)*N : (k+1)*N]
-		for d := range yk {
-			yk[d] = xj[d] + z*(xk[d]-xj[d])
-		}
-		if lpy, ok := evaluate(k); ok {
-			settle(k, lpy, lnU < float64(N-1)*math.Log(z)+lpy-lp[k])
-		}
-	}
-
-	// deUpdate is update's differential-evolution move: four draws per update, always.
-	deUpdate = func(k int, r *rng.Stream) {
-		ia := r.Intn(on)
-		ib := r.Intn(on - 1)
-		if ib >= ia {
-			ib++
-		}
-		g := gamma
-		if r.Float64() < 0.1 {
-			g = 1
-		}
-		lnU := math.Log(r.Float64())
-		xk := x[k*N : (k+1)*N : (k+1)*N]
-		xa := x[(olo+ia)*N : (olo+ia+1)*N : (olo+ia+1)*N]
-		xb := x[(olo+ib)*N : (olo+ib+1)*N : (olo+ib+1)*N]
-		yk := y[k*N : (k+1)*N : (k+1)*N]
-		for d := range yk {
-			yk[d] = xk[d] + g*(xa[d]-xb[d])
-		}
-		if lpy, ok := evaluate(k); ok {
-			settle(k, lpy, lnU < lpy-lp[k])
-		}
-	}
-
-	// guideUpdate is update's independence move: N + Nu + 1 draws per update, always.
-	guideUpdate = func(k int, r *rng.Stream) {
-		g := opts.Guide
-		xk := x[k*N : (k+1)*N : (k+1)*N]
-		yk := y[k*N : (k+1)*N : (k+1)*N]
-		d := gbuf[k*N : (k+1)*N : (k+1)*N]
-		g.draw(yk, r)
-		lnU := math.Log(r.Float64())
-		if lpy, ok := evaluate(k); ok {
-			settle(k, lpy, lnU < lpy-lp[k]+g.logDensity(xk, d)-g.logDensity(yk, d))
-		}
-	}
-
 	for step := 0; step < opts.Steps; step++ {
 		// One draw per step picks the move: DE below DEShare, then the guide, then stretch.
 		u := moves.Float64()
-		de = u < opts.DEShare
-		guided = !de && u < opts.DEShare+opts.GuideShare
+		w.de = u < opts.DEShare
+		w.guided = !w.de && u < opts.DEShare+opts.GuideShare
 		if err := ctx.Err(); err != nil {
 			ch.Samples = ch.Samples[:ch.Stored*K*N]
 			ch.LogProb = ch.LogProb[:ch.Stored*K]
 			return ch, err
 		}
 		for h, half := range halves {
-			lo, hi = half[0], half[1]
-			olo, on = halves[1-h][0], halves[1-h][1]-halves[1-h][0]
-			par(hi-lo, update)
+			lo, hi := half[0], half[1]
+			w.lo, w.olo, w.on = lo, halves[1-h][0], halves[1-h][1]-halves[1-h][0]
+			par(hi-lo, w.update)
 			for k := lo; k < hi; k++ {
-				if accepted[k] {
+				if w.accepted[k] {
 					ch.Accepted[k]++
 				}
 			}
 		}
 		ch.Steps = step + 1
-		if (step+1)%thin == 0 {
+		if (step+1)%ch.Thin == 0 {
 			s := ch.Stored
-			copy(ch.Samples[s*K*N:(s+1)*K*N], x)
-			copy(ch.LogProb[s*K:(s+1)*K], lp)
+			copy(ch.Samples[s*K*N:(s+1)*K*N], w.x)
+			copy(ch.LogProb[s*K:(s+1)*K], w.lp)
 			ch.Stored++
 		}
 		if opts.Progress != nil {
@@ -341,6 +322,92 @@ func Run(ctx context.Context, logp func(x []float64) float64, init [][]float64, 
 	return ch, nil
 }
 
+// move moves walker lo+i of the active half against the complementary half, with the
+// step's move. It touches only that walker's row, stream and flags, so the blocks of a half
+// may run in any order or concurrently.
+func (w *walkers) move(i int) {
+	k := w.lo + i
+	r := &w.streams[k]
+	switch {
+	case w.de:
+		w.deMove(k, r)
+	case w.guided:
+		w.guideMove(k, r)
+	default:
+		w.stretch(k, r)
+	}
+}
+
+// stretch is the stretch move of walker k: three draws per update, always, so the stream
+// never depends on data.
+func (w *walkers) stretch(k int, r *rng.Stream) {
+	a := w.a
+	j := w.olo + r.Intn(w.on)
+	u := r.Float64()
+	z := (1 + (a-1)*u) * (1 + (a-1)*u) / a // inverse CDF of g(z) ∝ z^(−1/2) on [1/a, a]
+	lnU := math.Log(r.Float64())
+	xk, xj, yk := w.row(w.x, k), w.row(w.x, j), w.row(w.y, k)
+	for d := range yk {
+		yk[d] = xj[d] + z*(xk[d]-xj[d])
+	}
+	if lpy, ok := w.evaluate(k); ok {
+		w.settle(k, lpy, lnU < float64(w.N-1)*math.Log(z)+lpy-w.lp[k])
+	}
+}
+
+// deMove is the differential-evolution move of walker k: four draws per update, always.
+func (w *walkers) deMove(k int, r *rng.Stream) {
+	ia := r.Intn(w.on)
+	ib := r.Intn(w.on - 1)
+	if ib >= ia {
+		ib++
+	}
+	g := w.gamma
+	if r.Float64() < 0.1 {
+		g = 1
+	}
+	lnU := math.Log(r.Float64())
+	xk, xa, xb, yk := w.row(w.x, k), w.row(w.x, w.olo+ia), w.row(w.x, w.olo+ib), w.row(w.y, k)
+	for d := range yk {
+		yk[d] = xk[d] + g*(xa[d]-xb[d])
+	}
+	if lpy, ok := w.evaluate(k); ok {
+		w.settle(k, lpy, lnU < lpy-w.lp[k])
+	}
+}
+
+// guideMove is the independence move of walker k: N + Nu + 1 draws per update, always.
+func (w *walkers) guideMove(k int, r *rng.Stream) {
+	g := w.guide
+	xk, yk, d := w.row(w.x, k), w.row(w.y, k), w.row(w.gbuf, k)
+	g.draw(yk, r)
+	lnU := math.Log(r.Float64())
+	if lpy, ok := w.evaluate(k); ok {
+		w.settle(k, lpy, lnU < lpy-w.lp[k]+g.logDensity(xk, d)-g.logDensity(yk, d))
+	}
+}
+
+// evaluate is logp at walker k's proposal (row k of y); a non-finite value rejects it.
+func (w *walkers) evaluate(k int) (float64, bool) {
+	lpy := w.logp(w.row(w.y, k))
+	if math.IsNaN(lpy) || math.IsInf(lpy, 0) {
+		w.accepted[k] = false
+		return 0, false
+	}
+	return lpy, true
+}
+
+// settle records the decision on walker k's proposal of log-probability lpy, moving the
+// walker there when it is accepted.
+func (w *walkers) settle(k int, lpy float64, accept bool) {
+	w.accepted[k] = accept
+	if accept {
+		copy(w.x[k*w.N:(k+1)*w.N], w.y[k*w.N:(k+1)*w.N])
+		w.lp[k] = lpy
+	}
+}
+
+// serial runs block(i) for i in [0, n) in order on the caller: Options.Parallel's default.
 func serial(n int, block func(i int)) {
 	for i := 0; i < n; i++ {
 		block(i)

@@ -1,0 +1,279 @@
+package sampler
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"slices"
+
+	"dipline/steps/internal/parallel"
+	"dipline/steps/internal/rng"
+)
+
+// Schedule says how long RunEnsembles samples and with which moves. Sampling runs in two
+// phases. First the stretch and differential-evolution moves alone (DEShare), from the
+// starting points, until the chains are GuideAfter autocorrelation times long and at least
+// MinFirstPhase steps; each ensemble's guide is then fitted to the second half of its own
+// chains (FitGuide; so the ensembles stay independent) and frozen, and everything so far is
+// burn-in. Then all three moves (GuidedDEShare, GuideShare, the rest stretch moves), until
+// the chains after burn-in are LengthPerTau autocorrelation times long. Chains that reach
+// that length in the first phase, its first 1/BurnShare discarded, stop there. MaxSteps caps
+// both phases.
+//
+// The values are the caller's choices; the schedule knows nothing of what is sampled.
+type Schedule struct {
+	// MaxSteps caps the ensemble updates per ensemble.
+	MaxSteps int
+	// Chunk is the number of steps run between looks at the chains; each ensemble's run of
+	// Chunk steps draws from its own seed. > 0.
+	Chunk int
+	// LengthPerTau is the length of the chains after burn-in, in autocorrelation times, at
+	// which sampling stops.
+	LengthPerTau float64
+	// BurnShare: the first 1/BurnShare of each chain is burn-in when the first phase is all
+	// there is. ≥ 2.
+	BurnShare int
+	// GuideAfter is the length of the first phase in autocorrelation times (τ estimated
+	// after its first 1/BurnShare), and MinFirstPhase its least length in steps.
+	GuideAfter    float64
+	MinFirstPhase int
+	// GuideGain is the factor by which the first look after the guides are fitted expects τ
+	// to have shrunk (it only places that look; τ is measured there).
+	GuideGain float64
+	// DEShare is the share of differential-evolution moves in the first phase;
+	// GuidedDEShare and GuideShare are the shares of differential-evolution and independence
+	// moves in the second (see Options).
+	DEShare                   float64
+	GuidedDEShare, GuideShare float64
+	// Seed and SeedLabel select the random streams: ensemble e's run of steps from total on
+	// draws from rng.DeriveSeed(Seed, SeedLabel, e<<32 | total/Chunk).
+	Seed      uint64
+	SeedLabel string
+	// Parallel is as in Options; it also spreads the autocorrelation estimates, one block
+	// per parameter. Results do not depend on it.
+	Parallel parallel.Func
+}
+
+// Sampling is the record of RunEnsembles.
+type Sampling struct {
+	Chains []*Chain // one per ensemble, every step stored
+	Steps  int      // ensemble updates per ensemble
+	Burn   int      // leading steps of every chain that are burn-in
+	// Taus holds per parameter the largest integrated autocorrelation time over the
+	// ensembles after Burn, in steps, at least 1; Trusted says every estimate is trusted
+	// (AutoCorrTime).
+	Taus    []float64
+	Trusted bool
+	// Guided says the ensembles got their guides: the second phase began.
+	Guided bool
+}
+
+// MaxTau is the largest of s.Taus.
+func (s *Sampling) MaxTau() float64 { return maxOf(s.Taus) }
+
+// RunEnsembles samples exp(logp) with independently seeded ensembles, ensemble e started at
+// starts[e] (as Run's init; all of one shape), to the schedule s. The autocorrelation time
+// is estimated (an FFT per walker and parameter) only at looks, a quarter of the chain
+// apart, and once trusted not before the chains could be long enough for it. Errors from
+// Run are returned as they are.
+func RunEnsembles(ctx context.Context, logp func(x []float64) float64, starts [][][]float64, s Schedule) (*Sampling, error) {
+	if err := s.check(starts); err != nil {
+		return nil, err
+	}
+	r := newScheduled(ctx, logp, starts, s)
+	r.nextLook = s.Chunk
+	for r.total < s.MaxSteps {
+		if err := r.advance(min(s.Chunk, s.MaxSteps-r.total)); err != nil {
+			return nil, err
+		}
+		if r.total < r.nextLook && r.total < s.MaxSteps {
+			continue
+		}
+		if r.look() {
+			break
+		}
+	}
+	return r.finish(), nil
+}
+
+// check reports a schedule or a set of starts that RunEnsembles cannot follow.
+func (s *Schedule) check(starts [][][]float64) error {
+	switch {
+	case len(starts) == 0:
+		return fmt.Errorf("%w: no ensembles", ErrConfig)
+	case s.Chunk <= 0:
+		return fmt.Errorf("%w: chunk = %d, must be positive", ErrConfig, s.Chunk)
+	case s.BurnShare < 2:
+		return fmt.Errorf("%w: burn share 1/%d, must be at most a half", ErrConfig, s.BurnShare)
+	}
+	for e, init := range starts {
+		if len(init) == 0 || len(init[0]) == 0 || len(init) != len(starts[0]) || len(init[0]) != len(starts[0][0]) {
+			return fmt.Errorf("%w: ensemble %d starts in another shape than ensemble 0", ErrConfig, e)
+		}
+	}
+	return nil
+}
+
+// scheduled is the state of RunEnsembles.
+type scheduled struct {
+	Schedule
+	ctx      context.Context
+	logp     func(x []float64) float64
+	dim      int
+	chains   []*Chain
+	last     [][][]float64 // per ensemble, every walker's latest position
+	guides   []*Guide      // per ensemble, its guide once the first phase is over
+	total    int           // steps run per ensemble
+	burn     int
+	taus     []float64
+	trusted  bool
+	nextLook int // the total at which the chains are next looked at
+}
+
+// newScheduled returns RunEnsembles' state with empty chains at the starts.
+func newScheduled(ctx context.Context, logp func(x []float64) float64, starts [][][]float64, s Schedule) *scheduled {
+	if s.Parallel == nil {
+		s.Parallel = serial
+	}
+	r := &scheduled{Schedule: s, ctx: ctx, logp: logp, dim: len(starts[0][0]),
+		chains: make([]*Chain, len(starts)), last: make([][][]float64, len(starts)), guides: make([]*Guide, len(starts))}
+	for e, init := range starts {
+		// A shallow copy: advance replaces the rows, so the caller's starts stay as they were.
+		r.last[e] = slices.Clone(init)
+		r.chains[e] = &Chain{Walkers: len(init), Dim: r.dim, Thin: 1, Accepted: make([]int, len(init))}
+	}
+	return r
+}
+
+// advance runs n steps of every ensemble, each with its guide when it has one.
+func (r *scheduled) advance(n int) error {
+	for e := range r.chains {
+		seed := rng.DeriveSeed(r.Seed, r.SeedLabel, uint64(e)<<32|uint64(r.total/r.Chunk))
+		so := Options{Steps: n, Seed: seed, Parallel: r.Parallel, DEShare: r.DEShare}
+		if r.guides[e] != nil {
+			so.DEShare, so.GuideShare, so.Guide = r.GuidedDEShare, r.GuideShare, r.guides[e]
+		}
+		ch, err := Run(r.ctx, r.logp, r.last[e], so)
+		if err != nil {
+			return err
+		}
+		appendChain(r.chains[e], ch)
+		for w := range r.last[e] {
+			r.last[e][w] = append([]float64(nil), ch.At(ch.Stored-1, w)...)
+		}
+	}
+	r.total += n
+	return nil
+}
+
+// look estimates the autocorrelation times and reports whether the chains after burn-in are
+// long enough. If not, it fits the guides when the first phase is over, and places the next
+// look.
+func (r *scheduled) look() bool {
+	guided := r.guides[0] != nil
+	from := r.burn
+	if !guided {
+		from = r.total / r.BurnShare
+	}
+	r.taus, r.trusted = tausOf(r.chains, r.dim, from, r.Parallel)
+	tauMax := maxOf(r.taus)
+	if r.trusted && float64(r.total-from) >= r.LengthPerTau*tauMax {
+		r.burn = from
+		return true
+	}
+	if !guided && r.total >= r.MinFirstPhase && float64(r.total) >= r.GuideAfter*tauMax {
+		if fitGuides(r.guides, r.chains, r.total/2) {
+			r.burn = r.total
+			r.nextLook = r.total + max(r.Chunk, int(r.LengthPerTau*tauMax/r.GuideGain))
+			return false
+		}
+	}
+	// Each look costs an FFT per walker and parameter over the whole chain, so the looks
+	// grow apart geometrically (a quarter of the chain at a time, at most a quarter of
+	// overshoot in steps).
+	r.nextLook = max(r.total+r.Chunk, r.total+(r.total-from)/4)
+	if r.trusted {
+		// The total at which the kept share reaches LengthPerTau·τ, if τ holds.
+		need := from + int(r.LengthPerTau*tauMax) + 1
+		if !guided {
+			need = int(r.LengthPerTau*tauMax*float64(r.BurnShare)/float64(r.BurnShare-1)) + 1
+		}
+		r.nextLook = max(r.nextLook, min(need, r.MaxSteps))
+	}
+	return false
+}
+
+// finish settles the burn-in (the first 1/BurnShare when the guides never came or came at
+// the very end), measures τ after it when the last look did not, and returns the record.
+func (r *scheduled) finish() *Sampling {
+	if r.guides[0] == nil || r.burn >= r.total {
+		r.burn = r.total / r.BurnShare
+	}
+	if r.taus == nil || !(r.burn < r.total) {
+		r.taus, r.trusted = tausOf(r.chains, r.dim, r.burn, r.Parallel)
+	}
+	return &Sampling{Chains: r.chains, Steps: r.total, Burn: r.burn, Taus: r.taus, Trusted: r.trusted, Guided: r.guides[0] != nil}
+}
+
+// fitGuides fits each ensemble's guide to its chains from step from on (FitGuide). It
+// reports whether every ensemble has one, and leaves none when any fit fails.
+func fitGuides(guides []*Guide, ens []*Chain, from int) bool {
+	for e, ch := range ens {
+		g, err := FitGuide([]*Chain{ch}, from, 1)
+		if err != nil {
+			clear(guides)
+			return false
+		}
+		guides[e] = g
+	}
+	return true
+}
+
+// appendChain appends the stored steps of c to acc.
+func appendChain(acc, c *Chain) {
+	acc.Samples = append(acc.Samples, c.Samples...)
+	acc.LogProb = append(acc.LogProb, c.LogProb...)
+	acc.Stored += c.Stored
+	acc.Steps += c.Steps
+	for w, a := range c.Accepted {
+		acc.Accepted[w] += a
+	}
+}
+
+// tausOf is, per parameter, the largest autocorrelation time over the ensembles after burn
+// (at least 1), and whether every estimate is trusted.
+func tausOf(ens []*Chain, dim, burn int, par parallel.Func) ([]float64, bool) {
+	taus := make([]float64, dim)
+	ok := make([]bool, dim)
+	// One block per parameter: each writes only its own entries, so the result does not
+	// depend on how the blocks are scheduled.
+	par(dim, func(p int) {
+		ok[p] = true
+		for _, ch := range ens {
+			ac, err := AutoCorrTime(ch.Series(p, burn), 0)
+			if err != nil {
+				ok[p] = false
+				continue
+			}
+			taus[p] = math.Max(taus[p], ac.Tau)
+			ok[p] = ok[p] && ac.Trusted
+		}
+		if taus[p] < 1 {
+			taus[p] = 1
+		}
+	})
+	trusted := true
+	for _, t := range ok {
+		trusted = trusted && t
+	}
+	return taus, trusted
+}
+
+// maxOf is the largest of v, or 0 when v is empty.
+func maxOf(v []float64) float64 {
+	m := 0.0
+	for _, x := range v {
+		m = math.Max(m, x)
+	}
+	return m
+}
