@@ -17,22 +17,27 @@ import (
 	"strings"
 )
 
-// Kind is one step kind: the block type of the workflow language and the code behind it.
+// Kind is one step kind as the engine sees it: the block type of the workflow language and
+// the code behind it. A kind is written against its own configuration struct and turned
+// into a Kind by Define; nothing else needs to learn about it.
 type Kind interface {
 	// Name is the block type in a workflow file, e.g. "detrend".
 	Name() string
 	// Version is bumped whenever the kind's numerical behaviour or its encoding changes.
 	Version() int
-	// Doc is one sentence shown by `dipline check --kinds`.
+	// Doc is one sentence shown by `dipline kinds`.
 	Doc() string
-	// Params is the schema of the block's attributes.
-	Params() []Param
 	// Random reports whether Run draws random numbers; only such kinds receive a seed,
 	// and only their keys include it.
 	Random() bool
-	// Prepare checks the decoded values and turns them into the kind's own configuration.
-	// An *AttrError points the user at the attribute at fault.
-	Prepare(v Values) (any, error)
+	// Schema is the block's attributes, read from the configuration struct's tags.
+	Schema() *Schema
+	// Params is Schema().Params().
+	Params() []Param
+	// Check checks a decoded configuration (a pointer to the kind's configuration struct,
+	// from Schema().New and Set) as a whole and completes it. An *AttrError points the user
+	// at the attribute at fault.
+	Check(cfg any) error
 	// Run computes the artifact. It must be a pure function of its arguments.
 	Run(ctx context.Context, cfg any, in Inputs, env Env) (Artifact, error)
 	// Decode reads an artifact back from its canonical encoding.
@@ -52,6 +57,7 @@ type Artifact interface {
 // `dipline check` calls Inspect with the same configuration, files and catalogue rows Run
 // would get (no references, no seed), so that what a run would refuse in the data is
 // caught before anything runs. Errors are the user's (file and row, as Run gives them).
+// A kind written against its configuration C gives `Inspect(*C, Inputs) error`.
 type Inspector interface {
 	Inspect(cfg any, in Inputs) error
 }
@@ -185,8 +191,8 @@ func (r Row) Where(name string) string {
 	return s
 }
 
-// ColumnReader is implemented by a prepared configuration (the value Prepare returns) of a
-// kind with CatalogueRow parameters: for one such parameter it lists the columns the step
+// ColumnReader is implemented by the configuration (a pointer to the struct, after Check) of
+// a kind with CatalogueRow parameters: for one such parameter it lists the columns the step
 // reads, by the names the step uses. The engine matches them to the catalogue's columns
 // without regard to case (after the catalogue block's renames), refuses a missing required
 // column, and keys the step by the parsed values of exactly these columns.
@@ -204,7 +210,7 @@ func (in Inputs) Ref(name string) Artifact {
 
 // Env is what the engine lends a running step.
 type Env struct {
-	// Seed is the step's own seed, derived from the workflow seed and the step's address.
+	// Seed is the step's own seed, derived from the workflow seed and the step's name.
 	// It is zero for kinds that do not declare randomness.
 	Seed uint64
 	// Pool holds the worker tokens shared by all running steps and their numerical cores.

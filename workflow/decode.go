@@ -2,7 +2,6 @@ package workflow
 
 import (
 	"fmt"
-	"math"
 	"sort"
 	"strings"
 
@@ -78,15 +77,15 @@ func (w *Workflow) checkOverridesUsed() hcl.Diagnostics {
 		if o.used {
 			continue
 		}
-		detail := fmt.Sprintf("There is no step %s.", o.Addr)
+		set := "--set " + o.Addr + "." + o.Attr
+		summary, detail := fmt.Sprintf("%s names no step: there is no step %s.", set, o.Addr), suggest(o.Addr, w.addresses())
 		if strings.HasPrefix(o.Addr, catalogueBlock+".") {
-			detail = fmt.Sprintf("No step reads column %q of %s.", o.Attr, o.Addr)
+			summary, detail = fmt.Sprintf("%s changes a value no step reads: no step reads column %q of %s", set, o.Attr, o.Addr), ""
 		} else if s := w.byAddr[o.Addr]; s != nil {
-			detail = fmt.Sprintf("A %s step has no attribute %q.%s", s.Kind.Name(), o.Attr, suggest(o.Attr, paramNames(s.Kind)))
-		} else {
-			detail += suggest(o.Addr, w.addresses())
+			summary = fmt.Sprintf("%s names no setting: a %s step has no setting %q.", set, s.Kind.Name(), o.Attr)
+			detail = suggest(o.Attr, paramNames(s.Kind))
 		}
-		diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "Override matches nothing", Detail: detail})
+		diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: summary, Detail: strings.TrimSpace(detail)})
 	}
 	return diags
 }
@@ -99,64 +98,104 @@ func paramNames(k steps.Kind) []string {
 	return n
 }
 
-// decodeStep decodes a step block's attributes against its kind's schema, applying
-// defaults and overrides, then lets the kind check and prepare its configuration.
+// decodeStep reads a step block's attributes into its kind's configuration struct
+// (defaults first, then what the block writes, then overrides), and lets the kind check
+// the whole.
 func (w *Workflow) decodeStep(s *Step, body hcl.Body) hcl.Diagnostics {
-	params := s.Kind.Params()
-	schema := &hcl.BodySchema{}
-	for _, p := range params {
-		required := p.Default == nil && !p.Optional
-		if w.overrides[s.Addr+"."+p.Name] != nil {
-			required = false
-		}
-		schema.Attributes = append(schema.Attributes, hcl.AttributeSchema{Name: p.Name, Required: required})
-	}
-	content, diags := body.Content(schema)
+	schema := s.Kind.Schema()
+	params := schema.Params()
+	content, diags := body.Content(w.bodySchema(s, params))
 	if diags.HasErrors() {
 		return diags
 	}
-	s.Values = steps.Values{}
-	for _, p := range params {
-		var expr hcl.Expression
-		if a := content.Attributes[p.Name]; a != nil {
-			expr = a.Expr
-			s.attrRanges[p.Name] = a.Range
-		}
-		if o := w.overrides[s.Addr+"."+p.Name]; o != nil {
-			o.used = true
-			expr = o.expr
-			s.attrRanges[p.Name] = o.expr.Range()
-		}
+	cfg, err := schema.New()
+	if err != nil {
+		return append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Subject: s.block.Ptr(),
+			Summary: fmt.Sprintf("The %s kind's own defaults do not read: %v. This is a fault in dipline, not in the workflow; please report it.", s.Kind.Name(), err)})
+	}
+	for i := range params {
+		p := &params[i]
+		expr := w.attrExpr(s, p, content)
 		if expr == nil {
-			if p.Default != nil {
-				s.Values[p.Name] = p.Default
-			}
 			continue
 		}
-		v, d := w.decodeParam(s, p, expr)
+		written, d := w.written(s, p, expr)
 		diags = append(diags, d...)
-		if !d.HasErrors() && v != nil {
-			s.Values[p.Name] = v
+		if d.HasErrors() {
+			continue
+		}
+		if err := schema.Set(cfg, p, written); err != nil {
+			msg := err.Error() + "."
+			if len(p.Choices) > 0 && written.Kind == steps.WrittenString {
+				msg += suggest(written.Str, p.Choices)
+			}
+			diags = append(diags, ownDiag(expr.Range(), msg))
+			continue
+		}
+		if p.Type == steps.FileList {
+			diags = append(diags, w.readFiles(s, p, cfg, expr.Range())...)
 		}
 	}
 	if diags.HasErrors() {
 		return diags
 	}
-	cfg, err := s.Kind.Prepare(s.Values)
-	if err != nil {
-		diags = append(diags, w.stepDiag(s, err))
-		return diags
+	if err := s.Kind.Check(cfg); err != nil {
+		return append(diags, w.stepDiag(s, err))
 	}
 	s.Config = cfg
 	return append(diags, w.resolveRows(s)...)
 }
 
-// stepDiag turns an error from a kind into a diagnostic at the attribute it names.
+// bodySchema lists a step's attributes for the HCL decoder; an attribute an override
+// gives need not be written.
+func (w *Workflow) bodySchema(s *Step, params []steps.Param) *hcl.BodySchema {
+	schema := &hcl.BodySchema{}
+	for _, p := range params {
+		required := p.Required && w.overrides[s.Addr+"."+p.Name] == nil
+		schema.Attributes = append(schema.Attributes, hcl.AttributeSchema{Name: p.Name, Required: required})
+	}
+	return schema
+}
+
+// attrExpr returns the expression that sets a parameter: an override's, else the block's,
+// else nil. It records where the value was written, for messages.
+func (w *Workflow) attrExpr(s *Step, p *steps.Param, content *hcl.BodyContent) hcl.Expression {
+	var expr hcl.Expression
+	if a := content.Attributes[p.Name]; a != nil {
+		expr = a.Expr
+		s.attrRanges[p.Name] = a.Expr.Range()
+	}
+	if o := w.overrides[s.Addr+"."+p.Name]; o != nil {
+		o.used = true
+		expr = o.expr
+		s.attrRanges[p.Name] = o.expr.Range()
+	}
+	return expr
+}
+
+// readFiles reads the files a FileList parameter names, once, for the step's key and Run.
+func (w *Workflow) readFiles(s *Step, p *steps.Param, cfg any, r hcl.Range) hcl.Diagnostics {
+	v, _ := p.Value(cfg)
+	var diags hcl.Diagnostics
+	var files []*FileInput
+	for _, path := range v.(steps.Files) {
+		fi, d := w.readFile(path, r)
+		if d != nil {
+			diags = append(diags, d)
+			continue
+		}
+		files = append(files, fi)
+	}
+	s.Files[p.Name] = files
+	return diags
+}
+
+// stepDiag turns an error from a kind's Check into a diagnostic at the attribute it names.
 func (w *Workflow) stepDiag(s *Step, err error) *hcl.Diagnostic {
-	d := &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "Invalid " + s.Kind.Name() + " settings",
-		Detail: err.Error(), Subject: s.block.Ptr()}
+	d := &hcl.Diagnostic{Severity: hcl.DiagError, Subject: s.block.Ptr(),
+		Summary: fmt.Sprintf("%s %q refuses its settings: %v.", s.Kind.Name(), s.Label, err)}
 	if ae, ok := err.(*steps.AttrError); ok {
-		d.Detail = fmt.Sprintf("%s: %s", ae.Attr, ae.Msg)
+		d.Summary = fmt.Sprintf("%s %q refuses its setting %s: %s %s.", s.Kind.Name(), s.Label, ae.Attr, ae.Attr, ae.Msg)
 		if r, ok := s.attrRanges[ae.Attr]; ok {
 			d.Subject = r.Ptr()
 		}
@@ -164,217 +203,98 @@ func (w *Workflow) stepDiag(s *Step, err error) *hcl.Diagnostic {
 	return d
 }
 
-func (w *Workflow) decodeParam(s *Step, p steps.Param, expr hcl.Expression) (any, hcl.Diagnostics) {
-	r := expr.Range()
+// ownDiag is an error at a range whose whole message is ours, in one sentence or two.
+func ownDiag(r hcl.Range, msg string) *hcl.Diagnostic {
+	return &hcl.Diagnostic{Severity: hcl.DiagError, Summary: msg, Subject: r.Ptr()}
+}
+
+// written reads what an attribute's expression writes, for its parameter type to read:
+// references and catalogue rows are resolved here (only the engine knows the syntax),
+// everything else is a plain value.
+func (w *Workflow) written(s *Step, p *steps.Param, expr hcl.Expression) (steps.Written, hcl.Diagnostics) {
 	switch p.Type {
-	case steps.Ref:
-		addr, d := refAddr(expr)
+	case steps.StepRef:
+		addr, d := refAddr(p.Name, expr)
 		if d != nil {
-			return nil, hcl.Diagnostics{d}
+			return steps.Written{}, hcl.Diagnostics{d}
 		}
 		s.Refs[p.Name] = []string{addr}
-		return addr, nil
-	case steps.RefList:
-		exprs, diags := hcl.ExprList(expr)
+		return steps.Written{Kind: steps.WrittenRef, Str: addr}, nil
+	case steps.StepRefList:
+		exprs, diags := hcl.ExprList(expr) // the library's words are made ours in words.go
 		if diags.HasErrors() {
-			return nil, diags
+			return steps.Written{}, diags
 		}
+		list := steps.Written{Kind: steps.WrittenList}
 		var addrs []string
 		for _, e := range exprs {
-			addr, d := refAddr(e)
+			addr, d := refAddr(p.Name, e)
 			if d != nil {
 				diags = append(diags, d)
 				continue
 			}
 			addrs = append(addrs, addr)
+			list.List = append(list.List, steps.Written{Kind: steps.WrittenRef, Str: addr})
 		}
 		s.Refs[p.Name] = addrs
-		return addrs, diags
-	case steps.CatalogueRow:
-		return w.decodeRow(s, p, expr)
-	}
-
-	v, diags := expr.Value(nil)
-	if diags.HasErrors() {
-		for _, d := range diags {
-			if d.Summary == "Variables not allowed" {
-				d.Detail = "Only step references (kind.label) may name other things, and only in attributes that take a step."
-			}
-		}
-		return nil, diags
-	}
-	bad := func(want string) (any, hcl.Diagnostics) {
-		return nil, hcl.Diagnostics{attrDiag(r, "Wrong type for "+p.Name,
-			fmt.Sprintf("%s takes %s; this is %s.", p.Name, want, describe(v)))}
-	}
-	switch p.Type {
-	case steps.Number:
-		f, ok := number(v)
-		if !ok {
-			return bad("a number")
-		}
-		return f, nil
-	case steps.Integer:
-		f, ok := number(v)
-		if !ok || f != math.Trunc(f) || math.Abs(f) > 1<<62 {
-			return bad("a whole number")
-		}
-		return int64(f), nil
-	case steps.Bool:
-		if v.IsNull() || v.Type() != cty.Bool {
-			return bad("true or false")
-		}
-		return v.True(), nil
-	case steps.String:
-		sv, ok := str(v)
-		if !ok {
-			return bad("a string")
-		}
-		if len(p.Choices) > 0 && !contains(p.Choices, sv) {
-			return nil, hcl.Diagnostics{attrDiag(r, "Unknown choice for "+p.Name,
-				fmt.Sprintf("%s is not one of %s.%s", quote(sv), strings.Join(quoteAll(p.Choices), ", "), suggest(sv, p.Choices)))}
-		}
-		return sv, nil
-	case steps.Quantity:
-		sv, ok := str(v)
-		if !ok {
-			if _, isNum := number(v); isNum {
-				return nil, hcl.Diagnostics{attrDiag(r, "Missing unit",
-					fmt.Sprintf("%s is a %s: write it as a string with its unit, e.g. \"%s %s\" (units: %s).",
-						p.Name, p.Dim.Name, v.AsBigFloat().Text('g', -1), p.Dim.Base, strings.Join(p.Dim.Names(), ", ")))}
-			}
-			return bad("a " + p.Dim.Name + " with its unit, e.g. \"1 " + p.Dim.Base + "\"")
-		}
-		f, err := p.Dim.Parse(sv)
-		if err != nil {
-			return nil, hcl.Diagnostics{attrDiag(r, "Wrong unit for "+p.Name, err.Error())}
-		}
-		return f, nil
-	case steps.QuantityRange:
-		list, ok := stringList(v)
-		if !ok || len(list) != 2 {
-			return bad("a list of two " + p.Dim.Name + "s, low then high, e.g. [\"0.5 d\", \"20 d\"]")
-		}
-		var out [2]float64
-		for i, sv := range list {
-			f, err := p.Dim.Parse(sv)
-			if err != nil {
-				return nil, hcl.Diagnostics{attrDiag(r, "Wrong unit for "+p.Name, err.Error())}
-			}
-			out[i] = f
-		}
-		if !(out[0] < out[1]) {
-			return nil, hcl.Diagnostics{attrDiag(r, "Empty range", fmt.Sprintf("%s: the low end must be below the high end.", p.Name))}
-		}
-		return out, nil
-	case steps.Measurement:
-		sv, ok := str(v)
-		if !ok {
-			return bad("a " + p.Dim.Name + " with its uncertainty and unit, e.g. \"1.0 ± 0.1 " + p.Dim.Base + "\"")
-		}
-		val, sigma, err := p.Dim.ParseMeasurement(sv)
-		if err != nil {
-			return nil, hcl.Diagnostics{attrDiag(r, "Wrong measurement for "+p.Name, err.Error())}
-		}
-		return [2]float64{val, sigma}, nil
-	case steps.StringList:
-		list, ok := stringList(v)
-		if !ok {
-			return bad("a list of strings")
-		}
-		return list, nil
-	case steps.FileList:
-		list, ok := stringList(v)
-		if !ok {
-			sv, isStr := str(v)
-			if !isStr {
-				return bad("a file path or a list of them")
-			}
-			list = []string{sv}
-		}
-		if len(list) == 0 {
-			return nil, hcl.Diagnostics{attrDiag(r, "No files", p.Name+" names no file.")}
-		}
-		var files []*FileInput
-		for _, path := range list {
-			fi, d := w.readFile(path, r)
-			if d != nil {
-				diags = append(diags, d)
-				continue
-			}
-			files = append(files, fi)
-		}
-		s.Files[p.Name] = files
 		return list, diags
-	case steps.StringMap:
-		if v.IsNull() || !(v.Type().IsObjectType() || v.Type().IsMapType()) {
-			return bad("an object of strings, e.g. { time = \"BJD\" }")
+	case steps.CatalogueRow:
+		addr, diags := w.decodeRow(s, *p, expr)
+		row, _ := addr.(string)
+		return steps.Written{Kind: steps.WrittenRow, Str: row}, diags
+	}
+	v, diags := expr.Value(nil) // the library's words are made ours in words.go
+	if diags.HasErrors() {
+		return steps.Written{}, diags
+	}
+	return toWritten(v), nil
+}
+
+// toWritten turns a plain HCL value into what steps read.
+func toWritten(v cty.Value) steps.Written {
+	switch {
+	case v.IsNull() || !v.IsKnown():
+		return steps.Written{Kind: steps.WrittenNull}
+	case v.Type() == cty.Number:
+		f, _ := number(v)
+		return steps.Written{Kind: steps.WrittenNumber, Num: f, Text: v.AsBigFloat().Text('g', -1)}
+	case v.Type() == cty.String:
+		return steps.Written{Kind: steps.WrittenString, Str: v.AsString()}
+	case v.Type() == cty.Bool:
+		return steps.Written{Kind: steps.WrittenBool, Bool: v.True()}
+	case v.Type().IsTupleType() || v.Type().IsListType() || v.Type().IsSetType():
+		out := steps.Written{Kind: steps.WrittenList, List: []steps.Written{}}
+		for it := v.ElementIterator(); it.Next(); {
+			_, e := it.Element()
+			out.List = append(out.List, toWritten(e))
 		}
-		m := map[string]string{}
+		return out
+	case v.Type().IsObjectType() || v.Type().IsMapType():
+		out := steps.Written{Kind: steps.WrittenObject, Object: map[string]steps.Written{}}
 		for it := v.ElementIterator(); it.Next(); {
 			k, e := it.Element()
-			sv, ok := str(e)
-			if !ok {
-				return bad("an object whose values are strings")
-			}
-			m[k.AsString()] = sv
+			out.Object[k.AsString()] = toWritten(e)
 		}
-		return m, nil
+		return out
 	}
-	return nil, hcl.Diagnostics{attrDiag(r, "Unsupported parameter type", p.Type.String())}
+	return steps.Written{Kind: steps.WrittenNull}
 }
 
 // refAddr reads a step reference written as kind.label.
-func refAddr(expr hcl.Expression) (string, *hcl.Diagnostic) {
+func refAddr(name string, expr hcl.Expression) (string, *hcl.Diagnostic) {
 	if v, d := expr.Value(nil); !d.HasErrors() {
 		if s, ok := str(v); ok && strings.Count(s, ".") == 1 {
-			return "", attrDiag(expr.Range(), "Quoted step reference",
-				fmt.Sprintf("Write the reference without quotes: %s", clip(s)))
+			return "", ownDiag(expr.Range(), fmt.Sprintf(
+				"A step reference is written without quotes. Write %s, not %q.", clip(s), clip(s)))
 		}
 	}
 	tr, diags := hcl.AbsTraversalForExpr(expr)
-	if diags.HasErrors() || len(tr) != 2 {
-		return "", attrDiag(expr.Range(), "Invalid step reference", "A reference names a whole step as kind.label, e.g. detrend.quiet.")
-	}
-	at, ok := tr[1].(hcl.TraverseAttr)
-	if !ok {
-		return "", attrDiag(expr.Range(), "Invalid step reference", "A reference names a whole step as kind.label, e.g. detrend.quiet.")
-	}
-	return tr.RootName() + "." + at.Name, nil
-}
-
-func stringList(v cty.Value) ([]string, bool) {
-	if v.IsNull() || !(v.Type().IsTupleType() || v.Type().IsListType()) {
-		return nil, false
-	}
-	out := []string{}
-	for it := v.ElementIterator(); it.Next(); {
-		_, e := it.Element()
-		s, ok := str(e)
-		if !ok {
-			return nil, false
+	if !diags.HasErrors() && len(tr) == 2 {
+		if at, ok := tr[1].(hcl.TraverseAttr); ok {
+			return tr.RootName() + "." + at.Name, nil
 		}
-		out = append(out, s)
 	}
-	return out, true
-}
-
-func describe(v cty.Value) string {
-	switch {
-	case v.IsNull():
-		return "null"
-	case v.Type() == cty.String:
-		return "the string " + quote(v.AsString())
-	case v.Type() == cty.Number:
-		return "the number " + v.AsBigFloat().Text('g', -1)
-	case v.Type() == cty.Bool:
-		return "a bool"
-	case v.Type().IsTupleType() || v.Type().IsListType():
-		return "a list"
-	case v.Type().IsObjectType() || v.Type().IsMapType():
-		return "an object"
-	}
-	return v.Type().FriendlyName()
+	return "", ownDiag(expr.Range(), name+" takes a step, written kind.label, e.g. detrend.quiet.")
 }
 
 func contains(list []string, s string) bool {
@@ -384,12 +304,4 @@ func contains(list []string, s string) bool {
 		}
 	}
 	return false
-}
-
-func quoteAll(list []string) []string {
-	out := make([]string, len(list))
-	for i, s := range list {
-		out[i] = fmt.Sprintf("%q", s)
-	}
-	return out
 }

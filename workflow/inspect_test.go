@@ -13,7 +13,7 @@ import (
 type reader struct{ source }
 
 func (reader) Name() string { return "reader" }
-func (r reader) Inspect(cfg any, in steps.Inputs) error {
+func (r reader) Inspect(cfg *sourceConfig, in steps.Inputs) error {
 	_, err := r.Run(context.Background(), cfg, in, steps.Env{})
 	return err
 }
@@ -21,8 +21,8 @@ func (r reader) Inspect(cfg any, in steps.Inputs) error {
 // panicky inspects by panicking, as a faulty kind might.
 type panicky struct{ source }
 
-func (panicky) Name() string                    { return "panicky" }
-func (panicky) Inspect(any, steps.Inputs) error { panic("boom") }
+func (panicky) Name() string                              { return "panicky" }
+func (panicky) Inspect(*sourceConfig, steps.Inputs) error { panic("boom") }
 
 // Inspect hands each inspecting step the bytes Run would get and collects what it refuses
 // (file and line, as Run says it), leaves the other kinds alone, and turns a panic into an
@@ -48,7 +48,7 @@ panicky "odd" {
 }
 `})
 	reg := toyRegistry()
-	reg["reader"], reg["panicky"] = reader{}, panicky{}
+	reg["reader"], reg["panicky"] = steps.Define[sourceConfig](reader{}), steps.Define[sourceConfig](panicky{})
 	w, diags := LoadWith(filepath.Join(p.dir, "analysis.hcl"), reg, nil)
 	if diags.HasErrors() {
 		t.Fatal(diags)

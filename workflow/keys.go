@@ -4,11 +4,7 @@ import (
 	"crypto/sha256"
 	"encoding/binary"
 	"fmt"
-	"math"
 	"runtime"
-	"sort"
-	"strconv"
-	"strings"
 
 	"dipline/cache"
 	"dipline/steps"
@@ -29,10 +25,47 @@ func (k *keyRecord) str(s string) {
 	k.buf = binary.LittleEndian.AppendUint64(k.buf, uint64(len(s)))
 	k.buf = append(k.buf, s...)
 }
-func (k *keyRecord) u64(v uint64)     { k.buf = binary.LittleEndian.AppendUint64(k.buf, v) }
-func (k *keyRecord) f64(v float64)    { k.u64(steps.FloatBits(v)) }
-func (k *keyRecord) raw(b [32]byte)   { k.buf = append(k.buf, b[:]...) }
-func (k *keyRecord) tag(t steps.Type) { k.u64(uint64(t) + 1) }
+func (k *keyRecord) u64(v uint64)   { k.buf = binary.LittleEndian.AppendUint64(k.buf, v) }
+func (k *keyRecord) f64(v float64)  { k.u64(steps.FloatBits(v)) }
+func (k *keyRecord) raw(b [32]byte) { k.buf = append(k.buf, b[:]...) }
+
+// stepKeyWriter lends a step's key record to its configuration's parameter types
+// (steps.KeyWriter), and encodes the engine's inputs they ask for.
+type stepKeyWriter struct {
+	*keyRecord
+	s        *Step
+	upstream map[string]cache.ResultKey
+}
+
+func (k stepKeyWriter) Str(s string)  { k.str(s) }
+func (k stepKeyWriter) U64(v uint64)  { k.u64(v) }
+func (k stepKeyWriter) F64(v float64) { k.f64(v) }
+
+// Inputs encodes what a reference, file or row parameter stands for: the result keys of
+// the referenced steps, the digests of the files, the values of the row's asked-for columns.
+func (k stepKeyWriter) Inputs(param string) error {
+	if in := k.s.Rows[param]; in != nil {
+		k.row(in)
+		return nil
+	}
+	if files, ok := k.s.Files[param]; ok {
+		k.u64(uint64(len(files)))
+		for _, f := range files {
+			k.raw(f.Digest)
+		}
+		return nil
+	}
+	addrs := k.s.Refs[param]
+	k.u64(uint64(len(addrs)))
+	for _, a := range addrs {
+		rk, ok := k.upstream[a]
+		if !ok {
+			return fmt.Errorf("%s: no result key yet for %s", k.s.Addr, a)
+		}
+		k.raw(rk)
+	}
+	return nil
+}
 
 // StepKey computes a step's key from its kind and version, its decoded configuration with
 // defaults applied, the result keys of the steps it references, the digests of the files it
@@ -44,70 +77,8 @@ func (w *Workflow) StepKey(s *Step, upstream map[string]cache.ResultKey) (cache.
 	k.str(s.Kind.Name())
 	k.u64(uint64(s.Kind.Version()))
 	k.str(numericsTag)
-	params := append([]steps.Param(nil), s.Kind.Params()...)
-	sort.Slice(params, func(i, j int) bool { return params[i].Name < params[j].Name })
-	for _, p := range params {
-		k.str(p.Name)
-		v, ok := s.Values[p.Name]
-		if !ok {
-			k.u64(0) // absent, no default
-			continue
-		}
-		k.tag(p.Type)
-		switch p.Type {
-		case steps.Number, steps.Quantity:
-			k.f64(v.(float64))
-		case steps.Integer:
-			k.u64(uint64(v.(int64)))
-		case steps.Bool:
-			if v.(bool) {
-				k.u64(1)
-			} else {
-				k.u64(0)
-			}
-		case steps.String:
-			k.str(v.(string))
-		case steps.CatalogueRow:
-			k.row(s.Rows[p.Name])
-		case steps.QuantityRange, steps.Measurement:
-			r := v.([2]float64)
-			k.f64(r[0])
-			k.f64(r[1])
-		case steps.StringList:
-			list := v.([]string)
-			k.u64(uint64(len(list)))
-			for _, x := range list {
-				k.str(x)
-			}
-		case steps.StringMap:
-			m := v.(map[string]string)
-			keys := make([]string, 0, len(m))
-			for x := range m {
-				keys = append(keys, x)
-			}
-			sort.Strings(keys)
-			k.u64(uint64(len(keys)))
-			for _, x := range keys {
-				k.str(x)
-				k.str(m[x])
-			}
-		case steps.FileList:
-			files := s.Files[p.Name]
-			k.u64(uint64(len(files)))
-			for _, f := range files {
-				k.raw(f.Digest)
-			}
-		case steps.Ref, steps.RefList:
-			addrs := s.Refs[p.Name]
-			k.u64(uint64(len(addrs)))
-			for _, a := range addrs {
-				rk, ok := upstream[a]
-				if !ok {
-					return cache.StepKey{}, fmt.Errorf("%s: no result key yet for %s", s.Addr, a)
-				}
-				k.raw(rk)
-			}
-		}
+	if err := s.Kind.Schema().Key(stepKeyWriter{k, s, upstream}, s.Config); err != nil {
+		return cache.StepKey{}, err
 	}
 	if s.Kind.Random() {
 		k.str("seed")
@@ -125,67 +96,8 @@ func (w *Workflow) StepSeed(s *Step) uint64 {
 }
 
 // Rendered returns each attribute's decoded value as text for people: quantities in
-// their base unit, references as addresses, files as paths. Provenance records keep it so
+// their base unit, references as written, files as paths. Provenance records keep it so
 // that a later run can say which attribute changed.
 func (s *Step) Rendered() map[string]string {
-	out := map[string]string{}
-	for _, p := range s.Kind.Params() {
-		v, ok := s.Values[p.Name]
-		if !ok {
-			continue
-		}
-		out[p.Name] = render(p, v)
-	}
-	return out
-}
-
-func render(p steps.Param, v any) string {
-	g := func(f float64) string {
-		if a := math.Abs(f); a == 0 || (a >= 1e-4 && a < 1e15) {
-			return strconv.FormatFloat(f, 'f', -1, 64) // 2460000, not 2.46e+06
-		}
-		return strconv.FormatFloat(f, 'g', -1, 64)
-	}
-	switch x := v.(type) {
-	case float64:
-		if p.Dim != nil {
-			return g(x) + " " + p.Dim.Base
-		}
-		return g(x)
-	case int64:
-		return strconv.FormatInt(x, 10)
-	case bool:
-		return strconv.FormatBool(x)
-	case string:
-		if p.Type == steps.Ref || p.Type == steps.CatalogueRow {
-			return x
-		}
-		return strconv.Quote(x)
-	case [2]float64:
-		if p.Type == steps.Measurement {
-			return g(x[0]) + " ± " + g(x[1]) + " " + p.Dim.Base
-		}
-		return "[" + g(x[0]) + " " + p.Dim.Base + ", " + g(x[1]) + " " + p.Dim.Base + "]"
-	case []string:
-		q := make([]string, len(x))
-		for i, s := range x {
-			q[i] = s
-			if p.Type != steps.RefList {
-				q[i] = strconv.Quote(s)
-			}
-		}
-		return "[" + strings.Join(q, ", ") + "]"
-	case map[string]string:
-		keys := make([]string, 0, len(x))
-		for k := range x {
-			keys = append(keys, k)
-		}
-		sort.Strings(keys)
-		parts := make([]string, len(keys))
-		for i, k := range keys {
-			parts[i] = k + " = " + strconv.Quote(x[k])
-		}
-		return "{ " + strings.Join(parts, ", ") + " }"
-	}
-	return fmt.Sprint(v)
+	return s.Kind.Schema().Render(s.Config)
 }

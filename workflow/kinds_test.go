@@ -11,7 +11,6 @@ import (
 	"sync"
 
 	"dipline/steps"
-	"dipline/steps/units"
 )
 
 // Toy step kinds that exercise the engine without any astronomy.
@@ -68,20 +67,20 @@ type source struct{ toyBase }
 
 func (source) Name() string { return "source" }
 func (source) Doc() string  { return "sums numbers from files" }
-func (source) Params() []steps.Param {
-	return []steps.Param{
-		{Name: "files", Type: steps.FileList},
-		{Name: "scale", Type: steps.Number, Default: 1.0},
-		{Name: "label", Type: steps.String, Optional: true, Choices: []string{"alpha", "beta"}},
-	}
+
+type sourceConfig struct {
+	Files steps.Files `step:"files,required"`
+	Scale float64     `step:"scale" default:"1"`
+	Label *string     `step:"label" choices:"alpha|beta"`
 }
-func (source) Prepare(v steps.Values) (any, error) {
-	if v.Float("scale") == 0 {
-		return nil, steps.Attrf("scale", "must not be zero")
+
+func (source) Check(c *sourceConfig) error {
+	if c.Scale == 0 {
+		return steps.Attrf("scale", "must not be zero")
 	}
-	return v, nil
+	return nil
 }
-func (source) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
+func (source) Run(ctx context.Context, cfg *sourceConfig, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
 	calls.add("source")
 	sum := 0.0
 	for _, f := range in.Files["files"] {
@@ -93,7 +92,7 @@ func (source) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env) 
 			sum += x
 		}
 	}
-	return toyNum(sum * cfg.(steps.Values).Float("scale")), nil
+	return toyNum(sum * cfg.Scale), nil
 }
 
 // combine adds its inputs and an offset given as a time.
@@ -101,17 +100,17 @@ type combine struct{ toyBase }
 
 func (combine) Name() string { return "combine" }
 func (combine) Doc() string  { return "adds inputs" }
-func (combine) Params() []steps.Param {
-	return []steps.Param{
-		{Name: "inputs", Type: steps.RefList, Kinds: []string{"source", "combine", "floor", "noisy"}},
-		{Name: "offset", Type: steps.Quantity, Dim: units.Time, Default: 0.0},
-		{Name: "window", Type: steps.QuantityRange, Dim: units.Time, Optional: true},
-	}
+
+type combineConfig struct {
+	Inputs []steps.Ref `step:"inputs,required" accepts:"source,combine,floor,noisy"`
+	Offset float64     `step:"offset" dim:"time" default:"0 d"`
+	Window *[2]float64 `step:"window" dim:"time"`
 }
-func (combine) Prepare(v steps.Values) (any, error) { return v, nil }
-func (combine) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
+
+func (combine) Check(*combineConfig) error { return nil }
+func (combine) Run(ctx context.Context, cfg *combineConfig, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
 	calls.add("combine")
-	sum := cfg.(steps.Values).Float("offset")
+	sum := cfg.Offset
 	for _, a := range in.Refs["inputs"] {
 		sum += float64(a.(toyNum))
 	}
@@ -123,11 +122,19 @@ type floor struct{ toyBase }
 
 func (floor) Name() string { return "floor" }
 func (floor) Doc() string  { return "rounds down" }
-func (floor) Params() []steps.Param {
-	return []steps.Param{{Name: "input", Type: steps.Ref, Kinds: []string{"source", "combine"}}}
+
+// oneInput is the configuration of a toy kind that reads one step of the toy kinds that
+// give a number.
+type oneInput struct {
+	Input steps.Ref `step:"input,required"`
 }
-func (floor) Prepare(v steps.Values) (any, error) { return v, nil }
-func (floor) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
+
+type floorConfig struct {
+	Input steps.Ref `step:"input,required" accepts:"source,combine"`
+}
+
+func (floor) Check(*floorConfig) error { return nil }
+func (floor) Run(ctx context.Context, cfg *floorConfig, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
 	calls.add("floor")
 	return toyNum(math.Floor(float64(in.Ref("input").(toyNum)))), nil
 }
@@ -135,14 +142,11 @@ func (floor) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env) (
 // noisy adds a number drawn from its seed.
 type noisy struct{ toyBase }
 
-func (noisy) Name() string { return "noisy" }
-func (noisy) Doc() string  { return "adds seeded noise" }
-func (noisy) Random() bool { return true }
-func (noisy) Params() []steps.Param {
-	return []steps.Param{{Name: "input", Type: steps.Ref}}
-}
-func (noisy) Prepare(v steps.Values) (any, error) { return v, nil }
-func (noisy) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
+func (noisy) Name() string          { return "noisy" }
+func (noisy) Doc() string           { return "adds seeded noise" }
+func (noisy) Random() bool          { return true }
+func (noisy) Check(*oneInput) error { return nil }
+func (noisy) Run(ctx context.Context, cfg *oneInput, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
 	calls.add("noisy")
 	return toyNum(float64(in.Ref("input").(toyNum)) + float64(env.Seed%1000)/1000), nil
 }
@@ -156,16 +160,16 @@ var troubleHook func()
 
 func (trouble) Name() string { return "trouble" }
 func (trouble) Doc() string  { return "misbehaves" }
-func (trouble) Params() []steps.Param {
-	return []steps.Param{
-		{Name: "mode", Type: steps.String, Choices: []string{"fail", "bad_input", "attr", "panic", "block", "hook"}},
-		{Name: "after", Type: steps.RefList, Optional: true},
-	}
+
+type troubleConfig struct {
+	Mode  string      `step:"mode,required" choices:"fail|bad_input|attr|panic|block|hook"`
+	After []steps.Ref `step:"after"`
 }
-func (trouble) Prepare(v steps.Values) (any, error) { return v, nil }
-func (trouble) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
+
+func (trouble) Check(*troubleConfig) error { return nil }
+func (trouble) Run(ctx context.Context, cfg *troubleConfig, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
 	calls.add("trouble")
-	switch cfg.(steps.Values).Str("mode") {
+	switch cfg.Mode {
 	case "fail":
 		return nil, fmt.Errorf("told to fail")
 	case "bad_input":
@@ -188,12 +192,13 @@ func (trouble) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env)
 type lookup struct{ toyBase }
 
 type lookupConfig struct {
-	withTeff bool
-	offset   [2]float64
+	Row      steps.RowRef      `step:"row,required"`
+	WithTeff bool              `step:"with_teff" default:"false"`
+	Offset   steps.Measurement `step:"offset" dim:"time" default:"0 ± 0 d"`
 }
 
-func (c lookupConfig) Columns(param string) (required, optional []string) {
-	if c.withTeff {
+func (c *lookupConfig) Columns(param string) (required, optional []string) {
+	if c.WithTeff {
 		return []string{"Parallax"}, []string{"teff"}
 	}
 	return []string{"Parallax"}, nil
@@ -221,28 +226,18 @@ func (lookup) Decode(b []byte) (steps.Artifact, error) {
 	return toyEstimate{f(0), f(1), f(2)}, nil
 }
 
-func (lookup) Name() string { return "lookup" }
-func (lookup) Doc() string  { return "reads a catalogue row" }
-func (lookup) Params() []steps.Param {
-	return []steps.Param{
-		{Name: "row", Type: steps.CatalogueRow},
-		{Name: "with_teff", Type: steps.Bool, Default: false},
-		{Name: "offset", Type: steps.Measurement, Dim: units.Time, Default: [2]float64{0, 0}},
-	}
-}
-func (lookup) Prepare(v steps.Values) (any, error) {
-	return lookupConfig{withTeff: v.Bool("with_teff"), offset: [2]float64(v["offset"].([2]float64))}, nil
-}
-func (lookup) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
+func (lookup) Name() string              { return "lookup" }
+func (lookup) Doc() string               { return "reads a catalogue row" }
+func (lookup) Check(*lookupConfig) error { return nil }
+func (lookup) Run(ctx context.Context, c *lookupConfig, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
 	calls.add("lookup")
-	c := cfg.(lookupConfig)
 	row := in.Rows["row"]
 	plx, ok := row.Get("parallax")
 	if !ok {
 		return nil, steps.BadInputf("%s: blank", row.Where("parallax"))
 	}
 	teff, _ := row.Get("teff")
-	return toyEstimate{value: plx + teff + c.offset[0] + c.offset[1], sigma: 0.5, mc: 0.03}, nil
+	return toyEstimate{value: plx + teff + c.Offset.Value + c.Offset.Sigma, sigma: 0.5, mc: 0.03}, nil
 }
 
 // judged is the artifact of the judge kind: a number with a caution when it is odd and a
@@ -273,25 +268,24 @@ func (j judged) Verdicts() []steps.Verdict {
 // judge passes its input on as a judged number.
 type judge struct{ toyBase }
 
-func (judge) Name() string { return "judge" }
-func (judge) Doc() string  { return "judges a number" }
-func (judge) Params() []steps.Param {
-	return []steps.Param{{Name: "input", Type: steps.Ref}}
-}
-func (judge) Prepare(v steps.Values) (any, error) { return v, nil }
+func (judge) Name() string          { return "judge" }
+func (judge) Doc() string           { return "judges a number" }
+func (judge) Check(*oneInput) error { return nil }
 func (judge) Decode(b []byte) (steps.Artifact, error) {
 	if len(b) != 12 || string(b[:4]) != "jdg1" {
 		return nil, errors.New("not a judged artifact")
 	}
 	return judged(math.Float64frombits(binary.LittleEndian.Uint64(b[4:]))), nil
 }
-func (judge) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
+func (judge) Run(ctx context.Context, cfg *oneInput, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
 	calls.add("judge")
 	return judged(in.Ref("input").Figures()[0].Value), nil
 }
 
 func toyRegistry() steps.Registry {
-	r, err := steps.NewRegistry(source{}, combine{}, floor{}, noisy{}, trouble{}, lookup{}, judge{})
+	r, err := steps.NewRegistry(steps.Define[sourceConfig](source{}), steps.Define[combineConfig](combine{}),
+		steps.Define[floorConfig](floor{}), steps.Define[oneInput](noisy{}), steps.Define[troubleConfig](trouble{}),
+		steps.Define[lookupConfig](lookup{}), steps.Define[oneInput](judge{}))
 	if err != nil {
 		panic(err)
 	}

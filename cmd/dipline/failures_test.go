@@ -39,17 +39,19 @@ func (a toyArtifact) Verdicts() []steps.Verdict {
 	}
 }
 
+// afterConfig is the configuration of the command line's toy kinds: the steps to run after.
+type afterConfig struct {
+	After []steps.Ref `step:"after"`
+}
+
 type toyKind struct{ name string }
 
-func (k toyKind) Name() string { return k.name }
-func (k toyKind) Version() int { return 1 }
-func (k toyKind) Doc() string  { return "a toy for the command line's tests" }
-func (k toyKind) Random() bool { return false }
-func (k toyKind) Params() []steps.Param {
-	return []steps.Param{{Name: "after", Type: steps.RefList, Optional: true}}
-}
-func (k toyKind) Prepare(v steps.Values) (any, error) { return v, nil }
-func (k toyKind) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
+func (k toyKind) Name() string             { return k.name }
+func (k toyKind) Version() int             { return 1 }
+func (k toyKind) Doc() string              { return "a toy for the command line's tests" }
+func (k toyKind) Random() bool             { return false }
+func (k toyKind) Check(*afterConfig) error { return nil }
+func (k toyKind) Run(ctx context.Context, cfg *afterConfig, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
 	if k.name == "trouble" {
 		var m map[string]int
 		m["x"] = 1 // a deliberate nil-map panic
@@ -71,7 +73,7 @@ func withToys(t *testing.T) {
 		if err != nil {
 			return nil, err
 		}
-		r["trouble"], r["judge"] = toyKind{"trouble"}, toyKind{"judge"}
+		r["trouble"], r["judge"] = steps.Define[afterConfig](toyKind{"trouble"}), steps.Define[afterConfig](toyKind{"judge"})
 		return r, nil
 	}
 }
@@ -157,7 +159,7 @@ func TestALastStepThatFailsKeepsTheOthersResults(t *testing.T) {
 	})
 	t.Run("the results file has the finished steps and the failure", func(t *testing.T) {
 		rf := f.results()
-		if rf.Schema != "dipline-results/2" {
+		if rf.Schema != "dipline-results/3" {
 			t.Errorf("schema %q", rf.Schema)
 		}
 		s := stepIn(t, rf, "search.dips")
@@ -207,8 +209,8 @@ func TestAPanickingStepExitsOneAndKeepsTheOthersResults(t *testing.T) {
 	if code != exitFailed {
 		t.Fatalf("exit %d, want %d\n%s\n%s", code, exitFailed, out, errs)
 	}
-	if !strings.Contains(errs, "trouble.x failed: internal error (please report it)") {
-		t.Errorf("stderr does not report the internal error:\n%s", errs)
+	if !strings.Contains(errs, "trouble.x failed: a fault in dipline, not in the workflow or its data (please report it): panic: ") {
+		t.Errorf("stderr does not report the fault of the program:\n%s", errs)
 	}
 	if p := figure(t, out, "signal1.period"); math.Abs(p-2.5) > 0.0125 {
 		t.Errorf("signal1.period %v, want 2.5", p)

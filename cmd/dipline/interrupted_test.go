@@ -19,15 +19,12 @@ import (
 // it is killed.
 type stall struct{}
 
-func (stall) Name() string { return "stall" }
-func (stall) Version() int { return 1 }
-func (stall) Doc() string  { return "waits until the run is stopped" }
-func (stall) Random() bool { return false }
-func (stall) Params() []steps.Param {
-	return []steps.Param{{Name: "after", Type: steps.RefList, Optional: true}}
-}
-func (stall) Prepare(v steps.Values) (any, error) { return v, nil }
-func (stall) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
+func (stall) Name() string             { return "stall" }
+func (stall) Version() int             { return 1 }
+func (stall) Doc() string              { return "waits until the run is stopped" }
+func (stall) Random() bool             { return false }
+func (stall) Check(*afterConfig) error { return nil }
+func (stall) Run(ctx context.Context, cfg *afterConfig, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
 	<-ctx.Done()
 	return nil, ctx.Err()
 }
@@ -42,7 +39,7 @@ const childEnv = "DIPLINE_TEST_CHILD_DIR"
 func withStall() (steps.Registry, error) {
 	r, err := kinds.Registry()
 	if err == nil {
-		r["stall"] = stall{}
+		r["stall"] = steps.Define[afterConfig](stall{})
 	}
 	return r, err
 }
@@ -94,7 +91,7 @@ func TestAKilledRunsResultsSurviveAPrune(t *testing.T) {
 		t.Fatalf("prune: exit %d\n%s%s", code, out, errs)
 	}
 	code, out, _ = f.dipline("pending")
-	if code != exitOK || !strings.Contains(out, "reuse      detrend.quiet") || !strings.Contains(out, "reuse      photometry.raw") {
+	if code != exitOK || !strings.Contains(out, "stored      detrend.quiet") || !strings.Contains(out, "stored      photometry.raw") {
 		t.Errorf("the killed run's stored results did not survive the prune (exit %d):\n%s", code, out)
 	}
 	t.Run("with no time to spare they go", func(t *testing.T) {
@@ -102,7 +99,7 @@ func TestAKilledRunsResultsSurviveAPrune(t *testing.T) {
 		if code != exitOK || !strings.Contains(out, "dropped 1 runs") {
 			t.Fatalf("prune: exit %d\n%s%s", code, out, errs)
 		}
-		if _, out, _ := f.dipline("pending"); !strings.Contains(out, "recompute  detrend.quiet") {
+		if _, out, _ := f.dipline("pending"); !strings.Contains(out, "to compute  photometry.raw") || !strings.Contains(out, "depends     detrend.quiet") {
 			t.Errorf("the results survived a prune that spares nothing:\n%s", out)
 		}
 	})
@@ -117,7 +114,7 @@ func waitForStep(storePath, step string, exited <-chan struct{}) (cache.Run, boo
 			runs, _ := s.Runs()
 			for _, r := range runs {
 				for _, st := range r.Steps {
-					if !r.HasEnded() && st.Address == step && st.Status == "computed" {
+					if !r.HasEnded() && st.Step == step && st.Status == "computed" {
 						return r, true
 					}
 				}

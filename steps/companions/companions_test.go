@@ -18,14 +18,20 @@ B,    Ks,   1.52, 0.05,     0.41,       0.31,   0.02
 "C 2", Ks,  3.90, 0.12,     1.87,       ,
 `
 
+// block is what a companions block writes: the given attributes, and file when they name
+// none.
+func block(set map[string]any, file string) map[string]any {
+	b := map[string]any{"file": []string{file}}
+	for k, v := range set {
+		b[k] = v
+	}
+	return b
+}
+
 func run(t *testing.T, set map[string]any, data string) (*List, []string, error) {
 	t.Helper()
-	v := steptest.Values(Kind{}, set)
-	if _, ok := set["file"]; !ok {
-		v["file"] = []string{"imaging.csv"}
-	}
 	in := steps.Inputs{Files: map[string][]steps.File{"file": {{Name: "imaging.csv", Data: []byte(data)}}}}
-	art, notes, err := steptest.Run(Kind{}, v, in, nil)
+	art, notes, err := steptest.Run(New(), block(set, "imaging.csv"), in, nil)
 	if err != nil {
 		return nil, notes, err
 	}
@@ -149,7 +155,7 @@ func TestBadTablesAreRefusedWithTheirPlace(t *testing.T) {
 	}
 }
 
-func TestPrepareRefusesBadAttributes(t *testing.T) {
+func TestCheckRefusesBadAttributes(t *testing.T) {
 	cases := []struct {
 		name string
 		set  map[string]any
@@ -161,16 +167,21 @@ func TestPrepareRefusesBadAttributes(t *testing.T) {
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
-			v := steptest.Values(Kind{}, c.set)
-			if _, ok := c.set["file"]; !ok {
-				v["file"] = []string{"x.csv"}
-			}
-			_, err := Kind{}.Prepare(v)
+			_, err := steptest.Config(New(), block(c.set, "x.csv"))
 			if err == nil || !strings.Contains(err.Error(), c.want) {
 				t.Errorf("error %v, want %q", err, c.want)
 			}
 		})
 	}
+	t.Run("written column names are trimmed and put at their fields", func(t *testing.T) {
+		cfg, err := steptest.Config(New(), block(map[string]any{"columns": map[string]string{"dmag": " dKs ", "name": "id"}}, "x.csv"))
+		if err != nil {
+			t.Fatal(err)
+		}
+		if got := cfg.(*Config).Columns; got != (Columns{FieldName: "id", FieldDMag: "dKs"}) {
+			t.Fatalf("columns %q", got)
+		}
+	})
 }
 
 func TestEncodingRoundTripsAndRejectsDamage(t *testing.T) {

@@ -6,14 +6,13 @@
 // dilution (the dilution step does); an empty table means high-resolution imaging found no
 // companion.
 //
-// Main entry points: Kind (register it with the engine) and Parse (the table reader, usable
+// Main entry points: New (register it with the engine) and Parse (the table reader, usable
 // as a library). The artifact, *List, implements stellar.CompanionSource.
 package companions
 
 import (
 	"context"
 	"errors"
-	"fmt"
 	"sort"
 	"strings"
 
@@ -21,11 +20,14 @@ import (
 	"dipline/steps/internal/stellar"
 )
 
-// Kind is the companions step kind.
+// Kind is the companions step kind, written against its Config; New makes it the engine's.
 type Kind struct{}
 
+// New returns the companions kind for the engine's registry.
+func New() steps.Kind { return steps.Define[Config](Kind{}) }
+
 var (
-	_ steps.Kind              = Kind{}
+	_ steps.Typed[Config]     = Kind{}
 	_ steps.Artifact          = (*List)(nil)
 	_ stellar.CompanionSource = (*List)(nil)
 )
@@ -33,44 +35,39 @@ var (
 // version is bumped whenever the parsed values or the encoding change.
 const version = 1
 
-// Name implements steps.Kind.
+// Name implements steps.Typed.
 func (Kind) Name() string { return "companions" }
 
-// Version implements steps.Kind.
+// Version implements steps.Typed.
 func (Kind) Version() int { return version }
 
-// Random implements steps.Kind: reading a table draws nothing.
+// Random implements steps.Typed: reading a table draws nothing.
 func (Kind) Random() bool { return false }
 
-// Doc implements steps.Kind.
+// Doc implements steps.Typed.
 func (Kind) Doc() string {
 	return "Reads the stars found near the target (magnitude difference, band, separation) from a table, for the star and dilution steps."
 }
 
-// Params implements steps.Kind.
-func (Kind) Params() []steps.Param {
-	return []steps.Param{
-		{Name: "file", Type: steps.FileList,
-			Doc: "one table, comma, tab or whitespace separated with a header row: name, band, dmag, dmag_err, separation (arcsec), and optionally radius, radius_err (R_sun); a cell \"-\" is blank; a header alone means no companion was found"},
-		{Name: "columns", Type: steps.StringMap, Optional: true,
-			Doc: "column names by field (keys name, band, dmag, dmag_err, separation, radius, radius_err) where the table's differ, matched without regard to case"},
-	}
-}
-
-// Config is the decoded configuration of a companions block.
+// Config is what a companions block may say. Check completes Columns, which Parse reads.
 type Config struct {
+	File steps.Files `step:"file,required" doc:"one table, comma, tab or whitespace separated with a header row: name, band, dmag, dmag_err, separation (arcsec), and optionally radius, radius_err (R_sun); a cell \"-\" is blank; a header alone means no companion was found"`
+	// ColumnNames are the column names the block gives, by field key; Check reads them into
+	// Columns.
+	ColumnNames map[string]string `step:"columns" doc:"column names by field (keys name, band, dmag, dmag_err, separation, radius, radius_err) where the table's differ, matched without regard to case"`
+
+	// Columns are the column names by field, from ColumnNames; "" means the field's key.
 	Columns Columns
 }
 
-// Prepare implements steps.Kind.
-func (Kind) Prepare(v steps.Values) (any, error) {
-	var c Config
-	if n := len(v.Strs("file")); n != 1 {
-		return nil, steps.Attrf("file", "give exactly one table, not %d", n)
+// Check implements steps.Typed: one table, and columns keyed by known fields.
+func (Kind) Check(c *Config) error {
+	if n := len(c.File); n != 1 {
+		return steps.Attrf("file", "give exactly one table, not %d", n)
 	}
-	m := v.Map("columns")
-	keys := make([]string, 0, len(m))
-	for k := range m {
+	c.Columns = Columns{}
+	keys := make([]string, 0, len(c.ColumnNames))
+	for k := range c.ColumnNames {
 		keys = append(keys, k)
 	}
 	sort.Strings(keys)
@@ -82,31 +79,27 @@ func (Kind) Prepare(v steps.Values) (any, error) {
 			}
 		}
 		if f < 0 {
-			return nil, steps.Attrf("columns", "unknown key %q; the keys are %s", k, strings.Join(fieldKeys[:], ", "))
+			return steps.Attrf("columns", "unknown key %q; the keys are %s", k, strings.Join(fieldKeys[:], ", "))
 		}
-		name := strings.TrimSpace(m[k])
+		name := strings.TrimSpace(c.ColumnNames[k])
 		if name == "" {
-			return nil, steps.Attrf("columns", "%s: empty column name", k)
+			return steps.Attrf("columns", "%s: empty column name", k)
 		}
 		c.Columns[f] = name
 	}
-	return c, nil
+	return nil
 }
 
 // Inspect reads the files as Run does and returns what Run would refuse, so that
 // `dipline check` catches a bad row before anything runs. Reading is all this kind does,
 // so the inspection is the run itself, its result discarded.
-func (k Kind) Inspect(cfg any, in steps.Inputs) error {
-	_, err := k.Run(context.Background(), cfg, in, steps.Env{})
+func (k Kind) Inspect(c *Config, in steps.Inputs) error {
+	_, err := k.Run(context.Background(), c, in, steps.Env{})
 	return err
 }
 
-// Run implements steps.Kind: it parses the one file.
-func (Kind) Run(ctx context.Context, cfgAny any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
-	cfg, ok := cfgAny.(Config)
-	if !ok {
-		return nil, fmt.Errorf("companions: configuration of type %T", cfgAny)
-	}
+// Run implements steps.Typed: it parses the one file.
+func (Kind) Run(ctx context.Context, cfg *Config, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}

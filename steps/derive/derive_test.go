@@ -528,7 +528,7 @@ func TestDisjointDensitiesGiveProvisionalFigures(t *testing.T) {
 	const k, period, fitRho, starRho = 0.03, 5.0, 50.0, 1.41
 	post := posterior(400, []planetTruth{{period: period, k: k, sdK: 1e-4, b: 0.3, sdB: 0.02}}, gaussLnRho(math.Log(fitRho), 0.1), 7)
 	star := gaussStar(2000, math.Log(starRho), 0.05, 8)
-	art, _, err := steptest.Run(Kind{}, steptest.Values(Kind{}, map[string]any{"draws": int64(4000)}),
+	art, _, err := steptest.Run(New(), map[string]any{"draws": 4000},
 		steps.Inputs{Refs: map[string][]steps.Artifact{"fit": {post}, "star": {starArtifact{star}}}}, nil)
 	if err != nil {
 		t.Fatalf("disjoint densities failed the step: %v", err)
@@ -686,7 +686,7 @@ func TestBadInputsAreInputErrors(t *testing.T) {
 	}
 }
 
-func TestPrepareNamesTheAttribute(t *testing.T) {
+func TestCheckNamesTheAttribute(t *testing.T) {
 	cases := []struct {
 		name string
 		set  map[string]any
@@ -694,29 +694,43 @@ func TestPrepareNamesTheAttribute(t *testing.T) {
 	}{
 		{"an albedo of one is refused", map[string]any{"albedo": 1.0}, "albedo"},
 		{"an unknown redistribution is refused", map[string]any{"redistribution": "half"}, "redistribution"},
-		{"too few draws are refused", map[string]any{"draws": int64(10)}, "draws"},
+		{"too few draws are refused", map[string]any{"draws": 10}, "draws"},
 		{"a mass without an error is refused", map[string]any{"masses": map[string]string{"b": "4 M_earth"}}, "masses"},
 		{"a negative ESS threshold is refused", map[string]any{"ess_threshold": -1.0}, "ess_threshold"},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
-			_, err := Kind{}.Prepare(steptest.Values(Kind{}, c.set))
+			_, err := steptest.Config(New(), c.set)
 			var ae *steps.AttrError
 			if !errors.As(err, &ae) || ae.Attr != c.attr {
 				t.Errorf("error %v, want one on %s", err, c.attr)
 			}
 		})
 	}
-	cfg, err := Kind{}.Prepare(steptest.Values(Kind{}, map[string]any{"masses": map[string]string{"b": "4.1 ± 0.6 M_earth"}}))
+	cfg, err := steptest.Config(New(), map[string]any{"masses": map[string]string{"b": "4.1 ± 0.6 M_earth"}})
 	if err != nil {
 		t.Fatal(err)
 	}
-	if m := cfg.(Config).Masses["b"]; math.Abs(m[0]-4.1) > 1e-12 || math.Abs(m[1]-0.6) > 1e-12 {
+	if m := cfg.(*Config).Masses["b"]; math.Abs(m[0]-4.1) > 1e-12 || math.Abs(m[1]-0.6) > 1e-12 {
 		t.Errorf("mass parsed as %v M⊕, want 4.1 ± 0.6", m)
 	}
-	if r := cfg.(Config).MaxPlanetRadiusJup; math.Abs(r-2) > 1e-12 {
+	if r := cfg.(*Config).MaxPlanetRadiusJup; math.Abs(r-2) > 1e-12 {
 		t.Errorf("default planetary limit %v R_J, want 2", r)
 	}
+	t.Run("the defaults are accepted", func(t *testing.T) {
+		cfg, err := steptest.Config(New(), nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		// The tags' defaults are the constants whose reasons are given beside them, to the
+		// bit (they enter step keys).
+		c := cfg.(*Config)
+		if c.Albedo != defaultAlbedo || c.Redistribution != "full" || c.ESSThreshold != defaultESSThreshold ||
+			c.Draws != defaultDraws || c.FitHasStarPrior || c.Masses != nil || c.Dilution != nil ||
+			c.MaxPlanetRadius != defaultMaxPlanetRadius*rJupInSun || c.MaxPlanetRadiusJup != defaultMaxPlanetRadius {
+			t.Fatalf("defaults decoded as %+v", c)
+		}
+	})
 }
 
 // fixture is the small deterministic input of the golden and determinism tests: two
@@ -742,16 +756,17 @@ func fixture() steps.Inputs {
 	}}
 }
 
-func fixtureValues() steps.Values {
-	return steptest.Values(Kind{}, map[string]any{"draws": int64(2000), "masses": map[string]string{"c": "5 ± 1 M_earth"}})
+// fixtureSet is what the golden and determinism tests' derive block writes.
+func fixtureSet() map[string]any {
+	return map[string]any{"draws": 2000, "masses": map[string]string{"c": "5 ± 1 M_earth"}}
 }
 
 func TestGolden(t *testing.T) {
-	art, _, err := steptest.Run(Kind{}, fixtureValues(), fixture(), nil)
+	art, _, err := steptest.Run(New(), fixtureSet(), fixture(), nil)
 	if err != nil {
 		t.Fatal(err)
 	}
-	golden.Check(t, "../..", Kind{}.Name(), Kind{}.Version(), art)
+	golden.Check(t, "../..", New().Name(), New().Version(), art)
 }
 
 // TestDeterministicForAnyWorkerCount: the same inputs give the same bytes with 1 to 4
@@ -759,7 +774,7 @@ func TestGolden(t *testing.T) {
 func TestDeterministicForAnyWorkerCount(t *testing.T) {
 	var first []byte
 	for _, workers := range []int{0, 1, 2, 4} {
-		art, _, err := steptest.Run(Kind{}, fixtureValues(), fixture(), steptest.Pool(workers))
+		art, _, err := steptest.Run(New(), fixtureSet(), fixture(), steptest.Pool(workers))
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -785,11 +800,11 @@ func TestDeterministicForAnyWorkerCount(t *testing.T) {
 func TestSeedMatters(t *testing.T) {
 	in := fixture()
 	run := func(seed uint64) []byte {
-		cfg, err := Kind{}.Prepare(fixtureValues())
+		cfg, err := steptest.Config(New(), fixtureSet())
 		if err != nil {
 			t.Fatal(err)
 		}
-		art, err := Kind{}.Run(t.Context(), cfg, in, steps.Env{Seed: seed})
+		art, err := New().Run(t.Context(), cfg, in, steps.Env{Seed: seed})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -801,7 +816,7 @@ func TestSeedMatters(t *testing.T) {
 }
 
 func TestDecodeRefusesDamage(t *testing.T) {
-	art, _, err := steptest.Run(Kind{}, fixtureValues(), fixture(), nil)
+	art, _, err := steptest.Run(New(), fixtureSet(), fixture(), nil)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -825,7 +840,7 @@ func TestDecodeRefusesDamage(t *testing.T) {
 }
 
 func TestFiguresNamePlanetAndQuantity(t *testing.T) {
-	art, notes, err := steptest.Run(Kind{}, fixtureValues(), fixture(), nil)
+	art, notes, err := steptest.Run(New(), fixtureSet(), fixture(), nil)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -850,7 +865,7 @@ func TestFiguresNamePlanetAndQuantity(t *testing.T) {
 }
 
 func FuzzDecode(f *testing.F) {
-	art, _, err := steptest.Run(Kind{}, fixtureValues(), fixture(), nil)
+	art, _, err := steptest.Run(New(), fixtureSet(), fixture(), nil)
 	if err != nil {
 		f.Fatal(err)
 	}
@@ -961,7 +976,7 @@ func TestFitWithDensityPriorIsNotReweighted(t *testing.T) {
 	coupled := *post
 	coupled.Priors = []string{"prior: star_density log_normal(0.4, 0.08)"}
 	in.Refs["fit"] = []steps.Artifact{&coupled}
-	art, notes, err := steptest.Run(Kind{}, fixtureValues(), in, nil)
+	art, notes, err := steptest.Run(New(), fixtureSet(), in, nil)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -1005,7 +1020,7 @@ func TestAHostWithoutARadiusGivesOnlyItsRadiusRatio(t *testing.T) {
 	in := fixture()
 	dil := in.Refs["dilution"][0].(dilutionArtifact).d
 	dil.Hypotheses[1].RadiusScale = nil // the dilution step could not estimate its radius
-	art, _, err := steptest.Run(Kind{}, fixtureValues(), in, nil)
+	art, _, err := steptest.Run(New(), fixtureSet(), in, nil)
 	if err != nil {
 		t.Fatal(err)
 	}

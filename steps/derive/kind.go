@@ -12,14 +12,13 @@
 // all, the step does not fail: the fit's samples keep equal weights, each paired with a star
 // draw at random, every planet figure is marked provisional and a caution says why. Dilution is applied to the radius ratio draw
 // by draw, for the target and for each companion host. It fits nothing and re-reads no light
-// curve; the numbers come from steps/internal/astro. Main entry points: Kind (for the
-// engine) and Derive (the library core).
+// curve; the numbers come from steps/internal/astro. Main entry points: New (the kind, for
+// the engine) and Derive (the library core).
 package derive
 
 import (
 	"context"
 	"errors"
-	"fmt"
 	"math"
 	"sort"
 	"strings"
@@ -31,8 +30,13 @@ import (
 	"dipline/steps/units"
 )
 
-// Kind is the derive step kind.
+// Kind is the derive step kind, written against its Config; New makes it the engine's.
 type Kind struct{}
+
+// New returns the derive kind for the engine's registry.
+func New() steps.Kind { return steps.Define[Config](Kind{}) }
+
+var _ steps.Typed[Config] = Kind{}
 
 // version is bumped whenever the numbers or the encoding change.
 const version = 2
@@ -83,65 +87,49 @@ func (Kind) Doc() string {
 	return "Combines a fit's posterior with the star's draws (reweighting by the star's density) and the dilution's, and summarises each planet's radius, orbit, temperature, mass and spectroscopy metrics."
 }
 
-// Params is the block's schema.
-func (Kind) Params() []steps.Param {
-	return []steps.Param{
-		{Name: "fit", Type: steps.Ref, Kinds: []string{"fit"},
-			Doc: "the fit whose posterior samples are combined"},
-		{Name: "star", Type: steps.Ref, Kinds: []string{"star"},
-			Doc: "the host star's draws (radius, mass, Teff, luminosity, density, magnitudes)"},
-		{Name: "dilution", Type: steps.Ref, Kinds: []string{"dilution"}, Optional: true,
-			Doc: "flux-ratio draws per host hypothesis; without it k is taken as the target's own"},
-		{Name: "albedo", Type: steps.Number, Default: defaultAlbedo,
-			Doc: "Bond albedo for the equilibrium temperature (0 to 1)"},
-		{Name: "redistribution", Type: steps.String, Default: "full", Choices: []string{"full", "dayside", "none"},
-			Doc: "heat redistribution for the equilibrium temperature: over the whole planet (f = 1/4), the day side only (f = 1/2), or none, re-radiated where absorbed (f = 2/3)"},
-		{Name: "masses", Type: steps.StringMap, Optional: true,
-			Doc: "measured masses by planet, e.g. { b = \"4.1 ± 0.6 M_earth\" }; planets without one get the Chen & Kipping (2017) relation's statistical mass"},
-		{Name: "ess_threshold", Type: steps.Number, Default: defaultESSThreshold,
-			Doc: "effective sample size after reweighting below which the combination is flagged and the coupled fit advised"},
-		{Name: "draws", Type: steps.Integer, Default: int64(defaultDraws),
-			Doc: "combined draws summarised per quantity"},
-		{Name: "fit_has_star_prior", Type: steps.Bool, Default: false,
-			Doc: "the fit already used the star's density in its likelihood (a coupled fit): its samples are then not reweighted again; a fit that lists a density prior among its priors counts as such whatever this says"},
-		{Name: "max_planet_radius", Type: steps.Quantity, Dim: units.Radius, Default: defaultMaxPlanetRadius * rJupInSun,
-			Doc: "a host hypothesis giving a larger median radius is flagged as not planetary; by default \"2 R_jup\""},
-	}
-}
-
-// Config is the decoded configuration of one derive block.
+// Config is what a derive block may say. Defaults are the constants above, written as a
+// user writes them. Check completes the untagged fields from the tagged ones.
 type Config struct {
-	Albedo             float64
-	Redistribution     string
-	Masses             map[string][2]float64 // M⊕
-	ESSThreshold       float64
-	Draws              int
-	FitHasStarPrior    bool
+	Fit            steps.Ref  `step:"fit,required" accepts:"fit" doc:"the fit whose posterior samples are combined"`
+	Star           steps.Ref  `step:"star,required" accepts:"star" doc:"the host star's draws (radius, mass, Teff, luminosity, density, magnitudes)"`
+	Dilution       *steps.Ref `step:"dilution" accepts:"dilution" doc:"flux-ratio draws per host hypothesis; without it k is taken as the target's own"`
+	Albedo         float64    `step:"albedo" default:"0.3" doc:"Bond albedo for the equilibrium temperature (0 to 1)"`
+	Redistribution string     `step:"redistribution" default:"full" choices:"full|dayside|none" doc:"heat redistribution for the equilibrium temperature: over the whole planet (f = 1/4), the day side only (f = 1/2), or none, re-radiated where absorbed (f = 2/3)"`
+	// MassText holds the masses as written; Check parses them into Masses.
+	MassText        map[string]string `step:"masses" doc:"measured masses by planet, e.g. { b = \"4.1 ± 0.6 M_earth\" }; planets without one get the Chen & Kipping (2017) relation's statistical mass"`
+	ESSThreshold    float64           `step:"ess_threshold" default:"200" doc:"effective sample size after reweighting below which the combination is flagged and the coupled fit advised"`
+	Draws           int               `step:"draws" default:"10000" doc:"combined draws summarised per quantity"`
+	FitHasStarPrior bool              `step:"fit_has_star_prior" default:"false" doc:"the fit already used the star's density in its likelihood (a coupled fit): its samples are then not reweighted again; a fit that lists a density prior among its priors counts as such whatever this says"`
+	// MaxPlanetRadius is in R☉, the base unit; Check gives it in R_J as MaxPlanetRadiusJup.
+	MaxPlanetRadius float64 `step:"max_planet_radius" dim:"radius" default:"2 R_jup" doc:"a host hypothesis giving a larger median radius is flagged as not planetary; by default \"2 R_jup\""`
+
+	// Masses are MassText parsed, by planet: value and one-sigma error in M⊕; nil when
+	// there are none.
+	Masses map[string][2]float64
+	// MaxPlanetRadiusJup is MaxPlanetRadius in R_J.
 	MaxPlanetRadiusJup float64
 }
 
-// Prepare checks the values and builds a Config.
-func (Kind) Prepare(v steps.Values) (any, error) {
-	c := Config{Albedo: v.Float("albedo"), Redistribution: v.Str("redistribution"), ESSThreshold: v.Float("ess_threshold"),
-		FitHasStarPrior: v.Bool("fit_has_star_prior"), MaxPlanetRadiusJup: v.Float("max_planet_radius") / rJupInSun}
+// Check holds the values to what the combination can take, parses the masses and gives
+// the planetary limit in R_J.
+func (Kind) Check(c *Config) error {
+	c.Masses, c.MaxPlanetRadiusJup = nil, c.MaxPlanetRadius/rJupInSun
 	if !(c.Albedo >= 0 && c.Albedo < 1) {
-		return nil, steps.Attrf("albedo", "must be at least 0 and below 1, not %v", c.Albedo)
+		return steps.Attrf("albedo", "must be at least 0 and below 1, not %v", c.Albedo)
 	}
 	if _, ok := redistributions[c.Redistribution]; !ok {
-		return nil, steps.Attrf("redistribution", "must be one of full, dayside, none, not %q", c.Redistribution)
+		return steps.Attrf("redistribution", "must be one of full, dayside, none, not %q", c.Redistribution)
 	}
 	if !(c.ESSThreshold >= 0) || math.IsInf(c.ESSThreshold, 0) {
-		return nil, steps.Attrf("ess_threshold", "must be a non-negative number, not %v", c.ESSThreshold)
+		return steps.Attrf("ess_threshold", "must be a non-negative number, not %v", c.ESSThreshold)
 	}
-	n := v.Int("draws")
-	if n < 100 || n > maxDraws {
-		return nil, steps.Attrf("draws", "must be between 100 and %d, not %d", maxDraws, n)
+	if c.Draws < 100 || c.Draws > maxDraws {
+		return steps.Attrf("draws", "must be between 100 and %d, not %d", maxDraws, c.Draws)
 	}
-	c.Draws = int(n)
 	if !(c.MaxPlanetRadiusJup > 0) || math.IsInf(c.MaxPlanetRadiusJup, 0) {
-		return nil, steps.Attrf("max_planet_radius", "must be a positive radius")
+		return steps.Attrf("max_planet_radius", "must be a positive radius")
 	}
-	if m := v.Map("masses"); len(m) > 0 {
+	if m := c.MassText; len(m) > 0 {
 		c.Masses = map[string][2]float64{}
 		earth := units.Mass.Units["M_earth"]
 		names := make([]string, 0, len(m))
@@ -152,15 +140,15 @@ func (Kind) Prepare(v steps.Values) (any, error) {
 		for _, name := range names {
 			val, sig, err := units.Mass.ParseMeasurement(m[name])
 			if err != nil {
-				return nil, steps.Attrf("masses", "planet %s: %v", name, err)
+				return steps.Attrf("masses", "planet %s: %v", name, err)
 			}
 			if !(val > 0) {
-				return nil, steps.Attrf("masses", "planet %s: the mass must be positive, not %q", name, m[name])
+				return steps.Attrf("masses", "planet %s: the mass must be positive, not %q", name, m[name])
 			}
 			c.Masses[name] = [2]float64{val / earth, sig / earth}
 		}
 	}
-	return c, nil
+	return nil
 }
 
 // densityPriorTag starts the fit artifact's Priors entry for a density prior other than
@@ -169,11 +157,7 @@ func (Kind) Prepare(v steps.Values) (any, error) {
 const densityPriorTag = "prior: star_density "
 
 // Run combines the referenced fit, star and dilution.
-func (Kind) Run(ctx context.Context, cfgAny any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
-	cfg, ok := cfgAny.(Config)
-	if !ok {
-		return nil, fmt.Errorf("derive: configuration of type %T", cfgAny)
-	}
+func (Kind) Run(ctx context.Context, cfg *Config, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}

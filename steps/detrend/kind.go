@@ -22,18 +22,21 @@ import (
 	"dipline/steps"
 	"dipline/steps/detrend/robust"
 	"dipline/steps/internal/lightcurve"
+	"dipline/steps/internal/parallel"
 	"dipline/steps/internal/periodogram"
 	"dipline/steps/internal/signals"
-	"dipline/steps/units"
 )
 
-// Kind is the detrend step kind.
+// Kind is the detrend step kind, written against its Config; New makes it the engine's.
 type Kind struct{}
 
+// New returns the detrend kind for the engine's registry.
+func New() steps.Kind { return steps.Define[Config](Kind{}) }
+
 var (
-	_ steps.Kind        = Kind{}
-	_ lightcurve.Source = (*Result)(nil)
-	_ steps.Artifact    = (*Result)(nil)
+	_ steps.Typed[Config] = Kind{}
+	_ lightcurve.Source   = (*Result)(nil)
+	_ steps.Artifact      = (*Result)(nil)
 )
 
 // version is bumped whenever the numbers or the encoding change.
@@ -103,68 +106,58 @@ func (Kind) Doc() string {
 	return "Divides a light curve by a robust trend (a local quadratic in a window chosen from the data by default; Tukey biweight, robust spline or running median), removing flares upward only, sparing masked transits and measuring the star's own periods."
 }
 
-// Params is the block's schema.
-func (Kind) Params() []steps.Param {
-	return []steps.Param{
-		{Name: "light_curve", Type: steps.Ref, Kinds: []string{"photometry", "detrend"},
-			Doc: "the light curve to detrend: a photometry step, or another detrend step"},
-		{Name: "estimator", Type: steps.String, Choices: []string{estLocal, estBiweight, estSpline, estMedian}, Default: estLocal,
-			Doc: "how the trend is estimated: a robust locally weighted polynomial in a sliding time window (Cleveland 1979), Tukey biweight location in a sliding time window, a cubic spline refitted with outliers clipped, or the median in a sliding time window"},
-		{Name: "degree", Type: steps.Integer, Default: int64(defaultDegree),
-			Doc: "degree of the local polynomial (local-polynomial): 0, 1 or 2; a quadratic follows a curved trend without bias, a location (0) or a line (1) leaves ½ f''·h²/12 beside every turn"},
-		{Name: "span", Type: steps.Quantity, Dim: units.Time, Optional: true,
-			Doc: "full width in time of the sliding window. For local-polynomial, by default chosen from the light curve among 0.25–4 d: without a mask the window that keeps the most of an unmasked 2-hour transit's signal for the bias the star's variability leaves, with a mask the widest window whose bias stays under a tenth of the noise (the run says what it weighed); for biweight and running-median 0.5 d, which keeps transits up to about a third of it"},
-		{Name: "knot_spacing", Type: steps.Quantity, Dim: units.Time, Default: defaultKnots,
-			Doc: "spacing in time of the spline's knots (robust-spline); knots are dropped where there are too few points"},
-		{Name: "biweight_c", Type: steps.Number, Default: defaultC,
-			Doc: "biweight tuning constant, in median absolute deviations: points further than this from the location get no weight"},
-		{Name: "flare_sigma", Type: steps.Number, Default: defaultFlareSigma,
-			Doc: "points more than this many robust standard deviations above the trend are flares and removed; points below are never removed"},
-		{Name: "split_at_gap", Type: steps.Quantity, Dim: units.Time, Optional: true,
-			Doc: "split the light curve wherever no point falls for longer than this and detrend each piece alone; by default the larger of 0.5 d and 20 median cadences"},
-		{Name: "min_window_points", Type: steps.Integer, Default: int64(defaultMinPoints),
-			Doc: "fewest usable points a window (or a spline interval) needs; points with fewer are dropped"},
-		{Name: "mask", Type: steps.Ref, Kinds: []string{"search"}, Optional: true,
-			Doc: "a search step whose signals' transits are left out of the trend (and kept in the light curve)"},
-		{Name: "mask_factor", Type: steps.Number, Default: defaultMaskFactor,
-			Doc: "the masked stretch around each mid-transit, in transit durations"},
-		{Name: "mask_count", Type: steps.Integer, Optional: true,
-			Doc: "mask only the first this many signals of the search's ranking; all of them when absent"},
-	}
-}
-
-// Config is the decoded configuration of one detrend block.
+// Config is what a detrend block may say. Defaults are the constants above, written as a
+// user writes them.
 type Config struct {
-	Estimator   string
-	Degree      int
-	Span        float64 // days; 0 = choose from the data (local-polynomial)
-	KnotSpacing float64 // days
-	C           float64
-	FlareSigma  float64
-	SplitAtGap  float64 // days; 0 = derive from the data
-	MinPoints   int
-	MaskFactor  float64
-	MaskCount   int // 0 = all
+	LightCurve steps.Ref `step:"light_curve,required" accepts:"photometry,detrend" doc:"the light curve to detrend: a photometry step, or another detrend step"`
+	Estimator  string    `step:"estimator" default:"local-polynomial" choices:"local-polynomial|biweight|robust-spline|running-median" doc:"how the trend is estimated: a robust locally weighted polynomial in a sliding time window (Cleveland 1979), Tukey biweight location in a sliding time window, a cubic spline refitted with outliers clipped, or the median in a sliding time window"`
+	Degree     int       `step:"degree" default:"2" doc:"degree of the local polynomial (local-polynomial): 0, 1 or 2; a quadratic follows a curved trend without bias, a location (0) or a line (1) leaves ½ f''·h²/12 beside every turn"`
+	// Span is the window's full width in days; absent, local-polynomial chooses it from the
+	// data and the location estimators take defaultSpan (see span).
+	Span        *float64 `step:"span" dim:"time" doc:"full width in time of the sliding window. For local-polynomial, by default chosen from the light curve among 0.25–4 d: without a mask the window that keeps the most of an unmasked 2-hour transit's signal for the bias the star's variability leaves, with a mask the widest window whose bias stays under a tenth of the noise (the run says what it weighed); for biweight and running-median 0.5 d, which keeps transits up to about a third of it"`
+	KnotSpacing float64  `step:"knot_spacing" dim:"time" default:"0.5 d" doc:"spacing in time of the spline's knots (robust-spline); knots are dropped where there are too few points"`
+	C           float64  `step:"biweight_c" default:"5" doc:"biweight tuning constant, in median absolute deviations: points further than this from the location get no weight"`
+	FlareSigma  float64  `step:"flare_sigma" default:"3" doc:"points more than this many robust standard deviations above the trend are flares and removed; points below are never removed"`
+	// SplitAtGap is in days; absent, it is derived from the cadence (robust.DefaultGap).
+	SplitAtGap *float64   `step:"split_at_gap" dim:"time" doc:"split the light curve wherever no point falls for longer than this and detrend each piece alone; by default the larger of 0.5 d and 20 median cadences"`
+	MinPoints  int        `step:"min_window_points" default:"5" doc:"fewest usable points a window (or a spline interval) needs; points with fewer are dropped"`
+	Mask       *steps.Ref `step:"mask" accepts:"search" doc:"a search step whose signals' transits are left out of the trend (and kept in the light curve)"`
+	MaskFactor float64    `step:"mask_factor" default:"1.5" doc:"the masked stretch around each mid-transit, in transit durations"`
+	// MaskCount is absent to mask every signal.
+	MaskCount *int `step:"mask_count" doc:"mask only the first this many signals of the search's ranking; all of them when absent"`
 }
 
-// Prepare checks the values and builds a Config.
-func (Kind) Prepare(v steps.Values) (any, error) {
-	c := Config{
-		Estimator:   v.Str("estimator"),
-		KnotSpacing: v.Float("knot_spacing"),
-		C:           v.Float("biweight_c"),
-		FlareSigma:  v.Float("flare_sigma"),
-		MaskFactor:  v.Float("mask_factor"),
+// span is the window in days, or 0 when local-polynomial is to choose it from the data.
+func (c *Config) span() float64 {
+	switch {
+	case c.Span != nil:
+		return *c.Span
+	case c.Estimator == estLocal:
+		return 0
 	}
-	switch c.Estimator {
-	case estLocal, estBiweight, estSpline, estMedian:
-	default:
-		return nil, steps.Attrf("estimator", "%q is not an estimator; use %q, %q, %q or %q", c.Estimator, estLocal, estBiweight, estSpline, estMedian)
+	return defaultSpan
+}
+
+// splitAtGap is the gap in days, or 0 to derive it from the cadence.
+func (c *Config) splitAtGap() float64 {
+	if c.SplitAtGap == nil {
+		return 0
 	}
-	if d := v.Int("degree"); d < 0 || d > 2 {
-		return nil, steps.Attrf("degree", "must be 0, 1 or 2, not %d", d)
-	} else {
-		c.Degree = int(d)
+	return *c.SplitAtGap
+}
+
+// maskCount is how many signals to mask, 0 for all.
+func (c *Config) maskCount() int {
+	if c.MaskCount == nil {
+		return 0
+	}
+	return *c.MaskCount
+}
+
+// Check holds the values to what the filters can take.
+func (Kind) Check(c *Config) error {
+	if c.Degree < 0 || c.Degree > 2 {
+		return steps.Attrf("degree", "must be 0, 1 or 2, not %d", c.Degree)
 	}
 	positive := func(name string, x float64, what string) error {
 		if !(x > 0) || math.IsInf(x, 0) {
@@ -172,53 +165,33 @@ func (Kind) Prepare(v steps.Values) (any, error) {
 		}
 		return nil
 	}
-	if v.Has("span") {
-		c.Span = v.Float("span")
-		if err := positive("span", c.Span, "time"); err != nil {
-			return nil, err
+	for _, q := range []struct {
+		name string
+		x    *float64
+		what string
+	}{{"span", c.Span, "time"}, {"knot_spacing", &c.KnotSpacing, "time"}, {"biweight_c", &c.C, "number"},
+		{"mask_factor", &c.MaskFactor, "number"}, {"split_at_gap", c.SplitAtGap, "time"}} {
+		if q.x == nil {
+			continue
 		}
-	} else if c.Estimator != estLocal {
-		c.Span = defaultSpan
-	}
-	if err := positive("knot_spacing", c.KnotSpacing, "time"); err != nil {
-		return nil, err
-	}
-	if err := positive("biweight_c", c.C, "number"); err != nil {
-		return nil, err
+		if err := positive(q.name, *q.x, q.what); err != nil {
+			return err
+		}
 	}
 	if !(c.FlareSigma >= 1) || math.IsInf(c.FlareSigma, 0) {
-		return nil, steps.Attrf("flare_sigma", "must be at least 1 (a lower cut would remove ordinary noise), not %v", c.FlareSigma)
+		return steps.Attrf("flare_sigma", "must be at least 1 (a lower cut would remove ordinary noise), not %v", c.FlareSigma)
 	}
-	if err := positive("mask_factor", c.MaskFactor, "number"); err != nil {
-		return nil, err
+	if c.MinPoints < 3 || c.MinPoints > 1_000_000 {
+		return steps.Attrf("min_window_points", "must be between 3 and 1000000, not %d", c.MinPoints)
 	}
-	if v.Has("split_at_gap") {
-		c.SplitAtGap = v.Float("split_at_gap")
-		if err := positive("split_at_gap", c.SplitAtGap, "time"); err != nil {
-			return nil, err
-		}
+	if n := c.MaskCount; n != nil && (*n < 1 || *n > 1_000_000) {
+		return steps.Attrf("mask_count", "must be at least 1, not %d", *n)
 	}
-	mp := v.Int("min_window_points")
-	if mp < 3 || mp > 1_000_000 {
-		return nil, steps.Attrf("min_window_points", "must be between 3 and 1000000, not %d", mp)
-	}
-	c.MinPoints = int(mp)
-	if v.Has("mask_count") {
-		n := v.Int("mask_count")
-		if n < 1 || n > 1_000_000 {
-			return nil, steps.Attrf("mask_count", "must be at least 1, not %d", n)
-		}
-		c.MaskCount = int(n)
-	}
-	return c, nil
+	return nil
 }
 
 // Run detrends the referenced light curve.
-func (k Kind) Run(ctx context.Context, cfgAny any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
-	cfg, ok := cfgAny.(Config)
-	if !ok {
-		return nil, fmt.Errorf("detrend: configuration of type %T", cfgAny)
-	}
+func (k Kind) Run(ctx context.Context, cfg *Config, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
@@ -237,8 +210,8 @@ func (k Kind) Run(ctx context.Context, cfgAny any, in steps.Inputs, env steps.En
 			return nil, errors.New("detrend: mask does not refer to a step with signals")
 		}
 		sigs = ss.Signals()
-		if cfg.MaskCount > 0 && len(sigs) > cfg.MaskCount {
-			sigs = sigs[:cfg.MaskCount]
+		if n := cfg.maskCount(); n > 0 && len(sigs) > n {
+			sigs = sigs[:n]
 		}
 		for i, s := range sigs {
 			if !(s.Period > 0) || !(s.Duration > 0) || math.IsInf(s.Period, 0) || math.IsInf(s.Duration, 0) || math.IsNaN(s.Epoch) || math.IsInf(s.Epoch, 0) {
@@ -246,7 +219,7 @@ func (k Kind) Run(ctx context.Context, cfgAny any, in steps.Inputs, env steps.En
 			}
 		}
 	}
-	res, notes := Detrend(cfg, lc, sigs, env.Pool)
+	res, notes := Detrend(*cfg, lc, sigs, env.Pool)
 	for _, n := range notes {
 		env.Note("%s", n)
 	}
@@ -296,7 +269,7 @@ func Detrend(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool 
 			series[i].Mask = m
 		}
 	}
-	gap := cfg.SplitAtGap
+	span, gap := cfg.span(), cfg.splitAtGap()
 	if gap == 0 {
 		cad := robust.MedianCadence(series)
 		gap = robust.DefaultGap(cad)
@@ -304,10 +277,10 @@ func Detrend(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool 
 			gap, cad*1440))
 	}
 	rc := robust.Config{
-		Span: cfg.Span, KnotSpacing: cfg.KnotSpacing, C: cfg.C, FlareSigma: cfg.FlareSigma,
+		Span: span, KnotSpacing: cfg.KnotSpacing, C: cfg.C, FlareSigma: cfg.FlareSigma,
 		SplineSigma: splineClip, MinPoints: cfg.MinPoints, GapOver: gap,
 	}
-	scale := cfg.Span
+	scale := span
 	switch cfg.Estimator {
 	case estSpline:
 		rc.Estimator = robust.Spline
@@ -320,17 +293,17 @@ func Detrend(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool 
 	default:
 		rc.Estimator = robust.Biweight
 	}
-	if len(sigs) > 0 && cfg.Estimator != estSpline && cfg.Span > 0 {
+	if len(sigs) > 0 && cfg.Estimator != estSpline && span > 0 {
 		longest := 0.0
 		for _, s := range sigs {
 			longest = max(longest, s.Duration*cfg.MaskFactor)
 		}
-		if longest >= cfg.Span {
+		if longest >= span {
 			notes = append(notes, fmt.Sprintf("mask: the longest masked stretch (%.4g h) is at least the span (%.4g h); the trend across it is interpolated from its edges",
-				longest*24, cfg.Span*24))
+				longest*24, span*24))
 		}
 	}
-	var par robust.Parallel
+	var par parallel.Func
 	if pool != nil {
 		par = pool.Parallel
 	}
@@ -352,7 +325,7 @@ func Detrend(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool 
 // chooseSpan picks the local polynomial's window from the data (robust.ChooseSpan), for a
 // masked pass (follow the star) or an unmasked one (keep the transits), and says why in a
 // note; when the data cannot tell it keeps defaultSpan and says so.
-func chooseSpan(series []robust.Series, degree int, masked bool, gap float64, par robust.Parallel, notes *[]string) (span, scale float64) {
+func chooseSpan(series []robust.Series, degree int, masked bool, gap float64, par parallel.Func, notes *[]string) (span, scale float64) {
 	goal, why := robust.KeepTransits, "keeps the most of an unmasked 2-hour transit's signal to noise for the bias the star's variability leaves"
 	if masked {
 		goal, why = robust.FollowStar, "is the widest window whose bias stays under a tenth of the noise, the transits being masked"

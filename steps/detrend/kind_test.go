@@ -68,13 +68,13 @@ func fixture(nseg, n int) (*lightcurve.LightCurve, signals.Signal) {
 	return lc, sig
 }
 
-// values decodes a block as the engine would: defaults applied, then the given attributes.
-func values(set map[string]any) steps.Values {
-	v := steptest.Values(Kind{}, set)
-	if _, ok := set["light_curve"]; !ok {
-		v["light_curve"] = "photometry.survey"
+// block is what a detrend block writes: the given attributes, and a light curve.
+func block(set map[string]any) map[string]any {
+	b := map[string]any{"light_curve": "photometry.survey"}
+	for k, v := range set {
+		b[k] = v
 	}
-	return v
+	return b
 }
 
 func run(t testing.TB, set map[string]any, lc *lightcurve.LightCurve, sigs []signals.Signal, workers int) (*Result, []string) {
@@ -83,32 +83,32 @@ func run(t testing.TB, set map[string]any, lc *lightcurve.LightCurve, sigs []sig
 	if sigs != nil {
 		in.Refs["mask"] = []steps.Artifact{search{sigs}}
 	}
-	art, notes, err := steptest.Run(Kind{}, values(set), in, steptest.Pool(workers))
+	art, notes, err := steptest.Run(New(), block(set), in, steptest.Pool(workers))
 	if err != nil {
 		t.Fatal(err)
 	}
 	return art.(*Result), notes
 }
 
-func TestPrepareNamesTheAttributeAtFault(t *testing.T) {
+func TestCheckNamesTheAttributeAtFault(t *testing.T) {
 	for _, tc := range []struct {
 		name string
 		set  map[string]any
 		attr string
 	}{
 		{"an unknown estimator is refused", map[string]any{"estimator": "spline"}, "estimator"},
-		{"a zero span is refused", map[string]any{"span": 0.0}, "span"},
-		{"a negative knot spacing is refused", map[string]any{"knot_spacing": -1.0}, "knot_spacing"},
+		{"a zero span is refused", map[string]any{"span": "0 d"}, "span"},
+		{"a negative knot spacing is refused", map[string]any{"knot_spacing": "-1 d"}, "knot_spacing"},
 		{"a zero tuning constant is refused", map[string]any{"biweight_c": 0.0}, "biweight_c"},
 		{"a flare cut below one sigma is refused", map[string]any{"flare_sigma": 0.5}, "flare_sigma"},
 		{"an infinite flare cut is refused", map[string]any{"flare_sigma": math.Inf(1)}, "flare_sigma"},
-		{"a zero gap threshold is refused", map[string]any{"split_at_gap": 0.0}, "split_at_gap"},
-		{"windows of two points are refused", map[string]any{"min_window_points": int64(2)}, "min_window_points"},
+		{"a zero gap threshold is refused", map[string]any{"split_at_gap": "0 d"}, "split_at_gap"},
+		{"windows of two points are refused", map[string]any{"min_window_points": 2}, "min_window_points"},
 		{"a NaN mask factor is refused", map[string]any{"mask_factor": math.NaN()}, "mask_factor"},
-		{"masking no signals is refused", map[string]any{"mask_count": int64(0)}, "mask_count"},
+		{"masking no signals is refused", map[string]any{"mask_count": 0}, "mask_count"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
-			_, err := Kind{}.Prepare(values(tc.set))
+			_, err := steptest.Config(New(), block(tc.set))
 			var ae *steps.AttrError
 			if !errors.As(err, &ae) || ae.Attr != tc.attr {
 				t.Fatalf("got %v, want an error on %s", err, tc.attr)
@@ -116,19 +116,26 @@ func TestPrepareNamesTheAttributeAtFault(t *testing.T) {
 		})
 	}
 	t.Run("the defaults are accepted", func(t *testing.T) {
-		cfg, err := Kind{}.Prepare(values(nil))
+		cfg, err := steptest.Config(New(), block(nil))
 		if err != nil {
 			t.Fatal(err)
 		}
-		c := cfg.(Config)
-		if c.Estimator != "local-polynomial" || c.Degree != 2 || c.Span != 0 || c.C != 5 || c.FlareSigma != 3 || c.SplitAtGap != 0 || c.MaskCount != 0 {
+		// The tags' defaults are the constants whose reasons are given beside them.
+		c := cfg.(*Config)
+		if c.Estimator != estLocal || c.Degree != defaultDegree || c.span() != 0 || c.KnotSpacing != defaultKnots ||
+			c.C != defaultC || c.FlareSigma != defaultFlareSigma || c.MinPoints != defaultMinPoints ||
+			c.MaskFactor != defaultMaskFactor || c.splitAtGap() != 0 || c.maskCount() != 0 {
 			t.Fatalf("defaults decoded as %+v", c)
+		}
+		c.Estimator = estBiweight
+		if c.span() != defaultSpan {
+			t.Errorf("a biweight without a span gets %v d, want %v d", c.span(), defaultSpan)
 		}
 	})
 }
 
 func TestRunRefusesBadInputs(t *testing.T) {
-	cfg, _ := Kind{}.Prepare(values(nil))
+	cfg := steptest.MustConfig(New(), block(nil))
 	lc, sig := fixture(1, 100)
 	unsorted, _ := fixture(1, 100)
 	unsorted.Segments[0].Time[10] = 1e6
@@ -154,7 +161,7 @@ func TestRunRefusesBadInputs(t *testing.T) {
 			"light_curve": {photometry{lc}}, "mask": {photometry{lc}}}}, false, "mask"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
-			_, err := Kind{}.Run(context.Background(), cfg, tc.in, steps.Env{})
+			_, err := New().Run(context.Background(), cfg, tc.in, steps.Env{})
 			if err == nil || steps.IsInputError(err) != tc.input || !strings.Contains(err.Error(), tc.want) {
 				t.Fatalf("got %v (input error %v), want one mentioning %q with input error %v", err, steps.IsInputError(err), tc.want, tc.input)
 			}
@@ -238,7 +245,7 @@ func TestTheDerivedGapIsNoted(t *testing.T) {
 	if len(notes) == 0 || !strings.Contains(notes[0], "split_at_gap") {
 		t.Errorf("notes %q do not mention the derived gap", notes)
 	}
-	res, notes = run(t, map[string]any{"split_at_gap": 2.0, "span": 0.5}, lc, nil, 1)
+	res, notes = run(t, map[string]any{"split_at_gap": "2 d", "span": "0.5 d"}, lc, nil, 1)
 	if res.SplitAtGap != 2 || strings.Contains(strings.Join(notes, "\n"), "split_at_gap") {
 		t.Errorf("given gap: %v d, notes %q", res.SplitAtGap, notes)
 	}

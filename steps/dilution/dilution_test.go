@@ -64,25 +64,33 @@ type setup struct {
 	seed  uint64
 }
 
+// block is what a dilution block writes: the given attributes, a light curve and companions.
+func block(set map[string]any) map[string]any {
+	b := map[string]any{"light_curve": "photometry.survey", "companions": "companions.imaging"}
+	for k, v := range set {
+		b[k] = v
+	}
+	return b
+}
+
 func (s setup) run(t testing.TB) (*Result, []string, error) {
 	t.Helper()
-	v := steptest.Values(Kind{}, s.set)
-	v["light_curve"], v["companions"] = "photometry.survey", "companions.imaging"
+	set := block(s.set)
 	in := steps.Inputs{Refs: map[string][]steps.Artifact{
 		"light_curve": {s.lc},
 		"companions":  {&companions.List{Companions: s.comps}},
 	}}
 	if s.star != nil {
-		v["star"] = "star.host"
+		set["star"] = "star.host"
 		in.Refs["star"] = []steps.Artifact{*s.star}
 	}
-	cfg, err := Kind{}.Prepare(v)
+	cfg, err := steptest.Config(New(), set)
 	if err != nil {
 		return nil, nil, err
 	}
 	var notes []string
 	env := steps.Env{Seed: s.seed, Notef: func(f string, a ...any) { notes = append(notes, fmt.Sprintf(f, a...)) }}
-	art, err := Kind{}.Run(context.Background(), cfg, in, env)
+	art, err := New().Run(context.Background(), cfg, in, env)
 	if err != nil {
 		return nil, notes, err
 	}
@@ -136,7 +144,7 @@ func TestPlanetOnCompanionMatchesClosedForm(t *testing.T) {
 	b := comp("B", "survey-red", 1, 0)
 	b.Radius, b.RadiusErr = 0.3, 0
 	st := star{}.with(50, 0.5, math.NaN())
-	r, notes := must(t, setup{set: map[string]any{"draws": int64(200)}, lc: lightCurve("survey-red", false),
+	r, notes := must(t, setup{set: map[string]any{"draws": 200}, lc: lightCurve("survey-red", false),
 		comps: []stellar.Companion{b, comp("C", "survey-red", 2, 0)}, star: &st, seed: 7})
 	if len(r.Hypotheses) != 3 {
 		t.Fatalf("%d hypotheses, want 3", len(r.Hypotheses))
@@ -208,7 +216,7 @@ func TestCompanionRadiusFromMann(t *testing.T) {
 func TestCompanionOutsideMannRangeGetsNoRadius(t *testing.T) {
 	// M_K = 9.0 + 1.5 = 10.5 is beyond the relation's 9.8 (Mann et al. 2015, from memory).
 	st := star{}.with(100, 0.2, 9.0)
-	r, notes := must(t, setup{set: map[string]any{"draws": int64(100)}, lc: lightCurve("Ks", false),
+	r, notes := must(t, setup{set: map[string]any{"draws": 100}, lc: lightCurve("Ks", false),
 		comps: []stellar.Companion{comp("B", "Ks", 1.5, 0)}, star: &st})
 	if r.Hypotheses[1].RadiusScale != nil || !hasNote(notes, "outside the 4.6–9.8 range of Mann et al. 2015 in 100 of 100 draws") {
 		t.Errorf("radius scale %v, notes %q", r.Hypotheses[1].RadiusScale != nil, notes)
@@ -234,7 +242,7 @@ func TestCompanionNearTheRangeEdgeIsTakenAtTheEdge(t *testing.T) {
 }
 
 func TestCrowdingCorrectedCurveIsNotCorrectedTwice(t *testing.T) {
-	r, notes := must(t, setup{set: map[string]any{"draws": int64(100)}, lc: lightCurve("survey-red", true, true),
+	r, notes := must(t, setup{set: map[string]any{"draws": 100}, lc: lightCurve("survey-red", true, true),
 		comps: []stellar.Companion{comp("B", "Ks", 1, 0.1)}})
 	if !r.AlreadyCorrected || len(r.Hypotheses) != 1 {
 		t.Fatalf("corrected %v with %d hypotheses", r.AlreadyCorrected, len(r.Hypotheses))
@@ -289,7 +297,7 @@ func TestRefusals(t *testing.T) {
 }
 
 func withDraws(set map[string]any) map[string]any {
-	out := map[string]any{"draws": int64(100)}
+	out := map[string]any{"draws": 100}
 	for k, v := range set {
 		out[k] = v
 	}
@@ -318,13 +326,13 @@ func TestBandRelationIsApplied(t *testing.T) {
 	}
 }
 
-func TestPrepareRefusesBadAttributes(t *testing.T) {
+func TestCheckRefusesBadAttributes(t *testing.T) {
 	cases := []struct {
 		name string
 		set  map[string]any
 		want string
 	}{
-		{"too few draws are refused", map[string]any{"draws": int64(10)}, "draws: must be between 100"},
+		{"too few draws are refused", map[string]any{"draws": 10}, "draws: must be between 100"},
 		{"an unknown relation key is refused", map[string]any{"band_relation": map[string]string{"colour": "x"}}, `band_relation: unknown key "colour"`},
 		{"a relation without a source is refused", map[string]any{"band_relation": map[string]string{"from": "Ks", "to": "r", "slope": "1"}}, "band_relation: source is missing"},
 		{"a relation with a word for a slope is refused", map[string]any{"band_relation": map[string]string{"from": "Ks", "to": "r", "slope": "steep", "source": "s"}}, `slope: "steep" is not a finite number`},
@@ -333,12 +341,19 @@ func TestPrepareRefusesBadAttributes(t *testing.T) {
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
-			_, err := Kind{}.Prepare(steptest.Values(Kind{}, c.set))
+			_, err := steptest.Config(New(), block(c.set))
 			if err == nil || !strings.Contains(err.Error(), c.want) {
 				t.Errorf("error %v, want %q", err, c.want)
 			}
 		})
 	}
+	t.Run("the defaults are accepted", func(t *testing.T) {
+		// The tag's default is the constant whose reason is given beside it.
+		c := steptest.MustConfig(New(), block(nil)).(*Config)
+		if c.Draws != defaultDraws || c.BandRelation != nil || c.relation != nil || c.Star != nil {
+			t.Fatalf("defaults decoded as %+v", c)
+		}
+	})
 }
 
 func TestNoCompanionsGiveNoDilution(t *testing.T) {
@@ -351,7 +366,7 @@ func TestNoCompanionsGiveNoDilution(t *testing.T) {
 func TestSameSeedSameBytes(t *testing.T) {
 	b := comp("B", "Ks", 1.5, 0.1)
 	st := star{}.with(300, 0.4443, 6.0)
-	s := setup{set: map[string]any{"draws": int64(1000)}, lc: lightCurve("Ks", false), comps: []stellar.Companion{b, comp("C", "Ks", 3, 0.2)}, star: &st, seed: 11}
+	s := setup{set: map[string]any{"draws": 1000}, lc: lightCurve("Ks", false), comps: []stellar.Companion{b, comp("C", "Ks", 3, 0.2)}, star: &st, seed: 11}
 	r1, _ := must(t, s)
 	r2, _ := must(t, s)
 	if !bytes.Equal(r1.Encode(), r2.Encode()) {
@@ -368,7 +383,7 @@ func TestEncodingRoundTripsAndRejectsDamage(t *testing.T) {
 	b := comp("B", "Ks", 1.5, 0.1)
 	st := star{}.with(300, 0.4443, 6.0)
 	rel := map[string]string{"from": "V", "to": "Ks", "slope": "0.5", "source": "invented"}
-	r, _ := must(t, setup{set: map[string]any{"draws": int64(100), "band_relation": rel}, lc: lightCurve("Ks", false),
+	r, _ := must(t, setup{set: map[string]any{"draws": 100, "band_relation": rel}, lc: lightCurve("Ks", false),
 		comps: []stellar.Companion{b, comp("C", "V", 3, 0.2)}, star: &st, seed: 11})
 	enc := r.Encode()
 	back, err := Decode(enc)
@@ -422,7 +437,7 @@ func TestGolden(t *testing.T) {
 	b := comp("B", "Ks", 1.5, 0.1)
 	b.Radius, b.RadiusErr = 0.3, 0.02
 	st := star{}.with(300, 0.4443, 6.0)
-	r, _ := must(t, setup{set: map[string]any{"draws": int64(1000)}, lc: lightCurve("Ks", false),
+	r, _ := must(t, setup{set: map[string]any{"draws": 1000}, lc: lightCurve("Ks", false),
 		comps: []stellar.Companion{b, comp("C", "Ks", 3, 0.2)}, star: &st, seed: 4711})
 	golden.Check(t, "../..", Kind{}.Name(), Kind{}.Version(), r)
 }
@@ -473,20 +488,16 @@ func TestStatedContaminationIsReported(t *testing.T) {
 }
 
 func TestWrongReferencesAreRefused(t *testing.T) {
-	v := steptest.Values(Kind{}, map[string]any{"draws": int64(100)})
-	cfg, err := Kind{}.Prepare(v)
-	if err != nil {
-		t.Fatal(err)
-	}
+	cfg := steptest.MustConfig(New(), block(map[string]any{"draws": 100}))
 	lc := lightCurve("Ks", false)
 	in := steps.Inputs{Refs: map[string][]steps.Artifact{"light_curve": {lc}, "companions": {lc}}}
-	if _, err := (Kind{}).Run(context.Background(), cfg, in, steps.Env{}); err == nil || !strings.Contains(err.Error(), "companion list") {
+	if _, err := New().Run(context.Background(), cfg, in, steps.Env{}); err == nil || !strings.Contains(err.Error(), "companion list") {
 		t.Errorf("error %v", err)
 	}
 }
 
 func TestSchemaIsAccepted(t *testing.T) {
-	if _, err := steps.NewRegistry(Kind{}, companions.Kind{}); err != nil {
+	if _, err := steps.NewRegistry(New(), companions.New()); err != nil {
 		t.Fatal(err)
 	}
 }
@@ -510,7 +521,7 @@ func BenchmarkRun(b *testing.B) {
 func FuzzDecode(f *testing.F) {
 	b := comp("B", "Ks", 1.5, 0.1)
 	st := star{}.with(10, 0.4443, 6.0)
-	r, _, err := setup{set: map[string]any{"draws": int64(100)}, lc: lightCurve("Ks", false), comps: []stellar.Companion{b}, star: &st}.run(f)
+	r, _, err := setup{set: map[string]any{"draws": 100}, lc: lightCurve("Ks", false), comps: []stellar.Companion{b}, star: &st}.run(f)
 	if err != nil {
 		f.Fatal(err)
 	}
@@ -538,7 +549,7 @@ func TestACompanionInTwoBandsUsesTheLightCurvesBand(t *testing.T) {
 		{Name: "B", Band: "Ks", DMag: 1.0, DMagErr: 1e-9, Separation: 1, Radius: math.NaN(), RadiusErr: math.NaN()},
 		{Name: "B", Band: "red", DMag: 2.5, DMagErr: 1e-9, Separation: 1, Radius: math.NaN(), RadiusErr: math.NaN()},
 	}
-	res, _, err := Compute(Config{Draws: 200}, Input{Band: "red", Companions: comps}, 1)
+	res, _, err := Compute(Options{Draws: 200}, Input{Band: "red", Companions: comps}, 1)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -10,7 +10,7 @@
 // colour relations: a companion measured in another band is converted by the relation the
 // workflow states (band_relation), or refused.
 //
-// Main entry points: Kind (register it with the engine), Compute (the numerical core) and
+// Main entry points: New (register it with the engine), Compute (the numerical core) and
 // Implausible. The artifact, *Result, implements stellar.DilutionSource.
 package dilution
 
@@ -28,11 +28,14 @@ import (
 	"dipline/steps/internal/stellar"
 )
 
-// Kind is the dilution step kind.
+// Kind is the dilution step kind, written against its Config; New makes it the engine's.
 type Kind struct{}
 
+// New returns the dilution kind for the engine's registry.
+func New() steps.Kind { return steps.Define[Config](Kind{}) }
+
 var (
-	_ steps.Kind             = Kind{}
+	_ steps.Typed[Config]    = Kind{}
 	_ steps.Artifact         = (*Result)(nil)
 	_ stellar.DilutionSource = (*Result)(nil)
 )
@@ -51,53 +54,53 @@ const maxDraws = 10_000_000
 // relationKeys are the keys of band_relation.
 var relationKeys = []string{"from", "to", "slope", "offset", "scatter", "source"}
 
-// Name implements steps.Kind.
+// Name implements steps.Typed.
 func (Kind) Name() string { return "dilution" }
 
-// Version implements steps.Kind.
+// Version implements steps.Typed.
 func (Kind) Version() int { return version }
 
-// Random implements steps.Kind: the step draws Monte Carlo samples from its seed.
+// Random implements steps.Typed: the step draws Monte Carlo samples from its seed.
 func (Kind) Random() bool { return true }
 
-// Doc implements steps.Kind.
+// Doc implements steps.Typed.
 func (Kind) Doc() string {
 	return "Draws the flux ratio of contaminating stars in the light curve's band for the planet on the target and on each companion."
 }
 
-// Params implements steps.Kind.
-func (Kind) Params() []steps.Param {
-	return []steps.Param{
-		{Name: "light_curve", Type: steps.Ref, Kinds: []string{"photometry", "detrend"},
-			Doc: "the light curve whose transit is diluted: its band and whether its flux is already corrected for crowding are read from its segments"},
-		{Name: "companions", Type: steps.Ref, Kinds: []string{"companions"},
-			Doc: "the stars near the target, with magnitude differences"},
-		{Name: "star", Type: steps.Ref, Kinds: []string{"star"}, Optional: true,
-			Doc: "the target star; needed only for the planet-on-companion radius scale (the target's radius, and its M_K for companions measured in Ks without a radius)"},
-		{Name: "draws", Type: steps.Integer, Default: int64(defaultDraws),
-			Doc: "Monte Carlo samples per hypothesis"},
-		{Name: "band_relation", Type: steps.StringMap, Optional: true,
-			Doc: "converts companions' magnitude differences into the light curve's band: Δm_to = offset + slope × Δm_from with a normal scatter drawn per sample; keys from, to, slope, offset (default 0), scatter (mag, default 0), source (where the relation comes from, echoed in a note)"},
-	}
+// Config is what a dilution block may say. Check reads band_relation; core turns the
+// configuration into Options, the numerical core's own (core.go).
+type Config struct {
+	LightCurve steps.Ref  `step:"light_curve,required" accepts:"photometry,detrend" doc:"the light curve whose transit is diluted: its band and whether its flux is already corrected for crowding are read from its segments"`
+	Companions steps.Ref  `step:"companions,required" accepts:"companions" doc:"the stars near the target, with magnitude differences"`
+	Star       *steps.Ref `step:"star" accepts:"star" doc:"the target star; needed only for the planet-on-companion radius scale (the target's radius, and its M_K for companions measured in Ks without a radius)"`
+	// Draws defaults to defaultDraws.
+	Draws int `step:"draws" default:"20000" doc:"Monte Carlo samples per hypothesis"`
+	// BandRelation is nil when the block states no relation.
+	BandRelation map[string]string `step:"band_relation" doc:"converts companions' magnitude differences into the light curve's band: Δm_to = offset + slope × Δm_from with a normal scatter drawn per sample; keys from, to, slope, offset (default 0), scatter (mag, default 0), source (where the relation comes from, echoed in a note)"`
+
+	// relation is band_relation read by Check; nil when none is stated.
+	relation *BandRelation
 }
 
-// Prepare implements steps.Kind.
-func (Kind) Prepare(v steps.Values) (any, error) {
-	cfg := Config{}
-	d := v.Int("draws")
-	if d < 100 || d > maxDraws {
-		return nil, steps.Attrf("draws", "must be between 100 and %d, not %d", maxDraws, d)
+// Check holds the draws to their bounds and reads band_relation.
+func (Kind) Check(s *Config) error {
+	if s.Draws < 100 || s.Draws > maxDraws {
+		return steps.Attrf("draws", "must be between 100 and %d, not %d", maxDraws, s.Draws)
 	}
-	cfg.Draws = int(d)
-	if m := v.Map("band_relation"); m != nil {
-		r, err := parseRelation(m)
+	s.relation = nil
+	if s.BandRelation != nil {
+		r, err := parseRelation(s.BandRelation)
 		if err != nil {
-			return nil, err
+			return err
 		}
-		cfg.Relation = r
+		s.relation = r
 	}
-	return cfg, nil
+	return nil
 }
+
+// core is the numerical core's configuration.
+func (s *Config) core() Options { return Options{Draws: s.Draws, Relation: s.relation} }
 
 // parseRelation checks and decodes the band_relation object.
 func parseRelation(m map[string]string) (*BandRelation, error) {
@@ -154,12 +157,8 @@ func parseRelation(m map[string]string) (*BandRelation, error) {
 	return r, nil
 }
 
-// Run implements steps.Kind.
-func (Kind) Run(ctx context.Context, cfgAny any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
-	cfg, ok := cfgAny.(Config)
-	if !ok {
-		return nil, fmt.Errorf("dilution: configuration of type %T", cfgAny)
-	}
+// Run draws the hypotheses from the referenced light curve, companions and star.
+func (Kind) Run(ctx context.Context, s *Config, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
@@ -185,7 +184,7 @@ func (Kind) Run(ctx context.Context, cfgAny any, in steps.Inputs, env steps.Env)
 	if err != nil {
 		return nil, err
 	}
-	res, notes, err := Compute(cfg, input, env.Seed)
+	res, notes, err := Compute(s.core(), input, env.Seed)
 	if err != nil {
 		return nil, err
 	}

@@ -89,8 +89,8 @@ func benchLogPost(b *testing.B, direct bool) {
 // planet in one 60-day segment of 2-min data (300 ppm), on a pool of 2 workers.
 func BenchmarkFitSixtyDays(b *testing.B) {
 	lc := longCurve([]truth{hot}, 60, 2.0/1440, 300e-6, 2)
-	k := Kind{}
-	cfg, err := k.Prepare(steptest.Values(k, map[string]any{"light_curve": "detrend.x", "signals": "search.x"}))
+	k := New()
+	cfg, err := steptest.Config(k, map[string]any{"light_curve": "detrend.x", "signals": "search.x"})
 	if err != nil {
 		b.Fatal(err)
 	}
@@ -143,8 +143,8 @@ func BenchmarkFitThreePlanetsTwoYears(b *testing.B) {
 	for _, tr := range trs {
 		sigs = append(sigs, start(tr))
 	}
-	k := Kind{}
-	cfg, err := k.Prepare(steptest.Values(k, map[string]any{"light_curve": "detrend.x", "signals": "search.x"}))
+	k := New()
+	cfg, err := steptest.Config(k, map[string]any{"light_curve": "detrend.x", "signals": "search.x"})
 	if err != nil {
 		b.Fatal(err)
 	}

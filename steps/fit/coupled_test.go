@@ -204,7 +204,7 @@ func TestMixedCadenceIsIntegratedPerSegment(t *testing.T) {
 	}
 	lc := invented(hot, segs, 31, 0, 400e-6, 3)
 	sig := start(hot)
-	art, _ := runKind(t, map[string]any{"light_curve": "detrend.x", "signals": "search.x", "max_steps": int64(1000), "jitter": false},
+	art, _ := runKind(t, map[string]any{"light_curve": "detrend.x", "signals": "search.x", "max_steps": 1000, "jitter": false},
 		lc, []signals.Signal{sig}, 2, 17)
 	// The bound of subexposures worked by hand for each segment: δ = the start's depth,
 	// τ = its duration·k/(1+k), ε = 0.1·400 ppm; N = ⌈min(√(δT/(8τε)), δ/(2ε))⌉.
@@ -251,9 +251,8 @@ func TestCoupledDilutionUndoesTheDilution(t *testing.T) {
 	sig.Depth /= 1.5
 	dil := dilutionArtifact{&stellar.Dilution{Band: "survey-red", Hypotheses: []stellar.Hypothesis{
 		{Host: "target", FluxRatio: logNormalDraws(0.5, 0.04, 2000, 5)}}}}
-	set := map[string]any{"light_curve": "detrend.x", "signals": "search.x", "dilution": "dilution.x", "max_steps": int64(1500)}
-	k := Kind{}
-	art, notes := runKindWith(t, k, set, steps.Inputs{Refs: map[string][]steps.Artifact{
+	set := map[string]any{"light_curve": "detrend.x", "signals": "search.x", "dilution": "dilution.x", "max_steps": 1500}
+	art, notes := runKindWith(t, set, steps.Inputs{Refs: map[string][]steps.Artifact{
 		"light_curve": {curveArtifact{lc}}, "signals": {searchArtifact{[]signals.Signal{sig}}}, "dilution": {dil}}}, 7)
 	t.Run("dilution is a sampled column", func(t *testing.T) {
 		if !slices.Contains(art.Names[:art.Sampled], "dilution") {
@@ -282,9 +281,10 @@ func TestCoupledDilutionUndoesTheDilution(t *testing.T) {
 	})
 }
 
-func runKindWith(t *testing.T, k Kind, set map[string]any, in steps.Inputs, seed uint64) (*Artifact, []string) {
+func runKindWith(t *testing.T, set map[string]any, in steps.Inputs, seed uint64) (*Artifact, []string) {
 	t.Helper()
-	cfg, err := k.Prepare(steptest.Values(k, set))
+	k := New()
+	cfg, err := steptest.Config(k, set)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -299,7 +299,7 @@ func runKindWith(t *testing.T, k Kind, set map[string]any, in steps.Inputs, seed
 
 // eccentricFit fits the invented eccentric planet tr in coupled mode (density prior from
 // star draws of 5 % spread around the truth) on days of data at cadence (min).
-func eccentricFit(t *testing.T, tr truth, days, cadence float64, maxSteps int64, jitter bool) *Artifact {
+func eccentricFit(t *testing.T, tr truth, days, cadence float64, maxSteps int, jitter bool) *Artifact {
 	t.Helper()
 	lc := invented(tr, []span{{id: "1", from: 0, to: days, cadence: cadence / 1440, q1: tr.q1, q2: tr.q2}}, 7, 0, 300e-6, 6)
 	aR := ScaledAxis(tr.period, tr.rho)
@@ -309,7 +309,7 @@ func eccentricFit(t *testing.T, tr truth, days, cadence float64, maxSteps int64,
 	star := starArtifact{&stellar.Star{Density: logNormalDraws(tr.rho, 0.05, 4000, 8)}}
 	set := map[string]any{"light_curve": "detrend.x", "signals": "search.x", "star": "star.x",
 		"eccentric": []string{"b"}, "max_steps": maxSteps, "jitter": jitter}
-	art, _ := runKindWith(t, Kind{}, set, steps.Inputs{Refs: map[string][]steps.Artifact{
+	art, _ := runKindWith(t, set, steps.Inputs{Refs: map[string][]steps.Artifact{
 		"light_curve": {curveArtifact{lc}}, "signals": {searchArtifact{[]signals.Signal{sig}}}, "star": {star}}}, 21)
 	return art
 }
@@ -330,7 +330,7 @@ func TestEccentricOrbitIsRecoveredWithADensityPrior(t *testing.T) {
 	// transits of 4-min data with jitter and 3000 steps (about a minute on a loaded machine).
 	tr := hot
 	tr.e, tr.omega = 0.3, 40*math.Pi/180
-	days, cadence, n, jitter := 6.5, 6.0, int64(1000), false
+	days, cadence, n, jitter := 6.5, 6.0, 1000, false
 	if os.Getenv("DIPLINE_LONG") == "1" {
 		days, cadence, n, jitter = 9.5, 4.0, 3000, true
 	}
@@ -449,8 +449,8 @@ func TestCoupledPriorsFromDraws(t *testing.T) {
 	})
 	t.Run("a star without density draws is bad input", func(t *testing.T) {
 		lc := synthetic(hot, 7, 800e-6, 3)
-		k := Kind{}
-		cfg, err := k.Prepare(steptest.Values(k, map[string]any{"light_curve": "detrend.x", "signals": "search.x", "star": "star.x"}))
+		k := New()
+		cfg, err := steptest.Config(k, map[string]any{"light_curve": "detrend.x", "signals": "search.x", "star": "star.x"})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -462,10 +462,14 @@ func TestCoupledPriorsFromDraws(t *testing.T) {
 		}
 	})
 	t.Run("without star and dilution references the kind reads neither", func(t *testing.T) {
-		for _, p := range (Kind{}).Params() {
-			if (p.Name == "star" || p.Name == "dilution") && (!p.Optional || p.Default != nil) {
-				t.Errorf("%s: optional %v, default %v", p.Name, p.Optional, p.Default)
+		for _, p := range New().Params() {
+			if (p.Name == "star" || p.Name == "dilution") && (p.Required || p.Default != "") {
+				t.Errorf("%s: required %v, default %q", p.Name, p.Required, p.Default)
 			}
+		}
+		cfg := steptest.MustConfig(New(), map[string]any{"light_curve": "detrend.x", "signals": "search.x"}).(*Config)
+		if cfg.Star != nil || cfg.Dilution != nil {
+			t.Errorf("a block without them decodes star %v, dilution %v", cfg.Star, cfg.Dilution)
 		}
 	})
 }

@@ -76,9 +76,8 @@ func start(tr truth) signals.Signal {
 
 func runKind(t *testing.T, set map[string]any, lc *lightcurve.LightCurve, sig []signals.Signal, workers int, seed uint64) (*Artifact, []string) {
 	t.Helper()
-	k := Kind{}
-	v := steptest.Values(k, set)
-	cfg, err := k.Prepare(v)
+	k := New()
+	cfg, err := steptest.Config(k, set)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -117,7 +116,7 @@ func TestHelpersMatchPublishedValues(t *testing.T) {
 
 func TestPosteriorCoversTheTruth(t *testing.T) {
 	lc := synthetic(hot, 12, 500e-6, 7)
-	art, notes := runKind(t, map[string]any{"light_curve": "detrend.x", "signals": "search.x", "max_steps": int64(3000)},
+	art, notes := runKind(t, map[string]any{"light_curve": "detrend.x", "signals": "search.x", "max_steps": 3000},
 		lc, []signals.Signal{start(hot)}, 2, 11)
 	// The true values of the invented planet; 3σ from the posterior median (σ from the
 	// 16th/84th percentiles), the reference epoch's mid-time computed from the truth.
@@ -165,7 +164,7 @@ func TestGuidedPhaseIsDeterministicAcrossWorkers(t *testing.T) {
 		t.Skip("-short skips the 3,000-step fits")
 	}
 	lc := synthetic(hot, 7, 800e-6, 3)
-	set := map[string]any{"light_curve": "detrend.x", "signals": "search.x", "max_steps": int64(3000)}
+	set := map[string]any{"light_curve": "detrend.x", "signals": "search.x", "max_steps": 3000}
 	a1, notes := runKind(t, set, lc, []signals.Signal{start(hot)}, 1, 5)
 	a2, _ := runKind(t, set, lc, []signals.Signal{start(hot)}, 2, 5)
 	if !slices.ContainsFunc(notes, func(n string) bool { return strings.Contains(n, "Student-t guide") }) {
@@ -178,7 +177,7 @@ func TestGuidedPhaseIsDeterministicAcrossWorkers(t *testing.T) {
 
 func TestDeterministicAcrossWorkers(t *testing.T) {
 	lc := synthetic(hot, 7, 800e-6, 3)
-	set := map[string]any{"light_curve": "detrend.x", "signals": "search.x", "max_steps": int64(200)}
+	set := map[string]any{"light_curve": "detrend.x", "signals": "search.x", "max_steps": 200}
 	a1, _ := runKind(t, set, lc, []signals.Signal{start(hot)}, 1, 99)
 	a2, _ := runKind(t, set, lc, []signals.Signal{start(hot)}, 2, 99)
 	t.Run("one and two workers give identical bytes", func(t *testing.T) {
@@ -235,27 +234,51 @@ func TestDeterministicAcrossWorkers(t *testing.T) {
 	golden.Check(t, "../..", "fit", version, a1)
 }
 
-func TestPrepareNamesTheAttribute(t *testing.T) {
+func TestCheckNamesTheAttribute(t *testing.T) {
 	cases := []struct {
 		name string
 		set  map[string]any
 		attr string
 	}{
-		{"four planets are too many", map[string]any{"planets": int64(4)}, "planets"},
-		{"zero planets are too few", map[string]any{"planets": int64(0)}, "planets"},
-		{"fifty steps are too few", map[string]any{"max_steps": int64(50)}, "max_steps"},
-		{"one ensemble cannot give R-hat", map[string]any{"ensembles": int64(1)}, "ensembles"},
+		{"four planets are too many", map[string]any{"planets": 4}, "planets"},
+		{"zero planets are too few", map[string]any{"planets": 0}, "planets"},
+		{"fifty steps are too few", map[string]any{"max_steps": 50}, "max_steps"},
+		{"one ensemble cannot give R-hat", map[string]any{"ensembles": 1}, "ensembles"},
 		{"a window under one duration is refused", map[string]any{"window": 0.5}, "window"},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
-			_, err := Kind{}.Prepare(steptest.Values(Kind{}, c.set))
+			_, err := steptest.Config(New(), c.set)
 			var ae *steps.AttrError
 			if !errors.As(err, &ae) || ae.Attr != c.attr {
 				t.Errorf("error %v, want one naming %q", err, c.attr)
 			}
 		})
 	}
+	t.Run("the defaults are accepted", func(t *testing.T) {
+		cfg, err := steptest.Config(New(), map[string]any{"light_curve": "detrend.x", "signals": "search.x"})
+		if err != nil {
+			t.Fatal(err)
+		}
+		// The tags' defaults are the constants whose reasons are given beside them.
+		c := cfg.(*Config)
+		if c.MaxSteps != defaultMaxSteps || c.Ensembles != defaultEnsembles || c.Window != defaultWindow ||
+			!c.Supersample || !c.Jitter || c.InflateByBeta || c.planets() != 0 ||
+			c.Priors != nil || c.Limb != nil || c.Eccentric != nil || c.Star != nil || c.Dilution != nil {
+			t.Fatalf("defaults decoded as %+v", c)
+		}
+	})
+	t.Run("the priors as written are parsed", func(t *testing.T) {
+		c := steptest.MustConfig(New(), map[string]any{"light_curve": "detrend.x", "signals": "search.x",
+			"priors":         map[string]string{"b.b": "uniform(0, 0.9)"},
+			"limb_darkening": map[string]string{"survey-red": "u1 = 0.3 ± 0.1, u2 = 0.2 ± 0.1"}}).(*Config)
+		if p := c.Priors["b.b"]; len(c.Priors) != 1 || p != (Prior{Shape: Uniform, A: 0, B: 0.9}) {
+			t.Errorf("priors %v", c.Priors)
+		}
+		if lp := c.Limb["survey-red"]; len(c.Limb) != 1 || lp != (LimbPrior{U1: 0.3, U1Sigma: 0.1, U2: 0.2, U2Sigma: 0.1}) {
+			t.Errorf("limb darkening %v", c.Limb)
+		}
+	})
 }
 
 func TestBadStartIsBadInput(t *testing.T) {
@@ -308,7 +331,7 @@ func TestTwoPlanetsAreNamedInSignalOrder(t *testing.T) {
 	for i := range lc.Segments[0].Flux {
 		lc.Segments[0].Flux[i] += two.Segments[0].Flux[i] - 1
 	}
-	art, _ := runKind(t, map[string]any{"light_curve": "detrend.x", "signals": "search.x", "max_steps": int64(200)},
+	art, _ := runKind(t, map[string]any{"light_curve": "detrend.x", "signals": "search.x", "max_steps": 200},
 		lc, []signals.Signal{start(hot), start(second)}, 1, 5)
 	for _, c := range []struct {
 		col  string
@@ -349,8 +372,8 @@ func FuzzDecode(f *testing.F) {
 // planet in 27 days of 30-min data with 500 ppm noise, on a pool of 2 workers.
 func BenchmarkFitMonth(b *testing.B) {
 	lc := synthetic(hot, 27, 500e-6, 7)
-	k := Kind{}
-	cfg, err := k.Prepare(steptest.Values(k, map[string]any{"light_curve": "detrend.x", "signals": "search.x"}))
+	k := New()
+	cfg, err := steptest.Config(k, map[string]any{"light_curve": "detrend.x", "signals": "search.x"})
 	if err != nil {
 		b.Fatal(err)
 	}

@@ -28,7 +28,7 @@
 // With the shape fixed at the best fit it times each transit (package timing) and reports
 // the residuals' β factor. It does not fit correlated noise, occultations, or limb darkening
 // other than quadratic; eccentricity from photometry alone is only as good as the density prior.
-// Main entry points: Kind (for the engine) and Fit (the library core).
+// Main entry points: New (the kind, for the engine) and Fit (the library core).
 package fit
 
 import (
@@ -46,8 +46,13 @@ import (
 	"dipline/steps/internal/stellar"
 )
 
-// Kind is the fit step kind.
+// Kind is the fit step kind, written against its Config; New makes it the engine's.
 type Kind struct{}
+
+// New returns the fit kind for the engine's registry.
+func New() steps.Kind { return steps.Define[Config](Kind{}) }
+
+var _ steps.Typed[Config] = Kind{}
 
 // version is bumped whenever the numbers or the encoding change.
 const version = 9
@@ -81,102 +86,79 @@ func (Kind) Doc() string {
 	return "Fits a limb-darkened transit model (circular or eccentric orbits, priors per parameter, limb darkening per band) to the transits of a search's signals and samples its posterior with independent ensembles of walkers."
 }
 
-// Params is the block's schema.
-func (Kind) Params() []steps.Param {
-	return []steps.Param{
-		{Name: "light_curve", Type: steps.Ref, Kinds: []string{"photometry", "detrend"},
-			Doc: "the light curve to fit: a photometry step, or (usually) a detrend step"},
-		{Name: "signals", Type: steps.Ref, Kinds: []string{"search"},
-			Doc: "the search whose signals give the start values (period, epoch, duration, depth); planets are named b, c, d in its order"},
-		{Name: "planets", Type: steps.Integer, Optional: true,
-			Doc: "fit the first this many signals jointly (1 to 3); all of the search's signals, up to 3, when absent"},
-		{Name: "max_steps", Type: steps.Integer, Default: int64(defaultMaxSteps),
-			Doc: "the most ensemble updates per ensemble; sampling stops earlier once the chains after burn-in (the first third is discarded) are 50 autocorrelation times long"},
-		{Name: "ensembles", Type: steps.Integer, Default: int64(defaultEnsembles),
-			Doc: "independently seeded ensembles of walkers (2 to 8), compared by R-hat"},
-		{Name: "window", Type: steps.Number, Default: defaultWindow,
-			Doc: "points within this many search durations of a predicted mid-transit enter the likelihood; the rest are left out"},
-		{Name: "supersample", Type: steps.Bool, Default: true,
-			Doc: "integrate the model over each point's exposure (needed for long exposures, Kipping 2010); off only for tests and comparisons"},
-		{Name: "jitter", Type: steps.Bool, Default: true,
-			Doc: "fit one white-noise jitter per segment (log-uniform prior, 1 ppm to 10 %), added in quadrature to the stated errors"},
-		{Name: "inflate_by_beta", Type: steps.Bool, Default: false,
-			Doc: "multiply every point's error by the time-averaging factor β of the best fit's residuals (Pont, Zucker & Queloz 2006) before sampling, when β > 1; β is reported either way"},
-		{Name: "priors", Type: steps.StringMap, Optional: true,
-			Doc: "priors replacing the fit's own, by parameter: star_density (g/cm3) and <planet>.period (d), <planet>.k, <planet>.b; each uniform(a, b), normal(mean, sigma), log_uniform(a, b) or fixed(value), e.g. { \"b.period\" = \"normal(3.7185, 0.0004)\", \"b.k\" = \"fixed(0.05)\" }; a fixed parameter is not sampled. Without it: uniform in period, k (0–1) and b (0–1+k), log-uniform density 0.01–100 g/cm3"},
-		{Name: "limb_darkening", Type: steps.StringMap, Optional: true,
-			Doc: "Gaussian priors on the quadratic coefficients by segment band, e.g. { \"survey-red\" = \"u1 = 0.35 ± 0.05, u2 = 0.25 ± 0.05\" }; the key \"default\" serves other bands and segments without one. Each band has its own q1, q2 (Kipping 2013), sampled; without a prior they are uniform on 0–1"},
-		{Name: "eccentric", Type: steps.StringList, Optional: true,
-			Doc: "planets (b, c, d) fitted on eccentric orbits, sampling √e cos ω and √e sin ω (uniform in e and ω, periastron outside the star); the others are circular"},
-		{Name: "star", Type: steps.Ref, Kinds: []string{"star"}, Optional: true,
-			Doc: "coupled mode: the star step whose density draws become the density prior (a log-normal fitted to the draws' ln density); without it the fit does not depend on the star and derive combines them afterwards"},
-		{Name: "dilution", Type: steps.Ref, Kinds: []string{"dilution"}, Optional: true,
-			Doc: "coupled mode: the dilution step whose flux ratios for the target (the first hypothesis) become the prior on a sampled dilution D ≥ 0 (a log-normal fitted to the draws), the model being (F + D)/(1 + D)"},
-	}
-}
-
-// Config is the decoded configuration of one fit block.
+// Config is what a fit block may say. Defaults are the constants above, written as a user
+// writes them. Check completes the untagged fields from the tagged ones.
 type Config struct {
-	Planets     int // 0: all signals, up to 3
-	MaxSteps    int
-	Ensembles   int
-	Window      float64
-	Supersample bool
-	Jitter      bool
-	// InflateByBeta multiplies the errors by the residuals' β factor before sampling.
-	InflateByBeta bool
-	Priors        map[string]Prior
-	Limb          map[string]LimbPrior
-	Eccentric     []string
+	LightCurve steps.Ref `step:"light_curve,required" accepts:"photometry,detrend" doc:"the light curve to fit: a photometry step, or (usually) a detrend step"`
+	Signals    steps.Ref `step:"signals,required" accepts:"search" doc:"the search whose signals give the start values (period, epoch, duration, depth); planets are named b, c, d in its order"`
+	// Planets is absent to fit all of the search's signals, up to maxPlanets (see planets).
+	Planets       *int    `step:"planets" doc:"fit the first this many signals jointly (1 to 3); all of the search's signals, up to 3, when absent"`
+	MaxSteps      int     `step:"max_steps" default:"100000" doc:"the most ensemble updates per ensemble; sampling stops earlier once the chains after burn-in (the first third is discarded) are 50 autocorrelation times long"`
+	Ensembles     int     `step:"ensembles" default:"2" doc:"independently seeded ensembles of walkers (2 to 8), compared by R-hat"`
+	Window        float64 `step:"window" default:"2.5" doc:"points within this many search durations of a predicted mid-transit enter the likelihood; the rest are left out"`
+	Supersample   bool    `step:"supersample" default:"true" doc:"integrate the model over each point's exposure (needed for long exposures, Kipping 2010); off only for tests and comparisons"`
+	Jitter        bool    `step:"jitter" default:"true" doc:"fit one white-noise jitter per segment (log-uniform prior, 1 ppm to 10 %), added in quadrature to the stated errors"`
+	InflateByBeta bool    `step:"inflate_by_beta" default:"false" doc:"multiply every point's error by the time-averaging factor β of the best fit's residuals (Pont, Zucker & Queloz 2006) before sampling, when β > 1; β is reported either way"`
+	// PriorText and LimbText are the priors as written; Check parses them into Priors and
+	// Limb.
+	PriorText map[string]string `step:"priors" doc:"priors replacing the fit's own, by parameter: star_density (g/cm3) and <planet>.period (d), <planet>.k, <planet>.b; each uniform(a, b), normal(mean, sigma), log_uniform(a, b) or fixed(value), e.g. { \"b.period\" = \"normal(3.7185, 0.0004)\", \"b.k\" = \"fixed(0.05)\" }; a fixed parameter is not sampled. Without it: uniform in period, k (0–1) and b (0–1+k), log-uniform density 0.01–100 g/cm3"`
+	LimbText  map[string]string `step:"limb_darkening" doc:"Gaussian priors on the quadratic coefficients by segment band, e.g. { \"survey-red\" = \"u1 = 0.35 ± 0.05, u2 = 0.25 ± 0.05\" }; the key \"default\" serves other bands and segments without one. Each band has its own q1, q2 (Kipping 2013), sampled; without a prior they are uniform on 0–1"`
+	Eccentric []string          `step:"eccentric" doc:"planets (b, c, d) fitted on eccentric orbits, sampling √e cos ω and √e sin ω (uniform in e and ω, periastron outside the star); the others are circular"`
+	Star      *steps.Ref        `step:"star" accepts:"star" doc:"coupled mode: the star step whose density draws become the density prior (a log-normal fitted to the draws' ln density); without it the fit does not depend on the star and derive combines them afterwards"`
+	Dilution  *steps.Ref        `step:"dilution" accepts:"dilution" doc:"coupled mode: the dilution step whose flux ratios for the target (the first hypothesis) become the prior on a sampled dilution D ≥ 0 (a log-normal fitted to the draws), the model being (F + D)/(1 + D)"`
+
+	// Priors are PriorText parsed, by parameter; nil when there are none.
+	Priors map[string]Prior
+	// Limb are LimbText parsed, by band; nil when there are none.
+	Limb map[string]LimbPrior
 }
 
-// Prepare checks the values and builds a Config.
-func (Kind) Prepare(v steps.Values) (any, error) {
-	c := Config{Window: v.Float("window"), Supersample: v.Bool("supersample"), Jitter: v.Bool("jitter"), InflateByBeta: v.Bool("inflate_by_beta")}
-	if v.Has("planets") {
-		n := v.Int("planets")
-		if n < 1 || n > maxPlanets {
-			return nil, steps.Attrf("planets", "must be between 1 and %d, not %d", maxPlanets, n)
-		}
-		c.Planets = int(n)
+// planets is how many signals to fit, 0 for all of them up to maxPlanets.
+func (c *Config) planets() int {
+	if c.Planets == nil {
+		return 0
 	}
-	n := v.Int("max_steps")
-	if n < 100 || n > 1000000 {
-		return nil, steps.Attrf("max_steps", "must be between 100 and 1000000, not %d", n)
+	return *c.Planets
+}
+
+// Check holds the values to what the sampler can take and parses the priors.
+func (Kind) Check(c *Config) error {
+	c.Priors, c.Limb = nil, nil
+	if n := c.Planets; n != nil && (*n < 1 || *n > maxPlanets) {
+		return steps.Attrf("planets", "must be between 1 and %d, not %d", maxPlanets, *n)
 	}
-	c.MaxSteps = int(n)
-	e := v.Int("ensembles")
-	if e < 2 || e > 8 {
-		return nil, steps.Attrf("ensembles", "must be between 2 and 8, not %d", e)
+	if c.MaxSteps < 100 || c.MaxSteps > 1000000 {
+		return steps.Attrf("max_steps", "must be between 100 and 1000000, not %d", c.MaxSteps)
 	}
-	c.Ensembles = int(e)
+	if c.Ensembles < 2 || c.Ensembles > 8 {
+		return steps.Attrf("ensembles", "must be between 2 and 8, not %d", c.Ensembles)
+	}
 	if !(c.Window >= 1 && c.Window <= 10) {
-		return nil, steps.Attrf("window", "must be between 1 and 10 search durations, not %v", c.Window)
+		return steps.Attrf("window", "must be between 1 and 10 search durations, not %v", c.Window)
 	}
-	keys := sortedKeys(v.Map("priors"))
-	for _, key := range keys {
+	for _, key := range sortedKeys(c.PriorText) {
 		if err := checkPriorKey(key); err != nil {
-			return nil, steps.Attrf("priors", "key %q: %v", key, err)
+			return steps.Attrf("priors", "key %q: %v", key, err)
 		}
-		p, err := ParsePrior(v.Map("priors")[key])
+		p, err := ParsePrior(c.PriorText[key])
 		if err != nil {
-			return nil, steps.Attrf("priors", "key %q: %v", key, err)
+			return steps.Attrf("priors", "key %q: %v", key, err)
 		}
 		if err := checkPriorRange(key, p); err != nil {
-			return nil, steps.Attrf("priors", "key %q: %v", key, err)
+			return steps.Attrf("priors", "key %q: %v", key, err)
 		}
-		if key == "star_density" && v.Has("star") {
-			return nil, steps.Attrf("priors", "key %q: the star reference already gives the density prior; give one or the other", key)
+		if key == "star_density" && c.Star != nil {
+			return steps.Attrf("priors", "key %q: the star reference already gives the density prior; give one or the other", key)
 		}
 		if c.Priors == nil {
 			c.Priors = map[string]Prior{}
 		}
 		c.Priors[key] = p
 	}
-	for _, band := range sortedKeys(v.Map("limb_darkening")) {
-		lp, err := ParseLimbPrior(v.Map("limb_darkening")[band])
+	for _, band := range sortedKeys(c.LimbText) {
+		lp, err := ParseLimbPrior(c.LimbText[band])
 		if err != nil {
-			return nil, steps.Attrf("limb_darkening", "band %q: %v", band, err)
+			return steps.Attrf("limb_darkening", "band %q: %v", band, err)
 		}
 		if c.Limb == nil {
 			c.Limb = map[string]LimbPrior{}
@@ -184,15 +166,14 @@ func (Kind) Prepare(v steps.Values) (any, error) {
 		c.Limb[band] = lp
 	}
 	seen := map[string]bool{}
-	for _, name := range v.Strs("eccentric") {
+	for _, name := range c.Eccentric {
 		j := planetIndex(name)
-		if j < 0 || (c.Planets > 0 && j >= c.Planets) || seen[name] {
-			return nil, steps.Attrf("eccentric", "%q: name each fitted planet (b, c, d) at most once", name)
+		if j < 0 || (c.planets() > 0 && j >= c.planets()) || seen[name] {
+			return steps.Attrf("eccentric", "%q: name each fitted planet (b, c, d) at most once", name)
 		}
 		seen[name] = true
-		c.Eccentric = append(c.Eccentric, name)
 	}
-	return c, nil
+	return nil
 }
 
 // checkPriorRange refuses priors outside a parameter's possible values: densities and
@@ -278,11 +259,7 @@ func logNormalOf(what string, draws []float64, zeroOK bool) (Prior, error) {
 }
 
 // Run fits the referenced light curve.
-func (Kind) Run(ctx context.Context, cfgAny any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
-	cfg, ok := cfgAny.(Config)
-	if !ok {
-		return nil, fmt.Errorf("fit: configuration of type %T", cfgAny)
-	}
+func (Kind) Run(ctx context.Context, cfg *Config, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
 	src, ok := in.Ref("light_curve").(lightcurve.Source)
 	if !ok || src.LightCurve() == nil {
 		return nil, errors.New("fit: light_curve does not refer to a step with a light curve")
@@ -295,7 +272,7 @@ func (Kind) Run(ctx context.Context, cfgAny any, in steps.Inputs, env steps.Env)
 	if len(sigs) == 0 {
 		return nil, steps.BadInputf("signals: the search found no signal to fit")
 	}
-	n := cfg.Planets
+	n := cfg.planets()
 	switch {
 	case n == 0:
 		n = min(len(sigs), maxPlanets)

@@ -219,7 +219,7 @@ func TestPriorsEnterTheLogPosteriorExactly(t *testing.T) {
 
 func TestFixedParametersAreNotSampled(t *testing.T) {
 	lc := synthetic(hot, 7, 800e-6, 3)
-	art, notes := runKind(t, map[string]any{"light_curve": "detrend.x", "signals": "search.x", "max_steps": int64(200),
+	art, notes := runKind(t, map[string]any{"light_curve": "detrend.x", "signals": "search.x", "max_steps": 200,
 		"priors": map[string]string{"b.k": "fixed(0.1)", "star_density": "log_uniform(0.5, 3)"}}, lc, []signals.Signal{start(hot)}, 1, 3)
 	t.Run("b.k is not among the sampled columns", func(t *testing.T) {
 		if slices.Contains(art.Names[:art.Sampled], "b.k") || art.Sampled != 7 {
@@ -271,12 +271,12 @@ func TestPriorErrorsNameTheAttributeAndKey(t *testing.T) {
 		{"a fixed k of 2", map[string]any{"priors": map[string]string{"c.k": "fixed(2)"}}, "priors"},
 		{"a malformed limb-darkening prior", map[string]any{"limb_darkening": map[string]string{"red": "u1 = 0.3"}}, "limb_darkening"},
 		{"an eccentric planet e", map[string]any{"eccentric": []string{"e"}}, "eccentric"},
-		{"an eccentric planet beyond those fitted", map[string]any{"planets": int64(1), "eccentric": []string{"c"}}, "eccentric"},
+		{"an eccentric planet beyond those fitted", map[string]any{"planets": 1, "eccentric": []string{"c"}}, "eccentric"},
 	}
 	for _, c := range cases {
 		t.Run(c.name+" is refused naming "+c.attr, func(t *testing.T) {
 			c.set["light_curve"], c.set["signals"] = "detrend.x", "search.x"
-			_, err := Kind{}.Prepare(steptest.Values(Kind{}, c.set))
+			_, err := steptest.Config(New(), c.set)
 			var ae *steps.AttrError
 			if !errors.As(err, &ae) || ae.Attr != c.attr {
 				t.Errorf("error %v, want one naming %q", err, c.attr)

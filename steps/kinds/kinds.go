@@ -18,6 +18,6 @@ import (
 
 // Registry returns every step kind, checked.
 func Registry() (steps.Registry, error) {
-	return steps.NewRegistry(photometry.Kind{}, detrend.Kind{}, search.Kind{}, fit.Kind{},
-		star.Kind{}, companions.Kind{}, dilution.Kind{}, derive.Kind{}, vet.Kind{})
+	return steps.NewRegistry(photometry.New(), detrend.New(), search.New(), fit.New(),
+		star.New(), companions.New(), dilution.New(), derive.New(), vet.New())
 }

@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 	"strings"
+
+	"dipline/steps"
 )
 
 // Role is what a column holds.
@@ -34,33 +36,64 @@ var defaultNames = [nRoles][]string{
 	FlagCol:  {"flag", "flags", "quality", "qual"},
 }
 
-// Config is the decoded configuration of a photometry step.
+// Config is what a photometry block may say. Check completes the fields below the
+// attributes, which the reader works from; Read takes a Config as a library call gives it.
 type Config struct {
-	// Columns are user-given column names by role; "" means try defaultNames.
+	Files steps.Files `step:"files,required" doc:"light-curve files, text (comma, tab or whitespace separated, header row first) or FITS; each file is one segment"`
+	// ColumnNames are the column names the block gives, by role key; Check reads them into
+	// Columns.
+	ColumnNames map[string]string `step:"columns" doc:"column names by role (keys time, flux, error, flag), matched without regard to case; unnamed roles try common names"`
+	// ExtensionName is the extension as written; Check trims it into Extension.
+	ExtensionName *string `step:"extension" doc:"FITS binary table by EXTNAME or 1-based extension number; default: the first with a time and a flux column"`
+	// TimeScale is the scale and origin the workflow states, one of TimeScaleChoices.
+	TimeScale string `step:"time_scale" default:"BJD_TDB" choices:"BJD_TDB|BJD_TT|BJD_UTC|BJD_TAI|BJD_TCB|BJD_TCG|HJD_TDB|HJD_TT|HJD_UTC|HJD_TAI|HJD_TCB|HJD_TCG|JD_TDB|JD_TT|JD_UTC|JD_TAI|JD_TCB|JD_TCG" doc:"time scale and origin of the times; FITS TIMESYS and TIMEREF must agree"`
+	// TimeZero is the Julian date of time 0 in text files; nil when their times are full
+	// Julian dates.
+	TimeZero *float64 `step:"time_zero" doc:"Julian date of time 0 in text files; without it their times are full Julian dates"`
+	// Exposure is the integration time of one point in days; nil to take it from the file.
+	Exposure *float64 `step:"exposure" dim:"time" doc:"integration time of one point; default: from the FITS header (EXPOSURE, INT_TIME, TIMEDEL), else the median cadence"`
+	// Band is the photometric band of every segment; nil (or blank) takes FITS FILTER if any.
+	Band *string `step:"band" doc:"photometric band of every segment; default: FITS FILTER, else none"`
+	// FlagMask drops a row when its flag AND the mask is nonzero; -1 is every bit.
+	FlagMask          int      `step:"flag_mask" default:"-1" doc:"drop rows whose flag AND this mask is nonzero; -1 (the default) drops any nonzero flag, 0 keeps all"`
+	CrowdingCorrected bool     `step:"crowding_corrected" default:"false" doc:"the flux is already corrected for light from other stars"`
+	Contamination     *float64 `step:"contamination" doc:"ratio of contaminating to target flux in the aperture, when known"`
+
+	// Columns are the column names by role, from ColumnNames; "" means try defaultNames.
 	Columns [nRoles]string
-	// Extension selects the FITS binary table by EXTNAME or 1-based extension number;
-	// "" means the first binary table with a time and a flux column.
+	// Extension selects the FITS binary table by EXTNAME or 1-based extension number, from
+	// ExtensionName; "" means the first binary table with a time and a flux column.
 	Extension string
-	// TimeScale is the scale and origin the workflow states, e.g. "BJD_TDB".
-	TimeScale string
-	// TimeZero is the Julian date of time 0 in text files, when HasTimeZero.
-	TimeZero    float64
-	HasTimeZero bool
-	// Exposure is the integration time of one point in days, when HasExposure.
-	Exposure    float64
-	HasExposure bool
-	// Band is the photometric band of every segment; "" means take FITS FILTER if any.
-	Band string
-	// FlagMask drops a row when its flag AND FlagMask is nonzero.
-	FlagMask uint64
-	// CrowdingCorrected and Contamination (NaN when unknown) describe every segment.
-	CrowdingCorrected bool
-	Contamination     float64
 }
 
-// DefaultConfig is the configuration of a block that sets nothing but its files.
+// band is the band every segment is given; "" takes FITS FILTER if any.
+func (c *Config) band() string {
+	if c.Band == nil {
+		return ""
+	}
+	return strings.TrimSpace(*c.Band)
+}
+
+// flagMask is the mask as bits: -1 sets every one.
+func (c *Config) flagMask() uint64 { return uint64(int64(c.FlagMask)) }
+
+// contamination is the ratio of contaminating to target flux, NaN when unknown.
+func (c *Config) contamination() float64 {
+	if c.Contamination == nil {
+		return math.NaN()
+	}
+	return *c.Contamination
+}
+
+// DefaultConfig is the configuration of a block that sets nothing but its files, its
+// defaults read from Config's tags: for calling Read as a library.
 func DefaultConfig() Config {
-	return Config{TimeScale: "BJD_TDB", FlagMask: ^uint64(0), Contamination: math.NaN()}
+	cfg, err := New().Schema().New()
+	if err != nil {
+		// The tags are the program's, checked by every test that registers the kind.
+		panic(fmt.Sprintf("photometry: the configuration's tags: %v", err))
+	}
+	return *cfg.(*Config)
 }
 
 // pickColumns chooses a column index for each role from the names in a file's header (-1

@@ -23,13 +23,24 @@ func load(t testing.TB, paths ...string) []steps.File {
 	return out
 }
 
-// values applies the schema's defaults to the attributes given, as the engine does.
-func values(attrs map[string]any) steps.Values { return steptest.Values(Kind{}, attrs) }
+// block is what a photometry block writes: the given attributes, and files naming those
+// the test hands over.
+func block(attrs map[string]any, files []steps.File) map[string]any {
+	names := []string{}
+	for _, f := range files {
+		names = append(names, f.Name)
+	}
+	b := map[string]any{"files": names}
+	for k, v := range attrs {
+		b[k] = v
+	}
+	return b
+}
 
-// runKind prepares and runs the kind as the engine would, collecting its notes.
+// runKind configures and runs the kind as the engine would, collecting its notes.
 func runKind(t testing.TB, attrs map[string]any, files []steps.File) (*Result, []string, error) {
 	t.Helper()
-	art, notes, err := steptest.Run(Kind{}, values(attrs), steps.Inputs{Files: map[string][]steps.File{"files": files}}, steps.NewPool(2))
+	art, notes, err := steptest.Run(New(), block(attrs, files), steps.Inputs{Files: map[string][]steps.File{"files": files}}, steps.NewPool(2))
 	if err != nil {
 		return nil, notes, err
 	}

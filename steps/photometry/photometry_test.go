@@ -2,9 +2,11 @@ package photometry
 
 import (
 	"bytes"
+	"errors"
 	"math"
 	"math/big"
 	"math/rand/v2"
+	"slices"
 	"sort"
 	"strings"
 	"testing"
@@ -13,6 +15,7 @@ import (
 	"dipline/steps/internal/fits/fitsfixtures"
 	"dipline/steps/internal/golden"
 	"dipline/steps/internal/lightcurve"
+	"dipline/steps/internal/steptest"
 )
 
 // The FITS fixtures were written by cfitsio (testdata/fits/make_fixtures.c); expected values
@@ -189,7 +192,7 @@ func TestFlagMask(t *testing.T) {
 	}
 	for _, c := range []struct {
 		name string
-		mask int64
+		mask int
 		want int
 	}{
 		{"the default mask drops any nonzero flag", -1, count(^0)},
@@ -219,7 +222,7 @@ func TestExposureSources(t *testing.T) {
 		{"the header's EXPOSURE in seconds (its comment says [s])", nil, "fits/lightcurve.fits", 480.0 / 86400},
 		{"TIMEDEL when there is no EXPOSURE", nil, "fits/lightcurve_late.fits", 120.0 / 86400},
 		{"the median cadence for a text file: 0.02 d steps (testdata/csv/README.md)", map[string]any{"time_zero": 2460100.5}, "csv/segment.csv", 0.02},
-		{"the workflow's exposure over the header's", map[string]any{"exposure": 5.0 / 1440}, "fits/lightcurve.fits", 5.0 / 1440},
+		{"the workflow's exposure over the header's", map[string]any{"exposure": "5 min"}, "fits/lightcurve.fits", 5.0 / 1440},
 	}
 	for _, c := range cases {
 		t.Run("exposure from "+c.name, func(t *testing.T) {
@@ -268,31 +271,63 @@ func TestChoosingTheExtension(t *testing.T) {
 	}
 }
 
-func TestPrepareRefusesBadSettings(t *testing.T) {
+func TestCheckRefusesBadSettings(t *testing.T) {
 	cases := []struct {
 		name  string
 		attrs map[string]any
+		attr  string
 		want  string
 	}{
-		{"an unknown columns key", map[string]any{"columns": map[string]string{"mag": "x"}}, `columns: unknown key "mag"; the keys are time, flux, error, flag`},
-		{"a time scale not on the list", map[string]any{"time_scale": "GPS"}, `time_scale: "GPS" is not one of BJD_TDB`},
-		{"a negative mask other than -1", map[string]any{"flag_mask": int64(-2)}, "flag_mask: -2: give a bit mask"},
-		{"a negative contamination", map[string]any{"contamination": -0.1}, "contamination: -0.1"},
-		{"extension 0", map[string]any{"extension": "0"}, "extension: 0 is not an extension number"},
-		{"a zero exposure", map[string]any{"exposure": 0.0}, "exposure: must be positive"},
+		{"an unknown columns key", map[string]any{"columns": map[string]string{"mag": "x"}}, "columns", `unknown key "mag"; the keys are time, flux, error, flag`},
+		{"an empty column name", map[string]any{"columns": map[string]string{"flux": " "}}, "columns", "flux: empty column name"},
+		{"a time scale not on the list", map[string]any{"time_scale": "GPS"}, "time_scale", `"GPS", which is not one of "BJD_TDB"`},
+		{"a negative mask other than -1", map[string]any{"flag_mask": -2}, "flag_mask", "-2: give a bit mask"},
+		{"a negative contamination", map[string]any{"contamination": -0.1}, "contamination", "-0.1"},
+		{"extension 0", map[string]any{"extension": "0"}, "extension", "0 is not an extension number"},
+		{"a blank extension", map[string]any{"extension": " "}, "extension", "empty; give an EXTNAME"},
+		{"a zero exposure", map[string]any{"exposure": "0 d"}, "exposure", "must be positive"},
+		{"a negative time zero", map[string]any{"time_zero": -1.0}, "time_zero", "-1 is not a Julian date"},
 	}
 	for _, c := range cases {
 		t.Run(c.name+" is refused", func(t *testing.T) {
-			_, err := Kind{}.Prepare(values(c.attrs))
+			_, err := steptest.Config(New(), block(c.attrs, []steps.File{{Name: "lc.csv"}}))
 			var ae *steps.AttrError
-			if err == nil || !strings.HasPrefix(err.Error(), c.want) {
-				t.Fatalf("error %v, want %s", err, c.want)
-			}
-			if !asAttr(err, &ae) {
-				t.Fatalf("%v is not an attribute error", err)
+			if !errors.As(err, &ae) || ae.Attr != c.attr || !strings.Contains(ae.Msg, c.want) {
+				t.Fatalf("error %v, want one on %s saying %s", err, c.attr, c.want)
 			}
 		})
 	}
+	t.Run("the defaults are those of a block that sets only its files", func(t *testing.T) {
+		cfg, err := steptest.Config(New(), block(nil, []steps.File{{Name: "lc.csv"}}))
+		if err != nil {
+			t.Fatal(err)
+		}
+		c := cfg.(*Config)
+		if c.TimeScale != "BJD_TDB" || c.flagMask() != ^uint64(0) || c.CrowdingCorrected || !math.IsNaN(c.contamination()) ||
+			c.band() != "" || c.TimeZero != nil || c.Exposure != nil || c.Columns != [nRoles]string{} || c.Extension != "" {
+			t.Fatalf("defaults decoded as %+v", c)
+		}
+		d := DefaultConfig()
+		if d.TimeScale != c.TimeScale || d.FlagMask != c.FlagMask || d.CrowdingCorrected != c.CrowdingCorrected {
+			t.Errorf("DefaultConfig %+v is not the block's %+v", d, c)
+		}
+	})
+	t.Run("time_scale takes exactly the scales the FITS reader knows", func(t *testing.T) {
+		got := New().Schema().Param("time_scale").Choices
+		if want := TimeScaleChoices(); !slices.Equal(got, want) {
+			t.Fatalf("choices %q, want %q", got, want)
+		}
+	})
+	t.Run("a written column name is trimmed and put at its role", func(t *testing.T) {
+		cfg, err := steptest.Config(New(), block(map[string]any{"columns": map[string]string{"flag": " QUALITY ", "time": "BJD"}, "extension": " LC "},
+			[]steps.File{{Name: "lc.fits"}}))
+		if err != nil {
+			t.Fatal(err)
+		}
+		if c := cfg.(*Config); c.Columns != [nRoles]string{TimeCol: "BJD", FlagCol: "QUALITY"} || c.Extension != "LC" {
+			t.Fatalf("columns %q, extension %q", c.Columns, c.Extension)
+		}
+	})
 	// A workflow written for a text file runs unchanged on a FITS file: time_zero is
 	// set aside with a note, and the header's reference is used.
 	res, notes, err := runKind(t, map[string]any{"time_zero": 2460000.0}, load(t, "fits/lightcurve.fits"))
@@ -302,12 +337,6 @@ func TestPrepareRefusesBadSettings(t *testing.T) {
 	if res.LC.RefInt == 2460000 && res.LC.RefFrac == 0 {
 		t.Fatalf("time_zero was applied to a FITS file")
 	}
-}
-
-func asAttr(err error, target **steps.AttrError) bool {
-	ae, ok := err.(*steps.AttrError)
-	*target = ae
-	return ok
 }
 
 func TestArtifactRoundTripAndTruncation(t *testing.T) {
@@ -391,7 +420,7 @@ func TestGoldenOnTheFixtures(t *testing.T) {
 }
 
 func TestRegistryAcceptsTheSchema(t *testing.T) {
-	if _, err := steps.NewRegistry(Kind{}); err != nil {
+	if _, err := steps.NewRegistry(New()); err != nil {
 		t.Fatal(err)
 	}
 }

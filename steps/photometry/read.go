@@ -41,7 +41,7 @@ func Read(cfg Config, files []steps.File, note func(format string, args ...any))
 		}
 		bs = append(bs, b)
 	}
-	if cfg.HasTimeZero && texts == 0 {
+	if cfg.TimeZero != nil && texts == 0 {
 		// A workflow written for text files must also run on FITS files unchanged.
 		note("time_zero applies to text files only; every file here is FITS, whose header gives the reference")
 	}
@@ -94,9 +94,9 @@ func readText(cfg *Config, name string, data []byte, note noteFunc) (*rawSegment
 	if len(cols.lines) == 0 {
 		return nil, steps.BadInputf("%s: the header on line %d is followed by no rows", name, t.line)
 	}
-	if cfg.HasTimeZero {
+	if cfg.TimeZero != nil {
 		r.hasRef = true
-		r.refInt, r.refFrac = splitJD(cfg.TimeZero, 0)
+		r.refInt, r.refFrac = splitJD(*cfg.TimeZero, 0)
 		r.refFrom = "time_zero"
 	}
 	return r, nil

@@ -167,8 +167,8 @@ func build(cfg *Config, r *rawSegment, id string, note noteFunc) (built, error) 
 
 	m := len(keep)
 	s := lightcurve.Segment{
-		ID: id, Band: cfg.Band, Instrument: r.instrument,
-		CrowdingCorrected: cfg.CrowdingCorrected, Contamination: cfg.Contamination,
+		ID: id, Band: cfg.band(), Instrument: r.instrument,
+		CrowdingCorrected: cfg.CrowdingCorrected, Contamination: cfg.contamination(),
 		Time: make([]float64, m), Flux: make([]float64, m), Err: make([]float64, m),
 	}
 	for k, i := range keep {
@@ -204,6 +204,7 @@ func usableRows(cfg *Config, r *rawSegment, note noteFunc) ([]int, lightcurve.Dr
 	n := len(r.time)
 	keep := make([]int, 0, n)
 	var d lightcurve.Dropped
+	mask := cfg.flagMask()
 	firstBad := -1
 	for i := 0; i < n; i++ {
 		if r.flag != nil {
@@ -211,7 +212,7 @@ func usableRows(cfg *Config, r *rawSegment, note noteFunc) ([]int, lightcurve.Dr
 			if !ok {
 				return nil, d, steps.BadInputf("%s: column %s: %v is not a whole-number flag", r.where(i), r.cols[FlagCol], r.flag[i])
 			}
-			if bits&cfg.FlagMask != 0 {
+			if bits&mask != 0 {
 				d.Flagged++
 				continue
 			}
@@ -317,8 +318,8 @@ func normalise(r *rawSegment, s *lightcurve.Segment, note noteFunc) error {
 // settleExposure takes one point's exposure from the workflow, a header keyword no longer
 // than the cadence, or the median cadence, in that order, and says which.
 func settleExposure(cfg *Config, r *rawSegment, s *lightcurve.Segment, cadence float64, note noteFunc) error {
-	if cfg.HasExposure {
-		s.Exposure = cfg.Exposure
+	if cfg.Exposure != nil {
+		s.Exposure = *cfg.Exposure
 		return nil
 	}
 	for _, c := range r.exposure {

@@ -9,6 +9,7 @@ import (
 	"testing"
 
 	"dipline/steps"
+	"dipline/steps/internal/steptest"
 )
 
 func TestTextLayoutsGiveTheSameLightCurve(t *testing.T) {
@@ -281,17 +282,18 @@ func TestDuplicateTimesAreDroppedAndCounted(t *testing.T) {
 func TestInspectRefusesWhatRunRefuses(t *testing.T) {
 	csv := "time,flux,flux_err\n2460000.1,1.0,0.001\n2460000.2,oops,0.001\n2460000.3,1.0,0.001\n"
 	files := []steps.File{{Name: "bad.csv", Data: []byte(csv)}}
-	cfg, err := Kind{}.Prepare(values(nil))
+	cfg, err := steptest.Config(New(), block(nil, files))
 	if err != nil {
 		t.Fatal(err)
 	}
-	ierr := Kind{}.Inspect(cfg, steps.Inputs{Files: map[string][]steps.File{"files": files}})
+	kind := New().(steps.Inspector) // as the engine calls it
+	ierr := kind.Inspect(cfg, steps.Inputs{Files: map[string][]steps.File{"files": files}})
 	_, _, rerr := runKind(t, nil, files)
 	if ierr == nil || rerr == nil || ierr.Error() != rerr.Error() || !steps.IsInputError(ierr) || !strings.Contains(ierr.Error(), "bad.csv:3: column flux") {
 		t.Errorf("inspect %v, run %v", ierr, rerr)
 	}
 	good := []steps.File{{Name: "good.csv", Data: []byte("time,flux\n2460000.1,1\n2460000.2,1.1\n2460000.3,0.9\n")}}
-	if err := (Kind{}).Inspect(cfg, steps.Inputs{Files: map[string][]steps.File{"files": good}}); err != nil {
+	if err := kind.Inspect(cfg, steps.Inputs{Files: map[string][]steps.File{"files": good}}); err != nil {
 		t.Errorf("a good file: %v", err)
 	}
 }

@@ -113,7 +113,7 @@ func TestTheSearchSaysWhichPeriodTheDataPrefer(t *testing.T) {
 		// so narrow a range the SDE means little, so the threshold is lowered.
 		dur := bls.CentralDuration(3, solarDensity)
 		a := searched(t, days(30, 4, syn.Box{Period: 3, Epoch: 1.3, Duration: dur, Depth: 2e-3}),
-			map[string]any{"periods": [2]float64{5.2, 7.2}, "sde_threshold": 1.0, "max_signals": int64(1)})
+			map[string]any{"periods": []string{"5.2 d", "7.2 d"}, "sde_threshold": 1.0, "max_signals": 1})
 		d := a.Detections()[0]
 		if math.Abs(d.Timing.Period-6) > 0.02 || d.Rivals.Preferred != bls.PreferHalf {
 			t.Fatalf("found %.4f d, preferred %d (ΔBIC %.1f)", d.Timing.Period, d.Rivals.Preferred, d.Rivals.HalfDeltaBIC)
@@ -141,7 +141,7 @@ func TestTheSearchFlagsASignalCarriedByOneEvent(t *testing.T) {
 		{"a deep event on one transit of a weak planet", []syn.Signal{event, weak}},
 	} {
 		t.Run(c.name+" is said to carry the signal", func(t *testing.T) {
-			a := searched(t, days(30, 3, c.dips...), map[string]any{"sde_threshold": 3.0, "max_signals": int64(1)})
+			a := searched(t, days(30, 3, c.dips...), map[string]any{"sde_threshold": 3.0, "max_signals": 1})
 			sp := a.Detections()[0].Spread
 			if !(sp.Strongest >= bls.SingleShare) || math.Abs(sp.StrongestTime-event.Time) > event.Duration {
 				t.Errorf("strongest transit at %.3f d carries %.3f", sp.StrongestTime, sp.Strongest)

@@ -7,10 +7,11 @@
 // files; this package turns a block's values into bls.Options, runs them on the engine's
 // worker pool and wraps the outcome as an Artifact.
 //
-// Main entry point: Kind (register it with the engine). The artifact, *Artifact, gives its
-// signals through signals.Source, so detrend (masking), fit, vet and ephemeris steps can
-// take it, and says in plain words (steps.Cautioner) when a signal's period is doubtful: the
-// data prefer half or twice it, one or two transits carry it, or only two transits have data.
+// Main entry points: New (register it with the engine) and Search (the same work as a
+// library call). The artifact, *Artifact, gives its signals through signals.Source, so
+// detrend (masking), fit, vet and ephemeris steps can take it, and says in plain words
+// (steps.Cautioner) when a signal's period is doubtful: the data prefer half or twice it,
+// one or two transits carry it, or only two transits have data.
 // It does not detrend, fit a transit model or judge whether a signal is a planet.
 package search
 
@@ -23,12 +24,18 @@ import (
 
 	"dipline/steps"
 	"dipline/steps/internal/lightcurve"
+	"dipline/steps/internal/parallel"
 	"dipline/steps/search/bls"
 	"dipline/steps/units"
 )
 
-// Kind is the search step kind.
+// Kind is the search step kind, written against its Config; New makes it the engine's.
 type Kind struct{}
+
+// New returns the search kind for the engine's registry.
+func New() steps.Kind { return steps.Define[Config](Kind{}) }
+
+var _ steps.Typed[Config] = Kind{}
 
 // version is bumped whenever the numbers or the encoding change. 2: each signal's rival
 // periods (P/2, 2P) and spread over its transits, with cautions.
@@ -73,83 +80,63 @@ func (Kind) Doc() string {
 	return "Searches a light curve for periodic transit-like dips by box least squares on a grid uniform in f^(1/3), finding up to max_signals signals one after another."
 }
 
-// Params is the block's schema.
-func (Kind) Params() []steps.Param {
-	return []steps.Param{
-		{Name: "light_curve", Type: steps.Ref, Kinds: []string{"photometry", "detrend"},
-			Doc: "the light curve to search: a photometry step, or (usually) a detrend step"},
-		{Name: "periods", Type: steps.QuantityRange, Dim: units.Time, Optional: true,
-			Doc: "shortest and longest trial period; by default from 0.2 d (or the star's Roche-type limit, the orbit at 3 stellar radii, if longer) to half the data span"},
-		{Name: "star_density", Type: steps.Quantity, Dim: units.Density, Default: solarDensity,
-			Doc: "mean density of the star: it sets the grid's spacing and the transit durations tried at each period (from 0.3 to 1.75 times that of a central transit); by default the Sun's, \"1 rho_sun\""},
-		{Name: "oversampling", Type: steps.Number, Default: defaultOversampling,
-			Doc: "trial frequencies per drift of one transit duration over the data span (Ofir 2014); more finds weak signals a little more surely and costs proportionally more"},
-		{Name: "max_signals", Type: steps.Integer, Default: int64(defaultMaxSignals),
-			Doc: "the search stops after finding this many signals, each found after masking the ones before"},
-		{Name: "sde_threshold", Type: steps.Number, Default: bls.DefaultSDEThreshold,
-			Doc: "signal detection efficiency a periodogram peak must reach to count as a signal; the default holds white-noise false alarms to about 1 % per star"},
-		{Name: "mask_factor", Type: steps.Number, Default: defaultMaskFactor,
-			Doc: "the stretch masked around each found mid-transit before searching again, in transit durations"},
-	}
-}
-
-// Config is the decoded configuration of one search block.
+// Config is what a search block may say. Defaults are the constants above (and
+// bls.DefaultSDEThreshold), written as a user writes them.
 type Config struct {
-	// Periods is the trial-period range in days; zero when it is to be derived from the data.
-	Periods      [2]float64
-	Density      float64 // g/cm³
-	Oversampling float64
-	MaxSignals   int
-	SDEThreshold float64
-	MaskFactor   float64
+	LightCurve steps.Ref `step:"light_curve,required" accepts:"photometry,detrend" doc:"the light curve to search: a photometry step, or (usually) a detrend step"`
+	// Periods is the trial-period range in days; absent, it is derived from the data (see
+	// periods).
+	Periods *[2]float64 `step:"periods" dim:"time" doc:"shortest and longest trial period; by default from 0.2 d (or the star's Roche-type limit, the orbit at 3 stellar radii, if longer) to half the data span"`
+	// Density is the star's mean density in g/cm³.
+	Density      float64 `step:"star_density" dim:"density" default:"1 rho_sun" doc:"mean density of the star: it sets the grid's spacing and the transit durations tried at each period (from 0.3 to 1.75 times that of a central transit); by default the Sun's, \"1 rho_sun\""`
+	Oversampling float64 `step:"oversampling" default:"3" doc:"trial frequencies per drift of one transit duration over the data span (Ofir 2014); more finds weak signals a little more surely and costs proportionally more"`
+	MaxSignals   int     `step:"max_signals" default:"3" doc:"the search stops after finding this many signals, each found after masking the ones before"`
+	SDEThreshold float64 `step:"sde_threshold" default:"7.4" doc:"signal detection efficiency a periodogram peak must reach to count as a signal; the default holds white-noise false alarms to about 1 % per star"`
+	MaskFactor   float64 `step:"mask_factor" default:"2" doc:"the stretch masked around each found mid-transit before searching again, in transit durations"`
 }
 
-// Prepare checks the values and builds a Config.
-func (Kind) Prepare(v steps.Values) (any, error) {
-	c := Config{
-		Density:      v.Float("star_density"),
-		Oversampling: v.Float("oversampling"),
-		SDEThreshold: v.Float("sde_threshold"),
-		MaskFactor:   v.Float("mask_factor"),
+// periods is the trial-period range in days, or zeros when it is to be derived from the
+// data.
+func (c *Config) periods() [2]float64 {
+	if c.Periods == nil {
+		return [2]float64{}
 	}
+	return *c.Periods
+}
+
+// Check holds the values to what the search can take.
+func (Kind) Check(c *Config) error {
 	finite := func(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }
 	if !(c.Density > 0) || !finite(c.Density) {
-		return nil, steps.Attrf("star_density", "must be a positive density, not %v g/cm3", c.Density)
+		return steps.Attrf("star_density", "must be a positive density, not %v g/cm3", c.Density)
 	}
 	if !(c.Oversampling >= 1 && c.Oversampling <= 20) {
-		return nil, steps.Attrf("oversampling", "must be between 1 and 20, not %v", c.Oversampling)
+		return steps.Attrf("oversampling", "must be between 1 and 20, not %v", c.Oversampling)
 	}
-	n := v.Int("max_signals")
-	if n < 1 || n > 20 {
-		return nil, steps.Attrf("max_signals", "must be between 1 and 20, not %d", n)
+	if n := c.MaxSignals; n < 1 || n > 20 {
+		return steps.Attrf("max_signals", "must be between 1 and 20, not %d", n)
 	}
-	c.MaxSignals = int(n)
 	if !(c.SDEThreshold > 0) || !finite(c.SDEThreshold) {
-		return nil, steps.Attrf("sde_threshold", "must be a positive number, not %v", c.SDEThreshold)
+		return steps.Attrf("sde_threshold", "must be a positive number, not %v", c.SDEThreshold)
 	}
 	if !(c.MaskFactor >= 1 && c.MaskFactor <= 10) {
-		return nil, steps.Attrf("mask_factor", "must be between 1 and 10 transit durations, not %v", c.MaskFactor)
+		return steps.Attrf("mask_factor", "must be between 1 and 10 transit durations, not %v", c.MaskFactor)
 	}
-	if v.Has("periods") {
-		r := v.Range("periods")
+	if c.Periods != nil {
+		r := *c.Periods
 		if !(r[0] > 0) || !(r[1] > r[0]) || !finite(r[1]) {
-			return nil, steps.Attrf("periods", "must be two positive times, shortest first, not %v d and %v d", r[0], r[1])
+			return steps.Attrf("periods", "must be two positive times, shortest first, not %v d and %v d", r[0], r[1])
 		}
 		if a := bls.ScaledAxis(r[0], c.Density); a <= 1 {
-			return nil, steps.Attrf("periods", "the shortest period, %.4g d, would put the orbit inside a star of %.4g g/cm3 (a/R* = %.3g); the shortest possible is %.4g d",
+			return steps.Attrf("periods", "the shortest period, %.4g d, would put the orbit inside a star of %.4g g/cm3 (a/R* = %.3g); the shortest possible is %.4g d",
 				r[0], c.Density, a, bls.PeriodAtAxis(1, c.Density))
 		}
-		c.Periods = r
 	}
-	return c, nil
+	return nil
 }
 
 // Run searches the referenced light curve.
-func (Kind) Run(ctx context.Context, cfgAny any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
-	cfg, ok := cfgAny.(Config)
-	if !ok {
-		return nil, fmt.Errorf("search: configuration of type %T", cfgAny)
-	}
+func (Kind) Run(ctx context.Context, cfg *Config, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
@@ -172,7 +159,7 @@ func (Kind) Run(ctx context.Context, cfgAny any, in steps.Inputs, env steps.Env)
 			mu.Unlock()
 		}
 	}
-	art, notes, err := Search(cfg, src.LightCurve(), par, progress)
+	art, notes, err := Search(*cfg, src.LightCurve(), par, progress)
 	if err != nil {
 		return nil, err
 	}
@@ -189,7 +176,7 @@ func (Kind) Run(ctx context.Context, cfgAny any, in steps.Inputs, env steps.Env)
 // of frequencies with par (nil: serially), and returns the artifact with the facts worth
 // telling the user (the derived period range, the grid). Problems with the light curve are
 // *steps.InputError values.
-func Search(cfg Config, lc *lightcurve.LightCurve, par bls.Parallel, progress func(pass, done, total int)) (*Artifact, []string, error) {
+func Search(cfg Config, lc *lightcurve.LightCurve, par parallel.Func, progress func(pass, done, total int)) (*Artifact, []string, error) {
 	t, f, e, _ := lc.Flat()
 	s := bls.Series{Time: t, Flux: f, Err: e}
 	if err := s.Check(); err != nil {
@@ -200,7 +187,8 @@ func Search(cfg Config, lc *lightcurve.LightCurve, par bls.Parallel, progress fu
 	}
 	var notes []string
 	span := t[len(t)-1] - t[0]
-	lo, hi := cfg.Periods[0], cfg.Periods[1]
+	r := cfg.periods()
+	lo, hi := r[0], r[1]
 	roche := bls.RochePeriod(cfg.Density)
 	if hi == 0 {
 		lo, hi = math.Max(defaultShortest, roche), defaultSpanFraction*span

@@ -48,45 +48,58 @@ func fixture() *lightcurve.LightCurve {
 	return lc
 }
 
-// defaults returns the decoded values of a block that sets only its light curve.
-func defaults() steps.Values {
-	return steptest.Values(Kind{}, map[string]any{"light_curve": "detrend.quiet"})
+// defaults returns what a block that sets only its light curve writes; tests add to it.
+func defaults() map[string]any {
+	return map[string]any{"light_curve": "detrend.quiet"}
 }
 
-func run(t *testing.T, v steps.Values, lc *lightcurve.LightCurve, pool *steps.Pool) (*Artifact, []string) {
+func run(t *testing.T, set map[string]any, lc *lightcurve.LightCurve, pool *steps.Pool) (*Artifact, []string) {
 	t.Helper()
 	in := steps.Inputs{Refs: map[string][]steps.Artifact{"light_curve": {curveArtifact{lc}}}}
-	art, notes, err := steptest.Run(Kind{}, v, in, pool)
+	art, notes, err := steptest.Run(New(), set, in, pool)
 	if err != nil {
 		t.Fatal(err)
 	}
 	return art.(*Artifact), notes
 }
 
-func TestPrepareNamesTheAttributeAtFault(t *testing.T) {
+func TestCheckNamesTheAttributeAtFault(t *testing.T) {
 	cases := []struct {
 		name, attr string
 		val        any
 	}{
-		{"a zero star density", "star_density", 0.0},
+		{"a zero star density", "star_density", "0 g/cm3"},
 		{"an oversampling of one half", "oversampling", 0.5},
-		{"no signals at all", "max_signals", int64(0)},
+		{"no signals at all", "max_signals", 0},
 		{"a negative SDE threshold", "sde_threshold", -1.0},
 		{"a mask narrower than the transit", "mask_factor", 0.5},
-		{"periods longest first", "periods", [2]float64{10, 1}},
-		{"a shortest period inside the star", "periods", [2]float64{0.05, 10}},
+		{"periods longest first", "periods", []string{"10 d", "1 d"}},
+		{"a shortest period inside the star", "periods", []string{"0.05 d", "10 d"}},
 	}
 	for _, c := range cases {
 		t.Run("it refuses "+c.name, func(t *testing.T) {
 			v := defaults()
 			v[c.attr] = c.val
-			_, err := Kind{}.Prepare(v)
+			_, err := steptest.Config(New(), v)
 			var ae *steps.AttrError
 			if !errors.As(err, &ae) || ae.Attr != c.attr {
 				t.Errorf("error %v, want one on %s", err, c.attr)
 			}
 		})
 	}
+	t.Run("the defaults are accepted", func(t *testing.T) {
+		cfg, err := steptest.Config(New(), defaults())
+		if err != nil {
+			t.Fatal(err)
+		}
+		// The tags' defaults are the constants whose reasons are given beside them, and the
+		// Sun's density to the bit.
+		c := cfg.(*Config)
+		if c.Periods != nil || c.periods() != [2]float64{} || c.Density != solarDensity || c.Oversampling != defaultOversampling ||
+			c.MaxSignals != defaultMaxSignals || c.SDEThreshold != bls.DefaultSDEThreshold || c.MaskFactor != defaultMaskFactor {
+			t.Fatalf("defaults decoded as %+v", c)
+		}
+	})
 }
 
 func TestRunFindsTheInjectedSignal(t *testing.T) {
@@ -130,7 +143,7 @@ func TestRunFindsTheInjectedSignal(t *testing.T) {
 
 func TestExplicitPeriodsOutsideTheUsualRangeAreNoted(t *testing.T) {
 	v := defaults()
-	v["periods"] = [2]float64{0.4, 40}
+	v["periods"] = []string{"0.4 d", "40 d"}
 	art, notes := run(t, v, fixture(), nil)
 	joined := strings.Join(notes, "\n")
 	for _, w := range []string{"the shortest, 0.4 d, is inside the Roche-type limit", "the longest, 40 d, exceeds the 30 d span and was lowered to it"} {
@@ -190,8 +203,8 @@ func TestEncodingRoundTripsAndRejectsDamage(t *testing.T) {
 func TestRunRefusesABrokenLightCurve(t *testing.T) {
 	lc := fixture()
 	lc.Segments[1].Err[41] = -1e-3
-	cfg, _ := Kind{}.Prepare(defaults())
-	_, err := Kind{}.Run(context.Background(), cfg, steps.Inputs{Refs: map[string][]steps.Artifact{"light_curve": {curveArtifact{lc}}}}, steps.Env{})
+	cfg := steptest.MustConfig(New(), defaults())
+	_, err := New().Run(context.Background(), cfg, steps.Inputs{Refs: map[string][]steps.Artifact{"light_curve": {curveArtifact{lc}}}}, steps.Env{})
 	if !steps.IsInputError(err) || !strings.Contains(err.Error(), "error -0.001 is not a positive number") {
 		t.Errorf("error %v, want an input error naming the point", err)
 	}
@@ -203,11 +216,11 @@ func TestGoldenRecord(t *testing.T) {
 }
 
 func FuzzDecode(f *testing.F) {
-	cfg, err := Kind{}.Prepare(defaults())
+	cfg, err := steptest.Config(New(), defaults())
 	if err != nil {
 		f.Fatal(err)
 	}
-	art, _, err := Search(cfg.(Config), fixture(), nil, nil)
+	art, _, err := Search(*cfg.(*Config), fixture(), nil, nil)
 	if err != nil {
 		f.Fatal(err)
 	}

@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"math"
 	"slices"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -17,8 +18,11 @@ import (
 	"dipline/steps/internal/steptest"
 )
 
-// meas builds a decoded Measurement value (base units: parallax in arcsec).
-func meas(v, s float64) [2]float64 { return [2]float64{v, s} }
+// meas writes a measurement as a user writes it, "v ± s unit"; the numbers are written in
+// full, so that in the base unit (arcsec for a parallax) they read back to the same bits.
+func meas(v, s float64, unit string) string {
+	return strconv.FormatFloat(v, 'g', -1, 64) + " ± " + strconv.FormatFloat(s, 'g', -1, 64) + " " + unit
+}
 
 // companionsArtifact stands in for a companions step's result.
 type companionsArtifact []stellar.Companion
@@ -27,16 +31,16 @@ func (c companionsArtifact) CompanionList() []stellar.Companion { return c }
 func (c companionsArtifact) Encode() []byte                     { return []byte(fmt.Sprint([]stellar.Companion(c))) }
 func (c companionsArtifact) Figures() []steps.Figure            { return nil }
 
-// runStar prepares and runs the kind with the given attributes, inputs and seed.
+// runStar configures and runs the kind with the given attributes, inputs and seed.
 func runStar(t *testing.T, set map[string]any, in steps.Inputs, seed uint64) (*Artifact, []string, error) {
 	t.Helper()
-	cfg, err := Kind{}.Prepare(steptest.Values(Kind{}, set))
+	cfg, err := steptest.Config(New(), set)
 	if err != nil {
 		return nil, nil, err
 	}
 	var notes []string
 	env := steps.Env{Seed: seed, Notef: func(f string, a ...any) { notes = append(notes, fmt.Sprintf(f, a...)) }}
-	art, err := Kind{}.Run(context.Background(), cfg, in, env)
+	art, err := New().Run(context.Background(), cfg, in, env)
 	if err != nil {
 		return nil, notes, err
 	}
@@ -55,8 +59,8 @@ func mustRun(t *testing.T, set map[string]any, in steps.Inputs, seed uint64) (*A
 // exactDwarf is a cool dwarf at 10 pc (parallax 100 mas, so M_Ks = Ks) with no input
 // errors and no relation scatter: every draw equals the relation's value.
 func exactDwarf(mk float64) map[string]any {
-	return map[string]any{"method": "cool-dwarf", "parallax": meas(0.1, 0), "ks": meas(mk, 0),
-		"teff": meas(3400, 0), "relation_scatter": false, "draws": int64(minDraws)}
+	return map[string]any{"method": "cool-dwarf", "parallax": meas(0.1, 0, "arcsec"), "ks": meas(mk, 0, "mag"),
+		"teff": meas(3400, 0, "K"), "relation_scatter": false, "draws": minDraws}
 }
 
 // Check values computed independently from the Mann et al. (2015, ApJ 804, 64, Table 1)
@@ -95,7 +99,7 @@ func TestCoolDwarfUsesTheMetallicityForm(t *testing.T) {
 		feh, r float64
 	}{{0, 0.44382}, {0.3, 0.4497556}} {
 		t.Run(fmt.Sprintf("[Fe/H] = %+.1f gives %.5f solar radii", c.feh, c.r), func(t *testing.T) {
-			a, _ := mustRun(t, maps(exactDwarf(6.0), "feh", meas(c.feh, 0)), steps.Inputs{}, 1)
+			a, _ := mustRun(t, maps(exactDwarf(6.0), "feh", meas(c.feh, 0, "dex")), steps.Inputs{}, 1)
 			if r, _ := summary(a.Star.Radius); math.Abs(r-c.r) > 1e-6 {
 				t.Errorf("radius %.7f, want %.7f", r, c.r)
 			}
@@ -111,8 +115,8 @@ func TestCoolDwarfUsesTheMetallicityForm(t *testing.T) {
 // relation's 2.89 % scatter of the interferometric 0.3924 ± 0.0033 R_sun (Boyajian et al.
 // 2012, ApJ 757, 112; from memory).
 func TestGJ411SanityValue(t *testing.T) {
-	a, _ := mustRun(t, map[string]any{"method": "cool-dwarf", "parallax": meas(0.3926, 0), "ks": meas(3.34, 0),
-		"teff": meas(3500, 0), "relation_scatter": false, "draws": int64(minDraws)}, steps.Inputs{}, 1)
+	a, _ := mustRun(t, map[string]any{"method": "cool-dwarf", "parallax": meas(0.3926, 0, "arcsec"), "ks": meas(3.34, 0, "mag"),
+		"teff": meas(3500, 0, "K"), "relation_scatter": false, "draws": minDraws}, steps.Inputs{}, 1)
 	r, _ := summary(a.Star.Radius)
 	mk, _ := summary(a.Star.MagK)
 	if math.Abs(mk-6.31) > 0.005 {
@@ -145,8 +149,8 @@ func TestRadiusSpreadMatchesFirstOrderPropagation(t *testing.T) {
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
-			a, _ := mustRun(t, map[string]any{"method": "cool-dwarf", "parallax": meas(c.plx/1000, c.splx/1000),
-				"ks": meas(c.ks, c.sks), "teff": meas(3400, 50), "relation_scatter": c.scatter, "draws": int64(200000)}, steps.Inputs{}, 7)
+			a, _ := mustRun(t, map[string]any{"method": "cool-dwarf", "parallax": meas(c.plx/1000, c.splx/1000, "arcsec"),
+				"ks": meas(c.ks, c.sks, "mag"), "teff": meas(3400, 50, "K"), "relation_scatter": c.scatter, "draws": 200000}, steps.Inputs{}, 7)
 			mk0, _ := astro.AbsoluteMagnitude(c.ks, c.plx)
 			slope, err := RadiusSlope(mk0)
 			if err != nil {
@@ -171,8 +175,8 @@ func TestRadiusSpreadMatchesFirstOrderPropagation(t *testing.T) {
 // values satisfy (L/(4πσR²))^¼ = 5772.00 K (computed independently); its log g is
 // log10(100·GM_sun/R_sun²) = 4.438 (IAU 2015 B3 values) and its density the nominal solar one.
 func TestSunThroughStefanBoltzmann(t *testing.T) {
-	a, _ := mustRun(t, map[string]any{"method": "stefan-boltzmann", "luminosity": meas(1, 0), "teff": meas(5772, 0),
-		"mass": meas(1, 0), "draws": int64(minDraws)}, steps.Inputs{}, 1)
+	a, _ := mustRun(t, map[string]any{"method": "stefan-boltzmann", "luminosity": meas(1, 0, "L_sun"), "teff": meas(5772, 0, "K"),
+		"mass": meas(1, 0, "M_sun"), "draws": minDraws}, steps.Inputs{}, 1)
 	r, _ := summary(a.Star.Radius)
 	g, _ := summary(a.Star.LogG)
 	rho, _ := summary(a.Star.Density)
@@ -186,16 +190,16 @@ func TestSunThroughStefanBoltzmann(t *testing.T) {
 		t.Errorf("density %.4f g/cm3, want the Sun's 1.41 (from memory)", rho)
 	}
 	t.Run("a bolometric flux of 1361 W/m2 at 1 au is one solar luminosity (IAU 2015 B3, S and L within 0.01 %)", func(t *testing.T) {
-		a, _ := mustRun(t, map[string]any{"method": "stefan-boltzmann", "fbol": meas(1361, 0), "distance": meas(astro.AU/astro.Parsec, 0),
-			"teff": meas(5772, 0), "mass": meas(1, 0), "draws": int64(minDraws)}, steps.Inputs{}, 1)
+		a, _ := mustRun(t, map[string]any{"method": "stefan-boltzmann", "fbol": meas(1361, 0, "W/m2"), "distance": meas(astro.AU/astro.Parsec, 0, "pc"),
+			"teff": meas(5772, 0, "K"), "mass": meas(1, 0, "M_sun"), "draws": minDraws}, steps.Inputs{}, 1)
 		l, _ := summary(a.Star.Luminosity)
 		if math.Abs(l-1) > 2e-4 {
 			t.Errorf("luminosity %.6f L_sun, want 1", l)
 		}
 	})
 	t.Run("the Sun's Teff and log g give 1.049 M_sun by Torres et al. (2010), computed independently", func(t *testing.T) {
-		a, notes := mustRun(t, map[string]any{"method": "stefan-boltzmann", "luminosity": meas(1, 0), "teff": meas(5772, 0),
-			"logg": meas(4.438, 0), "relation_scatter": false, "draws": int64(minDraws)}, steps.Inputs{}, 1)
+		a, notes := mustRun(t, map[string]any{"method": "stefan-boltzmann", "luminosity": meas(1, 0, "L_sun"), "teff": meas(5772, 0, "K"),
+			"logg": meas(4.438, 0, "dex"), "relation_scatter": false, "draws": minDraws}, steps.Inputs{}, 1)
 		m, _ := summary(a.Star.Mass)
 		if math.Abs(m-1.049) > 0.001 {
 			t.Errorf("mass %.4f M_sun, want 1.049", m)
@@ -249,9 +253,9 @@ func TestCompanionLightIsRemovedFromKs(t *testing.T) {
 // benchmark is a GJ 411-like benchmark (radius 0.3924 ± 0.0033 R_sun, Boyajian et al. 2012,
 // from memory; mass and M_Ks invented for the test) and a target differing by delta.
 func benchmark(delta, sigma float64) map[string]any {
-	return map[string]any{"method": "benchmark", "benchmark_radius": meas(0.3924, 0.0033), "benchmark_mass": meas(0.386, 0.008),
-		"benchmark_abs_k": meas(6.31, 0.02), "delta_abs_k": meas(delta, sigma),
-		"benchmark_teff": meas(3550, 60), "delta_teff": meas(0, 0)}
+	return map[string]any{"method": "benchmark", "benchmark_radius": meas(0.3924, 0.0033, "R_sun"), "benchmark_mass": meas(0.386, 0.008, "M_sun"),
+		"benchmark_abs_k": meas(6.31, 0.02, "mag"), "delta_abs_k": meas(delta, sigma, "mag"),
+		"benchmark_teff": meas(3550, 60, "K"), "delta_teff": meas(0, 0, "K")}
 }
 
 func TestBenchmarkTransfer(t *testing.T) {
@@ -273,7 +277,7 @@ func TestBenchmarkTransfer(t *testing.T) {
 	})
 	t.Run("ΔM_Ks = +0.3 scales R and M as the relations' own ratios, within the transfer uncertainty", func(t *testing.T) {
 		set := benchmark(0.3, 0)
-		set["benchmark_radius"], set["benchmark_mass"] = meas(0.3924, 0), meas(0.386, 0)
+		set["benchmark_radius"], set["benchmark_mass"] = meas(0.3924, 0, "R_sun"), meas(0.386, 0, "M_sun")
 		a, _ := mustRun(t, set, steps.Inputs{}, 3)
 		r, _ := summary(a.Star.Radius)
 		m, _ := summary(a.Star.Mass)
@@ -291,7 +295,7 @@ func TestBenchmarkTransfer(t *testing.T) {
 	})
 	t.Run("the target's Teff is the benchmark's plus the difference", func(t *testing.T) {
 		set := benchmark(0.1, 0.01)
-		set["delta_teff"] = meas(-120, 20)
+		set["delta_teff"] = meas(-120, 20, "K")
 		a, _ := mustRun(t, set, steps.Inputs{}, 3)
 		if te, _ := summary(a.Star.Teff); math.Abs(te-3430) > 3 {
 			t.Errorf("Teff %.1f K, want 3430", te)
@@ -356,7 +360,7 @@ func TestOutsideTheRange(t *testing.T) {
 	})
 	t.Run("a dwarf just inside the range is drawn, and the share of draws past the edge is noted", func(t *testing.T) {
 		set := exactDwarf(4.62)
-		set["ks"] = meas(4.62, 0.05)
+		set["ks"] = meas(4.62, 0.05, "mag")
 		_, notes, err := runStar(t, set, steps.Inputs{}, 1)
 		if err != nil {
 			t.Fatal(err)
@@ -398,7 +402,7 @@ func TestColourTemperature(t *testing.T) {
 	t.Run("the cool-dwarf method takes Teff from V and J when teff is absent", func(t *testing.T) {
 		set := exactDwarf(6.0)
 		delete(set, "teff")
-		set["v"], set["j"] = meas(12.5, 0), meas(8.0, 0)
+		set["v"], set["j"] = meas(12.5, 0, "mag"), meas(8.0, 0, "mag")
 		a, _ := mustRun(t, set, steps.Inputs{}, 1)
 		if te, _ := summary(a.Star.Teff); math.Abs(te-ColourTeff(4.5)) > 1e-9 {
 			t.Errorf("Teff %.2f, want %.2f", te, ColourTeff(4.5))
@@ -426,7 +430,7 @@ func goodRow() map[string]float64 {
 func TestCatalogueRow(t *testing.T) {
 	set := map[string]any{"method": "cool-dwarf", "row": `catalogue.nearby["FW-3318"]`}
 	t.Run("the columns asked for are the method's, minus those written inline", func(t *testing.T) {
-		cfg, err := Kind{}.Prepare(steptest.Values(Kind{}, map[string]any{"method": "cool-dwarf", "row": "r", "teff": meas(3300, 50)}))
+		cfg, err := steptest.Config(New(), map[string]any{"method": "cool-dwarf", "row": "r", "teff": meas(3300, 50, "K")})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -442,7 +446,7 @@ func TestCatalogueRow(t *testing.T) {
 		}
 	})
 	t.Run("an inline value wins over the row's", func(t *testing.T) {
-		s := maps(set, "ks", meas(8.0, 0.02))
+		s := maps(set, "ks", meas(8.0, 0.02, "mag"))
 		a, _ := mustRun(t, s, steps.Inputs{Rows: map[string]steps.Row{"row": row(goodRow())}}, 1)
 		if a.Star.Mags["Ks"] != 8.0 {
 			t.Errorf("Ks %v, want the inline 8.0", a.Star.Mags["Ks"])
@@ -488,24 +492,24 @@ func maps(m map[string]any, kv ...any) map[string]any {
 	return out
 }
 
-func TestPrepareNamesTheAttributeAtFault(t *testing.T) {
+func TestCheckNamesTheAttributeAtFault(t *testing.T) {
 	cases := []struct {
 		name, attr string
 		set        map[string]any
 	}{
 		{"an unknown method", "method", map[string]any{"method": "isochrone"}},
-		{"too few draws", "draws", maps(exactDwarf(6), "draws", int64(10))},
-		{"a cool dwarf without a parallax or row", "parallax", map[string]any{"method": "cool-dwarf", "ks": meas(8, 0.1), "teff": meas(3300, 50)}},
-		{"a cool dwarf without teff or colours", "teff", map[string]any{"method": "cool-dwarf", "ks": meas(8, 0.1), "parallax": meas(0.03, 1e-5)}},
-		{"a negative inline parallax", "parallax", maps(exactDwarf(6), "parallax", meas(-0.01, 0.001))},
-		{"a bolometric flux for the cool-dwarf method", "fbol", maps(exactDwarf(6), "fbol", meas(1e-10, 1e-12))},
-		{"stefan-boltzmann with neither mass nor log g", "mass", map[string]any{"method": "stefan-boltzmann", "luminosity": meas(1, 0.1), "teff": meas(5772, 50)}},
-		{"stefan-boltzmann with a flux but no distance", "parallax", map[string]any{"method": "stefan-boltzmann", "fbol": meas(1e-10, 1e-12), "teff": meas(5772, 50), "mass": meas(1, 0.1)}},
-		{"both a parallax and a distance", "distance", map[string]any{"method": "given", "radius": meas(1, 0.1), "mass": meas(1, 0.1), "parallax": meas(0.1, 0.001), "distance": meas(10, 0.1)}},
+		{"too few draws", "draws", maps(exactDwarf(6), "draws", 10)},
+		{"a cool dwarf without a parallax or row", "parallax", map[string]any{"method": "cool-dwarf", "ks": meas(8, 0.1, "mag"), "teff": meas(3300, 50, "K")}},
+		{"a cool dwarf without teff or colours", "teff", map[string]any{"method": "cool-dwarf", "ks": meas(8, 0.1, "mag"), "parallax": meas(0.03, 1e-5, "arcsec")}},
+		{"a negative inline parallax", "parallax", maps(exactDwarf(6), "parallax", meas(-0.01, 0.001, "arcsec"))},
+		{"a bolometric flux for the cool-dwarf method", "fbol", maps(exactDwarf(6), "fbol", meas(1e-10, 1e-12, "W/m2"))},
+		{"stefan-boltzmann with neither mass nor log g", "mass", map[string]any{"method": "stefan-boltzmann", "luminosity": meas(1, 0.1, "L_sun"), "teff": meas(5772, 50, "K")}},
+		{"stefan-boltzmann with a flux but no distance", "parallax", map[string]any{"method": "stefan-boltzmann", "fbol": meas(1e-10, 1e-12, "W/m2"), "teff": meas(5772, 50, "K"), "mass": meas(1, 0.1, "M_sun")}},
+		{"both a parallax and a distance", "distance", map[string]any{"method": "given", "radius": meas(1, 0.1, "R_sun"), "mass": meas(1, 0.1, "M_sun"), "parallax": meas(0.1, 0.001, "arcsec"), "distance": meas(10, 0.1, "pc")}},
 		{"a benchmark without its mass", "benchmark_mass", maps(benchmark(0, 0), "benchmark_mass", nil)},
 		{"a benchmark Teff without the difference", "delta_teff", maps(benchmark(0, 0), "delta_teff", nil)},
-		{"given without a mass", "mass", map[string]any{"method": "given", "radius": meas(1, 0.1)}},
-		{"companions for a method that ignores them", "companions", map[string]any{"method": "given", "radius": meas(1, 0.1), "mass": meas(1, 0.1), "companions": "companions.x"}},
+		{"given without a mass", "mass", map[string]any{"method": "given", "radius": meas(1, 0.1, "R_sun")}},
+		{"companions for a method that ignores them", "companions", map[string]any{"method": "given", "radius": meas(1, 0.1, "R_sun"), "mass": meas(1, 0.1, "M_sun"), "companions": "companions.x"}},
 		{"a transfer uncertainty outside the benchmark method", "transfer_uncertainty", maps(exactDwarf(6), "transfer_uncertainty", 0.1)},
 	}
 	for _, c := range cases {
@@ -516,18 +520,32 @@ func TestPrepareNamesTheAttributeAtFault(t *testing.T) {
 					set[k] = v
 				}
 			}
-			_, err := Kind{}.Prepare(steptest.Values(Kind{}, set))
+			_, err := steptest.Config(New(), set)
 			var ae *steps.AttrError
 			if !errors.As(err, &ae) || ae.Attr != c.attr {
 				t.Fatalf("got %v, want an error on %s", err, c.attr)
 			}
 		})
 	}
+	t.Run("the defaults are accepted", func(t *testing.T) {
+		// The tags' defaults are the constants whose reasons are given beside them.
+		c := steptest.MustConfig(New(), benchmark(0, 0)).(*Config)
+		if c.Draws != defaultDraws || c.TransferPerMag != defaultTransferPerMag || !c.Scatter || c.AllowExtrapolation {
+			t.Fatalf("defaults decoded as draws %d, transfer_uncertainty %v, relation_scatter %v, allow_extrapolation %v",
+				c.Draws, c.TransferPerMag, c.Scatter, c.AllowExtrapolation)
+		}
+	})
+	t.Run("a parallax written in mas is held in mas", func(t *testing.T) {
+		c := steptest.MustConfig(New(), maps(exactDwarf(6), "parallax", "35.21 ± 0.04 mas")).(*Config)
+		if p := c.inline["parallax"]; math.Abs(p.Value-35.21) > 1e-12 || math.Abs(p.Sigma-0.04) > 1e-15 {
+			t.Errorf("parallax held as %v ± %v, want 35.21 ± 0.04 mas", p.Value, p.Sigma)
+		}
+	})
 }
 
 func TestDrawsAreSeeded(t *testing.T) {
-	set := map[string]any{"method": "cool-dwarf", "parallax": meas(0.03521, 0.00004), "ks": meas(8.62, 0.02),
-		"teff": meas(3350, 70), "feh": meas(-0.1, 0.1), "draws": int64(2000)}
+	set := map[string]any{"method": "cool-dwarf", "parallax": meas(0.03521, 0.00004, "arcsec"), "ks": meas(8.62, 0.02, "mag"),
+		"teff": meas(3350, 70, "K"), "feh": meas(-0.1, 0.1, "dex"), "draws": 2000}
 	a1, _ := mustRun(t, set, steps.Inputs{}, 42)
 	a2, _ := mustRun(t, set, steps.Inputs{}, 42)
 	a3, _ := mustRun(t, set, steps.Inputs{}, 43)
@@ -542,7 +560,7 @@ func TestDrawsAreSeeded(t *testing.T) {
 		}
 	})
 	t.Run("the radius draws do not depend on whether V is given", func(t *testing.T) {
-		a4, _ := mustRun(t, maps(set, "v", meas(13, 0.05)), steps.Inputs{}, 42)
+		a4, _ := mustRun(t, maps(set, "v", meas(13, 0.05, "mag")), steps.Inputs{}, 42)
 		if !slices.Equal(a1.Star.Radius, a4.Star.Radius) {
 			t.Error("radius draws changed")
 		}
@@ -550,8 +568,8 @@ func TestDrawsAreSeeded(t *testing.T) {
 }
 
 func TestArtifact(t *testing.T) {
-	a, _ := mustRun(t, map[string]any{"method": "cool-dwarf", "parallax": meas(0.03521, 0.00004), "ks": meas(8.62, 0.02),
-		"teff": meas(3350, 70), "j": meas(9.45, 0.02), "draws": int64(minDraws)}, steps.Inputs{}, 4711)
+	a, _ := mustRun(t, map[string]any{"method": "cool-dwarf", "parallax": meas(0.03521, 0.00004, "arcsec"), "ks": meas(8.62, 0.02, "mag"),
+		"teff": meas(3350, 70, "K"), "j": meas(9.45, 0.02, "mag"), "draws": minDraws}, steps.Inputs{}, 4711)
 	b := a.Encode()
 	t.Run("it decodes to the same bytes", func(t *testing.T) {
 		back, err := Kind{}.Decode(b)
@@ -616,7 +634,7 @@ func TestStefanBoltzmannFromARow(t *testing.T) {
 	fbol := astro.SolarLuminosity / (4 * math.Pi * d * d)
 	vals := map[string]float64{"parallax": 100, "parallax_err": 0.01, "fbol": fbol, "fbol_err": fbol * 1e-4,
 		"teff": 5772, "teff_err": 1, "ks": 3.3, "ks_err": 0.02}
-	set := map[string]any{"method": "stefan-boltzmann", "row": "r", "mass": meas(1, 0.01), "draws": int64(minDraws)}
+	set := map[string]any{"method": "stefan-boltzmann", "row": "r", "mass": meas(1, 0.01, "M_sun"), "draws": minDraws}
 	t.Run("it reads the flux, the parallax and Teff from the row", func(t *testing.T) {
 		a, _ := mustRun(t, set, steps.Inputs{Rows: map[string]steps.Row{"row": row(vals)}}, 5)
 		if r, _ := summary(a.Star.Radius); math.Abs(r-1) > 5e-4 {
@@ -627,7 +645,7 @@ func TestStefanBoltzmannFromARow(t *testing.T) {
 		}
 	})
 	t.Run("with a luminosity written inline it asks the row for no flux and only optionally for a parallax", func(t *testing.T) {
-		cfg, err := Kind{}.Prepare(steptest.Values(Kind{}, maps(set, "luminosity", meas(1, 0.01))))
+		cfg, err := steptest.Config(New(), maps(set, "luminosity", meas(1, 0.01, "L_sun")))
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -654,8 +672,8 @@ func TestStefanBoltzmannFromARow(t *testing.T) {
 // (Monte Carlo error of a median 1.2533 σ/√N, of the 16–84 % half-range about 1.3 % of σ
 // for N = 20000; 4 standard errors allowed), and log g and density follow from them.
 func TestGivenValues(t *testing.T) {
-	a, _ := mustRun(t, map[string]any{"method": "given", "radius": meas(0.80, 0.02), "mass": meas(0.85, 0.03),
-		"teff": meas(5100, 80), "distance": meas(42, 0.5)}, steps.Inputs{}, 9)
+	a, _ := mustRun(t, map[string]any{"method": "given", "radius": meas(0.80, 0.02, "R_sun"), "mass": meas(0.85, 0.03, "M_sun"),
+		"teff": meas(5100, 80, "K"), "distance": meas(42, 0.5, "pc")}, steps.Inputs{}, 9)
 	r, sr := summary(a.Star.Radius)
 	m, sm := summary(a.Star.Mass)
 	if math.Abs(r-0.80) > 4*0.009*0.02 || math.Abs(sr/0.02-1) > 4*0.013 {
@@ -674,22 +692,78 @@ func TestGivenValues(t *testing.T) {
 }
 
 func TestSchema(t *testing.T) {
+	schema := New().Schema()
 	t.Run("the registry accepts the schema", func(t *testing.T) {
-		if _, err := steps.NewRegistry(Kind{}); err != nil {
+		if _, err := steps.NewRegistry(New()); err != nil {
 			t.Fatal(err)
 		}
 	})
-	t.Run("every parameter and every measurement attribute is documented and has a unit", func(t *testing.T) {
-		for _, p := range (Kind{}).Params() {
+	t.Run("the method's choices are the methods", func(t *testing.T) {
+		if p := schema.Param("method"); p == nil || !slices.Equal(p.Choices, Methods) {
+			t.Errorf("method choices %v, want %v", p, Methods)
+		}
+	})
+	t.Run("every name in the tables is a parameter, and a measurement where it must be", func(t *testing.T) {
+		param := func(table, name string, measured bool) {
+			t.Helper()
+			p := schema.Param(name)
+			switch {
+			case p == nil:
+				t.Errorf("%s names %q, which is not a parameter", table, name)
+			case measured && p.Type != steps.Measured:
+				t.Errorf("%s names %q, which is a %s, not a measurement", table, name, p.Type)
+			}
+		}
+		for _, q := range (&Config{}).measurements() {
+			param("measurements", q.name, true)
+		}
+		for method, names := range methodAttrs {
+			for _, n := range names {
+				param("methodAttrs["+method+"]", n, true)
+			}
+		}
+		for n := range inlineUnit {
+			param("inlineUnit", n, true)
+		}
+		for n := range positiveAttrs {
+			param("positiveAttrs", n, true)
+		}
+		for _, n := range rowColumns {
+			param("rowColumns", n, true)
+		}
+	})
+	t.Run("each measurement names its own field", func(t *testing.T) {
+		// Writing one attribute must set the field its name is listed with, and only that.
+		for _, q := range (&Config{}).measurements() {
+			cfg, err := schema.New()
+			if err != nil {
+				t.Fatal(err)
+			}
+			if err := schema.Set(cfg, schema.Param(q.name), steps.Written{Kind: steps.WrittenString, Str: "1 ± 0.1 " + schema.Param(q.name).Dim.Base}); err != nil {
+				t.Fatal(err)
+			}
+			for _, o := range cfg.(*Config).measurements() {
+				if (o.m != nil) != (o.name == q.name) {
+					t.Errorf("writing %s sets %s: %v", q.name, o.name, o.m)
+				}
+			}
+		}
+	})
+	t.Run("every parameter is documented and every measurement has a unit", func(t *testing.T) {
+		n := 0
+		for _, p := range New().Params() {
 			if p.Doc == "" {
 				t.Errorf("%s has no doc", p.Name)
 			}
-			if p.Type == steps.Measurement && inlineUnit[p.Name] == "" {
-				t.Errorf("%s has no unit for notes", p.Name)
+			if p.Type == steps.Measured {
+				n++
+				if inlineUnit[p.Name] == "" {
+					t.Errorf("%s has no unit for notes", p.Name)
+				}
 			}
 		}
-		if len(allMeasurements) != len(inlineUnit) {
-			t.Errorf("%d measurement attributes, %d units", len(allMeasurements), len(inlineUnit))
+		if m := len((&Config{}).measurements()); n != m || n != len(inlineUnit) {
+			t.Errorf("%d measurement parameters, %d listed by measurements, %d units", n, m, len(inlineUnit))
 		}
 	})
 }

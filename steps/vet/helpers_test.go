@@ -152,11 +152,19 @@ func inputs(lc *lightcurve.LightCurve, sigs []signals.Signal, f *fit.Artifact, s
 	return in
 }
 
+// block is what a vet block writes: the given attributes, the signals and the light curve.
+func block(set map[string]any) map[string]any {
+	b := map[string]any{"signals": "search.dips", "light_curve": "detrend.masked"}
+	for k, v := range set {
+		b[k] = v
+	}
+	return b
+}
+
 // run runs the kind with its defaults on the inputs.
 func run(t *testing.T, in steps.Inputs) (*Artifact, []string) {
 	t.Helper()
-	v := steptest.Values(Kind{}, map[string]any{"signals": "search.dips", "light_curve": "detrend.masked"})
-	art, notes, err := steptest.Run(Kind{}, v, in, nil)
+	art, notes, err := steptest.Run(New(), block(nil), in, nil)
 	if err != nil {
 		t.Fatal(err)
 	}

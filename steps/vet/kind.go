@@ -13,14 +13,13 @@
 // of a search, and uses a fit, a star and a derive step when given. It fits no transit
 // model and draws no random numbers; box depths come from steps/internal/boxmodel and the
 // physics from steps/internal/astro. Vetting supports, and does not replace, a
-// statistical validation of a planet, and the artifact says so. Main entry points: Kind
-// (for the engine) and Vet (the library core).
+// statistical validation of a planet, and the artifact says so. Main entry points: New
+// (the kind, for the engine) and Vet (the library core).
 package vet
 
 import (
 	"context"
 	"errors"
-	"fmt"
 	"math"
 	"strings"
 
@@ -29,11 +28,15 @@ import (
 	"dipline/steps/internal/lightcurve"
 	"dipline/steps/internal/signals"
 	"dipline/steps/internal/stellar"
-	"dipline/steps/units"
 )
 
-// Kind is the vet step kind.
+// Kind is the vet step kind, written against its Config; New makes it the engine's.
 type Kind struct{}
+
+// New returns the vet kind for the engine's registry.
+func New() steps.Kind { return steps.Define[Config](Kind{}) }
+
+var _ steps.Typed[Config] = Kind{}
 
 // version is bumped whenever the numbers, the wording or the encoding change.
 const version = 3
@@ -59,7 +62,8 @@ const (
 	defaultMaxAlbedo = 1.5
 	// defaultWavelength is 800 nm, near the middle of a broad red survey band (about 600 to
 	// 1000 nm; from memory). A redder wavelength gives more thermal light and so a smaller
-	// albedo: erring red is the cautious side for the planet.
+	// albedo: erring red is the cautious side for the planet. The tag writes it "0.8 um":
+	// "800 nm" reads as 800 × 1e-9 m, one bit away from 800e-9 m, and the step key would move.
 	defaultWavelength = 800e-9
 	// defaultGrazingProbability: a caution when grazing is more likely than not.
 	defaultGrazingProbability = 0.5
@@ -104,64 +108,53 @@ func (Kind) Doc() string {
 	return "Tests each signal of a search against the hypothesis of a planet on the target (odd/even depths, secondary eclipse and albedo, shape, stellar density, blended sources, depth per segment and band, period ratios, radius, the star's own period) and says for each whether the data agree, give a caution or disagree."
 }
 
-// Params is the block's schema.
-func (Kind) Params() []steps.Param {
-	return []steps.Param{
-		{Name: "signals", Type: steps.Ref, Kinds: []string{"search"},
-			Doc: "the search whose signals are vetted, named signal1, signal2 … in its order"},
-		{Name: "light_curve", Type: steps.Ref, Kinds: []string{"photometry", "detrend"},
-			Doc: "the light curve the tests run on: normally the masked detrend the fit used"},
-		{Name: "fit", Type: steps.Ref, Kinds: []string{"fit"}, Optional: true,
-			Doc: "a fit of the same signals (planets b, c, d in the search's order): its samples give the grazing probability, the transit's density and the blend bound, and its ephemeris places the transits"},
-		{Name: "star", Type: steps.Ref, Kinds: []string{"star"}, Optional: true,
-			Doc: "the host star: its density for the density test and the orbit, its Teff for the day side's thermal light"},
-		{Name: "derive", Type: steps.Ref, Kinds: []string{"derive"}, Optional: true,
-			Doc: "derived planet parameters: the radius on the target is compared with max_planet_radius"},
-		{Name: "odd_even_sigma", Type: steps.Number, Default: defaultOddEvenSigma,
-			Doc: "difference of odd and even transit depths, in σ, at which the data disagree"},
-		{Name: "secondary_false_alarm", Type: steps.Number, Default: defaultSecondaryAlarm,
-			Doc: "family-wise false-alarm probability of the secondary-eclipse search; the significance each phase must reach is Šidák-corrected for the number of independent phases searched"},
-		{Name: "secondary_depth_ratio", Type: steps.Number, Default: defaultSecondaryRatio,
-			Doc: "a significant secondary dip at least this fraction of the transit's depth disagrees"},
-		{Name: "max_albedo", Type: steps.Number, Default: defaultMaxAlbedo,
-			Doc: "a significant secondary dip needing a geometric albedo above this (after the hottest day side's thermal light) disagrees"},
-		{Name: "band_wavelength", Type: steps.Quantity, Dim: units.Length, Default: defaultWavelength,
-			Doc: "effective wavelength of the light curve's band, for the day side's thermal light; by default \"800 nm\", a broad red band"},
-		{Name: "grazing_probability", Type: steps.Number, Default: defaultGrazingProbability,
-			Doc: "with a fit: the share of samples on a grazing chord (b + k > 1) that gives a caution"},
-		{Name: "v_shape_fraction", Type: steps.Number, Default: defaultVShapeFraction,
-			Doc: "without a fit: the ingress fraction T12/T14 of a fitted trapezoid which, reached at 2σ, gives a caution (0 a box, 0.5 a V)"},
-		{Name: "density_sigma", Type: steps.Number, Default: defaultDensitySigma,
-			Doc: "difference of the star's and the transit's ln density, in σ, that gives a caution"},
-		{Name: "depth_false_alarm", Type: steps.Number, Default: defaultDepthAlarm,
-			Doc: "p-value of one common depth across segments or bands below which the depths are said to differ"},
-		{Name: "ratio_tolerance", Type: steps.Number, Optional: true,
-			Doc: "relative tolerance for a period ratio near n, 1/n or p/q; by default the longer duration over the baseline, within which the data cannot tell two periods apart"},
-		{Name: "max_planet_radius", Type: steps.Quantity, Dim: units.Radius, Default: deriveMaxPlanetRadius(),
-			Doc: "with a derive step: a radius on the target above this disagrees; by default the derive step's own default, \"2 R_jup\""},
-		{Name: "star_period_tolerance", Type: steps.Number, Optional: true,
-			Doc: "relative tolerance for a signal's period near one of the star's periods P★, P★/2, P★/3, 2P★ or 3P★; by default P★/(4L) + D/T, a quarter of the star periodogram's resolution over the longest gap-free stretch L plus the signal's duration D over the baseline T"},
-		{Name: "variability_depth_ratio", Type: steps.Number, Default: defaultVariabilityRatio,
-			Doc: "the star's semi-amplitude at a period, over the dip's depth, from which a signal at that period or a fraction of it disagrees rather than gives a caution"},
-	}
-}
-
-// Config is the decoded configuration of one vet block.
+// Config is what a vet block may say. Defaults are the constants above, written as a user
+// writes them; max_planet_radius's is the derive kind's own (a test holds them together).
 type Config struct {
-	Options
+	Signals            steps.Ref  `step:"signals,required" accepts:"search" doc:"the search whose signals are vetted, named signal1, signal2 … in its order"`
+	LightCurve         steps.Ref  `step:"light_curve,required" accepts:"photometry,detrend" doc:"the light curve the tests run on: normally the masked detrend the fit used"`
+	Fit                *steps.Ref `step:"fit" accepts:"fit" doc:"a fit of the same signals (planets b, c, d in the search's order): its samples give the grazing probability, the transit's density and the blend bound, and its ephemeris places the transits"`
+	Star               *steps.Ref `step:"star" accepts:"star" doc:"the host star: its density for the density test and the orbit, its Teff for the day side's thermal light"`
+	Derive             *steps.Ref `step:"derive" accepts:"derive" doc:"derived planet parameters: the radius on the target is compared with max_planet_radius"`
+	OddEvenSigma       float64    `step:"odd_even_sigma" default:"3" doc:"difference of odd and even transit depths, in σ, at which the data disagree"`
+	SecondaryAlarm     float64    `step:"secondary_false_alarm" default:"0.00135" doc:"family-wise false-alarm probability of the secondary-eclipse search; the significance each phase must reach is Šidák-corrected for the number of independent phases searched"`
+	SecondaryRatio     float64    `step:"secondary_depth_ratio" default:"0.2" doc:"a significant secondary dip at least this fraction of the transit's depth disagrees"`
+	MaxAlbedo          float64    `step:"max_albedo" default:"1.5" doc:"a significant secondary dip needing a geometric albedo above this (after the hottest day side's thermal light) disagrees"`
+	Wavelength         float64    `step:"band_wavelength" dim:"length" default:"0.8 um" doc:"effective wavelength of the light curve's band, for the day side's thermal light; by default \"800 nm\", a broad red band"`
+	GrazingProbability float64    `step:"grazing_probability" default:"0.5" doc:"with a fit: the share of samples on a grazing chord (b + k > 1) that gives a caution"`
+	VShapeFraction     float64    `step:"v_shape_fraction" default:"0.35" doc:"without a fit: the ingress fraction T12/T14 of a fitted trapezoid which, reached at 2σ, gives a caution (0 a box, 0.5 a V)"`
+	DensitySigma       float64    `step:"density_sigma" default:"3" doc:"difference of the star's and the transit's ln density, in σ, that gives a caution"`
+	DepthAlarm         float64    `step:"depth_false_alarm" default:"0.0027" doc:"p-value of one common depth across segments or bands below which the depths are said to differ"`
+	// RatioTolerance is absent to derive it from the data.
+	RatioTolerance *float64 `step:"ratio_tolerance" doc:"relative tolerance for a period ratio near n, 1/n or p/q; by default the longer duration over the baseline, within which the data cannot tell two periods apart"`
+	// MaxPlanetRadius is in R☉, the base unit; options gives it in R_J.
+	MaxPlanetRadius float64 `step:"max_planet_radius" dim:"radius" default:"2 R_jup" doc:"with a derive step: a radius on the target above this disagrees; by default the derive step's own default, \"2 R_jup\""`
+	// StarTolerance is absent to derive it from the data.
+	StarTolerance    *float64 `step:"star_period_tolerance" doc:"relative tolerance for a signal's period near one of the star's periods P★, P★/2, P★/3, 2P★ or 3P★; by default P★/(4L) + D/T, a quarter of the star periodogram's resolution over the longest gap-free stretch L plus the signal's duration D over the baseline T"`
+	VariabilityRatio float64  `step:"variability_depth_ratio" default:"10" doc:"the star's semi-amplitude at a period, over the dip's depth, from which a signal at that period or a fraction of it disagrees rather than gives a caution"`
 }
 
-// Prepare checks the values and builds a Config.
-func (Kind) Prepare(v steps.Values) (any, error) {
+// options are the tests' options: the thresholds as decoded, the planetary radius in R_J,
+// and an absent tolerance as 0, derived from the data.
+func (c *Config) options() Options {
 	o := Options{
-		OddEvenSigma: v.Float("odd_even_sigma"), SecondaryAlarm: v.Float("secondary_false_alarm"),
-		SecondaryRatio: v.Float("secondary_depth_ratio"), MaxAlbedo: v.Float("max_albedo"),
-		Wavelength: v.Float("band_wavelength"), GrazingProbability: v.Float("grazing_probability"),
-		VShapeFraction: v.Float("v_shape_fraction"), DensitySigma: v.Float("density_sigma"),
-		DepthAlarm: v.Float("depth_false_alarm"), RatioTolerance: v.Float("ratio_tolerance"),
-		MaxPlanetRadius: v.Float("max_planet_radius") / rJupInSun,
-		StarTolerance:   v.Float("star_period_tolerance"), VariabilityRatio: v.Float("variability_depth_ratio"),
+		OddEvenSigma: c.OddEvenSigma, SecondaryAlarm: c.SecondaryAlarm, SecondaryRatio: c.SecondaryRatio,
+		MaxAlbedo: c.MaxAlbedo, Wavelength: c.Wavelength, GrazingProbability: c.GrazingProbability,
+		VShapeFraction: c.VShapeFraction, DensitySigma: c.DensitySigma, DepthAlarm: c.DepthAlarm,
+		MaxPlanetRadius: c.MaxPlanetRadius / rJupInSun, VariabilityRatio: c.VariabilityRatio,
 	}
+	if c.RatioTolerance != nil {
+		o.RatioTolerance = *c.RatioTolerance
+	}
+	if c.StarTolerance != nil {
+		o.StarTolerance = *c.StarTolerance
+	}
+	return o
+}
+
+// Check holds each threshold to the values it can take.
+func (Kind) Check(c *Config) error {
+	o := c.options()
 	finite := func(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }
 	checks := []struct {
 		attr   string
@@ -178,25 +171,21 @@ func (Kind) Prepare(v steps.Values) (any, error) {
 		{"v_shape_fraction", o.VShapeFraction > 0 && o.VShapeFraction <= 0.5, "a fraction above 0 and at most 0.5 (a V)", o.VShapeFraction},
 		{"density_sigma", o.DensitySigma > 0 && finite(o.DensitySigma), "a positive number of σ", o.DensitySigma},
 		{"depth_false_alarm", o.DepthAlarm > 0 && o.DepthAlarm < 1, "a probability between 0 and 1", o.DepthAlarm},
-		{"ratio_tolerance", !v.Has("ratio_tolerance") || (o.RatioTolerance > 0 && o.RatioTolerance < 0.5), "a relative tolerance between 0 and 0.5", o.RatioTolerance},
+		{"ratio_tolerance", c.RatioTolerance == nil || (o.RatioTolerance > 0 && o.RatioTolerance < 0.5), "a relative tolerance between 0 and 0.5", o.RatioTolerance},
 		{"max_planet_radius", o.MaxPlanetRadius > 0 && finite(o.MaxPlanetRadius), "a positive radius", o.MaxPlanetRadius},
-		{"star_period_tolerance", !v.Has("star_period_tolerance") || (o.StarTolerance > 0 && o.StarTolerance < 0.5), "a relative tolerance between 0 and 0.5", o.StarTolerance},
+		{"star_period_tolerance", c.StarTolerance == nil || (o.StarTolerance > 0 && o.StarTolerance < 0.5), "a relative tolerance between 0 and 0.5", o.StarTolerance},
 		{"variability_depth_ratio", o.VariabilityRatio > 0 && finite(o.VariabilityRatio), "a positive ratio", o.VariabilityRatio},
 	}
-	for _, c := range checks {
-		if !c.ok {
-			return nil, steps.Attrf(c.attr, "must be %s, not %v", c.expect, c.val)
+	for _, k := range checks {
+		if !k.ok {
+			return steps.Attrf(k.attr, "must be %s, not %v", k.expect, k.val)
 		}
 	}
-	return Config{Options: o}, nil
+	return nil
 }
 
 // Run vets the referenced search's signals.
-func (Kind) Run(ctx context.Context, cfgAny any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
-	cfg, ok := cfgAny.(Config)
-	if !ok {
-		return nil, fmt.Errorf("vet: configuration of type %T", cfgAny)
-	}
+func (Kind) Run(ctx context.Context, cfg *Config, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
@@ -241,7 +230,7 @@ func (Kind) Run(ctx context.Context, cfgAny any, in steps.Inputs, env steps.Env)
 		}
 		d.Derive = r
 	}
-	art, notes, err := Vet(d, cfg.Options)
+	art, notes, err := Vet(d, cfg.options())
 	if err != nil {
 		return nil, err
 	}

@@ -150,7 +150,7 @@ func TestTheArtifactJudgesEveryTest(t *testing.T) {
 	})
 }
 
-func TestPrepareNamesTheAttributeAtFault(t *testing.T) {
+func TestCheckNamesTheAttributeAtFault(t *testing.T) {
 	cases := []struct {
 		name, attr string
 		val        any
@@ -159,46 +159,60 @@ func TestPrepareNamesTheAttributeAtFault(t *testing.T) {
 		{"a false-alarm probability of one", "secondary_false_alarm", 1.0},
 		{"a negative depth ratio", "secondary_depth_ratio", -0.1},
 		{"an infinite albedo", "max_albedo", math.Inf(1)},
-		{"a wavelength of 10 nm", "band_wavelength", 10e-9},
+		{"a wavelength of 10 nm", "band_wavelength", "10 nm"},
 		{"a grazing probability above one", "grazing_probability", 1.5},
 		{"a V-shape fraction above one half", "v_shape_fraction", 0.6},
 		{"a negative density threshold", "density_sigma", -3.0},
 		{"a depth p-value of zero", "depth_false_alarm", 0.0},
 		{"a ratio tolerance of one", "ratio_tolerance", 1.0},
-		{"a zero planet radius", "max_planet_radius", 0.0},
+		{"a zero planet radius", "max_planet_radius", "0 R_jup"},
 	}
 	for _, c := range cases {
 		t.Run("it refuses "+c.name, func(t *testing.T) {
-			v := steptest.Values(Kind{}, map[string]any{"signals": "search.dips", "light_curve": "detrend.masked", c.attr: c.val})
-			_, err := Kind{}.Prepare(v)
+			_, err := steptest.Config(New(), block(map[string]any{c.attr: c.val}))
 			var ae *steps.AttrError
 			if !errors.As(err, &ae) || ae.Attr != c.attr {
 				t.Errorf("error %v, want one naming %s", err, c.attr)
 			}
 		})
 	}
+	t.Run("the defaults are accepted", func(t *testing.T) {
+		cfg, err := steptest.Config(New(), block(nil))
+		if err != nil {
+			t.Fatal(err)
+		}
+		// The tags' defaults are the constants whose reasons are given beside them, to the
+		// bit (they enter step keys).
+		c := cfg.(*Config)
+		o := c.options()
+		want := Options{OddEvenSigma: defaultOddEvenSigma, SecondaryAlarm: defaultSecondaryAlarm,
+			SecondaryRatio: defaultSecondaryRatio, MaxAlbedo: defaultMaxAlbedo, Wavelength: defaultWavelength,
+			GrazingProbability: defaultGrazingProbability, VShapeFraction: defaultVShapeFraction,
+			DensitySigma: defaultDensitySigma, DepthAlarm: defaultDepthAlarm, MaxPlanetRadius: o.MaxPlanetRadius,
+			VariabilityRatio: defaultVariabilityRatio}
+		if o != want || c.RatioTolerance != nil || c.StarTolerance != nil || c.Fit != nil || c.Star != nil || c.Derive != nil {
+			t.Fatalf("defaults decoded as %+v", c)
+		}
+	})
 }
 
 func TestTheRadiusLimitIsDerivesOwn(t *testing.T) {
 	// One threshold in one place: the vet kind's default is the derive kind's.
-	var want any
-	for _, p := range (derive.Kind{}).Params() {
-		if p.Name == "max_planet_radius" {
-			want = p.Default
-		}
+	want := deriveMaxPlanetRadius()
+	got := steptest.MustConfig(New(), block(nil)).(*Config).MaxPlanetRadius
+	if want == 0 || got != want {
+		t.Errorf("vet's default %v R_sun, derive's %v R_sun", got, want)
 	}
-	var got any
-	for _, p := range (Kind{}).Params() {
-		if p.Name == "max_planet_radius" {
-			got = p.Default
-		}
+	// Both are written the same way, so that the schemas (and `dipline kinds`) show one value.
+	if vp, dp := New().Schema().Param("max_planet_radius"), derive.New().Schema().Param("max_planet_radius"); vp.Default != dp.Default {
+		t.Errorf("vet's default is written %q, derive's %q", vp.Default, dp.Default)
 	}
-	if want == nil || got != want {
-		t.Errorf("vet's default %v, derive's %v", got, want)
-	}
-	// And it is 2 R_jup (common practice, as derive documents).
+	// And it is 2 R_jup (common practice, as derive documents), in R_J to the bit.
 	if r, _ := units.Radius.Parse("2 R_jup"); got != r {
 		t.Errorf("default %v R_sun, want 2 R_jup = %v", got, r)
+	}
+	if o := steptest.MustConfig(New(), block(nil)).(*Config).options(); o.MaxPlanetRadius != 2 {
+		t.Errorf("default %v R_jup, want 2", o.MaxPlanetRadius)
 	}
 }
 
@@ -216,8 +230,7 @@ func TestBrokenInputsAreRefused(t *testing.T) {
 	}
 	for _, c := range cases {
 		t.Run("it refuses "+c.name, func(t *testing.T) {
-			v := steptest.Values(Kind{}, map[string]any{"signals": "search.dips", "light_curve": "detrend.masked"})
-			_, _, err := steptest.Run(Kind{}, v, c.in, nil)
+			_, _, err := steptest.Run(New(), block(nil), c.in, nil)
 			if err == nil || !strings.Contains(err.Error(), c.says) || steps.IsInputError(err) != c.bad {
 				t.Errorf("error %v", err)
 			}

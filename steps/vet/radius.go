@@ -12,17 +12,19 @@ import (
 var rJupInSun = units.Radius.Units["R_jup"]
 
 // deriveMaxPlanetRadius returns the derive step's own default for the largest planetary
-// radius, in R☉ (the base unit), read from its schema so that the threshold is defined
-// once; 0 if derive no longer declares it (a test guards this).
+// radius, in R☉ (the base unit), as its schema decodes it, so that the threshold is defined
+// once: the test of vet's own max_planet_radius default holds it to this; 0 if derive's
+// defaults do not decode.
 func deriveMaxPlanetRadius() float64 {
-	for _, p := range (derive.Kind{}).Params() {
-		if p.Name == "max_planet_radius" {
-			if r, ok := p.Default.(float64); ok {
-				return r
-			}
-		}
+	cfg, err := derive.New().Schema().New()
+	if err != nil {
+		return 0
 	}
-	return 0
+	c, ok := cfg.(*derive.Config)
+	if !ok {
+		return 0
+	}
+	return c.MaxPlanetRadius
 }
 
 // radius compares the planet's radius on the target from the derive step with the

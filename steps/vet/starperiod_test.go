@@ -158,8 +158,7 @@ func TestWithoutTheStarsVariabilityTheTestIsNotRun(t *testing.T) {
 func TestTheStarPeriodOptionsAreChecked(t *testing.T) {
 	lc := makeCurve(planetNoise, 4, planet)
 	t.Run("a stated tolerance replaces the derived one", func(t *testing.T) {
-		v := steptest.Values(Kind{}, map[string]any{"signals": "search.dips", "light_curve": "detrend.masked", "star_period_tolerance": 0.1})
-		art, _, err := steptest.Run(Kind{}, v, starInputs(lc, 1.08*starP, spotted), nil)
+		art, _, err := steptest.Run(New(), block(map[string]any{"star_period_tolerance": 0.1}), starInputs(lc, 1.08*starP, spotted), nil)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -172,8 +171,7 @@ func TestTheStarPeriodOptionsAreChecked(t *testing.T) {
 		val  float64
 	}{{"star_period_tolerance", 0.7}, {"star_period_tolerance", -0.1}, {"variability_depth_ratio", 0}} {
 		t.Run("it refuses "+c.attr+" = "+strconv.FormatFloat(c.val, 'g', -1, 64), func(t *testing.T) {
-			v := steptest.Values(Kind{}, map[string]any{"signals": "search.dips", "light_curve": "detrend.masked", c.attr: c.val})
-			_, err := Kind{}.Prepare(v)
+			_, err := steptest.Config(New(), block(map[string]any{c.attr: c.val}))
 			var ae *steps.AttrError
 			if !errors.As(err, &ae) || ae.Attr != c.attr {
 				t.Errorf("error %v, want one naming %s", err, c.attr)
@@ -182,8 +180,7 @@ func TestTheStarPeriodOptionsAreChecked(t *testing.T) {
 	}
 	t.Run("a variability whose lists do not pair up is refused as bad input", func(t *testing.T) {
 		bad := lightcurve.Variability{Periods: []float64{1, 2}, Amplitudes: []float64{0.01}}
-		v := steptest.Values(Kind{}, map[string]any{"signals": "search.dips", "light_curve": "detrend.masked"})
-		_, _, err := steptest.Run(Kind{}, v, starInputs(lc, starP, bad), nil)
+		_, _, err := steptest.Run(New(), block(nil), starInputs(lc, starP, bad), nil)
 		if err == nil || !steps.IsInputError(err) || !strings.Contains(err.Error(), "2 periods and 1 amplitudes") {
 			t.Errorf("error %v", err)
 		}
