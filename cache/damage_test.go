@@ -30,7 +30,7 @@ func fixtureStore(t *testing.T) (*Store, []Entry) {
 		for i := range 40 {
 			r := Run{ID: fmt.Sprintf("run%02d", i), Started: t0.Add(time.Duration(i) * time.Hour), State: RunEnded}
 			for _, e := range es[i*7 : i*7+7] {
-				r.Steps = append(r.Steps, RunStep{Address: "step.x", StepKey: e.Step, ResultKey: e.Result, Status: "computed"})
+				r.Steps = append(r.Steps, RunStep{Step: "step.x", StepKey: e.Step, ResultKey: e.Result, Status: "computed"})
 			}
 			b, _ := json.Marshal(r)
 			if err := tx.Bucket(bucketRuns).Put([]byte(r.ID), b); err != nil {
@@ -424,7 +424,7 @@ func TestInterruptedRuns(t *testing.T) {
 		if err := s.PutRun(Run{ID: "killed", Started: now.Add(-killedAgo), State: RunUnderWay, PID: 1}); err != nil {
 			t.Fatal(err)
 		}
-		if err := s.CommitStep("killed", []RunStep{{Address: "fit.x", StepKey: killed.Step, ResultKey: killed.Result, Status: "computed"}}, killed); err != nil {
+		if err := s.CommitStep("killed", []RunStep{{Step: "fit.x", StepKey: killed.Step, ResultKey: killed.Result, Status: "computed"}}, killed); err != nil {
 			t.Fatal(err)
 		}
 		return s, old, killed
@@ -462,7 +462,7 @@ func TestInterruptedRuns(t *testing.T) {
 
 func TestCommitStepAddsTheLineWithTheEntries(t *testing.T) {
 	s := newStore(t)
-	if err := s.CommitStep("nope", []RunStep{{Address: "a.b"}}); !errors.Is(err, ErrMissing) {
+	if err := s.CommitStep("nope", []RunStep{{Step: "a.b"}}); !errors.Is(err, ErrMissing) {
 		t.Errorf("CommitStep without a run record: %v", err)
 	}
 	if err := s.PutRun(Run{ID: "r", Started: t0, State: RunUnderWay}); err != nil {
@@ -470,13 +470,13 @@ func TestCommitStepAddsTheLineWithTheEntries(t *testing.T) {
 	}
 	a, b := entry("a", []byte("a")), entry("b", []byte("b"))
 	for _, e := range []Entry{a, b, a} { // a twice: its line is replaced, not repeated
-		line := RunStep{Address: "step." + string(e.Data), StepKey: e.Step, ResultKey: e.Result, Status: "computed"}
+		line := RunStep{Step: "step." + string(e.Data), StepKey: e.Step, ResultKey: e.Result, Status: "computed"}
 		if err := s.CommitStep("r", []RunStep{line}, e); err != nil {
 			t.Fatal(err)
 		}
 	}
 	r, err := s.FindRun("r")
-	if err != nil || len(r.Steps) != 2 || r.Steps[0].Address != "step.b" || r.Steps[1].Address != "step.a" || r.HasEnded() {
+	if err != nil || len(r.Steps) != 2 || r.Steps[0].Step != "step.b" || r.Steps[1].Step != "step.a" || r.HasEnded() {
 		t.Errorf("record %+v, %v", r, err)
 	}
 	if !present(t, s, a) || !present(t, s, b) {

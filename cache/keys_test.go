@@ -54,7 +54,7 @@ func TestKeyParsing(t *testing.T) {
 
 func TestKeysTravelThroughJSONAsHex(t *testing.T) {
 	rk := ResultKeyOf([]byte("abc"))
-	in := RunStep{Address: "search.periodic", StepKey: StepKey(rk), ResultKey: rk}
+	in := RunStep{Step: "search.periodic", StepKey: StepKey(rk), ResultKey: rk}
 	data, err := json.Marshal(in)
 	if err != nil {
 		t.Fatal(err)
@@ -71,7 +71,7 @@ func TestKeysTravelThroughJSONAsHex(t *testing.T) {
 	}
 
 	t.Run("a zero result key is left out and reads back as zero", func(t *testing.T) {
-		data, _ := json.Marshal(RunStep{Address: "fit.main"})
+		data, _ := json.Marshal(RunStep{Step: "fit.main"})
 		if strings.Contains(string(data), "result_key") {
 			t.Errorf("JSON %s holds a zero result key", data)
 		}

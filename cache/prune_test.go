@@ -17,7 +17,7 @@ func putRun(t *testing.T, s *Store, id string, started time.Time, es ...Entry) {
 	mustCommit(t, s, es...)
 	r := Run{ID: id, Started: started}
 	for _, e := range es {
-		r.Steps = append(r.Steps, RunStep{Address: "x." + id, StepKey: e.Step, ResultKey: e.Result})
+		r.Steps = append(r.Steps, RunStep{Step: "x." + id, StepKey: e.Step, ResultKey: e.Result})
 	}
 	if err := s.PutRun(r); err != nil {
 		t.Fatal(err)

@@ -52,12 +52,30 @@ func (r Run) HasEnded() bool { return r.State != RunUnderWay }
 
 // RunStep is one step's line in a run record.
 type RunStep struct {
-	Address   string    `json:"address"` // kind.label as written in the workflow
+	Step      string    `json:"step"` // kind.label as written in the workflow
 	Kind      string    `json:"kind"`
 	StepKey   StepKey   `json:"step_key"`
 	ResultKey ResultKey `json:"result_key,omitzero"` // zero when the step gave no result
 	Status    string    `json:"status"`              // the engine's word for what happened
 	Seconds   float64   `json:"seconds"`             // time spent computing (0 when reused)
+}
+
+// UnmarshalJSON reads a step line in either form: stores of format formatV1 name the step
+// under "address", later ones under "step".
+func (rs *RunStep) UnmarshalJSON(b []byte) error {
+	type line RunStep // the same fields without this method
+	var v struct {
+		line
+		Former string `json:"address"`
+	}
+	if err := json.Unmarshal(b, &v); err != nil {
+		return err
+	}
+	*rs = RunStep(v.line)
+	if rs.Step == "" {
+		rs.Step = v.Former
+	}
+	return nil
 }
 
 // The run references FindRun understands besides ids and id prefixes.
@@ -199,7 +217,7 @@ func decodeRun(k, v []byte) (Run, error) {
 	}
 	r.ID = string(k)
 	for i, st := range r.Steps {
-		if st.Address == "" && st.StepKey.IsZero() {
+		if st.Step == "" && st.StepKey.IsZero() {
 			return r, fmt.Errorf("its step line %d is empty", i+1)
 		}
 	}
@@ -300,7 +318,7 @@ func pickEnded(runs []Run, ref string) (Run, error) {
 // CommitStep stores a step's entries (as Commit does) and puts step lines into the record
 // of run runID, in one transaction: a run killed right after it still has a record naming
 // what it stored. The record must exist (the engine writes it when the run starts); a line
-// with the address of one already there replaces it.
+// for a step already there replaces it.
 func (s *Store) CommitStep(runID string, lines []RunStep, entries ...Entry) error {
 	if err := checkEntries(entries); err != nil {
 		return err
@@ -319,7 +337,7 @@ func (s *Store) CommitStep(runID string, lines []RunStep, entries ...Entry) erro
 			return &DamagedError{Path: s.path, Problem: fmt.Sprintf("the record of run %s cannot be read (%v)", clip(runID), err)}
 		}
 		for _, st := range lines {
-			r.Steps = slices.DeleteFunc(r.Steps, func(x RunStep) bool { return x.Address == st.Address })
+			r.Steps = slices.DeleteFunc(r.Steps, func(x RunStep) bool { return x.Step == st.Step })
 			r.Steps = append(r.Steps, st)
 		}
 		data, err := json.Marshal(r)

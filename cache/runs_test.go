@@ -1,12 +1,15 @@
 package cache
 
 import (
+	"encoding/json"
 	"errors"
 	"reflect"
 	"regexp"
 	"strings"
 	"testing"
 	"time"
+
+	bolt "go.etcd.io/bbolt"
 )
 
 // t0 is an arbitrary fixed time for the tests' run records.
@@ -21,8 +24,8 @@ func TestRunRecordsRoundTrip(t *testing.T) {
 		File:      "analysis.hcl",
 		Overrides: map[string]string{"seed": "4712", "detrend.quiet.span": "12 h"},
 		Steps: []RunStep{
-			{Address: "photometry.survey", Kind: "photometry", StepKey: stepKey("p"), ResultKey: ResultKeyOf([]byte("p")), Status: "reused"},
-			{Address: "fit.main", Kind: "fit", StepKey: stepKey("f"), Status: "failed", Seconds: 12.5},
+			{Step: "photometry.survey", Kind: "photometry", StepKey: stepKey("p"), ResultKey: ResultKeyOf([]byte("p")), Status: "reused"},
+			{Step: "fit.main", Kind: "fit", StepKey: stepKey("f"), Status: "failed", Seconds: 12.5},
 		},
 	}
 	if err := s.PutRun(want); err != nil {
@@ -168,4 +171,65 @@ func TestPins(t *testing.T) {
 	if pins, _ := s.Pins(); !reflect.DeepEqual(pins, map[string]string{"r1": "accepted"}) {
 		t.Errorf("Pins after Unpin = %v", pins)
 	}
+}
+
+func TestAStoreOfTheFirstFormatReadsAndIsMarkedOnItsFirstWrite(t *testing.T) {
+	s := newStore(t)
+	e := entry("fit.main", []byte("f"))
+	mustCommit(t, s, e)
+	// A run record as a dipline of format "dipline store 1" wrote it: each step line names
+	// its step under "address".
+	old := `{"id":"20250314-093000-aaaa0001","started":"2025-03-14T09:30:00Z","workflow_digest":"d",` +
+		`"workflow_file":"analysis.hcl","steps":[{"address":"fit.main","kind":"fit","step_key":"` + e.Step.String() +
+		`","result_key":"` + e.Result.String() + `","status":"computed","seconds":1.5}],"state":"ended"}`
+	if err := PutRawForTest(s.Path(), "runs", []byte("20250314-093000-aaaa0001"), []byte(old)); err != nil {
+		t.Fatal(err)
+	}
+	if err := PutRawForTest(s.Path(), "meta", keyFormat, []byte(formatV1)); err != nil {
+		t.Fatal(err)
+	}
+	formatNow := func() string {
+		var v string
+		if err := s.view(func(tx *bolt.Tx) error { v = string(tx.Bucket(bucketMeta).Get(keyFormat)); return nil }); err != nil {
+			t.Fatal(err)
+		}
+		return v
+	}
+
+	t.Run("its run record reads, with the step named", func(t *testing.T) {
+		r, err := s.FindRun(RefLatest)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(r.Steps) != 1 || r.Steps[0].Step != "fit.main" || r.Steps[0].StepKey != e.Step || r.Steps[0].ResultKey != e.Result {
+			t.Errorf("step lines %+v", r.Steps)
+		}
+		if _, bad, err := s.RunRecords(); err != nil || len(bad) != 0 {
+			t.Errorf("bad records %v, %v", bad, err)
+		}
+		if f := formatNow(); f != formatV1 {
+			t.Errorf("reading changed the format to %q", f)
+		}
+	})
+	t.Run("a step line added to it replaces the old one of the same step", func(t *testing.T) {
+		line := RunStep{Step: "fit.main", Kind: "fit", StepKey: e.Step, ResultKey: e.Result, Status: "reused"}
+		if err := s.CommitStep("20250314-093000-aaaa0001", []RunStep{line}); err != nil {
+			t.Fatal(err)
+		}
+		r, err := s.FindRun("20250314-093000-aaaa0001")
+		if err != nil || len(r.Steps) != 1 || r.Steps[0] != line {
+			t.Errorf("step lines %+v, %v", r.Steps, err)
+		}
+	})
+	t.Run("the first write marks it with this format", func(t *testing.T) {
+		if f := formatNow(); f != format {
+			t.Errorf("format %q after a write, want %q", f, format)
+		}
+	})
+	t.Run("a new step line names the step under step", func(t *testing.T) {
+		b, err := json.Marshal(RunStep{Step: "fit.main"})
+		if err != nil || !strings.Contains(string(b), `"step":"fit.main"`) || strings.Contains(string(b), "address") {
+			t.Errorf("JSON %s, %v", b, err)
+		}
+	})
 }

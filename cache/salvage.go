@@ -88,8 +88,8 @@ func (s *Store) Salvage(into string, opt SalvageOptions) (SalvageReport, error) 
 		return rep, fmt.Errorf("salvage: the store %s is empty: there is nothing to salvage", s.path)
 	}
 	inv := readInventory(f, fi.Size(), true)
-	if inv.format != nil && string(inv.format) != format {
-		return rep, fmt.Errorf("salvage: the store %s has format %q; this dipline reads %q", s.path, clip(string(inv.format)), format)
+	if inv.format != nil && !readable(inv.format) {
+		return rep, fmt.Errorf("salvage: the store %s has format %q; this dipline reads %q and %q", s.path, clip(string(inv.format)), format, formatV1)
 	}
 	plan := planSalvage(inv, opt, &rep)
 	tmp := into + ".salvaging"

@@ -52,8 +52,18 @@ var (
 var openTimeout = 10 * time.Second
 
 // format is stored in the meta bucket; a store written in another layout is refused rather
-// than misread.
-const format = "dipline store 1"
+// than misread. Format 2 names a step in run and provenance records "step" (format 1 said
+// "address"); the records are otherwise alike, so this dipline reads a store of either
+// format, and its first write marks a format-1 store as format 2: from then on it holds
+// records that a dipline of format 1 would read as steps without a name, and it refuses
+// the store instead.
+const (
+	format   = "dipline store 2"
+	formatV1 = "dipline store 1"
+)
+
+// readable reports whether this dipline reads a store whose meta bucket names format v.
+func readable(v []byte) bool { return string(v) == format || string(v) == formatV1 }
 
 // Bucket names. The values are described beside each.
 var (
@@ -301,7 +311,7 @@ func prepare(tx *bolt.Tx, path string) error {
 			return err
 		}
 	}
-	if tx.Bucket(bucketMeta).Get(keyFormat) == nil {
+	if string(tx.Bucket(bucketMeta).Get(keyFormat)) != format {
 		return tx.Bucket(bucketMeta).Put(keyFormat, []byte(format))
 	}
 	return nil
@@ -309,8 +319,8 @@ func prepare(tx *bolt.Tx, path string) error {
 
 func checkFormat(tx *bolt.Tx, path string) error {
 	if b := tx.Bucket(bucketMeta); b != nil {
-		if v := b.Get(keyFormat); v != nil && string(v) != format {
-			return fmt.Errorf("store %s has format %q; this dipline reads %q", path, clip(string(v)), format)
+		if v := b.Get(keyFormat); v != nil && !readable(v) {
+			return fmt.Errorf("store %s has format %q; this dipline reads %q and %q", path, clip(string(v)), format, formatV1)
 		}
 	}
 	return nil

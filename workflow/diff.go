@@ -1,8 +1,6 @@
 package workflow
 
 import (
-	"encoding/json"
-	"errors"
 	"fmt"
 	"math"
 	"sort"
@@ -13,12 +11,13 @@ import (
 
 // StepDiff compares one step between two runs.
 type StepDiff struct {
-	Address string
-	// State is "same" (equal step keys), "recomputed" (new key, equal result), "changed"
-	// (new result), "added" or "removed".
+	Step string // kind.label
+	// State is DiffUnchanged, DiffSameResult, DiffNewResult, DiffUnfinished, DiffNewStep
+	// or DiffGone (states.go).
 	State string
 	// Why lists what differs in the step's own inputs: settings old → new, file digests,
-	// catalogue values, the kind's version, and which upstream results changed.
+	// catalogue values, the kind's version, and which upstream results changed; for an
+	// unfinished step, in which run it did not finish.
 	Why []string
 	// Shifts compares the step's figures, for a changed result.
 	Shifts []Shift
@@ -72,36 +71,53 @@ func Diff(store *cache.Store, reg steps.Registry, oldRef, newRef string) (*DiffR
 	}
 	olds := map[string]cache.RunStep{}
 	for _, s := range oldRun.Steps {
-		olds[s.Address] = s
+		olds[s.Step] = s
 	}
 	seen := map[string]bool{}
 	for _, ns := range newRun.Steps {
-		seen[ns.Address] = true
-		os, ok := olds[ns.Address]
+		seen[ns.Step] = true
+		os, ok := olds[ns.Step]
 		if !ok {
-			rep.Steps = append(rep.Steps, StepDiff{Address: ns.Address, State: "added"})
+			rep.Steps = append(rep.Steps, StepDiff{Step: ns.Step, State: DiffNewStep})
 			continue
 		}
 		d, err := diffStep(store, reg, os, ns)
 		if err != nil {
-			return nil, fmt.Errorf("%s: %w", ns.Address, err)
+			return nil, fmt.Errorf("%s: %w", ns.Step, err)
 		}
 		rep.Steps = append(rep.Steps, d)
 	}
 	for _, os := range oldRun.Steps {
-		if !seen[os.Address] {
-			rep.Steps = append(rep.Steps, StepDiff{Address: os.Address, State: "removed"})
+		if !seen[os.Step] {
+			rep.Steps = append(rep.Steps, StepDiff{Step: os.Step, State: DiffGone})
 		}
 	}
 	return rep, nil
 }
 
 func diffStep(store *cache.Store, reg steps.Registry, os, ns cache.RunStep) (StepDiff, error) {
-	d := StepDiff{Address: ns.Address, State: "same"}
+	d := StepDiff{Step: ns.Step, State: DiffUnchanged}
 	if os.StepKey == ns.StepKey {
 		return d, nil
 	}
-	d.State = "recomputed"
+	if os.ResultKey.IsZero() || ns.ResultKey.IsZero() {
+		d.State = DiffUnfinished
+		for _, r := range []struct {
+			run string
+			rs  cache.RunStep
+		}{{"old", os}, {"new", ns}} {
+			switch {
+			case !r.rs.ResultKey.IsZero():
+			case r.rs.Status == StatusFailed:
+				d.Why = append(d.Why, "it failed in the "+r.run+" run")
+			case r.rs.Status == StatusSkipped:
+				d.Why = append(d.Why, "it was skipped in the "+r.run+" run")
+			default:
+				d.Why = append(d.Why, "it gave no result in the "+r.run+" run")
+			}
+		}
+		return d, nil // a step with no result has no provenance to compare
+	}
 	oldP, whyO, err := provenanceOf(store, os.StepKey)
 	if err != nil {
 		return d, err
@@ -121,19 +137,32 @@ func diffStep(store *cache.Store, reg steps.Registry, os, ns cache.RunStep) (Ste
 		}
 		d.Why = append(d.Why, "the cause cannot be shown: "+joinAnd(why))
 	}
-	if os.ResultKey == ns.ResultKey || os.ResultKey.IsZero() || ns.ResultKey.IsZero() {
+	if os.ResultKey == ns.ResultKey {
+		d.State = DiffSameResult
 		return d, nil
 	}
-	d.State = "changed"
+	d.State = DiffNewResult
 	kind := reg[ns.Kind]
 	if kind == nil || reg[os.Kind] != kind {
 		return d, nil
 	}
-	oldF, errO := figuresOf(store, kind, os.ResultKey)
-	newF, errN := figuresOf(store, kind, ns.ResultKey)
-	if errO != nil || errN != nil {
+	oldF, whyO, err := figuresOf(store, kind, os.ResultKey)
+	if err != nil {
+		return d, err
+	}
+	newF, whyN, err := figuresOf(store, kind, ns.ResultKey)
+	if err != nil {
+		return d, err
+	}
+	if whyO != "" || whyN != "" {
 		// A result that is gone or damaged stops only this step's comparison.
-		d.Why = append(d.Why, "its numbers cannot be compared: "+errors.Join(errO, errN).Error())
+		var why []string
+		for _, w := range []struct{ run, why string }{{"old", whyO}, {"new", whyN}} {
+			if w.why != "" {
+				why = append(why, "in the "+w.run+" run, "+w.why)
+			}
+		}
+		d.Why = append(d.Why, "its numbers cannot be compared: "+joinAnd(why))
 		return d, nil
 	}
 	byName := map[string]steps.Figure{}
@@ -176,11 +205,11 @@ func provenanceChanges(oldP, newP *Provenance) []string {
 	why := recordChanges(oldP, newP)
 	oldIn := map[string]string{}
 	for _, in := range oldP.Inputs {
-		oldIn[in.Param+"\x00"+in.Address] = in.ResultKey
+		oldIn[in.Param+"\x00"+in.Step] = in.ResultKey
 	}
 	for _, in := range newP.Inputs {
-		if rk, ok := oldIn[in.Param+"\x00"+in.Address]; ok && rk != in.ResultKey {
-			why = append(why, fmt.Sprintf("the result of %s changed", in.Address))
+		if rk, ok := oldIn[in.Param+"\x00"+in.Step]; ok && rk != in.ResultKey {
+			why = append(why, fmt.Sprintf("the result of %s changed", in.Step))
 		}
 	}
 	if oldP.Seed != nil && newP.Seed != nil && *oldP.Seed != *newP.Seed {
@@ -189,32 +218,13 @@ func provenanceChanges(oldP, newP *Provenance) []string {
 	return why
 }
 
-// provenanceOf reads one provenance record. A record that is missing or does not read is
-// no error: it gives a nil record and says why ("" when it read). Only a failure of the
-// store itself is an error.
-func provenanceOf(store *cache.Store, key cache.StepKey) (*Provenance, string, error) {
-	b, ok, err := store.Provenance(key)
-	if err != nil {
-		return nil, "", err
+// figuresOf reads a step's figures from its stored result (readResult). A result that is
+// missing, damaged or unreadable gives no figures and says why; only a failure of the store
+// itself is an error.
+func figuresOf(store *cache.Store, kind steps.Kind, rk cache.ResultKey) ([]steps.Figure, string, error) {
+	held, err := readResult(store, kind, rk)
+	if err != nil || held.Held != Usable {
+		return nil, held.Why, err
 	}
-	if !ok {
-		return nil, "provenance record is missing (pruned?)", nil
-	}
-	var p Provenance
-	if err := json.Unmarshal(b, &p); err != nil {
-		return nil, fmt.Sprintf("provenance record cannot be read (%v)", err), nil
-	}
-	return &p, "", nil
-}
-
-func figuresOf(store *cache.Store, kind steps.Kind, rk cache.ResultKey) ([]steps.Figure, error) {
-	data, err := store.Get(rk)
-	if err != nil {
-		return nil, err
-	}
-	art, err := kind.Decode(data)
-	if err != nil {
-		return nil, err
-	}
-	return art.Figures(), nil
+	return held.Artifact.Figures(), "", nil
 }

@@ -24,9 +24,18 @@ const (
 	CauseStopped = "stopped"
 )
 
+// faultWords begin the message of every fault of the program: the user did nothing wrong,
+// and a report helps.
+const faultWords = "a fault in dipline, not in the workflow or its data (please report it): "
+
 // internalError marks a program fault caught by the engine (a recovered panic, a step
-// that returned neither a result nor an error).
+// that returned neither a result nor an error). Its message begins with faultWords.
 type internalError struct{ err error }
+
+// programFault makes an internalError.
+func programFault(format string, args ...any) error {
+	return &internalError{fmt.Errorf(faultWords+format, args...)}
+}
 
 func (e *internalError) Error() string { return e.err.Error() }
 func (e *internalError) Unwrap() error { return e.err }
@@ -37,8 +46,68 @@ type storeError struct{ err error }
 func (e *storeError) Error() string { return "the store failed: " + e.err.Error() }
 func (e *storeError) Unwrap() error { return e.err }
 
-// causeOf classifies a step's own error: the user's input (a *steps.InputError or a
-// *steps.AttrError) or a fault of the program (anything else, including a recovered panic).
+// Place is a line of the workflow file: where a setting a step refused was written.
+type Place struct {
+	File string `json:"file"` // the workflow file, as the user named it
+	Line int    `json:"line"`
+}
+
+// SettingError is a setting that a step refused when it ran, once it saw its inputs (a
+// *steps.AttrError from the kind's Run: a fit asked to make planet c eccentric when only
+// one planet is fitted). It is the user's mistake, like a setting refused at load, and it
+// names the file and line where the setting is written, or the --set option it came from.
+type SettingError struct {
+	Step *Step
+	// Place is the attribute's line (the block's when the attribute is not written, its
+	// default being refused); nil when the setting came from the command line.
+	Place *Place
+	// Set is the --set option that gave the setting, e.g. "--set fit.planets.eccentric".
+	Set string
+	Err *steps.AttrError
+}
+
+// Error says the mistake in one line, beginning with its place:
+// `analysis.hcl line 25: fit "planets": eccentric: "c" is not one of the 1 planet(s) fitted (b)`.
+func (e *SettingError) Error() string {
+	where := ""
+	switch {
+	case e.Set != "":
+		where = "set on the command line (" + e.Set + "): "
+	case e.Place != nil:
+		where = fmt.Sprintf("%s line %d: ", e.Place.File, e.Place.Line)
+	}
+	return fmt.Sprintf("%s%s %q: %s: %s", where, e.Step.Kind.Name(), e.Step.Label, e.Err.Attr, e.Err.Msg)
+}
+
+func (e *SettingError) Unwrap() error { return e.Err }
+
+// settingError places an error from a step's Run that names one of its attributes; any
+// other error is returned as it is.
+func (w *Workflow) settingError(s *Step, err error) error {
+	var ae *steps.AttrError
+	if !errors.As(err, &ae) {
+		return err
+	}
+	se := &SettingError{Step: s, Err: ae}
+	for _, o := range w.Overrides {
+		if o.Addr == s.Addr && o.Attr == ae.Attr {
+			se.Set = "--set " + o.Addr + "." + o.Attr
+			return se
+		}
+	}
+	r, ok := s.attrRanges[ae.Attr]
+	if !ok {
+		r = s.block
+	}
+	if r.Filename != "" {
+		se.Place = &Place{File: r.Filename, Line: r.Start.Line}
+	}
+	return se
+}
+
+// causeOf classifies a step's own error: the user's input (a *steps.InputError, a
+// *steps.AttrError or a *SettingError) or a fault of the program (anything else, including
+// a recovered panic).
 func causeOf(err error) string {
 	var ie *internalError
 	var se *storeError
@@ -52,23 +121,15 @@ func causeOf(err error) string {
 	return CauseProgram
 }
 
-// message says a step's failure for the user. A mistake in an attribute found only when
-// the step ran names the file and line, the block and the attribute:
-// `analysis.hcl line 25: fit "planets": eccentric: "c" is not one of the 1 planet(s) fitted (b)`.
-func (w *Workflow) message(s *Step, err error) string {
-	var ae *steps.AttrError
-	if !errors.As(err, &ae) {
-		return err.Error()
+// message says a step's failure for the user: a setting it refused with its place (see
+// SettingError), a fault of the program as such (faultWords), anything else as it is.
+func message(err error) string {
+	var ie *internalError
+	var se *storeError
+	if causeOf(err) == CauseProgram && !errors.As(err, &ie) && !errors.As(err, &se) {
+		return faultWords + err.Error()
 	}
-	r, ok := s.attrRanges[ae.Attr]
-	if !ok {
-		r = s.block
-	}
-	where := ""
-	if r.Filename != "" {
-		where = fmt.Sprintf("%s line %d: ", r.Filename, r.Start.Line)
-	}
-	return fmt.Sprintf("%s%s %q: %s: %s", where, s.Kind.Name(), s.Label, ae.Attr, ae.Msg)
+	return err.Error()
 }
 
 // stopReason says why a step did not run, or did not finish when it had started, once the

@@ -129,7 +129,7 @@ func TestAFailureStopsOnlyTheStepsThatReadIt(t *testing.T) {
 	})
 	t.Run("the failing step is in the results file with its cause", func(t *testing.T) {
 		bad := stepResults(t, rf, "trouble.bad")
-		if bad.Status != StatusFailed || bad.Cause != CauseProgram || bad.Message != "told to fail" || len(bad.Figures) != 0 {
+		if bad.Status != StatusFailed || bad.Cause != CauseProgram || bad.Message != faultWords+"told to fail" || len(bad.Figures) != 0 {
 			t.Errorf("trouble.bad: %+v", bad)
 		}
 		if bad.StepKey == "" || bad.ResultKey != "" {
@@ -167,7 +167,7 @@ func TestAFailureStopsOnlyTheStepsThatReadIt(t *testing.T) {
 		if len(re.Failed) != 1 || len(re.Skipped) != 2 || re.Interrupted || !re.Program() {
 			t.Errorf("run error %+v", re)
 		}
-		if !strings.Contains(err.Error(), "trouble.bad failed: told to fail") || !strings.Contains(err.Error(), "2 steps were not run") {
+		if !strings.Contains(err.Error(), "trouble.bad failed: a fault in dipline, not in the workflow or its data (please report it): told to fail") || !strings.Contains(err.Error(), "2 steps were not run") {
 			t.Errorf("error text %q", err)
 		}
 		if rep.ResultsPath == "" {
@@ -204,7 +204,7 @@ func TestTheCauseOfAFailure(t *testing.T) {
 		{"bad data are the user's input", "bad_input", CauseInput, []string{"data.txt:3: told the data are bad"}},
 		{"an attribute the step refuses names the file, line, block and attribute", "attr", CauseInput,
 			[]string{"analysis.hcl line 5: ", `trouble "x": mode: told the setting does not suit the data`}},
-		{"a panic is an internal error of the program", "panic", CauseProgram, []string{"internal error (please report it)"}},
+		{"a panic is a fault of the program", "panic", CauseProgram, []string{"a fault in dipline, not in the workflow or its data (please report it): panic: "}},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {

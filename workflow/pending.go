@@ -1,8 +1,6 @@
 package workflow
 
 import (
-	"encoding/json"
-	"errors"
 	"fmt"
 	"sort"
 
@@ -11,26 +9,30 @@ import (
 
 // Verdict says what a run would do with one step, and why.
 type Verdict struct {
-	Address string
-	// Reuse is true when the step's key is known and its stored result checks out.
-	Reuse bool
-	// Reasons explain a recomputation: the attribute with old → new value, the file whose
-	// digest changed, the upstream step whose result changed or will be recomputed, the
-	// version bump, or a stored result that is missing or damaged.
+	Step string // kind.label
+	// State is PendingStored, PendingToCompute or PendingDepends (states.go).
+	State string
+	// Reasons explain a computation: the attribute with old → new value, the file whose
+	// digest changed, the upstream step whose result changed or is to compute, the version
+	// bump, or a stored result that cannot be used (findStored's reason, which the run repeats
+	// as its warning).
 	Reasons []string
 }
 
-// Pending works out, without computing anything, which steps a run would reuse and which it
-// would recompute, comparing each recomputed step with the last run that computed it.
+// Pending works out, without computing anything, which steps a run would take from the
+// store and which it would compute, comparing each step to compute with the last run that
+// had it. It reads the store with findStored, as Run does, so a step it calls stored is one the
+// run reuses, and one to compute is one the run computes.
 func Pending(w *Workflow, store *cache.Store) ([]Verdict, error) {
 	runs, err := store.Runs()
 	if err != nil {
 		return nil, err
 	}
-	known := map[string]cache.ResultKey{} // result keys of steps that would be reused
+	known := map[string]cache.ResultKey{} // result keys of the steps a run would reuse
+	state := map[string]string{}          // why a step's result is not known: "is to compute", …
 	var out []Verdict
 	for _, s := range w.Order {
-		v := Verdict{Address: s.Addr}
+		v := Verdict{Step: s.Addr}
 		var waiting []string
 		for _, d := range s.Deps {
 			if _, ok := known[d.Addr]; !ok {
@@ -38,12 +40,22 @@ func Pending(w *Workflow, store *cache.Store) ([]Verdict, error) {
 			}
 		}
 		if len(waiting) > 0 {
-			// Its own settings, files and version can still be compared with the last run.
-			if prev := lastProvenance(s, runs, store); prev != nil {
+			// Its key needs results not known yet; its own settings, files and version can
+			// still be compared with the last run.
+			v.State, state[s.Addr] = PendingDepends, "depends in turn"
+			prev, err := lastProvenance(s, runs, store)
+			if err != nil {
+				return nil, err
+			}
+			if prev != nil {
 				v.Reasons = append(v.Reasons, ownChanges(s, prev)...)
 			}
+			tail := "; it is computed unless that result comes out as before"
+			if len(v.Reasons) > 0 {
+				tail = "" // its own changes give it a new key whatever that result is
+			}
 			for _, d := range waiting {
-				v.Reasons = append(v.Reasons, fmt.Sprintf("takes the result of %s, which will be recomputed; whether it changes is known only then", d))
+				v.Reasons = append(v.Reasons, fmt.Sprintf("it reads the result of %s, which %s%s", d, state[d], tail))
 			}
 			out = append(out, v)
 			continue
@@ -52,63 +64,58 @@ func Pending(w *Workflow, store *cache.Store) ([]Verdict, error) {
 		if err != nil {
 			return nil, err
 		}
-		rk, ok, err := store.Lookup(key)
+		held, err := findStored(store, s.Kind, key)
 		if err != nil {
 			return nil, err
 		}
-		if ok {
-			if _, err := store.Get(rk); err == nil {
-				v.Reuse = true
-				known[s.Addr] = rk
-				out = append(out, v)
-				continue
-			} else if errors.Is(err, cache.ErrCorrupt) {
-				v.Reasons = append(v.Reasons, "its stored result fails its checksum")
-			} else if errors.Is(err, cache.ErrMissing) {
-				v.Reasons = append(v.Reasons, "its stored result is missing")
-			} else {
+		state[s.Addr] = "is to compute"
+		switch held.Held {
+		case Usable:
+			v.State = PendingStored
+			known[s.Addr] = held.Result
+		case NotStored:
+			v.State = PendingToCompute
+			if v.Reasons, err = compareWithLast(s, key, known, runs, store); err != nil {
 				return nil, err
 			}
-		}
-		if len(v.Reasons) == 0 {
-			v.Reasons = compareWithLast(s, key, known, runs, store)
+		default:
+			v.State, v.Reasons = PendingToCompute, []string{held.Why}
 		}
 		out = append(out, v)
 	}
 	return out, nil
 }
 
-// lastProvenance returns the provenance of the newest run's entry for s's address, or nil.
-func lastProvenance(s *Step, runs []cache.Run, store *cache.Store) *Provenance {
+// lastProvenance returns the provenance of the newest run's line for step s, or nil when
+// no run has one that reads.
+func lastProvenance(s *Step, runs []cache.Run, store *cache.Store) (*Provenance, error) {
 	for i := len(runs) - 1; i >= 0; i-- {
 		for _, rs := range runs[i].Steps {
-			if rs.Address != s.Addr || rs.StepKey.IsZero() {
+			if rs.Step != s.Addr || rs.StepKey.IsZero() {
 				continue
 			}
-			if b, ok, err := store.Provenance(rs.StepKey); err == nil && ok {
-				var p Provenance
-				if json.Unmarshal(b, &p) == nil {
-					return &p
-				}
+			p, _, err := provenanceOf(store, rs.StepKey)
+			if err != nil || p != nil {
+				return p, err
 			}
 			break
 		}
 	}
-	return nil
+	return nil, nil
 }
 
 // compareWithLast explains why s's key is new by comparing it with the provenance of the
-// newest run that computed or reused the same address.
+// newest run that computed or reused the same step.
 func compareWithLast(s *Step, key cache.StepKey, known map[string]cache.ResultKey,
-	runs []cache.Run, store *cache.Store) []string {
-	prev := lastProvenance(s, runs, store)
-	if prev == nil {
-		return []string{"no earlier run computed this step"}
+	runs []cache.Run, store *cache.Store) ([]string, error) {
+	prev, err := lastProvenance(s, runs, store)
+	if err != nil || prev == nil {
+		return []string{"no earlier run computed this step"}, err
 	}
 	why := ownChanges(s, prev)
 	for _, in := range prev.Inputs {
-		if rk, ok := known[in.Address]; ok && rk.String() != in.ResultKey {
-			why = append(why, fmt.Sprintf("the result of %s changed: %s… → %s…", in.Address, in.ResultKey[:12], rk.Short()))
+		if rk, ok := known[in.Step]; ok && rk.String() != in.ResultKey {
+			why = append(why, fmt.Sprintf("the result of %s changed: %.12s… → %s…", in.Step, in.ResultKey, rk.Short()))
 		}
 	}
 	if prev.StepKey == key.String() {
@@ -117,7 +124,7 @@ func compareWithLast(s *Step, key cache.StepKey, known map[string]cache.ResultKe
 	if len(why) == 0 {
 		why = append(why, "its inputs differ from the last run's in a way not shown here (e.g. another architecture)")
 	}
-	return why
+	return why, nil
 }
 
 // ownChanges lists what differs in s itself from an earlier provenance record: its kind or
@@ -129,7 +136,7 @@ func ownChanges(s *Step, prev *Provenance) []string {
 // record is the part of a provenance record that describes the step itself, as it stands
 // in the loaded workflow.
 func (s *Step) record() *Provenance {
-	p := &Provenance{Address: s.Addr, Kind: s.Kind.Name(), Version: s.Kind.Version(), Config: s.Rendered()}
+	p := &Provenance{Step: s.Addr, Kind: s.Kind.Name(), Version: s.Kind.Version(), Config: s.Rendered()}
 	for _, prm := range s.Kind.Params() {
 		for _, f := range s.Files[prm.Name] {
 			p.Files = append(p.Files, FileRecord{Param: prm.Name, Path: f.Path, SHA256: hexKey(f.Digest), Bytes: len(f.Data)})

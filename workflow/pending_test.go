@@ -20,33 +20,36 @@ func pendingOf(t *testing.T, p *project) map[string]Verdict {
 	}
 	out := map[string]Verdict{}
 	for _, v := range vs {
-		out[v.Address] = v
+		out[v.Step] = v
 	}
 	return out
 }
 
 func TestPendingSaysWhy(t *testing.T) {
 	p := chainProject(t)
-	if v := pendingOf(t, p)["source.a"]; v.Reuse || !strings.Contains(strings.Join(v.Reasons, ";"), "no earlier run") {
+	if v := pendingOf(t, p)["source.a"]; v.State != PendingToCompute || !strings.Contains(strings.Join(v.Reasons, ";"), "no earlier run") {
 		t.Fatalf("before any run: %+v", v)
 	}
 	p.run()
 	for addr, v := range pendingOf(t, p) {
-		if !v.Reuse {
-			t.Errorf("after a run %s would recompute: %v", addr, v.Reasons)
+		if v.State != PendingStored {
+			t.Errorf("after a run %s is %s: %v", addr, v.State, v.Reasons)
 		}
 	}
 	p.write("analysis.hcl", strings.Replace(chain, `offset = "12 h"`, `offset = "1 d"`, 1))
 	p.write("data/b.txt", "11\n")
 	vs := pendingOf(t, p)
-	if !vs["source.a"].Reuse || !vs["floor.fa"].Reuse {
-		t.Errorf("unchanged steps would recompute: %+v %+v", vs["source.a"], vs["floor.fa"])
+	if vs["source.a"].State != PendingStored || vs["floor.fa"].State != PendingStored {
+		t.Errorf("unchanged steps are not stored: %+v %+v", vs["source.a"], vs["floor.fa"])
 	}
 	if why := strings.Join(vs["source.b"].Reasons, ";"); !strings.Contains(why, "the file data/b.txt changed: sha256") {
 		t.Errorf("source.b reasons %q", why)
 	}
+	if vs["source.b"].State != PendingToCompute || vs["combine.sum"].State != PendingDepends {
+		t.Errorf("source.b is %q and combine.sum %q, want %q and %q", vs["source.b"].State, vs["combine.sum"].State, PendingToCompute, PendingDepends)
+	}
 	why := strings.Join(vs["combine.sum"].Reasons, ";")
-	if !strings.Contains(why, "source.b, which will be recomputed") {
+	if !strings.Contains(why, "it reads the result of source.b, which is to compute") {
 		t.Errorf("combine.sum reasons %q do not say it waits on source.b", why)
 	}
 	if !strings.Contains(why, "offset changed: 0.5 d → 1 d") {
@@ -69,10 +72,10 @@ func TestPendingNamesAttributeAndUpstreamResult(t *testing.T) {
 	// the last run's input, so combine.sum names the changed upstream result.
 	p.write("data/a.txt", "1.25\n2.5\n")
 	vs := pendingOf(t, p)
-	if !vs["source.a"].Reuse || !vs["floor.fa"].Reuse {
-		t.Fatalf("earlier results not reused: %+v", vs)
+	if vs["source.a"].State != PendingStored || vs["floor.fa"].State != PendingStored {
+		t.Fatalf("earlier results not stored: %+v", vs)
 	}
-	if why := strings.Join(vs["combine.sum"].Reasons, ";"); !vs["combine.sum"].Reuse && !strings.Contains(why, "the result of floor.fa changed") {
+	if why := strings.Join(vs["combine.sum"].Reasons, ";"); vs["combine.sum"].State != PendingStored && !strings.Contains(why, "the result of floor.fa changed") {
 		t.Errorf("combine.sum reasons %q", why)
 	}
 }

@@ -60,7 +60,7 @@ type RecomputeOptions struct {
 
 // RecomputedStep is what recomputing one stored step found.
 type RecomputedStep struct {
-	Address string // kind.label
+	Step    string // kind.label
 	Kind    string
 	State   string // RecomputeSame, RecomputeDifferent, …
 	StepKey cache.StepKey
@@ -304,7 +304,7 @@ func storedSteps(run cache.Run) []cache.RunStep {
 const sampleSeedTag = "dipline-recompute-sample/1"
 
 // sampleSteps picks n of the steps (all when n is zero or not below their number): those
-// whose SHA-256 of the seed and their address ranks lowest. The same seed picks the same
+// whose SHA-256 of the seed and their name (kind.label) ranks lowest. The same seed picks the same
 // steps whatever the order of the run record and however many steps ran; they are
 // returned in the run's order.
 func sampleSteps(list []cache.RunStep, n int, seed uint64) []cache.RunStep {
@@ -318,7 +318,7 @@ func sampleSteps(list []cache.RunStep, n int, seed uint64) []cache.RunStep {
 	r := make([]ranked, len(list))
 	for i, rs := range list {
 		b := binary.LittleEndian.AppendUint64([]byte(sampleSeedTag+"\x00"), seed)
-		r[i] = ranked{sha256.Sum256(append(append(b, 0), rs.Address...)), i}
+		r[i] = ranked{sha256.Sum256(append(append(b, 0), rs.Step...)), i}
 	}
 	slices.SortFunc(r, func(a, b ranked) int { return bytes.Compare(a.rank[:], b.rank[:]) })
 	at := make([]int, n)
@@ -346,7 +346,7 @@ type recomputePlan struct {
 // provenance, then whether the workflow's step, fed the inputs its provenance records,
 // has the stored step key.
 func (w *Workflow) planRecompute(rs cache.RunStep, e cache.StepEntry, found bool) *recomputePlan {
-	p := &recomputePlan{out: RecomputedStep{Address: rs.Address, Kind: rs.Kind, StepKey: rs.StepKey}}
+	p := &recomputePlan{out: RecomputedStep{Step: rs.Step, Kind: rs.Kind, StepKey: rs.StepKey}}
 	o := &p.out
 	end := func(state, format string, args ...any) *recomputePlan {
 		o.State, o.Why = state, fmt.Sprintf(format, args...)
@@ -370,12 +370,12 @@ func (w *Workflow) planRecompute(rs cache.RunStep, e cache.StepEntry, found bool
 		return end(RecomputeDisagrees, "the mapping disagrees with the provenance: step key %s maps to result %s, but its provenance names result %s",
 			rs.StepKey, e.Result, named)
 	}
-	s := w.Step(rs.Address)
+	s := w.Step(rs.Step)
 	switch {
 	case s == nil:
-		return end(RecomputeCannot, "the workflow has no step %s now", rs.Address)
+		return end(RecomputeCannot, "the workflow has no step %s now", rs.Step)
 	case s.Kind.Name() != prov.Kind:
-		return end(RecomputeCannot, "%s is a %s step in the workflow now, a %s step when stored", rs.Address, s.Kind.Name(), prov.Kind)
+		return end(RecomputeCannot, "%s is a %s step in the workflow now, a %s step when stored", rs.Step, s.Kind.Name(), prov.Kind)
 	}
 	rows, err := recordedRows(s, prov)
 	if err != nil {
@@ -471,7 +471,7 @@ func recordedRows(s *Step, prov *Provenance) (map[string]*RowInput, error) {
 	return rows, nil
 }
 
-// recordedInputs returns, by address, the result keys of the steps it reads as its
+// recordedInputs returns, by step, the result keys of the steps it reads as its
 // provenance records them, matched parameter by parameter and in order (a step with the
 // same key may have been stored from another block that read steps of other names).
 func recordedInputs(s *Step, prov *Provenance) (map[string]cache.ResultKey, error) {
@@ -492,7 +492,7 @@ func recordedInputs(s *Step, prov *Provenance) (map[string]cache.ResultKey, erro
 			}
 			rk, err := cache.ParseResultKey(recs[param][i].ResultKey)
 			if err != nil {
-				return nil, fmt.Errorf("its provenance names input %s by a malformed result key: %v", recs[param][i].Address, err)
+				return nil, fmt.Errorf("its provenance names input %s by a malformed result key: %v", recs[param][i].Step, err)
 			}
 			if had, ok := upstream[addr]; ok && had != rk {
 				return nil, fmt.Errorf("its provenance names two results for %s: %s and %s", addr, had.Short(), rk.Short())
@@ -553,25 +553,19 @@ type damage struct{ msg string }
 
 func (d *damage) Error() string { return d.msg }
 
-// storedArtifacts reads back, by address, the results of the steps s reads.
+// storedArtifacts reads back, by step, the results of the steps s reads (readResult, as a
+// run reads a stored result).
 func (w *Workflow) storedArtifacts(store *cache.Store, s *Step, upstream map[string]cache.ResultKey) (map[string]steps.Artifact, error) {
 	arts := map[string]steps.Artifact{}
 	for _, d := range s.Deps {
-		rk := upstream[d.Addr]
-		data, err := store.Get(rk)
-		switch {
-		case errors.Is(err, cache.ErrMissing):
-			return nil, &damage{fmt.Sprintf("its input %s (result %s) is not in the store", d.Addr, rk.Short())}
-		case errors.Is(err, cache.ErrCorrupt):
-			return nil, &damage{fmt.Sprintf("its input %s (result %s) fails its checksum", d.Addr, rk.Short())}
-		case err != nil:
+		held, err := readResult(store, d.Kind, upstream[d.Addr])
+		if err != nil {
 			return nil, err
 		}
-		art, err := d.Kind.Decode(data)
-		if err != nil {
-			return nil, &damage{fmt.Sprintf("its input %s (result %s) cannot be read as a %s result: %v", d.Addr, rk.Short(), d.Kind.Name(), err)}
+		if held.Held != Usable {
+			return nil, &damage{fmt.Sprintf("its input %s: %s", d.Addr, held.Why)}
 		}
-		arts[d.Addr] = art
+		arts[d.Addr] = held.Artifact
 	}
 	return arts, nil
 }
@@ -604,7 +598,7 @@ func entryProblems(list []cache.StepEntry, checked map[cache.StepKey]bool) ([]st
 				out = append(out, err.Error())
 			case e.Mapped && named != e.Result:
 				out = append(out, fmt.Sprintf("the mapping disagrees with the provenance: step key %s (%s) maps to result %s, but its provenance names result %s",
-					e.Step, prov.Address, e.Result, named))
+					e.Step, prov.Step, e.Result, named))
 			}
 		}
 		if len(out) > n {
@@ -624,13 +618,13 @@ func runProblems(runs []cache.Run, entries map[cache.StepKey]cache.StepEntry, ch
 			e := entries[rs.StepKey]
 			if e.Provenance == nil {
 				if !checked[rs.StepKey] {
-					out = append(out, fmt.Sprintf("run %s: %s (step key %s) has no provenance record", run.ID, rs.Address, rs.StepKey.Short()))
+					out = append(out, fmt.Sprintf("run %s: %s (step key %s) has no provenance record", run.ID, rs.Step, rs.StepKey.Short()))
 				}
 				continue
 			}
 			if _, named, err := readProvenance(rs.StepKey, e.Provenance); err == nil && named != rs.ResultKey {
 				out = append(out, fmt.Sprintf("run %s: %s gave result %s, but the provenance of its step key %s names result %s",
-					run.ID, rs.Address, rs.ResultKey, rs.StepKey.Short(), named))
+					run.ID, rs.Step, rs.ResultKey, rs.StepKey.Short(), named))
 			}
 		}
 	}

@@ -173,7 +173,7 @@ func (p *stored) editProvenance(addr string, edit func(*Provenance)) {
 func stepOf(t *testing.T, rep *RecomputeReport, addr string) RecomputedStep {
 	t.Helper()
 	for _, s := range rep.Steps {
-		if s.Address == addr {
+		if s.Step == addr {
 			return s
 		}
 	}
@@ -215,9 +215,9 @@ func TestRecomputingAFreshStoreGivesTheSameBitsOnAnyWorkerCount(t *testing.T) {
 			t.Fatalf("stored %d, checked %d steps; want 4 and 4", one.Stored, len(one.Steps))
 		}
 		for _, s := range one.Steps {
-			if s.State != RecomputeSame || s.Recomputed != p.result[s.Address] || s.Stored != p.result[s.Address] {
-				t.Errorf("%s: %s (%s); stored %s, recomputed %s, the run gave %s", s.Address, s.State, s.Why,
-					s.Stored.Short(), s.Recomputed.Short(), p.result[s.Address].Short())
+			if s.State != RecomputeSame || s.Recomputed != p.result[s.Step] || s.Stored != p.result[s.Step] {
+				t.Errorf("%s: %s (%s); stored %s, recomputed %s, the run gave %s", s.Step, s.State, s.Why,
+					s.Stored.Short(), s.Recomputed.Short(), p.result[s.Step].Short())
 			}
 		}
 		if !one.OK() || len(one.Problems) > 0 || one.Runs != 1 || one.Mappings != 4 {
@@ -247,7 +247,7 @@ func TestRecomputeCatchesAStepKeyPointedAtAnotherResult(t *testing.T) {
 			t.Fatalf("the store's own verify: %+v, %v; want it to pass (the damage is not in the bytes)", v, err)
 		}
 		var order []string
-		rep := p.recompute(RecomputeOptions{Workers: 2, OnStep: func(s RecomputedStep) { order = append(order, s.Address) }})
+		rep := p.recompute(RecomputeOptions{Workers: 2, OnStep: func(s RecomputedStep) { order = append(order, s.Step) }})
 		s := stepOf(t, rep, "detrend.narrow")
 		if s.State != RecomputeDisagrees || s.Stored != wide || s.Named != narrow || !s.Recomputed.IsZero() {
 			t.Fatalf("detrend.narrow: %s, stored %s, named %s, recomputed %s; want %q, %s, %s and none",
@@ -318,9 +318,9 @@ func TestASampleIsChosenByItsSeed(t *testing.T) {
 		var addrs []string
 		for _, s := range rep.Steps {
 			if s.State != RecomputeSame {
-				t.Errorf("%s: %s (%s)", s.Address, s.State, s.Why)
+				t.Errorf("%s: %s (%s)", s.Step, s.State, s.Why)
 			}
-			addrs = append(addrs, s.Address)
+			addrs = append(addrs, s.Step)
 		}
 		if rep.Stored != 4 {
 			t.Errorf("stored %d, want 4", rep.Stored)
@@ -358,13 +358,10 @@ var (
 	driftFails atomic.Bool
 )
 
-func (drift) Name() string { return "drift" }
-func (drift) Doc() string  { return "gives a new number each time" }
-func (drift) Params() []steps.Param {
-	return []steps.Param{{Name: "input", Type: steps.Ref}}
-}
-func (drift) Prepare(v steps.Values) (any, error) { return v, nil }
-func (drift) Run(ctx context.Context, cfg any, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
+func (drift) Name() string          { return "drift" }
+func (drift) Doc() string           { return "gives a new number each time" }
+func (drift) Check(*oneInput) error { return nil }
+func (drift) Run(ctx context.Context, cfg *oneInput, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
 	if driftFails.Load() {
 		return nil, errors.New("told to fail")
 	}
@@ -405,7 +402,8 @@ combine "sum" {
 `
 
 func toyRecomputeRegistry() steps.Registry {
-	r, err := steps.NewRegistry(source{}, noisy{}, lookup{}, combine{}, drift{})
+	r, err := steps.NewRegistry(steps.Define[sourceConfig](source{}), steps.Define[oneInput](noisy{}),
+		steps.Define[lookupConfig](lookup{}), steps.Define[combineConfig](combine{}), steps.Define[oneInput](drift{}))
 	if err != nil {
 		panic(err)
 	}
@@ -453,7 +451,7 @@ func TestRecomputeFromTheRecordedInputs(t *testing.T) {
 				rk := p.result["source.a"]
 				p.surgery(func(tx *bolt.Tx) error { return tx.Bucket(boltResults).Delete(rk[:]) })
 			},
-			step: "noisy.n", state: RecomputeDamaged, why: []string{"its input source.a", "is not in the store"}},
+			step: "noisy.n", state: RecomputeDamaged, why: []string{"its input source.a", "is missing"}},
 		{name: "a step without its provenance record is damage to the store",
 			change: func(p *stored) {
 				sk := p.steps["combine.sum"]
@@ -507,7 +505,7 @@ func TestTheStoreCheckFindsWhatNoCheckedStepShows(t *testing.T) {
 	var rep *RecomputeReport
 	for seed := uint64(0); ; seed++ {
 		rep = p.recompute(RecomputeOptions{Sample: 1, Seed: seed})
-		if a := rep.Steps[0].Address; a != "combine.sum" && a != "lookup.host" {
+		if a := rep.Steps[0].Step; a != "combine.sum" && a != "lookup.host" {
 			break
 		}
 	}
@@ -560,7 +558,7 @@ func TestANamedRunIsRecomputedAsItRan(t *testing.T) {
 }
 
 func TestAnInterruptedCheckSaysSo(t *testing.T) {
-	reg, err := steps.NewRegistry(source{}, trouble{})
+	reg, err := steps.NewRegistry(steps.Define[sourceConfig](source{}), steps.Define[troubleConfig](trouble{}))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -657,7 +655,7 @@ func TestTheDemosStoreRecomputesToTheSameBits(t *testing.T) {
 	}
 	if rep.Stored != len(w.Steps) || rep.Count(RecomputeSame) != rep.Stored || !rep.OK() {
 		for _, s := range rep.Steps {
-			t.Logf("%-18s %-16s %s", s.State, s.Address, s.Why)
+			t.Logf("%-18s %-16s %s", s.State, s.Step, s.Why)
 		}
 		t.Fatalf("%d of %d stored steps gave the same bits (%d steps in the workflow); problems %q",
 			rep.Count(RecomputeSame), rep.Stored, len(w.Steps), rep.Problems)
@@ -690,7 +688,7 @@ func BenchmarkRecomputeTheDemo(b *testing.B) {
 						}
 						var names []string
 						for _, s := range rep.Steps {
-							names = append(names, fmt.Sprintf("%s %.2f s", s.Address, s.Seconds))
+							names = append(names, fmt.Sprintf("%s %.2f s", s.Step, s.Seconds))
 						}
 						b.Logf("seed %d: %s", i, strings.Join(names, ", "))
 					}

@@ -18,8 +18,11 @@ import (
 
 // Provenance is stored beside each computed result, under its step key: everything that
 // went into the result and what made it. Artifacts never hold any of this.
+//
+// The step is named under "step"; records made before store format 2 named it under
+// "address", and read the same (UnmarshalJSON).
 type Provenance struct {
-	Address   string            `json:"address"`
+	Step      string            `json:"step"` // kind.label
 	Kind      string            `json:"kind"`
 	Version   int               `json:"version"`
 	StepKey   string            `json:"step_key"`
@@ -33,6 +36,23 @@ type Provenance struct {
 	Tool      Tool              `json:"tool"`
 	Started   time.Time         `json:"started"`
 	Seconds   float64           `json:"seconds"`
+}
+
+// UnmarshalJSON reads a provenance record of either store format (see Provenance).
+func (p *Provenance) UnmarshalJSON(b []byte) error {
+	type record Provenance // the same fields without this method
+	var v struct {
+		record
+		Former string `json:"address"`
+	}
+	if err := json.Unmarshal(b, &v); err != nil {
+		return err
+	}
+	*p = Provenance(v.record)
+	if p.Step == "" {
+		p.Step = v.Former
+	}
+	return nil
 }
 
 // CheckProvenance says whether a stored provenance record reads: JSON of a Provenance that
@@ -67,9 +87,26 @@ func BadProvenance(store *cache.Store) ([]cache.BadRecord, error) {
 // InputRecord is one referenced step's keys at the time of computation.
 type InputRecord struct {
 	Param     string `json:"param"`
-	Address   string `json:"address"`
+	Step      string `json:"step"` // kind.label; "address" in store format 1
 	StepKey   string `json:"step_key"`
 	ResultKey string `json:"result_key"`
+}
+
+// UnmarshalJSON reads an input record of either store format (see Provenance).
+func (in *InputRecord) UnmarshalJSON(b []byte) error {
+	type record InputRecord // the same fields without this method
+	var v struct {
+		record
+		Former string `json:"address"`
+	}
+	if err := json.Unmarshal(b, &v); err != nil {
+		return err
+	}
+	*in = InputRecord(v.record)
+	if in.Step == "" {
+		in.Step = v.Former
+	}
+	return nil
 }
 
 // FileRecord is one file read, by the path written in the workflow and its SHA-256.
@@ -128,7 +165,8 @@ type ResultsFile struct {
 	Analysis string `json:"analysis"`
 	Workflow string `json:"workflow"`
 	Run      string `json:"run"`
-	// Statuses counts the steps by status (computed, reused, failed, skipped).
+	// Statuses counts the steps by status (StatusComputed, StatusReused, StatusFailed,
+	// StatusSkipped: states.go).
 	Statuses map[string]int `json:"statuses"`
 	// Failures lists the steps that failed or did not run, in the workflow's order;
 	// empty when every step finished.
@@ -144,6 +182,9 @@ type FailureEntry struct {
 	// Cause is CauseInput, CauseProgram, CauseUpstream or CauseStopped.
 	Cause   string `json:"cause"`
 	Message string `json:"message"`
+	// Place is the line of the workflow file holding a setting the step refused when it
+	// ran (cause input); absent otherwise.
+	Place *Place `json:"place,omitempty"`
 }
 
 // StepResults is one step's line: its status and, when it finished, its numbers.
@@ -153,9 +194,13 @@ type StepResults struct {
 	Status    string `json:"status"`
 	StepKey   string `json:"step_key,omitempty"`
 	ResultKey string `json:"result_key,omitempty"`
-	// Cause and Message say why a step failed or did not run.
-	Cause    string         `json:"cause,omitempty"`
-	Message  string         `json:"message,omitempty"`
+	// Cause and Message say why a step failed or did not run; Place where the setting it
+	// refused is written, as in FailureEntry.
+	Cause   string `json:"cause,omitempty"`
+	Message string `json:"message,omitempty"`
+	Place   *Place `json:"place,omitempty"`
+	// Warning says why a stored result could not be used, for a step computed again.
+	Warning  string         `json:"warning,omitempty"`
 	Cautions []string       `json:"cautions,omitempty"`
 	Verdicts []VerdictEntry `json:"verdicts,omitempty"`
 	Figures  []FigureEntry  `json:"figures"`
@@ -181,8 +226,9 @@ type FigureEntry struct {
 	StepKey string   `json:"step_key"`
 }
 
-// resultsSchema names the results file's format.
-const resultsSchema = "dipline-results/2"
+// resultsSchema names the results file's format. Version 3 added a failure's "place" and
+// a recomputed step's "warning", and the status words are those of states.go.
+const resultsSchema = "dipline-results/3"
 
 // resultsOf builds the results file of a run from its outcomes, in the workflow's order.
 func resultsOf(w *Workflow, runID string, outcomes []*Outcome) ResultsFile {
@@ -191,14 +237,14 @@ func resultsOf(w *Workflow, runID string, outcomes []*Outcome) ResultsFile {
 		Failures: []FailureEntry{}, Steps: []StepResults{}}
 	for _, o := range outcomes {
 		rf.Statuses[o.Status]++
-		sr := StepResults{Step: o.Step.Addr, Kind: o.Step.Kind.Name(), Status: o.Status, Figures: []FigureEntry{}}
+		sr := StepResults{Step: o.Step.Addr, Kind: o.Step.Kind.Name(), Status: o.Status, Warning: o.Warning, Figures: []FigureEntry{}}
 		if !o.StepKey.IsZero() {
 			sr.StepKey = o.StepKey.String()
 		}
 		if !o.Finished() {
-			sr.Cause, sr.Message = o.Cause, o.Message
+			sr.Cause, sr.Message, sr.Place = o.Cause, o.Message, o.Place
 			rf.Failures = append(rf.Failures, FailureEntry{Step: sr.Step, Kind: sr.Kind, Status: o.Status,
-				Cause: o.Cause, Message: o.Message})
+				Cause: o.Cause, Message: o.Message, Place: o.Place})
 			rf.Steps = append(rf.Steps, sr)
 			continue
 		}

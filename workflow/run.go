@@ -17,14 +17,6 @@ import (
 	"dipline/steps"
 )
 
-// The statuses a step ends a run with.
-const (
-	StatusComputed = "computed" // ran and stored its result
-	StatusReused   = "reused"   // its step key was known; the stored result was used
-	StatusFailed   = "failed"   // it returned an error
-	StatusSkipped  = "skipped"  // it did not run: a step it reads did not finish, or the run was stopped
-)
-
 // Options tune a run; none of them can change a result.
 type Options struct {
 	// Workers is the size of the token pool shared by steps and numerical cores
@@ -68,6 +60,11 @@ type Outcome struct {
 	Err     error
 	Cause   string
 	Message string
+	// Place is the line of the workflow holding the setting a step refused when it ran (a
+	// *SettingError); nil otherwise.
+	Place *Place
+	// Warning says why a stored result could not be used and the step was computed again.
+	Warning string
 	// failedUpstream lists, for a step skipped because of failures upstream, the steps
 	// that failed, so a skip further down names them rather than the skip between.
 	failedUpstream []string
@@ -166,7 +163,7 @@ func startRecord(w *Workflow, started time.Time) cache.Run {
 
 // stepLine is a step's line in the run record.
 func stepLine(o *Outcome) cache.RunStep {
-	return cache.RunStep{Address: o.Step.Addr, Kind: o.Step.Kind.Name(), StepKey: o.StepKey,
+	return cache.RunStep{Step: o.Step.Addr, Kind: o.Step.Kind.Name(), StepKey: o.StepKey,
 		ResultKey: o.ResultKey, Status: o.Status, Seconds: o.Seconds}
 }
 
@@ -194,10 +191,10 @@ func (r *runner) recoverStep(s *Step) {
 		return
 	}
 	o := r.out[s]
-	err := &internalError{fmt.Errorf("internal error (please report it): %v", p)}
+	err := programFault("panic: %v", p)
 	o.Status, o.Err, o.Cause, o.Message = StatusFailed, err, CauseProgram, err.Error()
 	o.Artifact, o.ResultKey = nil, cache.ResultKey{}
-	r.emit(o, nil, "")
+	r.emit(o, nil)
 }
 
 type runner struct {
@@ -222,9 +219,11 @@ type runner struct {
 	evMu sync.Mutex
 }
 
-func (r *runner) emit(o *Outcome, notes []string, warning string) {
+// emit reports a step's outcome, with the notes it made (or, reused, those its provenance
+// keeps).
+func (r *runner) emit(o *Outcome, notes []string) {
 	ev := Event{Step: o.Step.Addr, Kind: o.Step.Kind.Name(), Status: o.Status, Seconds: o.Seconds,
-		Notes: notes, Warning: warning, Error: o.Message}
+		Notes: notes, Warning: o.Warning, Error: o.Message}
 	if !o.StepKey.IsZero() {
 		ev.StepKey = o.StepKey.String()
 	}
@@ -242,9 +241,37 @@ func (r *runner) emit(o *Outcome, notes []string, warning string) {
 	}
 }
 
+// step brings one step to an outcome: skipped when an upstream step did not finish,
+// reused when the store holds a usable result for its key, else computed and committed.
 func (r *runner) step(ctx context.Context, s *Step) {
 	o := r.out[s]
-	// Wait for the upstream steps; one that did not finish skips this one.
+	upstream, ok := r.awaitUpstream(ctx, s, o)
+	if !ok {
+		return
+	}
+	key, err := r.w.StepKey(s, upstream)
+	if err != nil {
+		r.fail(o, err)
+		return
+	}
+	o.StepKey = key
+	if r.reuse(s, o) {
+		return
+	}
+	// Before a computation, which may be long, the record gets the reused steps' lines, so
+	// a run killed during it names every result it had used.
+	if lines := r.noted(); len(lines) > 0 {
+		if err := r.store.CommitStep(r.run.ID, lines); err != nil {
+			r.storeFault(o, fmt.Errorf("recording the reused steps in the run record: %w", err))
+			return
+		}
+	}
+	r.compute(ctx, s, o, upstream)
+}
+
+// awaitUpstream waits for the steps s reads and collects their result keys; when one did
+// not finish it skips s (saying which failed, or that the run stopped) and returns false.
+func (r *runner) awaitUpstream(ctx context.Context, s *Step, o *Outcome) (map[string]cache.ResultKey, bool) {
 	upstream := map[string]cache.ResultKey{}
 	var failed []string
 	stopped := false
@@ -267,49 +294,41 @@ func (r *runner) step(ctx context.Context, s *Step) {
 	switch {
 	case stopped:
 		r.skip(o, CauseStopped, r.stopReason(ctx, false))
-		return
+		return nil, false
 	case len(failed) > 0:
 		o.failedUpstream = failed
 		r.skip(o, CauseUpstream, fmt.Errorf("not run: %s failed", joinAnd(failed)))
-		return
+		return nil, false
 	case ctx.Err() != nil:
 		r.skip(o, CauseStopped, r.stopReason(ctx, false))
-		return
+		return nil, false
 	}
-	key, err := r.w.StepKey(s, upstream)
+	return upstream, true
+}
+
+// reuse takes the stored result of o's step key when findStored finds it usable, as Pending
+// does, and reports whether it did (or the store failed, which ends the step too); any
+// other stored entry is computed again, and the user told why.
+func (r *runner) reuse(s *Step, o *Outcome) bool {
+	held, err := findStored(r.store, s.Kind, o.StepKey)
 	if err != nil {
-		r.fail(o, err)
-		return
-	}
-	o.StepKey = key
-
-	// Reuse a stored result when the key is known and its bytes check out.
-	warning := ""
-	if rk, ok, err := r.store.Lookup(key); err != nil {
 		r.storeFault(o, err)
-		return
-	} else if ok {
-		data, err := r.store.Get(rk)
-		switch {
-		case err == nil:
-			art, derr := s.Kind.Decode(data)
-			if derr == nil {
-				o.Status, o.ResultKey, o.Artifact = StatusReused, rk, art
-				r.note(stepLine(o))
-				r.emit(o, r.storedNotes(key), "")
-				return
-			}
-			warning = fmt.Sprintf("the stored result %s could not be read (%v); computing it again", rk.Short(), derr)
-		case errors.Is(err, cache.ErrCorrupt):
-			warning = fmt.Sprintf("the stored result %s failed its checksum; computing it again", rk.Short())
-		case errors.Is(err, cache.ErrMissing):
-			warning = fmt.Sprintf("the stored result %s is missing; computing it again", rk.Short())
-		default:
-			r.storeFault(o, err)
-			return
-		}
+		return true
 	}
+	if held.Held == Usable {
+		o.Status, o.ResultKey, o.Artifact = StatusReused, held.Result, held.Artifact
+		r.note(stepLine(o))
+		r.emit(o, r.storedNotes(o.StepKey))
+		return true
+	}
+	if held.Why != "" {
+		o.Warning = held.Why + "; computing it again"
+	}
+	return false
+}
 
+// compute runs the step on a pool token and commits its result with its provenance.
+func (r *runner) compute(ctx context.Context, s *Step, o *Outcome, upstream map[string]cache.ResultKey) {
 	in := stepInputs(s, func(a string) steps.Artifact { return r.out[r.w.byAddr[a]].Artifact })
 	var (
 		notes   []string
@@ -320,14 +339,6 @@ func (r *runner) step(ctx context.Context, s *Step) {
 		notes = append(notes, fmt.Sprintf(format, args...))
 		notesMu.Unlock()
 	})
-	// Before a computation, which may be long, the record gets the reused steps' lines, so
-	// a run killed during it names every result it had used.
-	if lines := r.noted(); len(lines) > 0 {
-		if err := r.store.CommitStep(r.run.ID, lines); err != nil {
-			r.storeFault(o, fmt.Errorf("recording the reused steps in the run record: %w", err))
-			return
-		}
-	}
 	if err := r.pool.Acquire(ctx); err != nil {
 		r.skip(o, CauseStopped, r.stopReason(ctx, false))
 		return
@@ -347,15 +358,15 @@ func (r *runner) step(ctx context.Context, s *Step) {
 	}
 	data := art.Encode()
 	rk := cache.ResultKeyOf(data)
-	prov := r.provenance(s, key, rk, upstream, env, notes, began, o.Seconds)
-	line := cache.RunStep{Address: s.Addr, Kind: s.Kind.Name(), StepKey: key, ResultKey: rk, Status: StatusComputed, Seconds: o.Seconds}
-	entry := cache.Entry{Step: key, Result: rk, Data: data, Provenance: marshal(prov)}
+	prov := r.provenance(s, o.StepKey, rk, upstream, env, notes, began, o.Seconds)
+	line := cache.RunStep{Step: s.Addr, Kind: s.Kind.Name(), StepKey: o.StepKey, ResultKey: rk, Status: StatusComputed, Seconds: o.Seconds}
+	entry := cache.Entry{Step: o.StepKey, Result: rk, Data: data, Provenance: marshal(prov)}
 	if err := r.store.CommitStep(r.run.ID, append(r.noted(), line), entry); err != nil {
 		r.storeFault(o, fmt.Errorf("storing the result: %w", err))
 		return
 	}
 	o.Status, o.ResultKey, o.Artifact = StatusComputed, rk, art
-	r.emit(o, notes, warning)
+	r.emit(o, notes)
 }
 
 // note keeps a reused step's line for the next commit.
@@ -378,12 +389,12 @@ func (r *runner) noted() []cache.RunStep {
 func runGuarded(ctx context.Context, s *Step, in steps.Inputs, env steps.Env) (art steps.Artifact, err error) {
 	defer func() {
 		if p := recover(); p != nil {
-			art, err = nil, &internalError{fmt.Errorf("internal error (please report it): %v", p)}
+			art, err = nil, programFault("panic: %v", p)
 		}
 	}()
 	art, err = s.Kind.Run(ctx, s.Config, in, env)
 	if err == nil && art == nil {
-		err = &internalError{errors.New("internal error (please report it): the step gave no result")}
+		err = programFault("the step gave neither a result nor an error")
 	}
 	if err == nil && ctx.Err() != nil {
 		err = ctx.Err()
@@ -392,10 +403,15 @@ func runGuarded(ctx context.Context, s *Step, in steps.Inputs, env steps.Env) (a
 }
 
 // fail records a step's own failure; it stops nothing but the steps that read its result.
+// A setting the step refused becomes a *SettingError, placed in the workflow file.
 func (r *runner) fail(o *Outcome, err error) {
-	o.Status, o.Err, o.Cause = StatusFailed, err, causeOf(err)
-	o.Message = r.w.message(o.Step, err)
-	r.emit(o, nil, "")
+	err = r.w.settingError(o.Step, err)
+	var se *SettingError
+	if errors.As(err, &se) {
+		o.Place = se.Place
+	}
+	o.Status, o.Err, o.Cause, o.Message = StatusFailed, err, causeOf(err), message(err)
+	r.emit(o, nil)
 }
 
 // storeFault records a failure of the store and stops the whole run: a store that cannot
@@ -404,30 +420,26 @@ func (r *runner) storeFault(o *Outcome, err error) {
 	err = &storeError{err}
 	r.stop(fmt.Errorf("%s: %w", o.Step.Addr, err))
 	o.Status, o.Err, o.Cause, o.Message = StatusFailed, err, CauseProgram, err.Error()
-	r.emit(o, nil, "")
+	r.emit(o, nil)
 }
 
 // skip records a step that did not run, with the reason.
 func (r *runner) skip(o *Outcome, cause string, why error) {
 	o.Status, o.Err, o.Cause, o.Message = StatusSkipped, why, cause, why.Error()
-	r.emit(o, nil, "")
+	r.emit(o, nil)
 }
 
+// storedNotes are the notes a reused step's provenance keeps, repeated in its event.
 func (r *runner) storedNotes(key cache.StepKey) []string {
-	b, ok, err := r.store.Provenance(key)
-	if err != nil || !ok {
-		return nil
+	if p, _, err := provenanceOf(r.store, key); err == nil && p != nil {
+		return p.Notes
 	}
-	var p Provenance
-	if json.Unmarshal(b, &p) != nil {
-		return nil
-	}
-	return p.Notes
+	return nil
 }
 
 func (r *runner) provenance(s *Step, key cache.StepKey, rk cache.ResultKey, upstream map[string]cache.ResultKey,
 	env steps.Env, notes []string, began time.Time, secs float64) Provenance {
-	p := Provenance{Address: s.Addr, Kind: s.Kind.Name(), Version: s.Kind.Version(), StepKey: key.String(),
+	p := Provenance{Step: s.Addr, Kind: s.Kind.Name(), Version: s.Kind.Version(), StepKey: key.String(),
 		ResultKey: rk.String(), Config: s.Rendered(), Notes: notes, Tool: ToolInfo(), Started: began.UTC(), Seconds: secs}
 	names := make([]string, 0, len(s.Refs))
 	for n := range s.Refs {
@@ -436,7 +448,7 @@ func (r *runner) provenance(s *Step, key cache.StepKey, rk cache.ResultKey, upst
 	sort.Strings(names)
 	for _, n := range names {
 		for _, a := range s.Refs[n] {
-			p.Inputs = append(p.Inputs, InputRecord{Param: n, Address: a,
+			p.Inputs = append(p.Inputs, InputRecord{Param: n, Step: a,
 				StepKey: r.out[r.w.byAddr[a]].StepKey.String(), ResultKey: upstream[a].String()})
 		}
 	}

@@ -34,7 +34,7 @@ func TestARunIsRecordedFromItsStart(t *testing.T) {
 	if len(during) != 1 || during[0].State != cache.RunUnderWay || during[0].PID != os.Getpid() {
 		t.Fatalf("records during the run: %+v", during)
 	}
-	if len(during[0].Steps) != 1 || during[0].Steps[0].Address != "source.a" || during[0].Steps[0].ResultKey.IsZero() {
+	if len(during[0].Steps) != 1 || during[0].Steps[0].Step != "source.a" || during[0].Steps[0].ResultKey.IsZero() {
 		t.Errorf("the record under way lists %+v, want source.a with its result", during[0].Steps)
 	}
 	after, err := store.Runs()
@@ -58,7 +58,7 @@ func TestAPanicAroundAStepIsAFaultOfThatStepOnly(t *testing.T) {
 	if !re.Program() {
 		t.Errorf("run error %v: want a fault of the program", err)
 	}
-	if o := outcomeOf(t, rep, "floor.fa"); o.Status != StatusFailed || o.Cause != CauseProgram || !strings.Contains(o.Message, "internal error") {
+	if o := outcomeOf(t, rep, "floor.fa"); o.Status != StatusFailed || o.Cause != CauseProgram || !strings.Contains(o.Message, "a fault in dipline") {
 		t.Errorf("floor.fa: %s, %s, %q", o.Status, o.Cause, o.Message)
 	}
 	if o := outcomeOf(t, rep, "source.b"); o.Status != StatusComputed {
@@ -99,11 +99,11 @@ func TestABadProvenanceRecordDoesNotStopTraceOrDiff(t *testing.T) {
 	store, _ := cache.Open(w.StorePath)
 	var badKey cache.StepKey
 	for _, s := range second.Run.Steps {
-		if s.Address == "source.a" {
+		if s.Step == "source.a" {
 			badKey = s.StepKey
 		}
 	}
-	if err := cache.PutRawForTest(w.StorePath, "provenance", badKey[:], []byte(`{"address": "source.a", "kind`)); err != nil {
+	if err := cache.PutRawForTest(w.StorePath, "provenance", badKey[:], []byte(`{"step": "source.a", "kind`)); err != nil {
 		t.Fatal(err)
 	}
 	t.Run("trace shows the others and says what is wrong with it", func(t *testing.T) {
@@ -114,7 +114,7 @@ func TestABadProvenanceRecordDoesNotStopTraceOrDiff(t *testing.T) {
 		var bad *TraceNode
 		var walk func(n *TraceNode)
 		walk = func(n *TraceNode) {
-			if n.Provenance.Address == "source.a" {
+			if n.Provenance.Step == "source.a" {
 				bad = n
 			}
 			for _, c := range n.Inputs {
@@ -135,7 +135,7 @@ func TestABadProvenanceRecordDoesNotStopTraceOrDiff(t *testing.T) {
 			t.Fatal(err)
 		}
 		for _, s := range d.Steps {
-			if s.Address == "source.a" && (s.State != "changed" || !strings.Contains(strings.Join(s.Why, " "), "cannot be read")) {
+			if s.Step == "source.a" && (s.State != DiffNewResult || !strings.Contains(strings.Join(s.Why, " "), "cannot be read")) {
 				t.Errorf("source.a: %s %v", s.State, s.Why)
 			}
 		}

@@ -1,7 +1,6 @@
 package workflow
 
 import (
-	"encoding/json"
 	"fmt"
 	"strings"
 
@@ -15,26 +14,26 @@ type TraceNode struct {
 	Provenance Provenance
 	Inputs     []*TraceNode
 	// Problem says why the step's provenance record is missing or cannot be read. The
-	// node then holds what the record that led to it knew (address, kind, keys), with the
+	// node then holds what the record that led to it knew (step, kind, keys), with the
 	// problem as a note, and the trace goes on with the other steps.
 	Problem string
 }
 
 // TraceTarget is what a trace starts from: a step, and optionally one of its figures.
 type TraceTarget struct {
-	Address string
-	Figure  *steps.Figure
-	Run     cache.Run
-	Root    *TraceNode
+	Step   string // kind.label
+	Figure *steps.Figure
+	Run    cache.Run
+	Root   *TraceNode
 }
 
 // SplitTarget reads "kind.label" or "kind.label/figure".
-func SplitTarget(s string) (addr, figure string) {
-	addr, figure, _ = strings.Cut(s, "/")
-	return addr, figure
+func SplitTarget(s string) (step, figure string) {
+	step, figure, _ = strings.Cut(s, "/")
+	return step, figure
 }
 
-// Trace follows the step at addr in the given run ("latest" by default) down through its
+// Trace follows the step named by target in the given run ("latest" by default) down through its
 // inputs to the files it read, using the stored provenance records.
 func Trace(store *cache.Store, reg steps.Registry, runRef, target string) (*TraceTarget, error) {
 	if runRef == "" {
@@ -44,54 +43,53 @@ func Trace(store *cache.Store, reg steps.Registry, runRef, target string) (*Trac
 	if err != nil {
 		return nil, err
 	}
-	addr, figName := SplitTarget(target)
+	name, figName := SplitTarget(target)
 	var rs *cache.RunStep
-	var addrs []string
+	var names []string
 	for i := range run.Steps {
-		addrs = append(addrs, run.Steps[i].Address)
-		if run.Steps[i].Address == addr {
+		names = append(names, run.Steps[i].Step)
+		if run.Steps[i].Step == name {
 			rs = &run.Steps[i]
 		}
 	}
 	if rs == nil {
-		return nil, fmt.Errorf("run %s has no step %s.%s", run.ID, addr, suggest(addr, addrs))
+		return nil, fmt.Errorf("run %s has no step %s.%s", run.ID, name, suggest(name, names))
 	}
 	if rs.ResultKey.IsZero() {
-		return nil, fmt.Errorf("%s gave no result in run %s (%s)", addr, run.ID, rs.Status)
+		return nil, fmt.Errorf("%s gave no result in run %s (%s)", name, run.ID, rs.Status)
 	}
-	t := &TraceTarget{Address: addr, Run: run}
+	t := &TraceTarget{Step: name, Run: run}
 	if figName != "" {
 		kind := reg[rs.Kind]
 		if kind == nil {
 			return nil, fmt.Errorf("this build has no %s step kind", rs.Kind)
 		}
-		data, err := store.Get(rs.ResultKey)
+		held, err := readResult(store, kind, rs.ResultKey)
 		if err != nil {
 			return nil, err
 		}
-		art, err := kind.Decode(data)
-		if err != nil {
-			return nil, err
+		if held.Held != Usable {
+			return nil, fmt.Errorf("%s in run %s: %s", name, run.ID, held.Why)
 		}
-		var names []string
-		for _, f := range art.Figures() {
-			names = append(names, f.Name)
+		var figs []string
+		for _, f := range held.Artifact.Figures() {
+			figs = append(figs, f.Name)
 			if f.Name == figName {
 				f := f
 				t.Figure = &f
 			}
 		}
 		if t.Figure == nil {
-			return nil, fmt.Errorf("%s has no figure %q.%s", addr, figName, suggest(figName, names))
+			return nil, fmt.Errorf("%s has no figure %q.%s", name, figName, suggest(figName, figs))
 		}
 	}
-	t.Root, err = traceNode(store, stepRef{rs.Address, rs.Kind, rs.StepKey.String(), rs.ResultKey.String()}, map[string]*TraceNode{})
+	t.Root, err = traceNode(store, stepRef{rs.Step, rs.Kind, rs.StepKey.String(), rs.ResultKey.String()}, map[string]*TraceNode{})
 	return t, err
 }
 
-// stepRef is what leads a trace to a step: its address, kind and keys, as the run record
-// or the reading step's provenance gives them.
-type stepRef struct{ address, kind, stepKey, resultKey string }
+// stepRef is what leads a trace to a step: its name (kind.label), kind and keys, as the run
+// record or the reading step's provenance gives them.
+type stepRef struct{ step, kind, stepKey, resultKey string }
 
 // traceNode reads the provenance of the step ref names, then of the steps it read. A record
 // that is missing or does not read becomes a node with its Problem; only a failure of the
@@ -104,20 +102,17 @@ func traceNode(store *cache.Store, ref stepRef, seen map[string]*TraceNode) (*Tr
 	if err != nil {
 		return problemNode(ref, fmt.Sprintf("the step key recorded for it does not read (%v)", err)), nil
 	}
-	b, ok, err := store.Provenance(key)
+	p, why, err := provenanceOf(store, key)
 	if err != nil {
 		return nil, err
 	}
-	if !ok {
-		return problemNode(ref, "no provenance record is stored for its step key (pruned, or dropped by a salvage)"), nil
+	if p == nil {
+		return problemNode(ref, "its "+why), nil
 	}
-	n := &TraceNode{}
-	if err := json.Unmarshal(b, &n.Provenance); err != nil {
-		return problemNode(ref, fmt.Sprintf("its provenance record cannot be read (%v)", err)), nil
-	}
+	n := &TraceNode{Provenance: *p}
 	seen[ref.stepKey] = n
 	for _, in := range n.Provenance.Inputs {
-		child, err := traceNode(store, stepRef{in.Address, kindOf(in.Address), in.StepKey, in.ResultKey}, seen)
+		child, err := traceNode(store, stepRef{in.Step, kindOf(in.Step), in.StepKey, in.ResultKey}, seen)
 		if err != nil {
 			return nil, err
 		}
@@ -128,12 +123,12 @@ func traceNode(store *cache.Store, ref stepRef, seen map[string]*TraceNode) (*Tr
 
 // problemNode stands for a step whose provenance cannot be shown.
 func problemNode(ref stepRef, problem string) *TraceNode {
-	return &TraceNode{Problem: problem, Provenance: Provenance{Address: ref.address, Kind: ref.kind,
+	return &TraceNode{Problem: problem, Provenance: Provenance{Step: ref.step, Kind: ref.kind,
 		StepKey: ref.stepKey, ResultKey: ref.resultKey, Notes: []string{problem}}}
 }
 
-// kindOf is the kind in an address "kind.label".
-func kindOf(addr string) string {
-	kind, _, _ := strings.Cut(addr, ".")
+// kindOf is the kind in a step's name "kind.label".
+func kindOf(step string) string {
+	kind, _, _ := strings.Cut(step, ".")
 	return kind
 }

@@ -199,14 +199,14 @@ func (c *cli) pending(args []string) int {
 	}
 	n := 0
 	for _, v := range verdicts {
-		if v.Reuse {
-			fmt.Fprintf(c.out, "  reuse      %s\n", v.Address)
+		// The state column is as wide as the longest word, "to compute" (states.go).
+		fmt.Fprintf(c.out, "  %-10s  %s\n", v.State, v.Step)
+		if v.State == workflow.PendingStored {
 			continue
 		}
 		n++
-		fmt.Fprintf(c.out, "  recompute  %s\n", v.Address)
 		for _, r := range v.Reasons {
-			fmt.Fprintf(c.out, "               because %s\n", r)
+			fmt.Fprintf(c.out, "                because %s\n", r)
 		}
 	}
 	if n == 0 {
@@ -228,7 +228,7 @@ func (c *cli) trace(args []string) int {
 		return exitBadUser
 	}
 	if t.Figure != nil {
-		fmt.Fprintf(c.out, "%s/%s = %s %s   (%s)\n", t.Address, t.Figure.Name,
+		fmt.Fprintf(c.out, "%s/%s = %s %s   (%s)\n", t.Step, t.Figure.Name,
 			workflow.FormatValue(t.Figure.Value, t.Figure.Sigma), t.Figure.Unit, t.Figure.Doc)
 	}
 	fmt.Fprintf(c.out, "run %s, started %s\n", t.Run.ID, t.Run.Started.Local().Format("2006-01-02 15:04:05"))
@@ -238,7 +238,7 @@ func (c *cli) trace(args []string) int {
 
 func (c *cli) printNode(n *workflow.TraceNode, indent string, shown map[string]bool) {
 	p := n.Provenance
-	fmt.Fprintf(c.out, "%s%s  (%s v%d)\n", indent, p.Address, p.Kind, p.Version)
+	fmt.Fprintf(c.out, "%s%s  (%s v%d)\n", indent, p.Step, p.Kind, p.Version)
 	in := indent + "    "
 	if shown[p.StepKey] {
 		fmt.Fprintf(c.out, "%sstep key   %s (shown above)\n", in, p.StepKey)
@@ -365,31 +365,5 @@ func (c *cli) pin(args []string) int {
 		verb = "unpinned"
 	}
 	fmt.Fprintf(c.out, "%s run %s\n", verb, run.ID)
-	return exitOK
-}
-
-func (c *cli) kinds(args []string) int {
-	for _, name := range c.reg.Names() {
-		k := c.reg[name]
-		fmt.Fprintf(c.out, "%s (version %d): %s\n", name, k.Version(), k.Doc())
-		for _, p := range k.Params() {
-			req := ""
-			switch {
-			case p.Default != nil:
-				req = " [default " + fmt.Sprint(p.Default) + "]"
-			case !p.Optional:
-				req = " [required]"
-			}
-			typ := p.Type.String()
-			if p.Dim != nil {
-				typ += " (" + strings.Join(p.Dim.Names(), ", ") + ")"
-			}
-			if len(p.Kinds) > 0 {
-				typ += " → " + strings.Join(p.Kinds, " or ")
-			}
-			fmt.Fprintf(c.out, "  %-18s %s%s\n      %s\n", p.Name, typ, req, p.Doc)
-		}
-		fmt.Fprintln(c.out)
-	}
 	return exitOK
 }

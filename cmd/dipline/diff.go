@@ -41,15 +41,16 @@ func (c *cli) diff(args []string) int {
 	}
 	same := 0
 	for _, d := range rep.Steps {
-		if d.State == "same" && !*all {
+		if d.State == workflow.DiffUnchanged && !*all {
 			same++
 			continue
 		}
-		fmt.Fprintf(c.out, "\n%-10s %s\n", d.State, d.Address)
+		// The state column is as wide as the longest word, "same result" (states.go).
+		fmt.Fprintf(c.out, "\n%-11s %s\n", d.State, d.Step)
 		for _, w := range d.Why {
 			fmt.Fprintf(c.out, "    because %s\n", w)
 		}
-		if d.State == "recomputed" {
+		if d.State == workflow.DiffSameResult {
 			fmt.Fprintln(c.out, "    its result is byte-identical")
 		}
 		for _, s := range d.Shifts {

@@ -98,5 +98,5 @@ func (c *cli) printRecomputed(s workflow.RecomputedStep) {
 	if s.State == workflow.RecomputeSame {
 		detail = fmt.Sprintf("result key %s, %.2f s", s.Recomputed.Short(), s.Seconds)
 	}
-	fmt.Fprintf(c.out, "  %-18s %-24s %s\n", s.State, s.Address, detail)
+	fmt.Fprintf(c.out, "  %-18s %-24s %s\n", s.State, s.Step, detail)
 }

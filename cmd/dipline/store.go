@@ -75,7 +75,7 @@ func (c *cli) storeStats(fs *flag.FlagSet, args []string) int {
 }
 
 func (c *cli) storeVerify(fs *flag.FlagSet, args []string) int {
-	drop := fs.Bool("drop-damaged", false, "delete damaged results and records that do not read, so the next run recomputes those steps")
+	drop := fs.Bool("drop-damaged", false, "delete damaged results and records that do not read, so the next run computes those steps again")
 	var ro recomputeFlags
 	ro.register(fs)
 	w, store, _, code := c.storeArgsWith(fs, args, 0, "verify takes only the workflow file", false)
@@ -122,14 +122,14 @@ func (c *cli) verifyStored(store *cache.Store, drop bool) int {
 		fmt.Fprintf(c.out, "the file itself is damaged: `dipline store salvage --into NEW.db` copies all that still reads into a new store\n")
 		return exitBadUser
 	case !drop:
-		fmt.Fprintln(c.out, "--drop-damaged removes the damaged entries, so the next run recomputes them")
+		fmt.Fprintln(c.out, "--drop-damaged removes the damaged entries, so the next run computes them again")
 		return exitBadUser
 	}
 	n, err := store.DropDamaged(rep)
 	if err != nil {
 		return c.storeFailed("store verify", err)
 	}
-	fmt.Fprintf(c.out, "removed %d damaged entries; the next run recomputes them\n", n)
+	fmt.Fprintf(c.out, "removed %d damaged entries; the next run computes them again\n", n)
 	return exitOK
 }
 
@@ -240,7 +240,7 @@ func (c *cli) printSalvage(from string, rep cache.SalvageReport) {
 		}
 	}
 	if len(rep.Incomplete) > 0 {
-		fmt.Fprintln(c.out, "runs kept with results lost (a new run recomputes those steps):")
+		fmt.Fprintln(c.out, "runs kept with results lost (a new run computes those steps again):")
 		for _, s := range rep.Incomplete {
 			fmt.Fprintf(c.out, "  %s\n", s)
 		}

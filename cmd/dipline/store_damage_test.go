@@ -59,7 +59,7 @@ func pad(path string) error {
 		data := []byte(fmt.Sprintf("invented result %d", i))
 		step := cache.StepKey(sha256.Sum256([]byte(fmt.Sprint("invented step ", i))))
 		es = append(es, cache.Entry{Step: step, Result: cache.ResultKeyOf(data), Data: data,
-			Provenance: []byte(fmt.Sprintf(`{"address":"invented.x%d","step_key":"%s"}`, i, step))})
+			Provenance: []byte(fmt.Sprintf(`{"step":"invented.x%d","step_key":"%s"}`, i, step))})
 	}
 	if err := s.Commit(es...); err != nil {
 		return err
@@ -67,7 +67,7 @@ func pad(path string) error {
 	for i := range 60 {
 		r := cache.Run{ID: fmt.Sprintf("20200101-0000%02d-00000000", i), Started: time.Date(2020, 1, 1, 0, 0, i, 0, time.UTC)}
 		for _, e := range es[i*3 : i*3+3] {
-			r.Steps = append(r.Steps, cache.RunStep{Address: "invented.x", StepKey: e.Step, ResultKey: e.Result, Status: "computed"})
+			r.Steps = append(r.Steps, cache.RunStep{Step: "invented.x", StepKey: e.Step, ResultKey: e.Result, Status: "computed"})
 		}
 		if err := s.PutRun(r); err != nil {
 			return err
@@ -98,7 +98,7 @@ func withTwoRuns(t *testing.T, padded bool) *folder {
 // noCrashText fails the test when output shows a crash or a stack.
 func noCrashText(t *testing.T, what, out string) {
 	t.Helper()
-	for _, bad := range []string{"panic", "goroutine ", "runtime error", "SIGSEGV", "SIGBUS", "fault address", "internal error"} {
+	for _, bad := range []string{"panic", "goroutine ", "runtime error", "SIGSEGV", "SIGBUS", "fault address", "internal error", "fault in dipline"} {
 		if strings.Contains(out, bad) {
 			t.Errorf("%s printed %q:\n%s", what, bad, out)
 		}
@@ -248,7 +248,7 @@ func TestABadRunRecordBlocksNothing(t *testing.T) {
 		{[]string{"runs"}, exitOK, "20200101-000000-badbad00  its record cannot be read"},
 		{[]string{"trace", "search.dips/signal1.period"}, exitOK, "photometry.raw"},
 		{[]string{"diff"}, exitOK, "detrend.quiet"},
-		{[]string{"pending"}, exitOK, "reuse      search.dips"},
+		{[]string{"pending"}, exitOK, "stored      search.dips"},
 		{[]string{"store", "verify"}, exitBadUser, "run record 20200101-000000-badbad00 cannot be read"},
 		{[]string{"store", "prune"}, exitOK, "kept the run record 20200101-000000-badbad00 cannot be read"},
 		{[]string{"store", "verify", "--drop-damaged"}, exitOK, "removed 1 damaged entries"},
