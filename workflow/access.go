@@ -62,8 +62,8 @@ func openFolders(dir string, acc Access) (*folders, hcl.Diagnostics) {
 			if i > 0 {
 				what = "--also-allow " + d
 			}
-			diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "Folder not usable",
-				Detail: fmt.Sprintf("%s: %v.", what, unwrapPath(err))})
+			diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError,
+				Summary: fmt.Sprintf("%s cannot be used: %v.", capital(what), unwrapPath(err))})
 			continue
 		}
 		real, err := filepath.EvalSymlinks(abs)
@@ -190,7 +190,7 @@ func (fo *folders) readFile(p string, r hcl.Range) (*FileInput, *hcl.Diagnostic)
 func (fo *folders) take(f *os.File, p string, r hcl.Range) ([]byte, *hcl.Diagnostic) {
 	st, err := f.Stat()
 	if err != nil {
-		return nil, attrDiag(r, "Unreadable file", fmt.Sprintf("Cannot read %s: %v.", quote(p), unwrapPath(err)))
+		return nil, attrDiag(r, fmt.Sprintf("%s cannot be read: %v.", quote(p), unwrapPath(err)), "")
 	}
 	if d := notAFile(r, p, st); d != nil {
 		return nil, d
@@ -201,7 +201,7 @@ func (fo *folders) take(f *os.File, p string, r hcl.Range) ([]byte, *hcl.Diagnos
 	buf := bytes.NewBuffer(make([]byte, 0, st.Size()+bytes.MinRead))
 	n, err := buf.ReadFrom(io.LimitReader(f, fo.left+1))
 	if err != nil {
-		return nil, attrDiag(r, "Unreadable file", fmt.Sprintf("Cannot read %s: %v.", quote(p), unwrapPath(err)))
+		return nil, attrDiag(r, fmt.Sprintf("%s cannot be read: %v.", quote(p), unwrapPath(err)), "")
 	}
 	if n > fo.left { // it grew while being read
 		return nil, fo.tooLarge(r, p, n)
@@ -213,9 +213,9 @@ func (fo *folders) take(f *os.File, p string, r hcl.Range) ([]byte, *hcl.Diagnos
 func notAFile(r hcl.Range, p string, st fs.FileInfo) *hcl.Diagnostic {
 	switch {
 	case st.IsDir():
-		return attrDiag(r, "Not a file", fmt.Sprintf("%s is a folder; name a file in it.", quote(p)))
+		return attrDiag(r, fmt.Sprintf("%s is a folder, not a file.", quote(p)), "Name a file in it.")
 	case !st.Mode().IsRegular():
-		return attrDiag(r, "Not a file", fmt.Sprintf("%s is not a regular file (it is a pipe, a device or a socket); name a file.", quote(p)))
+		return attrDiag(r, fmt.Sprintf("%s is not a regular file (it is a pipe, a device or a socket).", quote(p)), "Name a file.")
 	}
 	return nil
 }
@@ -227,9 +227,10 @@ func (fo *folders) tooLarge(r hcl.Range, p string, size int64) *hcl.Diagnostic {
 	if used > 0 {
 		sofar = fmt.Sprintf(" (%s of it already taken)", FormatSize(used))
 	}
-	return attrDiag(r, "Data file too large", fmt.Sprintf(
-		"%s is %s; the data files and catalogues of one workflow (with the catalogues' indexes) may take %s in all%s, so that a damaged or hostile file cannot exhaust memory. If the file is right, raise the limit on the command line: dipline --max-data %dGiB <command> ….",
-		quote(p), FormatSize(size), FormatSize(fo.limit), sofar, need))
+	return attrDiag(r, fmt.Sprintf(
+		"%s is %s, and the data files and catalogues of one workflow (with the catalogues' indexes) may take %s in all%s.",
+		quote(p), FormatSize(size), FormatSize(fo.limit), sofar), fmt.Sprintf(
+		"The bound keeps a damaged or hostile file from exhausting memory. If the file is right, raise it on the command line: dipline --max-data %dGiB <command> ….", need))
 }
 
 // place checks a path the workflow writes to and makes its folder inside the roots: the
@@ -260,7 +261,7 @@ func (fo *folders) place(p string, r hcl.Range, what string, folder bool) (strin
 		case err != nil:
 			return "", fo.openDiag(r, what, p, err)
 		case st.IsDir():
-			return "", attrDiag(r, "Store is a folder", fmt.Sprintf("%s is a folder; the store is a file, e.g. store = \".dipline/store.db\".", quote(name)))
+			return "", attrDiag(r, fmt.Sprintf("%s is a folder, and the store is a file.", quote(name)), "For example store = \".dipline/store.db\".")
 		case !st.Mode().IsRegular():
 			return "", notAFile(r, name, st)
 		}
@@ -283,8 +284,8 @@ func (fo *folders) checkLock(i int, name string, r hcl.Range) *hcl.Diagnostic {
 	defer f.Close()
 	head, err := io.ReadAll(io.LimitReader(f, lockBytes+1))
 	if err != nil || len(head) > lockBytes || !cache.IsRunLock(head) {
-		return attrDiag(r, "Not a run lock", fmt.Sprintf(
-			"%s, where this store's run lock belongs, holds something else; dipline leaves it as it is. Move it aside, or name another store.", quote(name)))
+		return attrDiag(r, fmt.Sprintf("%s, where this store's run lock belongs, holds something else, and dipline leaves it as it is.", quote(name)),
+			"Move it aside, or name another store.")
 	}
 	return nil
 }
@@ -320,32 +321,25 @@ func (fo *folders) makeIn(i int, rel string, folder bool) error {
 func (fo *folders) openDiag(r hcl.Range, what, p string, err error) *hcl.Diagnostic {
 	switch {
 	case escapes(err):
-		return attrDiag(r, outsideSummary(what), fmt.Sprintf(
-			"%s leads out of the workflow's folder (%s) through a symbolic link. dipline follows links only within the workflow's folder and the folders you allow, so that a workflow from someone else cannot reach your other files. %s",
-			quote(p), fo.dirs[0], allowHint))
+		return attrDiag(r, fmt.Sprintf("The %s %s leads outside the workflow's folder (%s) through a symbolic link.", what, quote(p), fo.dirs[0]),
+			"dipline follows links only within the workflow's folder and the folders you allow, so that a workflow from someone else cannot reach your other files. "+allowHint)
 	case errors.Is(err, fs.ErrNotExist) && what == "file":
-		return attrDiag(r, "Missing file", fmt.Sprintf("There is no file %s (looked in %s).", quote(p), fo.dirs[0]))
+		return attrDiag(r, fmt.Sprintf("There is no file %s (looked in %s).", quote(p), fo.dirs[0]), "")
 	case errors.Is(err, fs.ErrPermission):
-		return attrDiag(r, "Unusable "+what, fmt.Sprintf("You may not use %s (permission denied).", quote(p)))
+		return attrDiag(r, fmt.Sprintf("%s cannot be used: permission denied.", quote(p)), "")
 	}
-	return attrDiag(r, "Unusable "+what, fmt.Sprintf("Cannot use %s: %v.", quote(p), unwrapPath(err)))
+	return attrDiag(r, fmt.Sprintf("%s cannot be used: %v.", quote(p), unwrapPath(err)), "")
 }
 
-// outsideSummary is "File outside the workflow", "Store outside the workflow", ….
-func outsideSummary(what string) string {
-	return strings.ToUpper(what[:1]) + what[1:] + " outside the workflow"
-}
-
+// outsideDiag refuses a path outside the workflow's folder; what is "file", "store" or
+// "output".
 func outsideDiag(r hcl.Range, what, p, dir string) *hcl.Diagnostic {
-	summary := outsideSummary(what)
 	if filepath.IsAbs(p) {
-		return attrDiag(r, summary, fmt.Sprintf(
-			"%s is an absolute path; name files relative to the workflow's folder, so that a collaborator's copy finds the same files. %s",
-			quote(p), allowHint))
+		return attrDiag(r, fmt.Sprintf("The %s %s lies outside the workflow's folder (%s).", what, quote(p), dir),
+			"Name files relative to the workflow's folder, so that a collaborator's copy finds the same files. "+allowHint)
 	}
-	return attrDiag(r, summary, fmt.Sprintf(
-		"%s leaves the workflow's folder (%s). dipline reads and writes only inside it, so that a workflow from someone else cannot reach your other files. %s",
-		quote(p), dir, allowHint))
+	return attrDiag(r, fmt.Sprintf("The %s %s lies outside the workflow's folder (%s).", what, quote(p), dir),
+		"dipline reads and writes only inside it, so that a workflow from someone else cannot reach your other files. "+allowHint)
 }
 
 // unwrapPath gives the reason inside an *fs.PathError, without the path (a message names

@@ -24,7 +24,7 @@ func TestANamedPipeIsRefusedNotWaitedOn(t *testing.T) {
 	}()
 	select {
 	case diags := <-done:
-		if !diags.HasErrors() || !strings.Contains(diags[0].Detail, "not a regular file") {
+		if !diags.HasErrors() || !strings.Contains(Message(diags[0]), `"lc.txt" is not a regular file`) {
 			t.Fatalf("diags %v", diags)
 		}
 	case <-time.After(time.Second):

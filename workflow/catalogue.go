@@ -90,9 +90,7 @@ func rowAddress(label, id string) string {
 // decodeCatalogue reads a catalogue block and its file.
 func (w *Workflow) decodeCatalogue(b *hcl.Block) (*Catalogue, hcl.Diagnostics) {
 	c := &Catalogue{Label: b.Labels[0], Renames: map[string]string{}}
-	content, diags := b.Body.Content(&hcl.BodySchema{Attributes: []hcl.AttributeSchema{
-		{Name: "file", Required: true}, {Name: "id"}, {Name: "columns"},
-	}})
+	content, diags := b.Body.Content(bodySchemaOf(paramsOf[catalogueAttrs]()))
 	if diags.HasErrors() {
 		return nil, diags
 	}
@@ -101,20 +99,20 @@ func (w *Workflow) decodeCatalogue(b *hcl.Block) (*Catalogue, hcl.Diagnostics) {
 		v, d := a.Expr.Value(nil)
 		s, ok := str(v)
 		if d.HasErrors() || !ok || s == "" {
-			return nil, append(diags, attrDiag(a.Expr.Range(), "Invalid id column", "id names the catalogue's id column, as a string, e.g. id = \"name\"."))
+			return nil, append(diags, attrDiag(a.Expr.Range(), "id takes the name of the catalogue's id column, in quotes.", "For example id = \"name\"."))
 		}
 		idCol = s
 	}
 	if a := content.Attributes["columns"]; a != nil {
 		v, d := a.Expr.Value(nil)
 		if d.HasErrors() || v.IsNull() || !(v.Type().IsObjectType() || v.Type().IsMapType()) {
-			return nil, append(diags, attrDiag(a.Expr.Range(), "Invalid columns", "columns maps the names steps ask for to this file's columns, e.g. columns = { parallax = \"plx\" }."))
+			return nil, append(diags, attrDiag(a.Expr.Range(), "columns takes an object that maps the names steps ask for to this file's columns.", "For example columns = { parallax = \"plx\" }."))
 		}
 		for it := v.ElementIterator(); it.Next(); {
 			k, e := it.Element()
 			s, ok := str(e)
 			if !ok || s == "" {
-				return nil, append(diags, attrDiag(a.Expr.Range(), "Invalid columns", fmt.Sprintf("columns.%s must name a column as a string.", k.AsString())))
+				return nil, append(diags, attrDiag(a.Expr.Range(), fmt.Sprintf("columns gives %s no column name in quotes.", quote(k.AsString())), fmt.Sprintf("For example columns = { %s = \"…\" }.", clip(k.AsString()))))
 			}
 			c.Renames[strings.ToLower(k.AsString())] = s
 		}
@@ -123,7 +121,7 @@ func (w *Workflow) decodeCatalogue(b *hcl.Block) (*Catalogue, hcl.Diagnostics) {
 	v, d := a.Expr.Value(nil)
 	p, ok := str(v)
 	if d.HasErrors() || !ok || p == "" {
-		return nil, append(diags, attrDiag(a.Expr.Range(), "Invalid file", "file is the catalogue's path, relative to the workflow's folder."))
+		return nil, append(diags, attrDiag(a.Expr.Range(), "file takes the catalogue's path in quotes, relative to the workflow's folder.", "For example file = \"stars.csv\"."))
 	}
 	fi, fd := w.readFile(p, a.Expr.Range())
 	if fd != nil {
@@ -133,7 +131,7 @@ func (w *Workflow) decodeCatalogue(b *hcl.Block) (*Catalogue, hcl.Diagnostics) {
 	err := c.parse(fi.Data, idCol, w.fo.left)
 	w.fo.left = max(0, w.fo.left-c.indexBytes)
 	if err != nil {
-		return nil, append(diags, attrDiag(a.Expr.Range(), "Unreadable catalogue", err.Error()))
+		return nil, append(diags, attrDiag(a.Expr.Range(), "This catalogue cannot be used: "+sentence(err.Error()), ""))
 	}
 	return c, diags
 }
@@ -329,8 +327,8 @@ func (c *Catalogue) column(name string) (int, bool) {
 
 // rowRef reads catalogue.label["id"] from an attribute.
 func (w *Workflow) rowRef(expr hcl.Expression) (label, id string, d *hcl.Diagnostic) {
-	bad := attrDiag(expr.Range(), "Not a catalogue row",
-		`Name a row of a catalogue block by its id, e.g. row = catalogue.nearby["FW-3318"].`)
+	bad := attrDiag(expr.Range(), "This is not a catalogue row.",
+		`Name a row of a catalogue block by its id, as in catalogue.nearby["FW-3318"].`)
 	tr, diags := hcl.AbsTraversalForExpr(expr)
 	if diags.HasErrors() || len(tr) != 3 || tr.RootName() != catalogueBlock {
 		return "", "", bad
@@ -361,8 +359,8 @@ func (w *Workflow) decodeRow(s *Step, p steps.Param, expr hcl.Expression) (any, 
 	}
 	c := w.catalogues[label]
 	if c == nil && w.unreadable[label] {
-		return nil, hcl.Diagnostics{attrDiag(expr.Range(), "Unreadable catalogue",
-			fmt.Sprintf("catalogue %q did not load; the message about its file says why.", label))}
+		return nil, hcl.Diagnostics{attrDiag(expr.Range(), fmt.Sprintf("The catalogue %s did not load, so its rows cannot be read.", quote(label)),
+			"The message about its file says why.")}
 	}
 	if c == nil {
 		names := make([]string, 0, len(w.catalogues))
@@ -370,13 +368,13 @@ func (w *Workflow) decodeRow(s *Step, p steps.Param, expr hcl.Expression) (any, 
 			names = append(names, n)
 		}
 		sort.Strings(names)
-		return nil, hcl.Diagnostics{attrDiag(expr.Range(), "Unknown catalogue",
-			fmt.Sprintf("There is no catalogue block %q.%s", label, suggest(label, names)))}
+		return nil, hcl.Diagnostics{attrDiag(expr.Range(), fmt.Sprintf("There is no catalogue block %s.", quote(label)),
+			strings.TrimSpace(suggest(label, names)))}
 	}
 	row := c.rows[id]
 	if row == nil {
-		return nil, hcl.Diagnostics{attrDiag(expr.Range(), "No such row",
-			fmt.Sprintf("%s has no row with %s %s.%s", c.Path, clip(c.IDColumn), quote(id), suggest(id, c.order)))}
+		return nil, hcl.Diagnostics{attrDiag(expr.Range(), fmt.Sprintf("%s has no row with %s %s.", c.Path, clip(c.IDColumn), quote(id)),
+			strings.TrimSpace(suggest(id, c.order)))}
 	}
 	if len(row.dups) > 0 {
 		lines := make([]string, len(row.dups))
@@ -387,8 +385,8 @@ func (w *Workflow) decodeRow(s *Step, p steps.Param, expr hcl.Expression) (any, 
 		if row.moreDups > 0 {
 			listed += fmt.Sprintf(", … and %s more lines", thousands(row.moreDups))
 		}
-		return nil, hcl.Diagnostics{attrDiag(expr.Range(), "Ambiguous row",
-			fmt.Sprintf("%s has %s on line %d and again on line(s) %s; keep one.", c.Path, quote(id), row.line, listed))}
+		return nil, hcl.Diagnostics{attrDiag(expr.Range(), fmt.Sprintf("%s has %s on line %d and again on line(s) %s.", c.Path, quote(id), row.line, listed),
+			"Keep one of them.")}
 	}
 	s.Rows[p.Name] = &RowInput{Catalogue: label, Path: c.Path, Line: row.line, ID: id}
 	return rowAddress(label, id), nil
@@ -404,14 +402,14 @@ func (w *Workflow) resolveRows(s *Step) hcl.Diagnostics {
 		}
 		cr, ok := s.Config.(steps.ColumnReader)
 		if !ok {
-			diags = append(diags, attrDiag(s.attrRanges[p.Name], "Internal error",
-				fmt.Sprintf("the %s kind reads a catalogue row but does not say which columns", s.Kind.Name())))
+			diags = append(diags, attrDiag(s.attrRanges[p.Name],
+				fmt.Sprintf("The %s kind reads a catalogue row but does not say which columns; this is a fault of the program (please report it).", s.Kind.Name()), ""))
 			continue
 		}
 		c := w.catalogues[in.Catalogue]
 		cells, err := c.cells(c.rows[in.ID])
 		if err != nil {
-			diags = append(diags, attrDiag(s.attrRanges[p.Name], "Unreadable catalogue", err.Error()))
+			diags = append(diags, attrDiag(s.attrRanges[p.Name], "This catalogue cannot be used: "+sentence(err.Error()), ""))
 			continue
 		}
 		row := c.rows[in.ID]
@@ -428,9 +426,9 @@ func (w *Workflow) resolveRows(s *Step) hcl.Diagnostics {
 			j, ok := c.column(name)
 			if !ok {
 				if i < len(required) {
-					diags = append(diags, attrDiag(s.attrRanges[p.Name], "Missing catalogue column",
-						fmt.Sprintf("%s needs a column %q, which %s lacks (columns: %s). Rename it in the catalogue block, e.g. columns = { %s = \"...\" }.%s",
-							s.Addr, name, c.Path, listSome(c.header, "columns"), name, suggest(name, c.header))))
+					diags = append(diags, attrDiag(s.attrRanges[p.Name],
+						fmt.Sprintf("%s needs a column %q, which %s lacks (columns: %s).", s.Addr, name, c.Path, listSome(c.header, "columns")),
+						fmt.Sprintf("Rename it in the catalogue block, e.g. columns = { %s = \"...\" }.%s", name, suggest(name, c.header))))
 				}
 				continue
 			}
@@ -443,8 +441,8 @@ func (w *Workflow) resolveRows(s *Step) hcl.Diagnostics {
 			}
 			v, blank, err := parseCell(cell)
 			if err != nil {
-				diags = append(diags, attrDiag(s.attrRanges[p.Name], "Bad catalogue value",
-					fmt.Sprintf("%s:%d, column %s (%s): %v", c.Path, row.line, clip(c.header[j]), clip(in.ID), err)))
+				diags = append(diags, attrDiag(s.attrRanges[p.Name],
+					fmt.Sprintf("%s line %d, column %s (row %s): %v.", c.Path, row.line, clip(c.header[j]), clip(in.ID), err), ""))
 				continue
 			}
 			if !blank {

@@ -104,7 +104,7 @@ func TestCatalogueOverrideIsAppliedAndRecorded(t *testing.T) {
 		t.Errorf("run record overrides %v", rep.Run.Overrides)
 	}
 	if _, err := p.load(Override{Addr: `catalogue.near["FW-1"]`, Attr: "vmag", Value: "1"}); err == nil ||
-		!strings.Contains(err.Error(), `No step reads column "vmag"`) {
+		!strings.Contains(err.Error(), `no step reads column "vmag"`) {
 		t.Errorf("an override of an unread column: %v", err)
 	}
 	if _, err := ParseOverride(`catalogue.near.FW-1.parallax=13`); err == nil {
@@ -120,19 +120,19 @@ func TestCatalogueMistakesAreDiagnosed(t *testing.T) {
 		want  []string
 	}{
 		{"a missing id suggests the closest", strings.Replace(catalogueFlow, `["FW-2"]`, `["FW-22"]`, 1), stars,
-			[]string{"No such row", `"FW-22"`, `"FW-2"`}},
+			[]string{`stars.csv has no row with name "FW-22".`, `Did you mean "FW-2"?`}},
 		{"a duplicated id that a step reads is ambiguous", catalogueFlow, stars + "FW-1,13.0,3200,11.1\n",
-			[]string{"Ambiguous row", "line 3", "6"}},
+			[]string{`stars.csv has "FW-1" on line 3 and again on line(s) 6.`, "Keep one of them."}},
 		{"a missing required column is named", catalogueFlow, strings.Replace(stars, "parallax", "plx", 1),
-			[]string{"Missing catalogue column", `"parallax"`, "columns = { parallax"}},
+			[]string{`lookup.host needs a column "parallax", which stars.csv lacks`, "columns = { parallax"}},
 		{"a cell that is not a number names file, line and column", catalogueFlow, strings.Replace(stars, "3300", "33OO", 1),
-			[]string{"stars.csv:3, column teff (FW-1)", `"33OO" is not a number`}},
+			[]string{`stars.csv line 3, column teff (row FW-1): "33OO" is not a number.`}},
 		{"an unknown catalogue suggests the closest", strings.Replace(catalogueFlow, `catalogue.near["FW-2"]`, `catalogue.nears["FW-2"]`, 1), stars,
-			[]string{"Unknown catalogue", `"near"`}},
+			[]string{`There is no catalogue block "nears".`, `Did you mean "near"?`}},
 		{"a row named without an index is explained", strings.Replace(catalogueFlow, `catalogue.near["FW-2"]`, `catalogue.near`, 1), stars,
-			[]string{"Not a catalogue row"}},
+			[]string{"This is not a catalogue row.", `catalogue.nearby["FW-3318"]`}},
 		{"a missing id column is named", catalogueFlow, strings.Replace(stars, "name,", "star,", 1),
-			[]string{`no id column "name"`}},
+			[]string{"This catalogue cannot be used: ", `no id column "name"`}},
 		{"a short line is named", catalogueFlow, stars + "FW-9,1.0\n",
 			[]string{"stars.csv:6", "2 cells"}},
 	}
@@ -202,13 +202,13 @@ func TestDiffExplainsACatalogueRevision(t *testing.T) {
 	}
 	states := map[string]StepDiff{}
 	for _, d := range rep.Steps {
-		states[d.Address] = d
+		states[d.Step] = d
 	}
-	if states["lookup.other"].State != "same" {
+	if states["lookup.other"].State != DiffUnchanged {
 		t.Errorf("lookup.other: %+v, want same", states["lookup.other"])
 	}
 	host := states["lookup.host"]
-	if host.State != "changed" || !strings.Contains(strings.Join(host.Why, ";"), "column parallax: 12.3 → 12.45") {
+	if host.State != DiffNewResult || !strings.Contains(strings.Join(host.Why, ";"), "column parallax: 12.3 → 12.45") {
 		t.Fatalf("lookup.host: %+v", host)
 	}
 	if len(host.Shifts) != 1 {

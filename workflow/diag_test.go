@@ -17,35 +17,35 @@ func TestDiagnosticsPointAtTheMistake(t *testing.T) {
 		want []string
 	}{
 		{"an unknown block type is named with a suggestion", "combin \"s\" {\n}\n", 7,
-			[]string{"Unsupported block type", `"combine"`}},
+			[]string{`A workflow has no block "combin".`, `Did you mean "combine"?`}},
 		{"an unknown attribute is named with a suggestion", "combine \"s\" {\n  inputs = [source.a]\n  ofset = \"1 h\"\n}\n", 9,
-			[]string{"Unsupported argument", `"offset"`}},
+			[]string{`combine "s" has no setting "ofset".`, `Did you mean "offset"?`, "A combine step takes inputs, offset and window."}},
 		{"a wrong type says what was given", "combine \"s\" {\n  inputs = [source.a]\n  offset = true\n}\n", 9,
-			[]string{"Wrong type for offset", "a bool"}},
+			[]string{"offset", "this is the value true"}},
 		{"a missing unit suggests one", "combine \"s\" {\n  inputs = [source.a]\n  offset = 12\n}\n", 9,
-			[]string{"Missing unit", `"12 d"`}},
+			[]string{"offset", `"12 d"`}},
 		{"a wrong unit lists the right ones", "combine \"s\" {\n  inputs = [source.a]\n  offset = \"12 km\"\n}\n", 9,
-			[]string{"Wrong unit for offset", "unknown time unit", "min"}},
+			[]string{"offset", "unknown time unit", "min"}},
 		{"a reference to a missing step suggests the closest", "floor \"f\" {\n  input = source.aa\n}\n", 8,
-			[]string{"Unknown step", `no source step named "aa"`, `Did you mean "a"?`}},
+			[]string{`floor "f" reads source.aa for input, and there is no source step "aa".`, `Did you mean source.a?`}},
 		{"a reference to the wrong kind says which kinds fit", "floor \"f\" {\n  input = floor.g\n}\nfloor \"g\" {\n  input = source.a\n}\n", 8,
-			[]string{"Wrong kind of step", "source or combine"}},
+			[]string{`floor "f" reads floor.g for input, but input takes a source or combine step, not a floor step.`}},
 		{"a quoted reference is explained", "floor \"f\" {\n  input = \"source.a\"\n}\n", 8,
-			[]string{"Quoted step reference"}},
+			[]string{"A step reference is written without quotes.", "source.a"}},
 		{"a missing file is named", "source \"b\" {\n  files = [\"nope.txt\"]\n}\n", 8,
-			[]string{"Missing file", `"nope.txt"`}},
+			[]string{`There is no file "nope.txt"`}},
 		{"a file outside the folder is refused", "source \"b\" {\n  files = \"../x.txt\"\n}\n", 8,
-			[]string{"File outside the workflow"}},
+			[]string{`The file "../x.txt" lies outside the workflow's folder`, "--also-allow"}},
 		{"a missing required attribute is named", "floor \"f\" {\n}\n", 7,
-			[]string{"Missing required argument", `"input"`}},
+			[]string{`floor "f" does not set input, which it needs (there is no default).`, "Add input = …"}},
 		{"an unknown choice suggests the closest", "source \"b\" {\n  files = \"x.txt\"\n  label = \"alhpa\"\n}\n", 9,
-			[]string{"Unknown choice for label", `Did you mean "alpha"?`}},
+			[]string{`"alhpa"`, `Did you mean "alpha"?`}},
 		{"a kind's own check points at its attribute", "source \"b\" {\n  files = \"x.txt\"\n  scale = 0\n}\n", 9,
-			[]string{"scale: must not be zero"}},
+			[]string{"scale", "must not be zero"}},
 		{"a duplicate step is refused", "source \"a\" {\n  files = \"x.txt\"\n}\n", 7,
-			[]string{"Duplicate step", "source.a"}},
+			[]string{"There are two steps source.a, on line 4 and on line 7."}},
 		{"a cycle prints its path", "combine \"p\" {\n  inputs = [combine.q]\n}\ncombine \"q\" {\n  inputs = [combine.p]\n}\n", 7,
-			[]string{"cycle", "combine.p → combine.q → combine.p"}},
+			[]string{"Steps depend on each other in a cycle: combine.p → combine.q → combine.p."}},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
@@ -56,7 +56,7 @@ func TestDiagnosticsPointAtTheMistake(t *testing.T) {
 				t.Fatalf("no diagnostics; err = %v", err)
 			}
 			d := diags[0]
-			text := d.Summary + "; " + d.Detail
+			text := Message(d)
 			for _, w := range c.want {
 				if !strings.Contains(text, w) {
 					t.Errorf("diagnostic %q does not say %q", text, w)
@@ -80,7 +80,7 @@ func TestOverrideThatMatchesNothingIsAnError(t *testing.T) {
 func TestMissingAnalysisBlock(t *testing.T) {
 	p := newProject(t, map[string]string{"analysis.hcl": "source \"a\" { files = \"x.txt\" }\n", "x.txt": "1"})
 	_, err := p.load()
-	if err == nil || !strings.Contains(err.Error(), "Missing analysis block") {
+	if err == nil || !strings.Contains(err.Error(), "The workflow has no analysis block.") {
 		t.Fatalf("err = %v", err)
 	}
 }

@@ -1,6 +1,7 @@
 package workflow
 
 import (
+	"bytes"
 	"os"
 	"path/filepath"
 	"runtime"
@@ -74,6 +75,15 @@ func FuzzLoad(f *testing.F) {
 			if strings.Contains(d.Summary+d.Detail, "SECRET") {
 				t.Errorf("a message repeats a file outside the folder: %s", d.Detail)
 			}
+		}
+		// Printing them survives whatever line they point at, and stays short: a message and
+		// two lines of at most maxExcerptColumns runes (of four bytes at most) each.
+		var printed bytes.Buffer
+		if err := FormatDiagnostics(&printed, diags); err != nil {
+			t.Fatal(err)
+		}
+		if n := printed.Len(); n > len(diags)*(fuzzMaxMessage+2*(4*maxExcerptColumns+64)) {
+			t.Errorf("%d bytes printed for %d diagnostics", n, len(diags))
 		}
 		if w == nil {
 			return

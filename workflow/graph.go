@@ -16,6 +16,17 @@ func (w *Workflow) addresses() []string {
 	return out
 }
 
+// stepName is how a message names a step's block: search "dips".
+func stepName(s *Step) string { return s.Kind.Name() + " " + quote(s.Label) }
+
+// suggestRef is "Did you mean detrend.quiet?" for the closest of the addresses, or "".
+func suggestRef(addr string, addrs []string) string {
+	if near := nearest(addr, addrs); near != "" {
+		return "Did you mean " + clip(near) + "?"
+	}
+	return ""
+}
+
 // resolve checks every reference, records dependencies and orders the steps.
 func (w *Workflow) resolve() hcl.Diagnostics {
 	var diags hcl.Diagnostics
@@ -36,28 +47,29 @@ func (w *Workflow) resolve() hcl.Diagnostics {
 				dep := w.byAddr[addr]
 				if dep == nil {
 					kind, label, _ := strings.Cut(addr, ".")
-					detail := fmt.Sprintf("There is no step %s.", addr)
 					var same []string
 					for _, o := range w.Steps {
 						if o.Kind.Name() == kind {
-							same = append(same, o.Label)
+							same = append(same, kind+"."+o.Label)
 						}
 					}
+					summary := fmt.Sprintf("%s reads %s for %s, and the workflow has no step %s.", stepName(s), addr, name, addr)
+					detail := suggestRef(addr, w.addresses())
 					if len(same) > 0 {
-						detail = fmt.Sprintf("There is no %s step named %q.", kind, label) + suggest(label, same)
-					} else {
-						detail += suggest(addr, w.addresses())
+						summary = fmt.Sprintf("%s reads %s for %s, and there is no %s step %s.", stepName(s), addr, name, kind, quote(label))
+						detail = suggestRef(addr, same)
 					}
-					diags = append(diags, attrDiag(r, "Unknown step", detail))
+					diags = append(diags, attrDiag(r, summary, detail))
 					continue
 				}
 				if kinds := params[name]; len(kinds) > 0 && !contains(kinds, dep.Kind.Name()) {
-					diags = append(diags, attrDiag(r, "Wrong kind of step",
-						fmt.Sprintf("%s takes a %s step; %s is a %s step.", name, strings.Join(kinds, " or "), addr, dep.Kind.Name())))
+					diags = append(diags, attrDiag(r,
+						fmt.Sprintf("%s reads %s for %s, but %s takes a %s step, not a %s step.", stepName(s), addr, name, name, strings.Join(kinds, " or "), dep.Kind.Name()), ""))
 					continue
 				}
 				if dep == s {
-					diags = append(diags, attrDiag(r, "Step refers to itself", fmt.Sprintf("%s cannot take its own result.", s.Addr)))
+					diags = append(diags, attrDiag(r, fmt.Sprintf("%s reads its own result for %s.", stepName(s), name),
+						"A step can only take the results of other steps."))
 					continue
 				}
 				if !seen[dep] {
@@ -77,8 +89,8 @@ func (w *Workflow) resolve() hcl.Diagnostics {
 			path[i] = s.Addr
 		}
 		first := cycle[0]
-		return hcl.Diagnostics{{Severity: hcl.DiagError, Summary: "Steps depend on each other in a cycle",
-			Detail:  strings.Join(path, " → ") + ". A step can only take results of steps that do not need its own.",
+		return hcl.Diagnostics{{Severity: hcl.DiagError, Summary: "Steps depend on each other in a cycle: " + strings.Join(path, " → ") + ".",
+			Detail:  "A step can only take the results of steps that do not need its own.",
 			Subject: first.block.Ptr()}}
 	}
 	w.Order = order

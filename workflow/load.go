@@ -77,8 +77,8 @@ type Step struct {
 	Kind  steps.Kind
 	Label string
 	// Addr is "kind.label", the step's address.
-	Addr   string
-	Values steps.Values
+	Addr string
+	// Config points at the kind's configuration struct, decoded and checked.
 	Config any
 	// Deps are the referenced steps, each once, in the order first referenced.
 	Deps []*Step
@@ -117,23 +117,35 @@ func LoadWith(path string, reg steps.Registry, overrides []Override) (*Workflow,
 
 // LoadWithAccess is LoadWith with the folders beyond the workflow's own that the user lets
 // it use, and the bound on the data it reads.
+//
+// Every diagnostic is in our own words (words.go) and carries the line it is about, so
+// FormatDiagnostics can show it without opening the file again.
 func LoadWithAccess(path string, reg steps.Registry, overrides []Override, acc Access) (*Workflow, hcl.Diagnostics) {
-	w, diags := load(path, reg, overrides, acc)
-	return w, capDiagnostics(diags)
+	srcs := newSources(reg)
+	w, diags := load(path, reg, overrides, acc, srcs)
+	return w, srcs.finish(diags)
 }
 
-func load(path string, reg steps.Registry, overrides []Override, acc Access) (*Workflow, hcl.Diagnostics) {
+func load(path string, reg steps.Registry, overrides []Override, acc Access, srcs *sources) (*Workflow, hcl.Diagnostics) {
 	src, diags := readWorkflow(path)
 	if diags.HasErrors() {
 		return nil, diags
 	}
+	srcs.texts[path] = src
+	for _, o := range overrides {
+		// The name parseOverrides gives a --set value's diagnostics.
+		srcs.texts["--set "+o.Addr+"."+o.Attr] = []byte(o.Value)
+	}
 	f, diags := parseWorkflow(src, path)
+	if f != nil {
+		srcs.body, _ = f.Body.(*hclsyntax.Body)
+	}
 	if diags.HasErrors() {
 		return nil, diags
 	}
 	dir, err := filepath.Abs(filepath.Dir(path))
 	if err != nil {
-		return nil, hcl.Diagnostics{{Severity: hcl.DiagError, Summary: "Cannot find the workflow's folder", Detail: err.Error()}}
+		return nil, hcl.Diagnostics{{Severity: hcl.DiagError, Summary: fmt.Sprintf("The workflow's folder cannot be found: %v.", err)}}
 	}
 	fo, d := openFolders(dir, acc)
 	if d.HasErrors() {
@@ -161,8 +173,9 @@ func load(path string, reg steps.Registry, overrides []Override, acc Access) (*W
 			continue
 		}
 		if prev := w.catalogues[b.Labels[0]]; prev != nil {
-			diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "Duplicate catalogue",
-				Detail: fmt.Sprintf("There is already a catalogue %q.", b.Labels[0]), Subject: b.DefRange.Ptr()})
+			diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError,
+				Summary: fmt.Sprintf("There are two catalogue blocks %s, and each catalogue needs a label of its own.", quote(b.Labels[0])),
+				Detail:  "Rename one, or delete it.", Subject: b.DefRange.Ptr()})
 			continue
 		}
 		c, d := w.decodeCatalogue(b)
@@ -184,8 +197,8 @@ func load(path string, reg steps.Registry, overrides []Override, acc Access) (*W
 		}
 		if b.Type == settingsBlock {
 			if sawSettings {
-				diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "Duplicate analysis block",
-					Detail: "A workflow has one analysis block.", Subject: b.DefRange.Ptr()})
+				diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "This is a second analysis block, and a workflow has one.",
+					Detail: "Move its settings into the first and delete it.", Subject: b.DefRange.Ptr()})
 				continue
 			}
 			sawSettings = true
@@ -195,23 +208,25 @@ func load(path string, reg steps.Registry, overrides []Override, acc Access) (*W
 		s := &Step{Kind: reg[b.Type], Label: b.Labels[0], Addr: b.Type + "." + b.Labels[0], block: b.DefRange,
 			Refs: map[string][]string{}, Files: map[string][]*FileInput{}, Rows: map[string]*RowInput{}, attrRanges: map[string]hcl.Range{}}
 		if !hclsyntax.ValidIdentifier(s.Label) {
-			diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "Invalid step label",
-				Detail:  fmt.Sprintf("%q cannot be referenced as %s.<label>: use letters, digits, '_' and '-', starting with a letter.", s.Label, b.Type),
+			diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError,
+				Summary: fmt.Sprintf("The label %s cannot name a step, as other steps could not refer to it as %s.<label>.", quote(s.Label), b.Type),
+				Detail:  "A label holds letters, digits, '_' and '-', and starts with a letter.",
 				Subject: b.LabelRanges[0].Ptr()})
 			continue
 		}
 		if prev := w.byAddr[s.Addr]; prev != nil {
-			diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "Duplicate step",
-				Detail: fmt.Sprintf("There is already a step %s at %s.", s.Addr, prev.block), Subject: b.DefRange.Ptr()})
+			diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError,
+				Summary: fmt.Sprintf("There are two steps %s, on line %d and on line %d.", s.Addr, prev.block.Start.Line, b.DefRange.Start.Line),
+				Detail:  "Give each step a label of its own.", Subject: b.DefRange.Ptr()})
 			continue
 		}
 		diags = append(diags, w.decodeStep(s, b.Body)...)
 		w.Steps = append(w.Steps, s)
 		w.byAddr[s.Addr] = s
 	}
-	if !sawSettings {
-		diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "Missing analysis block",
-			Detail:  `A workflow starts with an analysis block naming it and its seed, e.g. analysis "my-star" { seed = 1 }.`,
+	if !sawSettings && !writesBlock(f, settingsBlock) { // one without a label is reported already
+		diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "The workflow has no analysis block.",
+			Detail:  `A workflow starts with one, naming the analysis and its seed, e.g. analysis "my-star" { seed = 1 }.`,
 			Subject: &hcl.Range{Filename: path, Start: hcl.InitialPos, End: hcl.InitialPos}})
 	}
 	if diags.HasErrors() {
@@ -233,6 +248,19 @@ func load(path string, reg steps.Registry, overrides []Override, acc Access) (*W
 	return w, diags
 }
 
+// writesBlock tells whether the file writes a block of this type at its top level, even one
+// the schema check refused.
+func writesBlock(f *hcl.File, typ string) bool {
+	if body, ok := f.Body.(*hclsyntax.Body); ok {
+		for _, b := range body.Blocks {
+			if b.Type == typ {
+				return true
+			}
+		}
+	}
+	return false
+}
+
 // settingsPlaces are the store and output paths as the analysis block writes them (or
 // their defaults), with where they are written.
 type settingsPlaces struct {
@@ -243,16 +271,14 @@ type settingsPlaces struct {
 func (w *Workflow) decodeSettings(b *hcl.Block, places *settingsPlaces) hcl.Diagnostics {
 	w.Name = b.Labels[0]
 	places.storeAt, places.outputAt = b.DefRange, b.DefRange
-	content, diags := b.Body.Content(&hcl.BodySchema{Attributes: []hcl.AttributeSchema{
-		{Name: "seed", Required: true}, {Name: "store"}, {Name: "output"},
-	}})
+	content, diags := b.Body.Content(bodySchemaOf(paramsOf[settingsAttrs]()))
 	if a := content.Attributes["seed"]; a != nil {
 		v, d := a.Expr.Value(nil)
 		diags = append(diags, d...)
 		if !d.HasErrors() {
 			f, ok := number(v)
 			if !ok || f != math.Trunc(f) || f < 0 || f > 1<<53 {
-				diags = append(diags, attrDiag(a.Expr.Range(), "Invalid seed", "The seed is a whole number from 0 to 2^53."))
+				diags = append(diags, attrDiag(a.Expr.Range(), "The seed must be a whole number from 0 to 2^53.", "For example seed = 4711."))
 			} else {
 				w.Seed = uint64(f)
 			}
@@ -270,7 +296,8 @@ func (w *Workflow) decodeSettings(b *hcl.Block, places *settingsPlaces) hcl.Diag
 		}
 		s, ok := str(v)
 		if !ok || s == "" {
-			diags = append(diags, attrDiag(a.Expr.Range(), "Invalid path", "Give a path as a string, relative to the workflow's folder."))
+			diags = append(diags, attrDiag(a.Expr.Range(), fmt.Sprintf("%s takes a path in quotes, relative to the workflow's folder.", name),
+				fmt.Sprintf("For example %s = %q.", name, map[string]string{"store": defaultStore, "output": defaultOutput}[name])))
 			continue
 		}
 		if name == "store" {
@@ -316,6 +343,9 @@ func str(v cty.Value) (string, bool) {
 	return v.AsString(), true
 }
 
+// attrDiag is an error at a place in the workflow. As in all our diagnostics, summary is
+// the first sentence of the message (what is wrong) and detail the rest (what to write
+// instead, or ""); Message joins them.
 func attrDiag(r hcl.Range, summary, detail string) *hcl.Diagnostic {
 	return &hcl.Diagnostic{Severity: hcl.DiagError, Summary: summary, Detail: detail, Subject: r.Ptr()}
 }

@@ -15,6 +15,15 @@ const (
 // suggest returns ` Did you mean "x"?` for the closest candidate within a small edit
 // distance, or "".
 func suggest(given string, candidates []string) string {
+	best := nearest(given, candidates)
+	if best == "" {
+		return ""
+	}
+	return " Did you mean " + quote(best) + "?"
+}
+
+// nearest is the closest candidate within a small edit distance, or "".
+func nearest(given string, candidates []string) string {
 	best, bestD := "", 3 // at most two edits away
 	n := utf8.RuneCountInString(given)
 	if n > maxSuggestRunes {
@@ -34,10 +43,7 @@ func suggest(given string, candidates []string) string {
 			best, bestD = c, d
 		}
 	}
-	if best == "" {
-		return ""
-	}
-	return " Did you mean " + quote(best) + "?"
+	return best
 }
 
 // editDistance is the Levenshtein distance between a and b, in runes.

@@ -5,6 +5,7 @@ import (
 	"io"
 	"os"
 	"sort"
+	"strings"
 
 	"github.com/hashicorp/hcl/v2"
 	"github.com/hashicorp/hcl/v2/hclsyntax"
@@ -22,35 +23,38 @@ import (
 // readWorkflow reads the workflow file, refusing one larger than maxWorkflowBytes before
 // reading it.
 func readWorkflow(path string) ([]byte, hcl.Diagnostics) {
-	bad := func(detail string) ([]byte, hcl.Diagnostics) {
-		return nil, hcl.Diagnostics{{Severity: hcl.DiagError, Summary: "Cannot read the workflow", Detail: detail}}
+	bad := func(summary, detail string) ([]byte, hcl.Diagnostics) {
+		return nil, hcl.Diagnostics{{Severity: hcl.DiagError, Summary: summary, Detail: detail}}
+	}
+	unreadable := func(err error) ([]byte, hcl.Diagnostics) {
+		return bad(fmt.Sprintf("The workflow %s cannot be read: %v.", path, unwrapPath(err)), "")
 	}
 	f, err := os.OpenFile(path, os.O_RDONLY|openNoWait, 0)
 	if err != nil {
 		if os.IsNotExist(err) {
-			return bad(fmt.Sprintf("There is no workflow file %s.", quote(path)))
+			return bad(fmt.Sprintf("There is no workflow file %s.", path),
+				"Name the workflow on the command line (by default dipline reads analysis.hcl in the current folder); dipline starter writes one for a light curve.")
 		}
-		return bad(fmt.Sprintf("%s: %v.", path, unwrapPath(err)))
+		return unreadable(err)
 	}
 	defer f.Close()
 	st, err := f.Stat()
 	if err != nil {
-		return bad(fmt.Sprintf("%s: %v.", path, unwrapPath(err)))
+		return unreadable(err)
 	}
 	if st.IsDir() || !st.Mode().IsRegular() {
-		return bad(fmt.Sprintf("%s is not a regular file.", path))
+		return bad(fmt.Sprintf("%s is not a regular file, so it cannot be a workflow.", path), "Name the workflow's file.")
 	}
 	tooLarge := func(n int64) ([]byte, hcl.Diagnostics) {
-		return nil, hcl.Diagnostics{{Severity: hcl.DiagError, Summary: "Workflow file too large", Detail: fmt.Sprintf(
-			"%s is %s; a workflow file may be at most %s (a whole analysis takes a few kilobytes), so that a damaged file cannot exhaust memory. Keep data in data files and name them.",
-			path, FormatSize(n), FormatSize(maxWorkflowBytes))}}
+		return bad(fmt.Sprintf("The workflow %s is %s, and a workflow file may be at most %s.", path, FormatSize(n), FormatSize(maxWorkflowBytes)),
+			"A whole analysis takes a few kilobytes, and the bound keeps a damaged file from exhausting memory. Keep data in data files and name them.")
 	}
 	if st.Size() > maxWorkflowBytes {
 		return tooLarge(st.Size())
 	}
 	src, err := io.ReadAll(io.LimitReader(f, maxWorkflowBytes+1))
 	if err != nil {
-		return bad(fmt.Sprintf("%s: %v.", path, unwrapPath(err)))
+		return unreadable(err)
 	}
 	if len(src) > maxWorkflowBytes {
 		return tooLarge(int64(len(src)))
@@ -59,12 +63,15 @@ func readWorkflow(path string) ([]byte, hcl.Diagnostics) {
 }
 
 // parseWorkflow parses a workflow's text after checking its tokens, then checks every
-// expression in it. A panic inside the parser is reported, not passed on.
+// expression in it. A panic inside the parser is reported, not passed on. With errors, the
+// file is what the parser made of it (or nil), for the messages to name blocks; it is not
+// to be loaded.
 func parseWorkflow(src []byte, filename string) (f *hcl.File, diags hcl.Diagnostics) {
 	defer func() {
 		if p := recover(); p != nil {
-			f, diags = nil, hcl.Diagnostics{{Severity: hcl.DiagError, Summary: "Unreadable workflow",
-				Detail: fmt.Sprintf("%s could not be parsed (the parser failed: %v); check its brackets and quotes.", filename, p)}}
+			f, diags = nil, hcl.Diagnostics{{Severity: hcl.DiagError,
+				Summary: fmt.Sprintf("The workflow %s could not be parsed (the parser failed: %v).", filename, p),
+				Detail:  "Check its brackets and quotes."}}
 		}
 	}()
 	toks, _ := hclsyntax.LexConfig(src, filename, hcl.InitialPos)
@@ -74,13 +81,10 @@ func parseWorkflow(src []byte, filename string) (f *hcl.File, diags hcl.Diagnost
 	toks = nil
 	f, diags = hclsyntax.ParseConfig(src, filename, hcl.InitialPos)
 	if diags.HasErrors() {
-		return nil, diags
+		return f, diags
 	}
 	if body, ok := f.Body.(*hclsyntax.Body); ok {
 		diags = append(diags, checkBody(body)...)
-	}
-	if diags.HasErrors() {
-		return nil, diags
 	}
 	return f, diags
 }
@@ -89,8 +93,8 @@ func parseWorkflow(src []byte, filename string) (f *hcl.File, diags hcl.Diagnost
 func parseValue(src []byte, filename string) (e hclsyntax.Expression, diags hcl.Diagnostics) {
 	defer func() {
 		if p := recover(); p != nil {
-			e, diags = nil, hcl.Diagnostics{{Severity: hcl.DiagError, Summary: "Unreadable value",
-				Detail: fmt.Sprintf("%s could not be parsed (the parser failed: %v).", filename, p)}}
+			e, diags = nil, hcl.Diagnostics{{Severity: hcl.DiagError,
+				Summary: fmt.Sprintf("The value of %s could not be parsed (the parser failed: %v).", filename, p)}}
 		}
 	}()
 	toks, _ := hclsyntax.LexExpression(src, filename, hcl.InitialPos)
@@ -108,7 +112,10 @@ func parseValue(src []byte, filename string) (e hclsyntax.Expression, diags hcl.
 }
 
 // plainValues is said wherever something computed is refused.
-const plainValues = "A workflow holds plain values: strings, numbers, true or false, lists, objects, step references (kind.label) and catalogue rows (catalogue.label[\"id\"]); nothing in it is computed."
+const plainValues = "A workflow holds plain values: strings, numbers, true or false, lists, objects, step references (kind.label) and catalogue rows (catalogue.label[\"id\"])."
+
+// notComputed ends the first sentence of a refusal of something computed.
+const notComputed = ", and nothing in a workflow is computed."
 
 // checkTokens refuses, before parsing, nesting deeper than maxNesting, templates, operators
 // and over-long strings and numbers. It stops at the first nesting error (the rest of the
@@ -131,8 +138,8 @@ func checkTokens(toks hclsyntax.Tokens) hcl.Diagnostics {
 			hclsyntax.TokenOHeredoc, hclsyntax.TokenTemplateInterp, hclsyntax.TokenTemplateControl:
 			depth++
 			if depth > maxNesting {
-				add(t.Range, "Nesting too deep", fmt.Sprintf(
-					"Brackets, braces and quotes nest more than %d deep here; a workflow needs four or five levels, and the limit keeps a damaged file from exhausting the parser's stack.", maxNesting))
+				add(t.Range, fmt.Sprintf("Brackets, braces and quotes nest more than %d deep here.", maxNesting),
+					"A workflow needs four or five levels; the bound keeps a damaged file from exhausting the parser's stack.")
 				return diags
 			}
 			if t.Type == hclsyntax.TokenOQuote || t.Type == hclsyntax.TokenOHeredoc {
@@ -149,16 +156,15 @@ func checkTokens(toks hclsyntax.Tokens) hcl.Diagnostics {
 			str.bytes += len(t.Bytes)
 			if str.bytes > maxStringBytes {
 				str.open = false
-				if !add(hcl.RangeBetween(str.start, t.Range), "String too long", fmt.Sprintf(
-					"This string is longer than %s bytes; strings in a workflow hold paths, quantities and names, and the longest path Linux accepts is 4,096 bytes. Keep long text in a file.",
-					thousands(maxStringBytes))) {
+				if !add(hcl.RangeBetween(str.start, t.Range), fmt.Sprintf("This string is longer than %s bytes.", thousands(maxStringBytes)),
+					"Strings in a workflow hold paths, quantities and names, and the longest path Linux accepts is 4,096 bytes. Keep long text in a file.") {
 					return diags
 				}
 			}
 		case hclsyntax.TokenNumberLit:
-			if len(t.Bytes) > maxNumberChars && !add(t.Range, "Number too long", fmt.Sprintf(
-				"This number is written with %s characters; %d are enough for any number a float64 holds.",
-				thousands(len(t.Bytes)), maxNumberChars)) {
+			if len(t.Bytes) > maxNumberChars && !add(t.Range,
+				fmt.Sprintf("This number is written with %s characters, and %d are enough for any number a float64 holds.", thousands(len(t.Bytes)), maxNumberChars),
+				"Write it with fewer digits, e.g. 1.5e-3.") {
 				return diags
 			}
 		}
@@ -173,21 +179,22 @@ func checkTokens(toks hclsyntax.Tokens) hcl.Diagnostics {
 func refusedToken(toks hclsyntax.Tokens, i int) (summary, detail string) {
 	switch toks[i].Type {
 	case hclsyntax.TokenTemplateInterp, hclsyntax.TokenTemplateControl:
-		return "Template in a string", "Strings in a workflow are taken as written: ${ … } and %{ … } are not filled in. Write the text itself; to keep a literal \"${\" or \"%{\", write \"$${\" or \"%%{\"."
+		return "Strings in a workflow are taken as written: ${ … } and %{ … } are not filled in.",
+			"Write the text itself; to keep a literal \"${\" or \"%{\", write \"$${\" or \"%%{\"."
 	case hclsyntax.TokenMinus:
 		if next := nextToken(toks, i); next == nil || next.Type != hclsyntax.TokenNumberLit {
-			return "Minus sign without a number", "A minus sign belongs directly before a number, as in -0.5. " + plainValues
+			return "A minus sign belongs directly before a number, as in -0.5.", plainValues
 		}
 	case hclsyntax.TokenStar, hclsyntax.TokenSlash, hclsyntax.TokenPlus, hclsyntax.TokenPercent,
 		hclsyntax.TokenEqualOp, hclsyntax.TokenNotEqual, hclsyntax.TokenLessThan, hclsyntax.TokenLessThanEq,
 		hclsyntax.TokenGreaterThan, hclsyntax.TokenGreaterThanEq, hclsyntax.TokenAnd, hclsyntax.TokenOr,
 		hclsyntax.TokenBang, hclsyntax.TokenQuestion:
-		return "Operator in a workflow", fmt.Sprintf("%q computes something. %s Write the value itself, e.g. 0.5 rather than 1/2.", toks[i].Bytes, plainValues)
+		return fmt.Sprintf("%q computes something%s", toks[i].Bytes, notComputed), plainValues + " Write the value itself, e.g. 0.5 rather than 1/2."
 	case hclsyntax.TokenEllipsis, hclsyntax.TokenFatArrow:
-		return "Loop in a workflow", fmt.Sprintf("%q belongs to a for expression. %s Write the list or object out.", toks[i].Bytes, plainValues)
+		return fmt.Sprintf("%q belongs to a for expression%s", toks[i].Bytes, notComputed), plainValues + " Write the list or object out."
 	case hclsyntax.TokenIdent:
 		if string(toks[i].Bytes) == "for" && i > 0 && opensCollection(toks, i) {
-			return "Loop in a workflow", "A for expression computes a list or an object. " + plainValues + " Write the list or object out."
+			return "This is a for expression" + notComputed, plainValues + " Write the list or object out."
 		}
 	}
 	return "", ""
@@ -240,7 +247,7 @@ func checkBody(b *hclsyntax.Body) hcl.Diagnostics {
 // objects and parentheses, which the token check has bounded to maxNesting.
 func checkExpr(e hclsyntax.Expression) hcl.Diagnostics {
 	refuse := func(what, instead string) hcl.Diagnostics {
-		return hcl.Diagnostics{attrDiag(e.Range(), "Computed value", fmt.Sprintf("This is %s. %s %s", what, plainValues, instead))}
+		return hcl.Diagnostics{attrDiag(e.Range(), "This is "+what+notComputed, strings.TrimSpace(plainValues+" "+instead))}
 	}
 	switch e := e.(type) {
 	case *hclsyntax.LiteralValueExpr, *hclsyntax.ScopeTraversalExpr:
@@ -295,9 +302,8 @@ func checkExpr(e hclsyntax.Expression) hcl.Diagnostics {
 }
 
 func tooMany(r hcl.Range, n int) hcl.Diagnostics {
-	return hcl.Diagnostics{attrDiag(r, "List too long", fmt.Sprintf(
-		"This list or object has %s items; the limit is %s (the longest list a workflow needs, its light curve's files, holds tens).",
-		thousands(n), thousands(maxListItems)))}
+	return hcl.Diagnostics{attrDiag(r, fmt.Sprintf("This list or object has %s items, and the bound is %s.", thousands(n), thousands(maxListItems)),
+		"The longest list a workflow needs, its light curve's files, holds tens; the bound keeps a damaged file from exhausting memory.")}
 }
 
 // capDiagnostics keeps the first maxDiagnostics errors and says how many more there were.
@@ -306,6 +312,7 @@ func capDiagnostics(diags hcl.Diagnostics) hcl.Diagnostics {
 		return diags
 	}
 	out := append(hcl.Diagnostics(nil), diags[:maxDiagnostics]...)
-	return append(out, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "More mistakes",
-		Detail: fmt.Sprintf("… and %s more like these; mend the ones above first.", thousands(len(diags)-maxDiagnostics))})
+	return append(out, &hcl.Diagnostic{Severity: hcl.DiagError,
+		Summary: fmt.Sprintf("… and %s more mistakes like these.", thousands(len(diags)-maxDiagnostics)),
+		Detail:  "Mend the ones above first."})
 }

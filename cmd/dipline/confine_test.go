@@ -154,7 +154,7 @@ func TestASharedWorkflowCannotLeaveItsFolder(t *testing.T) {
 			if code != exitBadUser {
 				t.Errorf("exit %d, want %d\n%s%s", code, exitBadUser, out, errs)
 			}
-			for _, want := range []string{fmt.Sprintf("analysis.hcl:%d,", c.line), "outside the workflow", "--also-allow"} {
+			for _, want := range []string{fmt.Sprintf("analysis.hcl line %d: ", c.line), "outside the workflow's folder", "--also-allow"} {
 				if !strings.Contains(errs, want) {
 					t.Errorf("stderr does not say %q:\n%s", want, errs)
 				}
@@ -215,7 +215,7 @@ func TestALockFileThatIsNotOursSurvivesARun(t *testing.T) {
 				args = append(args, "--also-allow", s.private)
 			}
 			code, out, errs := s.dipline(args...)
-			if code != exitBadUser || !strings.Contains(errs, "analysis.hcl:3,") {
+			if code != exitBadUser || !strings.Contains(errs, "analysis.hcl line 3: ") {
 				t.Errorf("exit %d, want %d naming line 3:\n%s%s", code, exitBadUser, out, errs)
 			}
 			if after := fingerprint(t, s.private); after != before {
@@ -240,11 +240,11 @@ func TestHostileWorkflowsAreRefusedWithinASecond(t *testing.T) {
 		name, text, want string
 		line             int
 	}{
-		{"nested template loops", "analysis \"a\" {\n  seed = 1\n  store = \"" + loops + "\"\n}\n", "Template in a string", 3},
-		{"thirty thousand nested brackets", "analysis \"a\" {\n  seed = 1\n  store = " + strings.Repeat("[", 30000) + strings.Repeat("]", 30000) + "\n}\n", "Nesting too deep", 3},
-		{"a hundred thousand nested brackets", "analysis \"a\" {\n  seed = " + strings.Repeat("(", 100000) + "1" + strings.Repeat(")", 100000) + "\n}\n", "Workflow file too large", 0},
-		{"a for expression", "analysis \"a\" {\n  seed = 1\n}\nphotometry \"p\" {\n  files = [for f in [\"lc.csv\"] : f]\n}\n", "Loop in a workflow", 5},
-		{"a string of five kilobytes", "analysis \"a\" {\n  seed = 1\n  store = \"" + strings.Repeat("s", 5000) + "\"\n}\n", "String too long", 3},
+		{"nested template loops", "analysis \"a\" {\n  seed = 1\n  store = \"" + loops + "\"\n}\n", "${ … } and %{ … } are not filled in", 3},
+		{"thirty thousand nested brackets", "analysis \"a\" {\n  seed = 1\n  store = " + strings.Repeat("[", 30000) + strings.Repeat("]", 30000) + "\n}\n", "nest more than 32 deep here", 3},
+		{"a hundred thousand nested brackets", "analysis \"a\" {\n  seed = " + strings.Repeat("(", 100000) + "1" + strings.Repeat(")", 100000) + "\n}\n", "a workflow file may be at most 64 KiB", 0},
+		{"a for expression", "analysis \"a\" {\n  seed = 1\n}\nphotometry \"p\" {\n  files = [for f in [\"lc.csv\"] : f]\n}\n", "This is a for expression, and nothing in a workflow is computed.", 5},
+		{"a string of five kilobytes", "analysis \"a\" {\n  seed = 1\n  store = \"" + strings.Repeat("s", 5000) + "\"\n}\n", "This string is longer than 4,096 bytes.", 3},
 	}
 	for _, c := range cases {
 		t.Run(c.name+" exit with status 2 at their line", func(t *testing.T) {
@@ -258,7 +258,7 @@ func TestHostileWorkflowsAreRefusedWithinASecond(t *testing.T) {
 			if code != exitBadUser || !strings.Contains(errs, c.want) {
 				t.Errorf("exit %d, want %d and %q:\n%.500s", code, exitBadUser, c.want, errs)
 			}
-			if c.line > 0 && !strings.Contains(errs, fmt.Sprintf("analysis.hcl:%d,", c.line)) {
+			if c.line > 0 && !strings.Contains(errs, fmt.Sprintf("analysis.hcl line %d: ", c.line)) {
 				t.Errorf("stderr does not name line %d:\n%.500s", c.line, errs)
 			}
 		})
@@ -276,7 +276,7 @@ func TestACatalogueWithAMillionColumnsGivesAShortMessage(t *testing.T) {
 	f.write("stars.csv", b.String())
 	f.write("analysis.hcl", starFlow)
 	code, _, errs := f.dipline("check")
-	if code != exitBadUser || !strings.Contains(errs, "analysis.hcl:6,") || !strings.Contains(errs, "stars.csv:1: a row of more than 10,000 cells") {
+	if code != exitBadUser || !strings.Contains(errs, "analysis.hcl line 6: ") || !strings.Contains(errs, "stars.csv:1: a row of more than 10,000 cells") {
 		t.Errorf("exit %d:\n%.1000s", code, errs)
 	}
 	// One line, where the whole header was repeated in each of four messages (35 MB).
@@ -360,7 +360,7 @@ func TestASparseGigabyteLightCurveIsRefusedInLittleMemory(t *testing.T) {
 		t.Run(command+" refuses it with a peak of at most 200 MB", func(t *testing.T) {
 			code, errs, rss := peakRSS(t, f.dir, command)
 			t.Logf("dipline %s: exit %d, peak RSS %.1f MB (VmHWM)", command, code, float64(rss)/1e6)
-			if code != exitBadUser || !strings.Contains(errs, "analysis.hcl:6,") || !strings.Contains(errs, `"lc.csv" is 1 GiB`) {
+			if code != exitBadUser || !strings.Contains(errs, "analysis.hcl line 6: ") || !strings.Contains(errs, `"lc.csv" is 1 GiB`) {
 				t.Errorf("exit %d:\n%s", code, errs)
 			}
 			if rss > 200e6 {

@@ -37,7 +37,7 @@ const usage = `dipline — transit analyses as one workflow file, recomputed onl
 Usage:
   dipline run     [workflow.hcl] [--workers N] [--events FILE] [--wait DURATION] [--set kind.label.attr=value]
   dipline check   [workflow.hcl]                 validate the workflow and its data without computing
-  dipline pending [workflow.hcl]                 what a run would recompute, and why
+  dipline pending [workflow.hcl]                 what a run would compute, and why
   dipline trace   [workflow.hcl] kind.label[/figure] [--run RUN]
                                                  the chain from a result down to its input files
   dipline runs    [workflow.hcl]                 the runs recorded in the store
@@ -48,7 +48,8 @@ Usage:
                                                  keep a run (and all it used) safe from pruning
   dipline store   stats|verify|prune|merge|salvage [workflow.hcl] [options]
                                                  look after the store (dipline store help)
-  dipline kinds                                  the step kinds and their attributes
+  dipline kinds   [BLOCK]                        the block types a workflow may hold, and their
+                                                 attributes (one, when named)
   dipline starter LIGHTCURVE [--out analysis.hcl] write a starter workflow for a light curve
 
 The workflow file defaults to analysis.hcl in the current folder. A workflow reads and
@@ -159,30 +160,16 @@ func (c *cli) load(path string, overrides []workflow.Override) (*workflow.Workfl
 	return w, w != nil && !diags.HasErrors()
 }
 
+// printDiags prints a load's diagnostics in the workflow package's layout: the file and
+// line, the message, and the line with a caret under what is wrong.
 func (c *cli) printDiags(diags hcl.Diagnostics) {
-	for _, d := range diags {
-		sev := "error"
-		if d.Severity == hcl.DiagWarning {
-			sev = "warning"
-		}
-		where := ""
-		if d.Subject != nil {
-			where = fmt.Sprintf("%s:%d,%d-%d: ", d.Subject.Filename, d.Subject.Start.Line, d.Subject.Start.Column, d.Subject.End.Column)
-			if d.Subject.End.Line != d.Subject.Start.Line {
-				where = fmt.Sprintf("%s:%d,%d: ", d.Subject.Filename, d.Subject.Start.Line, d.Subject.Start.Column)
-			}
-		}
-		fmt.Fprintf(c.err, "%s%s: %s", where, sev, d.Summary)
-		if d.Detail != "" {
-			fmt.Fprintf(c.err, "; %s", d.Detail)
-		}
-		fmt.Fprintln(c.err)
-	}
+	workflow.FormatDiagnostics(c.err, diags)
 }
 
 // exitFor picks the exit status for an error from a run: 1 when any failure is a fault of
 // the program or the store (or the run was interrupted), else 2 when the user's data or
-// settings are at fault.
+// settings are at fault, including a setting a step refused only once it ran (a
+// *workflow.SettingError, which names the file and line).
 func exitFor(err error) int {
 	if damagedStore(err) { // a damaged store file is not the program's fault (store.go)
 		return exitBadUser

@@ -119,7 +119,11 @@ func TestTypoGivesItsLine(t *testing.T) {
 	if code != exitBadUser {
 		t.Fatalf("exit %d, want %d", code, exitBadUser)
 	}
-	if !strings.Contains(errs, "analysis.hcl:16,") || !strings.Contains(errs, `Did you mean "quiet"?`) {
+	// The file and line, the message with a suggestion, the line itself and a caret line.
+	want := `analysis.hcl line 16: search "dips" reads detrend.quite for light_curve, and there is no detrend step "quite". Did you mean detrend.quiet?` + "\n" +
+		"   16 |   light_curve = detrend.quite\n" +
+		"      |   "
+	if !strings.Contains(errs, want) || !strings.Contains(errs, "^^^^^^^^^^^^^\n") {
 		t.Fatalf("diagnostic does not give the line and a suggestion:\n%s", errs)
 	}
 }
@@ -171,7 +175,8 @@ func TestPendingAfterADetrendChange(t *testing.T) {
 	if code != 0 {
 		t.Fatalf("pending: exit %d", code)
 	}
-	for _, want := range []string{"reuse      photometry.raw", "recompute  detrend.quiet", "span changed: 0.5 d → 0.6 d", "recompute  search.dips"} {
+	for _, want := range []string{"stored      photometry.raw", "to compute  detrend.quiet", "because span changed: 0.5 d → 0.6 d",
+		"depends     search.dips", "because it reads the result of detrend.quiet, which is to compute"} {
 		if !strings.Contains(out, want) {
 			t.Errorf("pending output lacks %q:\n%s", want, out)
 		}
@@ -307,7 +312,7 @@ func TestCatalogueRevisionAndDiff(t *testing.T) {
 	// A closer star is brighter at fixed Ks: the radius grows. 40 → 39 mas moves M_Ks by
 	// 5 log10(40/39) = 0.055 mag, about 1.9 % in radius (Mann et al. 2015 slope near
 	// M_Ks = 6), which is about 0.6 of the relation's 2.9 % scatter.
-	for _, want := range []string{"changed    star.host", `column parallax: 40 → 39`, "radius", "moved 0."} {
+	for _, want := range []string{"new result  star.host", `column parallax: 40 → 39`, "radius", "moved 0."} {
 		if !strings.Contains(out, want) {
 			t.Errorf("diff output lacks %q:\n%s", want, out)
 		}
