@@ -165,10 +165,37 @@ func load(path string, reg steps.Registry, overrides []Override, acc Access, src
 	}
 	content, d := f.Body.Content(schema)
 	diags = append(diags, d...)
-
 	// Catalogues first: steps name their rows.
+	diags = append(diags, w.decodeCatalogues(content.Blocks)...)
+	places, sawSettings, d := w.decodeBlocks(content.Blocks, reg, path)
+	diags = append(diags, d...)
+	if !sawSettings && !writesBlock(f, settingsBlock) { // one without a label is reported already
+		diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "The workflow has no analysis block.",
+			Detail:  `A workflow starts with one, naming the analysis and its seed, e.g. analysis "my-star" { seed = 1 }.`,
+			Subject: &hcl.Range{Filename: path, Start: hcl.InitialPos, End: hcl.InitialPos}})
+	}
+	// Each stage needs the one before it clean; the folders are made last, so that a
+	// workflow with mistakes makes none.
+	for _, stage := range []func() hcl.Diagnostics{
+		w.checkOverridesUsed, w.resolve, func() hcl.Diagnostics { return w.place(places) },
+	} {
+		if diags.HasErrors() {
+			return nil, diags
+		}
+		diags = append(diags, stage()...)
+	}
+	if diags.HasErrors() {
+		return nil, diags
+	}
+	return w, diags
+}
+
+// decodeCatalogues reads every catalogue block, each label once; a catalogue that does not
+// load is marked unreadable, so the steps naming it are not told it does not exist.
+func (w *Workflow) decodeCatalogues(blocks hcl.Blocks) hcl.Diagnostics {
+	var diags hcl.Diagnostics
 	w.catalogues, w.unreadable = map[string]*Catalogue{}, map[string]bool{}
-	for _, b := range content.Blocks {
+	for _, b := range blocks {
 		if b.Type != catalogueBlock {
 			continue
 		}
@@ -187,65 +214,52 @@ func load(path string, reg steps.Registry, overrides []Override, acc Access, src
 			w.unreadable[b.Labels[0]] = true
 		}
 	}
+	return diags
+}
+
+// decodeBlocks reads the analysis block (one) and every step block, and returns where the
+// store and results go and whether there was an analysis block.
+func (w *Workflow) decodeBlocks(blocks hcl.Blocks, reg steps.Registry, path string) (settingsPlaces, bool, hcl.Diagnostics) {
+	var diags hcl.Diagnostics
 	sawSettings := false
 	places := settingsPlaces{store: defaultStore, output: defaultOutput,
 		storeAt: hcl.Range{Filename: path, Start: hcl.InitialPos, End: hcl.InitialPos}}
 	places.outputAt = places.storeAt
-	for _, b := range content.Blocks {
-		if b.Type == catalogueBlock {
-			continue
-		}
-		if b.Type == settingsBlock {
-			if sawSettings {
-				diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "This is a second analysis block, and a workflow has one.",
-					Detail: "Move its settings into the first and delete it.", Subject: b.DefRange.Ptr()})
-				continue
-			}
+	for _, b := range blocks {
+		switch {
+		case b.Type == catalogueBlock:
+		case b.Type == settingsBlock && sawSettings:
+			diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "This is a second analysis block, and a workflow has one.",
+				Detail: "Move its settings into the first and delete it.", Subject: b.DefRange.Ptr()})
+		case b.Type == settingsBlock:
 			sawSettings = true
 			diags = append(diags, w.decodeSettings(b, &places)...)
-			continue
+		default:
+			diags = append(diags, w.decodeStepBlock(b, reg[b.Type])...)
 		}
-		s := &Step{Kind: reg[b.Type], Label: b.Labels[0], Addr: b.Type + "." + b.Labels[0], block: b.DefRange,
-			Refs: map[string][]string{}, Files: map[string][]*FileInput{}, Rows: map[string]*RowInput{}, attrRanges: map[string]hcl.Range{}}
-		if !hclsyntax.ValidIdentifier(s.Label) {
-			diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError,
-				Summary: fmt.Sprintf("The label %s cannot name a step, as other steps could not refer to it as %s.<label>.", quote(s.Label), b.Type),
-				Detail:  "A label holds letters, digits, '_' and '-', and starts with a letter.",
-				Subject: b.LabelRanges[0].Ptr()})
-			continue
-		}
-		if prev := w.byAddr[s.Addr]; prev != nil {
-			diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError,
-				Summary: fmt.Sprintf("There are two steps %s, on line %d and on line %d.", s.Addr, prev.block.Start.Line, b.DefRange.Start.Line),
-				Detail:  "Give each step a label of its own.", Subject: b.DefRange.Ptr()})
-			continue
-		}
-		diags = append(diags, w.decodeStep(s, b.Body)...)
-		w.Steps = append(w.Steps, s)
-		w.byAddr[s.Addr] = s
 	}
-	if !sawSettings && !writesBlock(f, settingsBlock) { // one without a label is reported already
-		diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "The workflow has no analysis block.",
-			Detail:  `A workflow starts with one, naming the analysis and its seed, e.g. analysis "my-star" { seed = 1 }.`,
-			Subject: &hcl.Range{Filename: path, Start: hcl.InitialPos, End: hcl.InitialPos}})
+	return places, sawSettings, diags
+}
+
+// decodeStepBlock reads one step block under a label that is a name and new.
+func (w *Workflow) decodeStepBlock(b *hcl.Block, kind steps.Kind) hcl.Diagnostics {
+	s := &Step{Kind: kind, Label: b.Labels[0], Addr: b.Type + "." + b.Labels[0], block: b.DefRange,
+		Refs: map[string][]string{}, Files: map[string][]*FileInput{}, Rows: map[string]*RowInput{}, attrRanges: map[string]hcl.Range{}}
+	if !hclsyntax.ValidIdentifier(s.Label) {
+		return hcl.Diagnostics{{Severity: hcl.DiagError,
+			Summary: fmt.Sprintf("The label %s cannot name a step, as other steps could not refer to it as %s.<label>.", quote(s.Label), b.Type),
+			Detail:  "A label holds letters, digits, '_' and '-', and starts with a letter.",
+			Subject: b.LabelRanges[0].Ptr()}}
 	}
-	if diags.HasErrors() {
-		return nil, diags
+	if prev := w.byAddr[s.Addr]; prev != nil {
+		return hcl.Diagnostics{{Severity: hcl.DiagError,
+			Summary: fmt.Sprintf("There are two steps %s, on line %d and on line %d.", s.Addr, prev.block.Start.Line, b.DefRange.Start.Line),
+			Detail:  "Give each step a label of its own.", Subject: b.DefRange.Ptr()}}
 	}
-	diags = append(diags, w.checkOverridesUsed()...)
-	if diags.HasErrors() {
-		return nil, diags
-	}
-	diags = append(diags, w.resolve()...)
-	if diags.HasErrors() {
-		return nil, diags
-	}
-	// Last, so that a workflow with mistakes makes no folders.
-	diags = append(diags, w.place(places)...)
-	if diags.HasErrors() {
-		return nil, diags
-	}
-	return w, diags
+	diags := w.decodeStep(s, b.Body)
+	w.Steps = append(w.Steps, s)
+	w.byAddr[s.Addr] = s
+	return diags
 }
 
 // writesBlock tells whether the file writes a block of this type at its top level, even one
