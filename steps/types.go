@@ -89,6 +89,56 @@ type paramType interface {
 	key(k KeyWriter, p *Param, v any) error
 	// render writes a present value for people.
 	render(p *Param, v any) string
+	// takes says in words what the attribute takes, for the kinds listing.
+	takes(p *Param) string
+}
+
+// Takes says in words what the attribute takes: "a time with its unit (s, min, h, d, yr)".
+func (p Param) Takes() string { return p.Type.impl().takes(&p) }
+
+// DefaultAsWritten is the default as it would stand in a workflow: numbers and true or
+// false bare, strings quoted, ranges and lists in brackets; "" when there is none.
+func (p Param) DefaultAsWritten() string {
+	if p.Default == "" {
+		return ""
+	}
+	w, err := p.Type.impl().fromTag(p.Default)
+	if err != nil {
+		return p.Default
+	}
+	return w.hcl()
+}
+
+// hcl writes a written value as a workflow writes it.
+func (w Written) hcl() string {
+	switch w.Kind {
+	case WrittenNumber:
+		return w.Text
+	case WrittenBool:
+		return strconv.FormatBool(w.Bool)
+	case WrittenString:
+		return strconv.Quote(w.Str)
+	case WrittenList:
+		parts := make([]string, len(w.List))
+		for i, e := range w.List {
+			parts[i] = e.hcl()
+		}
+		return "[" + strings.Join(parts, ", ") + "]"
+	case WrittenRef, WrittenRow:
+		return w.Str
+	}
+	return ""
+}
+
+// unitsOf lists a dimension's units for messages: " (s, min, h, d, yr)".
+func unitsOf(p *Param) string { return " (" + strings.Join(p.Dim.Names(), ", ") + ")" }
+
+// stepsAccepted names the steps a reference may point at.
+func stepsAccepted(p *Param) string {
+	if len(p.Kinds) == 0 {
+		return "any step"
+	}
+	return "a " + strings.Join(p.Kinds, " or ") + " step"
 }
 
 // impl returns the implementation of a parameter type.
@@ -147,6 +197,8 @@ func numberTag(text string) (Written, error) {
 
 type numberType struct{}
 
+func (numberType) takes(*Param) string { return "a number" }
+
 func (numberType) goType() reflect.Type                   { return reflect.TypeFor[float64]() }
 func (numberType) fromTag(t string) (Written, error)      { return numberTag(t) }
 func (numberType) render(_ *Param, v any) string          { return formatNumber(v.(float64)) }
@@ -159,6 +211,8 @@ func (numberType) read(p *Param, w Written) (any, error) {
 }
 
 type integerType struct{}
+
+func (integerType) takes(*Param) string { return "a whole number" }
 
 func (integerType) goType() reflect.Type              { return reflect.TypeFor[int]() }
 func (integerType) fromTag(t string) (Written, error) { return numberTag(t) }
@@ -175,6 +229,13 @@ func (integerType) read(p *Param, w Written) (any, error) {
 }
 
 type stringType struct{}
+
+func (stringType) takes(p *Param) string {
+	if len(p.Choices) > 0 {
+		return "one of " + quoteList(p.Choices)
+	}
+	return "a string"
+}
 
 func (stringType) goType() reflect.Type              { return reflect.TypeFor[string]() }
 func (stringType) fromTag(t string) (Written, error) { return plainTag(t) }
@@ -194,6 +255,8 @@ func (stringType) read(p *Param, w Written) (any, error) {
 }
 
 type boolType struct{}
+
+func (boolType) takes(*Param) string { return "true or false" }
 
 func (boolType) goType() reflect.Type          { return reflect.TypeFor[bool]() }
 func (boolType) render(_ *Param, v any) string { return strconv.FormatBool(v.(bool)) }
@@ -217,6 +280,8 @@ func (boolType) read(p *Param, w Written) (any, error) {
 }
 
 type quantityType struct{}
+
+func (quantityType) takes(p *Param) string { return "a " + p.Dim.Name + " with its unit" + unitsOf(p) }
 
 func (quantityType) goType() reflect.Type              { return reflect.TypeFor[float64]() }
 func (quantityType) fromTag(t string) (Written, error) { return plainTag(t) }
@@ -243,6 +308,8 @@ func (quantityType) read(p *Param, w Written) (any, error) {
 }
 
 type rangeType struct{}
+
+func (rangeType) takes(p *Param) string { return "two " + p.Dim.Name + "s, low then high" + unitsOf(p) }
 
 func (rangeType) goType() reflect.Type              { return reflect.TypeFor[[2]float64]() }
 func (rangeType) fromTag(t string) (Written, error) { return listTag(t) }
@@ -278,6 +345,10 @@ func (rangeType) read(p *Param, w Written) (any, error) {
 }
 
 type measurementType struct{}
+
+func (measurementType) takes(p *Param) string {
+	return "a " + p.Dim.Name + " ± its uncertainty, with its unit" + unitsOf(p)
+}
 
 func (measurementType) goType() reflect.Type              { return reflect.TypeFor[Measurement]() }
 func (measurementType) fromTag(t string) (Written, error) { return plainTag(t) }
@@ -339,6 +410,8 @@ func renderList(list []string, quote bool) string {
 
 type listType struct{}
 
+func (listType) takes(*Param) string { return "a list of strings" }
+
 func (listType) goType() reflect.Type                   { return reflect.TypeFor[[]string]() }
 func (listType) fromTag(t string) (Written, error)      { return listTag(t) }
 func (listType) render(_ *Param, v any) string          { return renderList(v.([]string), true) }
@@ -352,6 +425,8 @@ func (listType) read(p *Param, w Written) (any, error) {
 }
 
 type objectType struct{}
+
+func (objectType) takes(*Param) string { return "an object of strings" }
 
 func (objectType) goType() reflect.Type              { return reflect.TypeFor[map[string]string]() }
 func (objectType) fromTag(t string) (Written, error) { return noTag(t) }
@@ -390,6 +465,8 @@ func (objectType) read(p *Param, w Written) (any, error) {
 
 type filesType struct{}
 
+func (filesType) takes(*Param) string { return "a file, or a list of files" }
+
 func (filesType) goType() reflect.Type                   { return reflect.TypeFor[Files]() }
 func (filesType) fromTag(t string) (Written, error)      { return noTag(t) }
 func (filesType) render(_ *Param, v any) string          { return renderList(v.(Files), true) }
@@ -410,6 +487,8 @@ func (filesType) read(p *Param, w Written) (any, error) {
 
 type refType struct{}
 
+func (refType) takes(p *Param) string { return stepsAccepted(p) + " (kind.label)" }
+
 func (refType) goType() reflect.Type                   { return reflect.TypeFor[Ref]() }
 func (refType) fromTag(t string) (Written, error)      { return noTag(t) }
 func (refType) render(_ *Param, v any) string          { return string(v.(Ref)) }
@@ -422,6 +501,10 @@ func (refType) read(p *Param, w Written) (any, error) {
 }
 
 type refListType struct{}
+
+func (refListType) takes(p *Param) string {
+	return "a list, each " + stepsAccepted(p) + " (kind.label)"
+}
 
 func (refListType) goType() reflect.Type                   { return reflect.TypeFor[[]Ref]() }
 func (refListType) fromTag(t string) (Written, error)      { return noTag(t) }
@@ -449,6 +532,8 @@ func (refListType) read(p *Param, w Written) (any, error) {
 }
 
 type rowType struct{}
+
+func (rowType) takes(*Param) string { return "a catalogue row, catalogue.label[\"id\"]" }
 
 func (rowType) goType() reflect.Type                   { return reflect.TypeFor[RowRef]() }
 func (rowType) fromTag(t string) (Written, error)      { return noTag(t) }

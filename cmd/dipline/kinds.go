@@ -3,7 +3,6 @@ package main
 import (
 	"fmt"
 	"io"
-	"strconv"
 	"strings"
 
 	"dipline/steps"
@@ -49,84 +48,18 @@ func describeBlock(w io.Writer, name, what, doc string, params []steps.Param) {
 	}
 	fmt.Fprintf(w, "  %s\n", doc)
 	for _, p := range params {
-		fmt.Fprintf(w, "\n  %s = %s\n", p.Name, takes(p))
+		fmt.Fprintf(w, "\n  %s = %s\n", p.Name, p.Takes())
 		switch {
 		case p.Required:
 			fmt.Fprintln(w, "      must be written")
 		case p.Default != "":
-			fmt.Fprintf(w, "      when not written: %s\n", writtenDefault(p))
+			fmt.Fprintf(w, "      when not written: %s\n", p.DefaultAsWritten())
 		default:
 			fmt.Fprintln(w, "      may be left out")
 		}
 		fmt.Fprintf(w, "      %s\n", p.Doc)
 	}
 	fmt.Fprintln(w)
-}
-
-// takes says in words what an attribute takes.
-func takes(p steps.Param) string {
-	unitsOf := func() string { return " (" + strings.Join(p.Dim.Names(), ", ") + ")" }
-	switch p.Type {
-	case steps.Number:
-		return "a number"
-	case steps.Integer:
-		return "a whole number"
-	case steps.Bool:
-		return "true or false"
-	case steps.String:
-		if len(p.Choices) > 0 {
-			return "one of " + quoted(p.Choices)
-		}
-		return "a string"
-	case steps.Quantity:
-		return "a " + p.Dim.Name + " with its unit" + unitsOf()
-	case steps.QuantityRange:
-		return "two " + p.Dim.Name + "s, low then high" + unitsOf()
-	case steps.Measured:
-		return "a " + p.Dim.Name + " ± its uncertainty, with its unit" + unitsOf()
-	case steps.StringList:
-		return "a list of strings"
-	case steps.StringMap:
-		return "an object of strings"
-	case steps.FileList:
-		return "a file, or a list of files"
-	case steps.StepRef, steps.StepRefList:
-		to := "any step"
-		if len(p.Kinds) > 0 {
-			to = "a " + strings.Join(p.Kinds, " or ") + " step"
-		}
-		if p.Type == steps.StepRefList {
-			return "a list, each " + to + " (kind.label)"
-		}
-		return to + " (kind.label)"
-	case steps.CatalogueRow:
-		return "a catalogue row, catalogue.label[\"id\"]"
-	}
-	return p.Type.String()
-}
-
-// writtenDefault writes a default as it would stand in a workflow: numbers and true/false
-// bare, everything else quoted, ranges and lists in brackets.
-func writtenDefault(p steps.Param) string {
-	switch p.Type {
-	case steps.Number, steps.Integer, steps.Bool:
-		return p.Default
-	case steps.QuantityRange, steps.StringList:
-		parts := strings.Split(p.Default, ",")
-		for i := range parts {
-			parts[i] = strings.TrimSpace(parts[i])
-		}
-		return "[" + quoted(parts) + "]"
-	}
-	return strconv.Quote(p.Default)
-}
-
-func quoted(list []string) string {
-	q := make([]string, len(list))
-	for i, s := range list {
-		q[i] = strconv.Quote(s)
-	}
-	return strings.Join(q, ", ")
 }
 
 func contains(list []string, s string) bool {

@@ -85,17 +85,6 @@ func (c *Config) contamination() float64 {
 	return *c.Contamination
 }
 
-// DefaultConfig is the configuration of a block that sets nothing but its files, its
-// defaults read from Config's tags: for calling Read as a library.
-func DefaultConfig() Config {
-	cfg, err := New().Schema().New()
-	if err != nil {
-		// The tags are the program's, checked by every test that registers the kind.
-		panic(fmt.Sprintf("photometry: the configuration's tags: %v", err))
-	}
-	return *cfg.(*Config)
-}
-
 // pickColumns chooses a column index for each role from the names in a file's header (-1
 // when an optional role has no column). It returns the names chosen, for notes.
 func pickColumns(file string, names []string, user [nRoles]string) (idx [nRoles]int, chosen [nRoles]string, err error) {

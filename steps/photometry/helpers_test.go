@@ -1,6 +1,7 @@
 package photometry
 
 import (
+	"fmt"
 	"os"
 	"path/filepath"
 	"testing"
@@ -45,4 +46,15 @@ func runKind(t testing.TB, attrs map[string]any, files []steps.File) (*Result, [
 		return nil, notes, err
 	}
 	return art.(*Result), notes, nil
+}
+
+// DefaultConfig is the configuration of a block that sets nothing but its files, its
+// defaults read from Config's tags: for tests that call Read directly.
+func DefaultConfig() Config {
+	cfg, err := New().Schema().New()
+	if err != nil {
+		// The tags are the program's, checked by every test that registers the kind.
+		panic(fmt.Sprintf("photometry: the configuration's tags: %v", err))
+	}
+	return *cfg.(*Config)
 }

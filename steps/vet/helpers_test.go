@@ -208,3 +208,19 @@ func describe(a *Artifact) string {
 	}
 	return b.String()
 }
+
+// deriveMaxPlanetRadius returns the derive step's own default for the largest planetary
+// radius, in R☉ (the base unit), as its schema decodes it, so that the threshold is defined
+// once: the test of vet's own max_planet_radius default holds it to this; 0 if derive's
+// defaults do not decode.
+func deriveMaxPlanetRadius() float64 {
+	cfg, err := derive.New().Schema().New()
+	if err != nil {
+		return 0
+	}
+	c, ok := cfg.(*derive.Config)
+	if !ok {
+		return 0
+	}
+	return c.MaxPlanetRadius
+}

@@ -4,28 +4,11 @@ import (
 	"fmt"
 
 	"dipline/steps"
-	"dipline/steps/derive"
 	"dipline/steps/units"
 )
 
 // rJupInSun is one nominal Jupiter radius in R☉, the base unit of units.Radius.
 var rJupInSun = units.Radius.Units["R_jup"]
-
-// deriveMaxPlanetRadius returns the derive step's own default for the largest planetary
-// radius, in R☉ (the base unit), as its schema decodes it, so that the threshold is defined
-// once: the test of vet's own max_planet_radius default holds it to this; 0 if derive's
-// defaults do not decode.
-func deriveMaxPlanetRadius() float64 {
-	cfg, err := derive.New().Schema().New()
-	if err != nil {
-		return 0
-	}
-	c, ok := cfg.(*derive.Config)
-	if !ok {
-		return 0
-	}
-	return c.MaxPlanetRadius
-}
 
 // radius compares the planet's radius on the target from the derive step with the
 // largest planetary radius. Its rule: "disagree" when the median exceeds it (a body that
