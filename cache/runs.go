@@ -64,17 +64,26 @@ type RunStep struct {
 // under "address", later ones under "step".
 func (rs *RunStep) UnmarshalJSON(b []byte) error {
 	type line RunStep // the same fields without this method
-	var v struct {
-		line
-		Former string `json:"address"`
-	}
-	if err := json.Unmarshal(b, &v); err != nil {
+	return UnmarshalFormerStep(b, (*line)(rs), &rs.Step)
+}
+
+// UnmarshalFormerStep decodes a record into v, a pointer to a type without an
+// UnmarshalJSON of its own, and when that leaves *step empty takes it from the "address"
+// field under which stores of format formatV1 named a step.
+func UnmarshalFormerStep(b []byte, v any, step *string) error {
+	if err := json.Unmarshal(b, v); err != nil {
 		return err
 	}
-	*rs = RunStep(v.line)
-	if rs.Step == "" {
-		rs.Step = v.Former
+	if *step != "" {
+		return nil
 	}
+	var former struct {
+		Address string `json:"address"`
+	}
+	if err := json.Unmarshal(b, &former); err != nil {
+		return err
+	}
+	*step = former.Address
 	return nil
 }
 

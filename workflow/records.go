@@ -41,18 +41,7 @@ type Provenance struct {
 // UnmarshalJSON reads a provenance record of either store format (see Provenance).
 func (p *Provenance) UnmarshalJSON(b []byte) error {
 	type record Provenance // the same fields without this method
-	var v struct {
-		record
-		Former string `json:"address"`
-	}
-	if err := json.Unmarshal(b, &v); err != nil {
-		return err
-	}
-	*p = Provenance(v.record)
-	if p.Step == "" {
-		p.Step = v.Former
-	}
-	return nil
+	return cache.UnmarshalFormerStep(b, (*record)(p), &p.Step)
 }
 
 // CheckProvenance says whether a stored provenance record reads: JSON of a Provenance that
@@ -95,18 +84,7 @@ type InputRecord struct {
 // UnmarshalJSON reads an input record of either store format (see Provenance).
 func (in *InputRecord) UnmarshalJSON(b []byte) error {
 	type record InputRecord // the same fields without this method
-	var v struct {
-		record
-		Former string `json:"address"`
-	}
-	if err := json.Unmarshal(b, &v); err != nil {
-		return err
-	}
-	*in = InputRecord(v.record)
-	if in.Step == "" {
-		in.Step = v.Former
-	}
-	return nil
+	return cache.UnmarshalFormerStep(b, (*record)(in), &in.Step)
 }
 
 // FileRecord is one file read, by the path written in the workflow and its SHA-256.

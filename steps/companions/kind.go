@@ -13,8 +13,6 @@ package companions
 import (
 	"context"
 	"errors"
-	"sort"
-	"strings"
 
 	"dipline/steps"
 	"dipline/steps/internal/stellar"
@@ -65,28 +63,11 @@ func (Kind) Check(c *Config) error {
 	if n := len(c.File); n != 1 {
 		return steps.Attrf("file", "give exactly one table, not %d", n)
 	}
-	c.Columns = Columns{}
-	keys := make([]string, 0, len(c.ColumnNames))
-	for k := range c.ColumnNames {
-		keys = append(keys, k)
+	cols, err := steps.NamedColumns("columns", c.ColumnNames, fieldKeys[:])
+	if err != nil {
+		return err
 	}
-	sort.Strings(keys)
-	for _, k := range keys {
-		f := Field(-1)
-		for i, name := range fieldKeys {
-			if k == name {
-				f = Field(i)
-			}
-		}
-		if f < 0 {
-			return steps.Attrf("columns", "unknown key %q; the keys are %s", k, strings.Join(fieldKeys[:], ", "))
-		}
-		name := strings.TrimSpace(c.ColumnNames[k])
-		if name == "" {
-			return steps.Attrf("columns", "%s: empty column name", k)
-		}
-		c.Columns[f] = name
-	}
+	c.Columns = Columns(cols)
 	return nil
 }
 

@@ -16,7 +16,6 @@ package photometry
 import (
 	"context"
 	"math"
-	"sort"
 	"strconv"
 	"strings"
 
@@ -54,28 +53,11 @@ func (Kind) Random() bool { return false }
 // Check implements steps.Typed: it holds the values to what the reader can take and
 // completes Columns and Extension.
 func (Kind) Check(c *Config) error {
-	c.Columns = [nRoles]string{}
-	keys := make([]string, 0, len(c.ColumnNames))
-	for k := range c.ColumnNames {
-		keys = append(keys, k)
+	cols, err := steps.NamedColumns("columns", c.ColumnNames, roleKeys[:])
+	if err != nil {
+		return err
 	}
-	sort.Strings(keys)
-	for _, k := range keys {
-		role := -1
-		for r, name := range roleKeys {
-			if k == name {
-				role = r
-			}
-		}
-		if role < 0 {
-			return steps.Attrf("columns", "unknown key %q; the keys are %s", k, strings.Join(roleKeys[:], ", "))
-		}
-		name := strings.TrimSpace(c.ColumnNames[k])
-		if name == "" {
-			return steps.Attrf("columns", "%s: empty column name", k)
-		}
-		c.Columns[role] = name
-	}
+	c.Columns = [nRoles]string(cols)
 	c.Extension = ""
 	if c.ExtensionName != nil {
 		c.Extension = strings.TrimSpace(*c.ExtensionName)
