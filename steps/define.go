@@ -41,6 +41,7 @@ type defined[C any] struct {
 var (
 	_ Kind      = defined[struct{}]{}
 	_ Inspector = defined[struct{}]{}
+	_ Presenter = defined[struct{}]{}
 )
 
 func (d defined[C]) Name() string                      { return d.k.Name() }
@@ -87,4 +88,20 @@ func (d defined[C]) Inspect(cfg any, in Inputs) error {
 		return err
 	}
 	return i.Inspect(c, in)
+}
+
+// Present shows the result when the kind can (it has
+// `Present(*C, Artifact, Inputs) (Presentation, error)`); otherwise it shows nothing.
+func (d defined[C]) Present(cfg any, art Artifact, in Inputs) (Presentation, error) {
+	p, ok := d.k.(interface {
+		Present(*C, Artifact, Inputs) (Presentation, error)
+	})
+	if !ok {
+		return Presentation{}, nil
+	}
+	c, err := d.typed(cfg)
+	if err != nil {
+		return Presentation{}, err
+	}
+	return p.Present(c, art, in)
 }
