@@ -7,6 +7,7 @@ import (
 	"path/filepath"
 	"strings"
 
+	"dipline/steps"
 	"dipline/steps/kinds"
 )
 
@@ -23,10 +24,6 @@ func (c *cli) starter(args []string) int {
 		return exitBadUser
 	}
 	data := pos[0]
-	if _, err := os.Stat(data); err != nil {
-		fmt.Fprintln(c.err, "dipline starter:", err)
-		return exitBadUser
-	}
 	if _, err := os.Stat(*out); err == nil {
 		fmt.Fprintf(c.err, "dipline starter: %s exists; name another file with --out\n", *out)
 		return exitBadUser
@@ -36,12 +33,36 @@ func (c *cli) starter(args []string) int {
 		fmt.Fprintf(c.err, "dipline starter: %s is not inside the folder of %s; workflows read only files beside them\n", data, *out)
 		return exitBadUser
 	}
+	b, err := os.ReadFile(data)
+	if err != nil {
+		fmt.Fprintln(c.err, "dipline starter:", err)
+		return exitBadUser
+	}
 	name := strings.TrimSuffix(filepath.Base(data), filepath.Ext(data))
-	text := kinds.Starter(filepath.ToSlash(rel), *out, name, *seed)
-	if err := os.WriteFile(*out, []byte(text), 0o644); err != nil {
+	s, err := kinds.Starter(steps.File{Name: filepath.ToSlash(rel), Data: b}, *out, name, *seed)
+	if err != nil {
+		fmt.Fprintf(c.err, "dipline starter: %v\n", err)
+		if steps.IsInputError(err) {
+			return exitBadUser
+		}
+		return exitFailed
+	}
+	if err := os.WriteFile(*out, []byte(s.Text), 0o644); err != nil {
 		fmt.Fprintln(c.err, "dipline starter:", err)
 		return exitFailed
 	}
-	fmt.Fprintf(c.out, "wrote %s; check it with: dipline check %s\n", *out, *out)
+	fmt.Fprintf(c.out, "Read %s:\n", data)
+	for _, f := range s.Found {
+		fmt.Fprintf(c.out, "  - %s\n", f)
+	}
+	fmt.Fprintf(c.out, "It does not tell:\n")
+	for _, u := range s.Unknown {
+		fmt.Fprintf(c.out, "  - %s\n", u)
+	}
+	if s.Runs {
+		fmt.Fprintf(c.out, "Wrote %s; it runs as written. Check it with: dipline check %s\n", *out, *out)
+	} else {
+		fmt.Fprintf(c.out, "Wrote %s; it will not run until the setting named above is written in it. Then check it with: dipline check %s\n", *out, *out)
+	}
 	return exitOK
 }

@@ -12,6 +12,7 @@ import (
 	"testing"
 
 	"dipline/cache"
+	"dipline/steps"
 	"dipline/steps/internal/synth"
 	"dipline/workflow"
 )
@@ -38,10 +39,27 @@ func runStarter(t testing.TB, s synth.Series, text string) analysis {
 		t.Fatal(err)
 	}
 	if text == "" {
-		text = Starter("star.csv", "analysis.hcl", "star", 1)
+		sw, err := Starter(steps.File{Name: "star.csv", Data: s.CSV()}, "analysis.hcl", "star", 1)
+		if err != nil {
+			t.Fatal(err)
+		}
+		text = sw.Text
 	} else {
 		text = strings.ReplaceAll(text, "%[1]s", "star.csv")
 	}
+	rf, _ := runIn(t, dir, text)
+	return analysis{t: t, rf: rf}
+}
+
+// quickFit keeps the starter's fit short in tests: the trust tests read the searches and
+// the vet step, which do not depend on it.
+var quickFit = []workflow.Override{{Addr: "fit.planets", Attr: "max_steps", Value: "1500"}}
+
+// runIn writes the workflow into dir, runs it (with the fit kept short, if it has the
+// starter's), and reads the
+// results file; err is the run's error (a *workflow.RunError when a step failed).
+func runIn(t testing.TB, dir, text string) (workflow.ResultsFile, error) {
+	t.Helper()
 	path := filepath.Join(dir, "analysis.hcl")
 	if err := os.WriteFile(path, []byte(text), 0o644); err != nil {
 		t.Fatal(err)
@@ -50,7 +68,11 @@ func runStarter(t testing.TB, s synth.Series, text string) analysis {
 	if err != nil {
 		t.Fatal(err)
 	}
-	w, diags := workflow.LoadWith(path, reg, nil)
+	var over []workflow.Override
+	if strings.Contains(text, `fit "planets" {`) {
+		over = quickFit
+	}
+	w, diags := workflow.LoadWith(path, reg, over)
 	if diags.HasErrors() {
 		t.Fatal(diags)
 	}
@@ -58,22 +80,23 @@ func runStarter(t testing.TB, s synth.Series, text string) analysis {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if _, err := workflow.Run(context.Background(), w, store, workflow.Options{Workers: 2}); err != nil {
+	_, runErr := workflow.Run(context.Background(), w, store, workflow.Options{Workers: 2})
+	if runErr != nil {
 		var re *workflow.RunError
-		if !errors.As(err, &re) {
-			t.Fatal(err)
+		if !errors.As(runErr, &re) {
+			t.Fatal(runErr)
 		}
-		t.Logf("the run did not finish every step: %v", err)
+		t.Logf("the run did not finish every step: %v", runErr)
 	}
 	b, err := os.ReadFile(filepath.Join(w.OutputDir, "results.json"))
 	if err != nil {
 		t.Fatal(err)
 	}
-	a := analysis{t: t}
-	if err := json.Unmarshal(b, &a.rf); err != nil {
+	var rf workflow.ResultsFile
+	if err := json.Unmarshal(b, &rf); err != nil {
 		t.Fatal(err)
 	}
-	return a
+	return rf, runErr
 }
 
 func (a analysis) step(name string) *workflow.StepResults {

@@ -27,13 +27,24 @@ var roleKeys = [nRoles]string{"time", "flux", "error", "flag"}
 func (r Role) String() string { return roleKeys[r] }
 
 // defaultNames are the column names tried, in order and without regard to case, when the
-// workflow names none for a role. A short list of names in common use; anything else is
-// named in `columns`.
+// workflow names none for a role. A short list of names in common use, with those of
+// space-survey light-curve products (PDCSAP_FLUX and SAP_FLUX, QUALITY and SAP_QUALITY,
+// BTJD- and BKJD-style times); anything else is named in `columns`. The survey fluxes' own
+// error columns are in pairedErrors, not here, so that one flux is never given another's
+// errors.
 var defaultNames = [nRoles][]string{
-	TimeCol:  {"time", "bjd", "bjd_tdb", "jd", "t"},
-	FluxCol:  {"flux", "rel_flux", "relative_flux", "norm_flux", "f"},
+	TimeCol:  {"time", "bjd", "bjd_tdb", "jd", "t", "btjd", "bkjd"},
+	FluxCol:  {"flux", "rel_flux", "relative_flux", "norm_flux", "f", "pdcsap_flux", "sap_flux"},
 	ErrorCol: {"flux_err", "flux_error", "error", "err", "sigma", "e"},
-	FlagCol:  {"flag", "flags", "quality", "qual"},
+	FlagCol:  {"flag", "flags", "quality", "qual", "sap_quality"},
+}
+
+// pairedErrors names, for a flux column of a survey product (in lower case), the column of
+// its errors: an unnamed error role takes that column when the file has it, and none of the
+// general names.
+var pairedErrors = map[string][]string{
+	"pdcsap_flux": {"pdcsap_flux_err"},
+	"sap_flux":    {"sap_flux_err"},
 }
 
 // Config is what a photometry block may say. Check completes the fields below the
@@ -46,10 +57,10 @@ type Config struct {
 	// ExtensionName is the extension as written; Check trims it into Extension.
 	ExtensionName *string `step:"extension" doc:"FITS binary table by EXTNAME or 1-based extension number; default: the first with a time and a flux column"`
 	// TimeScale is the scale and origin the workflow states, one of TimeScaleChoices.
-	TimeScale string `step:"time_scale" default:"BJD_TDB" choices:"BJD_TDB|BJD_TT|BJD_UTC|BJD_TAI|BJD_TCB|BJD_TCG|HJD_TDB|HJD_TT|HJD_UTC|HJD_TAI|HJD_TCB|HJD_TCG|JD_TDB|JD_TT|JD_UTC|JD_TAI|JD_TCB|JD_TCG" doc:"time scale and origin of the times; FITS TIMESYS and TIMEREF must agree"`
-	// TimeZero is the Julian date of time 0 in text files; nil when their times are full
-	// Julian dates.
-	TimeZero *float64 `step:"time_zero" doc:"Julian date of time 0 in text files; without it their times are full Julian dates"`
+	TimeScale string `step:"time_scale" default:"BJD_TDB" choices:"BJD_TDB|BJD_TT|BJD_UTC|BJD_TAI|BJD_TCB|BJD_TCG|HJD_TDB|HJD_TT|HJD_UTC|HJD_TAI|HJD_TCB|HJD_TCG|JD_TDB|JD_TT|JD_UTC|JD_TAI|JD_TCB|JD_TCG" doc:"time scale and origin of the times; FITS TIMESYS and TIMEREF must agree, and fill from it when the header lacks them"`
+	// TimeZero is the Julian date of time 0 in text files, and in FITS files whose header
+	// gives no reference; nil when the times are full Julian dates.
+	TimeZero *float64 `step:"time_zero" doc:"Julian date of time 0 in text files, and in FITS files whose header has no BJDREFI/BJDREFF, JDREF or MJDREF; without it text times are full Julian dates"`
 	// Exposure is the integration time of one point in days; nil to take it from the file.
 	Exposure *float64 `step:"exposure" dim:"time" doc:"integration time of one point; default: from the FITS header (EXPOSURE, INT_TIME, TIMEDEL), else the median cadence"`
 	// Band is the photometric band of every segment; nil (or blank) takes FITS FILTER if any.
@@ -113,7 +124,13 @@ func pickColumns(file string, names []string, user [nRoles]string) (idx [nRoles]
 			idx[r], chosen[r] = i, names[i]
 			continue
 		}
-		for _, cand := range defaultNames[r] {
+		cands := defaultNames[r]
+		if r == ErrorCol && idx[FluxCol] >= 0 {
+			if p, ok := pairedErrors[strings.ToLower(strings.TrimSpace(chosen[FluxCol]))]; ok {
+				cands = p
+			}
+		}
+		for _, cand := range cands {
 			i, err := find(cand)
 			if err != nil {
 				return idx, chosen, err

@@ -171,14 +171,14 @@ func readFITS(cfg *Config, file string, data []byte, note noteFunc) (*rawSegment
 	}
 	r.time, r.flux, r.err, r.flag = vals[TimeCol], vals[FluxCol], vals[ErrorCol], vals[FlagCol]
 
-	if err := checkScale(cfg, h, at); err != nil {
+	if err := checkScale(cfg, h, at, note); err != nil {
 		return nil, err
 	}
 	perUnit, err := columnTimeUnit(h, cols[idx[TimeCol]], at, note)
 	if err != nil {
 		return nil, err
 	}
-	if err := readReference(h, r, at); err != nil {
+	if err := readReference(cfg, h, r, at, note); err != nil {
 		return nil, err
 	}
 	keyUnit, err := keywordTimeUnit(h, at)
@@ -330,34 +330,43 @@ func describeChoice(chosen [nRoles]string) string {
 	return strings.Join(parts, ", ")
 }
 
-// checkScale compares TIMESYS and TIMEREF with the stated time scale. Absent keywords take
-// their FITS defaults, UTC and LOCAL (FITS 4.0 §9.2), so a file that says nothing is JD_UTC.
-func checkScale(cfg *Config, h fitsHDU, at string) error {
-	sys, sysGiven, err := h.str("TIMESYS", "UTC")
+// checkScale compares TIMESYS and TIMEREF with the stated time scale. A keyword the header
+// leaves out is filled from the workflow's time_scale (its scale for TIMESYS, its origin for
+// TIMEREF) with a note saying so; a keyword that is present must agree with it, and one that
+// does not is refused naming the keyword and the setting.
+func checkScale(cfg *Config, h fitsHDU, at string, note noteFunc) error {
+	origin, scale, _ := strings.Cut(cfg.TimeScale, "_")
+	sys, sysGiven, err := h.str("TIMESYS", "")
 	if err != nil {
 		return err
 	}
-	ref, refGiven, err := h.str("TIMEREF", "LOCAL")
+	ref, refGiven, err := h.str("TIMEREF", "")
 	if err != nil {
 		return err
 	}
-	shown := func(key, v string, given bool) string {
-		if given {
-			return fmt.Sprintf("%s = '%s'", key, v)
+	if sysGiven {
+		got, ok := timesysScale[strings.ToUpper(sys)]
+		if !ok {
+			return steps.BadInputf("%s: TIMESYS = '%s' is not a time scale this step knows (TDB, TT, UTC, TAI, TCB, TCG)", at, sys)
 		}
-		return fmt.Sprintf("%s absent (FITS default '%s')", key, v)
+		if got != scale {
+			return steps.BadInputf("%s: TIMESYS = '%s' says the times are on %s, but the workflow states time_scale = %q (%s); convert the file's times or state its scale",
+				at, sys, got, cfg.TimeScale, scale)
+		}
+	} else {
+		note("%s: the header has no TIMESYS; time_scale = %q fills it: %s", at, cfg.TimeScale, scale)
 	}
-	scale, ok1 := timesysScale[strings.ToUpper(sys)]
-	origin, ok2 := timerefOrigin[strings.ToUpper(ref)]
-	if !ok1 {
-		return steps.BadInputf("%s: %s is not a time scale this step knows (TDB, TT, UTC, TAI, TCB, TCG)", at, shown("TIMESYS", sys, sysGiven))
-	}
-	if !ok2 {
-		return steps.BadInputf("%s: %s is not a time reference position this step knows (SOLARSYSTEM, BARYCENTER, HELIOCENTER, TOPOCENTER, GEOCENTER, LOCAL)", at, shown("TIMEREF", ref, refGiven))
-	}
-	if got := origin + "_" + scale; got != cfg.TimeScale {
-		return steps.BadInputf("%s: %s and %s mean %s, but the workflow states time_scale = %q; convert the file's times or state its scale",
-			at, shown("TIMESYS", sys, sysGiven), shown("TIMEREF", ref, refGiven), got, cfg.TimeScale)
+	if refGiven {
+		got, ok := timerefOrigin[strings.ToUpper(ref)]
+		if !ok {
+			return steps.BadInputf("%s: TIMEREF = '%s' is not a time reference position this step knows (SOLARSYSTEM, BARYCENTER, HELIOCENTER, TOPOCENTER, GEOCENTER, LOCAL)", at, ref)
+		}
+		if got != origin {
+			return steps.BadInputf("%s: TIMEREF = '%s' means %s times, but the workflow states time_scale = %q (%s); convert the file's times or state its scale",
+				at, ref, got, cfg.TimeScale, origin)
+		}
+	} else {
+		note("%s: the header has no TIMEREF; time_scale = %q fills it: %s times", at, cfg.TimeScale, origin)
 	}
 	return nil
 }
@@ -388,37 +397,64 @@ func columnTimeUnit(h fitsHDU, c *fits.Column, at string, note noteFunc) (float6
 
 // readReference reads the Julian date of time 0: BJDREFI + BJDREFF (or BJDREF), else
 // JDREFI + JDREFF (or JDREF), else MJDREFI + MJDREFF (or MJDREF) + 2 400 000.5 (FITS 4.0
-// §9.2.2; BJDREF* is a convention in common use). Integer and fraction are kept apart.
-func readReference(h fitsHDU, r *rawSegment, at string) error {
+// §9.2.2; BJDREF* is a convention in common use). Integer and fraction are kept apart. A
+// header without any of them takes the workflow's time_zero, with a note; a header with one
+// keeps its own, and a time_zero that differs is set aside with a note.
+func readReference(cfg *Config, h fitsHDU, r *rawSegment, at string, note noteFunc) error {
+	from, i, f, ok, err := headerReference(h)
+	if err != nil {
+		return err
+	}
+	switch {
+	case ok:
+		r.refInt, r.refFrac = splitJD(i, f)
+		r.hasRef, r.refFrom = true, at+" "+from
+		if z := cfg.TimeZero; z != nil {
+			zi, zf := splitJD(*z, 0)
+			if zi != r.refInt || zf != r.refFrac {
+				note("%s: time_zero = %s set aside: the header's %s give the reference JD %d + %g", at, strconv.FormatFloat(*z, 'f', -1, 64), from, r.refInt, r.refFrac)
+			}
+		}
+	case cfg.TimeZero != nil:
+		r.refInt, r.refFrac = splitJD(*cfg.TimeZero, 0)
+		r.hasRef, r.refFrom = true, "time_zero"
+		note("%s: the header has no BJDREFI/BJDREFF, JDREF or MJDREF; time_zero = %s fills the reference", at, strconv.FormatFloat(*cfg.TimeZero, 'f', -1, 64))
+	}
+	return nil
+}
+
+// headerReference finds the reference keywords of readReference and returns which gave it
+// (e.g. "BJDREFI/BJDREFF") and the Julian date as integer and fraction; ok is false when
+// the header has none.
+func headerReference(h fitsHDU) (from string, i, f float64, ok bool, err error) {
 	for _, p := range []struct {
 		prefix string
 		mjd    bool
 	}{{"BJDREF", false}, {"JDREF", false}, {"MJDREF", true}} {
 		i, okI, err := h.num(p.prefix + "I")
 		if err != nil {
-			return err
+			return "", 0, 0, false, err
 		}
 		f, okF, err := h.num(p.prefix + "F")
 		if err != nil {
-			return err
+			return "", 0, 0, false, err
 		}
 		from := p.prefix + "I/" + p.prefix + "F"
 		if !okI && !okF {
 			v, ok, err := h.num(p.prefix)
 			if err != nil {
-				return err
+				return "", 0, 0, false, err
 			}
 			if !ok {
 				continue
 			}
 			i, f, from = math.Floor(v), v-math.Floor(v), p.prefix
 		}
-		r.refInt, r.refFrac = splitJD(i, f)
 		if p.mjd {
-			r.refInt, r.refFrac = splitJD(float64(r.refInt)+2400000, r.refFrac+0.5)
+			ri, rf := splitJD(i, f)
+			i, f = float64(ri)+2400000, rf+0.5
 		}
-		r.hasRef, r.refFrom = true, at+" "+from
-		return nil
+		return from, i, f, true, nil
 	}
-	return nil
+	return "", 0, 0, false, nil
 }

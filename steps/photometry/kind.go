@@ -4,7 +4,9 @@
 // value or a non-positive error are dropped and counted; flux and errors are divided by the
 // segment's median flux; files without an error column get a constant error from their
 // point-to-point scatter. FITS time keywords must agree with the time scale the workflow
-// states, and segments with different reference epochs are moved onto one.
+// states; the workflow's time_scale and time_zero fill those a header leaves out, with a
+// note. Segments with different reference epochs are moved onto one. InspectFile describes
+// a file as the reader sees it (for the starter workflow).
 //
 // It does not detrend, clip outliers, bin, or convert between time scales: a file on another
 // scale is refused, not converted. Files reach it as bytes from the engine; it opens no
@@ -33,8 +35,11 @@ var (
 	_ steps.Artifact      = (*Result)(nil)
 )
 
-// version is bumped whenever the step's results change for the same inputs.
-const version = 2
+// version is bumped whenever the step's results change for the same inputs. 3: the column
+// candidates take survey products' names (a SAP_QUALITY column now flags rows; a survey
+// flux takes its own error column), and a FITS header without a reference keyword takes
+// time_zero, which version 2 set aside.
+const version = 3
 
 // Name implements steps.Typed.
 func (Kind) Name() string { return "photometry" }

@@ -157,9 +157,9 @@ func TestTimeScaleMustAgree(t *testing.T) {
 		want  string
 	}{
 		{"a UTC file is refused when the workflow states BJD_TDB", nil, utc,
-			`utc.fits HDU 1 (LIGHTCURVE): TIMESYS = 'UTC' and TIMEREF = 'TOPOCENTER' mean JD_UTC, but the workflow states time_scale = "BJD_TDB"; convert the file's times or state its scale`},
-		{"a file without TIMESYS takes the FITS default UTC", nil, noSys,
-			`nosys.fits HDU 1 (LIGHTCURVE): TIMESYS absent (FITS default 'UTC') and TIMEREF = 'TOPOCENTER' mean JD_UTC`},
+			`utc.fits HDU 1 (LIGHTCURVE): TIMESYS = 'UTC' says the times are on UTC, but the workflow states time_scale = "BJD_TDB" (TDB); convert the file's times or state its scale`},
+		{"a file without TIMESYS takes the workflow's scale, and its TIMEREF must still agree", nil, noSys,
+			`nosys.fits HDU 1 (LIGHTCURVE): TIMEREF = 'TOPOCENTER' means JD times, but the workflow states time_scale = "BJD_TDB" (BJD)`},
 		{"a UTC file is read when the workflow states JD_UTC", map[string]any{"time_scale": "JD_UTC"}, utc, ""},
 	}
 	for _, c := range cases {
@@ -248,7 +248,7 @@ func TestChoosingTheExtension(t *testing.T) {
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
-			// Second_LC has no time keywords: state the FITS default scale, JD_UTC.
+			// Second_LC has no time keywords: time_scale fills them (here JD_UTC).
 			res, _, err := runKind(t, map[string]any{"extension": c.ext, "time_scale": "JD_UTC"}, load(t, "fits/tables.fits"))
 			if c.want != "" {
 				if err == nil || err.Error() != c.want {
@@ -328,10 +328,10 @@ func TestCheckRefusesBadSettings(t *testing.T) {
 			t.Fatalf("columns %q, extension %q", c.Columns, c.Extension)
 		}
 	})
-	// A workflow written for a text file runs unchanged on a FITS file: time_zero is
-	// set aside with a note, and the header's reference is used.
+	// A workflow written for a text file runs unchanged on a FITS file whose header gives
+	// the reference: time_zero is set aside with a note, and the header's reference is used.
 	res, notes, err := runKind(t, map[string]any{"time_zero": 2460000.0}, load(t, "fits/lightcurve.fits"))
-	if err != nil || !strings.Contains(strings.Join(notes, "\n"), "time_zero applies to text files only") {
+	if err != nil || !strings.Contains(strings.Join(notes, "\n"), "time_zero = 2460000 set aside: the header's BJDREFI/BJDREFF give the reference JD 2460000 + 0.25") {
 		t.Fatalf("time_zero with FITS only: err %v, notes %q", err, notes)
 	}
 	if res.LC.RefInt == 2460000 && res.LC.RefFrac == 0 {

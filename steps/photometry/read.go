@@ -22,14 +22,12 @@ func Read(cfg Config, files []steps.File, note func(format string, args ...any))
 		return nil, steps.Attrf("files", "no files given")
 	}
 	var bs []built
-	texts := 0
 	for k, f := range files {
 		var r *rawSegment
 		var err error
 		if bytes.HasPrefix(f.Data, []byte("SIMPLE  =")) {
 			r, err = readFITS(&cfg, f.Name, f.Data, note)
 		} else {
-			texts++
 			r, err = readText(&cfg, f.Name, f.Data, note)
 		}
 		if err != nil {
@@ -40,10 +38,6 @@ func Read(cfg Config, files []steps.File, note func(format string, args ...any))
 			return nil, err
 		}
 		bs = append(bs, b)
-	}
-	if cfg.TimeZero != nil && texts == 0 {
-		// A workflow written for text files must also run on FITS files unchanged.
-		note("time_zero applies to text files only; every file here is FITS, whose header gives the reference")
 	}
 	res := &Result{LC: combine(&cfg, bs, note)}
 	for _, b := range bs {

@@ -124,7 +124,7 @@ func TestTextErrorsNameFileLineAndColumn(t *testing.T) {
 			"data/x.csv:3: 1 fields, but the header on line 1 has 2 (comma-separated)"},
 		{"a missing time column lists the names tried and found",
 			"when,flux\n1,2\n",
-			"data/x.csv: no time column: none of time, bjd, bjd_tdb, jd, t is in the header (columns: \"when\", \"flux\"); name one in columns = { time = \"...\" }"},
+			"data/x.csv: no time column: none of time, bjd, bjd_tdb, jd, t, btjd, bkjd is in the header (columns: \"when\", \"flux\"); name one in columns = { time = \"...\" }"},
 		{"two columns named alike are ambiguous",
 			"time,FLUX,flux\n1,2,3\n",
 			"data/x.csv: columns 2 and 3 are both named \"flux\" (ignoring case)"},
