@@ -18,9 +18,17 @@ type Ephemeris struct {
 // Cycle returns the transit number n of the box nearest t and the distance to its centre
 // in days, |t − (Epoch + n·Period)|.
 func (e Ephemeris) Cycle(t float64) (n int64, dist float64) {
+	n, off := e.Offset(t)
+	return n, math.Abs(off)
+}
+
+// Offset returns the transit number n of the box nearest t and the signed time from its
+// centre in days, (t − Epoch)/Period − n times Period: negative before mid-transit, in
+// [−Period/2, Period/2]. It is the phase of a fold centred on the transit, in days.
+func (e Ephemeris) Offset(t float64) (n int64, off float64) {
 	x := (t - e.Epoch) / e.Period
 	r := math.Round(x)
-	return int64(r), math.Abs(x-r) * e.Period
+	return int64(r), (x - r) * e.Period
 }
 
 // Inside reports whether t lies in a box (within Duration/2 of a mid-time), and which.

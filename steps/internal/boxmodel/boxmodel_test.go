@@ -117,3 +117,19 @@ func TestEphemeris(t *testing.T) {
 		t.Errorf("BIC %g, want %g", got, want)
 	}
 }
+
+func TestOffsetIsTheSignedDistanceOfCycle(t *testing.T) {
+	// By construction: a box every 2 d from epoch 1; t = 4.5 is 0.5 d before the box of
+	// cycle 2 (at 5), t = 5.25 a quarter day after it.
+	e := Ephemeris{Period: 2, Epoch: 1, Duration: 0.2}
+	for _, c := range []struct {
+		t, off float64
+		n      int64
+	}{{4.5, -0.5, 2}, {5.25, 0.25, 2}, {1, 0, 0}, {-0.5, 0.5, -1}} {
+		n, off := e.Offset(c.t)
+		cn, dist := e.Cycle(c.t)
+		if n != c.n || off != c.off || cn != n || dist != math.Abs(off) {
+			t.Errorf("t = %v: Offset (%d, %v), Cycle (%d, %v); want (%d, %v)", c.t, n, off, cn, dist, c.n, c.off)
+		}
+	}
+}

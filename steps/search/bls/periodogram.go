@@ -247,22 +247,29 @@ func sde(power []float64) (float64, int) {
 	if len(power) == 0 {
 		return 0, -1
 	}
-	var sum float64
 	peak := 0
 	for j, v := range power {
-		sum += v
 		if v > power[peak] {
 			peak = j
 		}
 	}
-	mean := sum / float64(len(power))
-	var ss float64
-	for _, v := range power {
-		ss += (v - mean) * (v - mean)
-	}
-	sd := math.Sqrt(ss / float64(len(power)))
+	mean, sd := meanSD(power)
 	if sd == 0 {
 		return 0, peak
 	}
 	return (power[peak] - mean) / sd, peak
+}
+
+// meanSD returns the mean and the population standard deviation of x, summed in order.
+func meanSD(x []float64) (mean, sd float64) {
+	var sum float64
+	for _, v := range x {
+		sum += v
+	}
+	mean = sum / float64(len(x))
+	var ss float64
+	for _, v := range x {
+		ss += (v - mean) * (v - mean)
+	}
+	return mean, math.Sqrt(ss / float64(len(x)))
 }

@@ -20,9 +20,33 @@ const trendBlocks = 64
 // trendBlocks equal stretches of the grid (flat beyond the first and last centres), so it
 // costs O(N log N) whatever the grid size.
 func detrendedSDE(power []float64) (float64, int) {
+	return sde(detrendedPower(power))
+}
+
+// SDESpectrum returns, per frequency, the SDE that frequency would have as the peak:
+// (r_j − ⟨r⟩)/σ_r, r the power less its slow trend as detrendedSDE removes it, the mean and
+// population standard deviation over the whole grid. Its largest value is the pass's SDE.
+// It is for showing a periodogram on the scale of the detection threshold; all zeros when
+// the spectrum is flat.
+func SDESpectrum(power []float64) []float64 {
+	r := detrendedPower(power)
+	mean, sd := meanSD(r)
+	out := make([]float64, len(r))
+	if sd == 0 {
+		return out
+	}
+	for j, v := range r {
+		out[j] = (v - mean) / sd
+	}
+	return out
+}
+
+// detrendedPower returns power less its slow trend (see detrendedSDE), NaN residuals set to
+// 0; a spectrum shorter than 4·trendBlocks is returned as it is.
+func detrendedPower(power []float64) []float64 {
 	n := len(power)
 	if n < 4*trendBlocks {
-		return sde(power)
+		return power
 	}
 	centres := make([]float64, trendBlocks)
 	levels := make([]float64, trendBlocks)
@@ -57,5 +81,5 @@ func detrendedSDE(power []float64) (float64, int) {
 			resid[j] = 0
 		}
 	}
-	return sde(resid)
+	return resid
 }

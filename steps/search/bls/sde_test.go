@@ -47,3 +47,33 @@ func TestDetrendedSDEOfAFlatSpectrumIsTheRawOne(t *testing.T) {
 		t.Errorf("flat spectrum: detrended SDE %.3f at %d, raw %.3f at %d", got, gp, raw, rp)
 	}
 }
+
+func TestSDESpectrumPeaksAtTheSDE(t *testing.T) {
+	// The spectrum of the rising-ripple test above, and a short one (under 4·trendBlocks,
+	// not detrended): the largest value of SDESpectrum is, to the bit, the SDE detrendedSDE
+	// gives, at the same index, since both divide the same residual by the same σ.
+	long := make([]float64, 6400)
+	for j := range long {
+		long[j] = 1 + 10*float64(j)/6400 + 0.1*math.Sin(float64(j)*1.7)
+	}
+	long[1000] += 2
+	short := make([]float64, 100)
+	for j := range short {
+		short[j] = math.Cos(float64(j) * 0.3)
+	}
+	for _, p := range [][]float64{long, short} {
+		want, peak := detrendedSDE(p)
+		s := SDESpectrum(p)
+		if len(s) != len(p) || s[peak] != want {
+			t.Fatalf("%d values, %v at the peak %d, want %v", len(s), s[peak], peak, want)
+		}
+		for j, v := range s {
+			if v > s[peak] {
+				t.Fatalf("value %v at %d exceeds the peak's %v", v, j, s[peak])
+			}
+		}
+	}
+	if s := SDESpectrum(make([]float64, 10)); s[0] != 0 || len(s) != 10 {
+		t.Errorf("a flat spectrum gives %v", s)
+	}
+}

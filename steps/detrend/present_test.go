@@ -1,0 +1,242 @@
+package detrend
+
+import (
+	"bytes"
+	"encoding/gob"
+	"math"
+	"testing"
+
+	"dipline/steps"
+	"dipline/steps/detrend/robust"
+	"dipline/steps/internal/signals"
+	"dipline/steps/internal/steptest"
+)
+
+// checkShape holds a presentation to the contract of steps/present.go: within a plot every
+// layer's X and Y (and YLo, YHi when given) have equal lengths, every plot's Data names a
+// Data that exists, and every Data's columns have equal lengths and distinct names.
+func checkShape(t *testing.T, pr steps.Presentation) map[string]steps.Data {
+	t.Helper()
+	data := map[string]steps.Data{}
+	for _, d := range pr.Data {
+		if _, dup := data[d.Name]; dup {
+			t.Errorf("two Data named %q", d.Name)
+		}
+		data[d.Name] = d
+		cols := map[string]bool{}
+		for _, s := range d.Series {
+			if cols[s.Name] {
+				t.Errorf("%s: two columns named %q", d.Name, s.Name)
+			}
+			cols[s.Name] = true
+			if len(s.Values) != len(d.Series[0].Values) {
+				t.Errorf("%s: column %s has %d values, %s has %d", d.Name, s.Name, len(s.Values), d.Series[0].Name, len(d.Series[0].Values))
+			}
+		}
+	}
+	for _, p := range pr.Panels {
+		for _, pl := range p.Plots {
+			if pl == nil {
+				continue
+			}
+			if _, ok := data[pl.Data]; pl.Data != "" && !ok {
+				t.Errorf("%s / %s: names Data %q, which is not there", p.Title, pl.Title, pl.Data)
+			}
+			for _, l := range pl.Layers {
+				if len(l.X) != len(l.Y) || (l.YLo != nil && len(l.YLo) != len(l.X)) || (l.YHi != nil && len(l.YHi) != len(l.X)) {
+					t.Errorf("%s / %s / %s: %d x, %d y, %d lo, %d hi", p.Title, pl.Title, l.Label, len(l.X), len(l.Y), len(l.YLo), len(l.YHi))
+				}
+			}
+		}
+	}
+	return data
+}
+
+// encoded is a presentation's gob encoding: two presentations are the same when these
+// bytes are (reflect.DeepEqual would call two NaNs different).
+func encoded(t *testing.T, pr steps.Presentation) []byte {
+	t.Helper()
+	var b bytes.Buffer
+	if err := gob.NewEncoder(&b).Encode(pr); err != nil {
+		t.Fatal(err)
+	}
+	return b.Bytes()
+}
+
+// column returns the named column of d.
+func column(t *testing.T, d steps.Data, name string) []float64 {
+	t.Helper()
+	for _, s := range d.Series {
+		if s.Name == name {
+			return s.Values
+		}
+	}
+	t.Fatalf("%s has no column %s", d.Name, name)
+	return nil
+}
+
+// layerPoints counts the points of the layers labelled label over a panel's plots.
+func layerPoints(p steps.Panel, label string) int {
+	n := 0
+	for _, pl := range p.Plots {
+		for _, l := range pl.Layers {
+			if l.Label == label {
+				n += len(l.X)
+			}
+		}
+	}
+	return n
+}
+
+func TestPresentShowsTrendMaskAndFlares(t *testing.T) {
+	// The package's fixture: two segments with a transit every 3.1 d (masked here) and a
+	// flare at every 200th point from the 50th.
+	lc, sig := fixture(2, 600)
+	res, _ := run(t, map[string]any{"estimator": "biweight"}, lc, []signals.Signal{sig}, 2)
+	cfg := steptest.MustConfig(New(), block(map[string]any{"estimator": "biweight", "mask": "search.dips"}))
+	in := steps.Inputs{Refs: map[string][]steps.Artifact{"light_curve": {photometry{lc}}, "mask": {search{[]signals.Signal{sig}}}}}
+	pr, err := steps.PresentationOf(New(), cfg, res, in)
+	if err != nil {
+		t.Fatal(err)
+	}
+	data := checkShape(t, pr)
+	count := func(m robust.Mark) int { return res.count(m) }
+
+	t.Run("it gives the three panels and the data", func(t *testing.T) {
+		want := []string{"Light curve and trend", "Detrended", "The star's own periods"}
+		if len(pr.Panels) != len(want) {
+			t.Fatalf("panels %d, want %v", len(pr.Panels), want)
+		}
+		for i, w := range want {
+			if pr.Panels[i].Title != w {
+				t.Errorf("panel %d is %q, want %q", i, pr.Panels[i].Title, w)
+			}
+		}
+		for _, p := range pr.Panels[:2] {
+			if len(p.Plots) != len(lc.Segments) {
+				t.Errorf("%s: %d plots for %d segments", p.Title, len(p.Plots), len(lc.Segments))
+			}
+		}
+		if len(data) != 1 || data["detrended"].Name != "detrended" {
+			t.Fatalf("data %v", data)
+		}
+		if rows := len(pr.Panels[2].Table.Rows); rows != len(res.Star.Periods) {
+			t.Errorf("%d rows for %d periods of the star", rows, len(res.Star.Periods))
+		}
+	})
+
+	t.Run("every input point is shown and counted by its fate", func(t *testing.T) {
+		if count(robust.InTransit) == 0 || count(robust.Flare) == 0 {
+			t.Fatal("the fixture should have masked points and flares")
+		}
+		d := data["detrended"]
+		if n := len(column(t, d, "time_d")); n != lc.Len() {
+			t.Fatalf("%d rows for %d input points", n, lc.Len())
+		}
+		sum := func(name string) int {
+			n := 0
+			for _, v := range column(t, d, name) {
+				n += int(v)
+			}
+			return n
+		}
+		if sum("in_output") != res.Curve.Len() || sum("in_masked_transit") != count(robust.InTransit) ||
+			sum("flare") != count(robust.Flare) || sum("no_trend") != count(robust.NoTrend) {
+			t.Errorf("0/1 columns do not match the marks")
+		}
+		trend, detr := pr.Panels[0], pr.Panels[1]
+		if got := layerPoints(detr, "in a masked transit"); got != count(robust.InTransit) {
+			t.Errorf("%d masked points drawn, %d marked", got, count(robust.InTransit))
+		}
+		if got := layerPoints(detr, "removed as a flare"); got != count(robust.Flare) {
+			t.Errorf("%d flares drawn, %d marked", got, count(robust.Flare))
+		}
+		if got := layerPoints(detr, "detrended flux"); got != count(robust.Kept) {
+			t.Errorf("%d detrended points drawn, %d kept", got, count(robust.Kept))
+		}
+		finite := 0
+		for _, tr := range res.Trends {
+			for _, v := range tr.Trend {
+				if !math.IsNaN(v) {
+					finite++
+				}
+			}
+		}
+		if got := layerPoints(trend, "trend"); got != finite {
+			t.Errorf("the trend line has %d points, the artifact %d finite trend values", got, finite)
+		}
+		if got := layerPoints(trend, "flux") + layerPoints(trend, "in a masked transit"); got != lc.Len()-count(robust.NonFinite) {
+			t.Errorf("%d input points drawn of %d", got, lc.Len())
+		}
+	})
+
+	t.Run("the detrended flux is the artifact's", func(t *testing.T) {
+		// newResult divides the input flux by the trend; the data do the same division, so
+		// the values agree to the bit.
+		d := data["detrended"]
+		flux, out := column(t, d, "flux"), column(t, d, "in_output")
+		var got []float64
+		for i, o := range out {
+			if o == 1 {
+				got = append(got, flux[i])
+			}
+		}
+		var want []float64
+		for _, s := range res.Curve.Segments {
+			want = append(want, s.Flux...)
+		}
+		if len(got) != len(want) {
+			t.Fatalf("%d points in the output, %d in the artifact", len(got), len(want))
+		}
+		for i := range got {
+			if got[i] != want[i] {
+				t.Fatalf("point %d: %v, artifact %v", i, got[i], want[i])
+			}
+		}
+	})
+
+	t.Run("two calls give the same presentation", func(t *testing.T) {
+		again, err := steps.PresentationOf(New(), cfg, res, in)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !bytes.Equal(encoded(t, pr), encoded(t, again)) {
+			t.Fatal("the presentations differ")
+		}
+	})
+}
+
+func TestPresentWithoutTheInputShowsTheKeptPoints(t *testing.T) {
+	lc, sig := fixture(1, 600)
+	res, _ := run(t, nil, lc, []signals.Signal{sig}, 1)
+	cfg := steptest.MustConfig(New(), block(nil))
+	pr, err := (Kind{}).Present(cfg.(*Config), res, steps.Inputs{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	data := checkShape(t, pr)
+	if n := len(column(t, data["detrended"], "time_d")); n != res.Curve.Len() {
+		t.Errorf("%d rows, want the %d kept points", n, res.Curve.Len())
+	}
+	if layerPoints(pr.Panels[1], "removed as a flare") != 0 {
+		t.Error("flares drawn without the input light curve")
+	}
+	if res.count(robust.Flare) > 0 && !bytes.Contains([]byte(pr.Panels[1].Caption), []byte("cannot be shown")) {
+		t.Errorf("the caption does not say the flares are missing: %q", pr.Panels[1].Caption)
+	}
+	// The input flux recovered as flux × trend is the input's to within rounding: one
+	// division and one multiplication, each within half an ulp.
+	d := data["detrended"]
+	raw, tm := column(t, d, "flux_as_read"), column(t, d, "time_d")
+	k := 0
+	s := lc.Segments[0]
+	for j := range s.Time {
+		if m := res.Trends[0].Marks[j]; m != robust.Kept && m != robust.InTransit {
+			continue
+		}
+		if tm[k] != s.Time[j] || math.Abs(raw[k]-s.Flux[j]) > 4e-16*math.Abs(s.Flux[j]) {
+			t.Fatalf("point %d: (%v, %v), input (%v, %v)", j, tm[k], raw[k], s.Time[j], s.Flux[j])
+		}
+		k++
+	}
+}
