@@ -136,10 +136,43 @@ type Figure struct {
 	// random draws (a posterior median, say), or 0 when Value is exact given the inputs.
 	// Two runs with different seeds differ by about √2 × MCError.
 	MCError float64
-	// Unit is the unit of Value and Sigma ("d", "ppm", "" for dimensionless).
+	// Lower and Upper are the distances from Value down to the lower end and up to the upper
+	// end of its interval, for a number summarised from draws whose spread may be lopsided:
+	// the 16th and 84th percentiles unless Doc names other ones. Both are positive (or zero
+	// at a bound); both are 0 when not known, and then Sigma stands for either side.
+	Lower, Upper float64
+	// Unit is the unit of Value, Sigma, Lower and Upper ("d", "ppm", "" for dimensionless).
 	Unit string
 	// Doc says in a few words what the number is.
 	Doc string
+	// Reason says why Value is undefined (NaN or ±Inf), as a clause that reads after
+	// "<name> is not given: ", e.g. "the companion's radius is not known". It is used only
+	// when Value is undefined; empty, the results file and the run summary say the number
+	// could not be computed from these data. An undefined figure is never written as a
+	// number (Defined).
+	Reason string
+}
+
+// Defined reports whether the figure has a value: not NaN and not ±Inf.
+func (f Figure) Defined() bool { return f.Value-f.Value == 0 }
+
+// defaultReason is why a figure is undefined when its kind does not say.
+const defaultReason = "it could not be computed from these data"
+
+// NotGiven says, for an undefined figure, that it is left out and why: "<name> is not
+// given: <reason>". The reason is the figure's own, or defaultReason.
+func (f Figure) NotGiven() string {
+	r := strings.TrimSuffix(strings.TrimSpace(f.Reason), ".")
+	if r == "" {
+		r = defaultReason
+	}
+	return f.Name + " is not given: " + r
+}
+
+// Asymmetric reports whether the figure states its interval side by side (Lower and Upper,
+// both finite, not both zero).
+func (f Figure) Asymmetric() bool {
+	return f.Lower-f.Lower == 0 && f.Upper-f.Upper == 0 && (f.Lower != 0 || f.Upper != 0)
 }
 
 // File is the content of one file a step reads. The engine reads it once, hashes the same

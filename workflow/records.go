@@ -9,6 +9,8 @@ import (
 	"path/filepath"
 	"runtime"
 	"runtime/debug"
+	"sort"
+	"strings"
 	"sync"
 	"time"
 
@@ -143,6 +145,12 @@ type ResultsFile struct {
 	Analysis string `json:"analysis"`
 	Workflow string `json:"workflow"`
 	Run      string `json:"run"`
+	// Overrides lists a what-if run's command-line settings as written after --set
+	// ("fit.planets.max_steps=2500"), sorted; WhatIf says in a sentence that the results
+	// are those of a what-if run with these settings replaced. Both are absent for a run of
+	// the workflow file as it stands.
+	Overrides []string `json:"overrides,omitempty"`
+	WhatIf    string   `json:"what_if,omitempty"`
 	// Statuses counts the steps by status (StatusComputed, StatusReused, StatusFailed,
 	// StatusSkipped: states.go).
 	Statuses map[string]int `json:"statuses"`
@@ -178,7 +186,10 @@ type StepResults struct {
 	Message string `json:"message,omitempty"`
 	Place   *Place `json:"place,omitempty"`
 	// Warning says why a stored result could not be used, for a step computed again.
-	Warning  string         `json:"warning,omitempty"`
+	Warning string `json:"warning,omitempty"`
+	// Notes says of each figure whose value is undefined that it is left out, and why
+	// ("b.on_c.radius_earth is not given: …"); absent when every figure has a value.
+	Notes    []string       `json:"notes,omitempty"`
 	Cautions []string       `json:"cautions,omitempty"`
 	Verdicts []VerdictEntry `json:"verdicts,omitempty"`
 	Figures  []FigureEntry  `json:"figures"`
@@ -193,11 +204,18 @@ type VerdictEntry struct {
 	Reason    string `json:"reason"`
 }
 
-// FigureEntry is one number with the step key beside it.
+// FigureEntry is one number with the step key beside it. A figure whose value is undefined
+// has no entry: its step's notes say why (steps.Figure.NotGiven).
 type FigureEntry struct {
-	Name    string   `json:"name"`
-	Value   *float64 `json:"value"`
-	Sigma   *float64 `json:"sigma,omitempty"`
+	Name string `json:"name"`
+	// Value is never null (an undefined figure is left out); a pointer as in schema 3.
+	Value *float64 `json:"value"`
+	Sigma *float64 `json:"sigma,omitempty"`
+	// Lower and Upper are the distances from value down to the lower and up to the upper
+	// end of its interval (the 16th and 84th percentiles unless the doc names others), for
+	// a number summarised from draws; absent when the kind gives only sigma.
+	Lower   *float64 `json:"err_lower,omitempty"`
+	Upper   *float64 `json:"err_upper,omitempty"`
 	MCError *float64 `json:"mc_error,omitempty"` // Monte Carlo standard error of value
 	Unit    string   `json:"unit,omitempty"`
 	Doc     string   `json:"doc,omitempty"`
@@ -205,14 +223,18 @@ type FigureEntry struct {
 }
 
 // resultsSchema names the results file's format. Version 3 added a failure's "place" and
-// a recomputed step's "warning", and the status words are those of states.go.
-const resultsSchema = "dipline-results/3"
+// a recomputed step's "warning", and the status words are those of states.go. Version 4
+// added a figure's "err_lower" and "err_upper", a step's "notes" (an undefined figure is
+// left out and named there, where version 3 wrote its value as null), and a what-if run's
+// "overrides" and "what_if".
+const resultsSchema = "dipline-results/4"
 
 // resultsOf builds the results file of a run from its outcomes, in the workflow's order.
 func resultsOf(w *Workflow, runID string, outcomes []*Outcome) ResultsFile {
 	rf := ResultsFile{Schema: resultsSchema, Analysis: w.Name, Workflow: w.Path, Run: runID,
 		Statuses: map[string]int{StatusComputed: 0, StatusReused: 0, StatusFailed: 0, StatusSkipped: 0},
 		Failures: []FailureEntry{}, Steps: []StepResults{}}
+	rf.Overrides, rf.WhatIf = WhatIf(overrideMap(w.Overrides))
 	for _, o := range outcomes {
 		rf.Statuses[o.Status]++
 		sr := StepResults{Step: o.Step.Addr, Kind: o.Step.Kind.Name(), Status: o.Status, Warning: o.Warning, Figures: []FigureEntry{}}
@@ -233,23 +255,31 @@ func resultsOf(w *Workflow, runID string, outcomes []*Outcome) ResultsFile {
 				sr.Verdicts = append(sr.Verdicts, VerdictEntry(v))
 			}
 		}
-		sr.Figures = figureEntries(o.Artifact.Figures(), sr.StepKey)
+		sr.Figures, sr.Notes = figureEntries(o.Artifact.Figures(), sr.StepKey)
 		rf.Steps = append(rf.Steps, sr)
 	}
 	return rf
 }
 
-func figureEntries(figs []steps.Figure, stepKey string) []FigureEntry {
+// figureEntries writes the figures that have a value, and says of each of the others that
+// it is not given and why.
+func figureEntries(figs []steps.Figure, stepKey string) ([]FigureEntry, []string) {
 	out := make([]FigureEntry, 0, len(figs))
+	var notes []string
 	for _, f := range figs {
-		e := FigureEntry{Name: f.Name, Unit: f.Unit, Doc: f.Doc, StepKey: stepKey}
-		if finite(f.Value) { // JSON has no NaN; a missing value is null
-			v := f.Value
-			e.Value = &v
+		if !f.Defined() { // JSON has no NaN, and a paper no use for one
+			notes = append(notes, f.NotGiven())
+			continue
 		}
+		v := f.Value
+		e := FigureEntry{Name: f.Name, Value: &v, Unit: f.Unit, Doc: f.Doc, StepKey: stepKey}
 		if f.Sigma != 0 && finite(f.Sigma) {
 			s := f.Sigma
 			e.Sigma = &s
+		}
+		if f.Asymmetric() {
+			lo, hi := f.Lower, f.Upper
+			e.Lower, e.Upper = &lo, &hi
 		}
 		if f.MCError != 0 && finite(f.MCError) {
 			m := f.MCError
@@ -257,7 +287,45 @@ func figureEntries(figs []steps.Figure, stepKey string) []FigureEntry {
 		}
 		out = append(out, e)
 	}
-	return out
+	return out, notes
+}
+
+// overrideMap is a run's command-line settings by name, as its run record holds them
+// (startRecord).
+func overrideMap(list []Override) map[string]string {
+	if len(list) == 0 {
+		return nil
+	}
+	m := map[string]string{}
+	for _, o := range list {
+		m[o.Addr+"."+o.Attr] = o.Value
+	}
+	return m
+}
+
+// WhatIf turns a run's command-line settings (cache.Run.Overrides: name → value as
+// written) into the lines the results file lists ("fit.planets.max_steps=2500", sorted by
+// name) and one plain sentence saying the results are a what-if run with them replaced;
+// nil and "" when there are none. The results file and the run summary both use it.
+func WhatIf(overrides map[string]string) (settings []string, sentence string) {
+	if len(overrides) == 0 {
+		return nil, ""
+	}
+	names := make([]string, 0, len(overrides))
+	for n := range overrides {
+		names = append(names, n)
+	}
+	sort.Strings(names)
+	for _, n := range names {
+		settings = append(settings, n+"="+overrides[n])
+	}
+	what := "this setting"
+	if len(settings) > 1 {
+		what = fmt.Sprintf("these %d settings", len(settings))
+	}
+	sentence = fmt.Sprintf("These results are from a what-if run: the workflow file was run with %s replaced on the command line (--set %s); the workflow file alone may give other results.",
+		what, strings.Join(settings, ", --set "))
+	return settings, sentence
 }
 
 func finite(f float64) bool { return f-f == 0 }

@@ -2,6 +2,8 @@ package main
 
 import (
 	"fmt"
+	"math"
+	"strconv"
 	"strings"
 
 	"dipline/steps"
@@ -14,8 +16,13 @@ const summaryWidth = 100
 // printSummary prints, after a run, the figures of the finished steps whose results no
 // finished step takes (the ends of the workflow's chains, or what was reached before a
 // failure; a step that only judges others, such as vet, ends no chain), then every finished
-// step's test counts and cautions, reused or computed.
+// step's test counts and cautions, reused or computed. A what-if run (--set) says so first;
+// a figure without a value is not printed as one, but named with the reason.
 func (c *cli) printSummary(rep *workflow.Report) {
+	if _, whatIf := workflow.WhatIf(rep.Run.Overrides); whatIf != "" {
+		fmt.Fprintln(c.out)
+		fmt.Fprint(c.out, wrap(whatIf, "", "  ", summaryWidth))
+	}
 	taken := map[string]bool{}
 	for _, o := range rep.Outcomes {
 		if !o.Finished() || judges(o) {
@@ -34,12 +41,42 @@ func (c *cli) printSummary(rep *workflow.Report) {
 			continue
 		}
 		fmt.Fprintf(c.out, "\n%s (step key %s)\n", o.Step.Addr, o.StepKey.Short())
+		var notGiven []string
 		for _, f := range figs {
-			fmt.Fprintf(c.out, "  %-26s %s %s\n", f.Name, workflow.FormatValue(f.Value, f.Sigma), f.Unit)
+			if !f.Defined() {
+				notGiven = append(notGiven, f.NotGiven())
+				continue
+			}
+			fmt.Fprintf(c.out, "  %-26s %s %s\n", f.Name, formatFigure(f), f.Unit)
+		}
+		for _, s := range notGiven {
+			fmt.Fprint(c.out, wrap(s, "  ", "    ", summaryWidth))
 		}
 	}
 	c.printJudgements(rep)
 	fmt.Fprintln(c.out)
+}
+
+// formatFigure writes a figure's value rounded by its uncertainty: "v +a −b" when it gives
+// an interval whose two sides differ once rounded (the smaller side to two significant
+// figures, as workflow.FormatValue rounds σ), else "v ± σ".
+func formatFigure(f steps.Figure) string {
+	if !f.Asymmetric() || !(f.Lower > 0) || !(f.Upper > 0) {
+		return workflow.FormatValue(f.Value, f.Sigma)
+	}
+	place := int(math.Floor(math.Log10(math.Min(f.Lower, f.Upper)))) - 1
+	round := func(x float64) string {
+		if place >= 0 {
+			scale := math.Pow(10, float64(place))
+			return strconv.FormatFloat(math.Round(x/scale)*scale, 'f', 0, 64)
+		}
+		return strconv.FormatFloat(x, 'f', -place, 64)
+	}
+	up, down := round(f.Upper), round(f.Lower)
+	if up == down {
+		return round(f.Value) + " ± " + up
+	}
+	return round(f.Value) + " +" + up + " −" + down
 }
 
 // judges reports whether a finished step judges others (a vet step): it reads the steps it

@@ -167,7 +167,7 @@ func TestACatalogueRevisionRerunsOnlyTheStarsReaders(t *testing.T) {
 		}
 		return st
 	}
-	runDir(t, dir, shortFit...)
+	checkPaperReady(t, dir, runDir(t, dir, shortFit...))
 	for addr, s := range statuses(runDir(t, dir, shortFit...)) {
 		if s != workflow.StatusReused {
 			t.Errorf("second run: %s %s, want reused", addr, s)

@@ -304,7 +304,7 @@ func TestOneCompanionInTwoBands(t *testing.T) {
 	for _, f := range l.Figures() {
 		got[f.Name] = f.Value
 	}
-	if got["count"] != 1 || got["b.dmag_ks"] != 3.5 || got["b.dmag_survey-red"] != 4.2 {
+	if got["count"] != 1 || got["b.dmag_ks"] != 3.5 || got["b.dmag_survey_red"] != 4.2 {
 		t.Errorf("figures %v: want one companion with Δm 3.5 in Ks and 4.2 in survey-red", got)
 	}
 }

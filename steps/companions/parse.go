@@ -290,14 +290,16 @@ func (r row) radius(c *stellar.Companion) error {
 }
 
 // FigureName turns a companion's name into the part of a figure name that stands for it:
-// letters, digits, '-' and '_' are kept, letters in lower case, and every other run of
-// characters becomes one '_'. Parse refuses two companions with the same FigureName.
+// letters, digits and '_' are kept, letters in lower case, and every other run of
+// characters (a '-' included, so that no figure name holds a hyphen that reads as a minus
+// sign: "FW-3318 B" is fw_3318_b) becomes one '_'. Parse refuses two companions with the
+// same FigureName.
 func FigureName(name string) string {
 	var b strings.Builder
 	under := false
 	for _, r := range name {
 		switch {
-		case r >= 'a' && r <= 'z', r >= '0' && r <= '9', r == '-', r == '_':
+		case r >= 'a' && r <= 'z', r >= '0' && r <= '9', r == '_':
 			b.WriteRune(r)
 			under = false
 		case r >= 'A' && r <= 'Z':

@@ -68,10 +68,11 @@ func (a *Artifact) Quantity(planet, name string) *Quantity {
 	return nil
 }
 
-// figure turns a summary into a Figure: the median with σ half the 16–84 % range, or the
-// 95 % upper limit with σ = 0. The rounded text goes into the doc. The Monte Carlo error of
-// a median from ess effective draws is √(π/2) σ/√ess (common practice); for a limit it is
-// left at 0, unknown.
+// figure turns a summary into a Figure: the median with σ half the 16–84 % range and the
+// distances down to the 16th and up to the 84th percentile as Lower and Upper, or the 95 %
+// upper limit with σ = 0 and no interval. The rounded text goes into the doc. The Monte
+// Carlo error of a median from ess effective draws is √(π/2) σ/√ess (common practice); for
+// a limit it is left at 0, unknown.
 func (q Quantity) figure(name string, ess float64) steps.Figure {
 	f := steps.Figure{Name: name, Unit: q.Unit}
 	if q.UpperLimit {
@@ -80,12 +81,27 @@ func (q Quantity) figure(name string, ess float64) steps.Figure {
 	} else {
 		f.Value = q.Median
 		f.Sigma = (q.Hi - q.Lo) / 2
+		f.Lower, f.Upper = q.Median-q.Lo, q.Hi-q.Median
 		if ess > 0 {
 			f.MCError = math.Sqrt(math.Pi/2) * f.Sigma / math.Sqrt(ess)
 		}
 		f.Doc = q.Doc + "; median, 16–84 %: " + q.Format()
 	}
 	return f
+}
+
+// unknownHostRadius is why a planet's radius on a companion is undefined: the dilution step
+// knows no radius for that companion.
+const unknownHostRadius = "the radius of %s is not known (the companions table gives none and none could be estimated), so the planet's radius on it cannot be computed"
+
+// quantity returns the planet's named quantity, or nil.
+func (p *Planet) quantity(name string) *Quantity {
+	for i := range p.Quantities {
+		if p.Quantities[i].Name == name {
+			return &p.Quantities[i]
+		}
+	}
+	return nil
 }
 
 // effectiveSamples is the number of effective fit samples behind the summaries: the
@@ -141,7 +157,14 @@ func (a *Artifact) Figures() []steps.Figure {
 		for _, h := range p.Hosts {
 			pre := p.Name + ".on_" + steps.FigureKey(h.Host) + "."
 			for _, q := range h.Quantities {
-				figs = append(figs, mark(q.figure(pre+q.Name, ess)))
+				f := mark(q.figure(pre+q.Name, ess))
+				if !f.Defined() {
+					f.Reason = fmt.Sprintf(unknownHostRadius, h.Host)
+					if r := p.quantity("radius_earth"); r == nil || math.IsNaN(r.Median) {
+						f.Reason = "the star's radius is not known, so no planet radius can be computed"
+					}
+				}
+				figs = append(figs, f)
 			}
 			flag, doc := 0.0, "1 when the radius on this host exceeds the planetary limit, else 0"
 			if h.NotPlanetary {

@@ -126,17 +126,19 @@ func (r *Result) check() error {
 	return nil
 }
 
-// Summary is the median and one-sigma half-width of a set of draws, and the Monte Carlo
+// Summary is the median and one-sigma half-width of a set of draws, the distances from the
+// median down to the lower and up to the upper end of that interval, and the Monte Carlo
 // standard error of the median.
-type Summary struct{ Median, Sigma, MCError float64 }
+type Summary struct{ Median, Sigma, Lower, Upper, MCError float64 }
 
 // Summarize returns the median of xs and half the width of its central 68.27 % interval
 // (15.87 % to 84.13 %, the normal one-sigma fractions), by linear interpolation between
-// order statistics. It does not modify xs.
+// order statistics, with the interval's two sides. It does not modify xs.
 func Summarize(xs []float64) Summary {
 	s := slices.Clone(xs)
 	sort.Float64s(s)
-	sum := Summary{Median: quantile(s, 0.5), Sigma: (quantile(s, 0.841344746) - quantile(s, 0.158655254)) / 2}
+	lo, mid, hi := quantile(s, 0.158655254), quantile(s, 0.5), quantile(s, 0.841344746)
+	sum := Summary{Median: mid, Sigma: (hi - lo) / 2, Lower: mid - lo, Upper: hi - mid}
 	if len(s) > 0 {
 		sum.MCError = medianSE * sum.Sigma / math.Sqrt(float64(len(s)))
 	}
@@ -194,18 +196,22 @@ func (r *Result) Figures() []steps.Figure {
 		}
 		fr := Summarize(h.FluxRatio)
 		figs = append(figs, steps.Figure{Name: p + "flux_ratio", Value: fr.Median, Sigma: fr.Sigma, MCError: fr.MCError,
+			Lower: fr.Lower, Upper: fr.Upper,
 			Doc: fmt.Sprintf("light of all other stars over that of %s in band %s, planet on %s%s", on, r.Band, on, caution)})
 		xr := Summarize(RadiusFactor(h))
 		if h.RadiusScale == nil {
 			figs = append(figs, steps.Figure{Name: p + "flux_factor", Value: xr.Median, Sigma: xr.Sigma, MCError: xr.MCError,
+				Lower: xr.Lower, Upper: xr.Upper,
 				Doc: fmt.Sprintf("√(1 + flux ratio), planet on %s: its radius factor were it the target's size (no radius: %s)%s", on, r.RadiusSource[k], caution)})
 			continue
 		}
 		figs = append(figs, steps.Figure{Name: p + "radius_factor", Value: xr.Median, Sigma: xr.Sigma, MCError: xr.MCError,
+			Lower: xr.Lower, Upper: xr.Upper,
 			Doc: fmt.Sprintf("X_R, true over target-alone planet radius, planet on %s%s", on, caution)})
 		if k > 0 {
 			rs := Summarize(h.RadiusScale)
 			figs = append(figs, steps.Figure{Name: p + "radius_scale", Value: rs.Median, Sigma: rs.Sigma, MCError: rs.MCError,
+				Lower: rs.Lower, Upper: rs.Upper,
 				Doc: fmt.Sprintf("radius of %s over the target's (from %s)", on, r.RadiusSource[k])})
 		}
 	}

@@ -115,7 +115,8 @@ func (a *Artifact) Figures() []steps.Figure {
 		minESS = math.Min(minESS, d.ESS)
 	}
 	add := func(name, col, unit, doc string, factor float64) {
-		med, sig := a.Summary(col)
+		lo, med, hi := quantiles(a.Column(col))
+		sig := (hi - lo) / 2
 		// The Monte Carlo error of a median from ESS effective draws: √(π/2) σ/√ESS for a
 		// near-normal posterior (common practice); derived columns take the smallest ESS.
 		ess := minESS
@@ -127,6 +128,7 @@ func (a *Artifact) Figures() []steps.Figure {
 			mc = math.Sqrt(math.Pi/2) * sig * factor / math.Sqrt(ess)
 		}
 		figs = append(figs, steps.Figure{Name: name, Value: med * factor, Sigma: sig * factor, MCError: mc, Unit: unit,
+			Lower: (med - lo) * factor, Upper: (hi - med) * factor,
 			Doc: doc + "; posterior median, σ half the 16–84 % range"})
 	}
 	for j := range a.Reference {
@@ -173,14 +175,16 @@ func (a *Artifact) Figures() []steps.Figure {
 	figs = append(figs,
 		steps.Figure{Name: "diag.max_tau", Value: maxTau, Unit: "steps", Doc: "largest integrated autocorrelation time over the sampled parameters"},
 		steps.Figure{Name: "diag.min_ess", Value: minESS, Doc: "smallest effective sample size over the sampled parameters"},
-		steps.Figure{Name: "diag.max_rhat", Value: maxRhat, Doc: "largest rank-normalised split R-hat across ensembles (Vehtari et al. 2021); near 1 when they agree"},
+		steps.Figure{Name: "diag.max_rhat", Value: maxRhat, Doc: "largest rank-normalised split R-hat across ensembles (Vehtari et al. 2021); near 1 when they agree",
+			Reason: "R-hat needs at least two ensembles, each with enough steps after burn-in"},
 		steps.Figure{Name: "diag.acceptance", Value: a.Acceptance, Doc: "mean fraction of accepted stretch moves"},
 	)
 	betaDoc := "time-averaging factor β of the best fit's residuals over bins of 10 min to a transit duration (Pont, Zucker & Queloz 2006); 1 for white noise"
 	if a.Inflated {
 		betaDoc += "; the errors were multiplied by it before sampling"
 	}
-	figs = append(figs, steps.Figure{Name: "noise.beta", Value: a.Beta, Doc: betaDoc})
+	figs = append(figs, steps.Figure{Name: "noise.beta", Value: a.Beta, Doc: betaDoc,
+		Reason: "the best fit's residuals are too few or too short to be binned from 10 minutes to a transit duration"})
 	return append(figs, a.timeFigures()...)
 }
 
@@ -252,7 +256,8 @@ func (a *Artifact) timeFigures() []steps.Figure {
 			steps.Figure{Name: p + "timing.t_ref", Value: e.TRef, Sigma: e.SigmaTRef, Unit: "d",
 				Doc: fmt.Sprintf("mid-time of transit %d of the linear ephemeris (nearly uncorrelated with its period), %s", e.RefEpoch, frame)},
 			steps.Figure{Name: p + "timing.chi2", Value: e.Chi2, Doc: fmt.Sprintf("χ² of the transit times about the linear ephemeris, %d degrees of freedom", e.Dof)},
-			steps.Figure{Name: p + "timing.p_value", Value: e.PValue, Doc: "probability of a χ² at least this large for a strictly periodic orbit; below 0.01 a caution is printed"},
+			steps.Figure{Name: p + "timing.p_value", Value: e.PValue, Doc: "probability of a χ² at least this large for a strictly periodic orbit; below 0.01 a caution is printed",
+				Reason: "two transit times fix the linear ephemeris exactly, leaving no degree of freedom to test it"},
 		)
 		byEpoch := map[int64]timing.OC{}
 		for _, r := range e.Rows {
@@ -263,13 +268,27 @@ func (a *Artifact) timeFigures() []steps.Figure {
 			if t.Skipped != "" || !ok {
 				continue
 			}
-			n := p + "transit" + strconv.FormatInt(t.Epoch, 10) + "."
+			n := p + TransitName(t.Epoch) + "."
 			figs = append(figs,
 				steps.Figure{Name: n + "time", Value: t.Time, Sigma: t.Sigma(), Unit: "d", Doc: "mid-time of this transit, " + frame},
 				steps.Figure{Name: n + "o_minus_c", Value: r.OC, Sigma: r.SigmaOC, Unit: "min", Doc: "observed minus calculated mid-time against the linear ephemeris"})
 		}
 	}
 	return figs
+}
+
+// TransitName names the transit epoch transits after the planet's reference transit in
+// figure names, without a sign that could be read as a hyphen or a minus: "transit0" for
+// the reference transit, "transit_after3" for the third after it and "transit_before3" for
+// the third before it.
+func TransitName(epoch int64) string {
+	switch {
+	case epoch > 0:
+		return "transit_after" + strconv.FormatInt(epoch, 10)
+	case epoch < 0:
+		return "transit_before" + strconv.FormatUint(uint64(-epoch), 10)
+	}
+	return "transit0"
 }
 
 const (

@@ -77,7 +77,7 @@ func (r *Result) Figures() []steps.Figure {
 	var out []steps.Figure
 	for i, s := range r.LC.Segments {
 		st := r.Stats[i]
-		p := "segment" + s.ID + "."
+		p := "segment" + steps.FigureKey(s.ID) + "."
 		out = append(out,
 			steps.Figure{Name: p + "points", Value: float64(s.Len()), Doc: "points kept"},
 			steps.Figure{Name: p + "cadence", Value: st.Cadence * 1440, Unit: "min", Doc: "median time between points"},

@@ -29,9 +29,15 @@ const oneSigmaLo, oneSigmaHi = 0.15865525393145707, 0.8413447460685429
 
 // summary returns the median and half the 15.9–84.1 % range of v.
 func summary(v []float64) (med, sigma float64) {
+	lo, med, hi := percentiles(v)
+	return med, (hi - lo) / 2
+}
+
+// percentiles returns the 15.9th, 50th and 84.1st percentiles of v.
+func percentiles(v []float64) (lo, med, hi float64) {
 	s := slices.Clone(v)
 	slices.Sort(s)
-	return sortedQuantile(s, 0.5), (sortedQuantile(s, oneSigmaHi) - sortedQuantile(s, oneSigmaLo)) / 2
+	return sortedQuantile(s, oneSigmaLo), sortedQuantile(s, 0.5), sortedQuantile(s, oneSigmaHi)
 }
 
 // Figures lists, for each quantity the method gives, the median of the draws and as its σ
@@ -64,11 +70,13 @@ func (a *Artifact) Figures() []steps.Figure {
 		if it.v == nil {
 			continue
 		}
-		m, sg := summary(it.v)
+		lo, m, hi := percentiles(it.v)
+		sg := (hi - lo) / 2
 		// The Monte Carlo error of the median of n independent draws, √(π/2) σ/√n (common
 		// practice), so that a run-to-run diff can tell a shift from sampling noise.
 		mc := math.Sqrt(math.Pi/2) * sg / math.Sqrt(float64(len(it.v)))
 		figs = append(figs, steps.Figure{Name: it.name, Value: m, Sigma: sg, MCError: mc, Unit: it.unit,
+			Lower: m - lo, Upper: hi - m,
 			Doc: "median of the draws, σ half their 15.9–84.1 % range: " + it.doc})
 	}
 	return figs

@@ -92,7 +92,12 @@ func (a *Artifact) Figures() []steps.Figure {
 				Doc: "factor applied to the stated errors in this signal's box fits: the robust scatter of the flux outside every transit over its errors, times the excess scatter of means over bins one duration long when above 1"})
 		}
 		for _, t := range s.Tests {
-			figs = append(figs, t.Figures...)
+			for _, f := range t.Figures {
+				if !f.Defined() && f.Reason == "" && t.Verdict == NotRun && t.Reason != "" {
+					f.Reason = "the " + title(t.Name) + " test could not run: " + t.Reason
+				}
+				figs = append(figs, f)
+			}
 		}
 		figs = append(figs,
 			steps.Figure{Name: s.Name + ".disagree", Value: float64(s.count(steps.VerdictDisagree)),
