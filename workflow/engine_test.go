@@ -136,7 +136,7 @@ func TestRunComputesThenReuses(t *testing.T) {
 		t.Errorf("second run called Run: %v", n)
 	}
 	b, err := os.ReadFile(filepath.Join(p.dir, "results", "results.json"))
-	if err != nil || !strings.Contains(string(b), `"schema": "dipline-results/3"`) || !strings.Contains(string(b), `"step_key"`) {
+	if err != nil || !strings.Contains(string(b), `"schema": "dipline-results/4"`) || !strings.Contains(string(b), `"step_key"`) {
 		t.Fatalf("results file missing or incomplete: %v\n%s", err, b)
 	}
 }

@@ -26,10 +26,11 @@ func stepInputs(s *Step, ref func(addr string) steps.Artifact) steps.Inputs {
 	return in
 }
 
-// stepEnv is what a running step is lent: the token pool, a recorder of notes and, when
-// its kind draws random numbers, its seed.
-func (w *Workflow) stepEnv(s *Step, pool *steps.Pool, notef func(format string, args ...any)) steps.Env {
-	env := steps.Env{Pool: pool, Notef: notef}
+// stepEnv is what a running step is lent: the token pool, a recorder of notes, a
+// reporter of progress (nil for none) and, when its kind draws random numbers, its seed.
+// Progress only watches: nothing it is told reaches a key, a record or a result.
+func (w *Workflow) stepEnv(s *Step, pool *steps.Pool, notef func(format string, args ...any), progress func(done, total int)) steps.Env {
+	env := steps.Env{Pool: pool, Notef: notef, Progress: progress}
 	if s.Kind.Random() {
 		env.Seed = w.StepSeed(s)
 	}

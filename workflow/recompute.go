@@ -524,7 +524,7 @@ func (w *Workflow) recomputeOne(ctx context.Context, store *cache.Store, pool *s
 		return err
 	}
 	in := stepInputs(p.step, func(addr string) steps.Artifact { return arts[addr] })
-	env := w.stepEnv(p.step, pool, func(string, ...any) {})
+	env := w.stepEnv(p.step, pool, func(string, ...any) {}, nil)
 	t0 := time.Now()
 	art, err := runGuarded(ctx, p.step, in, env)
 	o.Seconds = time.Since(t0).Seconds()

@@ -24,6 +24,12 @@ type Options struct {
 	Workers int
 	// OnEvent is called as each step ends, from the step's goroutine, one call at a time.
 	OnEvent func(Event)
+	// OnProgress, when set, is told how far a computing step is: done out of total units
+	// of its own work (steps.Env.Progress), never going back, ending at done = total when
+	// the step reports to the end. It is called from the steps' goroutines, for several
+	// steps at once, so it must be safe for concurrent use, and quick. What it is told
+	// reaches no key, record or result.
+	OnProgress func(step string, done, total int)
 	// Events, when set, receives one JSON object per line per step.
 	Events io.Writer
 	// Now gives the time for run and provenance records (default time.Now).
@@ -79,6 +85,8 @@ type Report struct {
 	Outcomes []*Outcome // in the workflow's order
 	// ResultsPath is the results file written, or "" when it could not be written.
 	ResultsPath string
+	// ReportPath is the page written beside it (report.html, present.go), or "".
+	ReportPath string
 }
 
 // Run computes or reuses every step of w, storing each computed result at once (so an
@@ -140,6 +148,11 @@ func Run(ctx context.Context, w *Workflow, store *cache.Store, opt Options) (*Re
 		runErr.Faults = append(runErr.Faults, fmt.Errorf("writing the results file: %w", err))
 	} else {
 		rep.ResultsPath = path
+	}
+	if page, err := writeReport(w, store, run, rep.Outcomes); err != nil {
+		runErr.Faults = append(runErr.Faults, fmt.Errorf("writing the report: %w", err))
+	} else {
+		rep.ReportPath = page
 	}
 	if runErr.empty() {
 		return rep, nil
@@ -338,7 +351,7 @@ func (r *runner) compute(ctx context.Context, s *Step, o *Outcome, upstream map[
 		notesMu.Lock()
 		notes = append(notes, fmt.Sprintf(format, args...))
 		notesMu.Unlock()
-	})
+	}, r.progress(s))
 	if err := r.pool.Acquire(ctx); err != nil {
 		r.skip(o, CauseStopped, r.stopReason(ctx, false))
 		return
@@ -367,6 +380,14 @@ func (r *runner) compute(ctx context.Context, s *Step, o *Outcome, upstream map[
 	}
 	o.Status, o.ResultKey, o.Artifact = StatusComputed, rk, art
 	r.emit(o, notes)
+}
+
+// progress is the step's reporter of progress, or nil when the run has no OnProgress.
+func (r *runner) progress(s *Step) func(done, total int) {
+	if r.opt.OnProgress == nil {
+		return nil
+	}
+	return func(done, total int) { r.opt.OnProgress(s.Addr, done, total) }
 }
 
 // note keeps a reused step's line for the next commit.

@@ -25,6 +25,7 @@ func (c *cli) run(args []string) int {
 	workers := fs.Int("workers", runtime.NumCPU(), "worker tokens shared by steps and numerical cores")
 	events := fs.String("events", "", "write one JSON object per step to this file")
 	wait := fs.Duration("wait", 30*time.Second, "how long to wait for another run holding the store")
+	quiet := fs.Bool("quiet", false, "show nothing of how far the computing steps are")
 	var sets listFlag
 	fs.Var(&sets, "set", "override one attribute for this run: kind.label.attribute=value (repeatable)")
 	pos, ok := c.flags(fs, args)
@@ -75,10 +76,26 @@ func (c *cli) run(args []string) int {
 		defer f.Close()
 		opt.Events = f
 	}
+	var show *progressShow
+	if !*quiet {
+		// While the run lasts, other output wipes the progress line first (progress.go).
+		show = newProgressShow(c.err, progressOnTerminal(c.err), progressClock)
+		out, errw := c.out, c.err
+		c.out, c.err = show.before(out), show.before(errw)
+		defer func() { c.out, c.err = out, errw }()
+		opt.OnProgress = show.update
+		opt.OnEvent = func(ev workflow.Event) {
+			show.end(ev.Step)
+			c.printEvent(ev)
+		}
+	}
 	ctx, stop := interruptible()
 	defer stop()
 	t0 := time.Now()
 	rep, err := workflow.Run(ctx, w, store, opt)
+	if show != nil {
+		show.close() // every step is over: the line goes before the summary
+	}
 	if rep == nil { // Run gives a report whenever it ran
 		fmt.Fprintln(c.err, "dipline run:", err)
 		return exitFor(err)
@@ -107,6 +124,9 @@ func (c *cli) run(args []string) int {
 	line := fmt.Sprintf("run %s · %.2f s", rep.Run.ID, time.Since(t0).Seconds())
 	if rep.ResultsPath != "" {
 		line += " · results in " + rel(rep.ResultsPath)
+	}
+	if rep.ReportPath != "" {
+		line += " · report " + rel(rep.ReportPath)
 	}
 	fmt.Fprintln(c.out, line)
 	return code

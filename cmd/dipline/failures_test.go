@@ -159,7 +159,7 @@ func TestALastStepThatFailsKeepsTheOthersResults(t *testing.T) {
 	})
 	t.Run("the results file has the finished steps and the failure", func(t *testing.T) {
 		rf := f.results()
-		if rf.Schema != "dipline-results/3" {
+		if rf.Schema != "dipline-results/4" {
 			t.Errorf("schema %q", rf.Schema)
 		}
 		s := stepIn(t, rf, "search.dips")

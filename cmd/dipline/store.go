@@ -13,11 +13,15 @@ import (
 	"dipline/workflow"
 )
 
-const storeUsage = `dipline store — look after the workflow's store.
+const storeUsage = `Usage: dipline store COMMAND [workflow.hcl] [options]
+
+Looks after the workflow's store.
 
   dipline store stats   [workflow.hcl]
-  dipline store verify  [workflow.hcl] [--drop-damaged]
-        re-hash every result, check every record and every page of the file
+        what the store holds, and its size on disk
+  dipline store verify  [workflow.hcl] [--drop-damaged] [--recompute [--sample N] [--sample-seed N] [--run RUN]]
+        re-hash every result, check every record and every page of the file; with
+        --recompute, also compute stored steps again and require the same bits
   dipline store prune   [workflow.hcl] [--aged AGE] [--spare N] [--spare-interrupted AGE]
         drop runs (never a pinned one) and whatever no remaining run uses; shrink the file
   dipline store merge   [workflow.hcl] OTHER.db
@@ -25,8 +29,48 @@ const storeUsage = `dipline store — look after the workflow's store.
   dipline store salvage [workflow.hcl] --into NEW.db
         copy all that still reads of a damaged store into a new one, listing what could not be
 
-Ages are written as in a workflow: "30 d", "12 h", "1 yr".
+Ages are written as in a workflow: "30 d", "12 h", "1 yr". Each command explains its
+options with --help, e.g. dipline store prune --help.
+
+Examples:
+  dipline store stats
+  dipline store prune --aged "30 d" --spare 5
 `
+
+// storeDocs holds the help of each store command, by the name of its flag set.
+var storeDocs = map[string]commandDoc{
+	"store stats": {
+		call:     "store stats [workflow.hcl]",
+		about:    "Says what the store holds: results and their size, step keys, provenance records, runs and pins.",
+		examples: []string{"dipline store stats"},
+	},
+	"store verify": {
+		call: "store verify [workflow.hcl] [options]",
+		about: `Re-hashes every stored result, checks that every step key maps to the result its
+provenance names, and reads every record and every page of the file. With --recompute it
+also runs stored steps again from their recorded inputs and requires the same bits.`,
+		examples: []string{"dipline store verify", "dipline store verify --recompute --sample 3"},
+	},
+	"store prune": {
+		call: "store prune [workflow.hcl] [options]",
+		about: `Drops runs started longer ago than --aged or beyond the --spare newest (never a
+pinned run, nor an interrupted one younger than --spare-interrupted), removes whatever no
+remaining run uses, and shrinks the file. Ages are written as in a workflow: "30 d".`,
+		examples: []string{`dipline store prune --aged "30 d"`, "dipline store prune --spare 10"},
+	},
+	"store merge": {
+		call: "store merge [workflow.hcl] OTHER.db",
+		about: `Folds another store (a survey shard's, say) into this workflow's: the same key with
+the same bytes is fine, the same key with other bytes is reported as a conflict.`,
+		examples: []string{"dipline store merge shards/target-0042.db"},
+	},
+	"store salvage": {
+		call: "store salvage [workflow.hcl] --into NEW.db",
+		about: `Reads a damaged store page by page, never changing it, and writes all that still
+reads into a new store, listing what it dropped and why.`,
+		examples: []string{"dipline store salvage --into rescued.db"},
+	},
+}
 
 // defaultSpareInterrupted is how long prune keeps an interrupted run's results: a killed
 // run is normally followed by a run that finishes the work and records those results as
@@ -35,13 +79,20 @@ Ages are written as in a workflow: "30 d", "12 h", "1 yr".
 const defaultSpareInterrupted = "14 d"
 
 func (c *cli) storeCmd(args []string) int {
-	if len(args) == 0 || args[0] == "help" || args[0] == "-h" || args[0] == "--help" {
-		fmt.Fprint(c.err, storeUsage)
+	if len(args) == 0 {
+		fmt.Fprint(c.err, "dipline store: name what to do with the store\n\n"+storeUsage)
 		return exitBadUser
+	}
+	if args[0] == "help" || isHelp(args[0]) {
+		if len(args) > 1 && args[0] == "help" { // dipline store help prune
+			return c.storeCmd([]string{args[1], "--help"})
+		}
+		fmt.Fprint(c.out, storeUsage)
+		c.helped = true
+		return exitOK
 	}
 	sub, args := args[0], args[1:]
 	fs := flag.NewFlagSet("store "+sub, flag.ContinueOnError)
-	fs.Usage = func() { fmt.Fprint(c.err, storeUsage) }
 	switch sub {
 	case "stats":
 		return c.storeStats(fs, args)
@@ -54,7 +105,7 @@ func (c *cli) storeCmd(args []string) int {
 	case "salvage":
 		return c.storeSalvage(fs, args)
 	}
-	fmt.Fprintf(c.err, "dipline store: unknown subcommand %q (stats, verify, prune, merge, salvage)\n", sub)
+	fmt.Fprintf(c.err, "dipline store: there is no store command %q; the store's commands are stats, verify, prune, merge and salvage (dipline store --help)\n", sub)
 	return exitBadUser
 }
 

@@ -275,10 +275,10 @@ func TestTheHousekeepingOptionsAreOurOwn(t *testing.T) {
 		{"an age is a quantity of time", []string{"store", "prune", "--aged", "30 d"}, exitOK, "dropped 0 runs"},
 		{"an age without a unit is refused with the units", []string{"store", "prune", "--aged", "30"}, exitBadUser, "has no unit"},
 		{"an age in an unknown unit is refused", []string{"store", "prune", "--aged", "30 days"}, exitBadUser, "unknown time unit"},
-		{"the old count option is gone", []string{"store", "prune", "--keep-last", "1"}, exitBadUser, "not defined: -keep-last"},
-		{"the old age option is gone", []string{"store", "prune", "--older-than", "720h"}, exitBadUser, "not defined: -older-than"},
-		{"the old verify option is gone", []string{"store", "verify", "--repair"}, exitBadUser, "not defined: -repair"},
-		{"the store's help lists the salvage", []string{"store", "help"}, exitBadUser, "dipline store salvage [workflow.hcl] --into NEW.db"},
+		{"the old count option is gone", []string{"store", "prune", "--keep-last", "1"}, exitBadUser, "there is no option --keep-last"},
+		{"the old age option is gone", []string{"store", "prune", "--older-than", "720h"}, exitBadUser, "there is no option --older-than"},
+		{"the old verify option is gone", []string{"store", "verify", "--repair"}, exitBadUser, "there is no option --repair"},
+		{"the store's help lists the salvage", []string{"store", "help"}, exitOK, "dipline store salvage [workflow.hcl] --into NEW.db"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			code, out, errs := f.dipline(tc.args...)

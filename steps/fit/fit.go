@@ -109,6 +109,10 @@ type Options struct {
 	InflateByBeta bool
 	// Parallel runs block(i) for i in [0, n); nil runs serially. Results do not depend on it.
 	Parallel parallel.Func
+	// Progress, when not nil, is told how far the sampling is: ensemble updates done out of
+	// the most there can be (sampler.Schedule.Progress), ending at done = total. It only
+	// watches; the results are the same bits with it or without it.
+	Progress func(done, total int)
 
 	nsub int // sub-exposures per point instead of subexposures' choice, for tests
 }
@@ -218,7 +222,7 @@ func schedule(o Options) sampler.Schedule {
 		MaxSteps: o.MaxSteps, Chunk: chunk, LengthPerTau: lengthPerTau, BurnShare: burnShare,
 		GuideAfter: guideAfter, MinFirstPhase: minFirstPhase, GuideGain: guideGain,
 		DEShare: deShare, GuidedDEShare: guidedDEShare, GuideShare: guideShare,
-		Seed: o.Seed, SeedLabel: "fit/ensemble", Parallel: o.Parallel,
+		Seed: o.Seed, SeedLabel: "fit/ensemble", Parallel: o.Parallel, Progress: o.Progress,
 	}
 }
 

@@ -333,6 +333,7 @@ func (Kind) Run(ctx context.Context, cfg *Config, in steps.Inputs, env steps.Env
 		Parallel: func(k int, block func(i int)) {
 			env.Pool.Parallel(k, block)
 		},
+		Progress: env.Progress,
 	}
 	art, notes, err := Fit(ctx, src.LightCurve(), o)
 	if err != nil {

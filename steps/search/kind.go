@@ -151,17 +151,33 @@ func (Kind) Run(ctx context.Context, cfg *Config, in steps.Inputs, env steps.Env
 			}
 		})
 	}
-	var mu sync.Mutex
-	progress := func(pass, done, total int) {
-		if env.Progress != nil {
-			mu.Lock()
-			env.Progress(pass*total+done, cfg.MaxSignals*total)
-			mu.Unlock()
+	// Progress is one count over every pass the search may make (max_signals of them, each
+	// over the whole grid), never going back: blocks finish out of order, so a smaller count
+	// arriving late is dropped. A search that ends before its last pass then reports the
+	// whole as done.
+	var (
+		mu       sync.Mutex
+		reported int
+		all      int // blocks in all passes; 0 until the first report
+	)
+	progress := func(pass, done, perPass int) {
+		if env.Progress == nil {
+			return
+		}
+		mu.Lock()
+		defer mu.Unlock()
+		all = cfg.MaxSignals * perPass
+		if n := min(pass*perPass+done, all); n > reported {
+			reported = n
+			env.Progress(n, all)
 		}
 	}
 	art, notes, err := Search(*cfg, src.LightCurve(), par, progress)
 	if err != nil {
 		return nil, err
+	}
+	if env.Progress != nil && all > 0 && reported < all {
+		env.Progress(all, all)
 	}
 	if err := ctx.Err(); err != nil {
 		return nil, err

@@ -141,17 +141,24 @@ func (d *Dimension) Parse(s string) (float64, error) {
 	return v * f, nil
 }
 
-// ParseMeasurement reads "value ± sigma unit" (or "value +/- sigma unit") and returns both
-// in the base unit. A value without "±" is an error: a measurement carries its uncertainty.
+// measurementSigns are the ways a workflow may write the sign between a value and its
+// uncertainty: the sign itself, and two spellings in plain ASCII for keyboards without it.
+// "+/-" is looked for before "+-", which it does not contain.
+var measurementSigns = []string{"±", "+/-", "+-"}
+
+// ParseMeasurement reads "value ± sigma unit" (or with "+/-" or "+-" for "±") and returns
+// both in the base unit. A value without one of those signs is an error: a measurement
+// carries its uncertainty.
 func (d *Dimension) ParseMeasurement(s string) (value, sigma float64, err error) {
-	sep := "±"
-	i := strings.Index(s, sep)
-	if i < 0 {
-		sep = "+/-"
-		i = strings.Index(s, sep)
+	sep, i := "", -1
+	for _, sign := range measurementSigns {
+		if i = strings.Index(s, sign); i >= 0 {
+			sep = sign
+			break
+		}
 	}
 	if i < 0 {
-		return 0, 0, fmt.Errorf("%q has no uncertainty: write it as \"value ± sigma unit\", e.g. \"1.2 ± 0.1 %s\" (units: %s)", s, d.Base, strings.Join(d.Names(), ", "))
+		return 0, 0, fmt.Errorf("%q has no uncertainty: a measurement is written \"value ± sigma unit\", e.g. \"1.2 ± 0.1 %s\"; \"+/-\" or \"+-\" may stand for \"±\" (units: %s)", s, d.Base, strings.Join(d.Names(), ", "))
 	}
 	head, tail := strings.TrimSpace(s[:i]), strings.TrimSpace(s[i+len(sep):])
 	sigma, err = d.Parse(tail)

@@ -1,6 +1,7 @@
 package units
 
 import (
+	"fmt"
 	"math"
 	"strings"
 	"testing"
@@ -147,6 +148,56 @@ func TestParseLength(t *testing.T) {
 	t.Run("a wavelength without a unit is refused", func(t *testing.T) {
 		if _, err := Length.Parse("800"); err == nil || !strings.Contains(err.Error(), "has no unit") {
 			t.Errorf("Parse(\"800\") error = %v", err)
+		}
+	})
+}
+
+func TestMeasurementSigns(t *testing.T) {
+	// The same measurement in each accepted spelling of the sign gives the same numbers.
+	for _, in := range []string{"0.70 ± 0.03 R_sun", "0.70 +/- 0.03 R_sun", "0.70 +- 0.03 R_sun", "0.70+-0.03 R_sun", " 0.70  +-  0.03  R_sun "} {
+		t.Run(fmt.Sprintf("%q reads as 0.70 and 0.03 solar radii", in), func(t *testing.T) {
+			v, s, err := Radius.ParseMeasurement(in)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if v != 0.70 || math.Abs(s-0.03) > 1e-15 {
+				t.Errorf("got %v ± %v R_sun", v, s)
+			}
+		})
+	}
+	t.Run("a negative value keeps its sign before +-", func(t *testing.T) {
+		v, s, err := Time.ParseMeasurement("-1.5 +- 0.25 d")
+		if err != nil || v != -1.5 || s != 0.25 {
+			t.Errorf("got %v ± %v d, %v", v, s, err)
+		}
+	})
+	t.Run("a value with an exponent and +- reads", func(t *testing.T) {
+		v, s, err := Temperature.ParseMeasurement("3.3e+3 +- 6e+1 K")
+		if err != nil || v != 3300 || s != 60 {
+			t.Errorf("got %v ± %v K, %v", v, s, err)
+		}
+	})
+	t.Run("a missing uncertainty is refused, naming every accepted sign", func(t *testing.T) {
+		_, _, err := Radius.ParseMeasurement("0.70 R_sun")
+		if err == nil {
+			t.Fatal("accepted a measurement without an uncertainty")
+		}
+		for _, sign := range []string{"±", "+/-", "+-", "no uncertainty"} {
+			if !strings.Contains(err.Error(), sign) {
+				t.Errorf("the message does not mention %q: %v", sign, err)
+			}
+		}
+	})
+}
+
+func FuzzParseMeasurement(f *testing.F) {
+	for _, s := range []string{"0.70 +- 0.03 R_sun", "1 ± 0.1 R_jup", "2 +/- 1 d", "+-", "1+-", "+- 1 d"} {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, s string) {
+		v, sigma, err := Radius.ParseMeasurement(s)
+		if err == nil && (math.IsNaN(v) || math.IsInf(v, 0) || !(sigma >= 0) || math.IsInf(sigma, 0)) {
+			t.Fatalf("ParseMeasurement(%q) = %v ± %v without error", s, v, sigma)
 		}
 	})
 }

@@ -52,6 +52,14 @@ type Schedule struct {
 	// Parallel is as in Options; it also spreads the autocorrelation estimates, one block
 	// per parameter. Results do not depend on it.
 	Parallel parallel.Func
+	// Progress, when not nil, is told after each ensemble's run of steps how far the
+	// sampling is, as done out of total = MaxSteps for every ensemble: done is the steps run
+	// so far scaled by the end the autocorrelation times measured so far foretell (the cap
+	// until the first look), never going back and short of total until sampling is over;
+	// the last call gives done = total. It only watches: it is called from RunEnsembles' own
+	// goroutine, draws nothing and decides nothing, so the results are the same with it or
+	// without.
+	Progress func(done, total int)
 }
 
 // Sampling is the record of RunEnsembles.
@@ -93,7 +101,12 @@ func RunEnsembles(ctx context.Context, logp func(x []float64) float64, starts []
 			break
 		}
 	}
-	return r.finish(), nil
+	res := r.finish()
+	if r.Progress != nil && r.reported < s.MaxSteps*len(starts) {
+		all := s.MaxSteps * len(starts)
+		r.Progress(all, all)
+	}
+	return res, nil
 }
 
 // check reports a schedule or a set of starts that RunEnsembles cannot follow.
@@ -128,6 +141,9 @@ type scheduled struct {
 	taus     []float64
 	trusted  bool
 	nextLook int // the total at which the chains are next looked at
+	// For Progress only, never for a decision: the total at which sampling is expected
+	// to stop (0: not known yet), and the last done reported.
+	expectEnd, reported int
 }
 
 // newScheduled returns RunEnsembles' state with empty chains at the starts.
@@ -161,6 +177,7 @@ func (r *scheduled) advance(n int) error {
 		for w := range r.last[e] {
 			r.last[e][w] = append([]float64(nil), ch.At(ch.Stored-1, w)...)
 		}
+		r.progress(r.total*len(r.chains) + (e+1)*n)
 	}
 	r.total += n
 	return nil
@@ -177,6 +194,7 @@ func (r *scheduled) look() bool {
 	}
 	r.taus, r.trusted = tausOf(r.chains, r.dim, from, r.Parallel)
 	tauMax := maxOf(r.taus)
+	r.foretell(guided, tauMax)
 	if r.trusted && float64(r.total-from) >= r.LengthPerTau*tauMax {
 		r.burn = from
 		return true
@@ -201,6 +219,43 @@ func (r *scheduled) look() bool {
 		r.nextLook = max(r.nextLook, min(need, r.MaxSteps))
 	}
 	return false
+}
+
+// progress reports done ensemble updates (over all ensembles) to Progress, as a share of
+// the expected end scaled to the cap.
+func (r *scheduled) progress(done int) {
+	if r.Progress == nil {
+		return
+	}
+	all := r.MaxSteps * len(r.chains)
+	end := all
+	if r.expectEnd > 0 {
+		end = r.expectEnd * len(r.chains)
+	}
+	n := all - 1 // only the last call says the sampling is over
+	if done < end {
+		n = min(n, int(float64(done)/float64(end)*float64(all)))
+	}
+	if n > r.reported {
+		r.reported = n
+		r.Progress(n, all)
+	}
+}
+
+// foretell sets, for Progress only, the total at which sampling is expected to stop if
+// tauMax holds: in the second phase, when the chains after burn-in are LengthPerTau·τ long;
+// in the first, the sooner of an end in the first phase (its first 1/BurnShare burnt) and
+// an end after a first phase of GuideAfter·τ and a second with τ shrunk by GuideGain.
+func (r *scheduled) foretell(guided bool, tauMax float64) {
+	var end float64
+	if guided {
+		end = float64(r.burn) + r.LengthPerTau*tauMax
+	} else {
+		first := r.LengthPerTau * tauMax * float64(r.BurnShare) / float64(r.BurnShare-1)
+		both := math.Max(float64(r.MinFirstPhase), r.GuideAfter*tauMax) + r.LengthPerTau*tauMax/math.Max(r.GuideGain, 1)
+		end = math.Min(first, both)
+	}
+	r.expectEnd = int(math.Min(math.Max(end, float64(r.total)), float64(r.MaxSteps)))
 }
 
 // finish settles the burn-in (the first 1/BurnShare when the guides never came or came at

@@ -3,6 +3,7 @@ package sampler
 import (
 	"context"
 	"errors"
+	"fmt"
 	"slices"
 	"testing"
 )
@@ -136,6 +137,49 @@ func TestBadSchedulesAreErrors(t *testing.T) {
 			c.change(&s)
 			if _, err := RunEnsembles(context.Background(), flat, c.starts, s); !errors.Is(err, ErrConfig) {
 				t.Errorf("err = %v, want ErrConfig", err)
+			}
+		})
+	}
+}
+
+// Progress only watches: it climbs to the total without going back, and the chains are the
+// same bits with it and without it.
+func TestProgressWatchesWithoutChangingTheChains(t *testing.T) {
+	g := kms([]float64{0, 1, 2, 3}, []float64{1, 1, 2, 2}, 0.5)
+	for _, maxSteps := range []int{20000, 300} { // stops early on convergence; runs to the cap
+		s := testSchedule(maxSteps, 3)
+		plain, err := RunEnsembles(context.Background(), g.logp, startsAround(2, 8, g.mu), s)
+		if err != nil {
+			t.Fatal(err)
+		}
+		type call struct{ done, total int }
+		var calls []call
+		s.Progress = func(done, total int) { calls = append(calls, call{done, total}) }
+		watched, err := RunEnsembles(context.Background(), g.logp, startsAround(2, 8, g.mu), s)
+		if err != nil {
+			t.Fatal(err)
+		}
+		t.Run(fmt.Sprintf("progress climbs to the total with a cap of %d steps", maxSteps), func(t *testing.T) {
+			if len(calls) == 0 {
+				t.Fatal("no progress reported")
+			}
+			for i, c := range calls {
+				if c.total != maxSteps*2 || c.done > c.total || (i > 0 && c.done < calls[i-1].done) {
+					t.Fatalf("call %d: %d of %d after %v", i, c.done, c.total, calls[max(0, i-1)])
+				}
+			}
+			if last := calls[len(calls)-1]; last.done != last.total {
+				t.Errorf("the last call is %d of %d", last.done, last.total)
+			}
+		})
+		t.Run(fmt.Sprintf("the chains are the same with progress reported, cap %d", maxSteps), func(t *testing.T) {
+			if plain.Steps != watched.Steps || plain.Burn != watched.Burn || !slices.Equal(plain.Taus, watched.Taus) {
+				t.Fatalf("steps %d/%d, burn %d/%d", plain.Steps, watched.Steps, plain.Burn, watched.Burn)
+			}
+			for e := range plain.Chains {
+				if !slices.Equal(plain.Chains[e].Samples, watched.Chains[e].Samples) || !slices.Equal(plain.Chains[e].LogProb, watched.Chains[e].LogProb) {
+					t.Errorf("ensemble %d drew other samples", e)
+				}
 			}
 		})
 	}
