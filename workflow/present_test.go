@@ -235,3 +235,20 @@ func TestTheSameResultsWriteTheSameFiles(t *testing.T) {
 		t.Error("the page changed between two runs of the same results")
 	}
 }
+
+func TestWrittenResultsAreReadableByOthers(t *testing.T) {
+	// Results are for sharing: every file a run writes is mode 0644 (a temporary file
+	// starts as 0600).
+	p := newProject(t, map[string]string{"analysis.hcl": shownWorkflow, "data/a.txt": "1.25\n2.5\n"})
+	rep, _ := runShown(t, p.dir)
+	out := filepath.Dir(rep.ReportPath)
+	for _, name := range []string{"report.html", "results.json", filepath.Join("shown.good", "values.csv")} {
+		info, err := os.Stat(filepath.Join(out, name))
+		if err != nil {
+			t.Fatal(err)
+		}
+		if info.Mode().Perm() != resultsMode {
+			t.Errorf("%s has mode %v, want %v", name, info.Mode().Perm(), os.FileMode(resultsMode))
+		}
+	}
+}

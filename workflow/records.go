@@ -330,6 +330,10 @@ func WhatIf(overrides map[string]string) (settings []string, sentence string) {
 
 func finite(f float64) bool { return f-f == 0 }
 
+// resultsMode is the mode of the files a run writes: results are for sharing, readable by
+// all like any file a user writes (a temporary file is created 0600).
+const resultsMode = 0o644
+
 // writeAtomic writes data to path through a temporary file and a rename, so a reader
 // never sees half a file.
 func writeAtomic(path string, data []byte) error {
@@ -338,6 +342,11 @@ func writeAtomic(path string, data []byte) error {
 	}
 	tmp, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".*")
 	if err != nil {
+		return err
+	}
+	if err := tmp.Chmod(resultsMode); err != nil {
+		tmp.Close()
+		os.Remove(tmp.Name())
 		return err
 	}
 	if _, err := tmp.Write(data); err != nil {

@@ -179,6 +179,7 @@ func drawPlot(p *steps.Plot, columns int) (dp drawnPlot, err error) {
 	if label == "" {
 		label = p.YLabel + " against " + p.XLabel
 	}
+	svg = compactMarks(svg)
 	svg = strings.Replace(svg, "<svg ", fmt.Sprintf(`<svg class="plot" role="img" aria-label="%s" data-csv="%s" `,
 		html.EscapeString(clean(label)), html.EscapeString(clean(p.Data))), 1)
 	dp.SVG = template.HTML(svg) // every string in it was escaped by the backend or above

@@ -29,7 +29,7 @@ type Plot struct {
 }
 
 // Layer is one marked layer of a plot: how many rows it has, how many marks it says it drew,
-// and how many marks (SVG paths) its group holds.
+// and how many marks (SVG paths, or uses of one defined path) its group holds.
 type Layer struct {
 	Style              string
 	Rows, Drawn, Marks int
@@ -99,7 +99,7 @@ func readPlot(svg string) (Plot, error) {
 				}
 				p.Layers = append(p.Layers, Layer{Style: attr("data-style"), Rows: rows, Drawn: drawn})
 				groupDepth = depth
-			case t.Name.Local == "path" && groupDepth >= 0:
+			case (t.Name.Local == "path" || t.Name.Local == "use") && groupDepth >= 0:
 				p.Layers[len(p.Layers)-1].Marks++
 			case t.Name.Local == "script" || t.Name.Local == "foreignObject":
 				return p, fmt.Errorf("a <%s> element in a plot", t.Name.Local)
