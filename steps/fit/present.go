@@ -10,6 +10,7 @@ import (
 
 	"dipline/steps"
 	"dipline/steps/internal/lightcurve"
+	"dipline/steps/internal/paper"
 	"dipline/steps/internal/sampler"
 	"dipline/steps/internal/signals"
 )
@@ -672,11 +673,12 @@ func diagnostics(a *Artifact) steps.Panel {
 	return steps.Panel{Title: "How well the posterior was sampled", Caption: "One row per sampled parameter.", Table: t}
 }
 
-// decimals is the number of decimals that shows err to two significant figures (0 for
-// errors of 10 or more, 6 when err is 0 or not a number).
+// decimals is the number of decimals that shows err to two significant figures by the
+// tables' one rule (paper.Decimals; 0 for errors of 10 or more), 6 when err is 0 or not a
+// number.
 func decimals(err float64) int {
 	if !(err > 0) || math.IsInf(err, 0) {
 		return 6
 	}
-	return min(15, max(0, 1-int(math.Floor(math.Log10(err)))))
+	return min(15, max(0, paper.Decimals(err)))
 }

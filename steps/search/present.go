@@ -9,6 +9,7 @@ import (
 	"dipline/steps"
 	"dipline/steps/internal/boxmodel"
 	"dipline/steps/internal/lightcurve"
+	"dipline/steps/internal/paper"
 	"dipline/steps/search/bls"
 )
 
@@ -308,23 +309,13 @@ func signalsPanel(a *Artifact, haveCurve bool) steps.Panel {
 	return steps.Panel{Title: "Signals found", Caption: "The signals in the order found, each the strongest left after masking the ones before.", Table: tb}
 }
 
-// withSigma writes v ± s rounded by s: s to two significant digits and v to the same
-// decimal place (common practice); v alone with five significant digits when s is not a
-// positive number.
+// withSigma writes v ± s rounded by s (paper's rule, common practice); "–" for an
+// undefined value.
 func withSigma(v, s float64) string {
 	if math.IsNaN(v) || math.IsInf(v, 0) {
 		return "–"
 	}
-	if !(s > 0) || math.IsInf(s, 0) {
-		return strconv.FormatFloat(v, 'g', 5, 64)
-	}
-	place := int(math.Floor(math.Log10(s))) - 1 // the decimal place of s's second digit
-	if place >= 0 {
-		scale := math.Pow(10, float64(place))
-		return strconv.FormatFloat(math.Round(v/scale)*scale, 'f', 0, 64) + " ± " +
-			strconv.FormatFloat(math.Round(s/scale)*scale, 'f', 0, 64)
-	}
-	return strconv.FormatFloat(v, 'f', -place, 64) + " ± " + strconv.FormatFloat(s, 'f', -place, 64)
+	return paper.Symmetric(v, s).Text()
 }
 
 // signedNum writes x to a whole number with its sign, a true minus for negatives.
