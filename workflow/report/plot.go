@@ -143,6 +143,7 @@ func drawPlot(p *steps.Plot, columns int) (dp drawnPlot, err error) {
 	xr, yr := ranges(p)
 	pl.X.Min, pl.X.Max = xr[0], xr[1]
 	pl.Y.Min, pl.Y.Max = yr[0], yr[1]
+	pl.X.Tick.Marker, pl.Y.Tick.Marker = plainTicks{}, plainTicks{}
 	if p.LogX {
 		pl.X.Scale, pl.X.Tick.Marker = plot.LogScale{}, plot.LogTicks{Prec: -1}
 	}
@@ -186,6 +187,11 @@ func drawPlot(p *steps.Plot, columns int) (dp drawnPlot, err error) {
 
 	if len(p.Layers) > 1 {
 		for i, l := range p.Layers {
+			// Two layers of one label (error bars and their markers) are one thing to a
+			// reader: the legend names it once, with the first layer's look.
+			if i > 0 && l.Label != "" && l.Label == p.Layers[i-1].Label {
+				continue
+			}
 			dp.Keys = append(dp.Keys, Key{Swatch: swatch(l.Style, looks[i]), Label: l.Label})
 		}
 	}
