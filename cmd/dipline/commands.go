@@ -37,14 +37,9 @@ func (c *cli) run(args []string) int {
 		fmt.Fprintf(c.err, "dipline run: unexpected argument %q\n", rest[0])
 		return exitBadUser
 	}
-	var overrides []workflow.Override
-	for _, s := range sets {
-		o, err := workflow.ParseOverride(s)
-		if err != nil {
-			fmt.Fprintln(c.err, "dipline run:", err)
-			return exitBadUser
-		}
-		overrides = append(overrides, o)
+	overrides, ok := c.overrides("run", sets)
+	if !ok {
+		return exitBadUser
 	}
 	w, ok := c.load(path, overrides)
 	if !ok {
@@ -104,22 +99,7 @@ func (c *cli) run(args []string) int {
 	code := exitOK
 	if err != nil {
 		code = exitFor(err)
-		c.printUnfinished(rep)
-		var re *workflow.RunError
-		switch {
-		case errors.As(err, &re) && re.Interrupted:
-			fmt.Fprintln(c.err, "dipline run: stopped; finished steps are stored, the rest will run next time")
-		case errors.As(err, &re):
-			for _, o := range re.Failed {
-				fmt.Fprintf(c.err, "dipline run: %s failed: %s\n", o.Step.Addr, o.Message)
-			}
-			for _, f := range re.Faults {
-				fmt.Fprintln(c.err, "dipline run:", f)
-			}
-			fmt.Fprintf(c.err, "dipline run: %s\n", unfinishedLine(re, rep.ResultsPath != ""))
-		default:
-			fmt.Fprintln(c.err, "dipline run:", err)
-		}
+		c.printRunError(rep, err)
 	}
 	line := fmt.Sprintf("run %s · %.2f s", rep.Run.ID, time.Since(t0).Seconds())
 	if rep.ResultsPath != "" {
@@ -130,6 +110,41 @@ func (c *cli) run(args []string) int {
 	}
 	fmt.Fprintln(c.out, line)
 	return code
+}
+
+// overrides reads the --set values of a command.
+func (c *cli) overrides(cmd string, sets []string) ([]workflow.Override, bool) {
+	var out []workflow.Override
+	for _, s := range sets {
+		o, err := workflow.ParseOverride(s)
+		if err != nil {
+			fmt.Fprintf(c.err, "dipline %s: %v\n", cmd, err)
+			return nil, false
+		}
+		out = append(out, o)
+	}
+	return out, true
+}
+
+// printRunError says what did not finish and why, after the summary of a run that ended
+// with an error.
+func (c *cli) printRunError(rep *workflow.Report, err error) {
+	c.printUnfinished(rep)
+	var re *workflow.RunError
+	switch {
+	case errors.As(err, &re) && re.Interrupted:
+		fmt.Fprintln(c.err, "dipline run: stopped; finished steps are stored, the rest will run next time")
+	case errors.As(err, &re):
+		for _, o := range re.Failed {
+			fmt.Fprintf(c.err, "dipline run: %s failed: %s\n", o.Step.Addr, o.Message)
+		}
+		for _, f := range re.Faults {
+			fmt.Fprintln(c.err, "dipline run:", f)
+		}
+		fmt.Fprintf(c.err, "dipline run: %s\n", unfinishedLine(re, rep.ResultsPath != ""))
+	default:
+		fmt.Fprintln(c.err, "dipline run:", err)
+	}
 }
 
 func rel(p string) string {

@@ -2,7 +2,6 @@ package detrend
 
 import (
 	"bytes"
-	"encoding/gob"
 	"math"
 	"testing"
 
@@ -11,69 +10,6 @@ import (
 	"dipline/steps/internal/signals"
 	"dipline/steps/internal/steptest"
 )
-
-// checkShape holds a presentation to the contract of steps/present.go: within a plot every
-// layer's X and Y (and YLo, YHi when given) have equal lengths, every plot's Data names a
-// Data that exists, and every Data's columns have equal lengths and distinct names.
-func checkShape(t *testing.T, pr steps.Presentation) map[string]steps.Data {
-	t.Helper()
-	data := map[string]steps.Data{}
-	for _, d := range pr.Data {
-		if _, dup := data[d.Name]; dup {
-			t.Errorf("two Data named %q", d.Name)
-		}
-		data[d.Name] = d
-		cols := map[string]bool{}
-		for _, s := range d.Series {
-			if cols[s.Name] {
-				t.Errorf("%s: two columns named %q", d.Name, s.Name)
-			}
-			cols[s.Name] = true
-			if len(s.Values) != len(d.Series[0].Values) {
-				t.Errorf("%s: column %s has %d values, %s has %d", d.Name, s.Name, len(s.Values), d.Series[0].Name, len(d.Series[0].Values))
-			}
-		}
-	}
-	for _, p := range pr.Panels {
-		for _, pl := range p.Plots {
-			if pl == nil {
-				continue
-			}
-			if _, ok := data[pl.Data]; pl.Data != "" && !ok {
-				t.Errorf("%s / %s: names Data %q, which is not there", p.Title, pl.Title, pl.Data)
-			}
-			for _, l := range pl.Layers {
-				if len(l.X) != len(l.Y) || (l.YLo != nil && len(l.YLo) != len(l.X)) || (l.YHi != nil && len(l.YHi) != len(l.X)) {
-					t.Errorf("%s / %s / %s: %d x, %d y, %d lo, %d hi", p.Title, pl.Title, l.Label, len(l.X), len(l.Y), len(l.YLo), len(l.YHi))
-				}
-			}
-		}
-	}
-	return data
-}
-
-// encoded is a presentation's gob encoding: two presentations are the same when these
-// bytes are (reflect.DeepEqual would call two NaNs different).
-func encoded(t *testing.T, pr steps.Presentation) []byte {
-	t.Helper()
-	var b bytes.Buffer
-	if err := gob.NewEncoder(&b).Encode(pr); err != nil {
-		t.Fatal(err)
-	}
-	return b.Bytes()
-}
-
-// column returns the named column of d.
-func column(t *testing.T, d steps.Data, name string) []float64 {
-	t.Helper()
-	for _, s := range d.Series {
-		if s.Name == name {
-			return s.Values
-		}
-	}
-	t.Fatalf("%s has no column %s", d.Name, name)
-	return nil
-}
 
 // layerPoints counts the points of the layers labelled label over a panel's plots.
 func layerPoints(p steps.Panel, label string) int {
@@ -99,7 +35,7 @@ func TestPresentShowsTrendMaskAndFlares(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	data := checkShape(t, pr)
+	data := steptest.CheckPresentation(t, pr)
 	count := func(m robust.Mark) int { return res.count(m) }
 
 	t.Run("it gives the three panels and the data", func(t *testing.T) {
@@ -130,12 +66,12 @@ func TestPresentShowsTrendMaskAndFlares(t *testing.T) {
 			t.Fatal("the fixture should have masked points and flares")
 		}
 		d := data["detrended"]
-		if n := len(column(t, d, "time_d")); n != lc.Len() {
+		if n := len(steptest.Column(t, d, "time_d")); n != lc.Len() {
 			t.Fatalf("%d rows for %d input points", n, lc.Len())
 		}
 		sum := func(name string) int {
 			n := 0
-			for _, v := range column(t, d, name) {
+			for _, v := range steptest.Column(t, d, name) {
 				n += int(v)
 			}
 			return n
@@ -174,7 +110,7 @@ func TestPresentShowsTrendMaskAndFlares(t *testing.T) {
 		// newResult divides the input flux by the trend; the data do the same division, so
 		// the values agree to the bit.
 		d := data["detrended"]
-		flux, out := column(t, d, "flux"), column(t, d, "in_output")
+		flux, out := steptest.Column(t, d, "flux"), steptest.Column(t, d, "in_output")
 		var got []float64
 		for i, o := range out {
 			if o == 1 {
@@ -200,7 +136,7 @@ func TestPresentShowsTrendMaskAndFlares(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if !bytes.Equal(encoded(t, pr), encoded(t, again)) {
+		if !bytes.Equal(steptest.PresentationBytes(t, pr), steptest.PresentationBytes(t, again)) {
 			t.Fatal("the presentations differ")
 		}
 	})
@@ -214,8 +150,8 @@ func TestPresentWithoutTheInputShowsTheKeptPoints(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	data := checkShape(t, pr)
-	if n := len(column(t, data["detrended"], "time_d")); n != res.Curve.Len() {
+	data := steptest.CheckPresentation(t, pr)
+	if n := len(steptest.Column(t, data["detrended"], "time_d")); n != res.Curve.Len() {
 		t.Errorf("%d rows, want the %d kept points", n, res.Curve.Len())
 	}
 	if layerPoints(pr.Panels[1], "removed as a flare") != 0 {
@@ -227,7 +163,7 @@ func TestPresentWithoutTheInputShowsTheKeptPoints(t *testing.T) {
 	// The input flux recovered as flux × trend is the input's to within rounding: one
 	// division and one multiplication, each within half an ulp.
 	d := data["detrended"]
-	raw, tm := column(t, d, "flux_as_read"), column(t, d, "time_d")
+	raw, tm := steptest.Column(t, d, "flux_as_read"), steptest.Column(t, d, "time_d")
 	k := 0
 	s := lc.Segments[0]
 	for j := range s.Time {

@@ -166,57 +166,7 @@ func (m *Model) fold(a *Artifact, best state, draws []state, scales []float64, s
 	_, period, _ := quantiles(a.Column(name + ".period"))
 	_, t0, _ := quantiles(a.Column(name + ".t0"))
 	f := folded{planet: name, period: period, window: a.Window, draws: len(draws), others: m.planets > 1}
-	// Segments integrate alike when they share their sub-exposures and exposure.
-	type group struct {
-		sd     *segData
-		points int
-		med    []float64
-		lo, hi []float64
-	}
-	var groups []group
-	var pointGroup []int
-	alone := func(i int) bool { return i == j }
-	others := func(i int) bool { return i != j }
-	bestOthers := m.withPlanets(best, others)
-	sc := &curveScratch{}
-	reach := a.Window * sig.Duration
-	for s := range m.segs {
-		sd := &m.segs[s]
-		var idx []int
-		var t []float64
-		for i, ti := range sd.t {
-			if sig.InTransit(ti, 2*a.Window) {
-				idx = append(idx, i)
-				t = append(t, ti)
-			}
-		}
-		if len(idx) == 0 {
-			continue
-		}
-		g := slices.IndexFunc(groups, func(gr group) bool { return gr.sd.nsub == sd.nsub && gr.sd.half == sd.half })
-		if g < 0 {
-			g = len(groups)
-			groups = append(groups, group{sd: sd})
-		}
-		groups[g].points += len(idx)
-		div := m.curveOf(nil, t, sd, bestOthers, sc)
-		inflate := 1.0
-		if a.Inflated {
-			inflate = a.Beta
-		}
-		js := m.jitterOf(a, s)
-		for q, i := range idx {
-			d := scales[s] * div[q]
-			ph := t[q] - t0
-			ph -= math.Round(ph/period) * period
-			reach = math.Max(reach, math.Abs(ph))
-			f.time = append(f.time, t[q])
-			f.phase = append(f.phase, ph*hoursPerDay)
-			f.flux = append(f.flux, sd.f[i]/d)
-			f.err = append(f.err, math.Sqrt(sd.v[i]*inflate*inflate+js*js)/d)
-			pointGroup = append(pointGroup, g)
-		}
-	}
+	groups, pointGroup, reach := m.foldPoints(&f, a, best, scales, sig, j, t0)
 	// The band: planet j's model alone for every draw on a grid of times from the reference
 	// mid-time, per group of segments.
 	step := reach / gridHalf
@@ -226,26 +176,7 @@ func (m *Model) fold(a *Artifact, best state, draws []state, scales []float64, s
 		times[i] = t0 + float64(i-gridHalf)*step
 		f.grid[i] = float64(i-gridHalf) * step * hoursPerDay
 	}
-	curves := make([][]float64, len(draws))
-	column := make([]float64, len(draws))
-	dominant := 0
-	for g := range groups {
-		gr := &groups[g]
-		for d, st := range draws {
-			curves[d] = m.curveOf(curves[d], times, gr.sd, m.withPlanets(st, alone), sc)
-		}
-		gr.med, gr.lo, gr.hi = make([]float64, len(times)), make([]float64, len(times)), make([]float64, len(times))
-		for i := range times {
-			for d := range draws {
-				column[d] = curves[d][i]
-			}
-			slices.Sort(column)
-			gr.lo[i], gr.med[i], gr.hi[i] = sampler.Quantile(column, 0.16), sampler.Quantile(column, 0.5), sampler.Quantile(column, 0.84)
-		}
-		if gr.points > groups[dominant].points {
-			dominant = g
-		}
-	}
+	dominant := m.foldBands(groups, times, draws, j)
 	f.exposures = len(groups)
 	if len(groups) == 0 {
 		f.grid = nil
@@ -270,6 +201,90 @@ func (m *Model) fold(a *Artifact, best state, draws []state, scales []float64, s
 	f.binWidth = binWidth(t14*hoursPerDay, 2*reach*hoursPerDay, len(f.phase))
 	f.bins = binPhases(f.phase, f.flux, f.resid, f.binWidth)
 	return f
+}
+
+// foldGroup is the segments that integrate alike (the same sub-exposures and exposure), and
+// the model band drawn for them.
+type foldGroup struct {
+	sd          *segData
+	points      int
+	med, lo, hi []float64
+}
+
+// foldPoints folds planet j's points into f (time, phase, flux and error divided by the
+// segment's level and the other planets' best model) and returns the groups of segments,
+// each point's group, and the reach of the fold in days from mid-transit.
+func (m *Model) foldPoints(f *folded, a *Artifact, best state, scales []float64, sig signals.Signal, j int, t0 float64) ([]foldGroup, []int, float64) {
+	var groups []foldGroup
+	var pointGroup []int
+	bestOthers := m.withPlanets(best, func(i int) bool { return i != j })
+	sc := &curveScratch{}
+	reach := a.Window * sig.Duration
+	inflate := 1.0
+	if a.Inflated {
+		inflate = a.Beta
+	}
+	for s := range m.segs {
+		sd := &m.segs[s]
+		var idx []int
+		var t []float64
+		for i, ti := range sd.t {
+			if sig.InTransit(ti, 2*a.Window) {
+				idx = append(idx, i)
+				t = append(t, ti)
+			}
+		}
+		if len(idx) == 0 {
+			continue
+		}
+		g := slices.IndexFunc(groups, func(gr foldGroup) bool { return gr.sd.nsub == sd.nsub && gr.sd.half == sd.half })
+		if g < 0 {
+			g = len(groups)
+			groups = append(groups, foldGroup{sd: sd})
+		}
+		groups[g].points += len(idx)
+		div := m.curveOf(nil, t, sd, bestOthers, sc)
+		js := m.jitterOf(a, s)
+		for q, i := range idx {
+			d := scales[s] * div[q]
+			ph := t[q] - t0
+			ph -= math.Round(ph/f.period) * f.period
+			reach = math.Max(reach, math.Abs(ph))
+			f.time = append(f.time, t[q])
+			f.phase = append(f.phase, ph*hoursPerDay)
+			f.flux = append(f.flux, sd.f[i]/d)
+			f.err = append(f.err, math.Sqrt(sd.v[i]*inflate*inflate+js*js)/d)
+			pointGroup = append(pointGroup, g)
+		}
+	}
+	return groups, pointGroup, reach
+}
+
+// foldBands computes per group the 16th, 50th and 84th percentiles of planet j's model alone
+// over the draws at times, and returns the group with the most points.
+func (m *Model) foldBands(groups []foldGroup, times []float64, draws []state, j int) int {
+	sc := &curveScratch{}
+	curves := make([][]float64, len(draws))
+	column := make([]float64, len(draws))
+	dominant := 0
+	for g := range groups {
+		gr := &groups[g]
+		for d, st := range draws {
+			curves[d] = m.curveOf(curves[d], times, gr.sd, m.withPlanets(st, func(i int) bool { return i == j }), sc)
+		}
+		gr.med, gr.lo, gr.hi = make([]float64, len(times)), make([]float64, len(times)), make([]float64, len(times))
+		for i := range times {
+			for d := range draws {
+				column[d] = curves[d][i]
+			}
+			slices.Sort(column)
+			gr.lo[i], gr.med[i], gr.hi[i] = sampler.Quantile(column, 0.16), sampler.Quantile(column, 0.5), sampler.Quantile(column, 0.84)
+		}
+		if gr.points > groups[dominant].points {
+			dominant = g
+		}
+	}
+	return dominant
 }
 
 // binWidth is the width (hours) of the bins of n folded points spread over span hours, for

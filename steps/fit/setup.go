@@ -23,13 +23,12 @@ type draft struct {
 	sumW, sumWT []float64
 }
 
-// newProblem selects the points near the predicted transits, builds the model over them
-// and returns it with the artifact's frame, segment list, reference epochs and priors, the
-// start point, the start scale per sampled parameter and the notes so far.
-func newProblem(lc *lightcurve.LightCurve, o Options) (*problem, error) {
-	np := len(o.Signals)
+// draftModel is the model's first phases, shared by a fit and by what it shows (view.go):
+// the names checked, the points near the predicted transits kept, the planets, the
+// global parameters and the bands added.
+func draftModel(lc *lightcurve.LightCurve, o Options) (*draft, error) {
 	d := &draft{o: o, problem: &problem{
-		m:   &Model{planets: np, jitter: o.Jitter},
+		m:   &Model{planets: len(o.Signals), jitter: o.Jitter},
 		art: &Artifact{Frame: lc.Frame(), Window: o.Window},
 	}}
 	if err := d.checkNames(lc); err != nil {
@@ -41,6 +40,17 @@ func newProblem(lc *lightcurve.LightCurve, o Options) (*problem, error) {
 	d.addPlanets()
 	d.addGlobals()
 	d.addBands()
+	return d, nil
+}
+
+// newProblem selects the points near the predicted transits, builds the model over them
+// and returns it with the artifact's frame, segment list, reference epochs and priors, the
+// start point, the start scale per sampled parameter and the notes so far.
+func newProblem(lc *lightcurve.LightCurve, o Options) (*problem, error) {
+	d, err := draftModel(lc, o)
+	if err != nil {
+		return nil, err
+	}
 	if err := d.applyPriors(); err != nil {
 		return nil, err
 	}

@@ -26,19 +26,10 @@ func viewModel(lc *lightcurve.LightCurve, sigs []signals.Signal, c *Config, a *A
 	}
 	o := Options{Signals: sigs[:np], Window: a.Window, Supersample: c.Supersample, Jitter: c.Jitter,
 		Eccentric: c.Eccentric, Limb: c.Limb}
-	d := &draft{o: o, problem: &problem{
-		m:   &Model{planets: np, jitter: o.Jitter},
-		art: &Artifact{Frame: lc.Frame(), Window: o.Window},
-	}}
-	if err := d.checkNames(lc); err != nil {
+	d, err := draftModel(lc, o)
+	if err != nil {
 		return nil, err
 	}
-	if err := d.keepPoints(lc); err != nil {
-		return nil, err
-	}
-	d.addPlanets()
-	d.addGlobals()
-	d.addBands()
 	same := len(d.art.Segments) == len(a.Segments) && len(d.art.Reference) == len(a.Reference)
 	for i := 0; same && i < len(a.Segments); i++ {
 		g, w := d.art.Segments[i], a.Segments[i]

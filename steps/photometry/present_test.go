@@ -2,64 +2,12 @@ package photometry
 
 import (
 	"bytes"
-	"encoding/gob"
 	"testing"
 
 	"dipline/steps"
 	"dipline/steps/internal/fits/fitsfixtures"
 	"dipline/steps/internal/steptest"
 )
-
-// checkShape holds a presentation to the contract of steps/present.go: within a plot every
-// layer's X and Y (and YLo, YHi when given) have equal lengths, every plot's Data names a
-// Data that exists, and every Data's columns have equal lengths and distinct names.
-func checkShape(t *testing.T, pr steps.Presentation) map[string]steps.Data {
-	t.Helper()
-	data := map[string]steps.Data{}
-	for _, d := range pr.Data {
-		if _, dup := data[d.Name]; dup {
-			t.Errorf("two Data named %q", d.Name)
-		}
-		data[d.Name] = d
-		cols := map[string]bool{}
-		for _, s := range d.Series {
-			if cols[s.Name] {
-				t.Errorf("%s: two columns named %q", d.Name, s.Name)
-			}
-			cols[s.Name] = true
-			if len(s.Values) != len(d.Series[0].Values) {
-				t.Errorf("%s: column %s has %d values, %s has %d", d.Name, s.Name, len(s.Values), d.Series[0].Name, len(d.Series[0].Values))
-			}
-		}
-	}
-	for _, p := range pr.Panels {
-		for _, pl := range p.Plots {
-			if pl == nil {
-				continue
-			}
-			if _, ok := data[pl.Data]; pl.Data != "" && !ok {
-				t.Errorf("%s / %s: names Data %q, which is not there", p.Title, pl.Title, pl.Data)
-			}
-			for _, l := range pl.Layers {
-				if len(l.X) != len(l.Y) || (l.YLo != nil && len(l.YLo) != len(l.X)) || (l.YHi != nil && len(l.YHi) != len(l.X)) {
-					t.Errorf("%s / %s / %s: %d x, %d y, %d lo, %d hi", p.Title, pl.Title, l.Label, len(l.X), len(l.Y), len(l.YLo), len(l.YHi))
-				}
-			}
-		}
-	}
-	return data
-}
-
-// encoded is a presentation's gob encoding: two presentations are the same when these
-// bytes are (reflect.DeepEqual would call two NaNs different).
-func encoded(t *testing.T, pr steps.Presentation) []byte {
-	t.Helper()
-	var b bytes.Buffer
-	if err := gob.NewEncoder(&b).Encode(pr); err != nil {
-		t.Fatal(err)
-	}
-	return b.Bytes()
-}
 
 func TestPresentShowsEverySegmentOfTheFixtures(t *testing.T) {
 	files := load(t, "fits/lightcurve.fits", "fits/lightcurve_late.fits")
@@ -73,7 +21,7 @@ func TestPresentShowsEverySegmentOfTheFixtures(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	data := checkShape(t, pr)
+	data := steptest.CheckPresentation(t, pr)
 
 	t.Run("it shows a plot per segment and a table of them", func(t *testing.T) {
 		if len(pr.Panels) != 2 || pr.Panels[0].Title != "Light curve as read" || pr.Panels[1].Title != "Segments" {
@@ -139,7 +87,7 @@ func TestPresentShowsEverySegmentOfTheFixtures(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if !bytes.Equal(encoded(t, pr), encoded(t, again)) {
+		if !bytes.Equal(steptest.PresentationBytes(t, pr), steptest.PresentationBytes(t, again)) {
 			t.Fatal("the presentations differ")
 		}
 	})

@@ -2,7 +2,6 @@ package search
 
 import (
 	"bytes"
-	"encoding/gob"
 	"fmt"
 	"math"
 	"slices"
@@ -15,68 +14,6 @@ import (
 	"dipline/steps/internal/steptest"
 	"dipline/steps/search/bls"
 )
-
-// checkShape holds a presentation to the contract of steps/present.go: within a plot every
-// layer's X and Y (and YLo, YHi when given) have equal lengths, every plot's Data names a
-// Data that exists, and every Data's columns have equal lengths and distinct names.
-func checkShape(t *testing.T, pr steps.Presentation) map[string]steps.Data {
-	t.Helper()
-	data := map[string]steps.Data{}
-	for _, d := range pr.Data {
-		if _, dup := data[d.Name]; dup {
-			t.Errorf("two Data named %q", d.Name)
-		}
-		data[d.Name] = d
-		cols := map[string]bool{}
-		for _, s := range d.Series {
-			if cols[s.Name] {
-				t.Errorf("%s: two columns named %q", d.Name, s.Name)
-			}
-			cols[s.Name] = true
-			if len(s.Values) != len(d.Series[0].Values) {
-				t.Errorf("%s: column %s has %d values, %s has %d", d.Name, s.Name, len(s.Values), d.Series[0].Name, len(d.Series[0].Values))
-			}
-		}
-	}
-	for _, p := range pr.Panels {
-		for _, pl := range p.Plots {
-			if pl == nil {
-				continue
-			}
-			if _, ok := data[pl.Data]; pl.Data != "" && !ok {
-				t.Errorf("%s / %s: names Data %q, which is not there", p.Title, pl.Title, pl.Data)
-			}
-			for _, l := range pl.Layers {
-				if len(l.X) != len(l.Y) || (l.YLo != nil && len(l.YLo) != len(l.X)) || (l.YHi != nil && len(l.YHi) != len(l.X)) {
-					t.Errorf("%s / %s / %s: %d x, %d y, %d lo, %d hi", p.Title, pl.Title, l.Label, len(l.X), len(l.Y), len(l.YLo), len(l.YHi))
-				}
-			}
-		}
-	}
-	return data
-}
-
-// encoded is a presentation's gob encoding: two presentations are the same when these
-// bytes are (reflect.DeepEqual would call two NaNs different).
-func encoded(t *testing.T, pr steps.Presentation) []byte {
-	t.Helper()
-	var b bytes.Buffer
-	if err := gob.NewEncoder(&b).Encode(pr); err != nil {
-		t.Fatal(err)
-	}
-	return b.Bytes()
-}
-
-func column(t *testing.T, d steps.Data, name string) []float64 {
-	t.Helper()
-	for _, s := range d.Series {
-		if s.Name == name {
-			return s.Values
-		}
-	}
-	t.Fatalf("%s has no column %s", d.Name, name)
-	return nil
-}
 
 func panelTitled(pr steps.Presentation, title string) *steps.Panel {
 	for i := range pr.Panels {
@@ -105,7 +42,7 @@ func TestPresentShowsPeriodogramsFoldsAndSignals(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	data := checkShape(t, pr)
+	data := steptest.CheckPresentation(t, pr)
 	dets := art.Detections()
 	if len(dets) == 0 {
 		t.Fatal("the fixture's signal was not found")
@@ -145,7 +82,7 @@ func TestPresentShowsPeriodogramsFoldsAndSignals(t *testing.T) {
 		for k, p := range art.Passes {
 			d := data[fmt.Sprintf("periodogram_pass%d", k+1)]
 			for _, name := range []string{"period_d", "frequency_per_d", "power", "sde", "duration_d"} {
-				if n := len(column(t, d, name)); n != art.Grid.N {
+				if n := len(steptest.Column(t, d, name)); n != art.Grid.N {
 					t.Errorf("pass %d: %s has %d values for %d frequencies", k+1, name, n, art.Grid.N)
 				}
 			}
@@ -156,7 +93,7 @@ func TestPresentShowsPeriodogramsFoldsAndSignals(t *testing.T) {
 			}
 			// The SDE recomputed from the float32 power agrees with the search's own SDE of
 			// the peak to float32 precision (the artifact keeps seven digits).
-			sde := column(t, d, "sde")
+			sde := steptest.Column(t, d, "sde")
 			if math.Abs(sde[p.Peak]-p.SDE) > 1e-4*p.SDE {
 				t.Errorf("pass %d: SDE at the peak %v, recorded %v", k+1, sde[p.Peak], p.SDE)
 			}
@@ -183,7 +120,7 @@ func TestPresentShowsPeriodogramsFoldsAndSignals(t *testing.T) {
 	t.Run("the fold shows the points near transit with the signal's depth", func(t *testing.T) {
 		s := dets[0]
 		d := data["fold_signal1"]
-		phase, model := column(t, d, "phase_d"), column(t, d, "model")
+		phase, model := steptest.Column(t, d, "phase_d"), steptest.Column(t, d, "model")
 		// Counted independently of the presenter: points within three durations of a
 		// mid-transit (foldWindow), as (t − E)/P folded to the nearest transit.
 		t0, _, _, _ := lc.Flat()
@@ -228,7 +165,7 @@ func TestPresentShowsPeriodogramsFoldsAndSignals(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if !bytes.Equal(encoded(t, pr), encoded(t, again)) {
+		if !bytes.Equal(steptest.PresentationBytes(t, pr), steptest.PresentationBytes(t, again)) {
 			t.Fatal("the presentations differ")
 		}
 	})
@@ -238,7 +175,7 @@ func TestPresentShowsPeriodogramsFoldsAndSignals(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		checkShape(t, bare)
+		steptest.CheckPresentation(t, bare)
 		if len(bare.Panels) != 1+len(art.Passes) {
 			t.Errorf("%d panels, want the table and %d periodograms", len(bare.Panels), len(art.Passes))
 		}
@@ -269,12 +206,12 @@ func TestFoldBinsManyPoints(t *testing.T) {
 	d := bls.Detection{Timing: bls.Timing{Period: per, Epoch: epoch}, Shape: bls.Shape{Duration: dur, Depth: depth}}
 	panel, data := foldPanel(lc.Frame(), lc, 1, d, nil, defaultMaskFactor)
 	pr := steps.Presentation{Panels: []steps.Panel{panel}, Data: data}
-	got := checkShape(t, pr)
+	got := steptest.CheckPresentation(t, pr)
 	b, ok := got["fold_signal1_binned"]
 	if !ok || layer(panel.Plots[0], "binned") == nil {
 		t.Fatal("no binned points")
 	}
-	phase, n := column(t, b, "phase_d"), column(t, b, "points")
+	phase, n := steptest.Column(t, b, "phase_d"), steptest.Column(t, b, "points")
 	// Bins a fifth of the duration wide (0.02 d), centred on mid-transit: round(φ/0.02) runs
 	// from −15 to 15, 31 bins, holding every folded point once.
 	if len(phase) != 31 {
@@ -287,13 +224,13 @@ func TestFoldBinsManyPoints(t *testing.T) {
 		}
 		total += n[k]
 	}
-	if folded := len(column(t, got["fold_signal1"], "phase_d")); int(total) != folded || folded != 12000 {
+	if folded := len(steptest.Column(t, got["fold_signal1"], "phase_d")); int(total) != folded || folded != 12000 {
 		t.Errorf("bins hold %v points of %d folded, want 12000", total, folded)
 	}
 	// The bin at mid-transit averages in-transit points only (20 a day, 400 in all): 1000 ppm
 	// below 1 to within five of its errors, 500/√400 = 25 ppm.
-	mid := column(t, b, "flux")[15]
-	if e := column(t, b, "flux_err")[15]; math.Abs(1-depth-mid) > 5*e || n[15] != 400 {
+	mid := steptest.Column(t, b, "flux")[15]
+	if e := steptest.Column(t, b, "flux_err")[15]; math.Abs(1-depth-mid) > 5*e || n[15] != 400 {
 		t.Errorf("mid-transit bin at %v ± %v, want %v", mid, e, 1-depth)
 	}
 }

@@ -355,11 +355,12 @@ type layers struct {
 func (ls *layers) Plot(c draw.Canvas, pl *plot.Plot) {
 	tx, ty := pl.Transforms(&c)
 	logX, logY := ls.p.LogX, ls.p.LogY
-	ok := func(x, y float64) bool { return usable(x, logX) && usable(y, logY) }
 	face := font.DefaultCache.Lookup(font.Font{Typeface: "Liberation", Variant: "Sans"}, vg.Points(1))
-	group := func(kind byte, i int) {
-		c.Canvas.FillString(face, vg.Point{}, fmt.Sprintf("%c%c%d%c", groupOpen, kind, i, groupClose))
-	}
+	pt := painter{c: c, pl: pl, tx: tx, ty: ty, logX: logX, logY: logY,
+		ok: func(x, y float64) bool { return usable(x, logX) && usable(y, logY) },
+		group: func(kind byte, i int) {
+			c.Canvas.FillString(face, vg.Point{}, fmt.Sprintf("%c%c%d%c", groupOpen, kind, i, groupClose))
+		}}
 	for _, style := range drawOrder {
 		for i, l := range ls.p.Layers {
 			if l.Style != style {
@@ -368,101 +369,132 @@ func (ls *layers) Plot(c draw.Canvas, pl *plot.Plot) {
 			lk := &ls.looks[i]
 			switch style {
 			case steps.Band:
-				var top, bottom []vg.Point
-				var mid [][]vg.Point
-				var run []vg.Point
-				for j := 0; j < len(l.X); j += lk.step {
-					if !ok(l.X[j], l.YLo[j]) || !ok(l.X[j], l.YHi[j]) {
-						continue
-					}
-					top = append(top, vg.Point{X: tx(l.X[j]), Y: ty(l.YHi[j])})
-					bottom = append(bottom, vg.Point{X: tx(l.X[j]), Y: ty(l.YLo[j])})
-					if ok(l.X[j], l.Y[j]) {
-						run = append(run, vg.Point{X: tx(l.X[j]), Y: ty(l.Y[j])})
-					}
-				}
-				if len(top) > 1 {
-					poly := append([]vg.Point(nil), top...)
-					for k := len(bottom) - 1; k >= 0; k-- {
-						poly = append(poly, bottom[k])
-					}
-					fill := lk.colour
-					fill.A = 0x50
-					c.FillPolygon(fill, c.ClipPolygonXY(poly))
-				}
-				mid = append(mid, run)
-				c.StrokeLines(draw.LineStyle{Color: lk.colour, Width: vg.Points(1), Dashes: lk.dash}, c.ClipLinesXY(mid...)...)
+				pt.band(l, lk)
 			case steps.Histogram:
-				wd := binWidth(l.X)
-				fill := lk.colour
-				fill.A = 0xa0
-				base := 0.0
-				if logY {
-					base = pl.Y.Min
-				}
-				group('b', i)
-				for j := 0; j < len(l.X); j += lk.step {
-					if !ok(l.X[j]-wd/2, l.Y[j]) || !usable(l.X[j]+wd/2, logX) {
-						continue
-					}
-					x0, x1 := tx(l.X[j]-wd/2), tx(l.X[j]+wd/2)
-					y0, y1 := ty(base), ty(l.Y[j])
-					c.FillPolygon(fill, []vg.Point{{X: x0, Y: y0}, {X: x1, Y: y0}, {X: x1, Y: y1}, {X: x0, Y: y1}})
-					lk.drawn++
-				}
-				group('e', i)
+				pt.histogram(l, lk, i)
 			case steps.Line:
-				var runs [][]vg.Point
-				var run []vg.Point
-				idx := sortedIndex(l.X)
-				if len(idx) > 2*lineColumns {
-					idx = envelope(l.X, l.Y, idx, logX, logY)
-				}
-				for _, j := range idx {
-					if !ok(l.X[j], l.Y[j]) { // a gap breaks the line
-						if len(run) > 1 {
-							runs = append(runs, run)
-						}
-						run = nil
-						continue
-					}
-					run = append(run, vg.Point{X: tx(l.X[j]), Y: ty(l.Y[j])})
-				}
-				if len(run) > 1 {
-					runs = append(runs, run)
-				}
-				c.StrokeLines(draw.LineStyle{Color: lk.colour, Width: vg.Points(1.3), Dashes: lk.dash}, c.ClipLinesXY(runs...)...)
+				pt.line(l, lk)
 			case steps.Points, steps.ErrorBars, steps.Emphasised:
-				radius := vg.Points(1.4)
-				switch style {
-				case steps.Emphasised:
-					radius = vg.Points(3)
-				case steps.ErrorBars:
-					radius = vg.Points(2)
-					var bars [][]vg.Point
-					for j := 0; j < len(l.X); j += lk.step {
-						if ok(l.X[j], l.YLo[j]) && ok(l.X[j], l.YHi[j]) && ok(l.X[j], l.Y[j]) {
-							bars = append(bars, []vg.Point{{X: tx(l.X[j]), Y: ty(l.YLo[j])}, {X: tx(l.X[j]), Y: ty(l.YHi[j])}})
-						}
-					}
-					if len(bars) > 0 {
-						c.StrokeLines(draw.LineStyle{Color: lk.colour, Width: vg.Points(0.7)}, bars...)
-					}
-				}
-				gs := draw.GlyphStyle{Color: lk.colour, Radius: radius, Shape: lk.shape}
-				group('b', i)
-				for j := 0; j < len(l.X); j += lk.step {
-					if !ok(l.X[j], l.Y[j]) {
-						continue
-					}
-					c.DrawGlyphNoClip(gs, vg.Point{X: tx(l.X[j]), Y: ty(l.Y[j])})
-					lk.drawn++
-				}
-				group('e', i)
+				pt.points(l, lk, i)
 			}
 		}
 	}
 	ls.marks(c, pl, tx, ty)
+}
+
+// painter draws layers on one plot's canvas.
+type painter struct {
+	c          draw.Canvas
+	pl         *plot.Plot
+	tx, ty     func(float64) vg.Length
+	logX, logY bool
+	// ok tells whether a point can be placed on the axes (finite; positive on a log axis).
+	ok func(x, y float64) bool
+	// group opens ('b') or closes ('e') layer i's group of marks (see groupText).
+	group func(kind byte, i int)
+}
+
+// band fills between YLo and YHi and draws Y as its middle line.
+func (pt painter) band(l steps.Layer, lk *layerLook) {
+	var top, bottom, run []vg.Point
+	for j := 0; j < len(l.X); j += lk.step {
+		if !pt.ok(l.X[j], l.YLo[j]) || !pt.ok(l.X[j], l.YHi[j]) {
+			continue
+		}
+		top = append(top, vg.Point{X: pt.tx(l.X[j]), Y: pt.ty(l.YHi[j])})
+		bottom = append(bottom, vg.Point{X: pt.tx(l.X[j]), Y: pt.ty(l.YLo[j])})
+		if pt.ok(l.X[j], l.Y[j]) {
+			run = append(run, vg.Point{X: pt.tx(l.X[j]), Y: pt.ty(l.Y[j])})
+		}
+	}
+	if len(top) > 1 {
+		poly := append([]vg.Point(nil), top...)
+		for k := len(bottom) - 1; k >= 0; k-- {
+			poly = append(poly, bottom[k])
+		}
+		fill := lk.colour
+		fill.A = 0x50
+		pt.c.FillPolygon(fill, pt.c.ClipPolygonXY(poly))
+	}
+	pt.c.StrokeLines(draw.LineStyle{Color: lk.colour, Width: vg.Points(1), Dashes: lk.dash}, pt.c.ClipLinesXY(run)...)
+}
+
+// histogram draws one bar per bin, each a counted mark.
+func (pt painter) histogram(l steps.Layer, lk *layerLook, i int) {
+	wd := binWidth(l.X)
+	fill := lk.colour
+	fill.A = 0xa0
+	base := 0.0
+	if pt.logY {
+		base = pt.pl.Y.Min
+	}
+	pt.group('b', i)
+	for j := 0; j < len(l.X); j += lk.step {
+		if !pt.ok(l.X[j]-wd/2, l.Y[j]) || !usable(l.X[j]+wd/2, pt.logX) {
+			continue
+		}
+		x0, x1 := pt.tx(l.X[j]-wd/2), pt.tx(l.X[j]+wd/2)
+		y0, y1 := pt.ty(base), pt.ty(l.Y[j])
+		pt.c.FillPolygon(fill, []vg.Point{{X: x0, Y: y0}, {X: x1, Y: y0}, {X: x1, Y: y1}, {X: x0, Y: y1}})
+		lk.drawn++
+	}
+	pt.group('e', i)
+}
+
+// line draws a line in x order, broken where a value cannot be placed; a long line is
+// drawn through its envelope per column (envelope).
+func (pt painter) line(l steps.Layer, lk *layerLook) {
+	var runs [][]vg.Point
+	var run []vg.Point
+	idx := sortedIndex(l.X)
+	if len(idx) > 2*lineColumns {
+		idx = envelope(l.X, l.Y, idx, pt.logX, pt.logY)
+	}
+	for _, j := range idx {
+		if !pt.ok(l.X[j], l.Y[j]) { // a gap breaks the line
+			if len(run) > 1 {
+				runs = append(runs, run)
+			}
+			run = nil
+			continue
+		}
+		run = append(run, vg.Point{X: pt.tx(l.X[j]), Y: pt.ty(l.Y[j])})
+	}
+	if len(run) > 1 {
+		runs = append(runs, run)
+	}
+	pt.c.StrokeLines(draw.LineStyle{Color: lk.colour, Width: vg.Points(1.3), Dashes: lk.dash}, pt.c.ClipLinesXY(runs...)...)
+}
+
+// points draws one marker per point (larger when emphasised, with its bar for error bars),
+// each a counted mark.
+func (pt painter) points(l steps.Layer, lk *layerLook, i int) {
+	radius := vg.Points(1.4)
+	switch l.Style {
+	case steps.Emphasised:
+		radius = vg.Points(3)
+	case steps.ErrorBars:
+		radius = vg.Points(2)
+		var bars [][]vg.Point
+		for j := 0; j < len(l.X); j += lk.step {
+			if pt.ok(l.X[j], l.YLo[j]) && pt.ok(l.X[j], l.YHi[j]) && pt.ok(l.X[j], l.Y[j]) {
+				bars = append(bars, []vg.Point{{X: pt.tx(l.X[j]), Y: pt.ty(l.YLo[j])}, {X: pt.tx(l.X[j]), Y: pt.ty(l.YHi[j])}})
+			}
+		}
+		if len(bars) > 0 {
+			pt.c.StrokeLines(draw.LineStyle{Color: lk.colour, Width: vg.Points(0.7)}, bars...)
+		}
+	}
+	gs := draw.GlyphStyle{Color: lk.colour, Radius: radius, Shape: lk.shape}
+	pt.group('b', i)
+	for j := 0; j < len(l.X); j += lk.step {
+		if !pt.ok(l.X[j], l.Y[j]) {
+			continue
+		}
+		pt.c.DrawGlyphNoClip(gs, vg.Point{X: pt.tx(l.X[j]), Y: pt.ty(l.Y[j])})
+		lk.drawn++
+	}
+	pt.group('e', i)
 }
 
 // marks draws the values marked across the plot, each with its label at the edge.
