@@ -3,8 +3,11 @@ package fernwell_test
 import (
 	"bytes"
 	"context"
+	"encoding/csv"
+	"math"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"testing"
 	"time"
@@ -112,6 +115,7 @@ func TestTheDemosPageReadsInABrowser(t *testing.T) {
 	if len(whole) == 0 {
 		t.Error("no plot draws its data whole (the light curve should)")
 	}
+	checkFoldDepths(t, rep)
 
 	ctx, cancel := context.WithTimeout(context.Background(), 60*time.Second)
 	defer cancel()
@@ -167,4 +171,69 @@ func TestAHostileCompanionNameIsShownAsText(t *testing.T) {
 		t.Error("the companion's name is not on the page as text")
 	}
 	checkPlots(t, string(page), rep, new([]string))
+}
+
+// checkFoldDepths holds each planet's folded model, as written beside the page, to the
+// depth the fit reports: the model's lowest point lies between k² and k² deepened by limb
+// darkening, at most by the disc-centre factor 1/(1 − u1/3 − u2/6), which is below 1.5 for
+// any physical u1, u2 (Kipping 2013's q1, q2 in [0, 1]); the 30-minute exposure can only
+// make it shallower, by a few per cent for these durations.
+func checkFoldDepths(t *testing.T, rep *workflow.Report) {
+	t.Helper()
+	depth := map[string]float64{}
+	for _, o := range rep.Outcomes {
+		if o.Step.Addr != "fit.planets" || o.Artifact == nil {
+			continue
+		}
+		for _, f := range o.Artifact.Figures() {
+			if strings.HasSuffix(f.Name, ".depth") && f.Unit == "ppm" {
+				depth[strings.TrimSuffix(f.Name, ".depth")] = f.Value * 1e-6
+			}
+		}
+	}
+	if len(depth) != 2 {
+		t.Fatalf("the fit reports depths for %v, want planets b and c", depth)
+	}
+	for planet, k2 := range depth {
+		path := filepath.Join(filepath.Dir(rep.ReportPath), "fit.planets", "fold_"+planet+"_model.csv")
+		low := math.Inf(1)
+		for _, v := range csvColumn(t, path, "model_median") {
+			low = math.Min(low, v)
+		}
+		if got := 1 - low; !(got > 0.9*k2 && got < 1.5*k2) {
+			t.Errorf("planet %s: the folded model dips %.0f ppm, the fit's depth is %.0f ppm", planet, got*1e6, k2*1e6)
+		}
+	}
+}
+
+// csvColumn reads one column of a CSV file the run wrote.
+func csvColumn(t *testing.T, path, name string) []float64 {
+	t.Helper()
+	f, err := os.Open(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	rows, err := csv.NewReader(f).ReadAll()
+	if err != nil || len(rows) < 2 {
+		t.Fatalf("%s: %v (%d rows)", path, err, len(rows))
+	}
+	col := -1
+	for i, h := range rows[0] {
+		if h == name {
+			col = i
+		}
+	}
+	if col < 0 {
+		t.Fatalf("%s has no column %s", path, name)
+	}
+	var out []float64
+	for _, r := range rows[1:] {
+		v, err := strconv.ParseFloat(r[col], 64)
+		if err != nil {
+			t.Fatalf("%s: %v", path, err)
+		}
+		out = append(out, v)
+	}
+	return out
 }
