@@ -9,6 +9,7 @@ import (
 	"dipline/steps/derive"
 	"dipline/steps/detrend"
 	"dipline/steps/dilution"
+	"dipline/steps/ephemeris"
 	"dipline/steps/fit"
 	"dipline/steps/photometry"
 	"dipline/steps/search"
@@ -19,5 +20,6 @@ import (
 // Registry returns every step kind, checked.
 func Registry() (steps.Registry, error) {
 	return steps.NewRegistry(photometry.New(), detrend.New(), search.New(), fit.New(),
-		star.New(), companions.New(), dilution.New(), derive.New(), vet.New())
+		star.New(), companions.New(), dilution.New(), derive.New(), vet.New(),
+		ephemeris.New())
 }

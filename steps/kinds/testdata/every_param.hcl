@@ -164,3 +164,21 @@ vet "full" {
   star_period_tolerance   = 0.05
   variability_depth_ratio = 8
 }
+
+ephemeris "full" {
+  fit     = fit.full
+  from    = "2027-01-01"
+  to      = "2461420.5"
+  planets = ["b"]
+  ra      = "285.1234 deg"
+  dec     = "-12.5 deg"
+}
+
+ephemeris "written" {
+  period   = "3.7185 ± 0.0004 d"
+  epoch    = "2460450.9146 ± 0.0005 d"
+  duration = "2.4 ± 0.1 h"
+  from     = "2460460"
+  to       = "2027-06-30"
+  planets  = ["c"]
+}
