@@ -19,7 +19,8 @@ func gaussian(n int, t0, sT0, p, sP, rho float64, seed uint64) (ts, ps []float64
 	return ts, ps
 }
 
-// The standard propagation of a linear ephemeris (REFERENCES §13), σ²(T_n) = σ²_T0 +
+// The standard propagation of a linear ephemeris (first-order error propagation of
+// T_n = T0 + n·P; common practice), σ²(T_n) = σ²_T0 +
 // n²σ²_P + 2n ρ σ_T0 σ_P, with the generating values: the outside check of the percentiles.
 func trueSigma(sT0, sP, rho float64, n int64) float64 {
 	x := float64(n)
