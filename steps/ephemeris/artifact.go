@@ -7,6 +7,7 @@ import (
 
 	"dipline/steps"
 	"dipline/steps/internal/codec"
+	"dipline/steps/internal/sky"
 	"dipline/steps/internal/timescale"
 )
 
@@ -42,6 +43,24 @@ type Planet struct {
 	// when the timing test fails; 0 otherwise.
 	Scatter  float64
 	Transits []Prediction
+	// Baseline is the out-of-transit time (days) wanted either side of each transit and
+	// Windows each transit seen from the site, one per Transits entry; both empty (0, nil)
+	// without a site.
+	Baseline float64
+	Windows  []Window
+}
+
+// Count returns the transits judged observable and those partly seen.
+func (p *Planet) Count() (observable, partial int) {
+	for _, w := range p.Windows {
+		switch w.Seen {
+		case seenObservable:
+			observable++
+		case seenPartly:
+			partial++
+		}
+	}
+	return observable, partial
 }
 
 // Sigma is the quoted one-sigma error of transit i: from the draws, widened by the O−C
@@ -63,7 +82,16 @@ type Artifact struct {
 	// StaleFrom is the earliest predicted UTC (JD) past the leap-second table's end, NaN
 	// when none is.
 	StaleFrom float64
-	Planets   []Planet
+	// Site says an observing site was given: its latitude, east longitude (degrees) and
+	// height (m), the target's lowest altitude (degrees) and the darkness (a sky.Darkness);
+	// NaN and 0 without one.
+	Site                                        bool
+	SiteLat, SiteLon, SiteHeight, AltitudeLimit float64
+	Darkness                                    int64
+	// Doubles lists the nights (Window.Night) holding two or more observable transits, in
+	// order.
+	Doubles []int64
+	Planets []Planet
 }
 
 // Figures lists per planet the transits in range, the first one's mid-time with its σ and
@@ -103,6 +131,16 @@ func (a *Artifact) Figures() []steps.Figure {
 			largest.Doc = "largest one-sigma error of a predicted mid-time in range"
 		}
 		figs = append(figs, first, largest)
+		if a.Site {
+			obs, part := p.Count()
+			figs = append(figs,
+				steps.Figure{Name: n + "observable", Value: float64(obs), Doc: "transits whose whole window (baselines and one σ included) is dark with the target above the altitude limit at the site"},
+				steps.Figure{Name: n + "partial", Value: float64(part), Doc: "transits of which only a part is seen from the site"})
+		}
+	}
+	if a.Site {
+		figs = append(figs, steps.Figure{Name: "double_nights", Value: float64(len(a.Doubles)),
+			Doc: "nights at the site holding two or more observable transits, of one planet or several"})
 	}
 	return figs
 }
@@ -119,6 +157,18 @@ func (a *Artifact) Cautions() []string {
 			c = append(c, fmt.Sprintf("Planet %s: the fit's transit times scatter about a linear ephemeris more than their errors allow "+
 				"(χ² = %.4g for %d degrees of freedom, p = %.2g); every predicted σ has their O−C scatter (%.3g min RMS) added in quadrature, "+
 				"but timing variations may move future transits further.", p.Name, p.TimingChi2, p.TimingDof, p.TimingP, p.Scatter*minutesPerDay))
+		}
+	}
+	if a.Site {
+		total := 0
+		for i := range a.Planets {
+			obs, _ := a.Planets[i].Count()
+			total += obs
+		}
+		if total == 0 {
+			c = append(c, fmt.Sprintf("No predicted transit in the range is observable from the site (latitude %.4g°, longitude %.4g°) "+
+				"with the whole window dark (%s) and the target at least %.4g° high; widen the range or relax the limits.",
+				a.SiteLat, a.SiteLon, sky.Darkness(a.Darkness), a.AltitudeLimit))
 		}
 	}
 	if !math.IsNaN(a.StaleFrom) {
@@ -146,7 +196,7 @@ func isoUTC(jd float64) string {
 
 const (
 	tag    = "ephemeris"
-	format = 1
+	format = 2
 )
 
 // Encode returns the canonical encoding.
@@ -154,6 +204,13 @@ func (a *Artifact) Encode() []byte {
 	w := codec.NewWriter(tag, format)
 	w.Floats([]float64{a.From, a.To, a.RA, a.Dec, a.StaleFrom})
 	w.Bool(a.Direction)
+	w.Bool(a.Site)
+	w.Floats([]float64{a.SiteLat, a.SiteLon, a.SiteHeight, a.AltitudeLimit})
+	w.Int(a.Darkness)
+	w.Uint64(uint64(len(a.Doubles)))
+	for _, n := range a.Doubles {
+		w.Int(n)
+	}
 	w.Uint64(uint64(len(a.Planets)))
 	for _, p := range a.Planets {
 		w.String(p.Name)
@@ -167,6 +224,14 @@ func (a *Artifact) Encode() []byte {
 			w.Int(t.Epoch)
 			w.Floats([]float64{t.Mid, t.Lower, t.Upper, t.Sigma, t.SigmaAnalytic,
 				t.Ingress, t.SigmaIngress, t.Egress, t.SigmaEgress, t.UTC})
+		}
+		w.Floats([]float64{p.Baseline})
+		w.Uint64(uint64(len(p.Windows)))
+		for _, x := range p.Windows {
+			w.Int(int64(x.Seen))
+			w.Int(x.Parts)
+			w.Int(x.Night)
+			w.Floats([]float64{x.Start, x.Ingress, x.Mid, x.Egress, x.End, x.MoonSep, x.MoonLit})
 		}
 	}
 	return w.Bytes()
@@ -188,6 +253,20 @@ func Decode(b []byte) (*Artifact, error) {
 		return nil, errDamaged(r, "its range")
 	}
 	a.From, a.To, a.RA, a.Dec, a.StaleFrom = v[0], v[1], v[2], v[3], v[4]
+	a.Site = r.Bool()
+	if v := r.Floats(); len(v) == 4 {
+		a.SiteLat, a.SiteLon, a.SiteHeight, a.AltitudeLimit = v[0], v[1], v[2], v[3]
+	} else {
+		return nil, errDamaged(r, "its site")
+	}
+	a.Darkness = r.Int()
+	nd := r.Uint64()
+	if nd > maxTransits*maxPlanets {
+		return nil, fmt.Errorf("ephemeris artifact: %d nights", nd)
+	}
+	for k := uint64(0); k < nd; k++ {
+		a.Doubles = append(a.Doubles, r.Int())
+	}
 	np := r.Uint64()
 	if np > maxPlanets {
 		return nil, fmt.Errorf("ephemeris artifact: %d planets", np)
@@ -215,6 +294,24 @@ func Decode(b []byte) (*Artifact, error) {
 			t.Mid, t.Lower, t.Upper, t.Sigma, t.SigmaAnalytic, t.Ingress, t.SigmaIngress, t.Egress, t.SigmaEgress, t.UTC =
 				v[0], v[1], v[2], v[3], v[4], v[5], v[6], v[7], v[8], v[9]
 			p.Transits = append(p.Transits, t)
+		}
+		v = r.Floats()
+		if len(v) != 1 {
+			return nil, errDamaged(r, "a planet's baseline")
+		}
+		p.Baseline = v[0]
+		nw := r.Uint64()
+		if nw != 0 && nw != nt {
+			return nil, fmt.Errorf("ephemeris artifact: %d windows for %d transits", nw, nt)
+		}
+		for k := uint64(0); k < nw; k++ {
+			x := Window{Seen: Seen(r.Int()), Parts: r.Int(), Night: r.Int()}
+			v := r.Floats()
+			if len(v) != 7 {
+				return nil, errDamaged(r, "a window")
+			}
+			x.Start, x.Ingress, x.Mid, x.Egress, x.End, x.MoonSep, x.MoonLit = v[0], v[1], v[2], v[3], v[4], v[5], v[6]
+			p.Windows = append(p.Windows, x)
 		}
 		a.Planets = append(a.Planets, p)
 	}

@@ -5,8 +5,11 @@
 // covariance is kept, and reports beside it the analytic propagation σ²(T_n) = σ²_T0 +
 // n²σ²_P + 2n cov(T0, P) from the same draws; for a planet known elsewhere it takes a
 // period and an epoch written as measurements. When the direction of the target is given,
-// each mid-time is also given in UTC (steps/internal/timescale). It does not say whether a
-// transit can be seen from a site.
+// each mid-time is also given in UTC (steps/internal/timescale); when an observing site is
+// given too, each transit is judged from there (window.go): observable when its whole window
+// — the transit with a baseline either side, widened by the mid-time's σ — is dark with the
+// target above a limit, partly seen, or not, with the Moon's distance and phase, and nights
+// holding two or more observable transits are marked.
 //
 // Main entry point: Kind (register it with New); the numerical core is FromDraws and
 // FromWritten in predict.go, which know nothing of workflows.
@@ -17,11 +20,13 @@ import (
 	"errors"
 	"math"
 	"regexp"
+	"slices"
 	"strconv"
 	"strings"
 
 	"dipline/steps"
 	"dipline/steps/fit"
+	"dipline/steps/internal/sky"
 	"dipline/steps/internal/timescale"
 )
 
@@ -38,7 +43,7 @@ var (
 )
 
 // version is bumped whenever the numbers or the encoding change.
-const version = 1
+const version = 2
 
 // Limits and rules, each with its reason.
 const (
@@ -62,7 +67,7 @@ func (Kind) Random() bool { return false }
 
 // Doc is one sentence for the kinds listing.
 func (Kind) Doc() string {
-	return "Predicts transit mid-times, ingresses and egresses over a written date range from a fit's posterior draws (covariance kept) or a written period and epoch, with one-sigma errors from the draws and from analytic propagation, in BJD_TDB and, given the target's direction, UTC."
+	return "Predicts transit mid-times, ingresses and egresses over a written date range from a fit's posterior draws (covariance kept) or a written period and epoch, with one-sigma errors from the draws and from analytic propagation, in BJD_TDB and, given the target's direction, UTC; given a site too, judges each transit observable, partly seen or not from there and marks nights with two or more."
 }
 
 // Config is what an ephemeris block may say.
@@ -78,6 +83,14 @@ type Config struct {
 	// RA and Dec are in arcseconds (the angle dimension's base unit).
 	RA  *float64 `step:"ra" dim:"angle" doc:"right ascension of the target (ICRS, e.g. \"285.1234 deg\"); with dec, the predicted times are also given in UTC"`
 	Dec *float64 `step:"dec" dim:"angle" doc:"declination of the target (ICRS, e.g. \"-12.5 deg\")"`
+	// The observing site and what counts as seen from it (angles in arcseconds, the
+	// elevation in metres, the baseline in days).
+	SiteLatitude  *float64 `step:"site_latitude" dim:"angle" doc:"geodetic latitude of an observing site (\"-30.2 deg\"); with site_longitude, ra and dec, each transit is judged observable, partly seen or not from there"`
+	SiteLongitude *float64 `step:"site_longitude" dim:"angle" doc:"longitude of the site, east positive (\"-70.7 deg\")"`
+	SiteElevation *float64 `step:"site_elevation" dim:"length" doc:"height of the site above the reference ellipsoid (\"2200 m\"); 0 when left out"`
+	AltitudeLimit float64  `step:"altitude_limit" dim:"angle" default:"30 deg" doc:"lowest altitude of the target at which it counts as seen"`
+	Darkness      string   `step:"darkness" choices:"civil|nautical|astronomical" default:"nautical" doc:"how dark the sky must be: the end of civil (Sun 6° down), nautical (12°) or astronomical (18°) twilight"`
+	Baseline      *float64 `step:"baseline" dim:"time" doc:"out-of-transit time wanted before the ingress and after the egress (\"1.5 h\"); the larger of 1 h and half the duration when left out"`
 
 	from, to float64 // the range in BJD_TDB, set by Check
 	utcFrom  bool    // from and to as written are UTC dates converted without the target's direction
@@ -85,6 +98,84 @@ type Config struct {
 
 // arcsecPerDeg converts the angle dimension's base unit to degrees.
 const arcsecPerDeg = 3600
+
+// site returns the observing site and whether one is given.
+func (c *Config) site() (sky.Site, bool) {
+	if c.SiteLatitude == nil || c.SiteLongitude == nil {
+		return sky.Site{}, false
+	}
+	s := sky.Site{Lat: *c.SiteLatitude / arcsecPerDeg, Lon: *c.SiteLongitude / arcsecPerDeg}
+	if c.SiteElevation != nil {
+		s.Height = *c.SiteElevation
+	}
+	return s, true
+}
+
+// darknessOf reads the darkness choice.
+func darknessOf(s string) sky.Darkness {
+	switch s {
+	case "civil":
+		return sky.Civil
+	case "astronomical":
+		return sky.Astronomical
+	}
+	return sky.Nautical
+}
+
+// maxBaseline bounds a written baseline: half a day before and after a transit is more
+// than any night holds.
+const maxBaseline = 0.5
+
+// checkSite holds the site's attributes together and to the Earth.
+func checkSite(c *Config) error {
+	if (c.SiteLatitude == nil) != (c.SiteLongitude == nil) {
+		if c.SiteLatitude == nil {
+			return steps.Attrf("site_longitude", "is written without site_latitude; a site needs both")
+		}
+		return steps.Attrf("site_latitude", "is written without site_longitude; a site needs both")
+	}
+	s, ok := c.site()
+	if !ok {
+		for _, a := range []struct {
+			name string
+			set  bool
+		}{{"site_elevation", c.SiteElevation != nil}, {"baseline", c.Baseline != nil}} {
+			if a.set {
+				return steps.Attrf(a.name, "is for observing windows from a site; write site_latitude and site_longitude too, or leave it out")
+			}
+		}
+		return nil
+	}
+	var missing []string
+	if c.RA == nil {
+		missing = append(missing, "ra")
+	}
+	if c.Dec == nil {
+		missing = append(missing, "dec")
+	}
+	if len(missing) > 0 {
+		return steps.Attrf("site_latitude", "needs the target's direction to judge its altitude, and %s is missing; write ra and dec", strings.Join(missing, " and "))
+	}
+	if !(s.Lat >= -90 && s.Lat <= 90) {
+		return steps.Attrf("site_latitude", "must lie in −90 to 90 deg, not %v deg", s.Lat)
+	}
+	if !(s.Lon >= -180 && s.Lon <= 360) {
+		return steps.Attrf("site_longitude", "must lie in −180 to 360 deg (east positive), not %v deg", s.Lon)
+	}
+	if err := s.Check(); err != nil {
+		return steps.Attrf("site_elevation", "%v", err)
+	}
+	if lim := c.AltitudeLimit / arcsecPerDeg; !(lim >= 0 && lim < 90) {
+		return steps.Attrf("altitude_limit", "must lie in 0 to 90 deg, not %v deg", lim)
+	}
+	if b := c.Baseline; b != nil && !(*b >= 0 && *b <= maxBaseline) {
+		return steps.Attrf("baseline", "must lie between 0 and 12 h, not %v h", *b*24)
+	}
+	if c.Fit == nil && c.Duration == nil {
+		return steps.Attrf("duration", "is missing: observing windows from the site need the transit's first-to-last-contact duration (\"2.1 ± 0.1 h\")")
+	}
+	return nil
+}
 
 // direction returns RA and Dec in degrees and whether both are given.
 func (c *Config) direction() (ra, dec float64, ok bool) {
@@ -139,6 +230,9 @@ func (Kind) Check(c *Config) error {
 		if !(dec >= -90 && dec <= 90) {
 			return steps.Attrf("dec", "must lie in −90 to 90 deg, not %v deg", dec)
 		}
+	}
+	if err := checkSite(c); err != nil {
+		return err
 	}
 	var err error
 	var utcA, utcB bool
@@ -243,6 +337,9 @@ func (Kind) Run(ctx context.Context, cfg *Config, in steps.Inputs, env steps.Env
 		env.Note("from/to: the calendar dates were converted to TDB at the geocentre, without the target's direction (at most 8.3 min off); give ra and dec for BJD_TDB")
 	}
 	if err := a.toUTC(cfg); err != nil {
+		return nil, err
+	}
+	if err := a.windows(cfg, env); err != nil {
 		return nil, err
 	}
 	if !a.Direction {
@@ -438,4 +535,68 @@ func fromWritten(cfg *Config) (*Artifact, error) {
 	}
 	pl.Timing = timingWritten
 	return &Artifact{From: cfg.from, To: cfg.to, StaleFrom: math.NaN(), Planets: []Planet{pl}}, nil
+}
+
+// minBaseline is the shortest default baseline, 1 h (in days): less leaves too few
+// out-of-transit points to fix the level on a short transit (common practice).
+const minBaseline = 1.0 / 24
+
+// windows judges every transit from the site, when one is given, and marks the nights
+// holding two or more observable transits.
+func (a *Artifact) windows(cfg *Config, env steps.Env) error {
+	site, ok := cfg.site()
+	a.Site, a.Doubles = ok, nil
+	a.SiteLat, a.SiteLon, a.SiteHeight, a.AltitudeLimit, a.Darkness = math.NaN(), math.NaN(), math.NaN(), math.NaN(), 0
+	if !ok {
+		return nil
+	}
+	l := Lookout{Site: site, RA: a.RA, Dec: a.Dec, MinAlt: cfg.AltitudeLimit / arcsecPerDeg, Darkness: darknessOf(cfg.Darkness)}
+	a.SiteLat, a.SiteLon, a.SiteHeight, a.AltitudeLimit, a.Darkness = site.Lat, site.Lon, site.Height, l.MinAlt, int64(l.Darkness)
+	observable := map[int64]int{}
+	for i := range a.Planets {
+		p := &a.Planets[i]
+		half := 0.0
+		if !math.IsNaN(p.Duration) {
+			half = p.Duration / 2
+		}
+		p.Baseline = math.Max(minBaseline, half)
+		if cfg.Baseline != nil {
+			p.Baseline = *cfg.Baseline
+		}
+		if math.IsNaN(p.Duration) {
+			env.Note("planet %s: the fit gives no duration, so each window is the mid-time with its baselines either side", p.Name)
+		}
+		p.Windows = make([]Window, len(p.Transits))
+		for j, t := range p.Transits {
+			in, eg := t.Ingress, t.Egress
+			if math.IsNaN(in) || math.IsNaN(eg) {
+				in, eg = t.Mid, t.Mid
+			}
+			s := p.Sigma(j)
+			bjd := []float64{in - p.Baseline - s, in, t.Mid, eg, eg + p.Baseline + s}
+			utc := make([]float64, len(bjd))
+			for k, b := range bjd {
+				u, err := timescale.UTCFromBJDTDB(timescale.FromJD(b), a.RA, a.Dec)
+				if err != nil {
+					return steps.Attrf("from", "transit %d of planet %s cannot be given in UTC: %v", t.Epoch, p.Name, err)
+				}
+				utc[k] = u.Float()
+			}
+			w := &p.Windows[j]
+			w.Start, w.Ingress, w.Mid, w.Egress, w.End = utc[0], utc[1], utc[2], utc[3], utc[4]
+			if err := l.Judge(w); err != nil {
+				return steps.Attrf("site_latitude", "transit %d of planet %s cannot be judged from the site: %v", t.Epoch, p.Name, err)
+			}
+			if w.Seen == seenObservable {
+				observable[w.Night]++
+			}
+		}
+	}
+	for n, k := range observable {
+		if k >= 2 {
+			a.Doubles = append(a.Doubles, n)
+		}
+	}
+	slices.Sort(a.Doubles)
+	return nil
 }

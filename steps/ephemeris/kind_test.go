@@ -60,9 +60,11 @@ func runFit(t *testing.T, f *fit.Artifact, set map[string]any) (*Artifact, []str
 	return art.(*Artifact), notes
 }
 
-// fixture is the golden case: a fit whose timing test fails, with the target's direction.
+// fixture is the golden case: a fit whose timing test fails, with the target's direction
+// and an observing site.
 func fixture(t *testing.T) *Artifact {
-	a, _ := runFit(t, fakeFit(true), map[string]any{"ra": "285.1234 deg", "dec": "-12.5 deg"})
+	a, _ := runFit(t, fakeFit(true), map[string]any{"ra": "285.1234 deg", "dec": "-12.5 deg",
+		"site_latitude": "-30.2 deg", "site_longitude": "-70.7 deg", "site_elevation": "2200 m", "baseline": "1.5 h"})
 	return a
 }
 
@@ -282,14 +284,15 @@ func TestThePresentationHoldsATableAndTheData(t *testing.T) {
 	for _, s := range d.Series {
 		names = append(names, s.Name)
 	}
-	want := []string{"epoch", "mid_bjd_tdb", "sigma_d", "sigma_analytic_d", "ingress_bjd_tdb", "egress_bjd_tdb", "mid_jd_utc"}
+	want := []string{"epoch", "mid_bjd_tdb", "sigma_d", "sigma_analytic_d", "ingress_bjd_tdb", "egress_bjd_tdb", "mid_jd_utc",
+		"seen", "window_start_jd_utc", "window_end_jd_utc", "moon_separation_deg", "moon_illuminated"}
 	if !reflect.DeepEqual(names, want) {
 		t.Errorf("columns %v, want %v", names, want)
 	}
-	if len(pr.Panels) != 1 || pr.Panels[0].Table == nil || len(pr.Panels[0].Table.Rows) != 4 {
+	if len(pr.Panels) != 2 || pr.Panels[0].Title != "Nights at the site" || pr.Panels[1].Table == nil || len(pr.Panels[1].Table.Rows) != 4 {
 		t.Fatalf("panels: %+v", pr.Panels)
 	}
-	row := pr.Panels[0].Table.Rows[0]
+	row := pr.Panels[1].Table.Rows[0]
 	if !strings.HasPrefix(row[3], "2024-05-") {
 		t.Errorf("UTC cell %q", row[3])
 	}

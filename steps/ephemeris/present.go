@@ -3,13 +3,18 @@ package ephemeris
 import (
 	"fmt"
 	"math"
+	"slices"
+	"sort"
 	"strconv"
+	"strings"
 
 	"dipline/steps"
 	"dipline/steps/internal/paper"
+	"dipline/steps/internal/sky"
 )
 
-// Present shows per planet a table of the predicted transits and writes them as data
+// Present shows first, when a site is given, a timeline of the nights with a transit seen
+// from there; then per planet a table of the predicted transits, written as data too
 // ("transits_b").
 func (Kind) Present(_ *Config, art steps.Artifact, _ steps.Inputs) (steps.Presentation, error) {
 	a, ok := art.(*Artifact)
@@ -17,6 +22,13 @@ func (Kind) Present(_ *Config, art steps.Artifact, _ steps.Inputs) (steps.Presen
 		return steps.Presentation{}, fmt.Errorf("ephemeris: cannot present %T", art)
 	}
 	var pr steps.Presentation
+	if a.Site {
+		pr.Panels = append(pr.Panels, steps.Panel{
+			Title:   "Nights at the site",
+			Caption: timelineCaption(a),
+			Table:   timeline(a),
+		})
+	}
 	for i := range a.Planets {
 		p := &a.Planets[i]
 		pr.Panels = append(pr.Panels, steps.Panel{
@@ -27,6 +39,89 @@ func (Kind) Present(_ *Config, art steps.Artifact, _ steps.Inputs) (steps.Presen
 		pr.Data = append(pr.Data, data(p))
 	}
 	return pr, nil
+}
+
+// timelineCaption says what the timeline shows and by which rules.
+func timelineCaption(a *Artifact) string {
+	return fmt.Sprintf("Nights at latitude %.4f°, longitude %.4f° (east positive), %.0f m, with at least one transit seen: "+
+		"a transit is observable when its whole window — ingress less the baseline and one σ of the mid-time, to egress plus both — "+
+		"is dark (%s) with the target at least %.4g° high, tested every 5 minutes and at both ends; otherwise what is seen is named. "+
+		"A night runs from local mean noon to the next and is named by the date of its evening. "+
+		"This is a guide for planning: the observatory's rules and the observer's judgement come first.",
+		a.SiteLat, a.SiteLon, a.SiteHeight, sky.Darkness(a.Darkness), a.AltitudeLimit)
+}
+
+// event is one transit seen on a night.
+type event struct {
+	planet string
+	epoch  int64
+	w      Window
+}
+
+// timeline lists one row per night with a transit observable or partly seen: the night's
+// date, its transits in time order with their contacts in UTC, and a mark when two or more
+// are observable.
+func timeline(a *Artifact) *steps.Table {
+	t := &steps.Table{Header: []string{"night of", "transits (UTC)", "two or more transits"}}
+	nights := map[int64][]event{}
+	for i := range a.Planets {
+		p := &a.Planets[i]
+		for j, w := range p.Windows {
+			if w.Seen != seenNone {
+				nights[w.Night] = append(nights[w.Night], event{p.Name, p.Transits[j].Epoch, w})
+			}
+		}
+	}
+	double := map[int64]bool{}
+	for _, n := range a.Doubles {
+		double[n] = true
+	}
+	keys := make([]int64, 0, len(nights))
+	for n := range nights {
+		keys = append(keys, n)
+	}
+	slices.Sort(keys)
+	for _, n := range keys {
+		ev := nights[n]
+		sort.SliceStable(ev, func(i, j int) bool { return ev[i].w.Start < ev[j].w.Start })
+		var cells []string
+		for _, e := range ev {
+			cells = append(cells, eventText(e))
+		}
+		y, m, d := NightDate(n)
+		mark := ""
+		if double[n] {
+			mark = "yes"
+		}
+		t.Rows = append(t.Rows, []string{fmt.Sprintf("%04d-%02d-%02d", y, m, d), strings.Join(cells, " · "), mark})
+	}
+	if len(t.Rows) == 0 {
+		t.Notes = append(t.Notes, "No transit in the range is seen from the site.")
+	}
+	t.Notes = append(t.Notes, "Times are UTC; the window runs from the start of the baseline before to the end of the baseline after. "+
+		"The Moon's distance from the target and its illuminated fraction are at mid-transit.")
+	return t
+}
+
+// eventText writes one transit of a night: planet and transit number, whether it is
+// observable or what is seen, the window and contacts in UTC, and the Moon.
+func eventText(e event) string {
+	what := "observable"
+	if e.w.Seen == seenPartly {
+		what = "partly seen: " + Described(e.w)
+	}
+	return fmt.Sprintf("planet %s, transit %d, %s — window %s to %s, ingress %s, mid-transit %s, egress %s; Moon %.0f° away, %.0f %% lit",
+		e.planet, e.epoch, what, clock(e.w.Start), clock(e.w.End), clock(e.w.Ingress), clock(e.w.Mid), clock(e.w.Egress),
+		e.w.MoonSep, 100*e.w.MoonLit)
+}
+
+// clock writes a UTC Julian date as HH:MM.
+func clock(jd float64) string {
+	s := isoUTC(jd)
+	if len(s) < 16 {
+		return "—"
+	}
+	return s[11:16]
 }
 
 // caption says where the ephemeris comes from and how the errors were found.
@@ -91,6 +186,16 @@ func data(p *Planet) steps.Data {
 		for k, v := range []float64{float64(t.Epoch), t.Mid, p.Sigma(i), p.SigmaAnalytic(i), t.Ingress, t.Egress, t.UTC} {
 			cols[k].Values[i] = v
 		}
+	}
+	if len(p.Windows) == n && n > 0 {
+		// seen: 0 not seen, 1 partly seen, 2 observable.
+		extra := []steps.Series{col("seen"), col("window_start_jd_utc"), col("window_end_jd_utc"), col("moon_separation_deg"), col("moon_illuminated")}
+		for i, w := range p.Windows {
+			for k, v := range []float64{float64(w.Seen), w.Start, w.End, w.MoonSep, w.MoonLit} {
+				extra[k].Values[i] = v
+			}
+		}
+		cols = append(cols, extra...)
 	}
 	return steps.Data{Name: "transits_" + p.Name, Series: cols}
 }

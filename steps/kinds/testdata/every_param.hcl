@@ -172,6 +172,13 @@ ephemeris "full" {
   planets = ["b"]
   ra      = "285.1234 deg"
   dec     = "-12.5 deg"
+
+  site_latitude  = "-30.2 deg"
+  site_longitude = "-70.7 deg"
+  site_elevation = "2200 m"
+  altitude_limit = "35 deg"
+  darkness       = "astronomical"
+  baseline       = "1.5 h"
 }
 
 ephemeris "written" {

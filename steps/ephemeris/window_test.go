@@ -1,0 +1,285 @@
+package ephemeris
+
+import (
+	"errors"
+	"math"
+	"strconv"
+	"strings"
+	"testing"
+
+	"dipline/steps"
+	"dipline/steps/fit"
+	"dipline/steps/internal/lightcurve"
+	"dipline/steps/internal/rng"
+	"dipline/steps/internal/sky"
+	"dipline/steps/internal/steptest"
+	"dipline/steps/internal/timescale"
+)
+
+// The constructed site and night. An invented site at latitude +28.8°, longitude −17.9°
+// (local mean time = UTC − 1.19 h). On the evening of 2027-01-15 (0h UTC is JD 2461420.5:
+// 2027-01-01 is 2461406.5) the Sun sets near 18h local and nautical twilight ends near 19h,
+// so the night is dark from about 20:15 to 07:00 UTC. Local midnight is 01:12 UTC; the
+// Greenwich sidereal time at 0h UT in mid-January is about 7h35m (it is 0h near the
+// September equinox and gains 3m56s a day), so the meridian at local midnight is at
+// RA ≈ 7h36m ≈ 114°: a target at RA 114°, Dec +28.8° passes the zenith then, and at an hour
+// angle of ±3.7 h (21:30 and 04:55 UTC) stands at asin(sin²φ + cos²φ cos 56°) ≈ 41°. The test checks these figures with sky.AltAz and sky.NightOf.
+const (
+	siteLat, siteLon = 28.8, -17.9
+	jan15            = 2461420.5 // 2027-01-15 0h UTC
+	highRA, highDec  = 114.0, 28.8
+)
+
+var testSite = sky.Site{Lat: siteLat, Lon: siteLon}
+
+// siteAttrs are the block's site attributes.
+func siteAttrs(ra, dec float64) map[string]any {
+	return map[string]any{
+		"ra": ftoa(ra) + " deg", "dec": ftoa(dec) + " deg",
+		"site_latitude": ftoa(siteLat) + " deg", "site_longitude": ftoa(siteLon) + " deg", "site_elevation": "2300 m",
+		"altitude_limit": "30 deg", "darkness": "nautical",
+	}
+}
+
+func ftoa(x float64) string { return strconvF(x) }
+
+// bjdOf returns the BJD_TDB of a UTC Julian date for the target.
+func bjdOf(t *testing.T, utc, ra, dec float64) float64 {
+	t.Helper()
+	b, err := timescale.BJDTDB(timescale.FromJD(utc), ra, dec)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return b.Float()
+}
+
+// altitudeAt is the target's altitude at the site at a UTC Julian date.
+func altitudeAt(t *testing.T, utc, ra, dec float64) float64 {
+	t.Helper()
+	at, err := sky.At(timescale.FromJD(utc))
+	if err != nil {
+		t.Fatal(err)
+	}
+	return sky.AltAz(testSite, at, ra, dec).Alt
+}
+
+// twoPlanetFit is a fit of planets b and c (durations 2 h) whose transits have their
+// mid-times at the given UTC Julian dates, seen from the direction (ra, dec).
+func twoPlanetFit(t *testing.T, ra, dec, midB, midC float64) *fit.Artifact {
+	const ref = 2461000
+	tb, tc := bjdOf(t, midB, ra, dec)-ref, bjdOf(t, midC, ra, dec)-ref
+	g := rng.New(11)
+	a := &fit.Artifact{
+		Frame:     lightcurve.Frame{TimeScale: "BJD_TDB", RefInt: ref},
+		Names:     []string{"b.period", "b.t0", "b.t14", "c.period", "c.t0", "c.t14"},
+		Reference: []fit.Reference{{Time: tb}, {Time: tc}},
+	}
+	for i := 0; i < 2000; i++ {
+		a.Samples = append(a.Samples, 3.1+1e-6*g.Normal(), tb+1e-4*g.Normal(), 2.0/24, 5.3+1e-6*g.Normal(), tc+1e-4*g.Normal(), 2.0/24)
+	}
+	return a
+}
+
+// windowOf returns the window of the transit nearest the UTC mid-time.
+func windowOf(t *testing.T, a *Artifact, planet string, mid float64) Window {
+	t.Helper()
+	for _, p := range a.Planets {
+		if p.Name != planet {
+			continue
+		}
+		for _, w := range p.Windows {
+			if math.Abs(w.Mid-mid) < 0.01 {
+				return w
+			}
+		}
+	}
+	t.Fatalf("no window of planet %s at %.4f in %+v", planet, mid, a.Planets)
+	return Window{}
+}
+
+func TestTwoTransitsInOneDarkNightMakeADoubleNight(t *testing.T) {
+	midB := jan15 + (23+40.0/60)/24    // 2027-01-15 23:40 UTC
+	midC := jan15 + 1 + (2+40.0/60)/24 // 2027-01-16 02:40 UTC
+	// The reasoning above, checked: the night is dark from before the first window (21:30 −
+	// σ) to after the last (04:40 + σ), and the target is high throughout.
+	n, err := sky.NightOf(testSite, 2027, 1, 15, sky.Nautical)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !n.Dark || n.Begin.Float() > midB-2.2/24 || n.End.Float() < midC+2.2/24 {
+		t.Fatalf("the night of 2027-01-15 is dark %v from %.4f to %.4f", n.Dark, n.Begin.Float(), n.End.Float())
+	}
+	for x := midB - 2.2/24; x <= midC+2.2/24; x += 0.01 {
+		if alt := altitudeAt(t, x, highRA, highDec); alt < 40 {
+			t.Fatalf("the target is %.1f° high at %s", alt, isoUTC(x))
+		}
+	}
+	f := twoPlanetFit(t, highRA, highDec, midB, midC)
+	set := siteAttrs(highRA, highDec)
+	set["from"], set["to"] = "2027-01-14", "2027-01-17"
+	a, _ := runFit(t, f, set)
+	wb, wc := windowOf(t, a, "b", midB), windowOf(t, a, "c", midC)
+	if wb.Seen != seenObservable || wc.Seen != seenObservable {
+		t.Fatalf("b seen %d, c seen %d; both should be observable", wb.Seen, wc.Seen)
+	}
+	if wb.Night != wc.Night {
+		t.Fatalf("the two transits fall in nights %d and %d", wb.Night, wc.Night)
+	}
+	if y, m, d := NightDate(wb.Night); y != 2027 || m != 1 || d != 15 {
+		t.Errorf("the night is named %04d-%02d-%02d, want the evening of 2027-01-15", y, m, d)
+	}
+	if len(a.Doubles) != 1 || a.Doubles[0] != wb.Night {
+		t.Errorf("double nights %v, want [%d]", a.Doubles, wb.Night)
+	}
+	if !(wb.MoonSep >= 0 && wb.MoonSep <= 180 && wb.MoonLit >= 0 && wb.MoonLit <= 1) {
+		t.Errorf("Moon %v° away, %v lit", wb.MoonSep, wb.MoonLit)
+	}
+	figs := map[string]float64{}
+	for _, fg := range a.Figures() {
+		figs[fg.Name] = fg.Value
+	}
+	if figs["double_nights"] != 1 || figs["b.observable"] < 1 || figs["c.observable"] < 1 {
+		t.Errorf("figures %v", figs)
+	}
+	pr, err := Kind{}.Present(nil, a, steps.Inputs{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	steptest.CheckPresentation(t, pr)
+	tl := pr.Panels[0].Table
+	if pr.Panels[0].Title != "Nights at the site" || tl == nil {
+		t.Fatalf("the first panel is %q", pr.Panels[0].Title)
+	}
+	var row []string
+	for _, r := range tl.Rows {
+		if r[0] == "2027-01-15" {
+			row = r
+		}
+	}
+	if row == nil || row[2] != "yes" || strings.Index(row[1], "planet b") > strings.Index(row[1], "planet c") ||
+		!strings.Contains(row[1], "mid-transit 23:40") || !strings.Contains(row[1], "mid-transit 02:40") {
+		t.Errorf("timeline rows %q", tl.Rows)
+	}
+	if c := strings.Join(a.Cautions(), "\n"); strings.Contains(c, "No predicted transit") || !strings.Contains(c, "observer's judgement") {
+		t.Errorf("cautions %q", c)
+	}
+}
+
+// runWritten runs one written planet of duration 2 h whose transit has its mid-time at the
+// UTC Julian date, seen from the site.
+func runWritten(t *testing.T, ra, dec, mid float64) *Artifact {
+	t.Helper()
+	set := siteAttrs(ra, dec)
+	set["period"] = "10 ± 0.00001 d"
+	set["epoch"] = strconvF(bjdOf(t, mid, ra, dec)) + " ± 0.0001 d"
+	set["duration"] = "2 ± 0.01 h"
+	set["from"], set["to"] = "2027-01-14", "2027-01-20"
+	art, _, err := steptest.Run(New(), set, steps.Inputs{}, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return art.(*Artifact)
+}
+
+func TestATransitInDaylightIsNotObservable(t *testing.T) {
+	// 13:00 UTC is 11:49 local mean time: the Sun is up.
+	mid := jan15 + 1 + 13.0/24
+	a := runWritten(t, highRA, highDec, mid)
+	if w := windowOf(t, a, "b", mid); w.Seen != seenNone {
+		t.Errorf("a transit at noon is seen %d (parts %b)", w.Seen, w.Parts)
+	}
+	if c := strings.Join(a.Cautions(), "\n"); !strings.Contains(c, "No predicted transit in the range is observable") {
+		t.Errorf("no caution that nothing is observable: %q", c)
+	}
+}
+
+func TestATargetBelowTheLimitIsNotObservable(t *testing.T) {
+	// Dec −58° culminates at 90° − 28.8° − 58° = 3.2° from latitude +28.8°.
+	const dec = -58.0
+	mid := jan15 + 1 + 1.2/24
+	if alt := altitudeAt(t, mid, highRA, dec); alt > 4 {
+		t.Fatalf("the target is %.1f° high", alt)
+	}
+	a := runWritten(t, highRA, dec, mid)
+	if w := windowOf(t, a, "b", mid); w.Seen != seenNone {
+		t.Errorf("a target below the limit is seen %d (parts %b)", w.Seen, w.Parts)
+	}
+}
+
+func TestAPartlySeenTransitNamesTheContactsSeen(t *testing.T) {
+	// Mid-transit 10 minutes before the end of nautical twilight at dawn: ingress and
+	// mid-transit are in the dark, the egress 50 minutes later is not. The target is put on
+	// the meridian at dawn: the sidereal time then is about 7h36m + 6h, so RA ≈ 205°.
+	n, err := sky.NightOf(testSite, 2027, 1, 15, sky.Nautical)
+	if err != nil {
+		t.Fatal(err)
+	}
+	const ra = 205.0
+	mid := n.End.Float() - 10.0/1440
+	if alt := altitudeAt(t, mid, ra, highDec); alt < 60 {
+		t.Fatalf("the target is %.1f° high at dawn", alt)
+	}
+	a := runWritten(t, ra, highDec, mid)
+	w := windowOf(t, a, "b", mid)
+	if w.Seen != seenPartly {
+		t.Fatalf("seen %d, want partly", w.Seen)
+	}
+	if got, want := Described(w), "ingress and mid-transit seen; the baseline before whole, the other cut"; got != want {
+		t.Errorf("described as %q, want %q", got, want)
+	}
+	pr, err := Kind{}.Present(nil, a, steps.Inputs{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if tl := pr.Panels[0].Table; len(tl.Rows) != 1 || !strings.Contains(tl.Rows[0][1], "partly seen: ingress and mid-transit seen") || tl.Rows[0][2] != "" {
+		t.Errorf("timeline %q", tl.Rows)
+	}
+}
+
+func TestSiteMistakesPointAtTheAttribute(t *testing.T) {
+	base := func(set map[string]any, drop ...string) map[string]any {
+		out := siteAttrs(highRA, highDec)
+		out["period"], out["epoch"], out["duration"] = "3.7 ± 0.001 d", "2460450.9 ± 0.001 d", "2 ± 0.1 h"
+		out["from"], out["to"] = "2460460", "2460470"
+		for _, d := range drop {
+			delete(out, d)
+		}
+		for k, v := range set {
+			out[k] = v
+		}
+		return out
+	}
+	cases := []struct {
+		name string
+		set  map[string]any
+		drop []string
+		attr string
+	}{
+		{"a latitude without a longitude", nil, []string{"site_longitude"}, "site_latitude"},
+		{"a longitude without a latitude", nil, []string{"site_latitude"}, "site_longitude"},
+		{"a site without the target's direction", nil, []string{"ra", "dec"}, "site_latitude"},
+		{"a latitude beyond the pole", map[string]any{"site_latitude": "100 deg"}, nil, "site_latitude"},
+		{"a site on a mountain too high", map[string]any{"site_elevation": "20000 m"}, nil, "site_elevation"},
+		{"an altitude limit at the zenith", map[string]any{"altitude_limit": "95 deg"}, nil, "altitude_limit"},
+		{"a baseline of a day", map[string]any{"baseline": "1 d"}, nil, "baseline"},
+		{"a baseline without a site", map[string]any{"baseline": "1 h"}, []string{"site_latitude", "site_longitude", "site_elevation"}, "baseline"},
+		{"a written planet without a duration", nil, []string{"duration"}, "duration"},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			_, err := steptest.Config(New(), base(c.set, c.drop...))
+			var ae *steps.AttrError
+			if !errors.As(err, &ae) || ae.Attr != c.attr {
+				t.Errorf("error %v, want one on %s", err, c.attr)
+			}
+		})
+	}
+	t.Run("a site without dec names dec", func(t *testing.T) {
+		_, err := steptest.Config(New(), base(nil, "dec", "ra"))
+		if err == nil || !strings.Contains(err.Error(), "ra and dec is missing") {
+			t.Errorf("error %v does not name what is missing", err)
+		}
+	})
+}
+
+func strconvF(x float64) string { return strconv.FormatFloat(x, 'f', -1, 64) }
