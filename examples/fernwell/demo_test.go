@@ -181,7 +181,7 @@ func TestACatalogueRevisionRerunsOnlyTheStarsReaders(t *testing.T) {
 	prior := append(append([]workflow.Override(nil), shortFit...),
 		workflow.Override{Addr: "fit.planets", Attr: "priors", Value: `{ "b.b" = "uniform(0, 0.9)" }`})
 	want = map[string]string{"fit.planets": workflow.StatusComputed, "derive.planets": workflow.StatusComputed,
-		"vet.planets": workflow.StatusComputed}
+		"vet.planets": workflow.StatusComputed, "ephemeris.next": workflow.StatusComputed}
 	expectStatuses(t, "after a prior changed", statuses(runDir(t, dir, prior...)), want)
 }
 

@@ -16,8 +16,10 @@
 package ephemeris
 
 import (
+	"cmp"
 	"context"
 	"errors"
+	"fmt"
 	"math"
 	"regexp"
 	"slices"
@@ -598,5 +600,39 @@ func (a *Artifact) windows(cfg *Config, env steps.Env) error {
 		}
 	}
 	slices.Sort(a.Doubles)
+	for _, n := range a.Doubles {
+		env.Note("%s", doubleNightLine(a, n))
+	}
 	return nil
+}
+
+// doubleNightLine says, for the run's summary, which observable transits a night with two
+// or more holds: "two or more transits on the night of 2027-02-14: b mid 22:41 UTC (window
+// 20:12–01:09), c mid 03:05 UTC (window 01:30–04:40)".
+func doubleNightLine(a *Artifact, night int64) string {
+	type event struct {
+		mid  float64
+		text string
+	}
+	var events []event
+	hm := func(jd float64) string {
+		if t := isoUTC(jd); len(t) == len("2006-01-02T15:04Z") {
+			return t[11:16]
+		}
+		return "?"
+	}
+	for _, p := range a.Planets {
+		for _, w := range p.Windows {
+			if w.Night == night && w.Seen == seenObservable {
+				events = append(events, event{w.Mid, fmt.Sprintf("%s mid %s UTC (window %s–%s)", p.Name, hm(w.Mid), hm(w.Start), hm(w.End))})
+			}
+		}
+	}
+	slices.SortFunc(events, func(x, y event) int { return cmp.Compare(x.mid, y.mid) })
+	texts := make([]string, len(events))
+	for i, e := range events {
+		texts[i] = e.text
+	}
+	y, m, d := NightDate(night)
+	return fmt.Sprintf("two or more transits on the night of %04d-%02d-%02d: %s", y, m, d, strings.Join(texts, ", "))
 }

@@ -117,7 +117,7 @@ func TestTwoTransitsInOneDarkNightMakeADoubleNight(t *testing.T) {
 	f := twoPlanetFit(t, highRA, highDec, midB, midC)
 	set := siteAttrs(highRA, highDec)
 	set["from"], set["to"] = "2027-01-14", "2027-01-17"
-	a, _ := runFit(t, f, set)
+	a, notes := runFit(t, f, set)
 	wb, wc := windowOf(t, a, "b", midB), windowOf(t, a, "c", midC)
 	if wb.Seen != seenObservable || wc.Seen != seenObservable {
 		t.Fatalf("b seen %d, c seen %d; both should be observable", wb.Seen, wc.Seen)
@@ -130,6 +130,17 @@ func TestTwoTransitsInOneDarkNightMakeADoubleNight(t *testing.T) {
 	}
 	if len(a.Doubles) != 1 || a.Doubles[0] != wb.Night {
 		t.Errorf("double nights %v, want [%d]", a.Doubles, wb.Night)
+	}
+	// The run's summary names the night and its transits in time order, b's mid-time first.
+	want := "two or more transits on the night of 2027-01-15: b mid 23:40 UTC"
+	found := false
+	for _, n := range notes {
+		if strings.HasPrefix(n, want) && strings.Contains(n, ", c mid 02:40 UTC") {
+			found = true
+		}
+	}
+	if !found {
+		t.Errorf("no note %q… with c at 02:40 among %q", want, notes)
 	}
 	if !(wb.MoonSep >= 0 && wb.MoonSep <= 180 && wb.MoonLit >= 0 && wb.MoonLit <= 1) {
 		t.Errorf("Moon %v° away, %v lit", wb.MoonSep, wb.MoonLit)
