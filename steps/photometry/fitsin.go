@@ -336,37 +336,47 @@ func describeChoice(chosen [nRoles]string) string {
 // does not is refused naming the keyword and the setting.
 func checkScale(cfg *Config, h fitsHDU, at string, note noteFunc) error {
 	origin, scale, _ := strings.Cut(cfg.TimeScale, "_")
-	sys, sysGiven, err := h.str("TIMESYS", "")
+	for _, k := range []timeKeyword{
+		{"TIMESYS", timesysScale, "a time scale", "TDB, TT, UTC, TAI, TCB, TCG", "says the times are on %s", "%s", scale},
+		{"TIMEREF", timerefOrigin, "a time reference position", "SOLARSYSTEM, BARYCENTER, HELIOCENTER, TOPOCENTER, GEOCENTER, LOCAL", "means %s times", "%s times", origin},
+	} {
+		if err := k.check(cfg, h, at, note); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// timeKeyword is one FITS time keyword checked against the workflow's time_scale, with the
+// words its messages use.
+type timeKeyword struct {
+	name   string
+	values map[string]string // the keyword's values, upper case, by what they mean
+	what   string            // what a value is, for a value the step does not know
+	known  string            // the values it knows, for that message
+	says   string            // what a value says, with %s for its meaning
+	fills  string            // what time_scale fills in, with %s for its part
+	want   string            // the part of time_scale the keyword must agree with
+}
+
+// check refuses a value the step does not know or one that disagrees with time_scale, and
+// notes how time_scale fills a keyword the header leaves out.
+func (k timeKeyword) check(cfg *Config, h fitsHDU, at string, note noteFunc) error {
+	v, given, err := h.str(k.name, "")
 	if err != nil {
 		return err
 	}
-	ref, refGiven, err := h.str("TIMEREF", "")
-	if err != nil {
-		return err
+	if !given {
+		note("%s: the header has no %s; time_scale = %q fills it: "+k.fills, at, k.name, cfg.TimeScale, k.want)
+		return nil
 	}
-	if sysGiven {
-		got, ok := timesysScale[strings.ToUpper(sys)]
-		if !ok {
-			return steps.BadInputf("%s: TIMESYS = '%s' is not a time scale this step knows (TDB, TT, UTC, TAI, TCB, TCG)", at, sys)
-		}
-		if got != scale {
-			return steps.BadInputf("%s: TIMESYS = '%s' says the times are on %s, but the workflow states time_scale = %q (%s); convert the file's times or state its scale",
-				at, sys, got, cfg.TimeScale, scale)
-		}
-	} else {
-		note("%s: the header has no TIMESYS; time_scale = %q fills it: %s", at, cfg.TimeScale, scale)
+	got, ok := k.values[strings.ToUpper(v)]
+	if !ok {
+		return steps.BadInputf("%s: %s = '%s' is not %s this step knows (%s)", at, k.name, v, k.what, k.known)
 	}
-	if refGiven {
-		got, ok := timerefOrigin[strings.ToUpper(ref)]
-		if !ok {
-			return steps.BadInputf("%s: TIMEREF = '%s' is not a time reference position this step knows (SOLARSYSTEM, BARYCENTER, HELIOCENTER, TOPOCENTER, GEOCENTER, LOCAL)", at, ref)
-		}
-		if got != origin {
-			return steps.BadInputf("%s: TIMEREF = '%s' means %s times, but the workflow states time_scale = %q (%s); convert the file's times or state its scale",
-				at, ref, got, cfg.TimeScale, origin)
-		}
-	} else {
-		note("%s: the header has no TIMEREF; time_scale = %q fills it: %s times", at, cfg.TimeScale, origin)
+	if got != k.want {
+		return steps.BadInputf("%s: %s = '%s' "+k.says+", but the workflow states time_scale = %q (%s); convert the file's times or state its scale",
+			at, k.name, v, got, cfg.TimeScale, k.want)
 	}
 	return nil
 }
