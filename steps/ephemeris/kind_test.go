@@ -311,19 +311,7 @@ func mustPresent(t *testing.T, a *Artifact) steps.Presentation {
 
 func TestMistakesPointAtTheAttribute(t *testing.T) {
 	base := map[string]any{"period": "3.7 ± 0.001 d", "epoch": "2460450.9 ± 0.001 d", "from": "2460460", "to": "2460470"}
-	with := func(set map[string]any, drop ...string) map[string]any {
-		out := map[string]any{}
-		for k, v := range base {
-			out[k] = v
-		}
-		for _, d := range drop {
-			delete(out, d)
-		}
-		for k, v := range set {
-			out[k] = v
-		}
-		return out
-	}
+	with := func(set map[string]any, drop ...string) map[string]any { return edited(base, set, drop...) }
 	cases := []struct {
 		name string
 		set  map[string]any
@@ -368,4 +356,19 @@ func TestMistakesPointAtTheAttribute(t *testing.T) {
 			t.Errorf("error %v, want one on planets", err)
 		}
 	})
+}
+
+// edited returns a copy of a block's attributes without drop and with set on top.
+func edited(base, set map[string]any, drop ...string) map[string]any {
+	out := map[string]any{}
+	for k, v := range base {
+		out[k] = v
+	}
+	for _, d := range drop {
+		delete(out, d)
+	}
+	for k, v := range set {
+		out[k] = v
+	}
+	return out
 }

@@ -248,18 +248,10 @@ func TestAPartlySeenTransitNamesTheContactsSeen(t *testing.T) {
 }
 
 func TestSiteMistakesPointAtTheAttribute(t *testing.T) {
-	base := func(set map[string]any, drop ...string) map[string]any {
-		out := siteAttrs(highRA, highDec)
-		out["period"], out["epoch"], out["duration"] = "3.7 ± 0.001 d", "2460450.9 ± 0.001 d", "2 ± 0.1 h"
-		out["from"], out["to"] = "2460460", "2460470"
-		for _, d := range drop {
-			delete(out, d)
-		}
-		for k, v := range set {
-			out[k] = v
-		}
-		return out
-	}
+	written := siteAttrs(highRA, highDec)
+	written["period"], written["epoch"], written["duration"] = "3.7 ± 0.001 d", "2460450.9 ± 0.001 d", "2 ± 0.1 h"
+	written["from"], written["to"] = "2460460", "2460470"
+	base := func(set map[string]any, drop ...string) map[string]any { return edited(written, set, drop...) }
 	cases := []struct {
 		name string
 		set  map[string]any
