@@ -1,7 +1,6 @@
 package photometry
 
 import (
-	"bytes"
 	"testing"
 
 	"dipline/steps"
@@ -83,13 +82,7 @@ func TestPresentShowsEverySegmentOfTheFixtures(t *testing.T) {
 	})
 
 	t.Run("two calls give the same presentation", func(t *testing.T) {
-		again, err := steps.PresentationOf(New(), cfg, res, in)
-		if err != nil {
-			t.Fatal(err)
-		}
-		if !bytes.Equal(steptest.PresentationBytes(t, pr), steptest.PresentationBytes(t, again)) {
-			t.Fatal("the presentations differ")
-		}
+		steptest.PresentsAlike(t, New(), cfg, res, in, pr)
 	})
 }
 

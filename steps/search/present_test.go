@@ -1,7 +1,6 @@
 package search
 
 import (
-	"bytes"
 	"fmt"
 	"math"
 	"slices"
@@ -161,13 +160,7 @@ func TestPresentShowsPeriodogramsFoldsAndSignals(t *testing.T) {
 	})
 
 	t.Run("two calls give the same presentation", func(t *testing.T) {
-		again, err := steps.PresentationOf(New(), cfg, art, in)
-		if err != nil {
-			t.Fatal(err)
-		}
-		if !bytes.Equal(steptest.PresentationBytes(t, pr), steptest.PresentationBytes(t, again)) {
-			t.Fatal("the presentations differ")
-		}
+		steptest.PresentsAlike(t, New(), cfg, art, in, pr)
 	})
 
 	t.Run("without the light curve there are no folds, and the table says so", func(t *testing.T) {

@@ -71,3 +71,16 @@ func Column(t *testing.T, d steps.Data, name string) []float64 {
 	t.Fatalf("%s has no column %s", d.Name, name)
 	return nil
 }
+
+// PresentsAlike presents the artifact again and fails the test unless the presentation is
+// the same bytes as pr: presenting must be deterministic.
+func PresentsAlike(t *testing.T, k steps.Kind, cfg any, art steps.Artifact, in steps.Inputs, pr steps.Presentation) {
+	t.Helper()
+	again, err := steps.PresentationOf(k, cfg, art, in)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !bytes.Equal(PresentationBytes(t, pr), PresentationBytes(t, again)) {
+		t.Fatal("the presentations differ")
+	}
+}
