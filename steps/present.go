@@ -55,6 +55,9 @@ type Plot struct {
 	Layers                []Layer
 	// HLines and VLines mark values across the plot: a threshold, a mid-transit.
 	HLines, VLines []Mark
+	// YTicks, when given, label the y axis at these values with these words in place of
+	// numbers: the dates of a timeline's rows.
+	YTicks []Mark
 	// Data names the Data whose columns the layers draw, so that a reader (and a test) can
 	// find the numbers behind the picture; "" when none.
 	Data string
@@ -72,6 +75,7 @@ const (
 	Line                         // a line through (X, Y) in X order
 	Band                         // a filled band between YLo and YHi along X, with Y as its middle line
 	Histogram                    // bars: X the bin centres, Y the counts or densities
+	Spans                        // horizontal bars from XLo to XHi at height Y, with a tick at X when X is a number on the bar: intervals of time on a timeline; a plot's first spans are drawn pale, as the ground the others lie on
 )
 
 // Layer is one series of a plot.
@@ -81,6 +85,8 @@ type Layer struct {
 	X, Y  []float64
 	// YLo and YHi are the band's or the error bars' ends (ErrorBars, Band).
 	YLo, YHi []float64
+	// XLo and XHi are the spans' ends (Spans).
+	XLo, XHi []float64
 }
 
 // Mark is a value marked across a plot, with a short label.

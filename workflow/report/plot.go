@@ -55,15 +55,16 @@ var dashes = [][]vg.Length{nil, {vg.Points(5), vg.Points(3)}, {vg.Points(1.5), v
 
 // styleNames name the layer styles in the page's markup (data-style).
 var styleNames = map[steps.LayerStyle]string{steps.Points: "points", steps.Emphasised: "emphasised",
-	steps.ErrorBars: "error-bars", steps.Line: "line", steps.Band: "band", steps.Histogram: "histogram"}
+	steps.ErrorBars: "error-bars", steps.Line: "line", steps.Band: "band", steps.Histogram: "histogram", steps.Spans: "spans"}
 
 // marked reports whether a style draws one mark per row (a marker or a bar).
 func marked(s steps.LayerStyle) bool {
-	return s == steps.Points || s == steps.Emphasised || s == steps.ErrorBars || s == steps.Histogram
+	return s == steps.Points || s == steps.Emphasised || s == steps.ErrorBars || s == steps.Histogram || s == steps.Spans
 }
 
-// drawOrder puts bands and bars behind lines, lines behind markers, emphasised markers on top.
-var drawOrder = []steps.LayerStyle{steps.Band, steps.Histogram, steps.Line, steps.Points, steps.ErrorBars, steps.Emphasised}
+// drawOrder puts bands, bars and spans behind lines, lines behind markers, emphasised
+// markers on top; spans are drawn in layer order, so a later span sits on an earlier one.
+var drawOrder = []steps.LayerStyle{steps.Band, steps.Histogram, steps.Spans, steps.Line, steps.Points, steps.ErrorBars, steps.Emphasised}
 
 // The markers of a layer's group. The backend writes every string as text; we write these
 // two private-use characters (clean removes them from anything else) around a layer's index
@@ -93,6 +94,8 @@ type layerLook struct {
 	// step is the decimation stride (1: every point).
 	step  int
 	drawn int
+	// ground marks the plot's first spans, drawn pale beneath the others (see spans).
+	ground bool
 }
 
 func lookOf(i int) layerLook {
@@ -122,6 +125,7 @@ func drawPlot(p *steps.Plot, columns int) (dp drawnPlot, err error) {
 	looks := make([]layerLook, len(p.Layers))
 	for i, l := range p.Layers {
 		looks[i] = lookOf(i)
+		looks[i].ground = l.Style == steps.Spans && i == firstOf(p, steps.Spans)
 		if n := len(l.X); n > maxDrawn {
 			looks[i].step = (n + maxDrawn - 1) / maxDrawn
 		}
@@ -152,6 +156,13 @@ func drawPlot(p *steps.Plot, columns int) (dp drawnPlot, err error) {
 	}
 	if p.XReversed {
 		pl.X.Scale = plot.InvertedScale{Normalizer: pl.X.Scale}
+	}
+	if len(p.YTicks) > 0 {
+		ticks := make(plot.ConstantTicks, len(p.YTicks))
+		for i, m := range p.YTicks {
+			ticks[i] = plot.Tick{Value: m.Value, Label: clean(m.Label)}
+		}
+		pl.Y.Tick.Marker = ticks
 	}
 	pl.Add(&layers{p: p, looks: looks})
 
@@ -226,6 +237,9 @@ func checkLayers(p *steps.Plot) error {
 		if l.Style == steps.ErrorBars || l.Style == steps.Band {
 			bad = bad || len(l.YLo) != n || len(l.YHi) != n
 		}
+		if l.Style == steps.Spans {
+			bad = bad || len(l.XLo) != n || len(l.XHi) != n
+		}
 		if bad {
 			return fmt.Errorf("the plot %q was not drawn: %s has columns of unequal lengths", p.Title, layerName(l, i))
 		}
@@ -244,6 +258,14 @@ func ranges(p *steps.Plot) ([2]float64, [2]float64) {
 	y := extent{log: p.LogY}
 	for _, l := range p.Layers {
 		for j := range l.X {
+			if l.Style == steps.Spans {
+				if usable(l.XLo[j], p.LogX) && usable(l.XHi[j], p.LogX) && usable(l.Y[j], p.LogY) {
+					x.add(l.XLo[j])
+					x.add(l.XHi[j])
+					y.add(l.Y[j])
+				}
+				continue
+			}
 			if !usable(l.X[j], p.LogX) {
 				continue
 			}
@@ -372,6 +394,8 @@ func (ls *layers) Plot(c draw.Canvas, pl *plot.Plot) {
 				pt.band(l, lk)
 			case steps.Histogram:
 				pt.histogram(l, lk, i)
+			case steps.Spans:
+				pt.spans(l, lk, i)
 			case steps.Line:
 				pt.line(l, lk)
 			case steps.Points, steps.ErrorBars, steps.Emphasised:
@@ -439,6 +463,50 @@ func (pt painter) histogram(l steps.Layer, lk *layerLook, i int) {
 		lk.drawn++
 	}
 	pt.group('e', i)
+}
+
+// spanHalfHeight is half the thickness of a span's bar.
+const spanHalfHeight = vg.Length(2.5)
+
+// firstOf returns the index of the plot's first layer of a style, or −1.
+func firstOf(p *steps.Plot, s steps.LayerStyle) int {
+	for i, l := range p.Layers {
+		if l.Style == s {
+			return i
+		}
+	}
+	return -1
+}
+
+// spans draws one bar per row from XLo to XHi at height Y, with a short upright tick at X
+// when X lies on the bar; each bar is a counted mark. The plot's first spans are its
+// ground (the time a target is up, say): drawn pale and a little taller, so the later
+// spans read as lying on it.
+func (pt painter) spans(l steps.Layer, lk *layerLook, i int) {
+	fill := lk.colour
+	fill.A = 0xb0
+	if lk.ground {
+		fill.A = 0x48
+	}
+	var ticks [][]vg.Point
+	pt.group('b', i)
+	for j := 0; j < len(l.X); j += lk.step {
+		if !pt.ok(l.XLo[j], l.Y[j]) || !pt.ok(l.XHi[j], l.Y[j]) {
+			continue
+		}
+		x0, x1, y := pt.tx(l.XLo[j]), pt.tx(l.XHi[j]), pt.ty(l.Y[j])
+		pt.c.FillPolygon(fill, pt.c.ClipPolygonXY([]vg.Point{{X: x0, Y: y - spanHalfHeight}, {X: x1, Y: y - spanHalfHeight},
+			{X: x1, Y: y + spanHalfHeight}, {X: x0, Y: y + spanHalfHeight}}))
+		lk.drawn++
+		if pt.ok(l.X[j], l.Y[j]) && l.X[j] >= l.XLo[j] && l.X[j] <= l.XHi[j] {
+			x := pt.tx(l.X[j])
+			ticks = append(ticks, []vg.Point{{X: x, Y: y - 2*spanHalfHeight}, {X: x, Y: y + 2*spanHalfHeight}})
+		}
+	}
+	pt.group('e', i)
+	if len(ticks) > 0 {
+		pt.c.StrokeLines(draw.LineStyle{Color: lk.colour, Width: vg.Points(1)}, pt.c.ClipLinesXY(ticks...)...)
+	}
 }
 
 // line draws a line in x order, broken where a value cannot be placed; a long line is
@@ -614,6 +682,12 @@ func swatch(s steps.LayerStyle, lk layerLook) template.HTML {
 		body = fmt.Sprintf(`<rect x="1" y="2" width="22" height="8" fill="%s" fill-opacity="0.31"/><line x1="1" y1="6" x2="23" y2="6" stroke="%s"%s/>`, col, col, dash)
 	case steps.Histogram:
 		body = fmt.Sprintf(`<rect x="4" y="3" width="6" height="9" fill="%s" fill-opacity="0.63"/><rect x="12" y="6" width="6" height="6" fill="%s" fill-opacity="0.63"/>`, col, col)
+	case steps.Spans:
+		opacity := "0.69"
+		if lk.ground {
+			opacity = "0.28"
+		}
+		body = fmt.Sprintf(`<rect x="1" y="3.5" width="22" height="5" fill="%s" fill-opacity="%s"/><line x1="12" y1="1" x2="12" y2="11" stroke="%s"/>`, col, opacity, col)
 	default:
 		r := 2.5
 		if s == steps.Emphasised {

@@ -286,3 +286,44 @@ func TestAHeadlessBrowserReadsThePage(t *testing.T) {
 		t.Fatalf("the screenshot is not a PNG (%v)", err)
 	}
 }
+
+// TestSpansDrawOneBarPerRowAndWidenTheAxis draws a timeline of spans: one bar per row that
+// can be placed (a NaN end leaves its row out, and the caption says so), the x axis reaching
+// the spans' ends rather than their ticks, and uneven ends refused.
+func TestSpansDrawOneBarPerRowAndWidenTheAxis(t *testing.T) {
+	sp := steps.Layer{Label: "windows", Style: steps.Spans,
+		X: []float64{0, 1, 2, 3}, Y: []float64{1, 2, 3, 4},
+		XLo: []float64{-5, 0.5, math.NaN(), 2}, XHi: []float64{1, 1.5, 2.5, 7}}
+	p := &steps.Plot{Title: "timeline", XLabel: "h", YLabel: "night", Layers: []steps.Layer{sp},
+		YTicks: []steps.Mark{{Value: 1, Label: "2031-02-03"}, {Value: 4, Label: "2031-02-09"}}}
+	x, _ := ranges(p)
+	if !(x[0] <= -5 && x[1] >= 7) {
+		t.Errorf("x axis %v does not reach the spans' ends −5 and 7", x)
+	}
+	doc := Document{Title: "t", Sections: []Section{{Step: "a.b", Kind: "a", Label: "b", Made: "made-a.b",
+		Presentation: steps.Presentation{Panels: []steps.Panel{{Title: "spans", Plots: []*steps.Plot{p,
+			{Title: "uneven", Layers: []steps.Layer{{Style: steps.Spans, X: []float64{1}, Y: []float64{1}, XLo: []float64{0}}}}}}}}}}}
+	page := render(t, doc)
+	plots, err := reporttest.Plots(page)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(plots) != 1 || len(plots[0].Layers) != 1 {
+		t.Fatalf("want one plot with one marked layer, got %+v", plots)
+	}
+	l := plots[0].Layers[0]
+	if l.Style != "spans" || l.Rows != 4 || l.Drawn != 3 || l.Marks != 3 {
+		t.Errorf("spans layer: style %s, %d rows, %d drawn, %d marks; want spans, 4, 3, 3", l.Style, l.Rows, l.Drawn, l.Marks)
+	}
+	if !strings.Contains(page, "1 of 4 points have no value that can be placed") {
+		t.Error("the span that cannot be placed is not reported")
+	}
+	if !strings.Contains(page, "columns of unequal lengths") {
+		t.Error("spans with uneven ends are not refused")
+	}
+	for _, d := range []string{">2031-02-03<", ">2031-02-09<"} {
+		if !strings.Contains(page, d) {
+			t.Errorf("the y axis is not labelled %s", strings.Trim(d, "<>"))
+		}
+	}
+}
