@@ -98,8 +98,8 @@ vet "planets" {
 # 2025, when the star is up at night): each with its error from the fit's posterior (growing
 # with the number of orbits since the data), whether the whole transit and an hour of
 # baseline on each side fall in a dark night with the star at least 30° up, and the nights
-# holding two transits (none this season: the run says which transits are partly seen). A
-# linear ephemeris ignores timing variations; the observatory's rules and the observer's
+# holding two whole transits (one, this season: b and c three hours apart). A linear
+# ephemeris ignores timing variations; the observatory's rules and the observer's
 # judgement come first.
 ephemeris "next" {
   fit            = fit.planets
@@ -107,7 +107,7 @@ ephemeris "next" {
   to             = "2025-04-30"
   ra             = "157.38412 deg" # FW-3318, from the catalogue of nearby stars
   dec            = "23.91775 deg"
-  site_latitude  = "27.9 deg"
-  site_longitude = "-107.5 deg"
+  site_latitude  = "31.6 deg"
+  site_longitude = "61.4 deg"
   site_elevation = "2300 m"
 }

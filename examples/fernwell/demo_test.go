@@ -261,6 +261,23 @@ func TestTheFullDemoCoversTheTruth(t *testing.T) {
 			}
 		}
 	}
+	// The first predicted transit of the next season lands on the invented truth's linear
+	// ephemeris within 3σ (months after the data, so the period's error has grown), and the
+	// demo's site sees one night with two whole transits (README, "Planning the next
+	// transits").
+	eph := figs["ephemeris.next"]
+	for _, p := range tr.Planets {
+		mid, sig := eph[p.Name+".first_mid"], eph[p.Name+".first_mid/sigma"]
+		n := math.Round((mid - 2460000 - p.EpochD) / p.PeriodD)
+		want := 2460000 + p.EpochD + n*p.PeriodD
+		t.Logf("ephemeris %s: first transit %.5f ± %.5f, truth %.5f", p.Name, mid, sig, want)
+		if !(sig > 0) || math.Abs(mid-want) > 3*sig {
+			t.Errorf("ephemeris %s: first transit %.5f ± %.5f d, truth %.5f", p.Name, mid, sig, want)
+		}
+	}
+	if eph["double_nights"] != 1 {
+		t.Errorf("the demo's site sees %v nights with two whole transits, the README says one", eph["double_nights"])
+	}
 	// Both injected signals are planets on the target: no vet test may disagree.
 	for _, s := range []string{"signal1", "signal2"} {
 		d, ok := figs["vet.planets"][s+".disagree"]

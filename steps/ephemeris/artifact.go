@@ -91,6 +91,9 @@ type Artifact struct {
 	// Doubles lists the nights (Window.Night) holding two or more observable transits, in
 	// order.
 	Doubles []int64
+	// Nights gives, for each night with a transit observable or partly seen, in order, the
+	// part of it in which the site sees the target.
+	Nights  []NightSpan
 	Planets []Planet
 }
 
@@ -196,7 +199,7 @@ func isoUTC(jd float64) string {
 
 const (
 	tag    = "ephemeris"
-	format = 2
+	format = 3
 )
 
 // Encode returns the canonical encoding.
@@ -210,6 +213,11 @@ func (a *Artifact) Encode() []byte {
 	w.Uint64(uint64(len(a.Doubles)))
 	for _, n := range a.Doubles {
 		w.Int(n)
+	}
+	w.Uint64(uint64(len(a.Nights)))
+	for _, n := range a.Nights {
+		w.Int(n.Night)
+		w.Floats([]float64{n.Begin, n.End})
 	}
 	w.Uint64(uint64(len(a.Planets)))
 	for _, p := range a.Planets {
@@ -266,6 +274,19 @@ func Decode(b []byte) (*Artifact, error) {
 	}
 	for k := uint64(0); k < nd; k++ {
 		a.Doubles = append(a.Doubles, r.Int())
+	}
+	nn := r.Uint64()
+	if nn > maxTransits*maxPlanets {
+		return nil, fmt.Errorf("ephemeris artifact: %d nights seen", nn)
+	}
+	for k := uint64(0); k < nn; k++ {
+		n := NightSpan{Night: r.Int()}
+		v := r.Floats()
+		if len(v) != 2 {
+			return nil, errDamaged(r, "a night")
+		}
+		n.Begin, n.End = v[0], v[1]
+		a.Nights = append(a.Nights, n)
 	}
 	np := r.Uint64()
 	if np > maxPlanets {

@@ -20,6 +20,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"maps"
 	"math"
 	"regexp"
 	"slices"
@@ -45,7 +46,7 @@ var (
 )
 
 // version is bumped whenever the numbers or the encoding change.
-const version = 2
+const version = 3
 
 // Limits and rules, each with its reason.
 const (
@@ -386,15 +387,6 @@ func (a *Artifact) toUTC(cfg *Config) error {
 	return nil
 }
 
-// planetLetters returns the letters a fit with n planets names them by (b, c, d, …).
-func planetLetters(n int) []string {
-	out := make([]string, n)
-	for j := range out {
-		out[j] = string(rune('b' + j))
-	}
-	return out
-}
-
 // chosen returns the letters to predict, in the fit's order, refusing one the fit lacks.
 func chosen(cfg *Config, have []string) ([]string, error) {
 	if len(cfg.Planets) == 0 {
@@ -425,13 +417,14 @@ func fromFit(cfg *Config, fa *fit.Artifact) (*Artifact, error) {
 		return nil, steps.BadInputf("fit: its times are in %s; predictions are made in BJD_TDB, so the light curve must be in BJD_TDB", fa.Frame.TimeScale)
 	}
 	origin := float64(fa.Frame.RefInt) + fa.Frame.RefFrac
-	letters, err := chosen(cfg, planetLetters(fa.Planets()))
+	names := fa.PlanetNames()
+	letters, err := chosen(cfg, names)
 	if err != nil {
 		return nil, err
 	}
 	a := &Artifact{From: cfg.from, To: cfg.to, StaleFrom: math.NaN()}
 	for _, name := range letters {
-		j := int(name[0] - 'b')
+		j := slices.Index(names, name)
 		t0, p, t14 := fa.Column(name+".t0"), fa.Column(name+".period"), fa.Column(name+".t14")
 		if len(t0) == 0 || len(p) != len(t0) {
 			return nil, steps.BadInputf("fit: planet %s has no draws of its period and mid-time", name)
@@ -602,6 +595,29 @@ func (a *Artifact) windows(cfg *Config, env steps.Env) error {
 	slices.Sort(a.Doubles)
 	for _, n := range a.Doubles {
 		env.Note("%s", doubleNightLine(a, n))
+	}
+	return a.nightSpans(l)
+}
+
+// nightSpans finds, for every night with a transit seen, the part of it in which the site
+// sees the target.
+func (a *Artifact) nightSpans(l Lookout) error {
+	seen := map[int64]bool{}
+	for _, p := range a.Planets {
+		for _, w := range p.Windows {
+			if w.Seen != seenNone {
+				seen[w.Night] = true
+			}
+		}
+	}
+	nights := slices.Sorted(maps.Keys(seen))
+	a.Nights = make([]NightSpan, len(nights))
+	for i, n := range nights {
+		sp, err := l.Span(n)
+		if err != nil {
+			return steps.Attrf("site_latitude", "the night of Julian day %d cannot be judged from the site: %v", n, err)
+		}
+		a.Nights[i] = sp
 	}
 	return nil
 }

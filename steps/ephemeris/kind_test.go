@@ -289,12 +289,23 @@ func TestThePresentationHoldsATableAndTheData(t *testing.T) {
 	if !reflect.DeepEqual(names, want) {
 		t.Errorf("columns %v, want %v", names, want)
 	}
-	if len(pr.Panels) != 2 || pr.Panels[0].Title != "Nights at the site" || pr.Panels[1].Table == nil || len(pr.Panels[1].Table.Rows) != 4 {
+	if len(pr.Panels) != 3 || pr.Panels[0].Title != "Nights at the site" || len(pr.Panels[0].Plots) != 1 ||
+		pr.Panels[2].Table == nil || len(pr.Panels[2].Table.Rows) != 4 {
 		t.Fatalf("panels: %+v", pr.Panels)
 	}
-	row := pr.Panels[1].Table.Rows[0]
+	tab := pr.Panels[2].Table
+	row := tab.Rows[0]
 	if !strings.HasPrefix(row[3], "2024-05-") {
 		t.Errorf("UTC cell %q", row[3])
+	}
+	// The last column says what the site sees of each transit, as the data's "seen" does.
+	if last := tab.Header[len(tab.Header)-1]; last != "from the site" {
+		t.Errorf("last column %q", last)
+	}
+	for i, r := range tab.Rows {
+		if want := seenText(a.Planets[0].Windows[i]); r[len(r)-1] != want || want == "" {
+			t.Errorf("row %d says %q, want %q", i, r[len(r)-1], want)
+		}
 	}
 	if !bytes.Equal(steptest.PresentationBytes(t, pr), steptest.PresentationBytes(t, mustPresent(t, a))) {
 		t.Error("two presentations of one artifact differ")

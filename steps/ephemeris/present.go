@@ -14,8 +14,8 @@ import (
 )
 
 // Present shows first, when a site is given, a timeline of the nights with a transit seen
-// from there; then per planet a table of the predicted transits, written as data too
-// ("transits_b").
+// from there, drawn and as a table; then per planet a table of the predicted transits,
+// written as data too ("transits_b").
 func (Kind) Present(_ *Config, art steps.Artifact, _ steps.Inputs) (steps.Presentation, error) {
 	a, ok := art.(*Artifact)
 	if !ok {
@@ -26,8 +26,13 @@ func (Kind) Present(_ *Config, art steps.Artifact, _ steps.Inputs) (steps.Presen
 		pr.Panels = append(pr.Panels, steps.Panel{
 			Title:   "Nights at the site",
 			Caption: timelineCaption(a),
+			Plots:   []*steps.Plot{timelinePlot(a)},
+		}, steps.Panel{
+			Title:   "Nights at the site, transit by transit",
+			Caption: "The nights of the timeline above, each transit seen with its window and contacts in UTC.",
 			Table:   timeline(a),
 		})
+		pr.Data = append(pr.Data, nightsData(a))
 	}
 	for i := range a.Planets {
 		p := &a.Planets[i]
@@ -43,7 +48,10 @@ func (Kind) Present(_ *Config, art steps.Artifact, _ steps.Inputs) (steps.Presen
 
 // timelineCaption says what the timeline shows and by which rules.
 func timelineCaption(a *Artifact) string {
-	return fmt.Sprintf("Nights at latitude %.4f°, longitude %.4f° (east positive), %.0f m, with at least one transit seen: "+
+	return fmt.Sprintf("Each row is a night with a transit seen, dated by its evening (×2: two or more transits observable). "+
+		"The first bar is the time the site sees the target; over it each transit's window, from the baseline before to the baseline after, "+
+		"with a tick at mid-transit. Hours run from local mean midnight (UTC plus the longitude's hours). "+
+		"Nights at latitude %.4f°, longitude %.4f° (east positive), %.0f m: "+
 		"a transit is observable when its whole window — ingress less the baseline and one σ of the mid-time, to egress plus both — "+
 		"is dark (%s) with the target at least %.4g° high, tested every 5 minutes and at both ends; otherwise what is seen is named. "+
 		"A night runs from local mean noon to the next and is named by the date of its evening. "+
@@ -56,6 +64,104 @@ type event struct {
 	planet string
 	epoch  int64
 	w      Window
+}
+
+// maxDateTicks is the most nights a timeline labels with their dates; beyond it every k-th
+// night is labelled, so the labels do not run into one another.
+const maxDateTicks = 24
+
+// hoursFromMidnight returns a UTC Julian date as hours from the local mean midnight of a
+// night (see NightNumber) at east longitude lon.
+func hoursFromMidnight(utc float64, night int64, lon float64) float64 {
+	return 24 * (utc - (float64(night) + 0.5 - normLon(lon)/360))
+}
+
+// timelinePlot draws the nights with a transit seen: one row per night, the latest lowest,
+// labelled by its date ("×2" when it holds two or more observable transits), with the time
+// the site sees the target behind each transit's window, per planet and outcome, and a tick
+// at each mid-transit. Hours run from local mean midnight at the site.
+func timelinePlot(a *Artifact) *steps.Plot {
+	row := map[int64]int{}
+	up := steps.Layer{Label: "target seen (dark, above the altitude limit)", Style: steps.Spans}
+	pl := &steps.Plot{Title: "Transits seen from the site", XLabel: "hours from local mean midnight",
+		YLabel: "night of", Data: "nights"}
+	double := map[int64]bool{}
+	for _, n := range a.Doubles {
+		double[n] = true
+	}
+	every := (len(a.Nights) + maxDateTicks - 1) / maxDateTicks
+	for i, n := range a.Nights {
+		row[n.Night] = i
+		y := -float64(i)
+		up.X, up.Y = append(up.X, math.NaN()), append(up.Y, y)
+		up.XLo = append(up.XLo, hoursFromMidnight(n.Begin, n.Night, a.SiteLon))
+		up.XHi = append(up.XHi, hoursFromMidnight(n.End, n.Night, a.SiteLon))
+		if i%every == 0 || double[n.Night] {
+			yy, m, d := NightDate(n.Night)
+			label := fmt.Sprintf("%04d-%02d-%02d", yy, m, d)
+			if double[n.Night] {
+				label += " ×2"
+			}
+			pl.YTicks = append(pl.YTicks, steps.Mark{Value: y, Label: label})
+		}
+	}
+	pl.Layers = append(pl.Layers, up)
+	for i := range a.Planets {
+		p := &a.Planets[i]
+		for _, seen := range []Seen{seenObservable, seenPartly} {
+			l := windowLayer(a, p, seen, row)
+			if len(l.X) > 0 {
+				pl.Layers = append(pl.Layers, l)
+			}
+		}
+	}
+	return pl
+}
+
+// windowLayer draws the windows of one planet's transits with one outcome, each on its
+// night's row.
+func windowLayer(a *Artifact, p *Planet, seen Seen, row map[int64]int) steps.Layer {
+	what := "observable"
+	if seen == seenPartly {
+		what = "partly seen"
+	}
+	l := steps.Layer{Label: "planet " + p.Name + ", " + what, Style: steps.Spans}
+	for _, w := range p.Windows {
+		i, ok := row[w.Night]
+		if w.Seen != seen || !ok {
+			continue
+		}
+		l.X = append(l.X, hoursFromMidnight(w.Mid, w.Night, a.SiteLon))
+		l.Y = append(l.Y, -float64(i))
+		l.XLo = append(l.XLo, hoursFromMidnight(w.Start, w.Night, a.SiteLon))
+		l.XHi = append(l.XHi, hoursFromMidnight(w.End, w.Night, a.SiteLon))
+	}
+	return l
+}
+
+// nightsData writes the timeline's nights: the night's Julian day number (its evening's
+// date at local mean noon), when the site sees the target in UTC and in hours from local
+// mean midnight, and whether two or more transits are observable.
+func nightsData(a *Artifact) steps.Data {
+	n := len(a.Nights)
+	col := func(name string) steps.Series { return steps.Series{Name: name, Values: make([]float64, n)} }
+	cols := []steps.Series{col("night_jd"), col("seen_from_jd_utc"), col("seen_to_jd_utc"),
+		col("seen_from_h"), col("seen_to_h"), col("two_or_more_observable")}
+	double := map[int64]bool{}
+	for _, d := range a.Doubles {
+		double[d] = true
+	}
+	for i, s := range a.Nights {
+		two := 0.0
+		if double[s.Night] {
+			two = 1
+		}
+		for k, v := range []float64{float64(s.Night), s.Begin, s.End,
+			hoursFromMidnight(s.Begin, s.Night, a.SiteLon), hoursFromMidnight(s.End, s.Night, a.SiteLon), two} {
+			cols[k].Values[i] = v
+		}
+	}
+	return steps.Data{Name: "nights", Series: cols}
 }
 
 // timeline lists one row per night with a transit observable or partly seen: the night's
@@ -106,12 +212,8 @@ func timeline(a *Artifact) *steps.Table {
 // eventText writes one transit of a night: planet and transit number, whether it is
 // observable or what is seen, the window and contacts in UTC, and the Moon.
 func eventText(e event) string {
-	what := "observable"
-	if e.w.Seen == seenPartly {
-		what = "partly seen: " + Described(e.w)
-	}
 	return fmt.Sprintf("planet %s, transit %d, %s — window %s to %s, ingress %s, mid-transit %s, egress %s; Moon %.0f° away, %.0f %% lit",
-		e.planet, e.epoch, what, clock(e.w.Start), clock(e.w.End), clock(e.w.Ingress), clock(e.w.Mid), clock(e.w.Egress),
+		e.planet, e.epoch, seenText(e.w), clock(e.w.Start), clock(e.w.End), clock(e.w.Ingress), clock(e.w.Mid), clock(e.w.Egress),
 		e.w.MoonSep, 100*e.w.MoonLit)
 }
 
@@ -140,19 +242,26 @@ func caption(a *Artifact, p *Planet) string {
 // table lists n, mid-time ± σ, σ in minutes, UTC (when known), ingress and egress.
 func table(a *Artifact, p *Planet) *steps.Table {
 	t := &steps.Table{Header: []string{"transit", "mid-time (BJD_TDB)", "σ (min)", "mid-time (UTC)", "ingress (BJD_TDB)", "egress (BJD_TDB)"}}
+	if a.Site {
+		t.Header = append(t.Header, "from the site")
+	}
 	for i, tr := range p.Transits {
 		utc := isoUTC(tr.UTC)
 		if utc == "" {
 			utc = "—"
 		}
-		t.Rows = append(t.Rows, []string{
+		r := []string{
 			strconv.FormatInt(tr.Epoch, 10),
 			paper.Symmetric(tr.Mid, p.Sigma(i)).Text(),
 			strconv.FormatFloat(p.Sigma(i)*minutesPerDay, 'f', 1, 64),
 			utc,
 			timeText(tr.Ingress, tr.SigmaIngress, p.Scatter),
 			timeText(tr.Egress, tr.SigmaEgress, p.Scatter),
-		})
+		}
+		if a.Site && i < len(p.Windows) {
+			r = append(r, seenText(p.Windows[i]))
+		}
+		t.Rows = append(t.Rows, r)
 	}
 	if p.Draws > 0 {
 		t.Notes = append(t.Notes, "σ from the draws' percentiles; the analytic propagation σ² = σ²_T0 + n²σ²_P + 2n cov(T0, P) is in the data file beside it.")
@@ -166,6 +275,17 @@ func table(a *Artifact, p *Planet) *steps.Table {
 		t.Notes = append(t.Notes, "Ingress and egress need the transit's duration.")
 	}
 	return t
+}
+
+// seenText says how much of a transit the site sees.
+func seenText(w Window) string {
+	switch w.Seen {
+	case seenObservable:
+		return "observable"
+	case seenPartly:
+		return "partly seen: " + Described(w)
+	}
+	return "not seen"
 }
 
 // timeText writes an ingress or egress time with its error, or a dash when unknown.

@@ -140,12 +140,79 @@ func (l Lookout) Judge(w *Window) error {
 	return nil
 }
 
+// NightSpan is the part of one night in which a site sees the target — dark, with the
+// target above the limit — from Begin to End in UTC Julian dates, both NaN when it is never
+// seen that night.
+type NightSpan struct {
+	Night      int64
+	Begin, End float64
+}
+
+// edgeTolerance is the width in days to which a span's ends are bisected: 30 s, finer than
+// a timeline shows.
+const edgeTolerance = 30.0 / 86400
+
+// Span finds the part of a night (see NightNumber) in which the target is seen: sampled
+// every sampleStep from the night's local mean noon to the next, from the first seen instant
+// to the last, each end bisected to edgeTolerance. Where the target sets and rises again
+// within one dark night (only near a pole) the span runs over the gap.
+func (l Lookout) Span(night int64) (NightSpan, error) {
+	sp := NightSpan{Night: night, Begin: math.NaN(), End: math.NaN()}
+	noon := float64(night) - normLon(l.Site.Lon)/360
+	n := int(math.Ceil(1 / sampleStep))
+	at := func(i int) float64 { return noon + float64(i)/float64(n) }
+	first, last := -1, -1
+	for i := 0; i <= n; i++ {
+		ok, err := l.seenAt(at(i))
+		if err != nil {
+			return sp, err
+		}
+		if ok {
+			if first < 0 {
+				first = i
+			}
+			last = i
+		}
+	}
+	if first < 0 {
+		return sp, nil
+	}
+	var err error
+	if sp.Begin, err = l.edge(at(max(first-1, 0)), at(first)); err != nil {
+		return sp, err
+	}
+	sp.End, err = l.edge(at(min(last+1, n)), at(last))
+	return sp, err
+}
+
+// edge bisects between an instant out and an instant in (seen) to the edge of what is
+// seen, returning the seen side; it returns in when the two are the same instant.
+func (l Lookout) edge(out, in float64) (float64, error) {
+	for math.Abs(in-out) > edgeTolerance {
+		mid := (in + out) / 2
+		ok, err := l.seenAt(mid)
+		if err != nil {
+			return 0, err
+		}
+		if ok {
+			in = mid
+		} else {
+			out = mid
+		}
+	}
+	return in, nil
+}
+
+// normLon returns a longitude in degrees in [−180°, 180°).
+func normLon(lon float64) float64 {
+	return math.Mod(math.Mod(lon+180, 360)+360, 360) - 180
+}
+
 // NightNumber returns the night a UTC instant falls in at east longitude lon (degrees): the
 // nights run from one local mean noon to the next, as sky.NightOf's do, and are numbered by
 // floor(UTC + lon/360°), the Julian day number of the night's evening.
 func NightNumber(utc, lon float64) int64 {
-	lon = math.Mod(math.Mod(lon+180, 360)+360, 360) - 180
-	return int64(math.Floor(utc + lon/360))
+	return int64(math.Floor(utc + normLon(lon)/360))
 }
 
 // NightDate returns the civil date (year, month, day) of the evening a night begins, the

@@ -157,9 +157,10 @@ func TestTwoTransitsInOneDarkNightMakeADoubleNight(t *testing.T) {
 		t.Fatal(err)
 	}
 	steptest.CheckPresentation(t, pr)
-	tl := pr.Panels[0].Table
-	if pr.Panels[0].Title != "Nights at the site" || tl == nil {
-		t.Fatalf("the first panel is %q", pr.Panels[0].Title)
+	checkTimelinePlot(t, a, pr, wb.Night)
+	tl := pr.Panels[1].Table
+	if tl == nil {
+		t.Fatalf("the second panel is %q, without a table", pr.Panels[1].Title)
 	}
 	var row []string
 	for _, r := range tl.Rows {
@@ -242,7 +243,15 @@ func TestAPartlySeenTransitNamesTheContactsSeen(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if tl := pr.Panels[0].Table; len(tl.Rows) != 1 || !strings.Contains(tl.Rows[0][1], "partly seen: ingress and mid-transit seen") || tl.Rows[0][2] != "" {
+	// Drawn, the window runs past the end of the time the target is seen (dawn).
+	pl := pr.Panels[0].Plots[0]
+	if len(pl.Layers) != 2 || pl.Layers[1].Label != "planet b, partly seen" || len(pl.Layers[1].X) != 1 {
+		t.Fatalf("timeline layers %+v", pl.Layers)
+	}
+	if up, win := pl.Layers[0], pl.Layers[1]; !(win.XHi[0] > up.XHi[0] && win.XLo[0] >= up.XLo[0]) {
+		t.Errorf("the window %.2f to %.2f h against the target's time %.2f to %.2f h", win.XLo[0], win.XHi[0], up.XLo[0], up.XHi[0])
+	}
+	if tl := pr.Panels[1].Table; len(tl.Rows) != 1 || !strings.Contains(tl.Rows[0][1], "partly seen: ingress and mid-transit seen") || tl.Rows[0][2] != "" {
 		t.Errorf("timeline %q", tl.Rows)
 	}
 }
@@ -286,3 +295,94 @@ func TestSiteMistakesPointAtTheAttribute(t *testing.T) {
 }
 
 func strconvF(x float64) string { return strconv.FormatFloat(x, 'f', -1, 64) }
+
+// checkTimelinePlot holds the drawn timeline to the artifact: the double night is labelled
+// ×2, and on its row both observable windows lie within the time the site sees the target
+// (found by Span, apart from the windows' own judgement), each with its mid-transit on it.
+func checkTimelinePlot(t *testing.T, a *Artifact, pr steps.Presentation, night int64) {
+	t.Helper()
+	if pr.Panels[0].Title != "Nights at the site" || len(pr.Panels[0].Plots) != 1 {
+		t.Fatalf("the first panel is %q with %d plots", pr.Panels[0].Title, len(pr.Panels[0].Plots))
+	}
+	pl := pr.Panels[0].Plots[0]
+	y, found := 0.0, false
+	for _, m := range pl.YTicks {
+		if m.Label == "2027-01-15 ×2" {
+			y, found = m.Value, true
+		}
+	}
+	if !found {
+		t.Fatalf("no row labelled 2027-01-15 ×2 among %+v", pl.YTicks)
+	}
+	var upLo, upHi float64
+	windows := 0
+	for k, l := range pl.Layers {
+		for j := range l.Y {
+			if l.Y[j] != y {
+				continue
+			}
+			if k == 0 {
+				upLo, upHi = l.XLo[j], l.XHi[j]
+				continue
+			}
+			windows++
+			if !strings.HasSuffix(l.Label, "observable") || !(l.XLo[j] < l.X[j] && l.X[j] < l.XHi[j]) {
+				t.Errorf("layer %q on the double night: window %.2f to %.2f h, mid %.2f h", l.Label, l.XLo[j], l.XHi[j], l.X[j])
+			}
+			if l.XLo[j] < upLo || l.XHi[j] > upHi {
+				t.Errorf("layer %q: the window %.2f to %.2f h is not within the target's time %.2f to %.2f h", l.Label, l.XLo[j], l.XHi[j], upLo, upHi)
+			}
+		}
+	}
+	if windows != 2 {
+		t.Errorf("%d windows drawn on the double night, want 2", windows)
+	}
+}
+
+// TestTheTargetsTimeInANightFollowsTheSkyAndTheSun checks Span three ways. A target near
+// the pole, always higher than the limit at this site, is seen for the whole dark night, so
+// its span matches sky.NightOf's nautical night (itself checked against ERFA) to within the
+// bisection's 30 s. A target that rises during the night is first seen when its altitude
+// crosses the limit, found here by a separate scan of sky.AltAz. A target that never rises
+// is not seen at all.
+func TestTheTargetsTimeInANightFollowsTheSkyAndTheSun(t *testing.T) {
+	n, err := sky.NightOf(testSite, 2027, 1, 15, sky.Nautical)
+	if err != nil {
+		t.Fatal(err)
+	}
+	night := NightNumber(n.Begin.Float(), testSite.Lon)
+	look := func(ra, dec float64) NightSpan {
+		l := Lookout{Site: testSite, RA: ra, Dec: dec, MinAlt: 30, Darkness: sky.Nautical}
+		sp, err := l.Span(night)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return sp
+	}
+	const tol = 31.0 / 86400
+	polar := look(10, 89.5)
+	if math.Abs(polar.Begin-n.Begin.Float()) > tol || math.Abs(polar.End-n.End.Float()) > tol {
+		t.Errorf("a polar target is seen %s to %s, the night is dark %s to %s",
+			isoUTC(polar.Begin), isoUTC(polar.End), isoUTC(n.Begin.Float()), isoUTC(n.End.Float()))
+	}
+	// A target at RA 200° is low at dusk in January and crosses 30° during the night.
+	const ra = 200.0
+	rise := math.NaN()
+	for x := n.Begin.Float(); x < n.End.Float(); x += 1.0 / 86400 * 10 {
+		if altitudeAt(t, x, ra, highDec) >= 30 {
+			rise = x
+			break
+		}
+	}
+	if math.IsNaN(rise) || rise-n.Begin.Float() < 1.0/24 {
+		t.Fatalf("the test's target is not rising during the night (reaches 30° at %s)", isoUTC(rise))
+	}
+	sp := look(ra, highDec)
+	if math.Abs(sp.Begin-rise) > tol || math.Abs(sp.End-n.End.Float()) > tol {
+		t.Errorf("a rising target is seen %s to %s; it reaches 30° at %s and dawn is at %s",
+			isoUTC(sp.Begin), isoUTC(sp.End), isoUTC(rise), isoUTC(n.End.Float()))
+	}
+	if never := look(10, -80); !math.IsNaN(never.Begin) || !math.IsNaN(never.End) {
+		t.Errorf("a target that never rises is seen %v to %v", never.Begin, never.End)
+	}
+}

@@ -75,6 +75,16 @@ type Artifact struct {
 // Planets is the number of planets fitted.
 func (a *Artifact) Planets() int { return len(a.Reference) }
 
+// PlanetNames returns the letters the fit names its planets by, in signal order ("b", "c",
+// …): the prefixes of their columns ("b.period") and of their figures.
+func (a *Artifact) PlanetNames() []string {
+	out := make([]string, a.Planets())
+	for j := range out {
+		out[j] = planetNames[j]
+	}
+	return out
+}
+
 // Column returns the draws of the named column, or nil.
 func (a *Artifact) Column(name string) []float64 {
 	j := a.column(name)
