@@ -16,10 +16,11 @@ type TimingTest int64
 
 // The outcomes of the timing test.
 const (
-	timingUntested TimingTest = iota // too few timed transits (or none measured)
-	timingPasses                     // χ² consistent with a strict period
-	timingScatters                   // p < timingCautionP: σ widened by the O−C scatter
-	timingWritten                    // a written ephemeris: nothing to test
+	timingUntested     TimingTest = iota // too few timed transits (or none measured)
+	timingPasses                         // χ² consistent with a strict period
+	timingScatters                       // p < timingCautionP: σ widened by the O−C scatter
+	timingScattersKept                   // p < timingCautionP, but timing_scatter = "never": σ left as the draws give it
+	timingWritten                        // a written ephemeris: nothing to test
 )
 
 // Planet holds one planet's ephemeris and its predicted transits. Times are full BJD_TDB in
@@ -156,10 +157,15 @@ func (a *Artifact) Cautions() []string {
 	c := []string{"These transit times follow a linear ephemeris, which ignores transit-timing variations; " +
 		"they are a guide for planning, and the observatory's rules and the observer's judgement come first."}
 	for _, p := range a.Planets {
-		if p.Timing == timingScatters {
-			c = append(c, fmt.Sprintf("Planet %s: the fit's transit times scatter about a linear ephemeris more than their errors allow "+
-				"(χ² = %.4g for %d degrees of freedom, p = %.2g); every predicted σ has their O−C scatter (%.3g min RMS) added in quadrature, "+
-				"but timing variations may move future transits further.", p.Name, p.TimingChi2, p.TimingDof, p.TimingP, p.Scatter*minutesPerDay))
+		scatter := fmt.Sprintf("Planet %s: the fit's transit times scatter about a linear ephemeris more than their errors allow "+
+			"(χ² = %.4g for %d degrees of freedom, p = %.2g); ", p.Name, p.TimingChi2, p.TimingDof, p.TimingP)
+		switch p.Timing {
+		case timingScatters:
+			c = append(c, scatter+fmt.Sprintf("every predicted σ has their O−C scatter (%.3g min RMS) added in quadrature, "+
+				"but timing variations may move future transits further.", p.Scatter*minutesPerDay))
+		case timingScattersKept:
+			c = append(c, scatter+"timing_scatter = \"never\" leaves every predicted σ as the posterior draws give it, "+
+				"which understates the error if the variations go on.")
 		}
 	}
 	if a.Site {

@@ -94,6 +94,8 @@ type Config struct {
 	AltitudeLimit float64  `step:"altitude_limit" dim:"angle" default:"30 deg" doc:"lowest altitude of the target at which it counts as seen"`
 	Darkness      string   `step:"darkness" choices:"civil|nautical|astronomical" default:"nautical" doc:"how dark the sky must be: the end of civil (Sun 6° down), nautical (12°) or astronomical (18°) twilight"`
 	Baseline      *float64 `step:"baseline" dim:"time" doc:"out-of-transit time wanted before the ingress and after the egress (\"1.5 h\"); the larger of 1 h and half the duration when left out"`
+	// TimingScatter says when the fit's O−C scatter widens the predicted errors.
+	TimingScatter string `step:"timing_scatter" choices:"if_significant|always|never" default:"if_significant" doc:"when to add the RMS of the fit's O−C (its transit times less the linear ephemeris) in quadrature to every predicted σ: if_significant, when the times scatter more than their errors allow (p < 1 %); always; or never (the caution stays)"`
 
 	from, to float64 // the range in BJD_TDB, set by Check
 	utcFrom  bool    // from and to as written are UTC dates converted without the target's direction
@@ -453,7 +455,7 @@ func fromFit(cfg *Config, fa *fit.Artifact) (*Artifact, error) {
 			shift(&pl.Transits[k], origin)
 		}
 		if j < len(fa.Times) {
-			timingOf(&pl, fa.Times[j])
+			timingOf(&pl, fa.Times[j], cfg.TimingScatter)
 		}
 		a.Planets = append(a.Planets, pl)
 	}
@@ -483,21 +485,29 @@ func essOf(fa *fit.Artifact, name string) float64 {
 }
 
 // timingOf reads the fit's test of the planet's transit times against a linear ephemeris.
-// The rule: when p < timingCautionP, every predicted σ is widened by the RMS of the O−C
-// residuals in quadrature, σ² → σ² + rms(O−C)², since a future transit may be off the line
-// by as much as past ones were.
-func timingOf(pl *Planet, pt fit.PlanetTimes) {
+// The rule (mode "if_significant"): when p < timingCautionP, every predicted σ is widened by
+// the RMS of the O−C residuals in quadrature, σ² → σ² + rms(O−C)², since a future transit
+// may be off the line by as much as past ones were. Mode "always" widens whatever p is;
+// "never" widens nothing, and a significant scatter is still cautioned.
+func timingOf(pl *Planet, pt fit.PlanetTimes, mode string) {
 	e := pt.Ephemeris
 	if pt.Err != "" || e.Dof <= 0 || math.IsNaN(e.PValue) {
 		return
 	}
 	pl.Timing, pl.TimingChi2, pl.TimingDof, pl.TimingP = timingPasses, e.Chi2, int64(e.Dof), e.PValue
-	if e.PValue < timingCautionP {
+	significant := e.PValue < timingCautionP
+	if significant {
+		pl.Timing = timingScatters
+		if mode == "never" {
+			pl.Timing = timingScattersKept
+		}
+	}
+	if mode == "always" || (significant && mode != "never") {
 		oc := make([]float64, len(e.Rows))
 		for i, r := range e.Rows {
 			oc[i] = r.OC / minutesPerDay
 		}
-		pl.Timing, pl.Scatter = timingScatters, Scatter(oc)
+		pl.Scatter = Scatter(oc)
 	}
 }
 

@@ -182,6 +182,41 @@ func TestScatteredTransitTimesWidenSigmaAndCaution(t *testing.T) {
 	}
 }
 
+// TestTimingScatterSaysWhenTheOCWidensSigma runs the three modes on transit times that
+// pass the timing test (p = 0.56) and on ones that fail it (p = 1.5e-7): "always" widens
+// both by the O−C RMS, "never" widens neither but keeps the caution of the failing ones,
+// and the default widens only the failing ones.
+func TestTimingScatterSaysWhenTheOCWidensSigma(t *testing.T) {
+	rms := math.Sqrt(50.0/6) / 1440
+	for _, c := range []struct {
+		mode         string
+		scattered    bool
+		widen        bool
+		cautionNever bool
+	}{
+		{"if_significant", false, false, false}, {"if_significant", true, true, false},
+		{"always", false, true, false}, {"always", true, true, false},
+		{"never", false, false, false}, {"never", true, false, true},
+	} {
+		a, _ := runFit(t, fakeFit(c.scattered), map[string]any{"timing_scatter": c.mode})
+		p := a.Planets[0]
+		want := 0.0
+		if c.widen {
+			want = rms
+		}
+		if math.Abs(p.Scatter-want) > 1e-15 || math.Abs(p.Sigma(0)-math.Hypot(p.Transits[0].Sigma, want)) > 1e-15 {
+			t.Errorf("%s, scattered %v: σ widened by %v, want %v", c.mode, c.scattered, p.Scatter, want)
+		}
+		cautions := strings.Join(a.Cautions(), "\n")
+		if got := strings.Contains(cautions, "leaves every predicted σ as the posterior draws give it"); got != c.cautionNever {
+			t.Errorf("%s, scattered %v: the caution of unwidened scatter is there: %v", c.mode, c.scattered, got)
+		}
+		if got := strings.Contains(cautions, "scatter about a linear ephemeris"); got != c.scattered {
+			t.Errorf("%s, scattered %v: the timing caution is there: %v", c.mode, c.scattered, got)
+		}
+	}
+}
+
 func TestUTCPastTheLeapSecondTableIsCautioned(t *testing.T) {
 	set := map[string]any{"period": "3.7185 ± 0.0004 d", "epoch": "2460450.9146 ± 0.0005 d",
 		"from": "2026-06-20", "to": "2026-07-10", "ra": "285.1234 deg", "dec": "-12.5 deg"}

@@ -179,6 +179,7 @@ ephemeris "full" {
   altitude_limit = "35 deg"
   darkness       = "astronomical"
   baseline       = "1.5 h"
+  timing_scatter = "always"
 }
 
 ephemeris "written" {
