@@ -80,6 +80,9 @@ type Artifact struct {
 	// Prediction has its UTC.
 	Direction bool
 	RA, Dec   float64
+	// PMRA and PMDec are the proper motion (mas/yr, μ_α cos δ and μ_δ) and PositionEpoch
+	// the Julian year of RA and Dec; 0, 0 and 2000 for a fixed direction.
+	PMRA, PMDec, PositionEpoch float64
 	// StaleFrom is the earliest predicted UTC (JD) past the leap-second table's end, NaN
 	// when none is.
 	StaleFrom float64
@@ -186,6 +189,11 @@ func (a *Artifact) Cautions() []string {
 	return c
 }
 
+// target is the artifact's target with its proper motion.
+func (a *Artifact) target() timescale.Target {
+	return timescale.Target{RA: a.RA, Dec: a.Dec, PMRA: a.PMRA, PMDec: a.PMDec, Epoch: a.PositionEpoch}
+}
+
 // isoUTC writes a UTC Julian date as an ISO 8601 date and time to the minute,
 // "2027-03-04T05:06Z"; "" for NaN.
 func isoUTC(jd float64) string {
@@ -205,13 +213,13 @@ func isoUTC(jd float64) string {
 
 const (
 	tag    = "ephemeris"
-	format = 3
+	format = 4
 )
 
 // Encode returns the canonical encoding.
 func (a *Artifact) Encode() []byte {
 	w := codec.NewWriter(tag, format)
-	w.Floats([]float64{a.From, a.To, a.RA, a.Dec, a.StaleFrom})
+	w.Floats([]float64{a.From, a.To, a.RA, a.Dec, a.StaleFrom, a.PMRA, a.PMDec, a.PositionEpoch})
 	w.Bool(a.Direction)
 	w.Bool(a.Site)
 	w.Floats([]float64{a.SiteLat, a.SiteLon, a.SiteHeight, a.AltitudeLimit})
@@ -263,10 +271,10 @@ func Decode(b []byte) (*Artifact, error) {
 	a := &Artifact{}
 	v := r.Floats()
 	a.Direction = r.Bool()
-	if len(v) != 5 {
+	if len(v) != 8 {
 		return nil, errDamaged(r, "its range")
 	}
-	a.From, a.To, a.RA, a.Dec, a.StaleFrom = v[0], v[1], v[2], v[3], v[4]
+	a.From, a.To, a.RA, a.Dec, a.StaleFrom, a.PMRA, a.PMDec, a.PositionEpoch = v[0], v[1], v[2], v[3], v[4], v[5], v[6], v[7]
 	a.Site = r.Bool()
 	if v := r.Floats(); len(v) == 4 {
 		a.SiteLat, a.SiteLon, a.SiteHeight, a.AltitudeLimit = v[0], v[1], v[2], v[3]

@@ -46,7 +46,7 @@ var (
 )
 
 // version is bumped whenever the numbers or the encoding change.
-const version = 3
+const version = 4
 
 // Limits and rules, each with its reason.
 const (
@@ -86,6 +86,10 @@ type Config struct {
 	// RA and Dec are in arcseconds (the angle dimension's base unit).
 	RA  *float64 `step:"ra" dim:"angle" doc:"right ascension of the target (ICRS, e.g. \"285.1234 deg\"); with dec, the predicted times are also given in UTC"`
 	Dec *float64 `step:"dec" dim:"angle" doc:"declination of the target (ICRS, e.g. \"-12.5 deg\")"`
+	// The target's proper motion (mas/yr) and the Julian year of ra and dec.
+	PMRA          *float64 `step:"pm_ra" dim:"proper_motion" doc:"the target's proper motion in right ascension as catalogues give it, μ_α cos δ (\"-798.6 mas/yr\"); with pm_dec and position_epoch, the direction moves with it (a nearby fast star's barycentric correction shifts by up to half a second a decade)"`
+	PMDec         *float64 `step:"pm_dec" dim:"proper_motion" doc:"the target's proper motion in declination (\"10328 mas/yr\")"`
+	PositionEpoch *float64 `step:"position_epoch" doc:"the Julian year at which ra and dec hold, e.g. 2016.0 for a catalogue of that epoch; needed with a proper motion"`
 	// The observing site and what counts as seen from it (angles in arcseconds, the
 	// elevation in metres, the baseline in days).
 	SiteLatitude  *float64 `step:"site_latitude" dim:"angle" doc:"geodetic latitude of an observing site (\"-30.2 deg\"); with site_longitude, ra and dec, each transit is judged observable, partly seen or not from there"`
@@ -190,6 +194,50 @@ func (c *Config) direction() (ra, dec float64, ok bool) {
 	return *c.RA / arcsecPerDeg, *c.Dec / arcsecPerDeg, true
 }
 
+// target returns the target's direction with its proper motion, when given.
+func (c *Config) target() (timescale.Target, bool) {
+	ra, dec, ok := c.direction()
+	t := timescale.Fixed(ra, dec)
+	if c.PMRA != nil && c.PMDec != nil && c.PositionEpoch != nil {
+		t.PMRA, t.PMDec, t.Epoch = *c.PMRA, *c.PMDec, *c.PositionEpoch
+	}
+	return t, ok
+}
+
+// checkMotion holds the proper motion's attributes together and to a direction.
+func checkMotion(c *Config) error {
+	set := []struct {
+		name string
+		ok   bool
+	}{{"pm_ra", c.PMRA != nil}, {"pm_dec", c.PMDec != nil}, {"position_epoch", c.PositionEpoch != nil}}
+	n := 0
+	for _, a := range set {
+		if a.ok {
+			n++
+		}
+	}
+	if n == 0 {
+		return nil
+	}
+	for _, a := range set {
+		if !a.ok {
+			return steps.Attrf(a.name, "is missing: a proper motion needs pm_ra, pm_dec and position_epoch together")
+		}
+	}
+	if c.RA == nil {
+		return steps.Attrf("pm_ra", "is written without ra and dec; a proper motion moves a written direction")
+	}
+	t, _ := c.target()
+	if err := t.Check(); err != nil {
+		attr := "pm_ra"
+		if math.Abs(t.Epoch-2000) > 1000 || math.IsNaN(t.Epoch) {
+			attr = "position_epoch"
+		}
+		return steps.Attrf(attr, "%v", err)
+	}
+	return nil
+}
+
 // Check holds the block to one source of ephemeris, reads the range and the direction.
 func (Kind) Check(c *Config) error {
 	written := c.Period != nil || c.Epoch != nil
@@ -228,6 +276,9 @@ func (Kind) Check(c *Config) error {
 		return steps.Attrf("ra", "is written without dec; the direction needs both")
 	}
 	ra, dec, dir := c.direction()
+	if err := checkMotion(c); err != nil {
+		return err
+	}
 	if dir {
 		if !(ra >= 0 && ra < 360) {
 			return steps.Attrf("ra", "must lie in 0–360 deg, not %v deg", ra)
@@ -241,10 +292,11 @@ func (Kind) Check(c *Config) error {
 	}
 	var err error
 	var utcA, utcB bool
-	if c.from, utcA, err = readBound("from", c.From, false, ra, dec, dir); err != nil {
+	tg, _ := c.target()
+	if c.from, utcA, err = readBound("from", c.From, false, tg, dir); err != nil {
 		return err
 	}
-	if c.to, utcB, err = readBound("to", c.To, true, ra, dec, dir); err != nil {
+	if c.to, utcB, err = readBound("to", c.To, true, tg, dir); err != nil {
 		return err
 	}
 	c.utcFrom = (utcA || utcB) && !dir
@@ -280,7 +332,7 @@ var calendarDate = regexp.MustCompile(`^(\d{4})-(\d{2})-(\d{2})$`)
 // a full BJD_TDB written as a number. Without the target's direction a date is converted to
 // TDB at the geocentre (the Rømer delay left out, at most 8.3 min, which moves only a
 // transit within minutes of the range's edge); utc says a date was read.
-func readBound(attr, s string, end bool, ra, dec float64, dir bool) (bjd float64, utc bool, err error) {
+func readBound(attr, s string, end bool, tg timescale.Target, dir bool) (bjd float64, utc bool, err error) {
 	s = strings.TrimSpace(s)
 	if m := calendarDate.FindStringSubmatch(s); m != nil {
 		y, _ := strconv.Atoi(m[1])
@@ -296,7 +348,7 @@ func readBound(attr, s string, end bool, ra, dec float64, dir bool) (bjd float64
 		at := timescale.FromJD(jd)
 		var out timescale.JD
 		if dir {
-			out, err = timescale.BJDTDB(at, ra, dec)
+			out, err = timescale.BJDTDB(at, tg)
 		} else {
 			var tt timescale.JD
 			tt, err = timescale.UTCToTT(at)
@@ -367,8 +419,9 @@ func (Kind) Run(ctx context.Context, cfg *Config, in steps.Inputs, env steps.Env
 // toUTC gives each mid-time its UTC when the direction is known and marks the first one
 // past the leap-second table's end.
 func (a *Artifact) toUTC(cfg *Config) error {
-	ra, dec, ok := cfg.direction()
-	a.Direction, a.RA, a.Dec = ok, ra, dec
+	tg, ok := cfg.target()
+	a.Direction, a.RA, a.Dec = ok, tg.RA, tg.Dec
+	a.PMRA, a.PMDec, a.PositionEpoch = tg.PMRA, tg.PMDec, tg.Epoch
 	for i := range a.Planets {
 		for j := range a.Planets[i].Transits {
 			t := &a.Planets[i].Transits[j]
@@ -376,7 +429,7 @@ func (a *Artifact) toUTC(cfg *Config) error {
 			if !ok {
 				continue
 			}
-			u, err := timescale.UTCFromBJDTDB(timescale.FromJD(t.Mid), ra, dec)
+			u, err := timescale.UTCFromBJDTDB(timescale.FromJD(t.Mid), tg)
 			if err != nil {
 				return steps.Attrf("from", "transit %d of planet %s cannot be given in UTC: %v", t.Epoch, a.Planets[i].Name, err)
 			}
@@ -581,7 +634,7 @@ func (a *Artifact) windows(cfg *Config, env steps.Env) error {
 			bjd := []float64{in - p.Baseline - s, in, t.Mid, eg, eg + p.Baseline + s}
 			utc := make([]float64, len(bjd))
 			for k, b := range bjd {
-				u, err := timescale.UTCFromBJDTDB(timescale.FromJD(b), a.RA, a.Dec)
+				u, err := timescale.UTCFromBJDTDB(timescale.FromJD(b), a.target())
 				if err != nil {
 					return steps.Attrf("from", "transit %d of planet %s cannot be given in UTC: %v", t.Epoch, p.Name, err)
 				}

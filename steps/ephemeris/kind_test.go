@@ -249,7 +249,7 @@ func TestUTCPastTheLeapSecondTableIsCautioned(t *testing.T) {
 func TestUTCTimesReadBackToTheMidTimes(t *testing.T) {
 	a := fixture(t)
 	for _, tr := range a.Planets[0].Transits {
-		back, err := timescale.BJDTDB(timescale.FromJD(tr.UTC), 285.1234, -12.5)
+		back, err := timescale.BJDTDB(timescale.FromJD(tr.UTC), timescale.Fixed(285.1234, -12.5))
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -260,6 +260,40 @@ func TestUTCTimesReadBackToTheMidTimes(t *testing.T) {
 		// Rømer delay (≤ 499 s for 1 au, more by the Earth's eccentricity: ≤ 508 s).
 		if d := (tr.Mid-tr.UTC)*86400 - 69.184; math.Abs(d) > 508 {
 			t.Errorf("transit %d: BJD_TDB − UTC − 69.184 s = %.1f s", tr.Epoch, d)
+		}
+	}
+}
+
+// TestAProperMotionMovesTheUTCTimes runs one written ephemeris of a star moving 10″/yr in
+// declination, with and without its motion: each transit's UTC moves by the change of the
+// Rømer delay, (r_earth · Δn̂)/c, computed here from the time-scale package's parts.
+func TestAProperMotionMovesTheUTCTimes(t *testing.T) {
+	base := map[string]any{"period": "3.7185 ± 0.0004 d", "epoch": "2460450.9146 ± 0.0005 d",
+		"from": "2035-01-01", "to": "2035-01-20", "ra": "269.45 deg", "dec": "4.69 deg"}
+	moving := edited(base, map[string]any{"pm_ra": "-800 mas/yr", "pm_dec": "10300 mas/yr", "position_epoch": 2016.0})
+	run := func(set map[string]any) *Artifact {
+		art, _, err := steptest.Run(New(), set, steps.Inputs{}, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return art.(*Artifact)
+	}
+	still, moved := run(base), run(moving)
+	if moved.PMDec != 10300 || moved.PositionEpoch != 2016 {
+		t.Fatalf("the artifact keeps the motion as %v, %v", moved.PMDec, moved.PositionEpoch)
+	}
+	tg := timescale.Target{RA: 269.45, Dec: 4.69, PMRA: -800, PMDec: 10300, Epoch: 2016}
+	for i, tr := range moved.Planets[0].Transits {
+		mid := timescale.FromJD(tr.Mid)
+		dn := tg.DirectionAt(mid)
+		n0 := timescale.Direction(269.45, 4.69)
+		for k := range dn {
+			dn[k] -= n0[k]
+		}
+		want := timescale.RomerDelay(mid, dn) // light from the moved direction arrives this much earlier
+		got := (still.Planets[0].Transits[i].UTC - tr.UTC) * 86400
+		if math.Abs(got-want) > 1e-3 || math.Abs(want) < 0.05 {
+			t.Errorf("transit %d: UTC moved by %.4f s, the Rømer delay by %.4f s", tr.Epoch, got, want)
 		}
 	}
 }
@@ -375,6 +409,11 @@ func TestMistakesPointAtTheAttribute(t *testing.T) {
 		{"a date before 1972", with(map[string]any{"from": "1960-01-01"}), "from"},
 		{"ra without dec", with(map[string]any{"ra": "10 deg"}), "ra"},
 		{"a declination beyond the pole", with(map[string]any{"ra": "10 deg", "dec": "95 deg"}), "dec"},
+		{"a proper motion without its epoch", with(map[string]any{"ra": "10 deg", "dec": "5 deg", "pm_ra": "100 mas/yr", "pm_dec": "5 mas/yr"}), "position_epoch"},
+		{"half a proper motion", with(map[string]any{"ra": "10 deg", "dec": "5 deg", "pm_ra": "100 mas/yr", "position_epoch": 2016.0}), "pm_dec"},
+		{"a proper motion without a direction", with(map[string]any{"pm_ra": "100 mas/yr", "pm_dec": "5 mas/yr", "position_epoch": 2016.0}), "pm_ra"},
+		{"a proper motion in the wrong unit", with(map[string]any{"ra": "10 deg", "dec": "5 deg", "pm_ra": "100 arcsec/yr", "pm_dec": "5 mas/yr", "position_epoch": 2016.0}), "pm_ra"},
+		{"an epoch that is not a year", with(map[string]any{"ra": "10 deg", "dec": "5 deg", "pm_ra": "100 mas/yr", "pm_dec": "5 mas/yr", "position_epoch": 16.0}), "position_epoch"},
 		{"a planet that is not a letter", with(map[string]any{"planets": []string{"B"}}), "planets"},
 		{"two planets for one written ephemeris", with(map[string]any{"planets": []string{"b", "c"}}), "planets"},
 	}

@@ -46,7 +46,7 @@ func ftoa(x float64) string { return strconvF(x) }
 // bjdOf returns the BJD_TDB of a UTC Julian date for the target.
 func bjdOf(t *testing.T, utc, ra, dec float64) float64 {
 	t.Helper()
-	b, err := timescale.BJDTDB(timescale.FromJD(utc), ra, dec)
+	b, err := timescale.BJDTDB(timescale.FromJD(utc), timescale.Fixed(ra, dec))
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -14,6 +14,7 @@ var byTag = map[string]*Dimension{
 	"time": Time, "density": Density, "radius": Radius, "mass": Mass, "temperature": Temperature,
 	"luminosity": Luminosity, "angle": Angle, "distance": Distance, "magnitude": Magnitude,
 	"irradiance": Irradiance, "length": Length, "metallicity": Metallicity, "gravity": SurfaceGravity,
+	"proper_motion": ProperMotion,
 }
 
 // Named returns the dimension a `dim` tag names, or nil.

@@ -95,6 +95,12 @@ var Length = &Dimension{Name: "length", Base: "m", Units: map[string]float64{
 	"nm": 1e-9, "um": 1e-6, "mm": 1e-3, "m": 1,
 }}
 
+// ProperMotion (a star's motion across the sky) is measured in mas/yr; μ_α is written as
+// μ_α* = μ_α cos δ, as catalogues give it.
+var ProperMotion = &Dimension{Name: "proper motion", Base: "mas/yr", Units: map[string]float64{
+	"uas/yr": 1e-3, "mas/yr": 1, "arcsec/yr": 1e3,
+}}
+
 // Names lists the dimension's units, smallest first.
 func (d *Dimension) Names() []string {
 	n := make([]string, 0, len(d.Units))

@@ -15,7 +15,9 @@ Everything here comes from ERFA, the open reference library of fundamental astro
   - the barycentric correction built from them with the formula dipline uses:
         BJD_TDB = JD_UTC -> TAI -> TT -> TDB (TT + dtdb) + (r_earth . n) / c,
     r_earth from epv00 at TDB, n the unit vector to (RA, Dec) in ICRS, the observer at the
-    geocentre, no proper motion, no Shapiro delay.
+    geocentre, no Shapiro delay;
+  - pmsafe:   a star's position moved by its proper motion from its catalogue epoch, and the
+              BJD_TDB of its light built from the moved direction.
 The grids are fixed formulas, so the file does not depend on any random generator.
 """
 import json
@@ -133,6 +135,32 @@ def main():
                         "bjd_tdb_jd1": tdb1, "bjd_tdb_jd2": b2,
                         "bjd_minus_utc_s": corr, "romer_s": romer, "tdb_minus_tt_s": dt})
     out["bjd"] = bjd
+
+    # Proper motion: positions at epoch J2016.0 moved by pmsafe (space motion, zero radial
+    # velocity; the parallax given only sets the distance) to dates over 2000-2040, and the
+    # BJD_TDB built from the moved direction. pmsafe takes dRA/dt in rad/yr, not mu_alpha*.
+    stars = [(269.452, 4.694, -798.6, 10328.1, 0.5469), (164.12, -7.05, 2500.0, -1500.0, 0.1),
+             (10.0, 85.0, 300.0, 200.0, 0.02)]
+    moved = []
+    ep1 = 2451545.0 + 16.0 * 365.25  # J2016.0, TDB
+    for (ra, dec, pma, pmd, px) in stars:
+        pmr = math.radians(pma / 3.6e6) / math.cos(math.radians(dec))
+        pmdr = math.radians(pmd / 3.6e6)
+        for k in range(5):
+            mjd = 51544.0 + 13.0 + 3650.0 * k + 91.7 * k
+            u1, u2 = erfa.DJM0 + mjd, 0.3
+            tdb1, tdb2, _, _ = utc_to_tdb(u1, u2)
+            ra2, dec2, _, _, _, _ = erfa.pmsafe(math.radians(ra), math.radians(dec), pmr, pmdr, px, 0.0,
+                                                   ep1, 0.0, tdb1, tdb2)
+            ra2, dec2 = float(ra2), float(dec2)
+            _, pvb = erfa.epv00(tdb1, tdb2)
+            n_hat = np.array([math.cos(dec2) * math.cos(ra2), math.cos(dec2) * math.sin(ra2), math.sin(dec2)])
+            romer = float(np.dot(pvb[0], n_hat)) * AU_LIGHT_SECONDS
+            moved.append({"ra_deg": ra, "dec_deg": dec, "pm_ra_cosdec_mas_yr": pma, "pm_dec_mas_yr": pmd,
+                          "epoch_jyear": 2016.0, "utc_jd1": u1, "utc_jd2": u2,
+                          "ra_now_deg": math.degrees(ra2) % 360.0, "dec_now_deg": math.degrees(dec2),
+                          "bjd_tdb_jd1": tdb1, "bjd_tdb_jd2": tdb2 + romer / DAY})
+    out["proper_motion"] = moved
     print(json.dumps(out, indent=1))
 
 

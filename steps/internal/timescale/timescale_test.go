@@ -47,6 +47,19 @@ type reference struct {
 		BJD1 float64 `json:"bjd_tdb_jd1"`
 		BJD2 float64 `json:"bjd_tdb_jd2"`
 	} `json:"bjd"`
+	Moved []struct {
+		RA    float64 `json:"ra_deg"`
+		Dec   float64 `json:"dec_deg"`
+		PMRA  float64 `json:"pm_ra_cosdec_mas_yr"`
+		PMDec float64 `json:"pm_dec_mas_yr"`
+		Epoch float64 `json:"epoch_jyear"`
+		UTC1  float64 `json:"utc_jd1"`
+		UTC2  float64 `json:"utc_jd2"`
+		RANow float64 `json:"ra_now_deg"`
+		DecNw float64 `json:"dec_now_deg"`
+		BJD1  float64 `json:"bjd_tdb_jd1"`
+		BJD2  float64 `json:"bjd_tdb_jd2"`
+	} `json:"proper_motion"`
 }
 
 var (
@@ -146,7 +159,7 @@ func TestUTCBefore1972IsRefused(t *testing.T) {
 	if _, err := UTCToTAI(JD{jd, 0.9}); !errors.Is(err, ErrBefore1972) {
 		t.Errorf("1971-12-31 gave %v, want ErrBefore1972", err)
 	}
-	if _, err := BJDTDB(JD{jd, 0.5}, 10, 10); !errors.Is(err, ErrBefore1972) {
+	if _, err := BJDTDB(JD{jd, 0.5}, Fixed(10, 10)); !errors.Is(err, ErrBefore1972) {
 		t.Errorf("BJDTDB on 1971-12-31 gave %v, want ErrBefore1972", err)
 	}
 	jd72, _ := CalendarJD(1972, 1, 1)
@@ -265,12 +278,12 @@ func TestBJDIsWithinHalfASecondOfERFA(t *testing.T) {
 	var worst, worstBack float64
 	for _, c := range r.BJD {
 		utc := JD{c.UTC1, c.UTC2}
-		got, err := BJDTDB(utc, c.RA, c.Dec)
+		got, err := BJDTDB(utc, Fixed(c.RA, c.Dec))
 		if err != nil {
 			t.Fatal(err)
 		}
 		worst = math.Max(worst, math.Abs(got.SecondsSince(JD{c.BJD1, c.BJD2})))
-		back, err := UTCFromBJDTDB(got, c.RA, c.Dec)
+		back, err := UTCFromBJDTDB(got, Fixed(c.RA, c.Dec))
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -285,10 +298,64 @@ func TestBJDIsWithinHalfASecondOfERFA(t *testing.T) {
 	}
 }
 
+// TestProperMotionMovesTheDirectionAsERFAsPmsafe compares DirectionAt with ERFA's pmsafe
+// (space motion with zero radial velocity) for three stars — among them one moving 10.4″/yr
+// (a nearby star's catalogue values, from memory, rounded) and one near the pole — from
+// J2016.0 to dates over 2000–2040, and the BJD_TDB of their light with the ERFA-built one.
+// It also shows why the motion matters: the fixed direction's BJD is off by more.
+func TestProperMotionMovesTheDirectionAsERFAsPmsafe(t *testing.T) {
+	r := loadReference(t)
+	if len(r.Moved) == 0 {
+		t.Fatal("the reference has no proper-motion cases")
+	}
+	var worstAngle, worstBJD, worstFixed float64
+	for _, c := range r.Moved {
+		tg := Target{RA: c.RA, Dec: c.Dec, PMRA: c.PMRA, PMDec: c.PMDec, Epoch: c.Epoch}
+		utc := JD{c.UTC1, c.UTC2}
+		tt, err := UTCToTT(utc)
+		if err != nil {
+			t.Fatal(err)
+		}
+		tdb := tt.AddSeconds(TDBMinusTT(tt))
+		n, want := tg.DirectionAt(tdb), Direction(c.RANow, c.DecNw)
+		worstAngle = math.Max(worstAngle, math.Hypot(math.Hypot(n[0]-want[0], n[1]-want[1]), n[2]-want[2])*masPerRad)
+		got, err := BJDTDB(utc, tg)
+		if err != nil {
+			t.Fatal(err)
+		}
+		worstBJD = math.Max(worstBJD, math.Abs(got.SecondsSince(JD{c.BJD1, c.BJD2})))
+		fixed, err := BJDTDB(utc, Fixed(c.RA, c.Dec))
+		if err != nil {
+			t.Fatal(err)
+		}
+		worstFixed = math.Max(worstFixed, math.Abs(fixed.SecondsSince(JD{c.BJD1, c.BJD2})))
+		back, err := UTCFromBJDTDB(got, tg)
+		if err != nil || math.Abs(back.SecondsSince(utc)) > 1e-6 {
+			t.Errorf("the round trip moves %v by %v s (%v)", utc, back.SecondsSince(utc), err)
+		}
+	}
+	t.Logf("proper motion: direction within %.3g mas of pmsafe, BJD within %.3f s; the fixed direction's BJD is off by up to %.3f s", worstAngle, worstBJD, worstFixed)
+	if worstAngle > 1 {
+		t.Errorf("the moved direction is %.3g mas from ERFA's pmsafe", worstAngle)
+	}
+	if worstBJD > 0.5 {
+		t.Errorf("BJD_TDB with proper motion off the ERFA-built value by %.3f s", worstBJD)
+	}
+	if !(worstFixed > worstBJD) {
+		t.Errorf("leaving the motion out costs nothing (%.3f s against %.3f s): the cases do not test it", worstFixed, worstBJD)
+	}
+}
+
 func TestBadDirectionsAreRefused(t *testing.T) {
 	for _, d := range [][2]float64{{10, 91}, {math.NaN(), 0}, {10, math.NaN()}} {
-		if _, err := BJDTDB(FromMJD(60000), d[0], d[1]); err == nil {
+		if _, err := BJDTDB(FromMJD(60000), Fixed(d[0], d[1])); err == nil {
 			t.Errorf("RA %g Dec %g accepted", d[0], d[1])
+		}
+	}
+	for _, tg := range []Target{{RA: 10, Dec: 10, PMRA: 25000, Epoch: 2016}, {RA: 10, Dec: 10, PMDec: math.NaN(), Epoch: 2016},
+		{RA: 10, Dec: 10, PMRA: 1, Epoch: 16}} {
+		if _, err := BJDTDB(FromMJD(60000), tg); err == nil {
+			t.Errorf("target %+v accepted", tg)
 		}
 	}
 }
@@ -296,7 +363,7 @@ func TestBadDirectionsAreRefused(t *testing.T) {
 func BenchmarkBJDTDB(b *testing.B) {
 	utc := FromMJD(60000.25)
 	for i := 0; i < b.N; i++ {
-		if _, err := BJDTDB(utc, 123.4, 45.6); err != nil {
+		if _, err := BJDTDB(utc, Fixed(123.4, 45.6)); err != nil {
 			b.Fatal(err)
 		}
 	}

@@ -180,6 +180,9 @@ ephemeris "full" {
   darkness       = "astronomical"
   baseline       = "1.5 h"
   timing_scatter = "always"
+  pm_ra          = "-35.2 mas/yr"
+  pm_dec         = "12.8 mas/yr"
+  position_epoch = 2016.0
 }
 
 ephemeris "written" {
