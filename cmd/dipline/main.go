@@ -54,6 +54,9 @@ Usage:
                                                  keep a run (and all it used) safe from pruning
   dipline store   stats|verify|prune|merge|salvage [workflow.hcl] [options]
                                                  look after the store (dipline store --help)
+  dipline survey  run|submit|status|merge|task TARGETS.csv [workflow.hcl] [options]
+                                                 one workflow over a table of targets, here or
+                                                 on Slurm (dipline survey --help)
   dipline kinds   [BLOCK]                        the block types a workflow may hold, and their
                                                  attributes (one, when named)
   dipline starter LIGHTCURVE [--out analysis.hcl] write a starter workflow for a light curve
@@ -154,6 +157,9 @@ var valueNames = map[string]string{
 // docOf is the help of the command whose flag set is fs.
 func docOf(fs *flag.FlagSet) commandDoc {
 	if d, ok := commandDocs[fs.Name()]; ok {
+		return d
+	}
+	if d, ok := surveyDocs[fs.Name()]; ok {
 		return d
 	}
 	return storeDocs[fs.Name()]
@@ -385,7 +391,8 @@ func (c *cli) commands() map[string]func([]string) int {
 	return map[string]func([]string) int{
 		"run": c.run, "check": c.check, "pending": c.pending, "trace": c.trace, "runs": c.runs,
 		"pin": c.pin, "diff": c.diff, "store": c.storeCmd, "kinds": c.kindsCmd, "starter": c.starter,
-		"help": c.help,
+		"survey": c.surveyCmd,
+		"help":   c.help,
 	}
 }
 
@@ -410,7 +417,7 @@ func (c *cli) help(args []string) int {
 		return exitOK
 	}
 	cmd, ok := c.commands()[args[0]]
-	if !ok || len(args) > 2 || len(args) == 2 && args[0] != "store" {
+	if !ok || len(args) > 2 || len(args) == 2 && args[0] != "store" && args[0] != "survey" {
 		fmt.Fprintf(c.err, "dipline help: name one command, e.g. dipline help run; the commands are %s\n", strings.Join(commandNames(), ", "))
 		return exitBadUser
 	}
@@ -419,7 +426,7 @@ func (c *cli) help(args []string) int {
 
 // commandNames lists the commands, sorted.
 func commandNames() []string {
-	names := []string{"store", "help"}
+	names := []string{"store", "survey", "help"}
 	for n := range commandDocs {
 		names = append(names, n)
 	}
