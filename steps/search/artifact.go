@@ -23,6 +23,8 @@ type Artifact struct {
 	Grid bls.Grid
 	// Cadence is the median spacing of the points searched, days.
 	Cadence float64
+	// Method is how the periodograms were computed (bls.MethodFast or bls.MethodDirect).
+	Method bls.Method
 	// Passes holds one periodogram per pass; its power and durations are kept at float32
 	// precision (seven digits, ample for plots), which keeps a four-year search's artifact
 	// near 3 MB per pass.
@@ -34,6 +36,7 @@ func newArtifact(lc *lightcurve.LightCurve, r *bls.Result) *Artifact {
 		Frame:   lc.Frame(),
 		Grid:    r.Grid,
 		Cadence: r.Cadence,
+		Method:  r.Method,
 		Passes:  r.Passes,
 	}
 	for i := range a.Passes {
@@ -111,8 +114,9 @@ func (a *Artifact) Figures() []steps.Figure {
 
 const (
 	tag = "search"
-	// format 2 adds each signal's rival periods and spread over its transits.
-	format = 2
+	// format 2 adds each signal's rival periods and spread over its transits; 3 the method
+	// and whether each pass was sparse.
+	format = 3
 	// maxPasses bounds the passes a decoder accepts (max_signals is at most 20).
 	maxPasses = 64
 )
@@ -130,12 +134,14 @@ func (a *Artifact) Encode() []byte {
 	w.Float(g.Step)
 	w.Int(int64(g.N))
 	w.Float(a.Cadence)
+	w.Int(int64(a.Method))
 	w.Uint64(uint64(len(a.Passes)))
 	for _, p := range a.Passes {
 		w.String(packFloat32(p.Power))
 		w.String(packFloat32(p.Duration))
 		w.Int(int64(p.Peak))
 		w.Float(p.SDE)
+		w.Bool(p.Sparse)
 		w.Bool(p.Found != nil)
 		if d := p.Found; d != nil {
 			for _, x := range []float64{d.Timing.Period, d.Timing.PeriodSigma, d.Timing.Epoch, d.Timing.EpochSigma,
@@ -187,7 +193,11 @@ func Decode(b []byte) (*Artifact, error) {
 	g.FMin, g.FMax, g.Step = r.Float(), r.Float(), r.Float()
 	n := r.Int()
 	a.Cadence = r.Float()
+	a.Method = bls.Method(r.Int())
 	np := r.Uint64()
+	if r.Err() == nil && a.Method != bls.MethodFast && a.Method != bls.MethodDirect {
+		return nil, fmt.Errorf("search artifact: method %d is not one the search runs", a.Method)
+	}
 	if n < 0 || n > 1<<31 || np > maxPasses {
 		return nil, fmt.Errorf("search artifact: %d frequencies and %d passes are out of range", n, np)
 	}
@@ -198,6 +208,7 @@ func Decode(b []byte) (*Artifact, error) {
 		pw, du := r.String(), r.String()
 		p.Peak = int(r.Int())
 		p.SDE = r.Float()
+		p.Sparse = r.Bool()
 		if r.Bool() {
 			d := &bls.Detection{}
 			for _, x := range []*float64{&d.Timing.Period, &d.Timing.PeriodSigma, &d.Timing.Epoch, &d.Timing.EpochSigma,

@@ -232,6 +232,7 @@ func smallArtifact() *Artifact {
 		Frame:   lightcurve.Frame{TimeScale: "BJD_TDB", RefInt: 2460000},
 		Grid:    bls.Grid{Density: 1.41, Baseline: 30, Oversampling: 3, FMin: 0.1, FMax: 1, Step: 0.01, N: 3},
 		Cadence: 0.02,
+		Method:  bls.MethodFast,
 		Passes:  []bls.Pass{{Power: []float64{1, 2, 0.5}, Duration: []float64{0.1, 0.1, 0.1}, Peak: 1, SDE: 9, Found: d}},
 	}
 }

@@ -38,8 +38,9 @@ func New() steps.Kind { return steps.Define[Config](Kind{}) }
 var _ steps.Typed[Config] = Kind{}
 
 // version is bumped whenever the numbers or the encoding change. 2: each signal's rival
-// periods (P/2, 2P) and spread over its transits, with cautions.
-const version = 2
+// periods (P/2, 2P) and spread over its transits, with cautions. 3: the fast fold, sparse
+// later passes, and the SDE against the median and the median absolute deviation.
+const version = 3
 
 // Defaults, each with its reason.
 const (
@@ -91,8 +92,20 @@ type Config struct {
 	Density      float64 `step:"star_density" dim:"density" default:"1 rho_sun" doc:"mean density of the star: it sets the grid's spacing and the transit durations tried at each period (from 0.3 to 1.75 times that of a central transit); by default the Sun's, \"1 rho_sun\""`
 	Oversampling float64 `step:"oversampling" default:"3" doc:"trial frequencies per drift of one transit duration over the data span (Ofir 2014); more finds weak signals a little more surely and costs proportionally more"`
 	MaxSignals   int     `step:"max_signals" default:"3" doc:"the search stops after finding this many signals, each found after masking the ones before"`
-	SDEThreshold float64 `step:"sde_threshold" default:"7.4" doc:"signal detection efficiency a periodogram peak must reach to count as a signal; the default holds white-noise false alarms to about 1 % per star"`
+	SDEThreshold float64 `step:"sde_threshold" default:"7.9" doc:"signal detection efficiency a periodogram peak must reach to count as a signal; the default holds white-noise false alarms to about 1 % per star"`
 	MaskFactor   float64 `step:"mask_factor" default:"2" doc:"the stretch masked around each found mid-transit before searching again, in transit durations"`
+	Method       string  `step:"method" choices:"auto|fast_fold|fold_and_scan" default:"auto" doc:"how each periodogram is computed: fast_fold bins the light curve evenly in time and folds all trial periods at once (Staelin 1969), fold_and_scan folds every point at every frequency (for sparse, uneven data it can be the cheaper); auto takes the cheaper, and the run's notes say which ran and why"`
+}
+
+// method reads the method choice.
+func (c *Config) method() bls.Method {
+	switch c.Method {
+	case "fast_fold":
+		return bls.MethodFast
+	case "fold_and_scan":
+		return bls.MethodDirect
+	}
+	return bls.MethodAuto
 }
 
 // periods is the trial-period range in days, or zeros when it is to be derived from the
@@ -152,9 +165,9 @@ func (Kind) Run(ctx context.Context, cfg *Config, in steps.Inputs, env steps.Env
 		})
 	}
 	// Progress is one count over every pass the search may make (max_signals of them, each
-	// over the whole grid), never going back: blocks finish out of order, so a smaller count
-	// arriving late is dropped. A search that ends before its last pass then reports the
-	// whole as done.
+	// counted in the same units, bls reckoning how far a pass is), never going back: blocks
+	// finish out of order, so a smaller count arriving late is dropped. A search that ends
+	// before its last pass then reports the whole as done.
 	var (
 		mu       sync.Mutex
 		reported int
@@ -231,6 +244,7 @@ func Search(cfg Config, lc *lightcurve.LightCurve, par parallel.Func, progress f
 	opt := bls.Options{
 		Density: cfg.Density, PeriodMin: lo, PeriodMax: hi, Oversampling: cfg.Oversampling,
 		MaxSignals: cfg.MaxSignals, SDEThreshold: cfg.SDEThreshold, MaskFactor: cfg.MaskFactor,
+		Method: cfg.method(),
 	}
 	res, err := bls.Search(s, opt, par, progress)
 	if err != nil {
@@ -238,7 +252,7 @@ func Search(cfg Config, lc *lightcurve.LightCurve, par parallel.Func, progress f
 	}
 	g := res.Grid
 	notes = append(notes, fmt.Sprintf("grid: %d frequencies uniform in f^(1/3) (Ofir 2014) over %.4g–%.4g d for a star of %.4g g/cm3 (%.3g rho_sun), oversampling %g",
-		g.N, 1/g.FMax, 1/g.FMin, g.Density, g.Density/solarDensity, g.Oversampling))
+		g.N, 1/g.FMax, 1/g.FMin, g.Density, g.Density/solarDensity, g.Oversampling), "method: "+res.Why)
 	art := newArtifact(lc, res)
 	found := len(art.Signals())
 	last := res.Passes[len(res.Passes)-1]

@@ -36,7 +36,8 @@ var noiseCases = []noiseCase{
 	{"45 d at 30 min, Sun-like star", 45, 30.0 / 1440, 0, solarDensity},
 }
 
-// noiseSDE returns the highest SDE of the first pass over pure white noise.
+// noiseSDE returns the highest SDE of the first pass over pure white noise, by the method
+// a search takes by default.
 func noiseSDE(c noiseCase, seed uint64) float64 {
 	s := synth(seed, c.span, c.cadence, 1e-3, c.gap)
 	o := c.options()
@@ -45,8 +46,8 @@ func noiseSDE(c noiseCase, seed uint64) float64 {
 		panic(err)
 	}
 	p := prepare(s, nil, s.Cadence())
-	score, _ := detrendedSDE(periodogram(p, g, nil, nil).power)
-	return score
+	m, _ := choose(MethodAuto, p, g)
+	return firstPass(m, p, g, nil, nil).score
 }
 
 // noiseSDEs runs trials light curves of case c, seeded base, base+1, …, spread over the

@@ -69,7 +69,17 @@ const fastBlockPeriods = 16
 type fastSegment struct {
 	dt    float64 // bin width, days
 	nbins int     // bins of the binned series: the span of the points
+	level int     // coarseness: 1 for the full resolution (see fastLevel)
 }
+
+// A fast fold's level says how coarse it is: at level L the bins are L times wider than at
+// full resolution and the trials L times further apart, so the butterflies and the box
+// scans both cost about 1/L² as much, and several grid cells share one trial. Passes after
+// the first search at level coarseLevel first (see Search).
+const (
+	fullLevel   = 1
+	coarseLevel = 2
+)
 
 // fastBlock is one parallel unit: the grid cells jlo … jhi of one segment, whose periods
 // fall in the integer periods pa … pb (in bins) of that segment.
@@ -97,14 +107,19 @@ func gridDrift(g Grid, per float64) float64 {
 // drift at lo over fastBinsPerStep, but never below half the cadence: finer bins would
 // only be partly filled, and the direct fold's phase bins never go below half the
 // cadence either (phaseBins with durationRange's floor).
-func newFastSegment(p *prepared, g Grid, lo float64) fastSegment {
-	dt := math.Max(gridDrift(g, lo)/fastBinsPerStep, p.cadence/2)
-	return fastSegment{dt: dt, nbins: int(p.span()/dt) + 1}
+func newFastSegment(p *prepared, g Grid, lo float64, level int) fastSegment {
+	dt := math.Max(gridDrift(g, lo)/fastBinsPerStep*float64(level), p.cadence/2)
+	return fastSegment{dt: dt, nbins: int(p.span()/dt) + 1, level: level}
 }
 
 // fastPlan cuts the grid into segments a third of an octave wide and each segment into
 // blocks of fastBlockPeriods integer periods. Every grid cell lies in exactly one block.
 func fastPlan(p *prepared, g Grid) ([]fastSegment, []fastBlock) {
+	return fastPlanAt(p, g, fullLevel)
+}
+
+// fastPlanAt is fastPlan at a level of coarseness.
+func fastPlanAt(p *prepared, g Grid, level int) ([]fastSegment, []fastBlock) {
 	var segs []fastSegment
 	var blocks []fastBlock
 	lo := 1 / g.FMax
@@ -117,7 +132,7 @@ func fastPlan(p *prepared, g Grid) ([]fastSegment, []fastBlock) {
 			moved = true
 		}
 		if moved {
-			segs = append(segs, newFastSegment(p, g, lo))
+			segs = append(segs, newFastSegment(p, g, lo, level))
 		}
 		s := len(segs) - 1
 		ip := int(per / segs[s].dt)
@@ -136,7 +151,7 @@ func fastPlan(p *prepared, g Grid) ([]fastSegment, []fastBlock) {
 // grid's step there is q(f)/(S·OS) = T/(P·S·OS) with T = q·P, so (m−1)·per must reach
 // S·OS/T(P) bins (with a margin of 10⁻³ for rounding).
 func fastRows(g Grid, s fastSegment, per int) int {
-	need := math.Max(float64(s.nbins), g.Baseline/gridDrift(g, float64(per)*s.dt)*(1+1e-3))
+	need := math.Max(float64(s.nbins), g.Baseline/(gridDrift(g, float64(per)*s.dt)*float64(max(s.level, 1)))*(1+1e-3))
 	m := int(math.Ceil(need/float64(per))) + 1
 	return 1 << bits.Len(uint(m-1))
 }
@@ -153,19 +168,47 @@ func fastPeriodogram(p *prepared, g Grid, par parallel.Func, progress func()) sp
 
 // fastBlockCount returns the number of blocks, and so of progress calls, of
 // fastPeriodogram on p over g.
-func fastBlockCount(p *prepared, g Grid) int {
-	_, blocks := fastPlan(p, g)
+func fastBlockCount(p *prepared, g Grid) int { return fastBlockCountAt(p, g, fullLevel) }
+
+// fastBlockCountAt is fastBlockCount at a level of coarseness.
+func fastBlockCountAt(p *prepared, g Grid, level int) int {
+	_, blocks := fastPlanAt(p, g, level)
 	return len(blocks)
 }
 
 // fastSpectrum is fastPeriodogram that also returns what it did.
 func fastSpectrum(p *prepared, g Grid, par parallel.Func, progress func()) (spectrum, fastStats) {
-	sp := spectrum{power: make([]float64, g.N), duration: make([]float64, g.N), centre: make([]float64, g.N)}
-	segs, blocks := fastPlan(p, g)
-	stats := make([]fastStats, len(blocks))
-	par.Run(len(blocks), func(b int) {
+	return fastSpectrumAt(p, g, par, progress, fullLevel)
+}
+
+// fastSpectrumAt is fastSpectrum at a level of coarseness.
+func fastSpectrumAt(p *prepared, g Grid, par parallel.Func, progress func(), level int) (spectrum, fastStats) {
+	sp := newSpectrum(g.N)
+	segs, blocks := fastPlanAt(p, g, level)
+	return sp, fastBlocks(p, g, par, progress, segs, blocks, nil, sp, nil)
+}
+
+// newSpectrum returns an empty spectrum of n frequencies.
+func newSpectrum(n int) spectrum {
+	return spectrum{power: make([]float64, n), duration: make([]float64, n), centre: make([]float64, n)}
+}
+
+// fastBlocks folds the blocks of a plan listed in only (every block when nil) into sp,
+// each block writing its own cells (those sel selects, every one when sel is nil), and
+// returns what it did.
+func fastBlocks(p *prepared, g Grid, par parallel.Func, progress func(), segs []fastSegment, blocks []fastBlock, only []int, sp spectrum, sel *selection) fastStats {
+	n := len(blocks)
+	if only != nil {
+		n = len(only)
+	}
+	stats := make([]fastStats, n)
+	par.Run(n, func(i int) {
+		b := i
+		if only != nil {
+			b = only[i]
+		}
 		fs := fastScratches.Get().(*fastScratch)
-		stats[b] = fs.block(p, g, segs[blocks[b].seg], blocks[b], sp)
+		stats[i] = fs.block(p, g, segs[blocks[b].seg], blocks[b], sp, sel)
 		fastScratches.Put(fs)
 		if progress != nil {
 			progress()
@@ -177,14 +220,14 @@ func fastSpectrum(p *prepared, g Grid, par parallel.Func, progress func()) (spec
 		st.trials += s.trials
 		st.filled += s.filled
 	}
-	return sp, st
+	return st
 }
 
 // block folds the integer periods of one block and gives each of its grid cells the best
 // box of the trial period nearest to the cell's: the cell of period P lies in integer
 // period per = ⌊P/dt⌋, and its trial is k = round((P/dt − per)·(m−1)), at most half a
 // trial step, and so half a grid step, away.
-func (fs *fastScratch) block(p *prepared, g Grid, s fastSegment, blk fastBlock, sp spectrum) fastStats {
+func (fs *fastScratch) block(p *prepared, g Grid, s fastSegment, blk fastBlock, sp spectrum, sel *selection) fastStats {
 	var st fastStats
 	fs.bin(p, s.dt, s.nbins, blk.pb+1)
 	put := func(j int, bx box) {
@@ -207,6 +250,10 @@ func (fs *fastScratch) block(p *prepared, g Grid, s fastSegment, blk fastBlock, 
 		}
 		m := fastRows(g, s, per)
 		cells := fs.trials(g, s.dt, per, m, j, blk.jlo)
+		if !sel.takes(j, cells) {
+			j -= cells
+			continue
+		}
 		prof := fs.fold(per, m, fs.want)
 		st.folds++
 		nlo, nhi := fastLengths(p, g, per, s.dt)
@@ -217,6 +264,29 @@ func (fs *fastScratch) block(p *prepared, g Grid, s fastSegment, blk fastBlock, 
 		j -= cells
 	}
 	return st
+}
+
+// selection, for a sparse pass, names the grid cells wanted at full resolution (want) and
+// records those computed (have): every cell of an integer period holding a wanted cell.
+// A nil selection takes every cell.
+type selection struct{ want, have []bool }
+
+// takes reports whether the integer period holding cells j, j−1, … j−n+1 is to be folded,
+// and marks those cells as computed when it is.
+func (sel *selection) takes(j, n int) bool {
+	if sel == nil {
+		return true
+	}
+	any := false
+	for i := 0; i < n; i++ {
+		any = any || sel.want[j-i]
+	}
+	if any {
+		for i := 0; i < n; i++ {
+			sel.have[j-i] = true
+		}
+	}
+	return any
 }
 
 // trials lists in fs.want, for the cells j, j−1, … (down to jlo) whose periods P fall in
@@ -242,8 +312,11 @@ func (fs *fastScratch) trials(g Grid, dt float64, per, m, j, jlo int) int {
 // either kind takes about a nanosecond (on the four-year benchmark, 1.25 ns per point and
 // frequency for the direct fold, 1.0 ns per operation for the fast one);
 // BenchmarkFastVersusDirect4yr reports the ratio of the estimates beside the measured one.
-func fastCost(p *prepared, g Grid) (fast, direct float64) {
-	segs, blocks := fastPlan(p, g)
+func fastCost(p *prepared, g Grid) (fast, direct float64) { return fastCostAt(p, g, fullLevel) }
+
+// fastCostAt is fastCost with the fast fold at a level of coarseness.
+func fastCostAt(p *prepared, g Grid, level int) (fast, direct float64) {
+	segs, blocks := fastPlanAt(p, g, level)
 	for _, b := range blocks {
 		s := segs[b.seg]
 		fast += float64(len(p.t))

@@ -2,6 +2,7 @@ package bls
 
 import (
 	"math"
+	"sort"
 	"testing"
 )
 
@@ -25,26 +26,58 @@ func TestDetrendedSDEMeasuresAPeakAgainstItsNeighbourhood(t *testing.T) {
 	if rawPeak == 1000 {
 		t.Errorf("the raw SDE found the peak; the test meant to hide it under the rise")
 	}
-	// Ripple σ = 0.1/√2; the peak's height 2 is about 28 of those; allow for the
-	// interpolated trend's small error.
-	if got < 20 {
-		t.Errorf("detrended SDE %.2f, want ≥ 20", got)
+	// The ripple's robust σ is 1.4826 × 0.1·sin(π/4) = 0.1048 (the median of |sin| is
+	// sin(π/4)); the peak's height 2 is about 19 of those; allow for the interpolated
+	// trend's small error.
+	if got < 17 {
+		t.Errorf("detrended SDE %.2f, want ≥ 17", got)
 	}
 }
 
 func TestDetrendedSDEOfAFlatSpectrumIsTheRawOne(t *testing.T) {
 	// On a spectrum with no trend the block medians are all equal, so removing them changes
-	// no difference between points: the SDE is the raw one.
+	// no difference between points: the SDE is that of the raw spectrum, its median and
+	// median absolute deviation found here by sorting.
 	const n = 1000
 	p := make([]float64, n)
 	for j := range p {
 		p[j] = 5 + math.Sin(float64(j)*0.37)
 	}
 	p[333] = 9
-	raw, rp := sde(p)
+	sorted := append([]float64(nil), p...)
+	sort.Float64s(sorted)
+	med := (sorted[n/2-1] + sorted[n/2]) / 2
+	dev := make([]float64, n)
+	for j, v := range p {
+		dev[j] = math.Abs(v - med)
+	}
+	sort.Float64s(dev)
+	raw := (9 - med) / (1.4826 * (dev[n/2-1] + dev[n/2]) / 2)
 	got, gp := detrendedSDE(p)
-	if gp != rp || math.Abs(got-raw) > 0.02*raw {
-		t.Errorf("flat spectrum: detrended SDE %.3f at %d, raw %.3f at %d", got, gp, raw, rp)
+	if gp != 333 || math.Abs(got-raw) > 0.02*raw {
+		t.Errorf("flat spectrum: detrended SDE %.3f at %d, raw %.3f at 333", got, gp, raw)
+	}
+}
+
+// TestAStrongSignalsAliasesDoNotHideIt models the spectrum of a strong signal on a short
+// light curve: besides its peak, a fifth of the grid is raised by its harmonics and
+// aliases. The classic SDE, against the standard deviation, falls under the threshold; the
+// robust one, against the median absolute deviation of the rest, does not.
+func TestAStrongSignalsAliasesDoNotHideIt(t *testing.T) {
+	const n = 2000
+	g := normals{state: 3}
+	p := make([]float64, n)
+	for j := range p {
+		p[j] = 10 + g.norm()
+		if j%5 == 0 {
+			p[j] += 12 // an alias
+		}
+	}
+	p[777] = 40
+	classic, _ := sde(p)
+	got, peak := detrendedSDE(p)
+	if peak != 777 || classic >= DefaultSDEThreshold || got < 2*DefaultSDEThreshold {
+		t.Errorf("classic SDE %.2f, robust %.2f at %d: want the classic under %.1f and the robust far over it", classic, got, peak, DefaultSDEThreshold)
 	}
 }
 

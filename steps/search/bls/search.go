@@ -16,13 +16,17 @@ type Options struct {
 	MaxSignals           int     // the search stops after this many accepted signals
 	SDEThreshold         float64 // a peak is accepted when its SDE reaches this
 	MaskFactor           float64 // points within MaskFactor·duration/2 of a found transit are left out of later passes
+	Method               Method  // how the periodograms are computed (MethodAuto: the cheaper)
 }
 
 // Result is the outcome of a search: the grid, then one pass per periodogram computed.
 type Result struct {
 	Grid    Grid
 	Cadence float64 // median spacing of the points, days
-	Passes  []Pass
+	// Method is the method that ran and Why says why, in a sentence for the user.
+	Method Method
+	Why    string
+	Passes []Pass
 }
 
 // Pass is one periodogram over the points left after masking the signals found before it,
@@ -37,6 +41,9 @@ type Pass struct {
 	// signal detection efficiency against the detrended spectrum (see detrendedSDE).
 	Peak int
 	SDE  float64
+	// Sparse marks a later pass of the fast fold (sparsePass): Power holds full-resolution
+	// values around its highest peaks and in a sample of the grid, coarser ones elsewhere.
+	Sparse bool
 	// Found is the signal the peak gave, or nil when it stayed below the SDE threshold or
 	// could not be refined.
 	Found *Detection
@@ -80,11 +87,13 @@ type Strength struct {
 const minPoints = 20
 
 // Search runs the iterative box search over the series: a periodogram on the grid of
-// Ofir (2014), its highest peak's SDE (against the spectrum's slow trend) against the threshold, refinement of an accepted peak,
-// masking of its transits, and again, until a peak falls below the threshold or MaxSignals
-// signals are found. par spreads fixed blocks of frequencies over workers (nil: serial);
-// progress, if not nil, is called after each block with the pass number (from 0), the
-// blocks done and the blocks in the pass.
+// Ofir (2014), its highest peak's SDE (against the spectrum's slow trend) against the
+// threshold, refinement of an accepted peak, masking of its transits, and again, until a
+// peak falls below the threshold or MaxSignals signals are found. The periodograms are
+// computed by the fast fold or by fold-and-scan (choose); later fast passes are sparse
+// (sparsePass). par spreads fixed blocks of work over workers (nil: serial); progress, if
+// not nil, is called as blocks end with the pass number (from 0) and how far the pass is,
+// done of progressUnits.
 func Search(s Series, o Options, par parallel.Func, progress func(pass, done, total int)) (*Result, error) {
 	if err := s.Check(); err != nil {
 		return nil, err
@@ -117,27 +126,26 @@ func Search(s Series, o Options, par parallel.Func, progress func(pass, done, to
 	for i := range keep {
 		keep[i] = true
 	}
-	nblk := (g.N + freqBlock - 1) / freqBlock
-	var progressMu sync.Mutex // progress calls come from concurrent blocks
 	for pass := 0; ; pass++ {
 		p := prepare(s, keep, res.Cadence)
 		if len(p.t) < minPoints {
 			break
 		}
+		if pass == 0 {
+			res.Method, res.Why = choose(o.Method, p, g)
+		}
 		var tick func()
 		if progress != nil {
-			done := 0
-			tick = func() {
-				progressMu.Lock()
-				done++
-				d := done
-				progressMu.Unlock()
-				progress(pass, d, nblk)
-			}
+			tick = passProgress(pass, p, g, res.Method, progress)
 		}
-		sp := periodogram(p, g, par, tick)
-		score, peak := detrendedSDE(sp.power)
-		ps := Pass{Power: sp.power, Duration: sp.duration, Peak: peak, SDE: score}
+		var pr passResult
+		if pass == 0 || res.Method == MethodDirect {
+			pr = firstPass(res.Method, p, g, par, tick)
+		} else {
+			pr = sparsePass(p, g, par, tick)
+		}
+		sp, score, peak := pr.sp, pr.score, pr.peak
+		ps := Pass{Power: sp.power, Duration: sp.duration, Peak: peak, SDE: score, Sparse: pr.have != nil}
 		if score >= o.SDEThreshold && sp.power[peak] > 0 {
 			ps.Found = detect(p, g, sp, peak, score, o.MaskFactor)
 		}
@@ -155,6 +163,35 @@ func Search(s Series, o Options, par parallel.Func, progress func(pass, done, to
 		}
 	}
 	return res, nil
+}
+
+// progressUnits is the count each pass's progress runs to.
+const progressUnits = 1000
+
+// passProgress returns the tick a pass's blocks call as they end, reporting the pass's
+// progress in progressUnits: its blocks in order for a whole pass; for a sparse pass, its
+// coarse fold's blocks to half way, then its full-resolution blocks (whose number is
+// known only once the candidates are) up to the whole, reckoned against the coarse count.
+func passProgress(pass int, p *prepared, g Grid, m Method, progress func(pass, done, total int)) func() {
+	var mu sync.Mutex // blocks end on several workers
+	done := 0
+	total := (g.N + freqBlock - 1) / freqBlock
+	scale := 1.0
+	switch {
+	case m == MethodDirect:
+	case pass == 0 || fastBlockCount(p, g) < sparseMinBlocks:
+		total = fastBlockCount(p, g)
+	default:
+		total = fastBlockCountAt(p, g, coarseLevel)
+		scale = 0.5
+	}
+	return func() {
+		mu.Lock()
+		defer mu.Unlock()
+		done++
+		n := min(int(scale*float64(progressUnits)*float64(done)/float64(total)), progressUnits-1)
+		progress(pass, n, progressUnits)
+	}
 }
 
 // detect refines the peak and measures the dip, or returns nil when refinement finds no box.
@@ -189,16 +226,18 @@ func detect(p *prepared, g Grid, sp spectrum, peak int, score, mask float64) *De
 }
 
 // DefaultSDEThreshold is the SDE a periodogram peak must reach to count as a signal,
-// calibrated on white noise with the grid, durations and detrended SDE used here: for each
-// of five kinds of light curve of at most 90 days (30-, 10- and 2-minute cadences, with and
-// without gaps, stars of 1, 4 and 8 solar densities, the default period range,
+// calibrated on white noise with the grid, durations, method and SDE used here (the fast
+// fold; the SDE against the detrended spectrum's median and its MAD-scaled spread): for
+// each of five kinds of light curve of at most 90 days (30-, 10- and 2-minute cadences,
+// with and without gaps, stars of 1, 4 and 8 solar densities, the default period range,
 // oversampling 3), 2000 seeded light curves of pure white noise were searched and the
-// highest SDE of each kept. The 99th percentiles were 6.30 to 7.37, so 7.4 holds the
-// false-alarm rate from white noise to at most 1 % per star. Hippke & Heller (2019, A&A
-// 623, A39) found SDE ≈ 7 for 1 % with their search; the value depends on the grid, the
-// durations tried and how the spectrum is normalised, hence our own measurement. Red noise
-// raises the rate: the SNR, which bins the noise to the transit duration, and the vetting
-// step guard against it. The measurement is TestCalibrateSDEThreshold:
+// highest SDE of each kept. The 99th percentiles were 7.05 to 7.89, so 7.9 holds the
+// false-alarm rate from white noise to at most 1 % per star (steps/search/BENCHMARKS.md).
+// Hippke & Heller (2019, A&A 623, A39) found SDE ≈ 7 for 1 % with their search; the value
+// depends on the grid, the durations tried and how the spectrum is normalised, hence our
+// own measurement. Red noise raises the rate: the SNR, which bins the noise to the transit
+// duration, and the vetting step guard against it. The measurement is
+// TestCalibrateSDEThreshold:
 //
-//	DIPLINE_LONG=1 go test ./steps/search/bls -run CalibrateSDE -v -timeout 3h
-const DefaultSDEThreshold = 7.4
+//	DIPLINE_LONG=1 go test ./steps/search/bls -run CalibrateSDE -v -timeout 1h
+const DefaultSDEThreshold = 7.9
