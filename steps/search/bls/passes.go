@@ -180,4 +180,3 @@ func candidates(power []float64, k int) []int {
 	})
 	return peaks[:min(k, len(peaks))]
 }
-
