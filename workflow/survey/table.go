@@ -74,7 +74,8 @@ func ReadTable(path string) (*Table, error) {
 	if err != nil {
 		return nil, tableReadError(path, 1, err, "it has no header row")
 	}
-	idCol, cols, err := readHeader(path, header)
+	hline, _ := r.FieldPos(0)
+	idCol, cols, err := readHeader(path, hline, header)
 	if err != nil {
 		return nil, err
 	}
@@ -102,7 +103,7 @@ func ReadTable(path string) (*Table, error) {
 		t.Targets = append(t.Targets, tg)
 	}
 	if len(t.Targets) == 0 {
-		return nil, &TableError{path, 2, "", "the table has a header and no targets"}
+		return nil, &TableError{path, hline + 1, "", "the table has a header and no targets"}
 	}
 	return t, nil
 }
@@ -121,19 +122,19 @@ func tableReadError(path string, line int, err error, empty string) error {
 
 // readHeader finds the id column and reads every other column's name as the attribute it
 // sets.
-func readHeader(path string, header []string) (idCol int, cols []workflow.Override, err error) {
+func readHeader(path string, line int, header []string) (idCol int, cols []workflow.Override, err error) {
 	idCol = -1
 	for i, h := range header {
 		header[i] = strings.TrimSpace(h)
 		if strings.EqualFold(header[i], "id") {
 			if idCol >= 0 {
-				return 0, nil, &TableError{path, 1, header[i], "a second id column"}
+				return 0, nil, &TableError{path, line, header[i], "a second id column"}
 			}
 			idCol = i
 		}
 	}
 	if idCol < 0 {
-		return 0, nil, &TableError{path, 1, "", "no id column: the header needs a column named id, whose cells name the targets"}
+		return 0, nil, &TableError{path, line, "", "no id column: the header needs a column named id, whose cells name the targets"}
 	}
 	cols = make([]workflow.Override, len(header))
 	for i, h := range header {
@@ -142,7 +143,7 @@ func readHeader(path string, header []string) (idCol int, cols []workflow.Overri
 		}
 		o, perr := workflow.ParseOverride(h + "=0")
 		if perr != nil || strings.HasPrefix(h, "catalogue.") {
-			return 0, nil, &TableError{path, 1, h, "a column names the attribute it sets, as kind.label.attribute (photometry.survey.files); this one does not"}
+			return 0, nil, &TableError{path, line, h, "a column names the attribute it sets, as kind.label.attribute (photometry.survey.files); this one does not"}
 		}
 		cols[i] = o
 	}
@@ -171,14 +172,14 @@ func readRow(path string, line int, rec, header []string, idCol int, cols []work
 }
 
 // cellExpr turns a cell into the expression it sets. A cell that reads as a number, true or
-// false, or starts like a list, an object or a quoted string ([ { ") is taken as written,
-// as --set takes it; anything else is a string, quoted here, so a table can say
-// data/t01.csv or 12 h without quotes.
+// false, starts like a list, an object or a quoted string ([ { "), or names a catalogue
+// row (catalogue.nearby["A1"]) is taken as written, as --set takes it; anything else is a
+// string, quoted here, so a table can say data/t01.csv or 12 h without quotes.
 func cellExpr(cell string) string {
 	if _, err := strconv.ParseFloat(cell, 64); err == nil || cell == "true" || cell == "false" {
 		return cell
 	}
-	if strings.ContainsAny(cell[:1], `[{"`) {
+	if strings.ContainsAny(cell[:1], `[{"`) || strings.HasPrefix(cell, "catalogue.") {
 		return cell
 	}
 	q := strconv.Quote(cell)
