@@ -127,3 +127,33 @@ func abs(x int) int {
 	}
 	return x
 }
+
+// BenchmarkSparsePass4yr measures what a later pass costs against a whole one: on the
+// four-year light curve of the fast-fold benchmarks, with the 9.7 d signal's transits
+// masked as Search masks them, the CPU seconds of a whole fast pass and of a sparse pass,
+// alternating three times on one locked thread and keeping the least of each, per case.
+//
+//	go test ./steps/search/bls -run '^$' -bench SparsePass4yr -benchtime 1x
+func BenchmarkSparsePass4yr(b *testing.B) {
+	for i := 0; i < b.N; i++ {
+		for _, c := range fastBenchCases {
+			_, g := fastBenchGrid(b, c)
+			s := fourYears()
+			keep := make([]bool, len(s.Time))
+			dur := CentralDuration(9.7, benchDensity)
+			for k, t := range s.Time {
+				x := (t - 3.1) / 9.7
+				keep[k] = math.Abs(x-math.Round(x))*9.7 > dur
+			}
+			p := prepare(s, keep, s.Cadence())
+			whole, sparse := math.Inf(1), math.Inf(1)
+			for range 3 {
+				whole = math.Min(whole, threadSeconds(func() { firstPass(MethodFast, p, g, nil, nil) }))
+				sparse = math.Min(sparse, threadSeconds(func() { sparsePass(p, g, nil, nil) }))
+			}
+			b.ReportMetric(whole, c.name+"-whole-cpu-s")
+			b.ReportMetric(sparse, c.name+"-sparse-cpu-s")
+			b.ReportMetric(whole/sparse, c.name+"-ratio")
+		}
+	}
+}

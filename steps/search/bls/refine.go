@@ -202,6 +202,11 @@ func (rf *refiner) scan(f float64) exactBox {
 // scanAt is scan that also returns the sorted indices of the best box's first and last
 // points.
 func (rf *refiner) scanAt(f float64) (exactBox, int, int) {
+	if !(f > 0) || math.IsInf(f, 0) {
+		// A profile walking out from a peak near the longest period can step past zero
+		// frequency; there is no box there.
+		return exactBox{}, -1, -1
+	}
 	rf.fold(f)
 	per := 1 / f
 	lo, hi := durationRange(per, rf.density, rf.p.cadence)
