@@ -56,14 +56,7 @@ search "dips" {
 func benchLightCurve() string {
 	var b strings.Builder
 	b.WriteString("# invented benchmark data\ntime,flux,flux_err\n")
-	s := uint64(7)
-	next := func() float64 {
-		s += 0x9e3779b97f4a7c15
-		z := s
-		z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9
-		z = (z ^ (z >> 27)) * 0x94d049bb133111eb
-		return (float64((z^(z>>31))>>11) + 0.5) / (1 << 53)
-	}
+	next := uniforms(7)
 	dt := 29.4 / 1440
 	for i := 0; float64(i)*dt <= 4*365.25; i++ {
 		t := float64(i) * dt
@@ -180,4 +173,40 @@ func readBenchCurve(b *testing.B, path string) (t, flux []float64) {
 		}
 	}
 	return t, flux
+}
+
+// BenchmarkSurvey8Targets runs the eight-target survey of the survey tests, each target's
+// light curve lengthened to 120 days so that the targets' own work outweighs starting
+// them, first on one worker and then on two, each in a fresh folder, and reports both wall
+// times and their ratio (the target: at least 1.8).
+//
+//	go test ./cmd/dipline -run '^$' -bench Survey8Targets -benchtime 1x
+func BenchmarkSurvey8Targets(b *testing.B) {
+	walls := map[int]time.Duration{}
+	for i := 0; i < b.N; i++ {
+		for _, workers := range []int{1, 2} {
+			t := &testing.T{}
+			f := &folder{t: t, dir: filepath.Join(b.TempDir(), fmt.Sprint(workers))}
+			os.MkdirAll(f.dir, 0o755)
+			f.write("analysis.hcl", workflowText)
+			var table strings.Builder
+			table.WriteString("id,photometry.raw.files\n")
+			for k, p := range surveyPeriods {
+				name := fmt.Sprintf("t%d.csv", k+1)
+				f.write(name, boxCurve(120, p, uint64(100+k)))
+				fmt.Fprintf(&table, "T-%02d,%s\n", k+1, name)
+			}
+			f.write("targets.csv", table.String())
+			t0 := time.Now()
+			code, out, errs := f.dipline("survey", "run", "targets.csv", "--workers", fmt.Sprint(workers))
+			walls[workers] += time.Since(t0)
+			if code != 0 {
+				b.Fatalf("survey on %d workers: exit %d\n%s\n%s", workers, code, out, errs)
+			}
+		}
+	}
+	one, two := walls[1].Seconds()/float64(b.N), walls[2].Seconds()/float64(b.N)
+	b.ReportMetric(one, "1-worker-s")
+	b.ReportMetric(two, "2-workers-s")
+	b.ReportMetric(one/two, "speed-up")
 }

@@ -16,19 +16,15 @@ var surveyPeriods = []float64{1.3, 1.7, 2.1, 2.5, 2.9, 3.3, 3.7, 4.1}
 
 // surveyLightCurve is an invented 20-day light curve at 30 minutes with white noise of
 // 300 ppm and a 1200 ppm, 2.4-hour box dip every period days, its noise seeded apart.
-func surveyLightCurve(period float64, seed uint64) string {
+func surveyLightCurve(period float64, seed uint64) string { return boxCurve(20, period, seed) }
+
+// boxCurve is surveyLightCurve over a number of days.
+func boxCurve(days int, period float64, seed uint64) string {
 	const depth = 1.2e-3
 	var b strings.Builder
 	b.WriteString("# invented test data\ntime,flux,flux_err\n")
-	s := seed
-	next := func() float64 {
-		s += 0x9e3779b97f4a7c15
-		z := s
-		z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9
-		z = (z ^ (z >> 27)) * 0x94d049bb133111eb
-		return (float64((z^(z>>31))>>11) + 0.5) / (1 << 53)
-	}
-	for i := 0; i < 960; i++ {
+	next := uniforms(seed)
+	for i := 0; i < days*48; i++ {
 		t := float64(i) / 48
 		f := 1 + 3e-4*math.Sqrt(-2*math.Log(next()))*math.Cos(2*math.Pi*next())
 		if ph := math.Mod(t-0.7, period); ph >= 0 && ph < 0.1 {
