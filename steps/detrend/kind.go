@@ -252,7 +252,49 @@ func checkCurve(lc *lightcurve.LightCurve) error {
 // transits of sigs, on the pool's workers (nil runs serially), and returns the artifact
 // with the facts worth telling the user (the derived gap threshold, points dropped).
 func Detrend(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool *steps.Pool) (*Result, []string) {
+	res, out, notes := trend(cfg, lc, sigs, pool)
+	res.Star = starPeriods(lc, out, res.SplitAtGap, res.Scale, &notes)
+	if n := res.count(robust.NoTrend); n > 0 {
+		notes = append(notes, fmt.Sprintf("%d points dropped: fewer than %d usable points within their window", n, cfg.MinPoints))
+	}
+	return res, notes
+}
+
+// Flatten is Detrend's detrended light curve alone, without the star's periods it
+// measures in the trend for the report and the vet step (on four years of data they cost
+// several times the filter): for a step that detrends many copies of one light curve, such
+// as an injection–recovery. The curve is the same, bit for bit.
+func Flatten(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool *steps.Pool) *lightcurve.LightCurve {
+	res, _, _ := trend(cfg, lc, sigs, pool)
+	return res.Curve
+}
+
+// WithChosenSpan returns cfg with the window Detrend would choose for lc written in, when
+// cfg is the local polynomial's and leaves its span to the data (unmasked); otherwise cfg
+// as it is. A step detrending many copies of one light curve makes the choice, which costs
+// more than the filter, once.
+func WithChosenSpan(cfg Config, lc *lightcurve.LightCurve, pool *steps.Pool) Config {
+	if cfg.span() != 0 {
+		return cfg
+	}
+	series, gap := seriesOf(cfg, lc, nil)
 	var notes []string
+	span, _ := chooseSpan(series, cfg.Degree, false, gap, parOf(pool), &notes)
+	cfg.Span = &span
+	return cfg
+}
+
+// parOf is the pool's Parallel, or nil (serial) for a nil pool.
+func parOf(pool *steps.Pool) parallel.Func {
+	if pool == nil {
+		return nil
+	}
+	return pool.Parallel
+}
+
+// seriesOf turns lc's segments into the filter's series, with the transits of sigs masked,
+// and returns the gap that splits them (the written one, or derived from the cadence).
+func seriesOf(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal) ([]robust.Series, float64) {
 	series := make([]robust.Series, len(lc.Segments))
 	for i, s := range lc.Segments {
 		series[i] = robust.Series{Time: s.Time, Flux: s.Flux, Err: s.Err}
@@ -269,12 +311,22 @@ func Detrend(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool 
 			series[i].Mask = m
 		}
 	}
-	span, gap := cfg.span(), cfg.splitAtGap()
+	gap := cfg.splitAtGap()
 	if gap == 0 {
-		cad := robust.MedianCadence(series)
-		gap = robust.DefaultGap(cad)
+		gap = robust.DefaultGap(robust.MedianCadence(series))
+	}
+	return series, gap
+}
+
+// trend filters lc as cfg says and returns the result without the star's periods, the
+// filter's output and the notes.
+func trend(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool *steps.Pool) (*Result, []robust.Result, []string) {
+	var notes []string
+	series, gap := seriesOf(cfg, lc, sigs)
+	span := cfg.span()
+	if cfg.splitAtGap() == 0 {
 		notes = append(notes, fmt.Sprintf("split_at_gap: %.4g d (the larger of 0.5 d and 20 × the median cadence, %.4g min)",
-			gap, cad*1440))
+			gap, robust.MedianCadence(series)*1440))
 	}
 	rc := robust.Config{
 		Span: span, KnotSpacing: cfg.KnotSpacing, C: cfg.C, FlareSigma: cfg.FlareSigma,
@@ -303,10 +355,7 @@ func Detrend(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool 
 				longest*24, span*24))
 		}
 	}
-	var par parallel.Func
-	if pool != nil {
-		par = pool.Parallel
-	}
+	par := parOf(pool)
 	if rc.Span == 0 {
 		rc.Span, scale = chooseSpan(series, cfg.Degree, len(sigs) > 0, gap, par, &notes)
 	}
@@ -315,11 +364,7 @@ func Detrend(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool 
 	if cfg.Estimator == estLocal {
 		res.Degree = cfg.Degree
 	}
-	res.Star = starPeriods(lc, out, gap, scale, &notes)
-	if n := res.count(robust.NoTrend); n > 0 {
-		notes = append(notes, fmt.Sprintf("%d points dropped: fewer than %d usable points within their window", n, cfg.MinPoints))
-	}
-	return res, notes
+	return res, out, notes
 }
 
 // chooseSpan picks the local polynomial's window from the data (robust.ChooseSpan), for a

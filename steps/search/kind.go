@@ -220,7 +220,7 @@ func Search(cfg Config, lc *lightcurve.LightCurve, par parallel.Func, progress f
 	lo, hi := r[0], r[1]
 	roche := bls.RochePeriod(cfg.Density)
 	if hi == 0 {
-		lo, hi = math.Max(defaultShortest, roche), defaultSpanFraction*span
+		lo, hi = PeriodRange(cfg, span)
 		why := "0.2 d"
 		if roche > defaultShortest {
 			why = fmt.Sprintf("the Roche-type limit of a %.3g g/cm3 star, the orbit at 3 stellar radii", cfg.Density)
@@ -265,6 +265,16 @@ func Search(cfg Config, lc *lightcurve.LightCurve, par parallel.Func, progress f
 		notes = append(notes, fmt.Sprintf("%d signal(s) found; max_signals reached", found))
 	}
 	return art, notes, nil
+}
+
+// PeriodRange returns the trial periods a search with cfg tries on data spanning span days:
+// the written range (its longest no beyond the span), or by default from 0.2 d or the
+// star's Roche-type limit, whichever is longer, to half the span.
+func PeriodRange(cfg Config, span float64) (lo, hi float64) {
+	if cfg.Periods != nil {
+		return cfg.Periods[0], math.Min(cfg.Periods[1], span)
+	}
+	return math.Max(defaultShortest, bls.RochePeriod(cfg.Density)), defaultSpanFraction * span
 }
 
 // minPoints is the fewest points the search accepts.

@@ -3,6 +3,7 @@ package bls
 import (
 	"math"
 	"slices"
+	"sort"
 )
 
 // trendBlocks is the number of consecutive stretches of the frequency grid whose median
@@ -101,12 +102,32 @@ func SDESpectrum(power []float64) []float64 {
 // trend is taken from the cells it marks alone (a pass that computed only some cells
 // exactly; see sparsePass), and every stretch must hold some.
 func detrendedPower(power []float64, have []bool) []float64 {
-	n := len(power)
-	if n < 4*trendBlocks {
+	if len(power) < 4*trendBlocks {
 		return power
 	}
-	centres := make([]float64, trendBlocks)
-	levels := make([]float64, trendBlocks)
+	tr := trendOf(power, have)
+	resid := make([]float64, len(power))
+	for j := range power {
+		resid[j] = power[j] - tr.at(float64(j))
+		if math.IsNaN(resid[j]) {
+			resid[j] = 0
+		}
+	}
+	return resid
+}
+
+// trend is a spectrum's slow trend: the medians of trendBlocks equal stretches of the
+// grid at their centres (fractional grid indices), straight between them and flat beyond
+// the first and last; none (zero everywhere) for a spectrum too short to have one.
+type trend struct{ centres, levels []float64 }
+
+// trendOf measures the trend of power from the cells have marks (all when nil).
+func trendOf(power []float64, have []bool) trend {
+	n := len(power)
+	if n < 4*trendBlocks {
+		return trend{}
+	}
+	tr := trend{centres: make([]float64, trendBlocks), levels: make([]float64, trendBlocks)}
 	scratch := make([]float64, 0, n/trendBlocks+1)
 	for b := 0; b < trendBlocks; b++ {
 		lo, hi := b*n/trendBlocks, (b+1)*n/trendBlocks
@@ -117,31 +138,51 @@ func detrendedPower(power []float64, have []bool) []float64 {
 			}
 		}
 		if len(scratch) > 0 {
-			levels[b] = median(scratch)
+			tr.levels[b] = median(scratch)
 		}
-		centres[b] = float64(lo+hi-1) / 2
+		tr.centres[b] = float64(lo+hi-1) / 2
 	}
-	resid := make([]float64, n)
-	b := 0
-	for j := range power {
-		x := float64(j)
-		for b+1 < trendBlocks-1 && x > centres[b+1] {
-			b++
-		}
-		var level float64
-		switch {
-		case x <= centres[0]:
-			level = levels[0]
-		case x >= centres[trendBlocks-1]:
-			level = levels[trendBlocks-1]
-		default:
-			w := (x - centres[b]) / (centres[b+1] - centres[b])
-			level = levels[b] + w*(levels[b+1]-levels[b])
-		}
-		resid[j] = power[j] - level
-		if math.IsNaN(resid[j]) {
-			resid[j] = 0
-		}
+	return tr
+}
+
+// at is the trend at fractional grid index x.
+func (tr trend) at(x float64) float64 {
+	c, l := tr.centres, tr.levels
+	switch {
+	case len(c) == 0:
+		return 0
+	case x <= c[0]:
+		return l[0]
+	case x >= c[len(c)-1]:
+		return l[len(l)-1]
 	}
-	return resid
+	b := sort.SearchFloat64s(c, x) - 1 // c[b] < x ≤ c[b+1]
+	w := (x - c[b]) / (c[b+1] - c[b])
+	return l[b] + w*(l[b+1]-l[b])
+}
+
+// Noise is a periodogram's background as the SDE measures it: its slow trend, and the
+// median and the robust spread of what is left. A peak elsewhere — in a narrow window
+// searched for one injected planet, say — is scored against it by SDE.
+type Noise struct {
+	grid          Grid
+	trend         trend
+	centre, sigma float64
+}
+
+// NoiseOf measures the background of a pass's power over grid g, as detrendedSDE does.
+func NoiseOf(g Grid, power []float64) Noise {
+	r := detrendedPower(power, nil)
+	centre, sigma := spread(r, nil)
+	return Noise{grid: g, trend: trendOf(power, nil), centre: centre, sigma: sigma}
+}
+
+// SDE is the SDE a peak of power p at frequency f (1/d) has against the background; 0 when
+// the background is flat. At a grid frequency it is SDESpectrum's value for that power.
+func (n Noise) SDE(f, p float64) float64 {
+	if !(n.sigma > 0) {
+		return 0
+	}
+	x := (math.Cbrt(f) - math.Cbrt(n.grid.FMin)) / n.grid.Step
+	return (p - n.trend.at(x) - n.centre) / n.sigma
 }
