@@ -553,7 +553,7 @@ func thresholdSNR(t testing.TB, lc *lightcurve.LightCurve, dcfg detrend.Config, 
 	for i, v := range band {
 		dev[i] = math.Abs(v - med)
 	}
-	return med + scfg.SDEThreshold*1.4826*quantile(dev, 0.5)
+	return med + art.Threshold*1.4826*quantile(dev, 0.5)
 }
 
 // quantile is the q-quantile of v by sorting a copy (nearest rank).

@@ -146,13 +146,19 @@ const refineSteps = 8
 // window's periodogram alone (a threshold no peak reaches, so nothing is refined); its
 // peak is the frequency of the highest SDE against the full
 // grid's noise (reference), not the search's own choice, which a window's trend can move to
-// a lesser peak. When that SDE reaches cfg.SDEThreshold, stage two searches refineSteps
+// a lesser peak. When that SDE reaches the threshold — cfg's, or by default the full
+// grid's (bls.DefaultThreshold), since the peak is judged against its noise — stage two
+// searches refineSteps
 // grid steps either side of the peak to refine its ephemeris. cfg.MaxSignals is not used:
 // a window a few tens of per cent wide holds the planet alone, so a window judges only its
 // strongest peak.
 func windowed(curve *lightcurve.LightCurve, cfg search.Config, lo, hi float64, ref *reference, par parallel.Func) ([]found, float64, float64, error) {
-	threshold := cfg.SDEThreshold
-	cfg.MaxSignals, cfg.SDEThreshold = 1, math.MaxFloat64 // no peak reaches it: nothing is refined
+	threshold := bls.DefaultThreshold(ref.Grid().N)
+	if cfg.SDEThreshold != nil {
+		threshold = *cfg.SDEThreshold
+	}
+	never, floor := math.MaxFloat64, windowFloor // no peak reaches never: nothing is refined
+	cfg.MaxSignals, cfg.SDEThreshold = 1, &never
 	cfg.Periods = &[2]float64{lo, hi}
 	art, _, err := search.Search(cfg, curve, par, nil)
 	if err != nil {
@@ -181,7 +187,7 @@ func windowed(curve *lightcurve.LightCurve, cfg search.Config, lo, hi float64, r
 		pHi = math.Min(hi, 1/fLo)
 	}
 	cfg.Periods = &[2]float64{math.Max(lo, 1/fHi), pHi}
-	cfg.SDEThreshold = windowFloor
+	cfg.SDEThreshold = &floor
 	art, _, err = search.Search(cfg, curve, par, nil)
 	if err != nil {
 		return nil, 0, 0, err

@@ -23,8 +23,10 @@ type Artifact struct {
 	Grid bls.Grid
 	// Cadence is the median spacing of the points searched, days.
 	Cadence float64
-	// Method is how the periodograms were computed (bls.MethodFast or bls.MethodDirect).
-	Method bls.Method
+	// Method is how the periodograms were computed (bls.MethodFast or bls.MethodDirect),
+	// Threshold the SDE a peak had to reach.
+	Method    bls.Method
+	Threshold float64
 	// Passes holds one periodogram per pass; its power and durations are kept at float32
 	// precision (seven digits, ample for plots), which keeps a four-year search's artifact
 	// near 3 MB per pass.
@@ -36,8 +38,8 @@ func newArtifact(lc *lightcurve.LightCurve, r *bls.Result) *Artifact {
 		Frame:   lc.Frame(),
 		Grid:    r.Grid,
 		Cadence: r.Cadence,
-		Method:  r.Method,
-		Passes:  r.Passes,
+		Method:  r.Method, Threshold: r.Threshold,
+		Passes: r.Passes,
 	}
 	for i := range a.Passes {
 		round32(a.Passes[i].Power)
@@ -115,8 +117,8 @@ func (a *Artifact) Figures() []steps.Figure {
 const (
 	tag = "search"
 	// format 2 adds each signal's rival periods and spread over its transits; 3 the method
-	// and whether each pass was sparse.
-	format = 3
+	// and whether each pass was sparse; 4 the threshold.
+	format = 4
 	// maxPasses bounds the passes a decoder accepts (max_signals is at most 20).
 	maxPasses = 64
 )
@@ -135,6 +137,7 @@ func (a *Artifact) Encode() []byte {
 	w.Int(int64(g.N))
 	w.Float(a.Cadence)
 	w.Int(int64(a.Method))
+	w.Float(a.Threshold)
 	w.Uint64(uint64(len(a.Passes)))
 	for _, p := range a.Passes {
 		w.String(packFloat32(p.Power))
@@ -194,6 +197,7 @@ func Decode(b []byte) (*Artifact, error) {
 	n := r.Int()
 	a.Cadence = r.Float()
 	a.Method = bls.Method(r.Int())
+	a.Threshold = r.Float()
 	np := r.Uint64()
 	if r.Err() == nil && a.Method != bls.MethodFast && a.Method != bls.MethodDirect {
 		return nil, fmt.Errorf("search artifact: method %d is not one the search runs", a.Method)

@@ -39,8 +39,9 @@ var _ steps.Typed[Config] = Kind{}
 
 // version is bumped whenever the numbers or the encoding change. 2: each signal's rival
 // periods (P/2, 2P) and spread over its transits, with cautions. 3: the fast fold, sparse
-// later passes, and the SDE against the median and the median absolute deviation.
-const version = 3
+// later passes, and the SDE against the median and the median absolute deviation. 4: the
+// default threshold from the grid's size, kept in the result.
+const version = 4
 
 // Defaults, each with its reason.
 const (
@@ -82,7 +83,7 @@ func (Kind) Doc() string {
 }
 
 // Config is what a search block may say. Defaults are the constants above (and
-// bls.DefaultSDEThreshold), written as a user writes them.
+// bls.DefaultThreshold), written as a user writes them.
 type Config struct {
 	LightCurve steps.Ref `step:"light_curve,required" accepts:"photometry,detrend" doc:"the light curve to search: a photometry step, or (usually) a detrend step"`
 	// Periods is the trial-period range in days; absent, it is derived from the data (see
@@ -92,9 +93,10 @@ type Config struct {
 	Density      float64 `step:"star_density" dim:"density" default:"1 rho_sun" doc:"mean density of the star: it sets the grid's spacing and the transit durations tried at each period (from 0.3 to 1.75 times that of a central transit); by default the Sun's, \"1 rho_sun\""`
 	Oversampling float64 `step:"oversampling" default:"3" doc:"trial frequencies per drift of one transit duration over the data span (Ofir 2014); more finds weak signals a little more surely and costs proportionally more"`
 	MaxSignals   int     `step:"max_signals" default:"3" doc:"the search stops after finding this many signals, each found after masking the ones before"`
-	SDEThreshold float64 `step:"sde_threshold" default:"7.9" doc:"signal detection efficiency a periodogram peak must reach to count as a signal; the default holds white-noise false alarms to about 1 % per star"`
-	MaskFactor   float64 `step:"mask_factor" default:"2" doc:"the stretch masked around each found mid-transit before searching again, in transit durations"`
-	Method       string  `step:"method" choices:"auto|fast_fold|fold_and_scan" default:"auto" doc:"how each periodogram is computed: fast_fold bins the light curve evenly in time and folds all trial periods at once (Staelin 1969), fold_and_scan folds every point at every frequency (for sparse, uneven data it can be the cheaper); auto takes the cheaper, and the run's notes say which ran and why"`
+	// SDEThreshold is absent for the default, which depends on the grid's size.
+	SDEThreshold *float64 `step:"sde_threshold" doc:"signal detection efficiency a periodogram peak must reach to count as a signal; by default from the number of trial frequencies (about 7.1 for a month of data, 7.9 for three months, 8.5 for a year), holding white-noise false alarms to about 1 % per star, and the run says which"`
+	MaskFactor   float64  `step:"mask_factor" default:"2" doc:"the stretch masked around each found mid-transit before searching again, in transit durations"`
+	Method       string   `step:"method" choices:"auto|fast_fold|fold_and_scan" default:"auto" doc:"how each periodogram is computed: fast_fold bins the light curve evenly in time and folds all trial periods at once (Staelin 1969), fold_and_scan folds every point at every frequency (for sparse, uneven data it can be the cheaper); auto takes the cheaper, and the run's notes say which ran and why"`
 }
 
 // method reads the method choice.
@@ -129,8 +131,8 @@ func (Kind) Check(c *Config) error {
 	if n := c.MaxSignals; n < 1 || n > 20 {
 		return steps.Attrf("max_signals", "must be between 1 and 20, not %d", n)
 	}
-	if !(c.SDEThreshold > 0) || !finite(c.SDEThreshold) {
-		return steps.Attrf("sde_threshold", "must be a positive number, not %v", c.SDEThreshold)
+	if c.SDEThreshold != nil && (!(*c.SDEThreshold > 0) || !finite(*c.SDEThreshold)) {
+		return steps.Attrf("sde_threshold", "must be a positive number, not %v", *c.SDEThreshold)
 	}
 	if !(c.MaskFactor >= 1 && c.MaskFactor <= 10) {
 		return steps.Attrf("mask_factor", "must be between 1 and 10 transit durations, not %v", c.MaskFactor)
@@ -243,8 +245,11 @@ func Search(cfg Config, lc *lightcurve.LightCurve, par parallel.Func, progress f
 	}
 	opt := bls.Options{
 		Density: cfg.Density, PeriodMin: lo, PeriodMax: hi, Oversampling: cfg.Oversampling,
-		MaxSignals: cfg.MaxSignals, SDEThreshold: cfg.SDEThreshold, MaskFactor: cfg.MaskFactor,
+		MaxSignals: cfg.MaxSignals, MaskFactor: cfg.MaskFactor,
 		Method: cfg.method(),
+	}
+	if cfg.SDEThreshold != nil {
+		opt.SDEThreshold = *cfg.SDEThreshold
 	}
 	res, err := bls.Search(s, opt, par, progress)
 	if err != nil {
@@ -253,12 +258,15 @@ func Search(cfg Config, lc *lightcurve.LightCurve, par parallel.Func, progress f
 	g := res.Grid
 	notes = append(notes, fmt.Sprintf("grid: %d frequencies uniform in f^(1/3) (Ofir 2014) over %.4g–%.4g d for a star of %.4g g/cm3 (%.3g rho_sun), oversampling %g",
 		g.N, 1/g.FMax, 1/g.FMin, g.Density, g.Density/solarDensity, g.Oversampling), "method: "+res.Why)
+	if cfg.SDEThreshold == nil {
+		notes = append(notes, fmt.Sprintf("sde_threshold: %.2f, for a grid of %d frequencies (white noise reaches it on about 1 %% of stars)", res.Threshold, g.N))
+	}
 	art := newArtifact(lc, res)
 	found := len(art.Signals())
 	last := res.Passes[len(res.Passes)-1]
 	switch {
-	case last.Found == nil && last.SDE < cfg.SDEThreshold:
-		notes = append(notes, fmt.Sprintf("%d signal(s) found; the next peak (%.4g d) has SDE %.2f, below %.3g", found, g.Period(last.Peak), last.SDE, cfg.SDEThreshold))
+	case last.Found == nil && last.SDE < res.Threshold:
+		notes = append(notes, fmt.Sprintf("%d signal(s) found; the next peak (%.4g d) has SDE %.2f, below %.3g", found, g.Period(last.Peak), last.SDE, res.Threshold))
 	case last.Found == nil:
 		notes = append(notes, fmt.Sprintf("%d signal(s) found; the next peak (%.4g d, SDE %.2f) gave no dip on refinement", found, g.Period(last.Peak), last.SDE))
 	default:

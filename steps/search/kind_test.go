@@ -96,7 +96,7 @@ func TestCheckNamesTheAttributeAtFault(t *testing.T) {
 		// Sun's density to the bit.
 		c := cfg.(*Config)
 		if c.Periods != nil || c.periods() != [2]float64{} || c.Density != solarDensity || c.Oversampling != defaultOversampling ||
-			c.MaxSignals != defaultMaxSignals || c.SDEThreshold != bls.DefaultSDEThreshold || c.MaskFactor != defaultMaskFactor {
+			c.MaxSignals != defaultMaxSignals || c.SDEThreshold != nil || c.MaskFactor != defaultMaskFactor {
 			t.Fatalf("defaults decoded as %+v", c)
 		}
 	})

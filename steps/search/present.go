@@ -27,9 +27,9 @@ func (Kind) Present(c *Config, art steps.Artifact, in steps.Inputs) (steps.Prese
 	if !ok || a == nil {
 		return steps.Presentation{}, fmt.Errorf("search: cannot show a %T", art)
 	}
-	threshold, maskFactor := bls.DefaultSDEThreshold, defaultMaskFactor
+	threshold, maskFactor := a.Threshold, defaultMaskFactor
 	if c != nil {
-		threshold, maskFactor = c.SDEThreshold, c.MaskFactor
+		maskFactor = c.MaskFactor
 	}
 	var lc *lightcurve.LightCurve
 	if src, ok := in.Ref("light_curve").(lightcurve.Source); ok {

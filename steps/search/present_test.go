@@ -86,8 +86,8 @@ func TestPresentShowsPeriodogramsFoldsAndSignals(t *testing.T) {
 				}
 			}
 			pl := panelTitled(pr, fmt.Sprintf("Periodogram, pass %d", k+1)).Plots[0]
-			// The threshold is the configuration's, bls.DefaultSDEThreshold by default.
-			if len(pl.HLines) != 1 || pl.HLines[0].Value != bls.DefaultSDEThreshold || !pl.LogX {
+			// The threshold is the one the search used: by default the grid's.
+			if len(pl.HLines) != 1 || pl.HLines[0].Value != bls.DefaultThreshold(art.Grid.N) || pl.HLines[0].Value != art.Threshold || !pl.LogX {
 				t.Errorf("pass %d: marks %+v, log x %v", k+1, pl.HLines, pl.LogX)
 			}
 			// The SDE recomputed from the float32 power agrees with the search's own SDE of

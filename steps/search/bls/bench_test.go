@@ -30,7 +30,7 @@ func fourYears() Series {
 func benchSetup(b *testing.B, thin int) (*prepared, Grid, Options, Series) {
 	s := fourYears()
 	o := Options{Density: benchDensity, PeriodMin: 0.2, PeriodMax: 100, Oversampling: 3,
-		MaxSignals: 1, SDEThreshold: DefaultSDEThreshold, MaskFactor: 2}
+		MaxSignals: 1, MaskFactor: 2}
 	g, err := NewGrid(o.Density, s.Time[len(s.Time)-1]-s.Time[0], o.PeriodMin, o.PeriodMax, o.Oversampling)
 	if err != nil {
 		b.Fatal(err)

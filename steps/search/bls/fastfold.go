@@ -49,7 +49,7 @@ import (
 // 4/3 kept 0.948, 1.5 kept 0.960 and 2 kept 0.979, at 1.3 and 2.3 times the cost (the cost
 // grows as the square of fastBinsPerStep: the bins per period and the trials both grow
 // with it). On white noise the highest SDE of the fast fold's spectrum stays below
-// DefaultSDEThreshold in 99 % of light curves (TestFastFoldNoiseSDE: 99th percentiles 6.27
+// DefaultThreshold in 99 % of light curves (TestFastFoldNoiseSDE: 99th percentiles 6.27
 // to 7.20 over the calibration's five cases, 500 light curves each).
 
 // fastBinsPerStep is the number of bins a transit drifts by between adjacent grid

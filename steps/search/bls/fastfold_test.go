@@ -373,7 +373,7 @@ func TestFastFoldSensitivity(t *testing.T) {
 	}
 }
 
-// TestFastFoldNoiseSDE repeats the white-noise measurement behind DefaultSDEThreshold
+// TestFastFoldNoiseSDE repeats the white-noise measurement behind DefaultThreshold
 // (TestCalibrateSDEThreshold, same cases and seeds) with the fast fold's spectrum, and
 // checks that the threshold still bounds the 99th percentile of the highest SDE. It takes
 // a few minutes; run it with
@@ -403,8 +403,8 @@ func TestFastFoldNoiseSDE(t *testing.T) {
 			})
 			q50, q99 := quantile(v, 0.5), quantile(v, 0.99)
 			t.Logf("%s: %d trials; fast-fold SDE median %.2f, 99%% %.2f, max %.2f", c.name, trials, q50, q99, v[len(v)-1])
-			if q99 > DefaultSDEThreshold {
-				t.Errorf("the 99th percentile %.2f exceeds the default threshold %.1f", q99, DefaultSDEThreshold)
+			if th := caseThreshold(c); q99 > th {
+				t.Errorf("the 99th percentile %.2f exceeds the default threshold %.2f", q99, th)
 			}
 		})
 	}

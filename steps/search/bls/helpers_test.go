@@ -86,5 +86,5 @@ var solarDensity = astro.SolarDensity / astro.GramPerCm3
 // defaultOptions is a search of the given range around a Sun-like star.
 func defaultOptions(pmin, pmax float64) Options {
 	return Options{Density: solarDensity, PeriodMin: pmin, PeriodMax: pmax, Oversampling: 3,
-		MaxSignals: 3, SDEThreshold: DefaultSDEThreshold, MaskFactor: 2}
+		MaxSignals: 3, MaskFactor: 2}
 }

@@ -177,6 +177,9 @@ func NoiseOf(g Grid, power []float64) Noise {
 	return Noise{grid: g, trend: trendOf(power, nil), centre: centre, sigma: sigma}
 }
 
+// Grid is the grid the background was measured over.
+func (n Noise) Grid() Grid { return n.grid }
+
 // SDE is the SDE a peak of power p at frequency f (1/d) has against the background; 0 when
 // the background is flat. At a grid frequency it is SDESpectrum's value for that power.
 func (n Noise) SDE(f, p float64) float64 {

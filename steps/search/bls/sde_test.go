@@ -76,8 +76,8 @@ func TestAStrongSignalsAliasesDoNotHideIt(t *testing.T) {
 	p[777] = 40
 	classic, _ := sde(p)
 	got, peak := detrendedSDE(p)
-	if peak != 777 || classic >= DefaultSDEThreshold || got < 2*DefaultSDEThreshold {
-		t.Errorf("classic SDE %.2f, robust %.2f at %d: want the classic under %.1f and the robust far over it", classic, got, peak, DefaultSDEThreshold)
+	if th := DefaultThreshold(n); peak != 777 || classic >= th || got < 2*th {
+		t.Errorf("classic SDE %.2f, robust %.2f at %d: want the classic under %.2f and the robust far over it", classic, got, peak, DefaultThreshold(n))
 	}
 }
 

@@ -14,7 +14,7 @@ type Options struct {
 	PeriodMin, PeriodMax float64 // trial periods
 	Oversampling         float64 // frequencies per drift of one duration over the span (Ofir 2014)
 	MaxSignals           int     // the search stops after this many accepted signals
-	SDEThreshold         float64 // a peak is accepted when its SDE reaches this
+	SDEThreshold         float64 // a peak is accepted when its SDE reaches this; 0 for DefaultThreshold of the grid
 	MaskFactor           float64 // points within MaskFactor·duration/2 of a found transit are left out of later passes
 	Method               Method  // how the periodograms are computed (MethodAuto: the cheaper)
 }
@@ -26,7 +26,10 @@ type Result struct {
 	// Method is the method that ran and Why says why, in a sentence for the user.
 	Method Method
 	Why    string
-	Passes []Pass
+	// Threshold is the SDE a peak had to reach: the caller's, or DefaultThreshold's for the
+	// grid.
+	Threshold float64
+	Passes    []Pass
 }
 
 // Pass is one periodogram over the points left after masking the signals found before it,
@@ -104,8 +107,8 @@ func Search(s Series, o Options, par parallel.Func, progress func(pass, done, to
 	switch {
 	case o.MaxSignals < 1:
 		return nil, fmt.Errorf("max signals %d is below 1", o.MaxSignals)
-	case !(o.SDEThreshold > 0):
-		return nil, fmt.Errorf("SDE threshold %g is not positive", o.SDEThreshold)
+	case !(o.SDEThreshold >= 0):
+		return nil, fmt.Errorf("SDE threshold %g is negative", o.SDEThreshold)
 	case !(o.MaskFactor >= 1):
 		return nil, fmt.Errorf("mask factor %g is below 1", o.MaskFactor)
 	}
@@ -122,6 +125,10 @@ func Search(s Series, o Options, par parallel.Func, progress func(pass, done, to
 		return nil, err
 	}
 	res.Grid = g
+	res.Threshold = o.SDEThreshold
+	if res.Threshold == 0 {
+		res.Threshold = DefaultThreshold(g.N)
+	}
 	keep := make([]bool, len(s.Time))
 	for i := range keep {
 		keep[i] = true
@@ -146,7 +153,7 @@ func Search(s Series, o Options, par parallel.Func, progress func(pass, done, to
 		}
 		sp, score, peak := pr.sp, pr.score, pr.peak
 		ps := Pass{Power: sp.power, Duration: sp.duration, Peak: peak, SDE: score, Sparse: pr.have != nil}
-		if score >= o.SDEThreshold && sp.power[peak] > 0 {
+		if score >= res.Threshold && sp.power[peak] > 0 {
 			ps.Found = detect(p, g, sp, peak, score, o.MaskFactor)
 		}
 		res.Passes = append(res.Passes, ps)
@@ -225,19 +232,35 @@ func detect(p *prepared, g Grid, sp spectrum, peak int, score, mask float64) *De
 	}
 }
 
-// DefaultSDEThreshold is the SDE a periodogram peak must reach to count as a signal,
-// calibrated on white noise with the grid, durations, method and SDE used here (the fast
-// fold; the SDE against the detrended spectrum's median and its MAD-scaled spread): for
-// each of five kinds of light curve of at most 90 days (30-, 10- and 2-minute cadences,
-// with and without gaps, stars of 1, 4 and 8 solar densities, the default period range,
-// oversampling 3), 2000 seeded light curves of pure white noise were searched and the
-// highest SDE of each kept. The 99th percentiles were 7.05 to 7.89, so 7.9 holds the
-// false-alarm rate from white noise to at most 1 % per star (steps/search/BENCHMARKS.md).
-// Hippke & Heller (2019, A&A 623, A39) found SDE ≈ 7 for 1 % with their search; the value
-// depends on the grid, the durations tried and how the spectrum is normalised, hence our
-// own measurement. Red noise raises the rate: the SNR, which bins the noise to the transit
-// duration, and the vetting step guard against it. The measurement is
-// TestCalibrateSDEThreshold:
+// DefaultThreshold returns the SDE a periodogram peak must reach to count as a signal on a
+// grid of n frequencies, when the caller gives none. The highest SDE of a search over white
+// noise is the largest of more draws on a bigger grid, so a fixed threshold lets more noise
+// through on longer light curves (7.9 let through 5.4 % of one-year light curves around a
+// red dwarf, 90,787 frequencies). For the largest of n Gaussian draws the typical maximum
+// grows as √(2 ln n) (common practice), and the threshold follows that:
 //
-//	DIPLINE_LONG=1 go test ./steps/search/bls -run CalibrateSDE -v -timeout 1h
-const DefaultSDEThreshold = 7.9
+//	T(n) = thresholdBase + thresholdSlope·√(2 ln n),
+//
+// its slope fitted to the 99th percentiles of the highest SDE measured on white noise
+// (the fast fold, the default period range, oversampling 3) from 2456 to 186,590
+// frequencies, and its base raised until every measured percentile lies at or under it, so
+// that noise reaches it on at most about 1 % of stars at every grid size measured
+// (TestCalibrateSDEThreshold, TestCalibrateSDEWithGridSize; steps/search/BENCHMARKS.md).
+// It is 7.06 at 2456 frequencies, 7.94 at 20,588, 8.5 at 90,787 and 8.76 at 186,590. Hippke & Heller
+// (2019, A&A 623, A39) found SDE ≈ 7 for 1 % with their search; the value depends on the
+// grid, the durations tried and how the spectrum is normalised, hence our own measurement.
+// Red noise raises the rate: the SNR, which bins the noise to the transit duration, and
+// the vetting step guard against it.
+func DefaultThreshold(n int) float64 {
+	if n < 2 {
+		n = 2
+	}
+	t := thresholdBase + thresholdSlope*math.Sqrt(2*math.Log(float64(n)))
+	return math.Ceil(t*100) / 100
+}
+
+// The default threshold's two constants (see DefaultThreshold).
+const (
+	thresholdBase  = 0.18
+	thresholdSlope = 1.74
+)

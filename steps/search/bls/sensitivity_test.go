@@ -45,7 +45,7 @@ func TestFastFoldKeepsTheSensitivity(t *testing.T) {
 		signal := synth(uint64(700_000+i), 365, 30.0/1440, 1e-3, 0, d)
 		noise := synth(uint64(800_000+i), 365, 30.0/1440, 1e-3, 0)
 		o := Options{Density: density, PeriodMin: 0.4, PeriodMax: 182, Oversampling: 3,
-			MaxSignals: 1, SDEThreshold: DefaultSDEThreshold, MaskFactor: 2}
+			MaxSignals: 1, MaskFactor: 2}
 		for _, m := range []Method{MethodFast, MethodDirect} {
 			o.Method = m
 			res, err := Search(signal, o, nil, nil)
@@ -59,7 +59,7 @@ func TestFastFoldKeepsTheSensitivity(t *testing.T) {
 				t.Error(err)
 				return
 			}
-			alarm := nres.Passes[0].SDE >= DefaultSDEThreshold
+			alarm := nres.Passes[0].Found != nil || nres.Passes[0].SDE >= nres.Threshold
 			if m == MethodFast {
 				out[i].fast, out[i].fastHarm, out[i].fastNoise = hit, harm, alarm
 			} else {
@@ -92,10 +92,17 @@ func TestFastFoldKeepsTheSensitivity(t *testing.T) {
 	}
 	t.Logf("%d injections (SNR 7–15, 0.4–180 d): fast fold recovers %d, fold-and-scan %d (both %d, fast only %d, fold-and-scan only %d); at a harmonic: %d and %d",
 		n, f, d, both, onlyF, onlyD, fh, dh)
-	t.Logf("%d noise light curves: false alarms at SDE %.1f: fast fold %d, fold-and-scan %d", n, DefaultSDEThreshold, fa, da)
+	t.Logf("%d noise light curves: false alarms at the default threshold (%.2f here): fast fold %d, fold-and-scan %d", n, DefaultThreshold(oneYearGrid().N), fa, da)
 	if float64(f) < 0.98*float64(d) {
 		t.Errorf("the fast fold recovers %d, fold-and-scan %d: more than 2 %% fewer", f, d)
 	}
+}
+
+// oneYearGrid is the grid of the comparison's light curves.
+func oneYearGrid() Grid {
+	s := synth(1, 365, 30.0/1440, 1e-3, 0)
+	g, _ := NewGrid(4*solarDensity, s.Time[len(s.Time)-1]-s.Time[0], 0.4, 182, 3)
+	return g
 }
 
 // recovered says whether the first signal is the injected one (period within 0.5 %, epoch
@@ -141,7 +148,7 @@ func TestAProfileNearZeroFrequencyRefinesWithoutFault(t *testing.T) {
 	for _, s := range []Series{synth(uint64(700_000+i), 365, 30.0/1440, 1e-3, 0, d), synth(uint64(800_000+i), 365, 30.0/1440, 1e-3, 0)} {
 		for _, m := range []Method{MethodFast, MethodDirect} {
 			o := Options{Density: density, PeriodMin: 0.4, PeriodMax: 182, Oversampling: 3,
-				MaxSignals: 1, SDEThreshold: DefaultSDEThreshold, MaskFactor: 2, Method: m}
+				MaxSignals: 1, MaskFactor: 2, Method: m}
 			res, err := Search(s, o, nil, nil)
 			if err != nil {
 				t.Fatal(err)
