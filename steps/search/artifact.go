@@ -116,8 +116,8 @@ func (a *Artifact) Figures() []steps.Figure {
 
 const (
 	tag = "search"
-	// format 2 adds each signal's rival periods and spread over its transits; 3 the method
-	// and whether each pass was sparse; 4 the threshold.
+	// format 2 adds each signal's rival periods and spread over its transits; 3 the method;
+	// 4 the threshold.
 	format = 4
 	// maxPasses bounds the passes a decoder accepts (max_signals is at most 20).
 	maxPasses = 64
@@ -144,7 +144,6 @@ func (a *Artifact) Encode() []byte {
 		w.String(packFloat32(p.Duration))
 		w.Int(int64(p.Peak))
 		w.Float(p.SDE)
-		w.Bool(p.Sparse)
 		w.Bool(p.Found != nil)
 		if d := p.Found; d != nil {
 			for _, x := range []float64{d.Timing.Period, d.Timing.PeriodSigma, d.Timing.Epoch, d.Timing.EpochSigma,
@@ -212,7 +211,6 @@ func Decode(b []byte) (*Artifact, error) {
 		pw, du := r.String(), r.String()
 		p.Peak = int(r.Int())
 		p.SDE = r.Float()
-		p.Sparse = r.Bool()
 		if r.Bool() {
 			d := &bls.Detection{}
 			for _, x := range []*float64{&d.Timing.Period, &d.Timing.PeriodSigma, &d.Timing.Epoch, &d.Timing.EpochSigma,

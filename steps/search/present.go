@@ -95,10 +95,6 @@ func periodogramPanel(a *Artifact, k int, threshold float64) (steps.Panel, steps
 	words += ". Drawn is each trial period's SDE: the best box's power (the square root of its χ² improvement over a flat light curve, best over box lengths and phases), less the spectrum's slow trend, " +
 		"measured from the median in robust standard deviations (1.4826 times the median absolute deviation) over the grid. " +
 		"The result keeps the power (to seven digits); the SDE is recomputed from it by the search's own formula, so the peak may differ from the recorded SDE in the last digits."
-	if p.Sparse {
-		words += fmt.Sprintf(" This pass folded coarsely (bins and trial periods twice as wide) and at full resolution only around the coarse spectrum's %d highest peaks and in a sample of the grid, whose values give the recorded SDE's median and spread; "+
-			"the curve mixes both resolutions, so away from the peaks it lies a little low and its peak may differ from the recorded SDE.", bls.SparseCandidates)
-	}
 	if p.Peak >= 0 && p.Peak < n {
 		plot.Layers = append(plot.Layers, steps.Layer{Label: "highest peak", Style: steps.Emphasised,
 			X: []float64{period[p.Peak]}, Y: []float64{sde[p.Peak]}})

@@ -47,7 +47,7 @@ func noiseSDE(c noiseCase, seed uint64) float64 {
 	}
 	p := prepare(s, nil, s.Cadence())
 	m, _ := choose(MethodAuto, p, g)
-	return firstPass(m, p, g, nil, nil).score
+	return wholePass(m, p, g, nil, nil).score
 }
 
 // noiseSDEs runs trials light curves of case c, seeded base, base+1, …, spread over the

@@ -7,8 +7,7 @@
 // fast fold (fastfold.go), which bins the light curve evenly in time and folds all trial
 // periods between p and p+1 bins at once by Staelin's (1969) algorithm, or fold-and-scan
 // (periodogram.go), which folds every point at every frequency and suits sparse, uneven
-// data; the cheaper is taken unless the caller names one. Later fast passes fold coarsely
-// and refine the highest peaks at full resolution. The highest peak is scored by its signal
+// data; the cheaper is taken unless the caller names one. The highest peak is scored by its signal
 // detection efficiency (SDE) against the spectrum with its slow trend removed, measured in
 // robust standard deviations (sde.go); an accepted peak is refined with the exact, unbinned
 // statistic on a zooming local grid (which gives the period's error), its depth, transits

@@ -69,17 +69,14 @@ const fastBlockPeriods = 16
 type fastSegment struct {
 	dt    float64 // bin width, days
 	nbins int     // bins of the binned series: the span of the points
-	level int     // coarseness: 1 for the full resolution (see fastLevel)
+	level int     // coarseness: 1 for the full resolution (see fullLevel)
 }
 
 // A fast fold's level says how coarse it is: at level L the bins are L times wider than at
 // full resolution and the trials L times further apart, so the butterflies and the box
-// scans both cost about 1/L² as much, and several grid cells share one trial. Passes after
-// the first search at level coarseLevel first (see Search).
-const (
-	fullLevel   = 1
-	coarseLevel = 2
-)
+// scans both cost about 1/L² as much, and several grid cells share one trial. The search
+// folds at fullLevel; coarser levels lost the peaks of short transits (passes.go).
+const fullLevel = 1
 
 // fastBlock is one parallel unit: the grid cells jlo … jhi of one segment, whose periods
 // fall in the integer periods pa … pb (in bins) of that segment.
@@ -185,7 +182,7 @@ func fastSpectrum(p *prepared, g Grid, par parallel.Func, progress func()) (spec
 func fastSpectrumAt(p *prepared, g Grid, par parallel.Func, progress func(), level int) (spectrum, fastStats) {
 	sp := newSpectrum(g.N)
 	segs, blocks := fastPlanAt(p, g, level)
-	return sp, fastBlocks(p, g, par, progress, segs, blocks, nil, sp, nil)
+	return sp, fastBlocks(p, g, par, progress, segs, blocks, sp)
 }
 
 // newSpectrum returns an empty spectrum of n frequencies.
@@ -193,22 +190,13 @@ func newSpectrum(n int) spectrum {
 	return spectrum{power: make([]float64, n), duration: make([]float64, n), centre: make([]float64, n)}
 }
 
-// fastBlocks folds the blocks of a plan listed in only (every block when nil) into sp,
-// each block writing its own cells (those sel selects, every one when sel is nil), and
+// fastBlocks folds every block of a plan into sp, each block writing its own cells, and
 // returns what it did.
-func fastBlocks(p *prepared, g Grid, par parallel.Func, progress func(), segs []fastSegment, blocks []fastBlock, only []int, sp spectrum, sel *selection) fastStats {
-	n := len(blocks)
-	if only != nil {
-		n = len(only)
-	}
-	stats := make([]fastStats, n)
-	par.Run(n, func(i int) {
-		b := i
-		if only != nil {
-			b = only[i]
-		}
+func fastBlocks(p *prepared, g Grid, par parallel.Func, progress func(), segs []fastSegment, blocks []fastBlock, sp spectrum) fastStats {
+	stats := make([]fastStats, len(blocks))
+	par.Run(len(blocks), func(b int) {
 		fs := fastScratches.Get().(*fastScratch)
-		stats[i] = fs.block(p, g, segs[blocks[b].seg], blocks[b], sp, sel)
+		stats[b] = fs.block(p, g, segs[blocks[b].seg], blocks[b], sp)
 		fastScratches.Put(fs)
 		if progress != nil {
 			progress()
@@ -227,7 +215,7 @@ func fastBlocks(p *prepared, g Grid, par parallel.Func, progress func(), segs []
 // box of the trial period nearest to the cell's: the cell of period P lies in integer
 // period per = ⌊P/dt⌋, and its trial is k = round((P/dt − per)·(m−1)), at most half a
 // trial step, and so half a grid step, away.
-func (fs *fastScratch) block(p *prepared, g Grid, s fastSegment, blk fastBlock, sp spectrum, sel *selection) fastStats {
+func (fs *fastScratch) block(p *prepared, g Grid, s fastSegment, blk fastBlock, sp spectrum) fastStats {
 	var st fastStats
 	fs.bin(p, s.dt, s.nbins, blk.pb+1)
 	put := func(j int, bx box) {
@@ -250,10 +238,6 @@ func (fs *fastScratch) block(p *prepared, g Grid, s fastSegment, blk fastBlock, 
 		}
 		m := fastRows(g, s, per)
 		cells := fs.trials(g, s.dt, per, m, j, blk.jlo)
-		if !sel.takes(j, cells) {
-			j -= cells
-			continue
-		}
 		prof := fs.fold(per, m, fs.want)
 		st.folds++
 		nlo, nhi := fastLengths(p, g, per, s.dt)
@@ -264,29 +248,6 @@ func (fs *fastScratch) block(p *prepared, g Grid, s fastSegment, blk fastBlock, 
 		j -= cells
 	}
 	return st
-}
-
-// selection, for a sparse pass, names the grid cells wanted at full resolution (want) and
-// records those computed (have): every cell of an integer period holding a wanted cell.
-// A nil selection takes every cell.
-type selection struct{ want, have []bool }
-
-// takes reports whether the integer period holding cells j, j−1, … j−n+1 is to be folded,
-// and marks those cells as computed when it is.
-func (sel *selection) takes(j, n int) bool {
-	if sel == nil {
-		return true
-	}
-	any := false
-	for i := 0; i < n; i++ {
-		any = any || sel.want[j-i]
-	}
-	if any {
-		for i := 0; i < n; i++ {
-			sel.have[j-i] = true
-		}
-	}
-	return any
 }
 
 // trials lists in fs.want, for the cells j, j−1, … (down to jlo) whose periods P fall in

@@ -99,8 +99,7 @@ func SDESpectrum(power []float64) []float64 {
 
 // detrendedPower returns power less its slow trend (see detrendedSDE), NaN residuals set to
 // 0; a spectrum shorter than 4·trendBlocks is returned as it is. When have is not nil, the
-// trend is taken from the cells it marks alone (a pass that computed only some cells
-// exactly; see sparsePass), and every stretch must hold some.
+// trend is taken from the cells it marks alone, and every stretch must hold some.
 func detrendedPower(power []float64, have []bool) []float64 {
 	if len(power) < 4*trendBlocks {
 		return power

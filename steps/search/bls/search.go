@@ -44,9 +44,7 @@ type Pass struct {
 	// signal detection efficiency against the detrended spectrum (see detrendedSDE).
 	Peak int
 	SDE  float64
-	// Sparse marks a later pass of the fast fold (sparsePass): Power holds full-resolution
-	// values around its highest peaks and in a sample of the grid, coarser ones elsewhere.
-	Sparse bool
+
 	// Found is the signal the peak gave, or nil when it stayed below the SDE threshold or
 	// could not be refined.
 	Found *Detection
@@ -93,10 +91,9 @@ const minPoints = 20
 // Ofir (2014), its highest peak's SDE (against the spectrum's slow trend) against the
 // threshold, refinement of an accepted peak, masking of its transits, and again, until a
 // peak falls below the threshold or MaxSignals signals are found. The periodograms are
-// computed by the fast fold or by fold-and-scan (choose); later fast passes are sparse
-// (sparsePass). par spreads fixed blocks of work over workers (nil: serial); progress, if
-// not nil, is called as blocks end with the pass number (from 0) and how far the pass is,
-// done of progressUnits.
+// computed by the fast fold or by fold-and-scan (choose). par spreads fixed blocks of work
+// over workers (nil: serial); progress, if not nil, is called as blocks end with the pass
+// number (from 0) and how far the pass is, done of progressUnits.
 func Search(s Series, o Options, par parallel.Func, progress func(pass, done, total int)) (*Result, error) {
 	if err := s.Check(); err != nil {
 		return nil, err
@@ -145,14 +142,9 @@ func Search(s Series, o Options, par parallel.Func, progress func(pass, done, to
 		if progress != nil {
 			tick = passProgress(pass, p, g, res.Method, progress)
 		}
-		var pr passResult
-		if pass == 0 || res.Method == MethodDirect {
-			pr = firstPass(res.Method, p, g, par, tick)
-		} else {
-			pr = sparsePass(p, g, par, tick)
-		}
+		pr := wholePass(res.Method, p, g, par, tick)
 		sp, score, peak := pr.sp, pr.score, pr.peak
-		ps := Pass{Power: sp.power, Duration: sp.duration, Peak: peak, SDE: score, Sparse: pr.have != nil}
+		ps := Pass{Power: sp.power, Duration: sp.duration, Peak: peak, SDE: score}
 		if score >= res.Threshold && sp.power[peak] > 0 {
 			ps.Found = detect(p, g, sp, peak, score, o.MaskFactor)
 		}
@@ -176,28 +168,19 @@ func Search(s Series, o Options, par parallel.Func, progress func(pass, done, to
 const progressUnits = 1000
 
 // passProgress returns the tick a pass's blocks call as they end, reporting the pass's
-// progress in progressUnits: its blocks in order for a whole pass; for a sparse pass, its
-// coarse fold's blocks to half way, then its full-resolution blocks (whose number is
-// known only once the candidates are) up to the whole, reckoned against the coarse count.
+// progress in progressUnits.
 func passProgress(pass int, p *prepared, g Grid, m Method, progress func(pass, done, total int)) func() {
 	var mu sync.Mutex // blocks end on several workers
 	done := 0
 	total := (g.N + freqBlock - 1) / freqBlock
-	scale := 1.0
-	switch {
-	case m == MethodDirect:
-	case pass == 0 || fastBlockCount(p, g) < sparseMinBlocks:
+	if m != MethodDirect {
 		total = fastBlockCount(p, g)
-	default:
-		total = fastBlockCountAt(p, g, coarseLevel)
-		scale = 0.5
 	}
 	return func() {
 		mu.Lock()
 		defer mu.Unlock()
 		done++
-		n := min(int(scale*float64(progressUnits)*float64(done)/float64(total)), progressUnits-1)
-		progress(pass, n, progressUnits)
+		progress(pass, min(progressUnits*done/total, progressUnits), progressUnits)
 	}
 }
 
@@ -242,11 +225,12 @@ func detect(p *prepared, g Grid, sp spectrum, peak int, score, mask float64) *De
 //	T(n) = thresholdBase + thresholdSlope·√(2 ln n),
 //
 // its slope fitted to the 99th percentiles of the highest SDE measured on white noise
-// (the fast fold, the default period range, oversampling 3) from 2456 to 186,590
-// frequencies, and its base raised until every measured percentile lies at or under it, so
-// that noise reaches it on at most about 1 % of stars at every grid size measured
-// (TestCalibrateSDEThreshold, TestCalibrateSDEWithGridSize; steps/search/BENCHMARKS.md).
-// It is 7.06 at 2456 frequencies, 7.94 at 20,588, 8.5 at 90,787 and 8.76 at 186,590. Hippke & Heller
+// (the fast fold, the default period range, oversampling 3) from 2456 to 381,143
+// frequencies (a 27-day to a four-year light curve), and its base raised until every
+// measured percentile lies at or under it, so that noise reaches it on at most about 1 %
+// of stars at every grid size measured (TestCalibrateSDEThreshold,
+// TestCalibrateSDEWithGridSize; steps/search/BENCHMARKS.md). It is 7.06 at 2456
+// frequencies, 8.08 at 20,588, 8.73 at 90,787, 9.03 at 186,590 and 9.32 at 381,143. Hippke & Heller
 // (2019, A&A 623, A39) found SDE ≈ 7 for 1 % with their search; the value depends on the
 // grid, the durations tried and how the spectrum is normalised, hence our own measurement.
 // Red noise raises the rate: the SNR, which bins the noise to the transit duration, and
@@ -261,6 +245,6 @@ func DefaultThreshold(n int) float64 {
 
 // The default threshold's two constants (see DefaultThreshold).
 const (
-	thresholdBase  = 0.18
-	thresholdSlope = 1.74
+	thresholdBase  = -0.93
+	thresholdSlope = 2.02
 )
