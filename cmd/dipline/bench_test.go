@@ -189,6 +189,7 @@ func BenchmarkSurvey8Targets(b *testing.B) {
 			f := &folder{t: t, dir: filepath.Join(b.TempDir(), fmt.Sprint(workers))}
 			os.MkdirAll(f.dir, 0o755)
 			f.write("analysis.hcl", workflowText)
+			f.write("lc.csv", lightCurveCSV()) // the template's own light curve
 			var table strings.Builder
 			table.WriteString("id,photometry.raw.files\n")
 			for k, p := range surveyPeriods {
