@@ -134,36 +134,7 @@ func drawPlot(p *steps.Plot, columns int) (dp drawnPlot, err error) {
 		return drawnPlot{}, err
 	}
 
-	pl := plot.New()
-	sans := font.Font{Typeface: "Liberation", Variant: "Sans"}
-	for _, ts := range []*draw.TextStyle{&pl.Title.TextStyle, &pl.X.Label.TextStyle, &pl.Y.Label.TextStyle,
-		&pl.X.Tick.Label, &pl.Y.Tick.Label, &pl.Legend.TextStyle} {
-		ts.Font.Typeface, ts.Font.Variant = sans.Typeface, sans.Variant
-	}
-	pl.Title.TextStyle.Font.Size = vg.Points(11)
-	pl.Title.Text = clean(p.Title)
-	pl.X.Label.Text = clean(p.XLabel)
-	pl.Y.Label.Text = clean(p.YLabel)
-	xr, yr := ranges(p)
-	pl.X.Min, pl.X.Max = xr[0], xr[1]
-	pl.Y.Min, pl.Y.Max = yr[0], yr[1]
-	pl.X.Tick.Marker, pl.Y.Tick.Marker = plainTicks{}, plainTicks{}
-	if p.LogX {
-		pl.X.Scale, pl.X.Tick.Marker = plot.LogScale{}, plot.LogTicks{Prec: -1}
-	}
-	if p.LogY {
-		pl.Y.Scale, pl.Y.Tick.Marker = plot.LogScale{}, plot.LogTicks{Prec: -1}
-	}
-	if p.XReversed {
-		pl.X.Scale = plot.InvertedScale{Normalizer: pl.X.Scale}
-	}
-	if len(p.YTicks) > 0 {
-		ticks := make(plot.ConstantTicks, len(p.YTicks))
-		for i, m := range p.YTicks {
-			ticks[i] = plot.Tick{Value: m.Value, Label: clean(m.Label)}
-		}
-		pl.Y.Tick.Marker = ticks
-	}
+	pl := newAxes(p)
 	pl.Add(&layers{p: p, looks: looks})
 
 	w, h := plotSize(columns)
@@ -220,6 +191,42 @@ func drawPlot(p *steps.Plot, columns int) (dp drawnPlot, err error) {
 		}
 	}
 	return dp, nil
+}
+
+// newAxes returns the plot's axes: fonts, title and labels, the extents of every drawable
+// value, the scales and the ticks (dated rows, when the plot names them).
+func newAxes(p *steps.Plot) *plot.Plot {
+	pl := plot.New()
+	sans := font.Font{Typeface: "Liberation", Variant: "Sans"}
+	for _, ts := range []*draw.TextStyle{&pl.Title.TextStyle, &pl.X.Label.TextStyle, &pl.Y.Label.TextStyle,
+		&pl.X.Tick.Label, &pl.Y.Tick.Label, &pl.Legend.TextStyle} {
+		ts.Font.Typeface, ts.Font.Variant = sans.Typeface, sans.Variant
+	}
+	pl.Title.TextStyle.Font.Size = vg.Points(11)
+	pl.Title.Text = clean(p.Title)
+	pl.X.Label.Text = clean(p.XLabel)
+	pl.Y.Label.Text = clean(p.YLabel)
+	xr, yr := ranges(p)
+	pl.X.Min, pl.X.Max = xr[0], xr[1]
+	pl.Y.Min, pl.Y.Max = yr[0], yr[1]
+	pl.X.Tick.Marker, pl.Y.Tick.Marker = plainTicks{}, plainTicks{}
+	if p.LogX {
+		pl.X.Scale, pl.X.Tick.Marker = plot.LogScale{}, plot.LogTicks{Prec: -1}
+	}
+	if p.LogY {
+		pl.Y.Scale, pl.Y.Tick.Marker = plot.LogScale{}, plot.LogTicks{Prec: -1}
+	}
+	if p.XReversed {
+		pl.X.Scale = plot.InvertedScale{Normalizer: pl.X.Scale}
+	}
+	if len(p.YTicks) > 0 {
+		ticks := make(plot.ConstantTicks, len(p.YTicks))
+		for i, m := range p.YTicks {
+			ticks[i] = plot.Tick{Value: m.Value, Label: clean(m.Label)}
+		}
+		pl.Y.Tick.Marker = ticks
+	}
+	return pl
 }
 
 func layerName(l steps.Layer, i int) string {

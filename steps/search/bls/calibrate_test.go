@@ -4,10 +4,8 @@ import (
 	"fmt"
 	"math"
 	"os"
-	"runtime"
 	"sort"
 	"strconv"
-	"sync"
 	"testing"
 )
 
@@ -54,22 +52,7 @@ func noiseSDE(c noiseCase, seed uint64) float64 {
 // machine's cores; the result is in seed order whatever the scheduling.
 func noiseSDEs(c noiseCase, trials int, base uint64) []float64 {
 	out := make([]float64, trials)
-	var wg sync.WaitGroup
-	next := make(chan int)
-	for w := 0; w < runtime.GOMAXPROCS(0); w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for k := range next {
-				out[k] = noiseSDE(c, base+uint64(k))
-			}
-		}()
-	}
-	for k := range out {
-		next <- k
-	}
-	close(next)
-	wg.Wait()
+	forEach(trials, func(k int) { out[k] = noiseSDE(c, base+uint64(k)) })
 	return out
 }
 

@@ -2,6 +2,8 @@ package bls
 
 import (
 	"math"
+	"runtime"
+	"sync"
 
 	"dipline/steps/internal/astro"
 )
@@ -87,4 +89,25 @@ var solarDensity = astro.SolarDensity / astro.GramPerCm3
 func defaultOptions(pmin, pmax float64) Options {
 	return Options{Density: solarDensity, PeriodMin: pmin, PeriodMax: pmax, Oversampling: 3,
 		MaxSignals: 3, MaskFactor: 2}
+}
+
+// forEach runs fn(0) … fn(n−1) spread over the machine's cores; fn writes its own index's
+// result, so the outcome does not depend on the scheduling.
+func forEach(n int, fn func(i int)) {
+	var wg sync.WaitGroup
+	next := make(chan int)
+	for w := 0; w < runtime.GOMAXPROCS(0); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for i := range next {
+				fn(i)
+			}
+		}()
+	}
+	for i := 0; i < n; i++ {
+		next <- i
+	}
+	close(next)
+	wg.Wait()
 }

@@ -3,9 +3,7 @@ package bls
 import (
 	"math"
 	"os"
-	"runtime"
 	"strconv"
-	"sync"
 	"testing"
 )
 
@@ -67,22 +65,7 @@ func TestFastFoldKeepsTheSensitivity(t *testing.T) {
 			}
 		}
 	}
-	var wg sync.WaitGroup
-	next := make(chan int)
-	for w := 0; w < runtime.GOMAXPROCS(0); w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for i := range next {
-				run(i)
-			}
-		}()
-	}
-	for i := 0; i < n; i++ {
-		next <- i
-	}
-	close(next)
-	wg.Wait()
+	forEach(n, run)
 	var f, d, both, onlyF, onlyD, fh, dh, fa, da int
 	for _, o := range out {
 		f, d = f+b2i(o.fast), d+b2i(o.direct)
