@@ -29,21 +29,21 @@ const trendBlocks = 64
 // the signal: a box of SNR 70 in 20 days reached only 7.2, below the threshold, where its
 // robust SDE is 21. On white noise the two differ by about 8 % (BENCHMARKS.md).
 func detrendedSDE(power []float64) (float64, int) {
-	r := detrendedPower(power, nil)
-	peak := argmax(r, nil)
-	centre, sigma := spread(r, nil)
+	r := detrendedPower(power)
+	peak := argmax(r)
+	centre, sigma := spread(r)
 	if sigma == 0 || peak < 0 {
 		return 0, max(peak, 0)
 	}
 	return (r[peak] - centre) / sigma, peak
 }
 
-// argmax returns the index of the largest value among the cells have marks (all when nil),
-// the lowest on a tie; −1 when there is none.
-func argmax(x []float64, have []bool) int {
+// argmax returns the index of the largest value, the lowest on a tie; −1 when there is
+// none.
+func argmax(x []float64) int {
 	best := -1
 	for j, v := range x {
-		if (have == nil || have[j]) && (best < 0 || v > x[best]) {
+		if best < 0 || v > x[best] {
 			best = j
 		}
 	}
@@ -54,15 +54,9 @@ func argmax(x []float64, have []bool) int {
 // values: 1/Φ⁻¹(3/4) (common practice).
 const madToSigma = 1.482602218505602
 
-// spread returns the median of the cells have marks (all when nil) and their spread
-// σ = 1.4826·MAD; 0, 0 when there are none.
-func spread(x []float64, have []bool) (centre, sigma float64) {
-	v := make([]float64, 0, len(x))
-	for j, xv := range x {
-		if have == nil || have[j] {
-			v = append(v, xv)
-		}
-	}
+// spread returns the median of x and its spread σ = 1.4826·MAD; 0, 0 when x is empty.
+func spread(x []float64) (centre, sigma float64) {
+	v := slices.Clone(x)
 	if len(v) == 0 {
 		return 0, 0
 	}
@@ -85,8 +79,8 @@ func median(v []float64) float64 {
 // largest value is the pass's SDE. It is for showing a periodogram on the scale of the
 // detection threshold; all zeros when the spectrum is flat.
 func SDESpectrum(power []float64) []float64 {
-	r := detrendedPower(power, nil)
-	centre, sigma := spread(r, nil)
+	r := detrendedPower(power)
+	centre, sigma := spread(r)
 	out := make([]float64, len(r))
 	if sigma == 0 {
 		return out
@@ -98,13 +92,12 @@ func SDESpectrum(power []float64) []float64 {
 }
 
 // detrendedPower returns power less its slow trend (see detrendedSDE), NaN residuals set to
-// 0; a spectrum shorter than 4·trendBlocks is returned as it is. When have is not nil, the
-// trend is taken from the cells it marks alone, and every stretch must hold some.
-func detrendedPower(power []float64, have []bool) []float64 {
+// 0; a spectrum shorter than 4·trendBlocks is returned as it is.
+func detrendedPower(power []float64) []float64 {
 	if len(power) < 4*trendBlocks {
 		return power
 	}
-	tr := trendOf(power, have)
+	tr := trendOf(power)
 	resid := make([]float64, len(power))
 	for j := range power {
 		resid[j] = power[j] - tr.at(float64(j))
@@ -120,8 +113,8 @@ func detrendedPower(power []float64, have []bool) []float64 {
 // the first and last; none (zero everywhere) for a spectrum too short to have one.
 type trend struct{ centres, levels []float64 }
 
-// trendOf measures the trend of power from the cells have marks (all when nil).
-func trendOf(power []float64, have []bool) trend {
+// trendOf measures the trend of power.
+func trendOf(power []float64) trend {
 	n := len(power)
 	if n < 4*trendBlocks {
 		return trend{}
@@ -130,15 +123,8 @@ func trendOf(power []float64, have []bool) trend {
 	scratch := make([]float64, 0, n/trendBlocks+1)
 	for b := 0; b < trendBlocks; b++ {
 		lo, hi := b*n/trendBlocks, (b+1)*n/trendBlocks
-		scratch = scratch[:0]
-		for j := lo; j < hi; j++ {
-			if have == nil || have[j] {
-				scratch = append(scratch, power[j])
-			}
-		}
-		if len(scratch) > 0 {
-			tr.levels[b] = median(scratch)
-		}
+		scratch = append(scratch[:0], power[lo:hi]...)
+		tr.levels[b] = median(scratch)
 		tr.centres[b] = float64(lo+hi-1) / 2
 	}
 	return tr
@@ -171,9 +157,9 @@ type Noise struct {
 
 // NoiseOf measures the background of a pass's power over grid g, as detrendedSDE does.
 func NoiseOf(g Grid, power []float64) Noise {
-	r := detrendedPower(power, nil)
-	centre, sigma := spread(r, nil)
-	return Noise{grid: g, trend: trendOf(power, nil), centre: centre, sigma: sigma}
+	r := detrendedPower(power)
+	centre, sigma := spread(r)
+	return Noise{grid: g, trend: trendOf(power), centre: centre, sigma: sigma}
 }
 
 // Grid is the grid the background was measured over.
