@@ -32,16 +32,7 @@ func TestFastFoldKeepsTheSensitivity(t *testing.T) {
 	type outcome struct{ fast, direct, fastHarm, directHarm, fastNoise, directNoise bool }
 	out := make([]outcome, n)
 	run := func(i int) {
-		u := normals{state: uint64(900_000 + i)}
-		per := 0.4 * math.Pow(180/0.4, u.uniform())
-		b := 0.9 * u.uniform()
-		d := dip{period: per, epoch: per * u.uniform()}
-		d.duration = CentralDuration(per, density) * math.Sqrt(1-b*b)
-		snr := 7 + 8*u.uniform()
-		inTransit := 365 / per * d.duration / (30.0 / 1440)
-		d.depth = snr * 1e-3 / math.Sqrt(inTransit)
-		signal := synth(uint64(700_000+i), 365, 30.0/1440, 1e-3, 0, d)
-		noise := synth(uint64(800_000+i), 365, 30.0/1440, 1e-3, 0)
+		d, signal, noise := comparisonCase(i, density)
 		o := Options{Density: density, PeriodMin: 0.4, PeriodMax: 182, Oversampling: 3,
 			MaxSignals: 1, MaskFactor: 2}
 		for _, m := range []Method{MethodFast, MethodDirect} {
@@ -79,6 +70,20 @@ func TestFastFoldKeepsTheSensitivity(t *testing.T) {
 	if float64(f) < 0.98*float64(d) {
 		t.Errorf("the fast fold recovers %d, fold-and-scan %d: more than 2 %% fewer", f, d)
 	}
+}
+
+// comparisonCase is the comparison's i-th pair of one-year light curves at 30 minutes:
+// one with a box of random period (log-uniform, 0.4–180 d), epoch, impact parameter (0–0.9)
+// and SNR (7–15), and one of noise alone.
+func comparisonCase(i int, density float64) (d dip, signal, noise Series) {
+	u := normals{state: uint64(900_000 + i)}
+	per := 0.4 * math.Pow(180/0.4, u.uniform())
+	b := 0.9 * u.uniform()
+	d = dip{period: per, epoch: per * u.uniform()}
+	d.duration = CentralDuration(per, density) * math.Sqrt(1-b*b)
+	snr := 7 + 8*u.uniform()
+	d.depth = snr * 1e-3 / math.Sqrt(365/per*d.duration/(30.0/1440))
+	return d, synth(uint64(700_000+i), 365, 30.0/1440, 1e-3, 0, d), synth(uint64(800_000+i), 365, 30.0/1440, 1e-3, 0)
 }
 
 // oneYearGrid is the grid of the comparison's light curves.
@@ -121,14 +126,8 @@ func b2i(b bool) int {
 func TestAProfileNearZeroFrequencyRefinesWithoutFault(t *testing.T) {
 	const i = 44
 	density := 4 * solarDensity
-	u := normals{state: uint64(900_000 + i)}
-	per := 0.4 * math.Pow(180/0.4, u.uniform())
-	b := 0.9 * u.uniform()
-	d := dip{period: per, epoch: per * u.uniform()}
-	d.duration = CentralDuration(per, density) * math.Sqrt(1-b*b)
-	snr := 7 + 8*u.uniform()
-	d.depth = snr * 1e-3 / math.Sqrt(365/per*d.duration/(30.0/1440))
-	for _, s := range []Series{synth(uint64(700_000+i), 365, 30.0/1440, 1e-3, 0, d), synth(uint64(800_000+i), 365, 30.0/1440, 1e-3, 0)} {
+	_, signal, noise := comparisonCase(i, density)
+	for _, s := range []Series{signal, noise} {
 		for _, m := range []Method{MethodFast, MethodDirect} {
 			o := Options{Density: density, PeriodMin: 0.4, PeriodMax: 182, Oversampling: 3,
 				MaxSignals: 1, MaskFactor: 2, Method: m}
