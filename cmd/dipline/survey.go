@@ -10,6 +10,7 @@ import (
 	"runtime"
 	"strings"
 
+	"dipline/cache"
 	"dipline/workflow/survey"
 )
 
@@ -121,7 +122,9 @@ func (c *cli) surveyArgs(fs *flag.FlagSet, args []string) (*survey.Table, survey
 		fmt.Fprintf(c.err, "dipline %s: %v\n", fs.Name(), err)
 		return nil, survey.Env{}, false
 	}
-	w, ok := c.load(path, nil)
+	// The workflow is a template: its own data files may be placeholders, so it is loaded
+	// with the first target's values, which is how every target will load it.
+	w, ok := c.load(path, t.Targets[0].Overrides)
 	if !ok {
 		return nil, survey.Env{}, false
 	}
@@ -130,7 +133,7 @@ func (c *cli) surveyArgs(fs *flag.FlagSet, args []string) (*survey.Table, survey
 		fmt.Fprintf(c.err, "dipline %s: %v\n", fs.Name(), err)
 		return nil, survey.Env{}, false
 	}
-	return t, survey.Env{Workflow: abs, Registry: c.reg, Access: c.access, Layout: survey.NewLayout(w.Dir, t)}, true
+	return t, survey.Env{Workflow: abs, Registry: c.reg, Access: c.access, Layout: survey.NewLayout(w.Dir, t), StorePath: w.StorePath}, true
 }
 
 func (c *cli) surveyRun(fs *flag.FlagSet, args []string) int {
@@ -175,9 +178,12 @@ func (c *cli) surveyOutcome(states []survey.State) int {
 
 // surveyGather merges the shards into the workflow's store and writes the survey table.
 func (c *cli) surveyGather(t *survey.Table, env survey.Env) int {
-	_, store, code := c.openStoreWith(env.Workflow, true)
-	if code != exitOK {
-		return code
+	store, err := cache.Open(env.StorePath)
+	if err == nil {
+		err = store.CheckFile()
+	}
+	if err != nil {
+		return c.storeFailed("survey merge", err)
 	}
 	res, err := env.Merge(t, store)
 	if err != nil {

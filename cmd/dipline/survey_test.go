@@ -244,3 +244,18 @@ func TestASubmitHandsSlurmOnlyTheChunksNotDone(t *testing.T) {
 		t.Errorf("a submit with every target done: exit %d\n%s", code, out)
 	}
 }
+
+// TestATemplatesOwnFileMayBeAPlaceholder runs a survey whose workflow names a light curve
+// that does not exist: every target sets its own, so the survey loads the workflow as its
+// first target will, runs every target and gathers them into the workflow's store.
+func TestATemplatesOwnFileMayBeAPlaceholder(t *testing.T) {
+	f := newSurveyFolder(t)
+	os.Remove(filepath.Join(f.dir, "lc.csv"))
+	code, out, errs := f.dipline("survey", "run", "targets.csv", "--workers", "2")
+	if code != 0 || !strings.Contains(out, "gathered 8 target stores") {
+		t.Fatalf("survey run with a placeholder file: exit %d\n%s\n%s", code, out, errs)
+	}
+	if rows, _ := surveyTable(t, f); len(rows) != 8 || rows["T-05"]["status"] != "done" {
+		t.Errorf("the table holds %d rows; T-05 is %q", len(rows), rows["T-05"]["status"])
+	}
+}

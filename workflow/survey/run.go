@@ -16,12 +16,14 @@ import (
 )
 
 // Env is what every target's run shares: the workflow file, the step kinds, the folders
-// the user allowed beyond the workflow's own, and the survey's layout.
+// the user allowed beyond the workflow's own, the survey's layout, and the workflow's own
+// store, into which a merge gathers the targets'.
 type Env struct {
-	Workflow string
-	Registry steps.Registry
-	Access   workflow.Access
-	Layout   Layout
+	Workflow  string
+	Registry  steps.Registry
+	Access    workflow.Access
+	Layout    Layout
+	StorePath string
 }
 
 // shardWait is how long a target's run waits for its shard's lock: a shard is one target's
