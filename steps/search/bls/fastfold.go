@@ -69,14 +69,7 @@ const fastBlockPeriods = 16
 type fastSegment struct {
 	dt    float64 // bin width, days
 	nbins int     // bins of the binned series: the span of the points
-	level int     // coarseness: 1 for the full resolution (see fullLevel)
 }
-
-// A fast fold's level says how coarse it is: at level L the bins are L times wider than at
-// full resolution and the trials L times further apart, so the butterflies and the box
-// scans both cost about 1/L² as much, and several grid cells share one trial. The search
-// folds at fullLevel; coarser levels lost the peaks of short transits (passes.go).
-const fullLevel = 1
 
 // fastBlock is one parallel unit: the grid cells jlo … jhi of one segment, whose periods
 // fall in the integer periods pa … pb (in bins) of that segment.
@@ -104,19 +97,14 @@ func gridDrift(g Grid, per float64) float64 {
 // drift at lo over fastBinsPerStep, but never below half the cadence: finer bins would
 // only be partly filled, and the direct fold's phase bins never go below half the
 // cadence either (phaseBins with durationRange's floor).
-func newFastSegment(p *prepared, g Grid, lo float64, level int) fastSegment {
-	dt := math.Max(gridDrift(g, lo)/fastBinsPerStep*float64(level), p.cadence/2)
-	return fastSegment{dt: dt, nbins: int(p.span()/dt) + 1, level: level}
+func newFastSegment(p *prepared, g Grid, lo float64) fastSegment {
+	dt := math.Max(gridDrift(g, lo)/fastBinsPerStep, p.cadence/2)
+	return fastSegment{dt: dt, nbins: int(p.span()/dt) + 1}
 }
 
 // fastPlan cuts the grid into segments a third of an octave wide and each segment into
 // blocks of fastBlockPeriods integer periods. Every grid cell lies in exactly one block.
 func fastPlan(p *prepared, g Grid) ([]fastSegment, []fastBlock) {
-	return fastPlanAt(p, g, fullLevel)
-}
-
-// fastPlanAt is fastPlan at a level of coarseness.
-func fastPlanAt(p *prepared, g Grid, level int) ([]fastSegment, []fastBlock) {
 	var segs []fastSegment
 	var blocks []fastBlock
 	lo := 1 / g.FMax
@@ -129,7 +117,7 @@ func fastPlanAt(p *prepared, g Grid, level int) ([]fastSegment, []fastBlock) {
 			moved = true
 		}
 		if moved {
-			segs = append(segs, newFastSegment(p, g, lo, level))
+			segs = append(segs, newFastSegment(p, g, lo))
 		}
 		s := len(segs) - 1
 		ip := int(per / segs[s].dt)
@@ -148,7 +136,7 @@ func fastPlanAt(p *prepared, g Grid, level int) ([]fastSegment, []fastBlock) {
 // grid's step there is q(f)/(S·OS) = T/(P·S·OS) with T = q·P, so (m−1)·per must reach
 // S·OS/T(P) bins (with a margin of 10⁻³ for rounding).
 func fastRows(g Grid, s fastSegment, per int) int {
-	need := math.Max(float64(s.nbins), g.Baseline/(gridDrift(g, float64(per)*s.dt)*float64(max(s.level, 1)))*(1+1e-3))
+	need := math.Max(float64(s.nbins), g.Baseline/gridDrift(g, float64(per)*s.dt)*(1+1e-3))
 	m := int(math.Ceil(need/float64(per))) + 1
 	return 1 << bits.Len(uint(m-1))
 }
@@ -165,23 +153,15 @@ func fastPeriodogram(p *prepared, g Grid, par parallel.Func, progress func()) sp
 
 // fastBlockCount returns the number of blocks, and so of progress calls, of
 // fastPeriodogram on p over g.
-func fastBlockCount(p *prepared, g Grid) int { return fastBlockCountAt(p, g, fullLevel) }
-
-// fastBlockCountAt is fastBlockCount at a level of coarseness.
-func fastBlockCountAt(p *prepared, g Grid, level int) int {
-	_, blocks := fastPlanAt(p, g, level)
+func fastBlockCount(p *prepared, g Grid) int {
+	_, blocks := fastPlan(p, g)
 	return len(blocks)
 }
 
 // fastSpectrum is fastPeriodogram that also returns what it did.
 func fastSpectrum(p *prepared, g Grid, par parallel.Func, progress func()) (spectrum, fastStats) {
-	return fastSpectrumAt(p, g, par, progress, fullLevel)
-}
-
-// fastSpectrumAt is fastSpectrum at a level of coarseness.
-func fastSpectrumAt(p *prepared, g Grid, par parallel.Func, progress func(), level int) (spectrum, fastStats) {
 	sp := newSpectrum(g.N)
-	segs, blocks := fastPlanAt(p, g, level)
+	segs, blocks := fastPlan(p, g)
 	return sp, fastBlocks(p, g, par, progress, segs, blocks, sp)
 }
 
@@ -273,11 +253,8 @@ func (fs *fastScratch) trials(g Grid, dt float64, per, m, j, jlo int) int {
 // either kind takes about a nanosecond (on the four-year benchmark, 1.25 ns per point and
 // frequency for the direct fold, 1.0 ns per operation for the fast one);
 // BenchmarkFastVersusDirect4yr reports the ratio of the estimates beside the measured one.
-func fastCost(p *prepared, g Grid) (fast, direct float64) { return fastCostAt(p, g, fullLevel) }
-
-// fastCostAt is fastCost with the fast fold at a level of coarseness.
-func fastCostAt(p *prepared, g Grid, level int) (fast, direct float64) {
-	segs, blocks := fastPlanAt(p, g, level)
+func fastCost(p *prepared, g Grid) (fast, direct float64) {
+	segs, blocks := fastPlan(p, g)
 	for _, b := range blocks {
 		s := segs[b.seg]
 		fast += float64(len(p.t))
