@@ -66,6 +66,15 @@ type event struct {
 	w      Window
 }
 
+// doubleSet returns the nights holding two or more observable transits, as a set.
+func (a *Artifact) doubleSet() map[int64]bool {
+	set := make(map[int64]bool, len(a.Doubles))
+	for _, n := range a.Doubles {
+		set[n] = true
+	}
+	return set
+}
+
 // maxDateTicks is the most nights a timeline labels with their dates; beyond it every k-th
 // night is labelled, so the labels do not run into one another.
 const maxDateTicks = 24
@@ -85,10 +94,7 @@ func timelinePlot(a *Artifact) *steps.Plot {
 	up := steps.Layer{Label: "target seen (dark, above the altitude limit)", Style: steps.Spans}
 	pl := &steps.Plot{Title: "Transits seen from the site", XLabel: "hours from local mean midnight",
 		YLabel: "night of", Data: "nights"}
-	double := map[int64]bool{}
-	for _, n := range a.Doubles {
-		double[n] = true
-	}
+	double := a.doubleSet()
 	every := (len(a.Nights) + maxDateTicks - 1) / maxDateTicks
 	for i, n := range a.Nights {
 		row[n.Night] = i
@@ -147,10 +153,7 @@ func nightsData(a *Artifact) steps.Data {
 	col := func(name string) steps.Series { return steps.Series{Name: name, Values: make([]float64, n)} }
 	cols := []steps.Series{col("night_jd"), col("seen_from_jd_utc"), col("seen_to_jd_utc"),
 		col("seen_from_h"), col("seen_to_h"), col("two_or_more_observable")}
-	double := map[int64]bool{}
-	for _, d := range a.Doubles {
-		double[d] = true
-	}
+	double := a.doubleSet()
 	for i, s := range a.Nights {
 		two := 0.0
 		if double[s.Night] {
@@ -178,10 +181,7 @@ func timeline(a *Artifact) *steps.Table {
 			}
 		}
 	}
-	double := map[int64]bool{}
-	for _, n := range a.Doubles {
-		double[n] = true
-	}
+	double := a.doubleSet()
 	keys := make([]int64, 0, len(nights))
 	for n := range nights {
 		keys = append(keys, n)
