@@ -277,7 +277,7 @@ func WithChosenSpan(cfg Config, lc *lightcurve.LightCurve, pool *steps.Pool) Con
 	if cfg.span() != 0 {
 		return cfg
 	}
-	series, gap := seriesOf(cfg, lc, nil)
+	series, gap, _ := seriesOf(cfg, lc, nil)
 	var notes []string
 	span, _ := chooseSpan(series, cfg.Degree, false, gap, parOf(pool), &notes)
 	cfg.Span = &span
@@ -293,9 +293,10 @@ func parOf(pool *steps.Pool) parallel.Func {
 }
 
 // seriesOf turns lc's segments into the filter's series, with the transits of sigs masked,
-// and returns the gap that splits them (the written one, or derived from the cadence).
-func seriesOf(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal) ([]robust.Series, float64) {
-	series := make([]robust.Series, len(lc.Segments))
+// and returns the gap that splits them: the written one, or derived from the median
+// cadence, which it then returns too (0 when the gap is written).
+func seriesOf(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal) (series []robust.Series, gap, cadence float64) {
+	series = make([]robust.Series, len(lc.Segments))
 	for i, s := range lc.Segments {
 		series[i] = robust.Series{Time: s.Time, Flux: s.Flux, Err: s.Err}
 		if len(sigs) > 0 {
@@ -311,22 +312,23 @@ func seriesOf(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal) ([]r
 			series[i].Mask = m
 		}
 	}
-	gap := cfg.splitAtGap()
+	gap = cfg.splitAtGap()
 	if gap == 0 {
-		gap = robust.DefaultGap(robust.MedianCadence(series))
+		cadence = robust.MedianCadence(series)
+		gap = robust.DefaultGap(cadence)
 	}
-	return series, gap
+	return series, gap, cadence
 }
 
 // trend filters lc as cfg says and returns the result without the star's periods, the
 // filter's output and the notes.
 func trend(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool *steps.Pool) (*Result, []robust.Result, []string) {
 	var notes []string
-	series, gap := seriesOf(cfg, lc, sigs)
+	series, gap, cadence := seriesOf(cfg, lc, sigs)
 	span := cfg.span()
-	if cfg.splitAtGap() == 0 {
+	if cfg.splitAtGap() == 0 { // derived from the cadence: say so
 		notes = append(notes, fmt.Sprintf("split_at_gap: %.4g d (the larger of 0.5 d and 20 × the median cadence, %.4g min)",
-			gap, robust.MedianCadence(series)*1440))
+			gap, cadence*1440))
 	}
 	rc := robust.Config{
 		Span: span, KnotSpacing: cfg.KnotSpacing, C: cfg.C, FlareSigma: cfg.FlareSigma,
