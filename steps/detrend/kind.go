@@ -40,7 +40,7 @@ var (
 )
 
 // version is bumped whenever the numbers or the encoding change.
-const version = 4
+const version = 5 // 5: the star's periods from fast transforms on an even grid of bins
 
 // The estimator names written in a workflow.
 const (

@@ -60,7 +60,8 @@ type Options struct {
 	// Shortest and Longest bound the periods, days; by default DefaultShortest and half the
 	// longest piece.
 	Shortest, Longest float64
-	// Oversample is the number of grid frequencies per 1/(longest piece); DefaultOversample.
+	// Oversample is the least number of grid frequencies per 1/(longest piece) (the grid is
+	// made a little finer to suit the fast transforms); DefaultOversample.
 	Oversample float64
 	// FalseAlarm is the probability, for a series without any period, that a peak is kept
 	// (a bound: see Strongest); DefaultFalseAlarm.
@@ -125,8 +126,9 @@ func (o Options) check() error {
 
 // Strongest returns the strongest distinct periods of a pieced series, strongest first.
 //
-// Each piece is averaged in bins of Shortest/20 and gets its own offset and sinusoid at
-// every frequency; the pieces' reductions of χ² are added on one grid, so the power is
+// Each piece is averaged in bins of Shortest/20 on an even grid and gets its own offset and
+// sinusoid at every frequency, whose sums come from fast Fourier transforms
+// (transformed); the pieces' reductions of χ² are added on one grid, so the power is
 // 1 − Σχ²(offset + sinusoid)/Σχ²(offset) over the pieces that span at least two cycles
 // (a spotted star's phase does not hold from one piece to the next, and each piece costs
 // its own length, not the whole baseline's). Peaks are taken strongest first, skipping
@@ -176,6 +178,8 @@ func Variability(pieces []Piece, o Options) (lightcurve.Variability, error) {
 // binned is one piece after binning, ready for the sums.
 type binned struct {
 	*prepared
+	index  []int   // each bin's place on the even grid of bins, counted from the piece's first
+	width  float64 // the bins' width, days
 	length float64 // last minus first time of the raw piece, days
 	neff   float64 // independent values it counts
 }
@@ -194,9 +198,9 @@ func analyse(pieces []Piece, o Options) (*analysis, error) {
 		return nil, err
 	}
 	a := &analysis{}
-	longestPiece := 0.0
+	longestPiece, width := 0.0, o.Shortest/binsPerShortest
 	for j, pc := range pieces {
-		b, err := bin(pc, o.Shortest/binsPerShortest)
+		b, err := bin(pc, width)
 		if err != nil {
 			return nil, fmt.Errorf("periodogram: piece %d: %w", j+1, err)
 		}
@@ -219,24 +223,34 @@ func analyse(pieces []Piece, o Options) (*analysis, error) {
 	if longest <= o.Shortest {
 		return nil, nil
 	}
-	g, err := NewGrid(o.Shortest, longest, longestPiece, o.Oversample)
+	size := transformSize(int(math.Ceil(o.Oversample*longestPiece/width)) + 1)
+	if size > maxTransform {
+		return nil, fmt.Errorf("periodogram: a piece of %.4g d in bins of %.3g d needs a transform of %d values, more than %d; split the series at its gaps", longestPiece, width, size, maxTransform)
+	}
+	// The grid's step is the transform's: 1/(size·width), at most 1/(Oversample·longest piece).
+	g, err := NewGrid(o.Shortest, longest, float64(size)*width, 1)
 	if err != nil {
 		return nil, err
 	}
 	a.grid = g
-	a.power = a.combined()
+	a.power = a.combined(size)
 	a.periods = a.pick(o, longestPiece)
 	return a, nil
 }
 
-// bin averages a piece in bins of width w (each bin's weight its number of points) and
-// centres it. It returns nil for a piece with fewer than 4 bins or no variation.
+// bin averages a piece in bins of width w on an even grid that starts at its first point
+// (each bin's weight its number of points, its time the bin's middle) and centres it. It
+// returns nil for a piece with fewer than 4 bins or no variation. Giving each bin its
+// middle rather than its points' mean time lowers a sinusoid's amplitude by the same
+// sinc(π·w/P) as the averaging itself, and puts the series on the even grid the fast
+// transforms need.
 func bin(pc Piece, w float64) (*binned, error) {
 	if len(pc.Time) != len(pc.Value) {
 		return nil, fmt.Errorf("%d times and %d values", len(pc.Time), len(pc.Value))
 	}
-	var t, y, n []float64
-	first, last, start := math.NaN(), math.NaN(), math.NaN()
+	var idx []int
+	var y, n []float64
+	first, last := math.NaN(), math.NaN()
 	for i, ti := range pc.Time {
 		if math.IsNaN(ti) || math.IsInf(ti, 0) {
 			return nil, fmt.Errorf("time %d is %v", i+1, ti)
@@ -249,30 +263,30 @@ func bin(pc Piece, w float64) (*binned, error) {
 			continue
 		}
 		if math.IsNaN(first) {
-			first, start = ti, ti
+			first = ti
 		}
 		last = ti
-		if len(t) == 0 || ti-start >= w {
-			start = ti
-			t, y, n = append(t, 0), append(y, 0), append(n, 0)
+		j := int(math.Floor((ti - first) / w))
+		if len(idx) == 0 || j != idx[len(idx)-1] {
+			idx, y, n = append(idx, j), append(y, 0), append(n, 0)
 		}
-		k := len(t) - 1
-		t[k] += ti
+		k := len(idx) - 1
 		y[k] += yi
 		n[k]++
 	}
-	if len(t) < 4 {
+	if len(idx) < 4 {
 		return nil, nil
 	}
-	for k := range t {
-		t[k] /= n[k]
+	t := make([]float64, len(idx))
+	for k, j := range idx {
+		t[k] = first + (float64(j)+0.5)*w
 		y[k] /= n[k]
 	}
 	p, err := prepare(Series{Time: t, Value: y, Weight: n}, Floating)
 	if err != nil {
 		return nil, nil // a constant piece says nothing about a period
 	}
-	return &binned{prepared: p, length: last - first, neff: float64(len(t))}, nil
+	return &binned{prepared: p, index: idx, width: w, length: last - first, neff: float64(len(idx))}, nil
 }
 
 // from is the first grid index at which the piece spans minCycles cycles.
@@ -282,21 +296,18 @@ func (b *binned) from(g Grid) int {
 }
 
 // combined is the pieces' power on the grid: the sum of their reductions over the sum of
-// their scatters, each piece counted where it spans minCycles cycles.
-func (a *analysis) combined() []float64 {
+// their scatters, each piece counted where it spans minCycles cycles. The sums at every
+// grid frequency come from fast Fourier transforms of length size (transformed).
+func (a *analysis) combined(size int) []float64 {
 	g := a.grid
 	ex, tot := make([]float64, g.N), make([]float64, g.N)
-	n := 0
-	for _, b := range a.pieces {
-		n = max(n, len(b.t))
-	}
-	sc := newScratch(n)
+	tr := newTransforms(size, g.N)
 	for _, b := range a.pieces {
 		k0 := b.from(g)
 		if k0 >= g.N {
 			continue
 		}
-		b.explained(ex, g, k0, sc)
+		b.transformed(ex, g, k0, tr)
 		for k := k0; k < g.N; k++ {
 			tot[k] += b.total
 		}
