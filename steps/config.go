@@ -40,6 +40,13 @@ type Ref string
 // and hands their bytes to Run in Inputs.Files.
 type Files []string
 
+// SettingsRef names another step whose settings this one uses, written kind.label: the
+// engine hands that step's checked configuration to Run in Inputs.Settings and puts its
+// kind, version and configuration (without that step's own inputs) in this step's key. It
+// does not wait for that step or read its result: a step that reruns another's detrend on
+// data of its own, say, takes the detrend's settings, not a copy of them.
+type SettingsRef string
+
 // Row is a reference to a catalogue row, written catalogue.label["id"]; the field holds it
 // as written, and the engine hands the row's values to Run in Inputs.Rows.
 type RowRef string
@@ -151,7 +158,7 @@ func (p Param) check(pointer bool, t reflect.Type) error {
 		return fmt.Errorf("parameter %q: a %s needs a dim tag", p.Name, p.Type)
 	case !needsDim && p.Dim != nil && p.Type != Number:
 		return fmt.Errorf("parameter %q: a %s takes no dim tag", p.Name, p.Type)
-	case p.Type != StepRef && p.Type != StepRefList && len(p.Kinds) > 0:
+	case p.Type != StepRef && p.Type != StepRefList && p.Type != StepSettings && len(p.Kinds) > 0:
 		return fmt.Errorf("parameter %q: only a reference says what it accepts", p.Name)
 	case len(p.Choices) > 0 && p.Type != String:
 		return fmt.Errorf("parameter %q: only a string has choices", p.Name)
@@ -203,6 +210,8 @@ func typeOfField(f reflect.StructField) (Type, bool, error) {
 		return Measured, pointer, nil
 	case reflect.TypeFor[Ref]():
 		return StepRef, pointer, nil
+	case reflect.TypeFor[SettingsRef]():
+		return StepSettings, pointer, nil
 	case reflect.TypeFor[RowRef]():
 		return CatalogueRow, pointer, nil
 	}

@@ -25,11 +25,12 @@ const (
 	StepRefList               // a list of references
 	Measured                  // a string "value ± sigma unit" of the parameter's Dimension
 	CatalogueRow              // a row of a catalogue block, catalogue.label["id"]
+	StepSettings              // another step's settings, kind.label: its configuration, not its result
 )
 
 func (t Type) String() string {
 	return [...]string{"number", "whole number", "string", "bool", "quantity", "quantity range",
-		"list of strings", "object of strings", "list of files", "step reference", "list of step references", "measurement", "catalogue row"}[t]
+		"list of strings", "object of strings", "list of files", "step reference", "list of step references", "measurement", "catalogue row", "step's settings"}[t]
 }
 
 // Registry maps block types to kinds.

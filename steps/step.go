@@ -190,6 +190,9 @@ type Inputs struct {
 	Refs  map[string][]Artifact
 	Files map[string][]File
 	Rows  map[string]Row
+	// Settings holds, for each settings parameter (SettingsRef), the named step's checked
+	// configuration: a pointer to its kind's configuration struct.
+	Settings map[string]any
 }
 
 // Row is the part of one catalogue row a step reads: the parsed values of the columns its

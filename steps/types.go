@@ -160,6 +160,7 @@ var paramTypes = [...]paramType{
 	StepRefList:   refListType{},
 	Measured:      measurementType{},
 	CatalogueRow:  rowType{},
+	StepSettings:  settingsType{},
 }
 
 // wrong says what an attribute takes and what was written instead.
@@ -529,6 +530,23 @@ func (refListType) read(p *Param, w Written) (any, error) {
 		out = append(out, Ref(e.Str))
 	}
 	return out, nil
+}
+
+type settingsType struct{}
+
+func (settingsType) takes(p *Param) string {
+	return "the settings of " + stepsAccepted(p) + " (kind.label)"
+}
+
+func (settingsType) goType() reflect.Type                   { return reflect.TypeFor[SettingsRef]() }
+func (settingsType) fromTag(t string) (Written, error)      { return noTag(t) }
+func (settingsType) render(_ *Param, v any) string          { return string(v.(SettingsRef)) }
+func (settingsType) key(k KeyWriter, p *Param, _ any) error { return k.Inputs(p.Name) }
+func (settingsType) read(p *Param, w Written) (any, error) {
+	if w.Kind != WrittenRef {
+		return nil, wrong(p, "a step whose settings it uses, written kind.label without quotes", w)
+	}
+	return SettingsRef(w.Str), nil
 }
 
 type rowType struct{}

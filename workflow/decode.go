@@ -220,6 +220,13 @@ func (w *Workflow) written(s *Step, p *steps.Param, expr hcl.Expression) (steps.
 		}
 		s.Refs[p.Name] = []string{addr}
 		return steps.Written{Kind: steps.WrittenRef, Str: addr}, nil
+	case steps.StepSettings:
+		addr, d := refAddr(p.Name, expr)
+		if d != nil {
+			return steps.Written{}, hcl.Diagnostics{d}
+		}
+		s.settingsAddr[p.Name] = addr
+		return steps.Written{Kind: steps.WrittenRef, Str: addr}, nil
 	case steps.StepRefList:
 		exprs, diags := hcl.ExprList(expr) // the library's words are made ours in words.go
 		if diags.HasErrors() {

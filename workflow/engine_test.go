@@ -303,3 +303,25 @@ func TestOverrideIsRecorded(t *testing.T) {
 		t.Fatalf("combine.sum = %v with scale 5, want 53.5", got)
 	}
 }
+
+// A step that takes another's settings gets that step's configuration, and its key follows
+// those settings but not what that step reads: new data for the lender leave the borrower
+// reused, a new scale computes it again.
+func TestAStepTakesAnothersSettingsNotItsResult(t *testing.T) {
+	p := chainProject(t)
+	p.write("analysis.hcl", chain+"\nmimic \"m\" {\n  input = source.a\n  like  = source.b\n}\n")
+	st, rep := p.run()
+	if st["mimic.m"] != StatusComputed || valueOf(t, rep, "mimic.m") != 7.5 { // 3.75 × source.b's scale 2
+		t.Fatalf("first run: mimic.m %s, %v; want computed, 7.5", st["mimic.m"], valueOf(t, rep, "mimic.m"))
+	}
+	p.write("data/b.txt", "11\n")
+	st, _ = p.run()
+	if st["source.b"] != StatusComputed || st["mimic.m"] != StatusReused {
+		t.Errorf("new data for source.b: source.b %s, mimic.m %s; want computed, reused", st["source.b"], st["mimic.m"])
+	}
+	p.write("analysis.hcl", strings.Replace(chain, "scale = 2", "scale = 3", 1)+"\nmimic \"m\" {\n  input = source.a\n  like  = source.b\n}\n")
+	st, rep = p.run()
+	if st["mimic.m"] != StatusComputed || valueOf(t, rep, "mimic.m") != 11.25 {
+		t.Errorf("a new scale: mimic.m %s, %v; want computed, 11.25", st["mimic.m"], valueOf(t, rep, "mimic.m"))
+	}
+}

@@ -2,7 +2,6 @@ package workflow
 
 import (
 	"fmt"
-	"sort"
 	"strings"
 
 	"github.com/hashicorp/hcl/v2"
@@ -35,41 +34,12 @@ func (w *Workflow) resolve() hcl.Diagnostics {
 		for _, p := range s.Kind.Params() {
 			params[p.Name] = p.Kinds
 		}
-		names := make([]string, 0, len(s.Refs))
-		for n := range s.Refs {
-			names = append(names, n)
-		}
-		sort.Strings(names)
 		seen := map[*Step]bool{}
-		for _, name := range names {
-			r := s.attrRanges[name]
+		for _, name := range sortedKeys(s.Refs) {
 			for _, addr := range s.Refs[name] {
-				dep := w.byAddr[addr]
-				if dep == nil {
-					kind, label, _ := strings.Cut(addr, ".")
-					var same []string
-					for _, o := range w.Steps {
-						if o.Kind.Name() == kind {
-							same = append(same, kind+"."+o.Label)
-						}
-					}
-					summary := fmt.Sprintf("%s reads %s for %s, and the workflow has no step %s.", stepName(s), addr, name, addr)
-					detail := suggestRef(addr, w.addresses())
-					if len(same) > 0 {
-						summary = fmt.Sprintf("%s reads %s for %s, and there is no %s step %s.", stepName(s), addr, name, kind, quote(label))
-						detail = suggestRef(addr, same)
-					}
-					diags = append(diags, attrDiag(r, summary, detail))
-					continue
-				}
-				if kinds := params[name]; len(kinds) > 0 && !contains(kinds, dep.Kind.Name()) {
-					diags = append(diags, attrDiag(r,
-						fmt.Sprintf("%s reads %s for %s, but %s takes a %s step, not a %s step.", stepName(s), addr, name, name, strings.Join(kinds, " or "), dep.Kind.Name()), ""))
-					continue
-				}
-				if dep == s {
-					diags = append(diags, attrDiag(r, fmt.Sprintf("%s reads its own result for %s.", stepName(s), name),
-						"A step can only take the results of other steps."))
+				dep, d := w.target(s, name, addr, params[name], "reads", "result")
+				if d != nil {
+					diags = append(diags, d)
 					continue
 				}
 				if !seen[dep] {
@@ -77,6 +47,14 @@ func (w *Workflow) resolve() hcl.Diagnostics {
 					s.Deps = append(s.Deps, dep)
 				}
 			}
+		}
+		for _, name := range sortedKeys(s.settingsAddr) {
+			dep, d := w.target(s, name, s.settingsAddr[name], params[name], "takes the settings of", "settings")
+			if d != nil {
+				diags = append(diags, d)
+				continue
+			}
+			s.Settings[name] = dep
 		}
 	}
 	if diags.HasErrors() {
@@ -95,6 +73,38 @@ func (w *Workflow) resolve() hcl.Diagnostics {
 	}
 	w.Order = order
 	return nil
+}
+
+// target finds the step s names at addr for parameter name (which accepts kinds, or any
+// kind when empty), or says in a diagnostic why it cannot: no such step, a step of another
+// kind, or s itself. verb and what word the messages ("reads", "result").
+func (w *Workflow) target(s *Step, name, addr string, kinds []string, verb, what string) (*Step, *hcl.Diagnostic) {
+	r := s.attrRanges[name]
+	dep := w.byAddr[addr]
+	switch {
+	case dep == nil:
+		kind, label, _ := strings.Cut(addr, ".")
+		var same []string
+		for _, o := range w.Steps {
+			if o.Kind.Name() == kind {
+				same = append(same, kind+"."+o.Label)
+			}
+		}
+		summary := fmt.Sprintf("%s %s %s for %s, and the workflow has no step %s.", stepName(s), verb, addr, name, addr)
+		detail := suggestRef(addr, w.addresses())
+		if len(same) > 0 {
+			summary = fmt.Sprintf("%s %s %s for %s, and there is no %s step %s.", stepName(s), verb, addr, name, kind, quote(label))
+			detail = suggestRef(addr, same)
+		}
+		return nil, attrDiag(r, summary, detail)
+	case len(kinds) > 0 && !contains(kinds, dep.Kind.Name()):
+		return nil, attrDiag(r, fmt.Sprintf("%s %s %s for %s, but %s takes a %s step, not a %s step.",
+			stepName(s), verb, addr, name, name, strings.Join(kinds, " or "), dep.Kind.Name()), "")
+	case dep == s:
+		return nil, attrDiag(r, fmt.Sprintf("%s %s its own %s for %s.", stepName(s), verb, what, name),
+			"A step can only take the "+strings.TrimSuffix(what, "s")+"s of other steps.")
+	}
+	return dep, nil
 }
 
 // topoOrder returns the steps so that each comes after its dependencies, keeping file

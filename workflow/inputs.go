@@ -7,7 +7,11 @@ import "dipline/steps"
 // of its files and its catalogue rows. A run, a recomputation and an inspection all build
 // a step's inputs here.
 func stepInputs(s *Step, ref func(addr string) steps.Artifact) steps.Inputs {
-	in := steps.Inputs{Refs: map[string][]steps.Artifact{}, Files: map[string][]steps.File{}, Rows: map[string]steps.Row{}}
+	in := steps.Inputs{Refs: map[string][]steps.Artifact{}, Files: map[string][]steps.File{},
+		Rows: map[string]steps.Row{}, Settings: map[string]any{}}
+	for name, dep := range s.Settings {
+		in.Settings[name] = dep.Config
+	}
 	for name, row := range s.Rows {
 		in.Rows[name] = row.Row()
 	}

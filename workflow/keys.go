@@ -48,6 +48,9 @@ func (k stepKeyWriter) Inputs(param string) error {
 		k.row(in)
 		return nil
 	}
+	if dep := k.s.Settings[param]; dep != nil {
+		return settingsKey(k.keyRecord, dep)
+	}
 	if files, ok := k.s.Files[param]; ok {
 		k.u64(uint64(len(files)))
 		for _, f := range files {
@@ -67,9 +70,27 @@ func (k stepKeyWriter) Inputs(param string) error {
 	return nil
 }
 
+// settingsKey encodes the settings another step lends: its kind and version and its
+// configuration without its own inputs (what it reads is its business, not the borrower's).
+func settingsKey(k *keyRecord, dep *Step) error {
+	k.str("settings")
+	k.str(dep.Kind.Name())
+	k.u64(uint64(dep.Kind.Version()))
+	return dep.Kind.Schema().Key(settingsWriter{k}, dep.Config)
+}
+
+// settingsWriter writes a lent configuration: its values, and for its references, files
+// and rows nothing but a mark.
+type settingsWriter struct{ *keyRecord }
+
+func (k settingsWriter) Str(s string)              { k.str(s) }
+func (k settingsWriter) U64(v uint64)              { k.u64(v) }
+func (k settingsWriter) F64(v float64)             { k.f64(v) }
+func (k settingsWriter) Inputs(param string) error { k.str("input"); return nil }
+
 // StepKey computes a step's key from its kind and version, its decoded configuration with
-// defaults applied, the result keys of the steps it references, the digests of the files it
-// reads, its seed when its kind draws random numbers, and the numerics tag. Attribute
+// defaults applied, the result keys of the steps it references, the settings of the steps
+// it takes settings from, the digests of the files it reads, its seed when its kind draws random numbers, and the numerics tag. Attribute
 // order, formatting, comments and writing a default out do not change it.
 func (w *Workflow) StepKey(s *Step, upstream map[string]cache.ResultKey) (cache.StepKey, error) {
 	k := &keyRecord{}

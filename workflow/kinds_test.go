@@ -139,6 +139,24 @@ func (floor) Run(ctx context.Context, cfg *floorConfig, in steps.Inputs, env ste
 	return toyNum(math.Floor(float64(in.Ref("input").(toyNum)))), nil
 }
 
+// mimic scales its input as a source step's settings say, without that step's result.
+type mimic struct{ toyBase }
+
+func (mimic) Name() string { return "mimic" }
+func (mimic) Doc() string  { return "scales like a source" }
+
+type mimicConfig struct {
+	Input steps.Ref         `step:"input,required"`
+	Like  steps.SettingsRef `step:"like,required" accepts:"source"`
+}
+
+func (mimic) Check(*mimicConfig) error { return nil }
+func (mimic) Run(ctx context.Context, cfg *mimicConfig, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
+	calls.add("mimic")
+	like := in.Settings["like"].(*sourceConfig)
+	return toyNum(float64(in.Ref("input").(toyNum)) * like.Scale), nil
+}
+
 // noisy adds a number drawn from its seed.
 type noisy struct{ toyBase }
 
@@ -285,7 +303,7 @@ func (judge) Run(ctx context.Context, cfg *oneInput, in steps.Inputs, env steps.
 func toyRegistry() steps.Registry {
 	r, err := steps.NewRegistry(steps.Define[sourceConfig](source{}), steps.Define[combineConfig](combine{}),
 		steps.Define[floorConfig](floor{}), steps.Define[oneInput](noisy{}), steps.Define[troubleConfig](trouble{}),
-		steps.Define[lookupConfig](lookup{}), steps.Define[oneInput](judge{}))
+		steps.Define[lookupConfig](lookup{}), steps.Define[oneInput](judge{}), steps.Define[mimicConfig](mimic{}))
 	if err != nil {
 		panic(err)
 	}

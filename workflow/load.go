@@ -88,6 +88,11 @@ type Step struct {
 	Files map[string][]*FileInput
 	// Rows maps a CatalogueRow parameter to the row it reads.
 	Rows map[string]*RowInput
+	// Settings maps a settings parameter (steps.SettingsRef) to the step whose
+	// configuration it takes. That step is not a dependency: its result is not read.
+	Settings map[string]*Step
+
+	settingsAddr map[string]string // the settings parameters' addresses as written
 
 	block      hcl.Range
 	attrRanges map[string]hcl.Range
@@ -244,7 +249,7 @@ func (w *Workflow) decodeBlocks(blocks hcl.Blocks, reg steps.Registry, path stri
 // decodeStepBlock reads one step block under a label that is a name and new.
 func (w *Workflow) decodeStepBlock(b *hcl.Block, kind steps.Kind) hcl.Diagnostics {
 	s := &Step{Kind: kind, Label: b.Labels[0], Addr: b.Type + "." + b.Labels[0], block: b.DefRange,
-		Refs: map[string][]string{}, Files: map[string][]*FileInput{}, Rows: map[string]*RowInput{}, attrRanges: map[string]hcl.Range{}}
+		Refs: map[string][]string{}, Files: map[string][]*FileInput{}, Rows: map[string]*RowInput{}, Settings: map[string]*Step{}, settingsAddr: map[string]string{}, attrRanges: map[string]hcl.Range{}}
 	if !hclsyntax.ValidIdentifier(s.Label) {
 		return hcl.Diagnostics{{Severity: hcl.DiagError,
 			Summary: fmt.Sprintf("The label %s cannot name a step, as other steps could not refer to it as %s.<label>.", quote(s.Label), b.Type),
