@@ -73,11 +73,12 @@ var (
 	bucketProvenance = []byte("provenance") // step key (32 bytes) → engine's record, opaque
 	bucketRuns       = []byte("runs")       // run id → Run as JSON
 	bucketPins       = []byte("pins")       // run id → note
+	bucketParts      = []byte("parts")      // part key (32 bytes) → SHA-256 of the part, the part
 
 	keyFormat = []byte("format")
 )
 
-var allBuckets = [][]byte{bucketMeta, bucketSteps, bucketResults, bucketProvenance, bucketRuns, bucketPins}
+var allBuckets = [][]byte{bucketMeta, bucketSteps, bucketResults, bucketProvenance, bucketRuns, bucketPins, bucketParts}
 
 // Store is a content store in one bbolt file. It holds only the path; it is safe for
 // concurrent use by several goroutines and processes (each call is one bbolt transaction).
@@ -230,6 +231,7 @@ type Stats struct {
 	Provenance  int   // provenance records
 	Runs        int   // run records
 	Pins        int   // pinned runs
+	Parts       int   // finished parts of steps' work (PutPart)
 	FileBytes   int64 // size of the database file (0 if not created yet)
 }
 
@@ -241,6 +243,7 @@ func (s *Store) Stats() (Stats, error) {
 		st.Provenance = count(tx, bucketProvenance)
 		st.Runs = count(tx, bucketRuns)
 		st.Pins = count(tx, bucketPins)
+		st.Parts = count(tx, bucketParts)
 		if b := tx.Bucket(bucketResults); b != nil {
 			return b.ForEach(func(k, v []byte) error {
 				st.Results++

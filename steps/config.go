@@ -71,6 +71,9 @@ type Param struct {
 	Default string
 	// Required attributes must be written.
 	Required bool
+	// ChoosesParts marks an attribute that only chooses which pieces of the step's work are
+	// made (tag reuse:"parts"): it is in the step key but not in the pieces' keys (Parts).
+	ChoosesParts bool
 
 	field []int // the field's index path in the configuration struct
 }
@@ -141,6 +144,13 @@ func paramOf(f reflect.StructField, tag string) (Param, error) {
 	}
 	if a := f.Tag.Get("accepts"); a != "" {
 		p.Kinds = strings.Split(a, ",")
+	}
+	switch r := f.Tag.Get("reuse"); r {
+	case "":
+	case "parts":
+		p.ChoosesParts = true
+	default:
+		return p, fmt.Errorf("parameter %q: unknown reuse %q (the only one is parts)", name, r)
 	}
 	if c := f.Tag.Get("choices"); c != "" {
 		p.Choices = strings.Split(c, "|")
@@ -288,8 +298,17 @@ func (p *Param) Value(cfg any) (any, bool) {
 // Key appends the configuration's canonical encoding to a step key: every parameter in
 // name order, absent ones marked as such, each present one tagged with its type and encoded
 // by it. Attribute order, formatting, comments and writing a default out do not change it.
-func (s *Schema) Key(k KeyWriter, cfg any) error {
+func (s *Schema) Key(k KeyWriter, cfg any) error { return s.key(k, cfg, false) }
+
+// PartsKey is Key without the attributes that only choose which pieces are made
+// (Param.ChoosesParts): what every piece of the step's work depends on.
+func (s *Schema) PartsKey(k KeyWriter, cfg any) error { return s.key(k, cfg, true) }
+
+func (s *Schema) key(k KeyWriter, cfg any, parts bool) error {
 	for _, p := range s.sorted() {
+		if parts && p.ChoosesParts {
+			continue
+		}
 		k.Str(p.Name)
 		v, ok := p.Value(cfg)
 		if !ok {

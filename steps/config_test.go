@@ -108,6 +108,9 @@ type (
 	requiredPointer struct {
 		A *int `step:"a,required"`
 	}
+	unknownReuse struct {
+		A int `step:"a" default:"1" reuse:"all"`
+	}
 )
 
 type typedKind[C any] struct{}
@@ -135,6 +138,7 @@ func TestRegistrationRefusesMalformedConfigurations(t *testing.T) {
 		{"a name that is not snake case", Define[badName](typedKind[badName]{}), "snake case"},
 		{"a field of no parameter type", Define[unknownType](typedKind[unknownType]{}), "not a parameter type"},
 		{"a required pointer", Define[requiredPointer](typedKind[requiredPointer]{}), "required"},
+		{"a reuse tag of no meaning", Define[unknownReuse](typedKind[unknownReuse]{}), "unknown reuse"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			_, err := NewRegistry(tc.kind)

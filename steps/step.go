@@ -256,6 +256,25 @@ type Env struct {
 	Notef func(format string, args ...any)
 	// Progress reports done out of total units of work; it may be nil.
 	Progress func(done, total int)
+	// Parts keeps finished pieces of the step's work between runs; it may be nil (a
+	// recomputation for a referee, a test): then every piece is computed.
+	Parts Parts
+}
+
+// Parts keeps the finished pieces of a step whose result is made of many independent ones
+// (an injection–recovery's injections), so that a run asking for more pieces, or a run
+// stopped half-way and started again, computes only the pieces it lacks. The engine keys
+// each piece by everything the step's result depends on except the attributes tagged
+// reuse:"parts" (those that only choose which pieces are made, such as a grid's extent),
+// together with the key the kind gives, which must name the piece completely (its
+// parameters, written exactly). A piece must be the same bytes whether it was stored or
+// computed, so the result does not depend on what was found.
+type Parts interface {
+	// Get returns the piece stored under key, if any.
+	Get(key []byte) ([]byte, bool)
+	// Put stores a finished piece under key. A piece that cannot be stored is only a head
+	// start lost; the engine notes it.
+	Put(key, piece []byte)
 }
 
 // Note calls Notef when it is set.

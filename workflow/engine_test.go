@@ -325,3 +325,24 @@ func TestAStepTakesAnothersSettingsNotItsResult(t *testing.T) {
 		t.Errorf("a new scale: mimic.m %s, %v; want computed, 11.25", st["mimic.m"], valueOf(t, rep, "mimic.m"))
 	}
 }
+
+// A step's finished pieces outlive its result: asking for more pieces computes only the
+// new ones and gives what a fresh run gives; a setting every piece depends on computes
+// them all again.
+func TestMorePiecesReuseTheFinishedOnes(t *testing.T) {
+	p := newProject(t, map[string]string{"analysis.hcl": "analysis \"toy\" {\n  seed = 1\n}\ntally \"t\" {\n  count = 3\n}\n"})
+	_, rep := p.run()
+	if n := calls.reset()["tally-piece"]; n != 3 || valueOf(t, rep, "tally.t") != 3 {
+		t.Fatalf("first run: %d pieces computed, sum %v; want 3 and 0+1+2", n, valueOf(t, rep, "tally.t"))
+	}
+	p.write("analysis.hcl", "analysis \"toy\" {\n  seed = 1\n}\ntally \"t\" {\n  count = 5\n}\n")
+	st, rep := p.run()
+	if n := calls.reset()["tally-piece"]; n != 2 || st["tally.t"] != StatusComputed || valueOf(t, rep, "tally.t") != 10 {
+		t.Errorf("five pieces: %d computed, step %s, sum %v; want 2, computed, 10", n, st["tally.t"], valueOf(t, rep, "tally.t"))
+	}
+	p.write("analysis.hcl", "analysis \"toy\" {\n  seed = 1\n}\ntally \"t\" {\n  count = 5\n  scale = 2\n}\n")
+	_, rep = p.run()
+	if n := calls.reset()["tally-piece"]; n != 5 || valueOf(t, rep, "tally.t") != 20 {
+		t.Errorf("a new scale: %d pieces computed, sum %v; want 5 and 20", n, valueOf(t, rep, "tally.t"))
+	}
+}

@@ -93,19 +93,36 @@ func (k settingsWriter) Inputs(param string) error { k.str("input"); return nil 
 // it takes settings from, the digests of the files it reads, its seed when its kind draws random numbers, and the numerics tag. Attribute
 // order, formatting, comments and writing a default out do not change it.
 func (w *Workflow) StepKey(s *Step, upstream map[string]cache.ResultKey) (cache.StepKey, error) {
+	b, err := w.keyOf(s, upstream, keyFormat, s.Kind.Schema().Key)
+	return cache.StepKey(b), err
+}
+
+// partsFormat tags the record behind the key of a step's finished pieces (steps.Parts).
+const partsFormat = "dipline-parts-key/1"
+
+// partsBase is what every finished piece of s's work depends on: its step key's record
+// without the attributes that only choose which pieces are made.
+func (w *Workflow) partsBase(s *Step, upstream map[string]cache.ResultKey) ([32]byte, error) {
+	return w.keyOf(s, upstream, partsFormat, s.Kind.Schema().PartsKey)
+}
+
+// keyOf hashes the record of s's kind, version, numerics tag, configuration (as config
+// writes it) and seed under the format tag.
+func (w *Workflow) keyOf(s *Step, upstream map[string]cache.ResultKey, format string,
+	config func(steps.KeyWriter, any) error) ([32]byte, error) {
 	k := &keyRecord{}
-	k.str(keyFormat)
+	k.str(format)
 	k.str(s.Kind.Name())
 	k.u64(uint64(s.Kind.Version()))
 	k.str(numericsTag)
-	if err := s.Kind.Schema().Key(stepKeyWriter{k, s, upstream}, s.Config); err != nil {
-		return cache.StepKey{}, err
+	if err := config(stepKeyWriter{k, s, upstream}, s.Config); err != nil {
+		return [32]byte{}, err
 	}
 	if s.Kind.Random() {
 		k.str("seed")
 		k.u64(w.StepSeed(s))
 	}
-	return cache.StepKey(sha256.Sum256(k.buf)), nil
+	return sha256.Sum256(k.buf), nil
 }
 
 // StepSeed derives a step's seed from the workflow seed and the step's address, so that

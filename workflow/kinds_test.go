@@ -157,6 +157,36 @@ func (mimic) Run(ctx context.Context, cfg *mimicConfig, in steps.Inputs, env ste
 	return toyNum(float64(in.Ref("input").(toyNum)) * like.Scale), nil
 }
 
+// tally adds count pieces, piece i being i × scale, each kept in the step's parts; calls
+// counts the pieces it computes as "tally-piece".
+type tally struct{ toyBase }
+
+func (tally) Name() string { return "tally" }
+func (tally) Doc() string  { return "adds pieces" }
+
+type tallyConfig struct {
+	Count int     `step:"count,required" reuse:"parts"`
+	Scale float64 `step:"scale" default:"1"`
+}
+
+func (tally) Check(*tallyConfig) error { return nil }
+func (tally) Run(ctx context.Context, cfg *tallyConfig, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
+	sum := 0.0
+	for i := 0; i < cfg.Count; i++ {
+		key := binary.LittleEndian.AppendUint64(nil, uint64(i))
+		var piece float64
+		if b, ok := env.Parts.Get(key); ok && len(b) == 8 {
+			piece = math.Float64frombits(binary.LittleEndian.Uint64(b))
+		} else {
+			calls.add("tally-piece")
+			piece = float64(i) * cfg.Scale
+			env.Parts.Put(key, binary.LittleEndian.AppendUint64(nil, math.Float64bits(piece)))
+		}
+		sum += piece
+	}
+	return toyNum(sum), nil
+}
+
 // noisy adds a number drawn from its seed.
 type noisy struct{ toyBase }
 
@@ -303,7 +333,7 @@ func (judge) Run(ctx context.Context, cfg *oneInput, in steps.Inputs, env steps.
 func toyRegistry() steps.Registry {
 	r, err := steps.NewRegistry(steps.Define[sourceConfig](source{}), steps.Define[combineConfig](combine{}),
 		steps.Define[floorConfig](floor{}), steps.Define[oneInput](noisy{}), steps.Define[troubleConfig](trouble{}),
-		steps.Define[lookupConfig](lookup{}), steps.Define[oneInput](judge{}), steps.Define[mimicConfig](mimic{}))
+		steps.Define[lookupConfig](lookup{}), steps.Define[oneInput](judge{}), steps.Define[mimicConfig](mimic{}), steps.Define[tallyConfig](tally{}))
 	if err != nil {
 		panic(err)
 	}

@@ -352,6 +352,9 @@ func (r *runner) compute(ctx context.Context, s *Step, o *Outcome, upstream map[
 		notes = append(notes, fmt.Sprintf(format, args...))
 		notesMu.Unlock()
 	}, r.progress(s))
+	if base, err := r.w.partsBase(s, upstream); err == nil {
+		env.Parts = &stepParts{store: r.store, base: base, notef: env.Notef}
+	}
 	if err := r.pool.Acquire(ctx); err != nil {
 		r.skip(o, CauseStopped, r.stopReason(ctx, false))
 		return

@@ -175,7 +175,7 @@ var provoked = []struct {
 	{"Unsupported argument", "analysis \"toy\" {\n  seed = 1\n  stor = \"s.db\"\n}\n", 3,
 		[]string{`analysis "toy" has no setting "stor". Did you mean "store"? The analysis block takes seed, store and output.`}},
 	{"Unsupported block type", "sorce \"a\" {\n  files = \"x.txt\"\n}\n", 4,
-		[]string{`A workflow has no block "sorce". Did you mean "source"? Its blocks are analysis, catalogue and the step kinds: combine, floor, judge, lookup, mimic, noisy, source and trouble (dipline kinds describes each).`}},
+		[]string{`A workflow has no block "sorce". Did you mean "source"? Its blocks are analysis, catalogue and the step kinds: combine, floor, judge, lookup, mimic, noisy, source, tally and trouble (dipline kinds describes each).`}},
 	{"Unsupported block type", "source \"a\" {\n  files = \"x.txt\"\n  inner {\n  }\n}\n", 6,
 		[]string{`source "a" holds a block "inner", and a block in a workflow holds settings only. Write each setting as name = value.`}},
 	{"Unsupported block type", "source \"a\" {\n  files = \"x.txt\"\n  scale {\n  }\n}\n", 6,

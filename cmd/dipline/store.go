@@ -122,6 +122,9 @@ func (c *cli) storeStats(fs *flag.FlagSet, args []string) int {
 	fmt.Fprintf(c.out, "results    %d (%s)\n", st.Results, bytesText(st.ResultBytes))
 	fmt.Fprintf(c.out, "step keys  %d, with %d provenance records\n", st.StepKeys, st.Provenance)
 	fmt.Fprintf(c.out, "runs       %d, %d pinned\n", st.Runs, st.Pins)
+	if st.Parts > 0 {
+		fmt.Fprintf(c.out, "parts      %d finished pieces of steps' work, kept for their next run\n", st.Parts)
+	}
 	return exitOK
 }
 
