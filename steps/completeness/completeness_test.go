@@ -246,7 +246,8 @@ var testCells = []Cell{
 }
 
 func TestPlanIsReproducibleAndExtends(t *testing.T) {
-	// Source: the stream of draw j of cell c depends on (seed, c, j) alone (Plan's doc).
+	// Source: the stream of draw j of a cell depends on the seed, the cell's bounds and j
+	// alone (Plan's doc).
 	span := [2]float64{100, 190}
 	a, err := Plan(testCells, 20, 42, span)
 	if err != nil {
@@ -266,6 +267,18 @@ func TestPlanIsReproducibleAndExtends(t *testing.T) {
 	}
 	if len(c) != 35*len(testCells) {
 		t.Fatalf("%d draws, want %d", len(c), 35*len(testCells))
+	}
+	// A grid with a cell added in front keeps every other cell's draws.
+	wider := append([]Cell{{PeriodLo: 0.3, PeriodHi: 0.5, RadiusLo: 0.01, RadiusHi: 0.02}}, testCells...)
+	e, _ := Plan(wider, 20, 42, span)
+	for _, dr := range e {
+		if dr.Cell == 0 {
+			continue
+		}
+		want := a[dr.Index*len(testCells)+dr.Cell-1]
+		if want.Injection != dr.Injection {
+			t.Fatalf("adding a cell moved draw %d of cell %d: %+v, was %+v", dr.Index, dr.Cell, dr.Injection, want.Injection)
+		}
 	}
 }
 
@@ -696,18 +709,22 @@ func TestOutcomesIndependentOfWorkers(t *testing.T) {
 			t.Fatal(err)
 		}
 		calls, last := 0, 0
-		two, err := RunAll(lc, drawn, sunLike, dcfg, scfg, window, steps.NewPool(2), func(done, total int) {
+		told := make([]Outcome, len(drawn))
+		two, err := RunAll(lc, drawn, sunLike, dcfg, scfg, window, steps.NewPool(2), func(i int, o Outcome, done int) {
 			calls++
-			if done < last || total != len(drawn) {
-				t.Errorf("progress %d of %d after %d", done, total, last)
+			if done < last || done > len(drawn) {
+				t.Errorf("progress %d of %d after %d", done, len(drawn), last)
 			}
-			last = done
+			told[i], last = o, done
 		})
 		if err != nil {
 			t.Fatal(err)
 		}
 		if !reflect.DeepEqual(serial, two) {
 			t.Errorf("window %v: outcomes differ between one and two workers:\n%+v\n%+v", window, serial, two)
+		}
+		if !reflect.DeepEqual(told, two) {
+			t.Errorf("window %v: the outcomes told one by one differ from those returned", window)
 		}
 		if calls != len(drawn) || last != len(drawn) {
 			t.Errorf("window %v: progress called %d times, last %d", window, calls, last)

@@ -36,10 +36,12 @@ type Drawn struct {
 // streamLabel names the random streams of Plan (rng.Derive).
 const streamLabel = "completeness-injection"
 
-// Plan draws perCell planets in every cell from seed. Draw j of cell c comes from its own
-// stream, rng.Derive(seed, streamLabel, c·2³² + j), so it depends on nothing but (seed, c, j):
-// raising perCell keeps every earlier draw, and the result is ordered draw by draw
-// (draw 0 of every cell, then draw 1, …), so the longer plan begins with the shorter one.
+// Plan draws perCell planets in every cell from seed. Draw j of a cell comes from its own
+// stream, rng.Derive(seed, streamLabel + the cell's four bounds, j), so it depends on
+// nothing but the seed, the cell's bounds and j: raising perCell keeps every earlier draw,
+// adding cells or moving them in the list keeps every other cell's draws, and the result
+// is ordered draw by draw (draw 0 of every cell, then draw 1, …), so the longer plan
+// begins with the shorter one.
 //
 // Each draw takes, in this order from its stream:
 //   - the period log-uniform in [PeriodLo, PeriodHi) (equal numbers per factor of period,
@@ -59,9 +61,6 @@ func Plan(cells []Cell, perCell int, seed uint64, epochSpan [2]float64) ([]Drawn
 	if !(epochSpan[1] > epochSpan[0]) || math.IsInf(epochSpan[0], 0) || math.IsInf(epochSpan[1], 0) {
 		return nil, fmt.Errorf("completeness: data span %v to %v; it must be finite and increasing", epochSpan[0], epochSpan[1])
 	}
-	if uint64(len(cells)) > 1<<32 {
-		return nil, fmt.Errorf("completeness: %d cells are too many", len(cells))
-	}
 	for c, cell := range cells {
 		if err := cell.check(); err != nil {
 			return nil, fmt.Errorf("completeness: cell %d: %w", c+1, err)
@@ -70,11 +69,17 @@ func Plan(cells []Cell, perCell int, seed uint64, epochSpan [2]float64) ([]Drawn
 	out := make([]Drawn, 0, len(cells)*perCell)
 	for j := 0; j < perCell; j++ {
 		for c, cell := range cells {
-			r := rng.Derive(seed, streamLabel, uint64(c)<<32|uint64(j))
+			r := rng.Derive(seed, cellStream(cell), uint64(j))
 			out = append(out, Drawn{Cell: c, Index: j, Injection: draw(r, cell, epochSpan[0])})
 		}
 	}
 	return out, nil
+}
+
+// cellStream labels a cell's stream by its bounds, written exactly.
+func cellStream(c Cell) string {
+	return fmt.Sprintf("%s/%x/%x/%x/%x", streamLabel, math.Float64bits(c.PeriodLo), math.Float64bits(c.PeriodHi),
+		math.Float64bits(c.RadiusLo), math.Float64bits(c.RadiusHi))
 }
 
 // draw takes one planet from r inside cell (see Plan for the distributions).

@@ -19,10 +19,11 @@ import (
 // result does not depend on the number of workers. Each injection's detrend and search are handed the same pool: steps.Pool only
 // ever takes tokens without blocking (TryAcquire), so nested use cannot deadlock, and it
 // finds no free token while the injections hold them all, running serially inside. Both
-// are deterministic for any worker count. progress, when not nil, is called after each
-// injection with the number done so far, never decreasing. The first error, in the order
-// of drawn, is returned.
-func RunAll(raw *lightcurve.LightCurve, drawn []Drawn, st Star, dcfg detrend.Config, scfg search.Config, window float64, pool *steps.Pool, progress func(done, total int)) ([]Outcome, error) {
+// are deterministic for any worker count. finished, when not nil, is called after each
+// injection that succeeded, one call at a time, with its index in drawn, its outcome and
+// the number done so far (never decreasing), so a caller can keep each outcome as soon as
+// it is known. The first error, in the order of drawn, is returned.
+func RunAll(raw *lightcurve.LightCurve, drawn []Drawn, st Star, dcfg detrend.Config, scfg search.Config, window float64, pool *steps.Pool, finished func(i int, o Outcome, done int)) ([]Outcome, error) {
 	if raw == nil {
 		return nil, errors.New("completeness: no light curve to inject into")
 	}
@@ -48,10 +49,10 @@ func RunAll(raw *lightcurve.LightCurve, drawn []Drawn, st Star, dcfg detrend.Con
 	)
 	pool.Parallel(len(drawn), func(i int) {
 		out[i], errs[i] = recoverWith(raw, drawn[i], st, dcfg, scfg, window, ref, pool)
-		if progress != nil {
+		if finished != nil && errs[i] == nil {
 			mu.Lock()
 			done++
-			progress(done, len(drawn))
+			finished(i, out[i], done)
 			mu.Unlock()
 		}
 	})
