@@ -8,6 +8,12 @@
 // window of periods around each planet's, its peaks then judged against the noise of the
 // full grid, measured once on the light curve without injections.
 //
-// It holds the numerics only: it knows no HCL, caches nothing and prints nothing; the step
-// kind that wires it into a workflow is still to come. Main entry points: Plan and RunAll.
+// The completeness step kind (kind.go) wires this into a workflow: it takes the raw light
+// curve, the settings of the workflow's own detrend and search steps (not a copy of them),
+// and optionally the star, the fit and the derived planets; it keeps each injection's
+// outcome as a piece of its work (steps.Parts), so a larger grid or more injections per
+// cell makes only the new ones; and it places the workflow's planets on the map with the
+// occurrence they imply by inverse detection efficiency (Gehrels' limits). The numerics
+// know no HCL, cache nothing and print nothing. Main entry points: New (the kind), Plan
+// and RunAll (the numerics).
 package completeness

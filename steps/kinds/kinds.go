@@ -6,6 +6,7 @@ package kinds
 import (
 	"dipline/steps"
 	"dipline/steps/companions"
+	"dipline/steps/completeness"
 	"dipline/steps/derive"
 	"dipline/steps/detrend"
 	"dipline/steps/dilution"
@@ -21,5 +22,5 @@ import (
 func Registry() (steps.Registry, error) {
 	return steps.NewRegistry(photometry.New(), detrend.New(), search.New(), fit.New(),
 		star.New(), companions.New(), dilution.New(), derive.New(), vet.New(),
-		ephemeris.New())
+		ephemeris.New(), completeness.New())
 }

@@ -60,7 +60,7 @@ func written(p *steps.Param, x any) steps.Written {
 		return steps.Written{Kind: steps.WrittenBool, Bool: v}
 	case string:
 		switch p.Type {
-		case steps.StepRef:
+		case steps.StepRef, steps.StepSettings:
 			return steps.Written{Kind: steps.WrittenRef, Str: v}
 		case steps.CatalogueRow:
 			return steps.Written{Kind: steps.WrittenRow, Str: v}

@@ -193,3 +193,19 @@ ephemeris "written" {
   to       = "2027-06-30"
   planets  = ["c"]
 }
+
+completeness "full" {
+  light_curve      = photometry.full
+  detrend          = detrend.full
+  search           = search.full
+  star             = star.dwarf
+  fit              = fit.full
+  planets          = derive.full
+  period_range     = ["0.5 d", "20 d"]
+  period_cells     = 3
+  radius_range     = ["0.8 R_earth", "4 R_earth"]
+  radius_cells     = 5
+  per_cell         = 12
+  window           = 0.25
+  full_grid_checks = 6
+}

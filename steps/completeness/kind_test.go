@@ -1,0 +1,249 @@
+package completeness
+
+import (
+	"bytes"
+	"context"
+	"math"
+	"reflect"
+	"strings"
+	"sync"
+	"testing"
+
+	"dipline/steps"
+	"dipline/steps/internal/golden"
+	"dipline/steps/internal/lightcurve"
+	"dipline/steps/internal/proportion"
+	"dipline/steps/internal/steptest"
+)
+
+// raw stands in for a photometry step's artifact.
+type raw struct{ lc *lightcurve.LightCurve }
+
+func (r raw) Encode() []byte                     { return r.lc.Encode() }
+func (r raw) Figures() []steps.Figure            { return nil }
+func (r raw) LightCurve() *lightcurve.LightCurve { return r.lc }
+
+// memoParts is a steps.Parts in memory that counts what is put.
+type memoParts struct {
+	mu   sync.Mutex
+	m    map[string][]byte
+	puts int
+}
+
+func (p *memoParts) Get(k []byte) ([]byte, bool) {
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	b, ok := p.m[string(k)]
+	return b, ok
+}
+
+func (p *memoParts) Put(k, b []byte) {
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	p.m[string(k)] = b
+	p.puts++
+}
+
+// kindInputs are a 20-day white-noise light curve (1000 ppm at 30 min) and the default
+// detrend and search settings around the Sun-like star.
+func kindInputs(t testing.TB) steps.Inputs {
+	dcfg, scfg := configs(t, sunLike, 1)
+	return steps.Inputs{
+		Refs:     map[string][]steps.Artifact{"light_curve": {raw{whiteCurve(20, 30.0/1440, 1e-3, 21)}}},
+		Settings: map[string]any{"detrend": &dcfg, "search": &scfg},
+	}
+}
+
+// runKind runs the kind with set (light_curve, detrend and search are filled in) and the
+// given parts (nil: none), on two workers with seed 9.
+func runKind(t testing.TB, set map[string]any, parts steps.Parts) *Result {
+	t.Helper()
+	full := map[string]any{"light_curve": "photometry.raw", "detrend": "detrend.flat", "search": "search.dips"}
+	for k, v := range set {
+		full[k] = v
+	}
+	cfg, err := steptest.Config(New(), full)
+	if err != nil {
+		t.Fatal(err)
+	}
+	env := steps.Env{Seed: 9, Pool: steptest.Pool(2), Parts: parts, Notef: func(string, ...any) {}}
+	art, err := New().Run(context.Background(), cfg, kindInputs(t), env)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return art.(*Result)
+}
+
+func TestCheckNamesTheAttributeAtFault(t *testing.T) {
+	base := map[string]any{"light_curve": "photometry.raw", "detrend": "detrend.flat", "search": "search.dips"}
+	for _, tc := range []struct {
+		name string
+		set  map[string]any
+		attr string
+	}{
+		{"radii in Earth radii need a star", map[string]any{"radius_range": []string{"1 R_earth", "4 R_earth"}}, "radius_range"},
+		{"a period range that runs backwards is refused", map[string]any{"period_range": []string{"10 d", "1 d"}}, "period_range"},
+		{"no injections per cell is refused", map[string]any{"per_cell": 0}, "per_cell"},
+		{"a negative window is refused", map[string]any{"window": -0.1}, "window"},
+		{"more full-range checks than injections are refused", map[string]any{"per_cell": 1, "period_cells": 1, "radius_cells": 2, "full_grid_checks": 3}, "full_grid_checks"},
+		{"a grid of a thousand columns is refused", map[string]any{"period_cells": 1000}, "period_cells"},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			set := map[string]any{}
+			for k, v := range base {
+				set[k] = v
+			}
+			for k, v := range tc.set {
+				set[k] = v
+			}
+			_, err := steptest.Config(New(), set)
+			var ae *steps.AttrError
+			if !errorsAs(err, &ae) || ae.Attr != tc.attr {
+				t.Errorf("error %v, want one about %s", err, tc.attr)
+			}
+		})
+	}
+}
+
+func errorsAs(err error, target **steps.AttrError) bool {
+	for e := err; e != nil; {
+		if ae, ok := e.(*steps.AttrError); ok {
+			*target = ae
+			return true
+		}
+		u, ok := e.(interface{ Unwrap() error })
+		if !ok {
+			return false
+		}
+		e = u.Unwrap()
+	}
+	return false
+}
+
+// Source: the map's construction. With the default radius range (a quarter to four times
+// the depth for SNR 7.1 at the middle period), the largest planets are recovered more
+// often than the smallest at every period, and the totals add up.
+func TestTheMapRisesWithRadius(t *testing.T) {
+	r := runKind(t, map[string]any{"period_range": []string{"1 d", "6 d"}, "period_cells": 1, "radius_cells": 2, "per_cell": 8}, nil)
+	if len(r.Cells) != 2 || r.Cells[0].Injected != 8 || r.Cells[1].Injected != 8 {
+		t.Fatalf("cells %+v", r.Cells)
+	}
+	small, large := r.Cells[0].Fraction, r.Cells[1].Fraction
+	t.Logf("recovered: small %.2f, large %.2f (k %.3g–%.3g–%.3g)", small, large, r.RadiusEdges[0], r.RadiusEdges[1], r.RadiusEdges[2])
+	if !(large > small) || large < 0.75 {
+		t.Errorf("recovered share %.2f for the small planets and %.2f for the large; want the large well recovered and more often", small, large)
+	}
+	if got := figure(t, r, "injections"); got != 16 {
+		t.Errorf("injections %v, want 16", got)
+	}
+}
+
+func figure(t *testing.T, r *Result, name string) float64 {
+	t.Helper()
+	for _, f := range r.Figures() {
+		if f.Name == name {
+			return f.Value
+		}
+	}
+	t.Fatalf("no figure %s", name)
+	return 0
+}
+
+// Source: steps.Parts' contract. Raising per_cell makes only the new injections, and the
+// result is the bytes a run without any kept pieces gives; a run with every piece kept
+// makes none.
+func TestMoreInjectionsReuseTheOnesMade(t *testing.T) {
+	set := map[string]any{"period_range": []string{"1 d", "6 d"}, "period_cells": 2, "radius_cells": 1, "per_cell": 3}
+	parts := &memoParts{m: map[string][]byte{}}
+	runKind(t, set, parts)
+	if parts.puts != 6 {
+		t.Fatalf("first run kept %d pieces, want 6", parts.puts)
+	}
+	set["per_cell"] = 5
+	parts.puts = 0
+	kept := runKind(t, set, parts)
+	if parts.puts != 4 {
+		t.Errorf("raising per_cell to 5 made %d injections, want the 4 new ones", parts.puts)
+	}
+	fresh := runKind(t, set, nil)
+	if !bytes.Equal(kept.Encode(), fresh.Encode()) {
+		t.Error("the result with kept pieces differs from a fresh run's")
+	}
+	parts.puts = 0
+	runKind(t, set, parts)
+	if parts.puts != 0 {
+		t.Errorf("a repeat made %d injections, want none", parts.puts)
+	}
+}
+
+// Source: the Poisson limits of Gehrels (1986, ApJ 303, 336) Table 1 at S = 1 (from
+// memory): for 0 events the upper limit is 1.841; for 1 event 0.173 and 3.300. One
+// detection in a cell of efficiency e gives 1/e planets per star within [0.173, 3.300]/e;
+// none gives at most 1.841/e.
+func TestTheOccurrenceIsTheInverseEfficiency(t *testing.T) {
+	r := &Result{Host: Host{Density: 1.41}, PeriodEdges: []float64{1, 4, 16}, RadiusEdges: []float64{0.01, 0.02}}
+	cells, err := Grid(r.PeriodEdges, r.RadiusEdges)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range cells {
+		r.Cells = append(r.Cells, CellSummary{Cell: c, Injected: 10, Recovered: 5, Fraction: 0.5, TransitProbability: 0.05})
+	}
+	r.Detections = []Detection{{Name: "b", Period: 2, RadiusRatio: 0.015}, {Name: "c", Period: 30, RadiusRatio: 0.015}}
+	r.occurrence()
+	b := r.Detections[0]
+	if b.Cell != 0 || !(b.Efficiency > 0) {
+		t.Fatalf("planet b placed in cell %d with efficiency %v", b.Cell, b.Efficiency)
+	}
+	o := r.Occurrence[0]
+	want := 1 / b.Efficiency
+	if math.Abs(o.Rate/want-1) > 1e-12 || math.Abs(o.Lower/(0.173/b.Efficiency)-1) > 2e-3 || math.Abs(o.Upper/(3.300/b.Efficiency)-1) > 2e-3 {
+		t.Errorf("cell 1: rate %v (%v–%v), want %v (%v–%v)", o.Rate, o.Lower, o.Upper, want, 0.173/b.Efficiency, 3.300/b.Efficiency)
+	}
+	empty := r.Occurrence[1]
+	if empty.Detections != 0 || empty.Rate != 0 || math.Abs(empty.Upper/(1.841/0.025)-1) > 2e-3 {
+		t.Errorf("empty cell: %+v, want no detections and an upper limit of %v", empty, 1.841/0.025)
+	}
+	if r.Detections[1].Cell != -1 {
+		t.Errorf("planet c at 30 d lies outside a map ending at 16 d, but was placed in cell %d", r.Detections[1].Cell)
+	}
+	joined := strings.Join(r.Cautions(), " ")
+	if !strings.Contains(joined, "Planet c") || !strings.Contains(joined, "one star") {
+		t.Errorf("cautions %q should name the planet off the map and the one star", joined)
+	}
+	// The rate is Σ 1/efficiency for one star: what proportion.InverseEfficiency gives.
+	occ, err := proportion.InverseEfficiency([]float64{b.Efficiency}, 1, 1)
+	if err != nil || occ.Rate != o.Rate {
+		t.Errorf("proportion gives %v (%v)", occ.Rate, err)
+	}
+}
+
+func TestTheResultReadsBackAsWritten(t *testing.T) {
+	r := runKind(t, map[string]any{"period_range": []string{"1 d", "6 d"}, "period_cells": 2, "radius_cells": 2, "per_cell": 2, "full_grid_checks": 2}, nil)
+	r.Detections = []Detection{{Name: "b", Period: 2.2, RadiusRatio: r.RadiusEdges[1]}}
+	r.occurrence()
+	back, err := Decode(r.Encode())
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !bytes.Equal(back.Encode(), r.Encode()) || !reflect.DeepEqual(back.Figures(), r.Figures()) {
+		t.Error("the result read back differs")
+	}
+	if r.Check == nil || r.Check.Checked != 2 {
+		t.Errorf("full-range check %+v, want 2 checked", r.Check)
+	}
+	for n := 0; n < len(r.Encode()); n += 7 {
+		if _, err := Decode(r.Encode()[:n]); err == nil {
+			t.Fatalf("a result cut to %d bytes was accepted", n)
+		}
+	}
+	pr, err := New().(steps.Presenter).Present(&Config{}, r, steps.Inputs{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	data := steptest.CheckPresentation(t, pr)
+	if got := steptest.Column(t, data["map"], "injected"); len(got) != 4 || got[0] != 2 {
+		t.Errorf("the map's injected column %v, want 2 in each of 4 cells", got)
+	}
+	golden.Check(t, "../..", Kind{}.Name(), Kind{}.Version(), r)
+}
