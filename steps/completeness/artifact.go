@@ -232,7 +232,7 @@ func (r *Result) Figures() []steps.Figure {
 		}
 		o := r.Occurrence[i]
 		occ := steps.Figure{Name: p + "occurrence", Value: o.Rate,
-			Doc: fmt.Sprintf("planets per star at %s implied by this star's %d detection(s), by inverse detection efficiency; interval from Gehrels' single-sided S = 1 limits", where, o.Detections),
+			Doc:    fmt.Sprintf("planets per star at %s implied by this star's %d detection(s), by inverse detection efficiency; interval from Gehrels' single-sided S = 1 limits", where, o.Detections),
 			Reason: "a planet lies where no injection was recovered"}
 		if !math.IsNaN(o.Rate) {
 			occ.Lower, occ.Upper = o.Rate-o.Lower, o.Upper-o.Rate

@@ -312,13 +312,13 @@ func transitRatio(raw *lightcurve.LightCurve, h Host, period float64) float64 {
 
 // recoverer recovers drawn planets through the step's finished pieces.
 type recoverer struct {
-	raw        *lightcurve.LightCurve
-	st         Star
-	dcfg       detrend.Config
-	scfg       search.Config
-	env        steps.Env
-	done       int // injections finished, found or computed, over both passes
-	total      int
+	raw   *lightcurve.LightCurve
+	st    Star
+	dcfg  detrend.Config
+	scfg  search.Config
+	env   steps.Env
+	done  int // injections finished, found or computed, over both passes
+	total int
 }
 
 // all returns the outcome of each drawn planet searched with window: taken from the step's
