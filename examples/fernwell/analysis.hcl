@@ -111,3 +111,21 @@ ephemeris "next" {
   site_longitude = "61.4 deg"
   site_elevation = "2300 m"
 }
+
+# How many planets like these the search would have found. Planets are injected into the
+# raw light curve over a grid of periods and radii (drawn from the seed), each copy is
+# detrended and searched with the settings of the steps named here (not a copy of them),
+# and the map gives the share recovered per cell with the transit probability. b and c
+# are placed on it, with the planets per star they imply for this one star. Each
+# injection is kept in the store, so a larger per_cell makes only the new ones.
+completeness "reach" {
+  light_curve  = photometry.survey
+  detrend      = detrend.spots # unmasked: an injected planet is not known in advance
+  search       = search.dips
+  star         = star.host
+  fit          = fit.planets
+  planets      = derive.planets
+  period_range = ["1 d", "20 d"]
+  radius_range = ["0.6 R_earth", "2.4 R_earth"]
+  per_cell     = 20
+}

@@ -5,6 +5,7 @@ package fernwell_test
 import (
 	"context"
 	"encoding/json"
+	"fmt"
 	"math"
 	"os"
 	"path/filepath"
@@ -277,6 +278,33 @@ func TestTheFullDemoCoversTheTruth(t *testing.T) {
 	}
 	if eph["double_nights"] != 1 {
 		t.Errorf("the demo's site sees %v nights with two whole transits, the README says one", eph["double_nights"])
+	}
+	// The completeness map: its share recovered rises from the smallest radii to the largest
+	// in every period column (a transit's signal to noise grows as k²), it spans the
+	// detection limit (some cell under a half, some at or above nine tenths), and b and c
+	// each sit in a cell the search recovers at least four times in five, as it found them.
+	comp := figs["completeness.reach"]
+	cols, rows, placed := 4, 4, 0.0
+	for i := 1; i <= cols; i++ {
+		small, large := comp[fmt.Sprintf("p%d_r1.recovered", i)], comp[fmt.Sprintf("p%d_r%d.recovered", i, rows)]
+		if !(large > small) {
+			t.Errorf("completeness column %d: %.2f recovered at the smallest radii, %.2f at the largest", i, small, large)
+		}
+		if small >= 0.5 || large < 0.9 {
+			t.Errorf("completeness column %d (%.2f to %.2f) does not span the detection limit", i, small, large)
+		}
+		for j := 1; j <= rows; j++ {
+			cell := fmt.Sprintf("p%d_r%d.", i, j)
+			if n := comp[cell+"detections"]; n > 0 {
+				placed += n
+				if comp[cell+"recovered"] < 0.8 {
+					t.Errorf("a planet lies in completeness cell %s, recovered at only %.2f", cell, comp[cell+"recovered"])
+				}
+			}
+		}
+	}
+	if placed != 2 {
+		t.Errorf("%v planets placed on the completeness map, want b and c", placed)
 	}
 	// Both injected signals are planets on the target: no vet test may disagree.
 	for _, s := range []string{"signal1", "signal2"} {

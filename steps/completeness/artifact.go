@@ -171,9 +171,19 @@ func (r *Result) occurrence() {
 			o.Caution = "a planet lies where none of the injections was recovered, so its detection efficiency is zero and no rate follows"
 			continue
 		}
-		o.Rate, o.Lower, o.Upper, o.Caution = occ.Rate, occ.Limits.Lower, occ.Limits.Upper, occ.Caution
+		o.Rate, o.Lower, o.Upper = occ.Rate, occ.Limits.Lower, occ.Limits.Upper
+		if c.Fraction < lowCompleteness {
+			o.Caution = fmt.Sprintf("a planet lies where the search recovers only %.0f %% of the injections; inverse detection efficiency is biased where completeness is low (Foreman-Mackey, Hogg & Morton 2014, ApJ 795, 64), so its rate rests on one uncertain weight", 100*c.Fraction)
+		}
 	}
 }
+
+// lowCompleteness is the recovered share below which a cell's rate is cautioned. The
+// caution is about the search's completeness alone: the geometric transit probability,
+// small for every transiting planet beyond a few days, is known well and adds no bias
+// (our reading of Foreman-Mackey, Hogg & Morton 2014; the level is our choice, as in
+// proportion's own caution).
+const lowCompleteness = 0.1
 
 // cellName is cell i's part of a figure's name: "p2_r3" for the second period and third
 // radius interval.
@@ -201,8 +211,9 @@ func (r *Result) earth(k float64) float64 {
 }
 
 // Figures lists the totals, the comparison with full-range searches and, per cell, the
-// recovered fraction, the transit probability, the efficiency, the detections and the
-// occurrence.
+// recovered fraction and the transit probability, and for a cell holding one of the
+// workflow's planets the detections and the occurrence (a cell without is 0 planets per
+// star, with the upper limit the map's data give).
 func (r *Result) Figures() []steps.Figure {
 	injected, recovered := 0, 0
 	for _, c := range r.Cells {
@@ -239,10 +250,12 @@ func (r *Result) Figures() []steps.Figure {
 		}
 		figs = append(figs, frac,
 			steps.Figure{Name: p + "transit_probability", Value: c.TransitProbability,
-				Doc: "geometric probability of a full transit at the cell's mean period and radius ratio (circular orbit)"},
-			steps.Figure{Name: p + "efficiency", Value: o.Efficiency, Doc: "detection efficiency: share recovered × transit probability"},
-			steps.Figure{Name: p + "detections", Value: float64(o.Detections), Doc: "the workflow's planets in this cell"},
-			occ)
+				Doc: "geometric probability of a full transit at the cell's mean period and radius ratio (circular orbit); times the share recovered, the cell's detection efficiency"})
+		if o.Detections > 0 {
+			figs = append(figs,
+				steps.Figure{Name: p + "detections", Value: float64(o.Detections), Doc: "the workflow's planets in this cell"},
+				occ)
+		}
 	}
 	return figs
 }

@@ -11,6 +11,7 @@ import (
 	"dipline/steps/detrend"
 	"dipline/steps/fit"
 	"dipline/steps/internal/lightcurve"
+	"dipline/steps/internal/signals"
 	"dipline/steps/internal/stellar"
 	"dipline/steps/internal/transit"
 	"dipline/steps/search"
@@ -137,6 +138,9 @@ func (k Kind) Run(ctx context.Context, c *Config, in steps.Inputs, env steps.Env
 	if err != nil {
 		return nil, err
 	}
+	if fa, ok := in.Ref("fit").(*fit.Artifact); ok {
+		raw = withoutKnown(raw, fa, scfg.MaskFactor, env)
+	}
 	st := host.star()
 	pieces := recoverer{raw: raw, st: st, dcfg: *dcfg, scfg: *scfg, env: env, total: len(drawn) + c.FullChecks}
 	out, err := pieces.all(ctx, drawn, c.Window)
@@ -157,6 +161,49 @@ func (k Kind) Run(ctx context.Context, c *Config, in steps.Inputs, env steps.Env
 	res.Detections = detectionsOf(in, host)
 	res.occurrence()
 	return res, nil
+}
+
+// withoutKnown returns raw without the points within mask_factor × T14/2 of the fit's
+// planets' mid-transits (posterior medians of period, t0 and T14): an injected planet
+// should compete with the noise, not with the planets already found, which a search
+// around a period near theirs would find first (common practice). It notes how many
+// points it left out. The grid's time span stays raw's.
+func withoutKnown(raw *lightcurve.LightCurve, fa *fit.Artifact, maskFactor float64, env steps.Env) *lightcurve.LightCurve {
+	var known []signals.Signal
+	for _, name := range fa.PlanetNames() {
+		p, _ := fa.Summary(name + ".period")
+		t0, _ := fa.Summary(name + ".t0")
+		t14, _ := fa.Summary(name + ".t14")
+		if p > 0 && t14 > 0 && !math.IsNaN(t0) {
+			known = append(known, signals.Signal{Period: p, Epoch: t0, Duration: t14})
+		}
+	}
+	if len(known) == 0 {
+		return raw
+	}
+	out := *raw
+	out.Segments = make([]lightcurve.Segment, 0, len(raw.Segments))
+	dropped := 0
+	for _, s := range raw.Segments {
+		kept := s
+		kept.Time, kept.Flux, kept.Err = nil, nil, nil
+		for i, t := range s.Time {
+			in := false
+			for _, k := range known {
+				in = in || k.InTransit(t, maskFactor)
+			}
+			if in {
+				dropped++
+				continue
+			}
+			kept.Time, kept.Flux, kept.Err = append(kept.Time, t), append(kept.Flux, s.Flux[i]), append(kept.Err, s.Err[i])
+		}
+		if len(kept.Time) > 0 {
+			out.Segments = append(out.Segments, kept)
+		}
+	}
+	env.Note("the fit's %d planet(s) left out before injecting: %d points within %.3g transit durations of their mid-transits", len(known), dropped, maskFactor)
+	return &out
 }
 
 // Host is what the step knew of the star and where each value came from.

@@ -211,6 +211,17 @@ func TestTheOccurrenceIsTheInverseEfficiency(t *testing.T) {
 	if !strings.Contains(joined, "Planet c") || !strings.Contains(joined, "one star") {
 		t.Errorf("cautions %q should name the planet off the map and the one star", joined)
 	}
+	// A cell the search recovers half of needs no caution; one it recovers 5 % of does.
+	if o.Caution != "" {
+		t.Errorf("a cell recovered at 50 %% is cautioned: %s", o.Caution)
+	}
+	r.Cells[0].Fraction = 0.05
+	r.occurrence()
+	if c := r.Occurrence[0].Caution; !strings.Contains(c, "Foreman-Mackey") {
+		t.Errorf("a planet where 5 %% are recovered: caution %q, want the low-completeness bias named", c)
+	}
+	r.Cells[0].Fraction = 0.5
+	r.occurrence()
 	// The rate is Σ 1/efficiency for one star: what proportion.InverseEfficiency gives.
 	occ, err := proportion.InverseEfficiency([]float64{b.Efficiency}, 1, 1)
 	if err != nil || occ.Rate != o.Rate {
