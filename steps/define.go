@@ -42,6 +42,7 @@ var (
 	_ Kind      = defined[struct{}]{}
 	_ Inspector = defined[struct{}]{}
 	_ Presenter = defined[struct{}]{}
+	_ Combiner  = defined[struct{}]{}
 )
 
 func (d defined[C]) Name() string                      { return d.k.Name() }
@@ -104,4 +105,14 @@ func (d defined[C]) Present(cfg any, art Artifact, in Inputs) (Presentation, err
 		return Presentation{}, err
 	}
 	return p.Present(c, art, in)
+}
+
+// Combine adds up a survey's results when the kind can (it is a Combiner); otherwise it
+// gives nothing.
+func (d defined[C]) Combine(ids []string, arts []Artifact) (Combined, error) {
+	c, ok := d.k.(Combiner)
+	if !ok {
+		return Combined{}, nil
+	}
+	return c.Combine(ids, arts)
 }

@@ -79,6 +79,22 @@ func CautionsOf(a Artifact) []string {
 	return nil
 }
 
+// Combiner is implemented by kinds whose results over a survey's targets add up to figures
+// of the survey as a whole: an occurrence rate from every target's completeness map, say.
+// The survey merge calls Combine once per step of the workflow, with the targets' ids and
+// artifacts of that step (those that finished), in table order. An error says why the
+// results cannot be added up (maps that do not line up); the merge reports it and writes
+// the rest.
+type Combiner interface {
+	Combine(ids []string, arts []Artifact) (Combined, error)
+}
+
+// Combined is what a survey's results add up to: figures, and the cautions they carry.
+type Combined struct {
+	Figures  []Figure
+	Cautions []string
+}
+
 // The three verdicts a test can give, in plain words of our own.
 const (
 	VerdictAgree    = "agree"    // the data agree with the tested hypothesis (e.g. a planet)

@@ -191,6 +191,12 @@ func (c *cli) surveyGather(t *survey.Table, env survey.Env) int {
 	}
 	fmt.Fprintf(c.out, "gathered %d target stores into %s (%d results, %d step keys new); survey table %s\n",
 		res.Merged, rel(store.Path()), res.Copied.Results, res.Copied.StepKeys, rel(res.TablePath))
+	if res.CombinedPath != "" {
+		fmt.Fprintf(c.out, "the targets' results added up: %s\n", rel(res.CombinedPath))
+		for _, s := range res.Cautions {
+			fmt.Fprintf(c.out, "  ! %s\n", s)
+		}
+	}
 	for id, cs := range res.Conflicts {
 		for _, cf := range cs {
 			fmt.Fprintf(c.out, "  conflict in target %s: %v\n", id, cf)

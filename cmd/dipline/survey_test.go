@@ -259,3 +259,63 @@ func TestATemplatesOwnFileMayBeAPlaceholder(t *testing.T) {
 		t.Errorf("the table holds %d rows; T-05 is %q", len(rows), rows["T-05"]["status"])
 	}
 }
+
+// TestASurveysCompletenessMapsAddUp gives the survey's workflow a small completeness step
+// around one written star: the merge adds the eight maps up into combined.csv, one row per
+// figure of the completeness kind's Combine, with the number of targets and, in a cell
+// without planets, the upper limit on the planets per star (the numbers themselves are
+// checked in steps/completeness).
+func TestASurveysCompletenessMapsAddUp(t *testing.T) {
+	f := newSurveyFolder(t)
+	f.write("analysis.hcl", workflowText+`
+star "host" {
+  method = "given"
+  radius = "0.5 ± 0.01 R_sun"
+  mass   = "0.5 ± 0.02 M_sun"
+}
+
+completeness "reach" {
+  light_curve  = photometry.raw
+  detrend      = detrend.quiet
+  search       = search.dips
+  star         = star.host
+  period_range = ["1 d", "5 d"]
+  period_cells = 1
+  radius_range = ["1 R_earth", "4 R_earth"]
+  radius_cells = 2
+  per_cell     = 2
+}
+`)
+	code, out, errs := f.dipline("survey", "run", "targets.csv", "--workers", "2")
+	if code != 0 || !strings.Contains(out, "combined.csv") {
+		t.Fatalf("survey run: exit %d\n%s\n%s", code, out, errs)
+	}
+	b, err := os.ReadFile(filepath.Join(f.dir, "surveys", "targets", "combined.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	recs, err := csv.NewReader(strings.NewReader(string(b))).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	got := map[string][]string{}
+	for _, r := range recs[1:] {
+		got[r[0]+" "+r[1]] = r
+	}
+	if r := got["completeness.reach targets"]; r == nil || r[2] != "8" {
+		t.Errorf("combined.csv's targets row %q, want 8:\n%s", r, b)
+	}
+	for _, cell := range []string{"p1_r1", "p1_r2"} {
+		r := got["completeness.reach "+cell+".occurrence"]
+		if r == nil || r[2] != "0" {
+			t.Errorf("%s: occurrence row %q, want 0 planets per star (no fit, so no planets)", cell, r)
+			continue
+		}
+		if up, err := strconv.ParseFloat(r[4], 64); err != nil || !(up > 0) {
+			t.Errorf("%s: upper limit %q, want a positive number", cell, r[4])
+		}
+	}
+	if got["completeness.reach caution"] == nil {
+		t.Error("combined.csv carries no caution")
+	}
+}

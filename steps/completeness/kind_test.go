@@ -258,3 +258,57 @@ func TestTheResultReadsBackAsWritten(t *testing.T) {
 	}
 	golden.Check(t, "../..", Kind{}.Name(), Kind{}.Version(), r)
 }
+
+// Source: Gehrels (1986) Table 1 at S = 1 (from memory), as above. Two stars of 0.5 R☉
+// with the same map in Earth radii: one planet of efficiency e on the first gives
+// (1/2)(1/e) planets per star within [0.173, 3.300]/(2e); a cell without planets gives at
+// most 1.841/(2ē), ē the stars' mean efficiency there. A map with other cells is refused,
+// naming the target.
+func TestASurveysMapsAddUp(t *testing.T) {
+	mk := func(radius float64, planets ...Detection) *Result {
+		r := &Result{Host: Host{Density: 1.41, Radius: radius}, PeriodEdges: []float64{1, 4, 16},
+			RadiusEdges: []float64{0.02 * 0.5 / radius, 0.04 * 0.5 / radius}}
+		cells, _ := Grid(r.PeriodEdges, r.RadiusEdges)
+		for _, c := range cells {
+			r.Cells = append(r.Cells, CellSummary{Cell: c, Injected: 10, Recovered: 6, Fraction: 0.6, TransitProbability: 0.05})
+		}
+		r.Detections = planets
+		r.occurrence()
+		return r
+	}
+	a := mk(0.5, Detection{Name: "b", Period: 2, RadiusRatio: 0.03})
+	b := mk(0.5)
+	got, err := Kind{}.Combine([]string{"A", "B"}, []steps.Artifact{a, b})
+	if err != nil {
+		t.Fatal(err)
+	}
+	figs := map[string]steps.Figure{}
+	for _, f := range got.Figures {
+		figs[f.Name] = f
+	}
+	e := a.Detections[0].Efficiency
+	occ := figs["p1_r1.occurrence"]
+	if figs["p1_r1.detections"].Value != 1 || math.Abs(occ.Value/(1/(2*e))-1) > 1e-12 ||
+		math.Abs((occ.Value-occ.Lower)/(0.173/(2*e))-1) > 2e-3 || math.Abs((occ.Value+occ.Upper)/(3.300/(2*e))-1) > 2e-3 {
+		t.Errorf("cell p1_r1: %+v, want 1 detection and %v planets per star within %v–%v", occ, 1/(2*e), 0.173/(2*e), 3.300/(2*e))
+	}
+	none := figs["p2_r1.occurrence"]
+	if none.Value != 0 || math.Abs(none.Upper/(1.841/(2*0.6*0.05))-1) > 2e-3 {
+		t.Errorf("cell p2_r1: %+v, want 0 with an upper limit of %v", none, 1.841/(2*0.6*0.05))
+	}
+	if figs["targets"].Value != 2 || len(got.Cautions) == 0 {
+		t.Errorf("targets %v, cautions %q", figs["targets"].Value, got.Cautions)
+	}
+	// A star of another radius with the same ratios has other cells in Earth radii.
+	other := mk(0.5)
+	other.Host.Radius = 0.6
+	if _, err := (Kind{}).Combine([]string{"A", "C"}, []steps.Artifact{a, other}); err == nil || !strings.Contains(err.Error(), "target C") {
+		t.Errorf("maps with other cells: error %v, want one naming target C", err)
+	}
+	// Through the engine's wrapper, as the survey merge calls it.
+	if c, ok := New().(steps.Combiner); !ok {
+		t.Error("the registered kind does not combine")
+	} else if viaWrapper, err := c.Combine([]string{"A", "B"}, []steps.Artifact{a, b}); err != nil || !reflect.DeepEqual(viaWrapper, got) {
+		t.Errorf("through the wrapper: %v", err)
+	}
+}

@@ -34,6 +34,9 @@ func (l Layout) SlurmDir() string { return filepath.Join(l.Dir, "slurm") }
 // TablePath is the survey table a merge writes.
 func (l Layout) TablePath() string { return filepath.Join(l.Dir, "survey.csv") }
 
+// CombinedPath is the table of what the targets' results add up to.
+func (l Layout) CombinedPath() string { return filepath.Join(l.Dir, "combined.csv") }
+
 // The states of a target, as its state file records them.
 const (
 	StateRunning = "running" // a run started and has not ended (or its process died)

@@ -12,6 +12,7 @@ import (
 	"strconv"
 
 	"dipline/cache"
+	"dipline/steps"
 	"dipline/workflow"
 )
 
@@ -24,8 +25,11 @@ type MergeResult struct {
 	Conflicts map[string][]cache.Conflict
 	// States are the targets' states in table order.
 	States []State
-	// TablePath is the survey table written.
-	TablePath string
+	// TablePath is the survey table written; CombinedPath the table of what the targets'
+	// results add up to ("" when no step's kind adds its results up), and Cautions that
+	// table's cautions, for the command to print.
+	TablePath, CombinedPath string
+	Cautions                []string
 }
 
 // Merge gathers every target's shard into store (the workflow's own) and writes the survey
@@ -58,7 +62,107 @@ func (e Env) Merge(t *Table, store *cache.Store) (MergeResult, error) {
 		return res, err
 	}
 	res.TablePath = e.Layout.TablePath()
-	return res, writeWhole(res.TablePath, b)
+	if err := writeWhole(res.TablePath, b); err != nil {
+		return res, err
+	}
+	comb, cautions, err := e.Combined(t, res.States, store)
+	if err != nil || comb == nil {
+		return res, err
+	}
+	res.CombinedPath, res.Cautions = e.Layout.CombinedPath(), cautions
+	return res, writeWhole(res.CombinedPath, comb)
+}
+
+// Combined adds up, for every step whose kind can (steps.Combiner: a completeness map's
+// occurrence, say), the results of the targets where that step finished, read from store,
+// and returns them as CSV — step, figure, value, the distances down and up to its interval's
+// ends, unit, meaning; a caution is a row whose figure is "caution" — with the cautions
+// apart. A step whose results do not add up (maps that do not line up) gives a caution
+// row saying why. nil when no step adds anything up. Rows follow the steps in the order first
+// met and each kind's own order, so the same targets give the same bytes.
+func (e Env) Combined(t *Table, states []State, store *cache.Store) ([]byte, []string, error) {
+	type group struct {
+		kind steps.Kind
+		ids  []string
+		arts []steps.Artifact
+	}
+	groups := map[string]*group{}
+	var order []string
+	for i, tg := range t.Targets {
+		rf, err := e.readResults(tg.ID, states[i])
+		if err != nil {
+			return nil, nil, err
+		}
+		for _, s := range rf.Steps {
+			k := e.Registry[s.Kind]
+			if k == nil || (s.Status != workflow.StatusComputed && s.Status != workflow.StatusReused) {
+				continue
+			}
+			if _, ok := k.(steps.Combiner); !ok {
+				continue
+			}
+			art, err := storedArtifact(store, k, s.ResultKey)
+			if err != nil {
+				return nil, nil, fmt.Errorf("target %s, %s: %w", tg.ID, s.Step, err)
+			}
+			g := groups[s.Step]
+			if g == nil {
+				g = &group{kind: k}
+				groups[s.Step] = g
+				order = append(order, s.Step)
+			}
+			g.ids, g.arts = append(g.ids, tg.ID), append(g.arts, art)
+		}
+	}
+	var rows [][]string
+	var cautions []string
+	num := func(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
+	for _, step := range order {
+		g := groups[step]
+		c, err := g.kind.(steps.Combiner).Combine(g.ids, g.arts)
+		if err != nil {
+			c.Cautions = append(c.Cautions, err.Error())
+		}
+		for _, f := range c.Figures {
+			row := []string{step, f.Name, "", "", "", f.Unit, f.Doc}
+			if f.Defined() {
+				row[2] = num(f.Value)
+				if f.Asymmetric() {
+					row[3], row[4] = num(f.Lower), num(f.Upper)
+				} else if f.Sigma > 0 {
+					row[3], row[4] = num(f.Sigma), num(f.Sigma)
+				}
+			} else {
+				row[6] = f.NotGiven()
+			}
+			rows = append(rows, row)
+		}
+		for _, s := range c.Cautions {
+			rows = append(rows, []string{step, "caution", "", "", "", "", s})
+			cautions = append(cautions, step+": "+s)
+		}
+	}
+	if len(rows) == 0 {
+		return nil, nil, nil
+	}
+	var buf bytes.Buffer
+	w := csv.NewWriter(&buf)
+	w.Write([]string{"step", "figure", "value", "minus", "plus", "unit", "meaning"})
+	w.WriteAll(rows)
+	return buf.Bytes(), cautions, w.Error()
+}
+
+// storedArtifact reads and decodes the result stored under a result key in hex.
+func storedArtifact(store *cache.Store, k steps.Kind, key string) (steps.Artifact, error) {
+	rk, err := cache.ParseResultKey(key)
+	if err != nil {
+		return nil, err
+	}
+	b, err := store.Get(rk)
+	if err != nil {
+		return nil, err
+	}
+	return k.Decode(b)
 }
 
 // Table writes the survey table as CSV: per target its id, status and message, then per
