@@ -117,7 +117,9 @@ ephemeris "next" {
 # detrended and searched with the settings of the steps named here (not a copy of them),
 # and the map gives the share recovered per cell with the transit probability. b and c
 # are placed on it, with the planets per star they imply for this one star. Each
-# injection is kept in the store, so a larger per_cell makes only the new ones.
+# injection is kept in the store, so a larger per_cell makes only the new ones. Each copy
+# is searched over periods near its planet's; 50 of them are also searched over the whole
+# range, to measure what that window changes.
 completeness "reach" {
   light_curve  = photometry.survey
   detrend      = detrend.spots # unmasked: an injected planet is not known in advance
@@ -128,4 +130,6 @@ completeness "reach" {
   period_range = ["1 d", "20 d"]
   radius_range = ["0.6 R_earth", "2.4 R_earth"]
   per_cell     = 20
+
+  full_grid_checks = 50
 }

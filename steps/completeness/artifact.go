@@ -274,6 +274,9 @@ func (r *Result) Cautions() []string {
 	if c := r.Check; c != nil && c.OnlyFull > 0 {
 		out = append(out, fmt.Sprintf("The windowed search missed %d of the %d checked injections that the search over the whole range found; the map is that much too pessimistic there.", c.OnlyFull, c.Checked))
 	}
+	if c := r.Check; c != nil && c.OnlyWindowed > 0 {
+		out = append(out, fmt.Sprintf("The windowed search recovered %d of the %d checked injections that the search over the whole range did not (there a stronger peak, or the star's own signal, came first); the map is that much too optimistic there.", c.OnlyWindowed, c.Checked))
+	}
 	seen := map[string]bool{}
 	for i, o := range r.Occurrence {
 		if o.Caution != "" && !seen[o.Caution] {

@@ -211,10 +211,10 @@ func newAxes(p *steps.Plot) *plot.Plot {
 	pl.Y.Min, pl.Y.Max = yr[0], yr[1]
 	pl.X.Tick.Marker, pl.Y.Tick.Marker = plainTicks{}, plainTicks{}
 	if p.LogX {
-		pl.X.Scale, pl.X.Tick.Marker = plot.LogScale{}, plot.LogTicks{Prec: -1}
+		pl.X.Scale, pl.X.Tick.Marker = plot.LogScale{}, logTicks{}
 	}
 	if p.LogY {
-		pl.Y.Scale, pl.Y.Tick.Marker = plot.LogScale{}, plot.LogTicks{Prec: -1}
+		pl.Y.Scale, pl.Y.Tick.Marker = plot.LogScale{}, logTicks{}
 	}
 	if p.XReversed {
 		pl.X.Scale = plot.InvertedScale{Normalizer: pl.X.Scale}

@@ -67,3 +67,33 @@ func tickDecimals(major []float64) (int, bool) {
 	}
 	return 0, false
 }
+
+// logTicks labels a logarithmic axis at 1, 2 and 5 times the powers of ten when it spans
+// fewer than maxLabelledDecades decades, where powers of ten alone leave it with one label
+// or none (a period axis from 1 to 20 d); over wider spans it keeps the library's powers of
+// ten. The other whole multiples get unlabelled ticks.
+type logTicks struct{}
+
+// maxLabelledDecades is the widest span labelled at 1, 2 and 5: beyond it the labels crowd.
+const maxLabelledDecades = 3
+
+func (logTicks) Ticks(min, max float64) []plot.Tick {
+	if !(min > 0) || !(max > min) || math.Log10(max/min) >= maxLabelledDecades {
+		return plot.LogTicks{Prec: -1}.Ticks(min, max)
+	}
+	var ticks []plot.Tick
+	for e := math.Floor(math.Log10(min)); e <= math.Ceil(math.Log10(max)); e++ {
+		for m := 1; m < 10; m++ {
+			v := float64(m) * math.Pow(10, e)
+			if v < min*(1-1e-9) || v > max*(1+1e-9) {
+				continue
+			}
+			t := plot.Tick{Value: v}
+			if m == 1 || m == 2 || m == 5 {
+				t.Label = strconv.FormatFloat(v, 'g', 6, 64)
+			}
+			ticks = append(ticks, t)
+		}
+	}
+	return ticks
+}

@@ -1,6 +1,9 @@
 package report
 
-import "testing"
+import (
+	"strings"
+	"testing"
+)
 
 func TestTickLabelsAreTrueToTheirPlace(t *testing.T) {
 	// A transit of 770 ppm: the plotting library's own labels write the tick at 1.00025 as
@@ -30,4 +33,30 @@ func TestTickLabelsAreTrueToTheirPlace(t *testing.T) {
 func round9(v float64) float64 {
 	const p = 1e9
 	return float64(int64(v*p+0.5)) / p
+}
+
+// A logarithmic axis of less than three decades is labelled at 1, 2 and 5 times the powers
+// of ten (a period axis from 1 to 20 d gets five labels, not one); a wider one at the
+// powers of ten alone.
+func TestALogAxisOfFewDecadesIsLabelledOften(t *testing.T) {
+	labels := func(min, max float64) []string {
+		var out []string
+		for _, tk := range (logTicks{}).Ticks(min, max) {
+			if tk.Label != "" {
+				out = append(out, tk.Label)
+			}
+		}
+		return out
+	}
+	if got, want := strings.Join(labels(1, 20), " "), "1 2 5 10 20"; got != want {
+		t.Errorf("1–20: labels %q, want %q", got, want)
+	}
+	if got, want := strings.Join(labels(0.15, 0.6), " "), "0.2 0.5"; got != want {
+		t.Errorf("0.15–0.6: labels %q, want %q", got, want)
+	}
+	for _, l := range labels(0.01, 1e5) {
+		if l != "0.01" && l != "0.1" && l != "1" && l != "10" && l != "100" && l != "1000" && l != "10000" && l != "100000" {
+			t.Errorf("0.01–1e5: label %q is not a power of ten", l)
+		}
+	}
 }
