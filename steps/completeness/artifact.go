@@ -36,6 +36,18 @@ type Result struct {
 	Detections []Detection
 	// Occurrence holds per cell the planets per star the detections imply.
 	Occurrence []CellOccurrence
+	// Searches lists every search of an injected planet, in the order drawn: each planet
+	// searched in its window (or over the whole range when Window is 0), then those also
+	// searched over the whole range for Check.
+	Searches []Searched
+}
+
+// Searched is one search of one injected planet: the planet with its cell and draw, the
+// window of periods searched (0: the whole range) and what became of it.
+type Searched struct {
+	Drawn
+	Window float64
+	Outcome
 }
 
 // FullCheck is the comparison of windowed and full-range searches of the same injections.
@@ -298,8 +310,11 @@ func (r *Result) Cautions() []string {
 const (
 	tag    = "completeness"
 	format = 1
-	// maxCellsDecoded bounds what a decoder accepts (maxCells² cells).
-	maxCellsDecoded = maxCells * maxCells
+	// maxCellsDecoded bounds what a decoder accepts (maxCells² cells), and
+	// maxSearchesDecoded the searches (every injection, each also checked over the whole
+	// range).
+	maxCellsDecoded    = maxCells * maxCells
+	maxSearchesDecoded = 2 * maxCellsDecoded * maxPerCell
 )
 
 // Encode returns the canonical encoding.
@@ -329,6 +344,15 @@ func (r *Result) Encode() []byte {
 	for _, d := range r.Detections {
 		w.String(d.Name)
 		w.Floats([]float64{d.Period, d.RadiusRatio})
+	}
+	w.Uint64(uint64(len(r.Searches)))
+	for _, s := range r.Searches {
+		inj := s.Injection
+		w.Ints([]int{s.Cell, s.Index})
+		w.Floats([]float64{inj.Period, inj.Epoch, inj.RadiusRatio, inj.Impact, s.Window, s.FoundPeriod, s.FoundEpoch, s.SDE})
+		w.Bool(s.Recovered)
+		w.Bool(s.Harmonic)
+		w.Bool(s.Windowed)
 	}
 	return w.Bytes()
 }
@@ -380,6 +404,22 @@ func Decode(b []byte) (*Result, error) {
 			return nil, errors.Join(errors.New("completeness: malformed planet"), rd.Err())
 		}
 		r.Detections = append(r.Detections, Detection{Name: name, Period: v[0], RadiusRatio: v[1], Cell: -1, Efficiency: math.NaN()})
+	}
+	ns := rd.Uint64()
+	if ns > maxSearchesDecoded {
+		return nil, fmt.Errorf("completeness: malformed result: %d searches", ns)
+	}
+	for i := uint64(0); i < ns; i++ {
+		ix, v := rd.Ints(), rd.Floats()
+		rec, harm, win := rd.Bool(), rd.Bool(), rd.Bool()
+		if len(ix) != 2 || len(v) != 8 {
+			return nil, errors.Join(errors.New("completeness: malformed search"), rd.Err())
+		}
+		r.Searches = append(r.Searches, Searched{
+			Drawn:   Drawn{Cell: ix[0], Index: ix[1], Injection: Injection{Period: v[0], Epoch: v[1], RadiusRatio: v[2], Impact: v[3]}},
+			Window:  v[4],
+			Outcome: Outcome{Recovered: rec, Harmonic: harm, Windowed: win, FoundPeriod: v[5], FoundEpoch: v[6], SDE: v[7]},
+		})
 	}
 	if err := rd.Err(); err != nil {
 		return nil, fmt.Errorf("completeness: %w", err)

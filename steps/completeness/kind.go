@@ -151,12 +151,18 @@ func (k Kind) Run(ctx context.Context, c *Config, in steps.Inputs, env steps.Env
 		return nil, err
 	}
 	res.Harmonics = countHarmonics(out)
+	for i, d := range drawn {
+		res.Searches = append(res.Searches, Searched{Drawn: d, Window: c.Window, Outcome: out[i]})
+	}
 	if c.FullChecks > 0 {
 		fullOut, err := pieces.all(ctx, drawn[:c.FullChecks], 0)
 		if err != nil {
 			return nil, err
 		}
 		res.Check = compare(out[:c.FullChecks], fullOut, c.Window)
+		for i, o := range fullOut {
+			res.Searches = append(res.Searches, Searched{Drawn: drawn[i], Window: 0, Outcome: o})
+		}
 	}
 	res.Detections = detectionsOf(in, host)
 	res.occurrence()

@@ -256,6 +256,13 @@ func TestTheResultReadsBackAsWritten(t *testing.T) {
 	if got := steptest.Column(t, data["map"], "injected"); len(got) != 4 || got[0] != 2 {
 		t.Errorf("the map's injected column %v, want 2 in each of 4 cells", got)
 	}
+	// Every search is listed: two per cell in its window, then the two checked over the
+	// whole range (window 0), the same planets as the first two.
+	win := steptest.Column(t, data["injections"], "window")
+	per := steptest.Column(t, data["injections"], "period_d")
+	if len(win) != 10 || win[0] != 0.3 || win[8] != 0 || win[9] != 0 || per[8] != per[0] || per[9] != per[1] {
+		t.Errorf("the injections' windows %v and periods %v; want 8 windowed searches then 2 over the whole range of the first two planets", win, per)
+	}
 	golden.Check(t, "../..", Kind{}.Name(), Kind{}.Version(), r)
 }
 

@@ -16,7 +16,7 @@ func (Kind) Present(_ *Config, art steps.Artifact, _ steps.Inputs) (steps.Presen
 	}
 	return steps.Presentation{
 		Panels: []steps.Panel{r.curvesPanel(), r.mapPanel(), r.planetsPanel()},
-		Data:   []steps.Data{r.mapData()},
+		Data:   []steps.Data{r.mapData(), r.searchData()},
 	}, nil
 }
 
@@ -113,6 +113,37 @@ func (r *Result) planetsPanel() steps.Panel {
 	return steps.Panel{Title: "The planets on the map", Table: t}
 }
 
+// searchData is every search of an injected planet, one row each: its cell (from 1) and
+// draw, the planet, the window searched (0: the whole range), and what became of it.
+func (r *Result) searchData() steps.Data {
+	names := []string{"cell", "draw", "period_d", "epoch_d", "radius_ratio", "impact", "window",
+		"recovered", "harmonic", "found_period_d", "found_epoch_d", "sde"}
+	cols := make([][]float64, len(names))
+	flag := func(b bool) float64 {
+		if b {
+			return 1
+		}
+		return 0
+	}
+	for _, s := range r.Searches {
+		inj := s.Injection
+		for k, v := range []float64{float64(s.Cell + 1), float64(s.Index), inj.Period, inj.Epoch, inj.RadiusRatio, inj.Impact,
+			s.Window, flag(s.Recovered), flag(s.Harmonic), s.FoundPeriod, s.FoundEpoch, s.SDE} {
+			cols[k] = append(cols[k], v)
+		}
+	}
+	return dataOf("injections", names, cols)
+}
+
+// dataOf names the columns cols.
+func dataOf(name string, names []string, cols [][]float64) steps.Data {
+	d := steps.Data{Name: name}
+	for k, n := range names {
+		d.Series = append(d.Series, steps.Series{Name: n, Values: cols[k]})
+	}
+	return d
+}
+
 // mapData is every cell's numbers, one row per cell.
 func (r *Result) mapData() steps.Data {
 	names := []string{"period_lo_d", "period_hi_d", "radius_ratio_lo", "radius_ratio_hi", "radius_lo_earth", "radius_hi_earth",
@@ -127,9 +158,5 @@ func (r *Result) mapData() steps.Data {
 			cols[k] = append(cols[k], v)
 		}
 	}
-	d := steps.Data{Name: "map"}
-	for k, n := range names {
-		d.Series = append(d.Series, steps.Series{Name: n, Values: cols[k]})
-	}
-	return d
+	return dataOf("map", names, cols)
 }
