@@ -1,6 +1,7 @@
 package completeness
 
 import (
+	"context"
 	"testing"
 	"time"
 )
@@ -30,7 +31,7 @@ func BenchmarkInjections4yr(b *testing.B) {
 	var total time.Duration
 	for i := 0; i < b.N; i++ {
 		start := time.Now()
-		out, err := RunAll(lc, drawn, sunLike, dcfg, scfg, 0.3, nil, nil)
+		out, err := RunAll(context.Background(), lc, drawn, sunLike, dcfg, scfg, 0.3, nil, nil)
 		if err != nil {
 			b.Fatal(err)
 		}

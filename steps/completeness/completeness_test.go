@@ -1,6 +1,7 @@
 package completeness
 
 import (
+	"context"
 	"math"
 	"os"
 	"reflect"
@@ -598,7 +599,7 @@ func TestRecoveredFractionRisesWithSNR(t *testing.T) {
 	frac := make([]float64, len(bins))
 	for b, x := range bins {
 		drawn := snrPlan(t, lc, per, uint64(100+b), 0.95*x*snr0, 1.05*x*snr0)
-		out, err := RunAll(lc, drawn, sunLike, dcfg, scfg, 0, pool, nil)
+		out, err := RunAll(context.Background(), lc, drawn, sunLike, dcfg, scfg, 0, pool, nil)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -658,11 +659,11 @@ func TestWindowedAgreesWithFull(t *testing.T) {
 	}
 	drawn := snrPlan(t, lc, n, 77, lo, hi)
 	pool := steps.NewPool(2)
-	full, err := RunAll(lc, drawn, sunLike, dcfg, scfg, 0, pool, nil)
+	full, err := RunAll(context.Background(), lc, drawn, sunLike, dcfg, scfg, 0, pool, nil)
 	if err != nil {
 		t.Fatal(err)
 	}
-	win, err := RunAll(lc, drawn, sunLike, dcfg, scfg, 0.3, pool, nil)
+	win, err := RunAll(context.Background(), lc, drawn, sunLike, dcfg, scfg, 0.3, pool, nil)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -704,13 +705,13 @@ func TestOutcomesIndependentOfWorkers(t *testing.T) {
 		t.Fatal(err)
 	}
 	for _, window := range []float64{0, 0.3} {
-		serial, err := RunAll(lc, drawn, sunLike, dcfg, scfg, window, nil, nil)
+		serial, err := RunAll(context.Background(), lc, drawn, sunLike, dcfg, scfg, window, nil, nil)
 		if err != nil {
 			t.Fatal(err)
 		}
 		calls, last := 0, 0
 		told := make([]Outcome, len(drawn))
-		two, err := RunAll(lc, drawn, sunLike, dcfg, scfg, window, steps.NewPool(2), func(i int, o Outcome, done int) {
+		two, err := RunAll(context.Background(), lc, drawn, sunLike, dcfg, scfg, window, steps.NewPool(2), func(i int, o Outcome, done int) {
 			calls++
 			if done < last || done > len(drawn) {
 				t.Errorf("progress %d of %d after %d", done, len(drawn), last)

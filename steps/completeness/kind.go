@@ -398,16 +398,13 @@ func (r *recoverer) all(ctx context.Context, drawn []Drawn, window float64) ([]O
 	for j, i := range missing {
 		todo[j] = drawn[i]
 	}
-	got, err := RunAll(r.raw, todo, r.st, r.dcfg, r.scfg, window, r.env.Pool, func(j int, o Outcome, _ int) {
+	got, err := RunAll(ctx, r.raw, todo, r.st, r.dcfg, r.scfg, window, r.env.Pool, func(j int, o Outcome, _ int) {
 		if r.env.Parts != nil {
 			r.env.Parts.Put(pieceKey(todo[j], window), encodeOutcome(o))
 		}
 		r.tick()
 	})
 	if err != nil {
-		return nil, err
-	}
-	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
 	for j, i := range missing {

@@ -319,3 +319,33 @@ func TestASurveysMapsAddUp(t *testing.T) {
 		t.Errorf("through the wrapper: %v", err)
 	}
 }
+
+// A run stopped half-way returns the stop and keeps the injections it finished, so the
+// next run makes only the rest and gives a fresh run's bytes.
+func TestAStoppedRunKeepsWhatItFinished(t *testing.T) {
+	set := map[string]any{"light_curve": "photometry.raw", "detrend": "detrend.flat", "search": "search.dips",
+		"period_range": []string{"1 d", "6 d"}, "period_cells": 2, "radius_cells": 1, "per_cell": 4}
+	cfg, err := steptest.Config(New(), set)
+	if err != nil {
+		t.Fatal(err)
+	}
+	parts := &memoParts{m: map[string][]byte{}}
+	ctx, cancel := context.WithCancel(context.Background())
+	env := steps.Env{Seed: 9, Parts: parts, Notef: func(string, ...any) {},
+		Progress: func(done, total int) {
+			if done == 3 {
+				cancel()
+			}
+		}}
+	if _, err := New().Run(ctx, cfg, kindInputs(t), env); err != context.Canceled {
+		t.Fatalf("a stopped run returned %v, want the stop", err)
+	}
+	if parts.puts != 3 {
+		t.Fatalf("the stopped run kept %d injections, want the 3 it finished", parts.puts)
+	}
+	parts.puts = 0
+	resumed := runKind(t, set, parts)
+	if parts.puts != 5 || !bytes.Equal(resumed.Encode(), runKind(t, set, nil).Encode()) {
+		t.Errorf("the resumed run made %d injections (want 5) or differs from a fresh run", parts.puts)
+	}
+}

@@ -1,6 +1,7 @@
 package completeness
 
 import (
+	"context"
 	"errors"
 	"fmt"
 	"math"
@@ -23,7 +24,10 @@ import (
 // injection that succeeded, one call at a time, with its index in drawn, its outcome and
 // the number done so far (never decreasing), so a caller can keep each outcome as soon as
 // it is known. The first error, in the order of drawn, is returned.
-func RunAll(raw *lightcurve.LightCurve, drawn []Drawn, st Star, dcfg detrend.Config, scfg search.Config, window float64, pool *steps.Pool, finished func(i int, o Outcome, done int)) ([]Outcome, error) {
+//
+// When ctx is cancelled, the injections not yet begun are not begun, and ctx's error is
+// returned once those running have finished (and been told to finished).
+func RunAll(ctx context.Context, raw *lightcurve.LightCurve, drawn []Drawn, st Star, dcfg detrend.Config, scfg search.Config, window float64, pool *steps.Pool, finished func(i int, o Outcome, done int)) ([]Outcome, error) {
 	if raw == nil {
 		return nil, errors.New("completeness: no light curve to inject into")
 	}
@@ -48,6 +52,9 @@ func RunAll(raw *lightcurve.LightCurve, drawn []Drawn, st Star, dcfg detrend.Con
 		done int
 	)
 	pool.Parallel(len(drawn), func(i int) {
+		if errs[i] = ctx.Err(); errs[i] != nil {
+			return
+		}
 		out[i], errs[i] = recoverWith(raw, drawn[i], st, dcfg, scfg, window, ref, pool)
 		if finished != nil && errs[i] == nil {
 			mu.Lock()
