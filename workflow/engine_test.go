@@ -314,6 +314,13 @@ func TestAStepTakesAnothersSettingsNotItsResult(t *testing.T) {
 	if st["mimic.m"] != StatusComputed || valueOf(t, rep, "mimic.m") != 7.5 { // 3.75 × source.b's scale 2
 		t.Fatalf("first run: mimic.m %s, %v; want computed, 7.5", st["mimic.m"], valueOf(t, rep, "mimic.m"))
 	}
+	w, err := p.load()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got := w.Step("mimic.m").Rendered()["like"]; !strings.HasPrefix(got, "source.b {") || !strings.Contains(got, "scale = 2") {
+		t.Errorf("mimic.m's record shows like as %q, want source.b with its settings", got)
+	}
 	p.write("data/b.txt", "11\n")
 	st, _ = p.run()
 	if st["source.b"] != StatusComputed || st["mimic.m"] != StatusReused {

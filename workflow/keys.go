@@ -5,6 +5,7 @@ import (
 	"encoding/binary"
 	"fmt"
 	"runtime"
+	"strings"
 
 	"dipline/cache"
 	"dipline/steps"
@@ -133,9 +134,23 @@ func (w *Workflow) StepSeed(s *Step) uint64 {
 	return binary.LittleEndian.Uint64(h.Sum(nil))
 }
 
+// SettingsParams lists the step's settings parameters (steps.SettingsRef) in name order.
+func (s *Step) SettingsParams() []string { return sortedKeys(s.Settings) }
+
 // Rendered returns each attribute's decoded value as text for people: quantities in
-// their base unit, references as written, files as paths. Provenance records keep it so
-// that a later run can say which attribute changed.
+// their base unit, references as written, files as paths, and another step's settings as
+// its address with those settings rendered after it ("detrend.spots {degree = 2; …}"), so
+// that what a step borrowed is on its own record. Provenance records keep it so that a
+// later run can say which attribute changed.
 func (s *Step) Rendered() map[string]string {
-	return s.Kind.Schema().Render(s.Config)
+	out := s.Kind.Schema().Render(s.Config)
+	for name, dep := range s.Settings {
+		lent := dep.Rendered()
+		parts := make([]string, 0, len(lent))
+		for _, k := range sortedKeys(lent) {
+			parts = append(parts, k+" = "+lent[k])
+		}
+		out[name] = dep.Addr + " {" + strings.Join(parts, "; ") + "}"
+	}
+	return out
 }

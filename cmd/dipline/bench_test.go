@@ -211,3 +211,50 @@ func BenchmarkSurvey8Targets(b *testing.B) {
 	b.ReportMetric(two, "2-workers-s")
 	b.ReportMetric(one/two, "speed-up")
 }
+
+// BenchmarkInjections1000x4yr runs a thousand injections through a completeness step on the
+// starter benchmark's four-year light curve, as a user would: the starter's workflow plus a
+// completeness step taking the first detrend's and the second search's settings, 2 × 2 cells
+// over 0.5–100 d and the default radius range, 250 planets per cell, windowed searches, two
+// workers. It reports the completeness step's own wall time in minutes (the target: at most
+// 15) apart from the starter's steps before it, and the planets recovered.
+//
+//	go test ./cmd/dipline -run '^$' -bench Injections1000x4yr -benchtime 1x -timeout 60m
+func BenchmarkInjections1000x4yr(b *testing.B) {
+	const thousand = `
+completeness "thousand" {
+  light_curve  = photometry.lc
+  detrend      = detrend.first
+  search       = search.dips
+  period_range = ["0.5 d", "100 d"]
+  period_cells = 2
+  radius_cells = 2
+  per_cell     = 250
+}
+`
+	dir := b.TempDir()
+	lc := benchLightCurve()
+	var starter, injections time.Duration
+	for i := 0; i < b.N; i++ {
+		run := filepath.Join(dir, fmt.Sprint(i))
+		os.MkdirAll(run, 0o755)
+		os.WriteFile(filepath.Join(run, "analysis.hcl"), []byte(starterBenchWorkflow), 0o644)
+		os.WriteFile(filepath.Join(run, "lc.csv"), []byte(lc), 0o644)
+		f := &folder{t: &testing.T{}, dir: run}
+		t0 := time.Now()
+		if code, out, errs := f.dipline("run", "--workers", "2", "--quiet"); code != 0 {
+			b.Fatalf("the starter's steps: exit %d\n%s\n%s", code, out, errs)
+		}
+		starter += time.Since(t0)
+		os.WriteFile(filepath.Join(run, "analysis.hcl"), []byte(starterBenchWorkflow+thousand), 0o644)
+		t0 = time.Now()
+		code, out, errs := f.dipline("run", "--workers", "2", "--quiet")
+		injections += time.Since(t0)
+		if code != 0 || !strings.Contains(out, "injections") {
+			b.Fatalf("the completeness step: exit %d\n%s\n%s", code, out, errs)
+		}
+		b.Log(out[strings.Index(out, "completeness.thousand"):])
+	}
+	b.ReportMetric(starter.Seconds()/float64(b.N), "starter-s")
+	b.ReportMetric(injections.Minutes()/float64(b.N), "min/1000-injections")
+}

@@ -206,6 +206,13 @@ func (c *cli) check(args []string) int {
 		if len(deps) > 0 {
 			line += "  ← " + strings.Join(deps, ", ")
 		}
+		var lenders []string
+		for _, name := range s.SettingsParams() {
+			lenders = append(lenders, s.Settings[name].Addr)
+		}
+		if len(lenders) > 0 {
+			line += "; the settings of " + strings.Join(lenders, ", ")
+		}
 		fmt.Fprintln(c.out, line)
 	}
 	return exitOK
