@@ -175,14 +175,18 @@ func TestACatalogueRevisionRerunsOnlyTheStarsReaders(t *testing.T) {
 		}
 	}
 	write("data/nearby_stars.csv", files["data/nearby_stars_rev2.csv"])
+	// The completeness step reads the star too: its density shapes the injected transits
+	// and its radius turns the map's Earth radii into radius ratios.
 	want := map[string]string{"star.host": workflow.StatusComputed, "dilution.aperture": workflow.StatusComputed,
-		"derive.planets": workflow.StatusComputed, "vet.planets": workflow.StatusComputed}
+		"derive.planets": workflow.StatusComputed, "vet.planets": workflow.StatusComputed,
+		"completeness.reach": workflow.StatusComputed}
 	expectStatuses(t, "after the revision", statuses(runDir(t, dir, shortFit...)), want)
 	// A prior changed for the fit re-runs the fit and what reads it, nothing upstream.
 	prior := append(append([]workflow.Override(nil), shortFit...),
 		workflow.Override{Addr: "fit.planets", Attr: "priors", Value: `{ "b.b" = "uniform(0, 0.9)" }`})
 	want = map[string]string{"fit.planets": workflow.StatusComputed, "derive.planets": workflow.StatusComputed,
-		"vet.planets": workflow.StatusComputed, "ephemeris.next": workflow.StatusComputed}
+		"vet.planets": workflow.StatusComputed, "ephemeris.next": workflow.StatusComputed,
+		"completeness.reach": workflow.StatusComputed} // the fit's limb darkening and planets
 	expectStatuses(t, "after a prior changed", statuses(runDir(t, dir, prior...)), want)
 }
 
