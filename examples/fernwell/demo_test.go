@@ -45,12 +45,17 @@ func readTruth(t *testing.T) truth {
 
 // quickFit keeps the demo tests' fits short: a few thousand steps give medians near the
 // posterior's and exercise every step; the full run to 50 autocorrelation times is
-// TestTheFullDemoCoversTheTruth.
-var quickFit = []workflow.Override{{Addr: "fit.planets", Attr: "max_steps", Value: "2500"}}
+// TestTheFullDemoCoversTheTruth. The completeness map is small too (3 planets per cell).
+var quickFit = []workflow.Override{{Addr: "fit.planets", Attr: "max_steps", Value: "2500"},
+	{Addr: "completeness.reach", Attr: "per_cell", Value: "3"},
+	{Addr: "completeness.reach", Attr: "full_grid_checks", Value: "3"}}
 
-// shortFit is for the runs that check only the search on other light curves: the fit
-// still runs (every step must work on them), briefly.
-var shortFit = []workflow.Override{{Addr: "fit.planets", Attr: "max_steps", Value: "300"}}
+// quick is for the runs that check something other than the fit and the completeness map
+// (the search on other light curves, what a revision re-runs, the page): both still run,
+// as every step must work, briefly.
+var quick = []workflow.Override{{Addr: "fit.planets", Attr: "max_steps", Value: "300"},
+	{Addr: "completeness.reach", Attr: "per_cell", Value: "3"},
+	{Addr: "completeness.reach", Attr: "full_grid_checks", Value: "3"}}
 
 // catalogueFiles are the star's catalogue and imaging table, which every run needs.
 var catalogueFiles = map[string]string{
@@ -168,8 +173,8 @@ func TestACatalogueRevisionRerunsOnlyTheStarsReaders(t *testing.T) {
 		}
 		return st
 	}
-	checkPaperReady(t, dir, runDir(t, dir, shortFit...))
-	for addr, s := range statuses(runDir(t, dir, shortFit...)) {
+	checkPaperReady(t, dir, runDir(t, dir, quick...))
+	for addr, s := range statuses(runDir(t, dir, quick...)) {
 		if s != workflow.StatusReused {
 			t.Errorf("second run: %s %s, want reused", addr, s)
 		}
@@ -180,9 +185,9 @@ func TestACatalogueRevisionRerunsOnlyTheStarsReaders(t *testing.T) {
 	want := map[string]string{"star.host": workflow.StatusComputed, "dilution.aperture": workflow.StatusComputed,
 		"derive.planets": workflow.StatusComputed, "vet.planets": workflow.StatusComputed,
 		"completeness.reach": workflow.StatusComputed}
-	expectStatuses(t, "after the revision", statuses(runDir(t, dir, shortFit...)), want)
+	expectStatuses(t, "after the revision", statuses(runDir(t, dir, quick...)), want)
 	// A prior changed for the fit re-runs the fit and what reads it, nothing upstream.
-	prior := append(append([]workflow.Override(nil), shortFit...),
+	prior := append(append([]workflow.Override(nil), quick...),
 		workflow.Override{Addr: "fit.planets", Attr: "priors", Value: `{ "b.b" = "uniform(0, 0.9)" }`})
 	want = map[string]string{"fit.planets": workflow.StatusComputed, "derive.planets": workflow.StatusComputed,
 		"vet.planets": workflow.StatusComputed, "ephemeris.next": workflow.StatusComputed,
@@ -344,7 +349,7 @@ func TestTheWorkflowRunsOnOtherLightCurves(t *testing.T) {
 			}
 			var set []workflow.Override
 			if !c.otherStar {
-				set = shortFit
+				set = quick
 			}
 			got, _ := runIn(t, edit, map[string]string{c.file: c.from}, set...)
 			if _, ok := got["search.dips"]; !ok {
@@ -361,7 +366,7 @@ func TestTheFastLightCurveStillShowsPlanetB(t *testing.T) {
 	tr := readTruth(t)
 	b := tr.Planets[0]
 	edit := func(s string) string { return strings.Replace(s, "data/fw3318.csv", "data/fw3318_fast.csv", 1) }
-	got, _ := runIn(t, edit, map[string]string{"data/fw3318_fast.csv": "data/fw3318_fast.csv"}, shortFit...)
+	got, _ := runIn(t, edit, map[string]string{"data/fw3318_fast.csv": "data/fw3318_fast.csv"}, quick...)
 	if !finds(got["search.dips"], b.PeriodD, b.T14H/24, 30) {
 		t.Errorf("planet b not found in the 30-day, 10-minute light curve: %+v", got["search.dips"])
 	}

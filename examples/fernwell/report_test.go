@@ -99,7 +99,7 @@ func TestTheDemosPageReadsInABrowser(t *testing.T) {
 	}
 	dir := demoCopy(t, func(s string) string { return s })
 	t0 := time.Now()
-	rep := runDir(t, dir, shortFit...)
+	rep := runDir(t, dir, quick...)
 	t.Logf("the demo ran and wrote its page in %.1f s", time.Since(t0).Seconds())
 	if rep.ReportPath == "" {
 		t.Fatal("no report was written")
@@ -159,7 +159,7 @@ func TestAHostileCompanionNameIsShownAsText(t *testing.T) {
 	}
 	const name = "<script>alert(1)</script>"
 	dir := demoCopy(t, func(s string) string { return strings.ReplaceAll(s, "FW-3318 B", name) })
-	rep := runDir(t, dir, shortFit...)
+	rep := runDir(t, dir, quick...)
 	page, err := os.ReadFile(rep.ReportPath)
 	if err != nil {
 		t.Fatal(err)
