@@ -69,16 +69,22 @@ func benchLightCurve() string {
 	return b.String()
 }
 
+// starterFolder writes the starter benchmark's workflow and light curve lc into the i-th
+// folder under dir.
+func starterFolder(dir string, i int, lc string) *folder {
+	run := filepath.Join(dir, fmt.Sprint(i))
+	os.MkdirAll(run, 0o755)
+	os.WriteFile(filepath.Join(run, "analysis.hcl"), []byte(starterBenchWorkflow), 0o644)
+	os.WriteFile(filepath.Join(run, "lc.csv"), []byte(lc), 0o644)
+	return &folder{t: &testing.T{}, dir: run}
+}
+
 func BenchmarkStarterSearch4yr(b *testing.B) {
 	dir := b.TempDir()
 	lc := benchLightCurve()
 	var starter, plain time.Duration
 	for i := 0; i < b.N; i++ {
-		run := filepath.Join(dir, fmt.Sprint(i))
-		os.MkdirAll(run, 0o755)
-		os.WriteFile(filepath.Join(run, "analysis.hcl"), []byte(starterBenchWorkflow), 0o644)
-		os.WriteFile(filepath.Join(run, "lc.csv"), []byte(lc), 0o644)
-		f := &folder{t: &testing.T{}, dir: run}
+		f := starterFolder(dir, i, lc)
 		t0 := time.Now()
 		code, out, errs := f.dipline("run", "--workers", "2", "--quiet")
 		starter += time.Since(t0)
@@ -86,7 +92,7 @@ func BenchmarkStarterSearch4yr(b *testing.B) {
 			b.Fatalf("the starter's search: exit %d\n%s\n%s", code, out, errs)
 		}
 		t0 = time.Now()
-		if p := plainFoldAndScan(b, run, 2); math.Abs(p-9.7) > 0.01 {
+		if p := plainFoldAndScan(b, f.dir, 2); math.Abs(p-9.7) > 0.01 {
 			b.Fatalf("the plain search's peak is at %v d", p)
 		}
 		plain += time.Since(t0)
@@ -236,17 +242,13 @@ completeness "thousand" {
 	lc := benchLightCurve()
 	var starter, injections time.Duration
 	for i := 0; i < b.N; i++ {
-		run := filepath.Join(dir, fmt.Sprint(i))
-		os.MkdirAll(run, 0o755)
-		os.WriteFile(filepath.Join(run, "analysis.hcl"), []byte(starterBenchWorkflow), 0o644)
-		os.WriteFile(filepath.Join(run, "lc.csv"), []byte(lc), 0o644)
-		f := &folder{t: &testing.T{}, dir: run}
+		f := starterFolder(dir, i, lc)
 		t0 := time.Now()
 		if code, out, errs := f.dipline("run", "--workers", "2", "--quiet"); code != 0 {
 			b.Fatalf("the starter's steps: exit %d\n%s\n%s", code, out, errs)
 		}
 		starter += time.Since(t0)
-		os.WriteFile(filepath.Join(run, "analysis.hcl"), []byte(starterBenchWorkflow+thousand), 0o644)
+		os.WriteFile(filepath.Join(f.dir, "analysis.hcl"), []byte(starterBenchWorkflow+thousand), 0o644)
 		t0 = time.Now()
 		code, out, errs := f.dipline("run", "--workers", "2", "--quiet")
 		injections += time.Since(t0)
