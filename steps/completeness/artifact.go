@@ -27,8 +27,6 @@ type Result struct {
 	PerCell                  int
 	Window                   float64
 	Cells                    []CellSummary
-	// Harmonics counts the injections found only at half or twice their period.
-	Harmonics int
 	// Check compares the window's searches with full-range ones of the same injections;
 	// nil when none were asked for.
 	Check *FullCheck
@@ -204,14 +202,10 @@ func (r *Result) cellName(i int) string {
 	return fmt.Sprintf("p%d_r%d", i/nr+1, i%nr+1)
 }
 
-// cellWords says where cell i lies: "1.2–3.4 d, radius ratio 0.012–0.017 (1.1–1.6 R⊕)".
+// cellWords says where cell i lies: "1.2–3.4 d, k 0.012–0.017 (1.1–1.6 R⊕)".
 func (r *Result) cellWords(i int) string {
 	c := r.Cells[i].Cell
-	s := fmt.Sprintf("%.3g–%.3g d, radius ratio %.3g–%.3g", c.PeriodLo, c.PeriodHi, c.RadiusLo, c.RadiusHi)
-	if r.Host.Radius > 0 {
-		s += fmt.Sprintf(" (%.3g–%.3g R_earth)", r.earth(c.RadiusLo), r.earth(c.RadiusHi))
-	}
-	return s
+	return fmt.Sprintf("%.3g–%.3g d, %s", c.PeriodLo, c.PeriodHi, r.radiusWords(i%r.rows()))
 }
 
 // earth turns a radius ratio into Earth radii around the host (NaN without its radius).
@@ -227,15 +221,16 @@ func (r *Result) earth(k float64) float64 {
 // workflow's planets the detections and the occurrence (a cell without is 0 planets per
 // star, with the upper limit the map's data give).
 func (r *Result) Figures() []steps.Figure {
-	injected, recovered := 0, 0
+	injected, recovered, harmonics := 0, 0, 0
 	for _, c := range r.Cells {
 		injected += c.Injected
 		recovered += c.Recovered
+		harmonics += c.Harmonic
 	}
 	figs := []steps.Figure{
 		{Name: "injections", Value: float64(injected), Doc: fmt.Sprintf("planets injected, %d per cell, each searched %s", r.PerCell, r.searchWords())},
 		{Name: "recovered", Value: float64(recovered), Doc: "injections whose period (within the box search's resolution) and epoch (within half a transit) the search found"},
-		{Name: "harmonics", Value: float64(r.Harmonics), Doc: "injections found only at half or twice their period, not counted as recovered"},
+		{Name: "harmonics", Value: float64(harmonics), Doc: "injections found only at half or twice their period, not counted as recovered"},
 	}
 	if c := r.Check; c != nil {
 		figs = append(figs,
@@ -330,7 +325,6 @@ func (r *Result) Encode() []byte {
 	w.Floats(r.RadiusEdges)
 	w.Int(int64(r.PerCell))
 	w.Float(r.Window)
-	w.Int(int64(r.Harmonics))
 	w.Uint64(uint64(len(r.Cells)))
 	for _, c := range r.Cells {
 		w.Ints([]int{c.Injected, c.Recovered, c.Harmonic})
@@ -370,7 +364,7 @@ func Decode(b []byte) (*Result, error) {
 	r.Host.Density, r.Host.Radius, r.Host.U1, r.Host.U2 = rd.Float(), rd.Float(), rd.Float(), rd.Float()
 	r.Host.DensityFrom, r.Host.LimbFrom = rd.String(), rd.String()
 	r.PeriodEdges, r.RadiusEdges = rd.Floats(), rd.Floats()
-	r.PerCell, r.Window, r.Harmonics = int(rd.Int()), rd.Float(), int(rd.Int())
+	r.PerCell, r.Window = int(rd.Int()), rd.Float()
 	n := rd.Uint64()
 	if n > maxCellsDecoded {
 		return nil, fmt.Errorf("completeness: malformed result: %d cells", n)

@@ -62,9 +62,9 @@ func (Kind) Combine(ids []string, arts []steps.Artifact) (steps.Combined, error)
 		}
 		p := first.cellName(c) + "."
 		where := first.cellWords(c)
-		if earth {
+		if earth { // the radius ratios differ from star to star; the Earth radii do not
 			cl := first.Cells[c].Cell
-			where = fmt.Sprintf("%.3g–%.3g d, %.3g–%.3g R_earth", cl.PeriodLo, cl.PeriodHi, first.earth(cl.RadiusLo), first.earth(cl.RadiusHi))
+			where = fmt.Sprintf("%.3g–%.3g d, %.3g–%.3g R⊕", cl.PeriodLo, cl.PeriodHi, first.earth(cl.RadiusLo), first.earth(cl.RadiusHi))
 		}
 		out.Figures = append(out.Figures,
 			steps.Figure{Name: p + "detections", Value: float64(len(effs)), Doc: "the targets' planets at " + where},

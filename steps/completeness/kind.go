@@ -150,7 +150,6 @@ func (k Kind) Run(ctx context.Context, c *Config, in steps.Inputs, env steps.Env
 	if res.Cells, err = Summarise(drawn, out, cells, host.Density); err != nil {
 		return nil, err
 	}
-	res.Harmonics = countHarmonics(out)
 	for i, d := range drawn {
 		res.Searches = append(res.Searches, Searched{Drawn: d, Window: c.Window, Outcome: out[i]})
 	}
@@ -431,14 +430,4 @@ func (r *recoverer) kept(d Drawn, window float64) (Outcome, bool) {
 	}
 	o, err := decodeOutcome(b)
 	return o, err == nil
-}
-
-func countHarmonics(out []Outcome) int {
-	n := 0
-	for _, o := range out {
-		if o.Harmonic {
-			n++
-		}
-	}
-	return n
 }
