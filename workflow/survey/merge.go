@@ -57,7 +57,11 @@ func (e Env) Merge(t *Table, store *cache.Store) (MergeResult, error) {
 			res.Conflicts[tg.ID] = rep.Conflicts
 		}
 	}
-	b, err := e.Table(t, res.States)
+	results, err := e.readAll(t, res.States)
+	if err != nil {
+		return res, err
+	}
+	b, err := table(t, res.States, results)
 	if err != nil {
 		return res, err
 	}
@@ -65,7 +69,7 @@ func (e Env) Merge(t *Table, store *cache.Store) (MergeResult, error) {
 	if err := writeWhole(res.TablePath, b); err != nil {
 		return res, err
 	}
-	comb, cautions, err := e.Combined(t, res.States, store)
+	comb, cautions, err := e.combined(t, results, store)
 	if err != nil || comb == nil {
 		return res, err
 	}
@@ -73,14 +77,14 @@ func (e Env) Merge(t *Table, store *cache.Store) (MergeResult, error) {
 	return res, writeWhole(res.CombinedPath, comb)
 }
 
-// Combined adds up, for every step whose kind can (steps.Combiner: a completeness map's
+// combined adds up, for every step whose kind can (steps.Combiner: a completeness map's
 // occurrence, say), the results of the targets where that step finished, read from store,
 // and returns them as CSV — step, figure, value, the distances down and up to its interval's
 // ends, unit, meaning; a caution is a row whose figure is "caution" — with the cautions
 // apart. A step whose results do not add up (maps that do not line up) gives a caution
 // row saying why. nil when no step adds anything up. Rows follow the steps in the order first
 // met and each kind's own order, so the same targets give the same bytes.
-func (e Env) Combined(t *Table, states []State, store *cache.Store) ([]byte, []string, error) {
+func (e Env) combined(t *Table, results []*workflow.ResultsFile, store *cache.Store) ([]byte, []string, error) {
 	type group struct {
 		kind steps.Kind
 		ids  []string
@@ -89,11 +93,7 @@ func (e Env) Combined(t *Table, states []State, store *cache.Store) ([]byte, []s
 	groups := map[string]*group{}
 	var order []string
 	for i, tg := range t.Targets {
-		rf, err := e.readResults(tg.ID, states[i])
-		if err != nil {
-			return nil, nil, err
-		}
-		for _, s := range rf.Steps {
+		for _, s := range results[i].Steps {
 			k := e.Registry[s.Kind]
 			if k == nil || (s.Status != workflow.StatusComputed && s.Status != workflow.StatusReused) {
 				continue
@@ -165,13 +165,25 @@ func storedArtifact(store *cache.Store, k steps.Kind, key string) (steps.Artifac
 	return k.Decode(b)
 }
 
-// Table writes the survey table as CSV: per target its id, status and message, then per
+// readAll reads every target's results file, in table order (readResults).
+func (e Env) readAll(t *Table, states []State) ([]*workflow.ResultsFile, error) {
+	results := make([]*workflow.ResultsFile, len(t.Targets))
+	for i, tg := range t.Targets {
+		rf, err := e.readResults(tg.ID, states[i])
+		if err != nil {
+			return nil, err
+		}
+		results[i] = rf
+	}
+	return results, nil
+}
+
+// table writes the survey table as CSV: per target its id, status and message, then per
 // step of its results its status and step key, then every figure (value, and its σ where
 // it has one) under "step/figure" — the columns in the order first met, targets in table
 // order. It holds no times or run ids, so the same targets give the same bytes wherever
 // they ran.
-func (e Env) Table(t *Table, states []State) ([]byte, error) {
-	results := make([]*workflow.ResultsFile, len(t.Targets))
+func table(t *Table, states []State, results []*workflow.ResultsFile) ([]byte, error) {
 	var cols []string
 	seen := map[string]bool{}
 	add := func(c string) {
@@ -180,12 +192,7 @@ func (e Env) Table(t *Table, states []State) ([]byte, error) {
 			cols = append(cols, c)
 		}
 	}
-	for i, tg := range t.Targets {
-		rf, err := e.readResults(tg.ID, states[i])
-		if err != nil {
-			return nil, err
-		}
-		results[i] = rf
+	for _, rf := range results {
 		for _, s := range rf.Steps {
 			add(s.Step + " status")
 			add(s.Step + " step_key")
