@@ -77,17 +77,14 @@ func settingsKey(k *keyRecord, dep *Step) error {
 	k.str("settings")
 	k.str(dep.Kind.Name())
 	k.u64(uint64(dep.Kind.Version()))
-	return dep.Kind.Schema().Key(settingsWriter{k}, dep.Config)
+	return dep.Kind.Schema().Key(settingsWriter{stepKeyWriter{keyRecord: k}}, dep.Config)
 }
 
-// settingsWriter writes a lent configuration: its values, and for its references, files
-// and rows nothing but a mark.
-type settingsWriter struct{ *keyRecord }
+// settingsWriter writes a lent configuration as the step key writes a configuration, but
+// for its references, files and rows nothing but a mark.
+type settingsWriter struct{ stepKeyWriter }
 
-func (k settingsWriter) Str(s string)              { k.str(s) }
-func (k settingsWriter) U64(v uint64)              { k.u64(v) }
-func (k settingsWriter) F64(v float64)             { k.f64(v) }
-func (k settingsWriter) Inputs(param string) error { k.str("input"); return nil }
+func (k settingsWriter) Inputs(string) error { k.str("input"); return nil }
 
 // StepKey computes a step's key from its kind and version, its decoded configuration with
 // defaults applied, the result keys of the steps it references, the settings of the steps

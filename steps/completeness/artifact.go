@@ -28,7 +28,7 @@ type Result struct {
 	Window                   float64
 	Cells                    []CellSummary
 	// Check compares the window's searches with full-range ones of the same injections;
-	// nil when none were asked for.
+	// nil when none were asked for. It is derived from Searches (fullCheck).
 	Check *FullCheck
 	// Detections are the workflow's own planets, placed on the map.
 	Detections []Detection
@@ -80,8 +80,15 @@ type CellOccurrence struct {
 	Caution    string
 }
 
-// compare counts what the window and the full search each recovered.
-func compare(windowed, full []Outcome, window float64) *FullCheck {
+// fullCheck counts what the window and the full search each recovered among the planets
+// searched both ways: the searches past the planned ones (PerCell per cell) are the full
+// searches of the first planets drawn. nil when there are none.
+func (r *Result) fullCheck() *FullCheck {
+	planned := r.PerCell * len(r.Cells)
+	if len(r.Searches) <= planned {
+		return nil
+	}
+	windowed, full := r.Searches[:len(r.Searches)-planned], r.Searches[planned:]
 	c := &FullCheck{Checked: len(full)}
 	for i := range full {
 		w, f := windowed[i].Recovered, full[i].Recovered
@@ -330,10 +337,6 @@ func (r *Result) Encode() []byte {
 		w.Ints([]int{c.Injected, c.Recovered, c.Harmonic})
 		w.Floats([]float64{c.Fraction, c.Interval.Lower, c.Interval.Upper, c.MeanPeriod, c.TransitProbability})
 	}
-	w.Bool(r.Check != nil)
-	if c := r.Check; c != nil {
-		w.Ints([]int{c.Checked, c.Windowed, c.Full, c.OnlyFull, c.OnlyWindowed})
-	}
 	w.Uint64(uint64(len(r.Detections)))
 	for _, d := range r.Detections {
 		w.String(d.Name)
@@ -381,13 +384,6 @@ func Decode(b []byte) (*Result, error) {
 		r.Cells = append(r.Cells, CellSummary{Cell: c, Injected: counts[0], Recovered: counts[1], Harmonic: counts[2],
 			Fraction: vals[0], Interval: proportion.Interval{Lower: vals[1], Upper: vals[2]}, MeanPeriod: vals[3], TransitProbability: vals[4]})
 	}
-	if rd.Bool() {
-		v := rd.Ints()
-		if len(v) != 5 {
-			return nil, errors.Join(errors.New("completeness: malformed comparison"), rd.Err())
-		}
-		r.Check = &FullCheck{Checked: v[0], Windowed: v[1], Full: v[2], OnlyFull: v[3], OnlyWindowed: v[4]}
-	}
 	nd := rd.Uint64()
 	if nd > 26 {
 		return nil, errors.New("completeness: malformed result: too many planets")
@@ -418,9 +414,10 @@ func Decode(b []byte) (*Result, error) {
 	if err := rd.Err(); err != nil {
 		return nil, fmt.Errorf("completeness: %w", err)
 	}
-	if !(r.Host.Density > 0) {
-		return nil, errors.New("completeness: malformed result: no density")
+	if !(r.Host.Density > 0) || len(r.Searches) < r.PerCell*len(r.Cells) || len(r.Searches) > 2*r.PerCell*len(r.Cells) {
+		return nil, errors.New("completeness: malformed result: no density, or searches that do not fit the grid")
 	}
+	r.Check = r.fullCheck()
 	r.occurrence()
 	return r, nil
 }

@@ -5,10 +5,11 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"sort"
+	"slices"
 
 	"dipline/steps"
 	"dipline/steps/detrend"
+	"dipline/steps/detrend/robust"
 	"dipline/steps/fit"
 	"dipline/steps/internal/lightcurve"
 	"dipline/steps/internal/signals"
@@ -158,11 +159,11 @@ func (k Kind) Run(ctx context.Context, c *Config, in steps.Inputs, env steps.Env
 		if err != nil {
 			return nil, err
 		}
-		res.Check = compare(out[:c.FullChecks], fullOut, c.Window)
 		for i, o := range fullOut {
 			res.Searches = append(res.Searches, Searched{Drawn: drawn[i], Window: 0, Outcome: o})
 		}
 	}
+	res.Check = res.fullCheck()
 	res.Detections = detectionsOf(in, host)
 	res.occurrence()
 	return res, nil
@@ -273,19 +274,12 @@ func limbOf(fa *fit.Artifact, raw *lightcurve.LightCurve) (q1, q2 float64, ok bo
 	return 0, 0, false
 }
 
-// median is the middle value of v (the mean of the two middle ones for an even count), or
-// NaN for none.
+// median is the middle value of v (robust.Median of a sorted copy), or NaN for none.
 func median(v []float64) float64 {
 	if len(v) == 0 {
 		return math.NaN()
 	}
-	s := append([]float64(nil), v...)
-	sort.Float64s(s)
-	n := len(s)
-	if n%2 == 1 {
-		return s[n/2]
-	}
-	return (s[n/2-1] + s[n/2]) / 2
+	return robust.Median(slices.Sorted(slices.Values(v)))
 }
 
 // edges returns the grid's period edges (days) and radius-ratio edges, equal in the
@@ -339,19 +333,22 @@ func logEdges(r [2]float64, n int) []float64 {
 }
 
 // transitRatio is the radius ratio whose central transit at period (days) reaches snrGoal
-// in raw: depth k² = snrGoal·σ/√n, σ the point-to-point scatter of the flux (1.4826 × the
-// median absolute difference of neighbours, over √2: robust to slow trends and flares) and
+// in raw: depth k² = snrGoal·σ/√n, σ the point-to-point scatter of the flux (the robust
+// scatter of the differences of neighbours, over √2: robust to slow trends and flares) and
 // n the points in transit over the data, T14·(baseline/P)/cadence with T14 = P/(π·a/R*).
 func transitRatio(raw *lightcurve.LightCurve, h Host, period float64) float64 {
 	var diffs []float64
 	var n int
 	for _, s := range raw.Segments {
 		for i := 1; i < len(s.Flux); i++ {
-			diffs = append(diffs, math.Abs(s.Flux[i]-s.Flux[i-1]))
+			diffs = append(diffs, s.Flux[i]-s.Flux[i-1])
 		}
 		n += len(s.Time)
 	}
-	sigma := 1.4826 * median(diffs) / math.Sqrt2
+	sigma := 0.0
+	if len(diffs) > 0 {
+		sigma = robust.RobustSigma(diffs) / math.Sqrt2
+	}
 	baseline := raw.Baseline()
 	if !(sigma > 0) || n < 2 || !(baseline > 0) {
 		return 0
@@ -371,6 +368,9 @@ type recoverer struct {
 	env   steps.Env
 	done  int // injections finished, found or computed, over both passes
 	total int
+	// spanFixed says dcfg's span is chosen (FixSpan): once for both passes, and only
+	// when an injection is to be made.
+	spanFixed bool
 }
 
 // all returns the outcome of each drawn planet searched with window: taken from the step's
@@ -392,6 +392,9 @@ func (r *recoverer) all(ctx context.Context, drawn []Drawn, window float64) ([]O
 	}
 	if len(missing) < len(drawn) {
 		r.env.Note("%d of %d injections (window %v) taken from the ones made before; %d made now", len(drawn)-len(missing), len(drawn), window, len(missing))
+	}
+	if !r.spanFixed { // RunAll would choose it again for each pass
+		r.dcfg, r.spanFixed = FixSpan(r.dcfg, r.raw, r.env.Pool), true
 	}
 	todo := make([]Drawn, len(missing))
 	for j, i := range missing {

