@@ -335,6 +335,10 @@ func (fo *folders) openDiag(r hcl.Range, what, p string, err error) *hcl.Diagnos
 // "output".
 func outsideDiag(r hcl.Range, what, p, dir string) *hcl.Diagnostic {
 	if filepath.IsAbs(p) {
+		if rel, ok := within(dir, filepath.Clean(p)); ok {
+			return attrDiag(r, fmt.Sprintf("The %s %s is written as an absolute path; write it as %s, relative to the workflow's folder.", what, quote(p), quote(filepath.ToSlash(rel))),
+				"An absolute path would lead a collaborator's copy of the folder back to yours.")
+		}
 		return attrDiag(r, fmt.Sprintf("The %s %s lies outside the workflow's folder (%s).", what, quote(p), dir),
 			"Name files relative to the workflow's folder, so that a collaborator's copy finds the same files. "+allowHint)
 	}

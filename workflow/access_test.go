@@ -190,6 +190,23 @@ func TestPathsThatLeaveTheFolderAreRefused(t *testing.T) {
 	}
 }
 
+func TestAnAbsolutePathInsideTheFolderIsAskedForRelative(t *testing.T) {
+	c := newConfined(t)
+	c.put(c.dir, "data/stars.csv", "name,parallax\nFW-2,12\n")
+	abs := filepath.Join(c.dir, "data", "stars.csv")
+	_, diags := c.load("analysis \"toy\" {\n  seed = 1\n}\n\ncatalogue \"near\" {\n  file = \""+abs+"\"\n}\n", Access{})
+	if !diags.HasErrors() {
+		t.Fatal("loaded; want a refusal (an absolute path would lead a copy of the folder back here)")
+	}
+	msg := Message(diags[0])
+	if strings.Contains(msg, "outside") || !strings.Contains(msg, `write it as "data/stars.csv"`) {
+		t.Errorf("diagnostic %q; want the relative path offered, not \"outside\"", msg)
+	}
+	if d := diags[0]; d.Subject == nil || d.Subject.Start.Line != 6 {
+		t.Errorf("diagnostic at %v, want line 6", d.Subject)
+	}
+}
+
 func TestAlsoAllowWidensWhatTheWorkflowMayUse(t *testing.T) {
 	cases := []struct {
 		name  string

@@ -141,6 +141,7 @@ func (w *Workflow) decodeCatalogue(b *hcl.Block) (*Catalogue, hcl.Diagnostics) {
 // that a bad cell in a column nobody reads stops nothing. The index may take at most budget
 // bytes (rowBytes and the id per row).
 func (c *Catalogue) parse(data []byte, idCol string, budget int64) error {
+	data = bytes.TrimPrefix(data, utf8BOM) // some spreadsheets save one; it is not part of the first column's name
 	headerLine, ok := firstLine(data)
 	if !ok {
 		return fmt.Errorf("%s: no header line", c.Path)

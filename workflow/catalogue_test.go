@@ -156,6 +156,21 @@ func TestCatalogueMistakesAreDiagnosed(t *testing.T) {
 			t.Fatal(err)
 		}
 	})
+	t.Run("a byte-order mark before the header is not part of the first column's name", func(t *testing.T) {
+		p := newProject(t, map[string]string{"analysis.hcl": catalogueFlow, "stars.csv": "\ufeff" + stars})
+		_, rep := p.run()
+		if got := valueOf(t, rep, "lookup.host"); got != 12.3+3300 {
+			t.Errorf("lookup.host = %v with a byte-order mark, want 3312.3", got)
+		}
+	})
+	t.Run("a short id column name is not matched to a far one", func(t *testing.T) {
+		flow := strings.Replace(catalogueFlow, `id   = "name"`, `id   = "id"`, 1)
+		p := newProject(t, map[string]string{"analysis.hcl": flow, "stars.csv": strings.Replace(stars, "name,", "j,", 1)})
+		_, err := p.load()
+		if err == nil || !strings.Contains(err.Error(), `no id column "id"`) || strings.Contains(err.Error(), "Did you mean") {
+			t.Errorf("error %v; want the missing column named and no guess two edits from a two-letter name", err)
+		}
+	})
 	t.Run("a renamed column is found through the catalogue block", func(t *testing.T) {
 		flow := strings.Replace(catalogueFlow, `id   = "name"`, "id   = \"name\"\n  columns = { parallax = \"PLX\" }", 1)
 		p := newProject(t, map[string]string{"analysis.hcl": flow, "stars.csv": strings.Replace(stars, "parallax", "plx", 1)})

@@ -18,7 +18,7 @@ package workflow
 import (
 	"crypto/sha256"
 	"fmt"
-	"math"
+	"math/big"
 	"path/filepath"
 
 	"github.com/hashicorp/hcl/v2"
@@ -295,11 +295,10 @@ func (w *Workflow) decodeSettings(b *hcl.Block, places *settingsPlaces) hcl.Diag
 		v, d := a.Expr.Value(nil)
 		diags = append(diags, d...)
 		if !d.HasErrors() {
-			f, ok := number(v)
-			if !ok || f != math.Trunc(f) || f < 0 || f > 1<<53 {
-				diags = append(diags, attrDiag(a.Expr.Range(), "The seed must be a whole number from 0 to 2^53.", "For example seed = 4711."))
+			if seed, ok := seedOf(v); ok {
+				w.Seed = seed
 			} else {
-				w.Seed = uint64(f)
+				diags = append(diags, attrDiag(a.Expr.Range(), "The seed must be a whole number from 0 to 2^53.", "For example seed = 4711."))
 			}
 		}
 	}
@@ -342,6 +341,23 @@ func (w *Workflow) place(p settingsPlaces) hcl.Diagnostics {
 	}
 	w.StorePath, w.OutputDir = store, out
 	return diags
+}
+
+// seedOf reads a seed exactly: HCL keeps numbers at arbitrary precision, so 2^53 + 1 is
+// refused rather than rounded onto 2^53 (two seeds must never give the same draws).
+func seedOf(v cty.Value) (uint64, bool) {
+	if v.IsNull() || !v.IsKnown() || v.Type() != cty.Number {
+		return 0, false
+	}
+	b := v.AsBigFloat()
+	if !b.IsInt() || b.Sign() < 0 {
+		return 0, false
+	}
+	u, acc := b.Uint64()
+	if acc != big.Exact || u > 1<<53 {
+		return 0, false
+	}
+	return u, true
 }
 
 func number(v cty.Value) (float64, bool) {

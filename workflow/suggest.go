@@ -24,10 +24,15 @@ func suggest(given string, candidates []string) string {
 
 // nearest is the closest candidate within a small edit distance, or "".
 func nearest(given string, candidates []string) string {
-	best, bestD := "", 3 // at most two edits away
 	n := utf8.RuneCountInString(given)
 	if n > maxSuggestRunes {
 		return ""
+	}
+	// At most two edits away, and one for a name of up to four letters: two edits leave
+	// little of "id" ("j" is two away).
+	best, bestD := "", 3
+	if n <= 4 {
+		bestD = 2
 	}
 	work := 0
 	for _, c := range candidates {

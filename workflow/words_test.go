@@ -417,6 +417,8 @@ func TestOurOwnMessagesReadAsOneMessage(t *testing.T) {
 			`The label "2a" cannot name a step, as other steps could not refer to it as source.<label>. A label holds letters, digits, '_' and '-', and starts with a letter.`},
 		{"a seed that is not a whole number", "analysis \"toy\" {\n  seed = 1.5\n}\n", 2,
 			"The seed must be a whole number from 0 to 2^53. For example seed = 4711."},
+		{"a seed one past 2^53, which a float64 would round onto 2^53", "analysis \"toy\" {\n  seed = 9007199254740993\n}\n", 2,
+			"The seed must be a whole number from 0 to 2^53. For example seed = 4711."},
 		{"a store that is not a path", "analysis \"toy\" {\n  seed = 1\n  store = 5\n}\n", 3,
 			`store takes a path in quotes, relative to the workflow's folder. For example store = ".dipline/store.db".`},
 		{"an output that is not a path", "analysis \"toy\" {\n  seed = 1\n  output = true\n}\n", 3,
