@@ -49,10 +49,33 @@ func Starter(file steps.File, out, name string, seed int) (*StarterWorkflow, err
 		s.Runs = false
 		s.Unknown = append(s.Unknown, fmt.Sprintf("usable rows: only %d of %d rows are usable, and a light curve needs at least 2", rep.Kept, rep.Rows))
 	}
+	if s.Runs {
+		s.readAsWritten(*cfg, p, file)
+	}
 	s.Unknown = append(s.Unknown,
 		`the star's density: nothing in a light curve gives it, so both searches use the Sun's ("1 rho_sun"); write the host's in star_density, since it sets the transit durations searched`)
 	s.Text = starterText(file.Name, out, name, seed, p)
 	return s, nil
+}
+
+// readAsWritten reads the file as the written workflow's photometry step will, and when
+// that stops (a median flux of zero, rows that leave too few points) says so, so that the
+// starter never promises a run the first step refuses.
+func (s *StarterWorkflow) readAsWritten(cfg photometry.Config, p timePlan, file steps.File) {
+	if p.zero != "" {
+		v, err := strconv.ParseFloat(p.zero, 64)
+		if err != nil {
+			return // written from a float; cannot happen
+		}
+		cfg.TimeZero = &v
+	}
+	if p.scale != "" {
+		cfg.TimeScale = p.scale
+	}
+	if _, err := photometry.Read(cfg, []steps.File{file}, nil); err != nil {
+		s.Runs = false
+		s.Unknown = append(s.Unknown, "the light curve: the photometry step would stop on it as written: "+err.Error())
+	}
 }
 
 // timePlan is what the photometry block says about time.

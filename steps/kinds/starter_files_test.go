@@ -183,3 +183,21 @@ func TestInspectionCatchesAStarterThatLacksItsReference(t *testing.T) {
 		t.Fatalf("inspection found %v", found)
 	}
 }
+
+func TestTheStarterDoesNotPromiseARunTheReaderRefuses(t *testing.T) {
+	// Full Julian dates, so the time reference is known, but a flux about zero (a
+	// difference from a mean, not a flux): the photometry step refuses its median.
+	var b strings.Builder
+	b.WriteString("time,flux\n")
+	for i := 0; i < 200; i++ {
+		fmt.Fprintf(&b, "%.5f,%.5f\n", 2460100.5+float64(i)/48, 0.001*float64(i%7-3))
+	}
+	sw, err := Starter(steps.File{Name: "centred.csv", Data: []byte(b.String())}, "analysis.hcl", "star", 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	unknown := strings.Join(sw.Unknown, "\n")
+	if sw.Runs || !strings.Contains(unknown, "would stop on it as written") || !strings.Contains(unknown, "median flux") {
+		t.Errorf("runs %v; unknown:\n%s\nwant the reader's refusal of the median flux", sw.Runs, unknown)
+	}
+}

@@ -2,6 +2,7 @@ package photometry
 
 import (
 	"fmt"
+	"math"
 
 	"dipline/steps"
 	"dipline/steps/internal/codec"
@@ -83,11 +84,33 @@ func (r *Result) Figures() []steps.Figure {
 			steps.Figure{Name: p + "cadence", Value: st.Cadence * 1440, Unit: "min", Doc: "median time between points"},
 			steps.Figure{Name: p + "exposure", Value: s.Exposure * 1440, Unit: "min", Doc: "integration time of one point"},
 			steps.Figure{Name: p + "dropped_flagged", Value: float64(st.Dropped.Flagged), Doc: "rows dropped by their quality flag"},
-			steps.Figure{Name: p + "dropped_not_finite", Value: float64(st.Dropped.NonFinite), Doc: "rows dropped for a missing or non-finite time, flux or error"},
+			steps.Figure{Name: p + "dropped_unusable", Value: float64(st.Dropped.Unusable), Doc: "rows dropped for a missing or non-finite time, flux or error, or a flux no star gives"},
 			steps.Figure{Name: p + "dropped_bad_error", Value: float64(st.Dropped.BadError), Doc: "rows dropped for a zero or negative error"},
 			steps.Figure{Name: p + "dropped_duplicate_time", Value: float64(st.Dropped.Duplicate), Doc: "rows dropped because an earlier row of the file has the same time (the first is kept)"},
 		)
 	}
 	out = append(out, steps.Figure{Name: "baseline", Value: r.LC.Baseline(), Unit: "d", Doc: "last time minus first time"})
+	return out
+}
+
+// Cautions implements steps.Cautioner: segments of one band and instrument that overlap in
+// time, which are most often the same photometry twice (one sector exported at two
+// cadences, say), so that its points would count twice.
+func (r *Result) Cautions() []string {
+	var out []string
+	segs := r.LC.Segments
+	for i := range segs {
+		for j := i + 1; j < len(segs); j++ {
+			a, b := &segs[i], &segs[j]
+			if a.Band != b.Band || a.Instrument != b.Instrument || a.Len() == 0 || b.Len() == 0 {
+				continue
+			}
+			lo := math.Max(a.Time[0], b.Time[0])
+			hi := math.Min(a.Time[a.Len()-1], b.Time[b.Len()-1])
+			if hi > lo {
+				out = append(out, fmt.Sprintf("segments %d and %d overlap in time for %.3g d with the same band and instrument; if they are the same photometry (one stretch at two cadences, say), its points count twice and the errors come out too small: keep one", i+1, j+1, hi-lo))
+			}
+		}
+	}
 	return out
 }

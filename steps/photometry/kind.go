@@ -39,7 +39,7 @@ var (
 // candidates take survey products' names (a SAP_QUALITY column now flags rows; a survey
 // flux takes its own error column), and a FITS header without a reference keyword takes
 // time_zero, which version 2 set aside.
-const version = 3
+const version = 4
 
 // Name implements steps.Typed.
 func (Kind) Name() string { return "photometry" }

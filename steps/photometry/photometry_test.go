@@ -36,14 +36,14 @@ func TestLightCurveFixture(t *testing.T) {
 		case r.Quality != 0:
 			want.Flagged++
 		case math.IsNaN(float64(r.Flux)):
-			want.NonFinite++
+			want.Unusable++
 		case r.Err <= 0:
 			want.BadError++
 		default:
 			kept = append(kept, r)
 		}
 	}
-	if want.Flagged == 0 || want.NonFinite == 0 || want.BadError == 0 {
+	if want.Flagged == 0 || want.Unusable == 0 || want.BadError == 0 {
 		t.Fatalf("the fixture should exercise every reason: %+v", want)
 	}
 	if res.LC.Dropped != want || res.Stats[0].Dropped != want {
@@ -378,7 +378,7 @@ func TestFiguresNameEverySegment(t *testing.T) {
 	}
 	// testdata/csv/README.md: 54 kept of 60; 0.02 d = 28.8 min steps; first 0, last 1.18.
 	want := map[string]float64{
-		"segment1.points": 54, "segment1.dropped_flagged": 4, "segment1.dropped_not_finite": 1,
+		"segment1.points": 54, "segment1.dropped_flagged": 4, "segment1.dropped_unusable": 1,
 		"segment1.dropped_bad_error": 1, "baseline": 1.18,
 	}
 	for k, v := range want {

@@ -74,7 +74,7 @@ func segmentTitle(i int, s *lightcurve.Segment) string {
 
 func segmentsPanel(res *Result) steps.Panel {
 	tb := &steps.Table{Header: []string{"segment", "id", "band", "instrument", "points", "cadence (min)",
-		"exposure (min)", "dropped: flag", "not finite", "bad error", "repeated time"}}
+		"exposure (min)", "dropped: flag", "unusable", "bad error", "repeated time"}}
 	for i := range res.LC.Segments {
 		s := &res.LC.Segments[i]
 		var st SegmentStats
@@ -83,13 +83,13 @@ func segmentsPanel(res *Result) steps.Panel {
 		}
 		tb.Rows = append(tb.Rows, []string{strconv.Itoa(i + 1), s.ID, orDash(s.Band), orDash(s.Instrument),
 			strconv.Itoa(s.Len()), fmt.Sprintf("%.3g", st.Cadence*1440), fmt.Sprintf("%.3g", s.Exposure*1440),
-			strconv.Itoa(st.Dropped.Flagged), strconv.Itoa(st.Dropped.NonFinite), strconv.Itoa(st.Dropped.BadError),
+			strconv.Itoa(st.Dropped.Flagged), strconv.Itoa(st.Dropped.Unusable), strconv.Itoa(st.Dropped.BadError),
 			strconv.Itoa(st.Dropped.Duplicate)})
 	}
 	tb.Notes = []string{
 		"Segments are numbered in time order, as in the data file's segment column; the id is the one the step gave (file order or the user's label).",
 		"Cadence is the median time between kept points; exposure the integration time of one point.",
-		"Dropped rows: a set quality flag under the mask, a missing or non-finite time, flux or error, an error of zero or less, or a time an earlier row of the same file already had.",
+		"Dropped rows: a set quality flag under the mask; a missing or non-finite time, flux or error, or a flux no star gives (at or below zero, or over 100 times the median, when such rows are a few); an error of zero or less; or a time an earlier row of the same file already had.",
 	}
 	return steps.Panel{Title: "Segments", Caption: "What each segment is and what was left out on reading.", Table: tb}
 }

@@ -2,6 +2,7 @@ package photometry
 
 import (
 	"bytes"
+	"crypto/sha256"
 	"strconv"
 
 	"dipline/steps"
@@ -20,6 +21,9 @@ func Read(cfg Config, files []steps.File, note func(format string, args ...any))
 	}
 	if len(files) == 0 {
 		return nil, steps.Attrf("files", "no files given")
+	}
+	if err := sameBytesTwice(files); err != nil {
+		return nil, err
 	}
 	var bs []built
 	for k, f := range files {
@@ -61,6 +65,9 @@ func readText(cfg *Config, name string, data []byte, note noteFunc) (*rawSegment
 		return nil, steps.BadInput(err)
 	}
 	note("%s: %s-separated; columns %s", name, t.delimName(), describeChoice(chosen))
+	if t.fromComment {
+		note("%s:%d: the column names are taken from this comment line, as the first row below it holds numbers", name, t.line)
+	}
 	var want []int
 	var roles []Role
 	for r := Role(0); r < nRoles; r++ {
@@ -94,4 +101,22 @@ func readText(cfg *Config, name string, data []byte, note noteFunc) (*rawSegment
 		r.refFrom = "time_zero"
 	}
 	return r, nil
+}
+
+// sameBytesTwice refuses a list that names one file twice, or two files holding the same
+// bytes: each segment's points would count twice, and every error bar would shrink by √2
+// with nothing to show it.
+func sameBytesTwice(files []steps.File) error {
+	seen := map[[32]byte]string{}
+	for _, f := range files {
+		sum := sha256.Sum256(f.Data)
+		if first, ok := seen[sum]; ok {
+			if first == f.Name {
+				return steps.Attrf("files", "%s is named twice; its points would count twice. Name each file once", f.Name)
+			}
+			return steps.Attrf("files", "%s and %s hold the same bytes; their points would count twice. Name one of them", first, f.Name)
+		}
+		seen[sum] = f.Name
+	}
+	return nil
 }

@@ -153,7 +153,8 @@ func dropDuplicateTimes(r *rawSegment, keep []int, d *lightcurve.Dropped, note n
 //
 // A row is dropped for the first reason that applies, in this order: its flag AND the mask
 // is nonzero; its time, flux or error is not finite (NaN, ±Inf, or a FITS TNULL value); its
-// error is zero or negative; its time repeats an earlier usable row's.
+// error is zero or negative; its flux is one no star gives (dropImpossibleFlux); its time
+// repeats an earlier usable row's.
 func build(cfg *Config, r *rawSegment, id string, note noteFunc) (built, error) {
 	keep, d, err := usableRows(cfg, r, note)
 	if err != nil {
@@ -222,7 +223,7 @@ func usableRows(cfg *Config, r *rawSegment, note noteFunc) ([]int, lightcurve.Dr
 			e = r.err[i]
 		}
 		if !finite(r.time[i]) || !finite(r.flux[i]) || !finite(e) {
-			d.NonFinite++
+			d.Unusable++
 			continue
 		}
 		if e <= 0 {
@@ -237,11 +238,69 @@ func usableRows(cfg *Config, r *rawSegment, note noteFunc) ([]int, lightcurve.Dr
 	if firstBad >= 0 {
 		note("%s: column %s: %s is not a positive error; %d such rows dropped", r.where(firstBad), r.cols[ErrorCol], strconv.FormatFloat(r.err[firstBad], 'g', -1, 64), d.BadError)
 	}
+	keep = dropImpossibleFlux(r, keep, &d, note)
 	if len(keep) < 2 {
-		return nil, d, steps.BadInputf("%s: %d of %d rows are left (%d flagged, %d not finite, %d with a non-positive error); a segment needs at least 2",
-			r.file, len(keep), n, d.Flagged, d.NonFinite, d.BadError)
+		return nil, d, steps.BadInputf("%s: %d of %d rows are left (%d flagged, %d unusable, %d with a non-positive error); a segment needs at least 2",
+			r.file, len(keep), n, d.Flagged, d.Unusable, d.BadError)
 	}
 	return keep, d, nil
+}
+
+// maxBrightening is the most a point may exceed the median flux and still be taken as the
+// star's: no star brightens a hundredfold in a light curve taken for transits (the largest
+// flares of cool dwarfs reach a few times their quiescent flux in red bands; from memory),
+// so such a value is an instrument's or an export's fault.
+const maxBrightening = 100
+
+// maxImpossibleShare is the largest share of a file's rows that dropImpossibleFlux drops;
+// beyond it the values are not a few faults but the file's own (a flux about zero, or noise
+// reaching zero), and dropping them would bias what is left.
+const maxImpossibleShare = 0.01
+
+// dropImpossibleFlux drops rows whose flux no star gives while the file's median flux is
+// positive: at or below zero (the star would have vanished; even a total eclipse leaves the
+// companion's light) or above maxBrightening times the median. One such row among
+// thousands is a fault that a box search reads as a dip of more than 100 % (or that ruins a
+// fit); they are counted as unusable and the first is named. When more than
+// maxImpossibleShare of the rows (and more than one) are such, they are kept and the note says the light curve
+// is too noisy, or not a flux, for the rule to apply.
+func dropImpossibleFlux(r *rawSegment, keep []int, d *lightcurve.Dropped, note noteFunc) []int {
+	flux := make([]float64, len(keep))
+	for k, i := range keep {
+		flux[k] = r.flux[i]
+	}
+	med := median(flux, nil)
+	if !(med > 0) {
+		return keep // normalise refuses the file
+	}
+	impossible := func(f float64) bool { return f <= 0 || f > maxBrightening*med }
+	var first, n int
+	for _, i := range keep {
+		if impossible(r.flux[i]) {
+			if n == 0 {
+				first = i
+			}
+			n++
+		}
+	}
+	switch {
+	case n == 0:
+		return keep
+	case float64(n) > math.Max(1, maxImpossibleShare*float64(len(keep))):
+		note("%s: column %s: %d of %d rows (the first this one, %s) have a flux at or below zero or above %d times the median %s; they are kept, as so many are not a few faults: a light curve whose flux reaches zero is too noisy for a transit search to be trusted, or the column is not a flux",
+			r.where(first), r.cols[FluxCol], n, len(keep), strconv.FormatFloat(r.flux[first], 'g', -1, 64), maxBrightening, strconv.FormatFloat(med, 'g', 6, 64))
+		return keep
+	}
+	out := keep[:0]
+	for _, i := range keep {
+		if !impossible(r.flux[i]) {
+			out = append(out, i)
+		}
+	}
+	d.Unusable += n
+	note("%s: column %s: a flux of %s while the median is %s; %d row(s) with a flux at or below zero or above %d times the median dropped, as no star gives one",
+		r.where(first), r.cols[FluxCol], strconv.FormatFloat(r.flux[first], 'g', -1, 64), strconv.FormatFloat(med, 'g', 6, 64), n, maxBrightening)
+	return out
 }
 
 // inTimeOrder sorts the kept rows by time (stably, so ties keep their file order) when

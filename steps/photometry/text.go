@@ -16,9 +16,12 @@ import (
 type textTable struct {
 	name   string   // file name for messages
 	header []string // column names as written, quotes removed
-	delim  byte     // ',', '\t', or 0 for runs of blanks
+	delim  byte     // ',', '\t', ';', or 0 for runs of blanks
 	body   []byte   // everything after the header line
 	line   int      // line number of the header
+	// fromComment is true when the header was the comment line just above the first row,
+	// the first row holding numbers ("# time,flux,err").
+	fromComment bool
 }
 
 // delimName says which delimiter was detected, for messages and notes.
@@ -28,38 +31,113 @@ func (t *textTable) delimName() string {
 		return "comma"
 	case '\t':
 		return "tab"
+	case ';':
+		return "semicolon"
 	}
 	return "whitespace"
 }
 
-// readTextHeader finds the header row and detects the delimiter from it: a comma if it
-// has one, else a tab if it has one, else runs of blanks.
+// delimiters are the separators a text table may use, in the order ties are settled.
+var delimiters = []byte{',', '\t', ';', 0}
+
+// readTextHeader finds the header row and its delimiter. The delimiter is the one that
+// cuts the header and the first row into the same number of fields, the most if several
+// do (a whitespace-aligned table with a stray tab cuts into more fields by blanks than by
+// the tab; a comma table whose names hold blanks cuts its rows into fewer by blanks);
+// without a first row, or when none agrees, a comma if the header has one, else a tab,
+// else a semicolon, else runs of blanks. A header of numbers is a data row: the comment
+// line just above it is taken as the header when it cuts into as many names, else the
+// file is refused, naming the line.
 func readTextHeader(name string, data []byte) (*textTable, error) {
 	data = bytes.TrimPrefix(data, []byte("\xef\xbb\xbf")) // a UTF-8 byte-order mark
 	if i := bytes.IndexByte(data[:min(len(data), 4096)], 0); i >= 0 {
 		return nil, steps.BadInputf("%s: byte %d is NUL: this is not a text table (FITS files are read as FITS when they start with SIMPLE  =)", name, i+1)
 	}
 	t := &textTable{name: name}
+	var comment []byte // the comment line just above the header, if any
 	rest := data
 	for n := 1; len(rest) > 0; n++ {
 		var line []byte
 		line, rest = textrows.NextLine(rest)
 		if textrows.Skippable(line) {
+			comment = nil
+			if l := bytes.TrimLeft(line, " \t"); len(l) > 0 {
+				comment = bytes.TrimLeft(l[1:], " \t")
+			}
 			continue
 		}
-		switch {
-		case bytes.IndexByte(line, ',') >= 0:
-			t.delim = ','
-		case bytes.IndexByte(line, '\t') >= 0:
-			t.delim = '\t'
+		t.delim = chooseDelimiter(line, firstRow(rest))
+		t.body, t.line = rest, n
+		fields := t.split(line, nil)
+		if allNumbers(fields) {
+			above := t.split(comment, nil)
+			if len(comment) == 0 || len(above) != len(fields) || anyNumber(above) {
+				return nil, steps.BadInputf("%s:%d: the first row holds numbers, not column names; the table needs a header row naming its columns (time, flux, …) above its rows", name, n)
+			}
+			fields, t.body, t.line, t.fromComment = above, append([]byte(nil), line...), n-1, true
+			t.body = append(append(t.body, '\n'), rest...)
 		}
-		for _, f := range t.split(line, nil) {
+		for _, f := range fields {
 			t.header = append(t.header, string(f))
 		}
-		t.body, t.line = rest, n
 		return t, nil
 	}
 	return nil, steps.BadInputf("%s: no header row: the file is empty or holds only comments", name)
+}
+
+// firstRow returns the first line of b that is not blank or a comment, or nil.
+func firstRow(b []byte) []byte {
+	for len(b) > 0 {
+		var line []byte
+		line, b = textrows.NextLine(b)
+		if !textrows.Skippable(line) {
+			return line
+		}
+	}
+	return nil
+}
+
+// chooseDelimiter picks the delimiter of a table from its header and first row (see
+// readTextHeader).
+func chooseDelimiter(header, row []byte) byte {
+	best, most := byte(0xff), 1
+	if row != nil {
+		for _, d := range delimiters {
+			t := textTable{delim: d}
+			if n := len(t.split(header, nil)); n > most && n == len(t.split(row, nil)) {
+				best, most = d, n
+			}
+		}
+	}
+	if best != 0xff {
+		return best
+	}
+	for _, d := range delimiters[:3] {
+		if bytes.IndexByte(header, d) >= 0 {
+			return d
+		}
+	}
+	return 0
+}
+
+// allNumbers reports fields that all read as numbers (a data row, not a header).
+func allNumbers(fields [][]byte) bool {
+	for _, f := range fields {
+		if _, err := strconv.ParseFloat(string(f), 64); err != nil {
+			return false
+		}
+	}
+	return len(fields) > 0
+}
+
+// anyNumber reports a field that reads as a number (no column name does).
+func anyNumber(fields [][]byte) bool {
+	for _, f := range fields {
+		if _, err := strconv.ParseFloat(string(f), 64); err == nil {
+			return true
+		}
+	}
+	return false
 }
 
 // split cuts a line into fields, reusing dst. Fields are trimmed of blanks and of one pair
@@ -116,11 +194,11 @@ func (t *textTable) read(idx []int) (*textColumns, error) {
 		for k, c := range idx {
 			f := fields[c]
 			v := math.NaN()
-			if len(f) > 0 {
+			if len(f) > 0 && !missingToken(f) {
 				var err error
 				v, err = strconv.ParseFloat(string(f), 64)
 				if err != nil && !isRangeErr(err) {
-					return nil, steps.BadInputf("%s:%d: column %s: %q is not a number", t.name, n, t.header[c], clip(string(f)))
+					return nil, t.notANumber(n, c, f)
 				}
 			}
 			out.vals[k] = append(out.vals[k], v)
@@ -128,6 +206,30 @@ func (t *textTable) read(idx []int) (*textColumns, error) {
 		out.lines = append(out.lines, n)
 	}
 	return out, nil
+}
+
+// missingTokens are the words tables write for a missing value (common practice), read
+// like an empty field: as NaN, a row dropped and counted. "nan" and "inf" are numbers
+// to strconv.ParseFloat already.
+var missingTokens = []string{"na", "n/a", "null", "none", "-nan", "+nan"}
+
+// missingToken reports a field that says a value is missing, in any case.
+func missingToken(f []byte) bool {
+	for _, w := range missingTokens {
+		if len(f) == len(w) && strings.EqualFold(string(f), w) {
+			return true
+		}
+	}
+	return false
+}
+
+// notANumber refuses field c of line n, saying when the number is written with a
+// decimal comma.
+func (t *textTable) notANumber(n, c int, f []byte) error {
+	if _, err := strconv.ParseFloat(strings.Replace(string(f), ",", ".", 1), 64); err == nil && bytes.Count(f, []byte(",")) == 1 {
+		return steps.BadInputf("%s:%d: column %s: %q is written with a decimal comma; save the table with decimal points", t.name, n, t.header[c], clip(string(f)))
+	}
+	return steps.BadInputf("%s:%d: column %s: %q is not a number", t.name, n, t.header[c], clip(string(f)))
 }
 
 // isRangeErr accepts numbers too large or small for float64: ParseFloat returns ±Inf or 0,

@@ -26,7 +26,7 @@ func TestTextLayoutsGiveTheSameLightCurve(t *testing.T) {
 			}
 			// README: rows 4, 21, 38, 55 flagged; row 30 not finite; row 45 negative error.
 			d := res.Stats[0].Dropped
-			if got := res.LC.Len(); got != 54 || d.Flagged != 4 || d.NonFinite != 1 || d.BadError != 1 {
+			if got := res.LC.Len(); got != 54 || d.Flagged != 4 || d.Unusable != 1 || d.BadError != 1 {
 				t.Fatalf("%d points, dropped %+v; the README says 54 kept, 4 flagged, 1 not finite, 1 bad error", got, d)
 			}
 			if res.LC.RefInt != 2460100 || res.LC.RefFrac != 0.5 {

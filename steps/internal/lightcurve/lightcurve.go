@@ -41,24 +41,26 @@ func (s *Segment) Len() int { return len(s.Time) }
 
 // Dropped counts the rows photometry did not keep, by reason.
 type Dropped struct {
-	NonFinite int // NaN or infinite time, flux or error, or a TNULL value
+	// Unusable counts a missing or non-finite time, flux or error (NaN, ±Inf, a TNULL
+	// value), or a flux no star can give (see the photometry step's usableRows).
+	Unusable  int
 	Flagged   int // a quality flag under the mask was set
 	BadError  int // a zero or negative error
 	Duplicate int // a time already taken by an earlier row of the same file
 }
 
 // Total is the number of rows dropped.
-func (d Dropped) Total() int { return d.NonFinite + d.Flagged + d.BadError + d.Duplicate }
+func (d Dropped) Total() int { return d.Unusable + d.Flagged + d.BadError + d.Duplicate }
 
 // Add returns the sums of d's and o's counts.
 func (d Dropped) Add(o Dropped) Dropped {
-	return Dropped{NonFinite: d.NonFinite + o.NonFinite, Flagged: d.Flagged + o.Flagged,
+	return Dropped{Unusable: d.Unusable + o.Unusable, Flagged: d.Flagged + o.Flagged,
 		BadError: d.BadError + o.BadError, Duplicate: d.Duplicate + o.Duplicate}
 }
 
 // write and readDropped keep the counts' encoding in one place.
 func (d Dropped) write(w *codec.Writer) {
-	for _, v := range []int{d.NonFinite, d.Flagged, d.BadError, d.Duplicate} {
+	for _, v := range []int{d.Unusable, d.Flagged, d.BadError, d.Duplicate} {
 		w.Int(int64(v))
 	}
 }
@@ -68,7 +70,7 @@ func WriteDropped(w *codec.Writer, d Dropped) { d.write(w) }
 
 // ReadDropped reads counts written by WriteDropped.
 func ReadDropped(r *codec.Reader) Dropped {
-	return Dropped{NonFinite: int(r.Int()), Flagged: int(r.Int()), BadError: int(r.Int()), Duplicate: int(r.Int())}
+	return Dropped{Unusable: int(r.Int()), Flagged: int(r.Int()), BadError: int(r.Int()), Duplicate: int(r.Int())}
 }
 
 // LightCurve is a set of segments on one time scale and reference epoch.

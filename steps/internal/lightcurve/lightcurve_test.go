@@ -9,7 +9,7 @@ import (
 func sample() *LightCurve {
 	return &LightCurve{
 		TimeScale: "BJD_TDB", RefInt: 2460000, RefFrac: 0.5,
-		Dropped: Dropped{NonFinite: 2, Flagged: 1},
+		Dropped: Dropped{Unusable: 2, Flagged: 1},
 		Segments: []Segment{
 			{ID: "1", Band: "red", Exposure: 29.4 / 1440, Contamination: math.NaN(),
 				Time: []float64{0, 1, 2}, Flux: []float64{1, 0.99, 1.01}, Err: []float64{1e-3, 1e-3, 1e-3}},
