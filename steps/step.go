@@ -226,6 +226,8 @@ type Row struct {
 	Values map[string]float64
 	// Columns maps each asked-for name to the catalogue's own column name, for messages.
 	Columns map[string]string
+	// Set names the values given on the command line (--set) instead of the file's.
+	Set map[string]bool
 }
 
 // Get returns the named value and whether the row has it.
@@ -239,6 +241,9 @@ func (r Row) Where(name string) string {
 	s := fmt.Sprintf("%s:%d (%s)", r.File, r.Line, r.ID)
 	if c, ok := r.Columns[name]; ok {
 		s += ", column " + c
+	}
+	if r.Set[name] {
+		s += ", as given with --set"
 	}
 	return s
 }

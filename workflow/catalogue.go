@@ -77,7 +77,12 @@ type RowInput struct {
 
 // Row converts the input to what a step receives.
 func (r *RowInput) Row() steps.Row {
-	return steps.Row{File: r.Path, Line: r.Line, ID: r.ID, Values: r.Values, Columns: r.Columns}
+	set := map[string]bool{}
+	for _, o := range r.Overridden {
+		name, _, _ := strings.Cut(o, "=")
+		set[name] = true
+	}
+	return steps.Row{File: r.Path, Line: r.Line, ID: r.ID, Values: r.Values, Columns: r.Columns, Set: set}
 }
 
 // Address is catalogue.label["id"].
@@ -435,13 +440,20 @@ func (w *Workflow) resolveRows(s *Step) hcl.Diagnostics {
 			}
 			in.Columns[name] = c.header[j]
 			cell := strings.TrimSpace(cells[j])
-			if o := w.rowOverride(in.Catalogue, in.ID, name, c.header[j]); o != nil {
+			o := w.rowOverride(in.Catalogue, in.ID, name, c.header[j])
+			overridden := o != nil
+			if overridden {
 				o.used = true
 				cell = o.Value
 				in.Overridden = append(in.Overridden, name+"="+o.Value)
 			}
 			v, blank, err := parseCell(cell)
-			if err != nil {
+			switch {
+			case err != nil && overridden:
+				diags = append(diags, attrDiag(s.attrRanges[p.Name],
+					fmt.Sprintf("--set %s.%s: %v (the value replaces %s line %d, column %s).", in.Address(), name, err, c.Path, row.line, clip(c.header[j])), ""))
+				continue
+			case err != nil:
 				diags = append(diags, attrDiag(s.attrRanges[p.Name],
 					fmt.Sprintf("%s line %d, column %s (row %s): %v.", c.Path, row.line, clip(c.header[j]), clip(in.ID), err), ""))
 				continue

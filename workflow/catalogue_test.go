@@ -1,10 +1,12 @@
 package workflow
 
 import (
-	"dipline/cache"
 	"math"
 	"strings"
 	"testing"
+
+	"dipline/cache"
+	"dipline/steps"
 )
 
 const catalogueFlow = `
@@ -106,6 +108,14 @@ func TestCatalogueOverrideIsAppliedAndRecorded(t *testing.T) {
 	if _, err := p.load(Override{Addr: `catalogue.near["FW-1"]`, Attr: "vmag", Value: "1"}); err == nil ||
 		!strings.Contains(err.Error(), `no step reads column "vmag"`) {
 		t.Errorf("an override of an unread column: %v", err)
+	}
+	if _, err := p.load(Override{Addr: `catalogue.near["FW-1"]`, Attr: "parallax", Value: "abc"}); err == nil ||
+		!strings.Contains(err.Error(), `--set catalogue.near["FW-1"].parallax: "abc" is not a number (the value replaces stars.csv line 3`) {
+		t.Errorf("a bad override is blamed on: %v", err)
+	}
+	row := steps.Row{File: "stars.csv", Line: 3, ID: "FW-1", Columns: map[string]string{"parallax": "parallax"}, Set: map[string]bool{"parallax": true}}
+	if got := row.Where("parallax"); got != "stars.csv:3 (FW-1), column parallax, as given with --set" {
+		t.Errorf("a row's place for an overridden value: %q", got)
 	}
 	if _, err := ParseOverride(`catalogue.near.FW-1.parallax=13`); err == nil {
 		t.Error("a row override without the index form was accepted")

@@ -394,8 +394,38 @@ func (Kind) Run(ctx context.Context, cfg *Config, in steps.Inputs, env steps.Env
 	return &Artifact{Method: cfg.Method, Basis: res.Basis, Star: res.Star}, nil
 }
 
+// Inspect implements steps.Inspector: it reads the catalogue row's cells as Run will, so
+// that `dipline check` names a blank, negative or unparsable cell the run would refuse
+// before anything runs. The companions, another step's result, are not there yet and are
+// checked by Run.
+func (Kind) Inspect(c *Config, in steps.Inputs) error {
+	_, _, err := c.measured(in)
+	return err
+}
+
 // resolve builds the Input from the block's measurements, the row and the companions.
 func (c *Config) resolve(in steps.Inputs) (Input, []string, error) {
+	x, notes, err := c.measured(in)
+	if err != nil {
+		return Input{}, nil, err
+	}
+	if c.hasCompanions() {
+		src, ok := in.Ref("companions").(stellar.CompanionSource)
+		if !ok {
+			return Input{}, nil, fmt.Errorf("star: companions does not refer to a step that lists companions")
+		}
+		for _, cp := range src.CompanionList() {
+			if math.IsNaN(cp.DMag) || math.IsInf(cp.DMag, 0) || !(cp.DMagErr >= 0) || math.IsInf(cp.DMagErr, 0) {
+				return Input{}, nil, steps.BadInputf("companions: %s has Δm %v ± %v", cp.Name, cp.DMag, cp.DMagErr)
+			}
+			x.Companions = append(x.Companions, cp)
+		}
+	}
+	return x, notes, nil
+}
+
+// measured builds the Input from the block's measurements and the catalogue row.
+func (c *Config) measured(in steps.Inputs) (Input, []string, error) {
 	var notes []string
 	var row steps.Row
 	if c.hasRow() {
@@ -460,18 +490,6 @@ func (c *Config) resolve(in steps.Inputs) (Input, []string, error) {
 	}
 	if c.Method == MethodCoolDwarf && x.Teff == nil && (x.V == nil || x.J == nil) {
 		return Input{}, nil, steps.BadInputf("%s: teff is blank, and without teff the cool-dwarf method needs v and j (Mann et al. 2015 V−J relation)", row.Where("teff"))
-	}
-	if c.hasCompanions() {
-		src, ok := in.Ref("companions").(stellar.CompanionSource)
-		if !ok {
-			return Input{}, nil, fmt.Errorf("star: companions does not refer to a step that lists companions")
-		}
-		for _, cp := range src.CompanionList() {
-			if math.IsNaN(cp.DMag) || math.IsInf(cp.DMag, 0) || !(cp.DMagErr >= 0) || math.IsInf(cp.DMagErr, 0) {
-				return Input{}, nil, steps.BadInputf("companions: %s has Δm %v ± %v", cp.Name, cp.DMag, cp.DMagErr)
-			}
-			x.Companions = append(x.Companions, cp)
-		}
 	}
 	return x, notes, nil
 }

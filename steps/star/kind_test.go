@@ -477,6 +477,13 @@ func TestCatalogueRow(t *testing.T) {
 					t.Errorf("%q lacks %q", err, e)
 				}
 			}
+			// dipline check inspects the row's cells before anything runs; only the
+			// parallax's significance is judged later, in the draw.
+			cfg := steptest.MustConfig(New(), set).(*Config)
+			ierr := Kind{}.Inspect(cfg, steps.Inputs{Rows: map[string]steps.Row{"row": row(vals)}})
+			if atCheck := !strings.Contains(c.name, "low significance"); atCheck != (ierr != nil) {
+				t.Errorf("inspection gave %v (caught at check: %v)", ierr, atCheck)
+			}
 		})
 	}
 }
