@@ -112,9 +112,14 @@ func planTimes(rep *photometry.FileReport, s *StarterWorkflow) timePlan {
 			strings.Join(missing, " or "), rep.Scale))
 	default:
 		col := strings.ToLower(rep.Columns[photometry.TimeCol])
-		if strings.Contains(col, "bjd_tdb") || col == "btjd" || col == "bkjd" {
+		switch {
+		case strings.Contains(col, "bjd_tdb") || col == "btjd" || col == "bkjd":
 			s.Found = append(s.Found, fmt.Sprintf("time scale: BJD_TDB, from the time column's name %s", rep.Columns[photometry.TimeCol]))
-		} else {
+		case strings.HasPrefix(col, "hjd"):
+			p.scale, p.scaleWhy = "HJD_UTC", "the time column is named "+rep.Columns[photometry.TimeCol]+"; heliocentric dates are most often on UTC: check it"
+			s.Unknown = append(s.Unknown, fmt.Sprintf("the time scale: the column %s holds heliocentric Julian dates, on a scale the file does not state; the workflow takes HJD_UTC, the usual one (common practice); write another if the times are on it",
+				rep.Columns[photometry.TimeCol]))
+		default:
 			s.Unknown = append(s.Unknown, fmt.Sprintf("the time scale: a text file does not state it; the workflow takes %s, the default; write time_scale if the times are on another (e.g. \"HJD_UTC\")", defaultScale))
 		}
 	}

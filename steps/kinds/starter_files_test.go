@@ -201,3 +201,18 @@ func TestTheStarterDoesNotPromiseARunTheReaderRefuses(t *testing.T) {
 		t.Errorf("runs %v; unknown:\n%s\nwant the reader's refusal of the median flux", sw.Runs, unknown)
 	}
 }
+
+func TestTheStarterTakesHeliocentricDatesOnUTC(t *testing.T) {
+	var b strings.Builder
+	b.WriteString("HJD,flux\n")
+	for i := 0; i < 200; i++ {
+		fmt.Fprintf(&b, "%.5f,%.5f\n", 2460100.5+float64(i)/48, 1+0.001*float64(i%7-3))
+	}
+	sw, err := Starter(steps.File{Name: "hjd.csv", Data: []byte(b.String())}, "analysis.hcl", "star", 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !sw.Runs || !strings.Contains(sw.Text, `time_scale = "HJD_UTC"`) || !strings.Contains(strings.Join(sw.Unknown, "\n"), "heliocentric") {
+		t.Errorf("runs %v; unknown %q; text:\n%s", sw.Runs, sw.Unknown, sw.Text)
+	}
+}

@@ -3,6 +3,7 @@ package photometry
 import (
 	"fmt"
 	"math"
+	"strconv"
 	"strings"
 
 	"dipline/steps"
@@ -33,10 +34,42 @@ func (r Role) String() string { return roleKeys[r] }
 // error columns are in pairedErrors, not here, so that one flux is never given another's
 // errors.
 var defaultNames = [nRoles][]string{
-	TimeCol:  {"time", "bjd", "bjd_tdb", "jd", "t", "btjd", "bkjd"},
+	TimeCol:  {"time", "bjd", "bjd_tdb", "jd", "t", "btjd", "bkjd", "hjd", "mjd"},
 	FluxCol:  {"flux", "rel_flux", "relative_flux", "norm_flux", "f", "pdcsap_flux", "sap_flux"},
 	ErrorCol: {"flux_err", "flux_error", "error", "err", "sigma", "e"},
 	FlagCol:  {"flag", "flags", "quality", "qual", "sap_quality"},
+}
+
+// bareName is a column name without blanks around it and without a unit in brackets or
+// parentheses after it: "time [d]" and "flux (e-/s)" match time and flux.
+func bareName(n string) string {
+	n = strings.TrimSpace(n)
+	for _, br := range []string{"[]", "()"} {
+		if strings.HasSuffix(n, br[1:]) {
+			if i := strings.LastIndexByte(n, br[0]); i > 0 {
+				n = strings.TrimSpace(n[:i])
+			}
+		}
+	}
+	return n
+}
+
+// otherFluxes lists the columns besides the chosen ones whose names say they hold a flux
+// (and not its error), for a note: a file with a raw and a corrected flux should say which
+// was taken.
+func otherFluxes(names []string, idx [nRoles]int) []string {
+	var out []string
+	for i, n := range names {
+		l := strings.ToLower(bareName(n))
+		taken := false
+		for _, j := range idx {
+			taken = taken || j == i
+		}
+		if !taken && strings.Contains(l, "flux") && !strings.Contains(l, "err") && !strings.Contains(l, "sig") {
+			out = append(out, strconv.Quote(n))
+		}
+	}
+	return out
 }
 
 // pairedErrors names, for a flux column of a survey product (in lower case), the column of
@@ -102,7 +135,7 @@ func pickColumns(file string, names []string, user [nRoles]string) (idx [nRoles]
 	find := func(want string) (int, error) {
 		at := -1
 		for i, n := range names {
-			if strings.EqualFold(strings.TrimSpace(n), want) {
+			if strings.EqualFold(bareName(n), want) || strings.EqualFold(strings.TrimSpace(n), want) {
 				if at >= 0 {
 					return -1, fmt.Errorf("%s: columns %d and %d are both named %q (ignoring case)", file, at+1, i+1, want)
 				}

@@ -173,3 +173,56 @@ func TestOnePhotometryTwiceIsRefusedOrCautioned(t *testing.T) {
 		}
 	})
 }
+
+func TestColumnNamesWithUnitsAndOtherFluxesAreRead(t *testing.T) {
+	var b strings.Builder
+	b.WriteString("Time [d],SAP_FLUX (e-/s),CORR_FLUX,flux_err\n")
+	for i := 0; i < 100; i++ {
+		fmt.Fprintf(&b, "%.5f,%.2f,%.2f,3\n", float64(i)/48, 1000+math.Sin(float64(i)), 990+math.Cos(float64(i)))
+	}
+	res, notes, err := readOne(t, []byte(b.String()))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if res.LC.Len() != 100 {
+		t.Errorf("%d points, want 100", res.LC.Len())
+	}
+	if !containsNote(notes, `the flux taken is "SAP_FLUX (e-/s)"; the file also has "CORR_FLUX"`) {
+		t.Errorf("no note on the flux not taken among %q", notes)
+	}
+}
+
+func TestAModifiedJulianDateColumnStatesItsOffset(t *testing.T) {
+	// MJD = JD − 2400000.5 (common practice), so the column's name states the reference.
+	var b strings.Builder
+	b.WriteString("MJD,flux\n")
+	for i := 0; i < 100; i++ {
+		fmt.Fprintf(&b, "%.5f,%.4f\n", 60100+float64(i)/48, 1+0.001*math.Sin(float64(i)))
+	}
+	rep, err := InspectFile(DefaultConfig(), steps.File{Name: "lc.csv", Data: []byte(b.String())})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rep.Stated != 2400000.5 {
+		t.Errorf("stated offset %v, want 2400000.5 from the column's name", rep.Stated)
+	}
+}
+
+func TestADamagedTimeIsNamedByItsRow(t *testing.T) {
+	lc := strings.Replace(string(table(50, ",", nil)), "\n0.208333,", "\n-1.98e205,", 1) // row 10, line 12
+	_, _, err := readOne(t, []byte(lc))
+	if err == nil || !strings.Contains(err.Error(), "lc.csv:12: the earliest time, -1.98e+205,") {
+		t.Errorf("error %v; want the damaged row named", err)
+	}
+}
+
+func TestSinglePrecisionTimesAreNoted(t *testing.T) {
+	// MIXED's VEC column is 3E: its first values 0 … 24 stand in for times stored as
+	// float32, resolved near 24 to 2^(4−23) (IEEE 754).
+	_, notes, _ := runKind(t, map[string]any{"extension": "MIXED", "time_zero": 2460000.0, "time_scale": "JD_UTC",
+		"columns": map[string]string{"time": "VEC", "flux": "RAW"}}, load(t, "fits/tables.fits"))
+	want := fmt.Sprintf("column VEC holds 32-bit floats, so times near 24 are resolved only to %.2g of its unit", math.Ldexp(1, 4-23))
+	if !containsNote(notes, want) {
+		t.Errorf("no note %q among %q", want, notes)
+	}
+}

@@ -122,7 +122,7 @@ func chooseTable(cfg *Config, file string, f *fits.File, note noteFunc) (*fits.B
 			continue
 		}
 		if _, _, err := pickColumns(file, columnNames(t), cfg.Columns); err == nil {
-			note("%s: reading %s, the first binary table with a time and a flux column", file, h)
+			note("%s: reading %s, the first binary table with a time and a flux column%s", file, h, laterTables(cfg, file, f, h))
 			return t, nil
 		}
 		seen = append(seen, fmt.Sprintf("%s with columns %s", h, describe(columnNames(t))))
@@ -132,6 +132,28 @@ func chooseTable(cfg *Config, file string, f *fits.File, note noteFunc) (*fits.B
 	}
 	return nil, steps.BadInputf("%s: no binary table has both a time and a flux column (%s); name the columns in columns = { ... } or choose the table with extension",
 		file, strings.Join(seen, "; "))
+}
+
+// laterTables names, for a note, the binary tables after first that also have a time and
+// a flux column: a file with two light curves should say which was read.
+func laterTables(cfg *Config, file string, f *fits.File, first *fits.HDU) string {
+	var later []string
+	after := false
+	for _, h := range f.HDUs() {
+		if h == first {
+			after = true
+			continue
+		}
+		if t := h.Table(); after && t != nil {
+			if _, _, err := pickColumns(file, columnNames(t), cfg.Columns); err == nil {
+				later = append(later, h.String())
+			}
+		}
+	}
+	if len(later) == 0 {
+		return ""
+	}
+	return fmt.Sprintf("; %s also has them: choose it with extension", strings.Join(later, " and "))
 }
 
 // columnNames lists a table's column names in order.
@@ -163,6 +185,7 @@ func readFITS(cfg *Config, file string, data []byte, note noteFunc) (*rawSegment
 	r := &rawSegment{file: file, cols: chosen}
 	r.where = func(i int) string { return fmt.Sprintf("%s row %d", at, i+1) }
 	note("%s: columns %s", at, describeChoice(chosen))
+	noteOtherFluxes(at, columnNames(t), idx, chosen, note)
 
 	cols := t.Columns()
 	vals, err := readRoles(cols, idx, file, at, note)
@@ -217,8 +240,29 @@ func readRoles(cols []*fits.Column, idx [nRoles]int, file, at string, note noteF
 		if c.Repeat > 1 {
 			note("%s: column %s holds %d values per row; the first is used", at, c.Name, c.Repeat)
 		}
+		if role == TimeCol && c.Type == 'E' {
+			noteSinglePrecision(at, c.Name, vals[role], note)
+		}
 	}
 	return vals, nil
+}
+
+// noteSinglePrecision says how coarsely 32-bit floats (TFORM E) resolve a time column: a
+// float32 keeps 24 bits, so values near t are 2^(⌊log₂|t|⌋−23) apart (IEEE 754), a tenth
+// of a second for days near 1000 but hours for full Julian dates.
+func noteSinglePrecision(at, name string, t []float64, note noteFunc) {
+	big := 0.0
+	for _, v := range t {
+		if !math.IsInf(v, 0) && !math.IsNaN(v) {
+			big = math.Max(big, math.Abs(v))
+		}
+	}
+	if big == 0 {
+		return
+	}
+	step := math.Ldexp(1, math.Ilogb(big)-23)
+	note("%s: column %s holds 32-bit floats, so times near %.6g are resolved only to %.2g of its unit (%.2g s if the unit is days); times are usually kept in 64 bits (TFORM D)",
+		at, name, big, step, step*86400)
 }
 
 // keywordTimeUnit returns days per unit of the time keywords: TIMEUNIT, or seconds by

@@ -20,8 +20,8 @@ import (
 var CommonOffsets = []float64{2400000, 2450000, 2454833, 2457000, 2460000}
 
 // namedOffsets are the offsets a time column's name states (common practice of the survey
-// products that use these names).
-var namedOffsets = map[string]float64{"btjd": 2457000, "bkjd": 2454833}
+// products that use these names; a modified Julian date counts from JD 2400000.5).
+var namedOffsets = map[string]float64{"btjd": 2457000, "bkjd": 2454833, "mjd": 2400000.5}
 
 // A light curve of our era starts between JD 2 440 000 (1968) and JD 2 470 000 (2050) (from
 // memory): an offset that puts the first time outside is not the file's.
@@ -119,7 +119,7 @@ func InspectFile(cfg Config, f steps.File) (*FileReport, error) {
 		}
 	}
 	rep.Columns = r.cols
-	if v, ok := namedOffsets[strings.ToLower(strings.TrimSpace(r.cols[TimeCol]))]; ok {
+	if v, ok := namedOffsets[strings.ToLower(bareName(r.cols[TimeCol]))]; ok {
 		rep.Stated = v
 		rep.StatedHow = fmt.Sprintf("the time column's name, %s, which by common practice counts from it", r.cols[TimeCol])
 	}

@@ -259,14 +259,14 @@ func TestChoosingTheExtension(t *testing.T) {
 			if err == nil {
 				t.Fatalf("Second_LC has no reference and times of 100 d; want the Julian-date check, got %d points", res.LC.Len())
 			}
-			if !strings.Contains(err.Error(), "tables.fits: the first time 100 with no reference given") {
+			if !strings.Contains(err.Error(), "tables.fits HDU 3 (Second_LC) row 1: the earliest time, 100, with no reference given") {
 				t.Fatalf("error %v", err)
 			}
 		})
 	}
 	// Without extension, MIXED is passed over: it has a TIME but no flux column.
 	_, _, err := runKind(t, map[string]any{"time_scale": "JD_UTC", "columns": map[string]string{"flux": "flux"}}, load(t, "fits/tables.fits"))
-	if err == nil || !strings.Contains(err.Error(), "tables.fits: the first time 100") {
+	if err == nil || !strings.Contains(err.Error(), "tables.fits HDU 3 (Second_LC) row 1: the earliest time, 100,") {
 		t.Fatalf("default table choice: %v", err)
 	}
 }

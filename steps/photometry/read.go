@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"crypto/sha256"
 	"strconv"
+	"strings"
 
 	"dipline/steps"
 )
@@ -65,6 +66,7 @@ func readText(cfg *Config, name string, data []byte, note noteFunc) (*rawSegment
 		return nil, steps.BadInput(err)
 	}
 	note("%s: %s-separated; columns %s", name, t.delimName(), describeChoice(chosen))
+	noteOtherFluxes(name, t.header, idx, chosen, note)
 	if t.fromComment {
 		note("%s:%d: the column names are taken from this comment line, as the first row below it holds numbers", name, t.line)
 	}
@@ -119,4 +121,12 @@ func sameBytesTwice(files []steps.File) error {
 		seen[sum] = f.Name
 	}
 	return nil
+}
+
+// noteOtherFluxes says which flux was taken when the file has others (a raw and a
+// corrected one, say), and how to take another.
+func noteOtherFluxes(at string, names []string, idx [nRoles]int, chosen [nRoles]string, note noteFunc) {
+	if others := otherFluxes(names, idx); len(others) > 0 {
+		note("%s: the flux taken is %q; the file also has %s: to take another, name it in columns = { flux = \"...\" }", at, chosen[FluxCol], strings.Join(others, ", "))
+	}
 }

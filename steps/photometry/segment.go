@@ -182,7 +182,7 @@ func build(cfg *Config, r *rawSegment, id string, note noteFunc) (built, error) 
 		s.Band = r.band
 		note("%s: band %q from the FITS FILTER keyword", r.file, r.band)
 	}
-	if err := settleReference(r, &s, note); err != nil {
+	if err := settleReference(r, &s, r.where(keep[0]), note); err != nil {
 		return built{}, err
 	}
 	if err := normalise(r, &s, note); err != nil {
@@ -316,9 +316,9 @@ func inTimeOrder(r *rawSegment, keep []int, note noteFunc) []int {
 	return keep
 }
 
-// settleReference refuses a first time that is no plausible Julian date, and for full
-// Julian dates takes the first point's whole day as the reference.
-func settleReference(r *rawSegment, s *lightcurve.Segment, note noteFunc) error {
+// settleReference refuses a first time that is no plausible Julian date, naming its row
+// (firstAt), and for full Julian dates takes the first point's whole day as the reference.
+func settleReference(r *rawSegment, s *lightcurve.Segment, firstAt string, note noteFunc) error {
 	start := s.Time[0]
 	if r.hasRef {
 		start += float64(r.refInt) + r.refFrac
@@ -328,8 +328,8 @@ func settleReference(r *rawSegment, s *lightcurve.Segment, note noteFunc) error 
 		if r.hasRef {
 			how = fmt.Sprintf("with the reference JD %d + %g from %s", r.refInt, r.refFrac, r.refFrom)
 		}
-		return steps.BadInputf("%s: the first time %g %s is JD %.1f, not a plausible Julian date; state the Julian date of time 0 with time_zero, or remove it if the file holds full Julian dates",
-			r.file, s.Time[0], how, start)
+		return steps.BadInputf("%s: the earliest time, %g, %s is JD %.7g, not a plausible Julian date; state the Julian date of time 0 with time_zero, or remove it if the file holds full Julian dates (or mend the row, if this one time is damaged)",
+			firstAt, s.Time[0], how, start)
 	}
 	if !r.hasRef {
 		// Full Julian dates: keep the whole day of the first point as the reference, so

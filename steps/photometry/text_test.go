@@ -124,7 +124,7 @@ func TestTextErrorsNameFileLineAndColumn(t *testing.T) {
 			"data/x.csv:3: 1 fields, but the header on line 1 has 2 (comma-separated)"},
 		{"a missing time column lists the names tried and found",
 			"when,flux\n1,2\n",
-			"data/x.csv: no time column: none of time, bjd, bjd_tdb, jd, t, btjd, bkjd is in the header (columns: \"when\", \"flux\"); name one in columns = { time = \"...\" }"},
+			"data/x.csv: no time column: none of time, bjd, bjd_tdb, jd, t, btjd, bkjd, hjd, mjd is in the header (columns: \"when\", \"flux\"); name one in columns = { time = \"...\" }"},
 		{"two columns named alike are ambiguous",
 			"time,FLUX,flux\n1,2,3\n",
 			"data/x.csv: columns 2 and 3 are both named \"flux\" (ignoring case)"},
@@ -139,7 +139,7 @@ func TestTextErrorsNameFileLineAndColumn(t *testing.T) {
 			"data/x.csv:3: column flag: 0.5 is not a whole-number flag"},
 		{"relative times without time_zero are not Julian dates",
 			"time,flux\n0.1,1\n0.2,1\n0.3,1\n",
-			"data/x.csv: the first time 0.1 with no reference given"},
+			"data/x.csv:2: the earliest time, 0.1, with no reference given"},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
