@@ -226,3 +226,18 @@ func TestSinglePrecisionTimesAreNoted(t *testing.T) {
 		t.Errorf("no note %q among %q", want, notes)
 	}
 }
+
+func TestAFluxNamedLikeAMagnitudeIsQuestioned(t *testing.T) {
+	var b strings.Builder
+	b.WriteString("time,vmag\n")
+	for i := 0; i < 100; i++ {
+		fmt.Fprintf(&b, "%.5f,%.4f\n", float64(i)/48, 11.3+0.001*math.Sin(float64(i)))
+	}
+	_, notes, err := runKind(t, map[string]any{"time_zero": 2460000.0, "columns": map[string]string{"flux": "vmag"}}, []steps.File{{Name: "lc.csv", Data: []byte(b.String())}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !containsNote(notes, `the flux column "vmag" is named like a magnitude`) {
+		t.Errorf("no question about the magnitude among %q", notes)
+	}
+}

@@ -124,8 +124,12 @@ func sameBytesTwice(files []steps.File) error {
 }
 
 // noteOtherFluxes says which flux was taken when the file has others (a raw and a
-// corrected one, say), and how to take another.
+// corrected one, say), and how to take another; and warns of a flux column named like a
+// magnitude.
 func noteOtherFluxes(at string, names []string, idx [nRoles]int, chosen [nRoles]string, note noteFunc) {
+	if l := strings.ToLower(chosen[FluxCol]); strings.Contains(l, "mag") && !strings.Contains(l, "flux") {
+		note("%s: the flux column %q is named like a magnitude; this step reads flux, which falls in a transit where a magnitude rises: convert it (flux = 10^(−0.4·mag)) if it is one", at, chosen[FluxCol])
+	}
 	if others := otherFluxes(names, idx); len(others) > 0 {
 		note("%s: the flux taken is %q; the file also has %s: to take another, name it in columns = { flux = \"...\" }", at, chosen[FluxCol], strings.Join(others, ", "))
 	}
