@@ -84,6 +84,7 @@ var allBuckets = [][]byte{bucketMeta, bucketSteps, bucketResults, bucketProvenan
 // concurrent use by several goroutines and processes (each call is one bbolt transaction).
 type Store struct {
 	path string
+	keep *kept // the file it keeps to (Keep), or nil
 }
 
 // Open returns the store in the file at path, creating its folder if needed. The database
@@ -291,7 +292,7 @@ func (s *Store) update(fn func(tx *bolt.Tx) error) error {
 // damaged file gives a *DamagedError, never a crash. A read-only call on a store whose file
 // does not exist yet does not call fn.
 func (s *Store) withDB(readOnly bool, fn func(db *bolt.DB) error) error {
-	var h handle
+	h := handle{keep: s.keep}
 	return guarded(s.path, func() { closeSoon(h.db, h.f) }, func() error {
 		if err := openDB(s.path, readOnly, &h); err != nil || h.db == nil {
 			return err
@@ -334,6 +335,9 @@ func checkFormat(tx *bolt.Tx, path string) error {
 type handle struct {
 	db *bolt.DB
 	f  *os.File
+	// keep, when set, is the one file the store may be (Store.Keep): openDB refuses
+	// another and never creates one in its place.
+	keep *kept
 }
 
 // errEmpty: a read-only open found the file empty (its creator has not written the first
@@ -353,9 +357,15 @@ var errEmpty = errors.New("store file is empty")
 func openDB(path string, readOnly bool, h *handle) error {
 	deadline := time.Now().Add(openTimeout)
 	for {
-		if readOnly {
+		known := h.keep.known()
+		if readOnly || known != nil {
 			fi, err := os.Stat(path)
-			if errors.Is(err, os.ErrNotExist) || (err == nil && fi.Size() == 0) {
+			switch {
+			case known != nil && errors.Is(err, os.ErrNotExist):
+				return replaced(path, "removed")
+			case known != nil && err == nil && !os.SameFile(known, fi):
+				return replaced(path, "replaced by another file")
+			case readOnly && (errors.Is(err, os.ErrNotExist) || (err == nil && fi.Size() == 0)):
 				return nil
 			}
 		}
@@ -363,8 +373,13 @@ func openDB(path string, readOnly bool, h *handle) error {
 			Timeout:  openTimeout,
 			ReadOnly: readOnly,
 			OpenFile: func(name string, flag int, perm os.FileMode) (*os.File, error) {
+				if known != nil {
+					flag &^= os.O_CREATE // the file kept to, or none
+				}
 				f, err := os.OpenFile(name, flag, perm)
-				if err != nil {
+				if known != nil && errors.Is(err, os.ErrNotExist) {
+					return nil, replaced(name, "removed")
+				} else if err != nil {
 					return nil, err
 				}
 				ok, err := lockDB(f, !readOnly, openTimeout)
@@ -374,6 +389,10 @@ func openDB(path string, readOnly bool, h *handle) error {
 					} else {
 						f.Close()
 					}
+					return nil, err
+				}
+				if err := checkKept(h.keep, f, name); err != nil {
+					f.Close()
 					return nil, err
 				}
 				if err := checkOpened(f, name, readOnly); err != nil {
@@ -388,7 +407,7 @@ func openDB(path string, readOnly bool, h *handle) error {
 		if err != nil {
 			var de *DamagedError
 			switch {
-			case errors.As(err, &de):
+			case errors.As(err, &de), errors.Is(err, ErrReplaced), errors.Is(err, ErrNotAStore):
 				return err
 			case errors.Is(err, berrors.ErrTimeout):
 				return fmt.Errorf("store %s: another dipline command held it for more than %s: %w", path, openTimeout, ErrBusy)
@@ -426,7 +445,7 @@ func checkOpened(f *os.File, path string, readOnly bool) error {
 		return nil
 	}
 	if _, err := checkLayout(f, fi.Size()); err != nil {
-		return &DamagedError{Path: path, Problem: err.Error()}
+		return layoutError(f, fi.Size(), path, err)
 	}
 	return nil
 }

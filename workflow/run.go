@@ -94,9 +94,11 @@ type Report struct {
 // file. A step that fails stops only the steps that read its result, directly or through
 // others: they are skipped with the reason, and every other step still runs. Only an
 // interruption (ctx cancelled) or a fault of the store stops the whole run. The run record
-// and the results file are written in every case, with every finished step's figures and
-// each failure and skip; when any step did not finish, or the record or the file could not
-// be written, the error is a *RunError. The caller holds the store's run lock.
+// and the results file are written in every case once the run's record is in the store,
+// with every finished step's figures and each failure and skip; when any step did not
+// finish, or the record or the file could not be written, the error is a *RunError. When
+// the store cannot take the run's record at the start, nothing runs and nothing is
+// written: Run returns no report, only the error. The caller holds the store's run lock.
 func Run(ctx context.Context, w *Workflow, store *cache.Store, opt Options) (*Report, error) {
 	if opt.Workers <= 0 {
 		opt.Workers = runtime.NumCPU()
@@ -116,16 +118,14 @@ func Run(ctx context.Context, w *Workflow, store *cache.Store, opt Options) (*Re
 	}
 	runErr := &RunError{}
 	// The record is written before any step runs, and each step's line is added as it
-	// finishes, so a run that is killed leaves a record of all it stored (cache.Run).
+	// finishes, so a run that is killed leaves a record of all it stored (cache.Run). A
+	// store that cannot take it (cut short, not writable) can keep nothing of the run:
+	// nothing runs, and the results folder is left as it was rather than replaced by a file
+	// of a run no store knows.
 	if err := store.PutRun(r.run); err != nil {
-		err = fmt.Errorf("writing the run record: %w", err)
-		runErr.Faults = append(runErr.Faults, err)
-		for _, o := range r.out {
-			o.Status, o.Err, o.Cause, o.Message = StatusSkipped, err, CauseStopped, "not run: the run's record could not be written"
-		}
-	} else {
-		r.runAll(runCtx)
+		return nil, fmt.Errorf("writing the run record: %w", err)
 	}
+	r.runAll(runCtx)
 
 	rep := &Report{}
 	run := r.run
@@ -138,10 +138,8 @@ func Run(ctx context.Context, w *Workflow, store *cache.Store, opt Options) (*Re
 		runErr.Interrupted = runErr.Interrupted || (o.Cause == CauseStopped && ctx.Err() != nil)
 	}
 	rep.Run = run
-	if len(runErr.Faults) == 0 {
-		if err := store.PutRun(run); err != nil {
-			runErr.Faults = append(runErr.Faults, fmt.Errorf("writing the run record: %w", err))
-		}
+	if err := store.PutRun(run); err != nil {
+		runErr.Faults = append(runErr.Faults, fmt.Errorf("writing the run record: %w", err))
 	}
 	path := filepath.Join(w.OutputDir, "results.json")
 	if err := writeAtomic(path, marshal(resultsOf(w, run.ID, rep.Outcomes))); err != nil {

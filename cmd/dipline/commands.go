@@ -57,9 +57,21 @@ func (c *cli) run(args []string) int {
 	}
 	defer lock.Release()
 	store, err := cache.Open(w.StorePath)
+	if err == nil {
+		// Every page the store's tree reaches is checked before the run writes anything:
+		// bbolt reads only the pages a look-up or commit passes through, and a run must not
+		// add to a file with damage elsewhere in it (README, "Commands").
+		err = store.CheckPages()
+	}
+	if err == nil {
+		// From here on the run keeps to this very file: one removed or replaced under it is
+		// noticed at the next look-up or commit, and nothing is written in its place.
+		err = store.Keep()
+	}
 	if err != nil {
-		fmt.Fprintln(c.err, "dipline run:", err)
-		return exitFailed
+		code := c.storeFailed("run", err)
+		fmt.Fprintf(c.err, "dipline run: nothing ran and nothing was stored; the results in %s/ are left as they were\n", rel(w.OutputDir))
+		return code
 	}
 	opt := workflow.Options{Workers: *workers, OnEvent: c.printEvent}
 	if *events != "" {
@@ -91,8 +103,9 @@ func (c *cli) run(args []string) int {
 	if show != nil {
 		show.close() // every step is over: the line goes before the summary
 	}
-	if rep == nil { // Run gives a report whenever it ran
+	if rep == nil { // Run gives a report whenever it ran: here the store took no record
 		fmt.Fprintln(c.err, "dipline run:", err)
+		fmt.Fprintf(c.err, "dipline run: nothing ran and nothing was stored; the results in %s/ are left as they were\n", rel(w.OutputDir))
 		return exitFor(err)
 	}
 	c.printSummary(rep)
@@ -141,7 +154,7 @@ func (c *cli) printRunError(rep *workflow.Report, err error) {
 		for _, f := range re.Faults {
 			fmt.Fprintln(c.err, "dipline run:", f)
 		}
-		fmt.Fprintf(c.err, "dipline run: %s\n", unfinishedLine(re, rep.ResultsPath != ""))
+		fmt.Fprintf(c.err, "dipline run: %s\n", unfinishedLine(re, rep.ResultsPath != "", errors.Is(err, cache.ErrReplaced)))
 	default:
 		fmt.Fprintln(c.err, "dipline run:", err)
 	}
@@ -234,6 +247,11 @@ func (c *cli) pending(args []string) int {
 	w, store, _, code := c.storeArgs(flag.NewFlagSet("pending", flag.ContinueOnError), args, 0, "takes only the workflow file")
 	if code != exitOK {
 		return code
+	}
+	// As run does before it starts: what pending says a run would reuse, a run on a
+	// damaged store would refuse.
+	if err := store.CheckPages(); err != nil {
+		return c.storeFailed("pending", err)
 	}
 	verdicts, err := workflow.Pending(w, store)
 	if err != nil {
@@ -389,6 +407,9 @@ func (c *cli) pin(args []string) int {
 	_, store, rest, code := c.storeArgs(fs, args, 1, "name one run (id, prefix, latest or previous)")
 	if code != exitOK {
 		return code
+	}
+	if err := store.CheckPages(); err != nil { // pin writes: never into a damaged file
+		return c.storeFailed("pin", err)
 	}
 	run, err := store.FindRun(rest[0])
 	if err != nil {

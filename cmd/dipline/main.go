@@ -515,10 +515,15 @@ func splitWorkflow(pos []string) (string, []string) {
 	return "analysis.hcl", pos
 }
 
+// load loads the workflow and prints its diagnostics. A workflow whose store names a file
+// that is not a store is refused here too (storefile.go), before any command opens it.
 func (c *cli) load(path string, overrides []workflow.Override) (*workflow.Workflow, bool) {
 	w, diags := workflow.LoadWithAccess(path, c.reg, overrides, c.access)
 	c.printDiags(diags)
-	return w, w != nil && !diags.HasErrors()
+	if w == nil || diags.HasErrors() {
+		return w, false
+	}
+	return w, !c.notAStore(w)
 }
 
 // printDiags prints a load's diagnostics in the workflow package's layout: the file and

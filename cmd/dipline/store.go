@@ -367,8 +367,11 @@ func (c *cli) lookupFailed(cmd string, err error) int {
 	return exitBadUser
 }
 
-// damagedStore reports whether err comes from a damaged store file.
-func damagedStore(err error) bool { return errors.Is(err, cache.ErrDamaged) }
+// damagedStore reports whether err comes from a damaged store file, or from a file named
+// as the store that is not one: either is the user's side (exit 2), never the program's.
+func damagedStore(err error) bool {
+	return errors.Is(err, cache.ErrDamaged) || errors.Is(err, cache.ErrNotAStore)
+}
 
 // ageFlag is an age given as a quantity of time in the workflow's own syntax ("30 d"),
 // read by the units package's time dimension.

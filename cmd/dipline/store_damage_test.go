@@ -1,17 +1,21 @@
 package main
 
 import (
+	"bytes"
+	"context"
 	"crypto/sha256"
+	"errors"
 	"fmt"
 	"os"
 	"path/filepath"
-	"slices"
 	"strings"
 	"sync"
 	"testing"
 	"time"
 
 	"dipline/cache"
+	"dipline/steps"
+	"dipline/steps/kinds"
 )
 
 // storePath is where the test workflow keeps its store (workflow.Load's default).
@@ -128,10 +132,12 @@ func TestADamagedStoreIsAClearMessageWithItsExitStatus(t *testing.T) {
 		// the others may succeed when they do not touch the damaged page.
 		always []string
 	}{
-		{"a flipped page id in the results' tree", flip("results", cache.DamageID), []string{"store stats", "store verify", "store prune"}},
-		{"a flipped page kind in the step keys' tree", flip("steps", cache.DamageKind), []string{"store stats", "store verify", "store prune", "run"}},
-		{"a flipped element count in the provenance tree", flip("provenance", cache.DamageCount), []string{"store stats", "store verify", "store prune"}},
-		{"a flipped page kind in the run records' tree", flip("runs", cache.DamageKind), []string{"store stats", "store verify", "store prune", "runs", "trace", "diff", "pin", "run"}},
+		// run, pending and pin check every page before they start (CheckPages), so they
+		// refuse damage anywhere in the file, not only on the pages they would read.
+		{"a flipped page id in the results' tree", flip("results", cache.DamageID), []string{"store stats", "store verify", "store prune", "run", "pending", "pin"}},
+		{"a flipped page kind in the step keys' tree", flip("steps", cache.DamageKind), []string{"store stats", "store verify", "store prune", "run", "pending", "pin"}},
+		{"a flipped element count in the provenance tree", flip("provenance", cache.DamageCount), []string{"store stats", "store verify", "store prune", "run", "pending", "pin"}},
+		{"a flipped page kind in the run records' tree", flip("runs", cache.DamageKind), []string{"store stats", "store verify", "store prune", "runs", "trace", "diff", "pin", "run", "pending"}},
 		{"a store cut to half its length", cut(0.5), []string{"store stats", "store verify", "store prune", "run", "runs", "trace", "diff", "pin", "pending"}},
 		{"a store cut inside its header pages", cut(0.0005), []string{"store stats", "store verify", "store prune", "run", "runs", "trace", "diff", "pin", "pending"}},
 	}
@@ -149,12 +155,6 @@ func TestADamagedStoreIsAClearMessageWithItsExitStatus(t *testing.T) {
 	for _, tc := range cases {
 		t.Run(tc.name, func(t *testing.T) {
 			for _, name := range []string{"store stats", "store verify", "store prune", "runs", "trace", "diff", "pin", "run", "pending"} {
-				if name == "pending" && !slices.Contains(tc.always, name) {
-					// pending exits 1 on any error of the store (commands.go, pending);
-					// it is checked on the stores cut short, which every command refuses
-					// at once.
-					continue
-				}
 				t.Run(name+" fails clearly with status 2 or succeeds", func(t *testing.T) {
 					f := withTwoRuns(t, true)
 					tc.damage(t, f.storePath())
@@ -284,6 +284,194 @@ func TestTheHousekeepingOptionsAreOurOwn(t *testing.T) {
 			code, out, errs := f.dipline(tc.args...)
 			if code != tc.code || !strings.Contains(out+errs, tc.says) {
 				t.Errorf("exit %d (want %d), output lacks %q:\n%s%s", code, tc.code, tc.says, out, errs)
+			}
+		})
+	}
+}
+
+// fileBytes reads a file of the test's folder, or nil when it is not there.
+func (f *folder) fileBytes(name string) []byte {
+	b, err := os.ReadFile(filepath.Join(f.dir, name))
+	if err != nil {
+		return nil
+	}
+	return b
+}
+
+// withResults puts a results file and page in the folder, as an earlier good run leaves
+// them, and returns their bytes.
+func (f *folder) withResults() (string, string) {
+	f.t.Helper()
+	if err := os.MkdirAll(filepath.Join(f.dir, "results"), 0o755); err != nil {
+		f.t.Fatal(err)
+	}
+	json, page := `{"run": "the earlier good run"}`, "<p>the earlier good report</p>"
+	f.write("results/results.json", json)
+	f.write("results/report.html", page)
+	return json, page
+}
+
+// leftAsItWas fails the test when the store file or the results folder changed.
+func (f *folder) leftAsItWas(what string, store []byte, json, page string) {
+	f.t.Helper()
+	if !bytes.Equal(f.fileBytes(".dipline/store.db"), store) {
+		f.t.Errorf("%s changed the store file", what)
+	}
+	if string(f.fileBytes("results/results.json")) != json || string(f.fileBytes("results/report.html")) != page {
+		f.t.Errorf("%s replaced the results of the earlier run:\n%s", what, f.fileBytes("results/results.json"))
+	}
+}
+
+func TestARunOnAStoreWithADamagedPageWritesNothing(t *testing.T) {
+	// The probe's case: a page of the provenance tree, which a run that reuses every step
+	// never passes through, is spoilt; before, the run exited 0 and added its record to
+	// the file. Each tree and each field of a page header is tried.
+	for _, bucket := range []string{"steps", "results", "provenance", "runs"} {
+		for what, name := range map[cache.PageDamage]string{cache.DamageID: "id", cache.DamageKind: "kind", cache.DamageCount: "element count"} {
+			t.Run("a flipped "+name+" in the "+bucket+" tree", func(t *testing.T) {
+				f := withTwoRuns(t, true)
+				page, err := cache.DamagePageForTest(f.storePath(), bucket, what)
+				if err != nil {
+					t.Fatal(err)
+				}
+				json, html := f.withResults()
+				store := f.fileBytes(".dipline/store.db")
+				for _, cmd := range []string{"run", "pending"} {
+					code, out, errs := f.dipline(cmd)
+					noCrashText(t, cmd, out+errs)
+					// README, "Commands": a run on a damaged store exits 2 and writes
+					// nothing to it; the message names the page, as verify does.
+					if code != exitBadUser || !strings.Contains(errs, fmt.Sprintf("page %d (%s)", page, bucket)) ||
+						!strings.Contains(errs, "is damaged") || !strings.Contains(errs, "salvage") {
+						t.Errorf("%s: exit %d, want %d with the damaged page %d named\n%s%s", cmd, code, exitBadUser, page, out, errs)
+					}
+					f.leftAsItWas(cmd, store, json, html)
+				}
+				if _, _, errs := f.dipline("run"); !strings.Contains(errs, "nothing ran and nothing was stored; the results in results/ are left as they were") {
+					t.Errorf("the run does not say it stored nothing:\n%s", errs)
+				}
+			})
+		}
+	}
+}
+
+func TestARunThatCannotUseItsStoreLeavesTheResults(t *testing.T) {
+	for _, tc := range []struct {
+		name   string
+		spoil  func(t *testing.T, path string)
+		code   int
+		reason string
+	}{
+		{"a store cut to half its length", func(t *testing.T, path string) {
+			fi, _ := os.Stat(path)
+			if err := os.Truncate(path, fi.Size()/2); err != nil {
+				t.Fatal(err)
+			}
+		}, exitBadUser, "it is cut short"},
+		// A store of a later format cannot take the run's record, as a read-only one cannot
+		// (these tests may run as root, whom a file's permissions do not stop).
+		{"a store of another format", func(t *testing.T, path string) {
+			if err := cache.PutRawForTest(path, "meta", []byte("format"), []byte("dipline store 9")); err != nil {
+				t.Fatal(err)
+			}
+		}, exitFailed, `has format "dipline store 9"`},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			f := withTwoRuns(t, false)
+			tc.spoil(t, f.storePath())
+			json, html := f.withResults()
+			store := f.fileBytes(".dipline/store.db")
+			code, out, errs := f.dipline("run")
+			noCrashText(t, "run", out+errs)
+			if code != tc.code || !strings.Contains(errs, tc.reason) {
+				t.Errorf("exit %d (want %d), stderr lacks %q:\n%s%s", code, tc.code, tc.reason, out, errs)
+			}
+			f.leftAsItWas("run", store, json, html)
+			if !strings.Contains(errs, "nothing ran and nothing was stored") || strings.Contains(out+errs, "are stored") {
+				t.Errorf("the run does not say plainly that nothing was stored:\n%s%s", out, errs)
+			}
+		})
+	}
+}
+
+// vanishKind is a toy step kind whose Run calls vanishHook: the tests remove the store's
+// file there, as a user might while a run is under way.
+type vanishKind struct{}
+
+var vanishHook func()
+
+func (vanishKind) Name() string             { return "vanish" }
+func (vanishKind) Version() int             { return 1 }
+func (vanishKind) Doc() string              { return "a toy that calls the test's hook" }
+func (vanishKind) Random() bool             { return false }
+func (vanishKind) Check(*afterConfig) error { return nil }
+func (vanishKind) Run(ctx context.Context, cfg *afterConfig, in steps.Inputs, env steps.Env) (steps.Artifact, error) {
+	if vanishHook != nil {
+		vanishHook()
+	}
+	return toyArtifact{tag: "vanish"}, nil
+}
+func (vanishKind) Decode(b []byte) (steps.Artifact, error) { return toyArtifact{tag: string(b)}, nil }
+
+func TestAStoreRemovedDuringARunIsNoticed(t *testing.T) {
+	t.Cleanup(func() { registry = kinds.Registry; vanishHook = nil })
+	registry = func() (steps.Registry, error) {
+		r, err := kinds.Registry()
+		if err != nil {
+			return nil, err
+		}
+		r["vanish"], r["judge"] = steps.Define[afterConfig](vanishKind{}), steps.Define[afterConfig](toyKind{"judge"})
+		return r, nil
+	}
+	f := newFolder(t)
+	f.write("analysis.hcl", workflowText+"\nvanish \"v\" {\n  after = [search.dips]\n}\njudge \"j\" {\n  after = [vanish.v]\n}\n")
+	vanishHook = func() {
+		if err := os.Remove(f.storePath()); err != nil {
+			t.Error(err)
+		}
+	}
+	code, out, errs := f.dipline("run")
+	noCrashText(t, "run", out+errs)
+	if code != exitFailed || !strings.Contains(errs, "was removed while this run was using it") {
+		t.Errorf("exit %d (want %d), the removal is not reported:\n%s%s", code, exitFailed, out, errs)
+	}
+	// The closing line must not claim the finished steps are stored: they went with the
+	// removed file.
+	if strings.Contains(errs, "results are stored") || !strings.Contains(errs, "nothing this run computed is stored") {
+		t.Errorf("the closing line does not say the results are lost:\n%s", errs)
+	}
+	// Nothing is written in the removed file's place (before, a new store held a record
+	// of steps it had no results for, and verify failed on it).
+	if _, err := os.Stat(f.storePath()); !errors.Is(err, os.ErrNotExist) {
+		t.Errorf("a new store was made in the removed one's place (%v)", err)
+	}
+	vanishHook = nil
+	if code, out, errs := f.dipline("run"); code != exitOK || strings.Count(out, "computed ") != 5 {
+		t.Errorf("the next run does not compute every step afresh: exit %d\n%s%s", code, out, errs)
+	}
+}
+
+func TestAStoreThatIsNotAStoreIsRefusedWithItsLine(t *testing.T) {
+	for _, name := range []string{"lc.csv", "analysis.hcl"} {
+		t.Run("store = "+name, func(t *testing.T) {
+			f := newFolder(t)
+			text := strings.Replace(workflowText, "  seed = 1\n", "  seed = 1\n  store = \""+name+"\"\n", 1)
+			f.write("analysis.hcl", text)
+			before := f.fileBytes(name)
+			for _, cmd := range []string{"check", "run", "pending", "runs", "store verify"} {
+				code, out, errs := f.dipline(strings.Fields(cmd)...)
+				noCrashText(t, cmd, out+errs)
+				// The line of `store =` is line 3 of the workflow (workflowText above).
+				want := "analysis.hcl line 3: store names " + name + ", which is not a dipline store"
+				if code != exitBadUser || !strings.Contains(errs, want) || strings.Contains(errs, "damaged") || strings.Contains(errs, "salvage") {
+					t.Errorf("%s: exit %d (want %d), stderr lacks %q or calls the file damaged:\n%s%s", cmd, code, exitBadUser, want, out, errs)
+				}
+			}
+			if !bytes.Equal(f.fileBytes(name), before) {
+				t.Errorf("%s was changed", name)
+			}
+			if f.fileBytes(name+".lock") != nil {
+				t.Errorf("a lock file %s.lock was left beside it", name)
 			}
 		})
 	}

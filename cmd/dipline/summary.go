@@ -173,11 +173,19 @@ func (c *cli) printUnfinished(rep *workflow.Report) {
 }
 
 // unfinishedLine says in one line how many steps failed and did not run, and where the
-// finished steps' results are.
-func unfinishedLine(re *workflow.RunError, written bool) string {
+// finished steps' results are: in the store, unless its file was removed or replaced
+// during the run (lost), which took them with it.
+func unfinishedLine(re *workflow.RunError, written, lost bool) string {
 	s := fmt.Sprintf("%d %s failed", len(re.Failed), plural(len(re.Failed), "step", "steps"))
 	if n := len(re.Skipped); n > 0 {
 		s += fmt.Sprintf(" and %d not run", n)
+	}
+	if lost {
+		s += "; the store file went away during the run, so nothing this run computed is stored, and the next run computes it again"
+		if written {
+			s += " (the results file shows what it computed)"
+		}
+		return s
 	}
 	if written {
 		return s + "; the finished steps' results are stored and in the results file"
