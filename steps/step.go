@@ -344,6 +344,25 @@ func IsInputError(err error) bool {
 	return errors.As(err, &ie)
 }
 
+// NothingToDo is the error of a step that ran and found nothing to work on (a fit handed
+// a search that found no signal). It is no failure: the engine records the step as skipped
+// with the reason, skips the steps that read it with the same cause, and the run's exit
+// status does not count it.
+type NothingToDo struct{ Why string }
+
+func (e *NothingToDo) Error() string { return e.Why }
+
+// Nothing formats a *NothingToDo.
+func Nothing(format string, args ...any) error {
+	return &NothingToDo{Why: fmt.Sprintf(format, args...)}
+}
+
+// IsNothing reports whether err is, or wraps, a *NothingToDo.
+func IsNothing(err error) bool {
+	var n *NothingToDo
+	return errors.As(err, &n)
+}
+
 // Decoded adapts a kind's typed decoder to Kind.Decode: on an error it returns a nil
 // Artifact, never a typed nil pointer inside a non-nil interface. Use it as
 // `return steps.Decoded(Decode(b))`.

@@ -22,6 +22,9 @@ const (
 	CauseUpstream = "upstream"
 	// CauseStopped: skipped or cut short because the run was interrupted or the store failed.
 	CauseStopped = "stopped"
+	// CauseNothing: the step found nothing to work on (a *steps.NothingToDo), or reads one
+	// that did. No failure: the run's exit status does not count it.
+	CauseNothing = "nothing to do"
 )
 
 // faultWords begin the message of every fault of the program: the user did nothing wrong,
@@ -159,6 +162,9 @@ type RunError struct {
 }
 
 func (e *RunError) add(o *Outcome) {
+	if o.Cause == CauseNothing {
+		return
+	}
 	switch o.Status {
 	case StatusFailed:
 		e.Failed = append(e.Failed, o)

@@ -375,3 +375,33 @@ func TestCautionsAndVerdictsReachTheResultsFile(t *testing.T) {
 		})
 	}
 }
+
+func TestAStepWithNothingToDoIsNoFailure(t *testing.T) {
+	// A fit handed a search that found nothing is the shape of it: the step and those that
+	// read it are skipped with the reason, the rest run, and the run has no error (so the
+	// command exits 0 and a survey counts the target done).
+	p := newProject(t, map[string]string{
+		"analysis.hcl": "analysis \"toy\" { seed = 1 }\nsource \"a\" { files = \"a.txt\" }\n" +
+			"trouble \"x\" {\n  after = [source.a]\n  mode  = \"nothing\"\n}\n" +
+			"trouble \"y\" {\n  after = [trouble.x]\n  mode  = \"fail\"\n}\n" +
+			"trouble \"z\" {\n  after = [trouble.y]\n  mode  = \"fail\"\n}\n",
+		"a.txt": "4\n",
+	})
+	rep, rf, err := p.runWith(context.Background(), Options{})
+	if err != nil {
+		t.Fatalf("the run's error: %v; want none", err)
+	}
+	for addr, want := range map[string]string{
+		"trouble.x": "told there is nothing to work on",
+		"trouble.y": "not run: trouble.x had nothing to work on",
+		"trouble.z": "not run: trouble.y had nothing to work on",
+	} {
+		o := outcomeOf(t, rep, addr)
+		if o.Status != StatusSkipped || o.Cause != CauseNothing || o.Message != want {
+			t.Errorf("%s: %s, %s, %q; want skipped, %s, %q", addr, o.Status, o.Cause, o.Message, CauseNothing, want)
+		}
+	}
+	if a := stepResults(t, rf, "source.a"); a.Status != StatusComputed {
+		t.Errorf("source.a %s; want computed", a.Status)
+	}
+}

@@ -199,8 +199,8 @@ func (noisy) Run(ctx context.Context, cfg *oneInput, in steps.Inputs, env steps.
 	return toyNum(float64(in.Ref("input").(toyNum)) + float64(env.Seed%1000)/1000), nil
 }
 
-// trouble fails (as a program fault, on bad input or on its own attribute), panics, waits
-// for cancellation, or calls troubleHook and gives a number, as told.
+// trouble fails (as a program fault, on bad input or on its own attribute), finds nothing
+// to do, panics, waits for cancellation, or calls troubleHook and gives a number, as told.
 type trouble struct{ toyBase }
 
 // troubleHook is what a trouble step in mode "hook" calls before giving its number.
@@ -210,7 +210,7 @@ func (trouble) Name() string { return "trouble" }
 func (trouble) Doc() string  { return "misbehaves" }
 
 type troubleConfig struct {
-	Mode  string      `step:"mode,required" choices:"fail|bad_input|attr|panic|block|hook"`
+	Mode  string      `step:"mode,required" choices:"fail|bad_input|attr|panic|block|hook|nothing"`
 	After []steps.Ref `step:"after"`
 }
 
@@ -224,6 +224,8 @@ func (trouble) Run(ctx context.Context, cfg *troubleConfig, in steps.Inputs, env
 		return nil, steps.BadInputf("data.txt:3: told the data are bad")
 	case "attr":
 		return nil, steps.Attrf("mode", "told the setting does not suit the data")
+	case "nothing":
+		return nil, steps.Nothing("told there is nothing to work on")
 	case "panic":
 		var m map[string]int
 		m["x"] = 1 // a deliberate nil-map panic

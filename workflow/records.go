@@ -165,7 +165,7 @@ type FailureEntry struct {
 	Step   string `json:"step"`
 	Kind   string `json:"kind"`
 	Status string `json:"status"`
-	// Cause is CauseInput, CauseProgram, CauseUpstream or CauseStopped.
+	// Cause is CauseInput, CauseProgram, CauseUpstream, CauseStopped or CauseNothing.
 	Cause   string `json:"cause"`
 	Message string `json:"message"`
 	// Place is the line of the workflow file holding a setting the step refused when it

@@ -284,7 +284,7 @@ func (r *runner) step(ctx context.Context, s *Step) {
 // not finish it skips s (saying which failed, or that the run stopped) and returns false.
 func (r *runner) awaitUpstream(ctx context.Context, s *Step, o *Outcome) (map[string]cache.ResultKey, bool) {
 	upstream := map[string]cache.ResultKey{}
-	var failed []string
+	var failed, idle []string
 	stopped := false
 	for _, d := range s.Deps {
 		<-r.done[d]
@@ -296,6 +296,8 @@ func (r *runner) awaitUpstream(ctx context.Context, s *Step, o *Outcome) (map[st
 			stopped = true
 		case do.Status == StatusFailed:
 			failed = appendNew(failed, d.Addr)
+		case do.Cause == CauseNothing:
+			idle = appendNew(idle, d.Addr)
 		default:
 			for _, f := range do.failedUpstream {
 				failed = appendNew(failed, f)
@@ -309,6 +311,9 @@ func (r *runner) awaitUpstream(ctx context.Context, s *Step, o *Outcome) (map[st
 	case len(failed) > 0:
 		o.failedUpstream = failed
 		r.skip(o, CauseUpstream, fmt.Errorf("not run: %s failed", joinAnd(failed)))
+		return nil, false
+	case len(idle) > 0:
+		r.skip(o, CauseNothing, fmt.Errorf("not run: %s had nothing to work on", joinAnd(idle)))
 		return nil, false
 	case ctx.Err() != nil:
 		r.skip(o, CauseStopped, r.stopReason(ctx, false))
@@ -427,6 +432,10 @@ func runGuarded(ctx context.Context, s *Step, in steps.Inputs, env steps.Env) (a
 // fail records a step's own failure; it stops nothing but the steps that read its result.
 // A setting the step refused becomes a *SettingError, placed in the workflow file.
 func (r *runner) fail(o *Outcome, err error) {
+	if steps.IsNothing(err) {
+		r.skip(o, CauseNothing, err)
+		return
+	}
 	err = r.w.settingError(o.Step, err)
 	var se *SettingError
 	if errors.As(err, &se) {

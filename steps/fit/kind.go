@@ -270,7 +270,7 @@ func (Kind) Run(ctx context.Context, cfg *Config, in steps.Inputs, env steps.Env
 	}
 	sigs := ss.Signals()
 	if len(sigs) == 0 {
-		return nil, steps.BadInputf("signals: the search found no signal to fit")
+		return nil, steps.Nothing("nothing to fit: the search found no signal above its threshold")
 	}
 	n := cfg.planets()
 	switch {
