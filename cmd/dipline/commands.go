@@ -5,7 +5,6 @@ import (
 	"flag"
 	"fmt"
 	"os"
-	"runtime"
 	"sort"
 	"strings"
 	"time"
@@ -22,7 +21,7 @@ func (l *listFlag) Set(s string) error { *l = append(*l, s); return nil }
 
 func (c *cli) run(args []string) int {
 	fs := flag.NewFlagSet("run", flag.ContinueOnError)
-	workers := fs.Int("workers", runtime.NumCPU(), "worker tokens shared by steps and numerical cores")
+	workers := workersFlag(fs, "worker tokens shared by steps and numerical cores")
 	events := fs.String("events", "", "write one JSON object per step to this file")
 	wait := fs.Duration("wait", 30*time.Second, "how long to wait for another run holding the store")
 	quiet := fs.Bool("quiet", false, "show nothing of how far the computing steps are")

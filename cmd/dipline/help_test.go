@@ -69,6 +69,8 @@ func TestFlagMistakesAreInOurWords(t *testing.T) {
 		{"an unknown option is named, with the nearest one", []string{"diff", "--al"}, "there is no option --al; did you mean --all?"},
 		{"an option without its value says what to write", []string{"run", "--wait"}, "--wait needs a value: write --wait DURATION"},
 		{"a count that is not a number", []string{"run", "--workers", "many"}, `--workers takes a whole number, not "many"`},
+		{"no workers at all", []string{"run", "--workers", "0"}, `--workers "0": it counts workers, so it is 1 or more`},
+		{"fewer than none for a survey", []string{"survey", "run", "t.csv", "--workers=-1"}, `--workers "-1": it counts workers, so it is 1 or more`},
 		{"a duration that does not read", []string{"run", "--wait", "soon"}, `--wait takes a duration such as 30s, 5m or 1h, not "soon"`},
 		{"an on-off option given a word", []string{"pin", "latest", "--remove=perhaps"}, `--remove is on or off`},
 		{"three dashes", []string{"trace", "---run", "x"}, `"---run" is not an option`},

@@ -12,6 +12,7 @@ import (
 	"io"
 	"os"
 	"os/signal"
+	"runtime"
 	"sort"
 	"strconv"
 	"strings"
@@ -226,6 +227,31 @@ func isHelp(arg string) bool {
 // flagMistake says in our words what is wrong with a command line the flag package
 // refused. The flag package's errors are plain strings; each of its forms is matched
 // here, and TestFlagMistakesAreInOurWords fails if a Go release words one differently.
+// workersFlag defines --workers on fs: how many workers, 1 or more (a count of 0 or less
+// would be taken silently as something else).
+func workersFlag(fs *flag.FlagSet, usage string) *int {
+	n := runtime.NumCPU()
+	fs.Var((*countFlag)(&n), "workers", usage)
+	return &n
+}
+
+// countFlag is a whole number of 1 or more.
+type countFlag int
+
+func (c *countFlag) String() string { return strconv.Itoa(int(*c)) }
+func (c *countFlag) Get() any       { return int(*c) }
+func (c *countFlag) Set(s string) error {
+	v, err := strconv.Atoi(s)
+	if err != nil {
+		return errors.New("parse error")
+	}
+	if v < 1 {
+		return errors.New("it counts workers, so it is 1 or more")
+	}
+	*c = countFlag(v)
+	return nil
+}
+
 func flagMistake(fs *flag.FlagSet, err error) string {
 	msg := err.Error()
 	lookup := func(name string) *flag.Flag { return fs.Lookup(strings.TrimLeft(name, "-")) }

@@ -28,7 +28,8 @@ func (r *recomputeFlags) register(fs *flag.FlagSet) {
 		return err
 	})
 	fs.StringVar(&r.run, "run", "latest", "with --recompute, the run whose steps are run again")
-	fs.IntVar(&r.workers, "workers", runtime.NumCPU(), "with --recompute, worker tokens shared by the steps and their numerical cores")
+	r.workers = runtime.NumCPU()
+	fs.Var((*countFlag)(&r.workers), "workers", "with --recompute, worker tokens shared by the steps and their numerical cores")
 }
 
 // storeRecompute proves the run's stored results by computing them again

@@ -137,7 +137,7 @@ func (c *cli) surveyArgs(fs *flag.FlagSet, args []string) (*survey.Table, survey
 }
 
 func (c *cli) surveyRun(fs *flag.FlagSet, args []string) int {
-	workers := fs.Int("workers", runtime.NumCPU(), "workers shared by the targets run at once")
+	workers := workersFlag(fs, "workers shared by the targets run at once")
 	t, env, ok := c.surveyArgs(fs, args)
 	if !ok {
 		return exitBadUser
