@@ -1,6 +1,7 @@
 package main
 
 import (
+	"bytes"
 	"encoding/csv"
 	"fmt"
 	"math"
@@ -9,6 +10,8 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+
+	"dipline/cache"
 )
 
 // surveyPeriods are the invented periods of the survey tests' eight targets, one each.
@@ -317,5 +320,35 @@ completeness "reach" {
 	}
 	if got["completeness.reach caution"] == nil {
 		t.Error("combined.csv carries no caution")
+	}
+}
+
+// TestASurveyLeavesADamagedShardAlone damages a page of one target's store that a run
+// reusing everything would never read: as dipline run does, the survey refuses that
+// target, names the damage and leaves the file as it was; the other target is done.
+func TestASurveyLeavesADamagedShardAlone(t *testing.T) {
+	f := newSurveyFolder(t)
+	f.write("targets.csv", "id,photometry.raw.files\nT-01,t1.csv\nT-02,t2.csv\n")
+	if code, out, errs := f.dipline("survey", "run", "targets.csv", "--workers", "2"); code != 0 {
+		t.Fatalf("survey run: exit %d\n%s\n%s", code, out, errs)
+	}
+	shard := filepath.Join("surveys", "targets", "shards", "T-02.db")
+	if _, err := cache.DamagePageForTest(filepath.Join(f.dir, shard), "provenance", cache.DamageKind); err != nil {
+		t.Fatal(err)
+	}
+	before := f.fileBytes(shard)
+	// A survey runs again only targets not done; T-02's state is taken away, as after a
+	// lost state file, so that it runs on its damaged store.
+	if err := os.Remove(filepath.Join(f.dir, "surveys", "targets", "targets", "T-02", "state.json")); err != nil {
+		t.Fatal(err)
+	}
+	code, out, errs := f.dipline("survey", "run", "targets.csv", "--workers", "2")
+	state := string(f.fileBytes(filepath.Join("surveys", "targets", "targets", "T-02", "state.json")))
+	if code != exitBadUser || !strings.Contains(out, "T-02 failed") || !strings.Contains(out, "T-01 done") ||
+		!strings.Contains(state, "is damaged") || !strings.Contains(state, "page ") {
+		t.Errorf("exit %d, want %d with T-02 failed on its damaged page\n%s%s\nstate: %s", code, exitBadUser, out, errs, state)
+	}
+	if !bytes.Equal(f.fileBytes(shard), before) {
+		t.Error("the damaged shard was written to")
 	}
 }

@@ -66,6 +66,12 @@ func (e Env) runOne(ctx context.Context, tg Target, workers int, st *State) erro
 	}
 	defer lock.Release()
 	store, err := cache.Open(w.StorePath)
+	if err == nil {
+		err = store.CheckPages() // as dipline run does: no writing into a store damaged anywhere
+	}
+	if err == nil {
+		err = store.Keep() // and none into a file that replaced it during the run
+	}
 	if err != nil {
 		return err
 	}
