@@ -41,8 +41,9 @@ var _ steps.Typed[Config] = Kind{}
 // periods (P/2, 2P) and spread over its transits, with cautions. 3: the fast fold and
 // the SDE against the median and the median absolute deviation. 4: the
 // default threshold from the grid's size, kept in the result. 5: its constants refitted to
-// four years of data; every pass whole.
-const version = 5
+// four years of data; every pass whole. 6: the refinement keeps within reach of its peak
+// and inside the grid, and a box less than three errors deep is no signal.
+const version = 6
 
 // Defaults, each with its reason.
 const (
@@ -269,7 +270,11 @@ func Search(cfg Config, lc *lightcurve.LightCurve, par parallel.Func, progress f
 	case last.Found == nil && last.SDE < res.Threshold:
 		notes = append(notes, fmt.Sprintf("%d signal(s) found; the next peak (%.4g d) has SDE %.2f, below %.3g", found, g.Period(last.Peak), last.SDE, res.Threshold))
 	case last.Found == nil:
-		notes = append(notes, fmt.Sprintf("%d signal(s) found; the next peak (%.4g d, SDE %.2f) gave no dip on refinement", found, g.Period(last.Peak), last.SDE))
+		why := res.Refused
+		if why == "" {
+			why = "gave no dip on refinement"
+		}
+		notes = append(notes, fmt.Sprintf("%d signal(s) found; the next peak (%.4g d, SDE %.2f) %s", found, g.Period(last.Peak), last.SDE, why))
 	default:
 		notes = append(notes, fmt.Sprintf("%d signal(s) found; max_signals reached", found))
 	}

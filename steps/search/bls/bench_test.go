@@ -199,7 +199,7 @@ func BenchmarkRefine4yr(b *testing.B) {
 	}
 	b.ResetTimer()
 	for i := 0; i < b.N; i++ {
-		if d := detect(p, g, sp, peak, 10, 2); d == nil || math.Abs(d.Timing.Period-9.7) > 1e-3 {
+		if d, _ := detect(p, g, sp, peak, 10, 2); d == nil || math.Abs(d.Timing.Period-9.7) > 1e-3 {
 			b.Fatal("the benchmark signal was not refined")
 		}
 	}

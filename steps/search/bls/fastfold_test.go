@@ -249,8 +249,8 @@ func fastVersusDirect(t *testing.T, c fastCase) {
 	if r := fast.power[kf] / direct.power[kd]; r < 0.85 || r > 1.05 {
 		t.Errorf("peak power %.3f of the direct fold's", r)
 	}
-	df := detect(p, g, fast, kf, sf, 2)
-	dd := detect(p, g, direct, kd, sd, 2)
+	df, _ := detect(p, g, fast, kf, sf, 2)
+	dd, _ := detect(p, g, direct, kd, sd, 2)
 	if df == nil || dd == nil {
 		t.Fatalf("detection failed: fast %v, direct %v", df != nil, dd != nil)
 	}

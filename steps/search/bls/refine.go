@@ -2,6 +2,7 @@ package bls
 
 import (
 	"cmp"
+	"fmt"
 	"math"
 	"slices"
 )
@@ -14,7 +15,10 @@ import (
 //
 // The frequency is scanned on a local grid that first zooms until the region where the χ²
 // improvement Δχ² lies within 1 of its maximum spans several steps, then walks outwards at
-// a sixteenth of that region until Δχ² has dropped by profileDrop. The period is the mean
+// a sixteenth of that region until Δχ² has dropped by profileDrop. The scan never leaves
+// the reach of the peak it started from (see profileReachDrift) nor the grid's own range:
+// a walk that meets the reach before Δχ² has dropped finds no settled period there, and
+// the peak gives no signal. The period is the mean
 // frequency, and its error the standard deviation, under the weight exp(Δχ²(f)/2) — the
 // profile likelihood of the box model, its depth, epoch and duration optimised at every
 // frequency. For a regular, quadratic minimum that standard deviation is the Δχ² = 1
@@ -51,6 +55,19 @@ const (
 	// factor by which its step grows beyond the Δχ² = 1 region.
 	profileWalk   = 200
 	profileGrowth = 1.15
+	// profileReachDrift bounds how far the refinement may move from the grid's peak f0: the
+	// frequency shift Δf that moves the transit farthest from the reference one by this
+	// many box durations, Δf = profileReachDrift·d·f0/t_far (t_far the time from the
+	// reference transit to the farthest point), or profileMaxSpan grid steps when that is
+	// wider. At the default oversampling of 3 that is 8 grid steps for a box of under 0.7
+	// central durations and 12 for a central one. Once every transit has drifted by more
+	// than its box, no box holds the signal, so a real dip's Δχ² must have fallen by
+	// profileDrop: on injected boxes at the threshold's SNR (80 days at 10 minutes, the
+	// default grid, oversampling 3 and 15) it fell by then within 0.95 box durations of
+	// drift, so twice that leaves room; noise peaks that do not settle within it have no
+	// period the data fix (steps/search/BENCHMARKS.md). The refiner selects its points for
+	// this reach, so a scan beyond it would see only part of the data.
+	profileReachDrift = 2.0
 	// edgeSteps is how many candidate edge positions per box length the coarse exact scan
 	// tries before polishing the best box point by point: the work per trial frequency stays
 	// near (window/duration)·edgeSteps² whatever the number of points.
@@ -72,22 +89,41 @@ type exactBox struct {
 type refiner struct {
 	p       *prepared
 	density float64
-	tc      float64 // reference mid-transit, time since t0, near the data's weighted mean time
-	sel     []int   // points that may lie in a box at any trial frequency
-	stride  int     // edge stride of the coarse exact scan
-	buf     []wpt   // the selected points of the last scan, sorted by u
-	cw, cs  []float64
+	// fLo … fHi are the frequencies the refinement may try: within reach of the peak and
+	// inside the grid; loGrid and hiGrid say whether the grid's end is the bound there.
+	fLo, fHi       float64
+	loGrid, hiGrid bool
+	reach          float64 // the largest shift from f0 allowed, 1/d
+	tc             float64 // reference mid-transit, time since t0, near the data's weighted mean time
+	sel            []int   // points that may lie in a box at any trial frequency
+	stride         int     // edge stride of the coarse exact scan
+	buf            []wpt   // the selected points of the last scan, sorted by u
+	cw, cs         []float64
 }
 
-// newRefiner selects the points within reach of the coarse peak (f0, centre c0 since t0,
-// duration d0) for every frequency within maxShift of f0.
-func newRefiner(p *prepared, density, f0, c0, d0, maxShift float64) *refiner {
+// newRefiner prepares the refinement of the coarse peak at grid frequency f0 (grid step
+// df, box centre c0 since t0, duration d0) on a grid of frequencies gMin … gMax: it sets
+// the reach (see profileReachDrift) and selects the points that may lie in a box at any
+// frequency within it.
+func newRefiner(p *prepared, density, f0, df, c0, d0, gMin, gMax float64) *refiner {
 	rf := &refiner{p: p, density: density}
 	per := 1 / f0
 	// Move the reference transit next to the weighted mean time: the epoch and the period
 	// are then nearly uncorrelated.
 	rf.tc = c0 + math.Round((p.tMid-c0)*f0)*per
 	far := math.Max(math.Abs(rf.tc), math.Abs(p.span()-rf.tc))
+	maxShift := profileMaxSpan * df
+	if far > 0 {
+		maxShift = math.Max(maxShift, profileReachDrift*d0*f0/far)
+	}
+	rf.reach = maxShift
+	rf.fLo, rf.fHi = f0-maxShift, f0+maxShift
+	if gMin >= rf.fLo {
+		rf.fLo, rf.loGrid = gMin, true
+	}
+	if gMax <= rf.fHi {
+		rf.fHi, rf.hiGrid = gMax, true
+	}
 	_, hi := durationRange(1/(f0+maxShift), density, p.cadence)
 	half := math.Max(hi, d0)/2 + far*maxShift/f0 + 2*p.cadence
 	nIn := 0
@@ -203,8 +239,8 @@ func (rf *refiner) scan(f float64) exactBox {
 // points.
 func (rf *refiner) scanAt(f float64) (exactBox, int, int) {
 	if !(f > 0) || math.IsInf(f, 0) {
-		// A profile walking out from a peak near the longest period can step past zero
-		// frequency; there is no box there.
+		// No box at a frequency that is not one (the walk keeps within the grid, so this
+		// is only a guard).
 		return exactBox{}, -1, -1
 	}
 	rf.fold(f)
@@ -325,34 +361,50 @@ func (a weighted) meanSD() (float64, float64) {
 	return m, math.Sqrt(math.Max(0, a.m2/a.w-m*m))
 }
 
-// refine locates the peak near grid frequency f0 (grid step df) to the precision the data
-// allow. c0 and d0 are the coarse box centre (since t0) and duration.
-func refine(p *prepared, density, f0, df, c0, d0 float64) (refined, bool) {
-	rf := newRefiner(p, density, f0, c0, d0, profileMaxSpan*df)
+// noDip is why a peak gave no signal when no box near it is a dip.
+const noDip = "gave no dip on refinement"
+
+// refine locates the peak at grid index peak of g to the precision the data allow,
+// without leaving its reach or the grid (see profileReachDrift). c0 and d0 are the coarse
+// box centre (since t0) and duration. When it finds no period, why says so in a few
+// words that follow "the peak (P d, SDE s)".
+func refine(p *prepared, g Grid, peak int, c0, d0 float64) (out refined, why string) {
+	f0 := g.Freq(peak)
+	df := g.Freq(peak+1) - f0
+	rf := newRefiner(p, g.Density, f0, df, c0, d0, g.FMin, g.FMax)
 	pk, ok := rf.zoom(f0, df)
 	if !ok {
-		return refined{}, false
+		return refined{}, noDip
 	}
-	trials := rf.walk(pk)
+	trials, settled := rf.walk(pk)
+	if !settled {
+		return refined{}, fmt.Sprintf("could not be refined: the box fit does not get clearly worse (by Δχ² = %g) within %.3g grid steps on both sides of it, its best Δχ² being %.3g, so the data do not fix a period there",
+			profileDrop, rf.reach/df, pk.top*p.sumW)
+	}
 	freq, freqSigma, ok := frequencyPosterior(trials, pk.top, p.sumW)
 	if !ok {
-		return refined{}, false
+		return refined{}, noDip
 	}
-	out := refined{freq: freq, freqSigma: freqSigma}
+	if !(freq >= rf.fLo && freq <= rf.fHi) {
+		// The trials lie within the bounds, so their weighted mean does too; this guards
+		// the promise that a refined period stays near its peak and inside the grid.
+		return refined{}, fmt.Sprintf("could not be refined: the refinement moved to %.4g d, beyond %.4g–%.4g d", 1/freq, 1/rf.fHi, 1/rf.fLo)
+	}
+	out = refined{freq: freq, freqSigma: freqSigma}
 
 	// Epoch and duration at the chosen frequency, from the boxes near the best one.
 	b, bi, bj := rf.scanAt(out.freq)
 	if b.stat <= 0 {
-		return refined{}, false
+		return refined{}, noDip
 	}
-	c, cs, d, ds, peak := rf.posterior(1/out.freq, bi, bj, b.stat)
-	if peak <= 0 {
-		return refined{}, false
+	c, cs, d, ds, top := rf.posterior(1/out.freq, bi, bj, b.stat)
+	if top <= 0 {
+		return refined{}, noDip
 	}
 	out.centre, out.centreSigma = rf.tc+c, cs
 	out.dur, out.durSigma = d, ds
-	out.stat = peak
-	return out, true
+	out.stat = top
+	return out, ""
 }
 
 // profilePeak is what the zoom finds: the trial frequency with the largest statistic top,
@@ -374,7 +426,10 @@ func (rf *refiner) zoom(f0, df float64) (pk profilePeak, ok bool) {
 		pk.top = 0
 		for k := range prof {
 			f := fc + float64(k-profilePoints)*step
-			prof[k] = rf.scan(f).stat
+			prof[k] = 0 // outside the reach or the grid: no box is tried there
+			if f >= rf.fLo && f <= rf.fHi {
+				prof[k] = rf.scan(f).stat
+			}
 			if prof[k] > pk.top {
 				pk.top, pk.fTop = prof[k], f
 			}
@@ -411,11 +466,19 @@ type profileTrial struct{ f, v float64 }
 
 // walk scans outwards from the best frequency until Δχ² has dropped by profileDrop: at a
 // fine step across the Δχ² = 1 region, growing by profileGrowth per step beyond it. It
-// returns the trials sorted by frequency.
-func (rf *refiner) walk(pk profilePeak) []profileTrial {
+// returns the trials sorted by frequency, and whether the walk settled on both sides: Δχ²
+// dropped by profileDrop, or the side reached the grid's end (the searched range bounds
+// the period as a prior would). A side that meets the reach first has not settled.
+func (rf *refiner) walk(pk profilePeak) ([]profileTrial, bool) {
 	fine := math.Max((pk.fHi-pk.fLo)/profileFine, pk.fTop*1e-13)
 	trials := []profileTrial{{pk.fTop, rf.scan(pk.fTop).stat}}
+	settled := true
 	for _, dir := range []float64{-1, 1} {
+		bound, grid := rf.fHi, rf.hiGrid
+		if dir < 0 {
+			bound, grid = rf.fLo, rf.loGrid
+		}
+		side := false
 		off, dx := 0.0, fine
 		for k := 1; k <= profileWalk; k++ {
 			off += dx
@@ -423,15 +486,25 @@ func (rf *refiner) walk(pk profilePeak) []profileTrial {
 				dx *= profileGrowth
 			}
 			f := pk.fTop + dir*off
+			end := dir*(f-bound) >= 0
+			if end {
+				f = bound
+			}
 			v := rf.scan(f).stat
 			trials = append(trials, profileTrial{f, v})
 			if (pk.top-v)*rf.p.sumW > profileDrop {
+				side = true
+				break
+			}
+			if end {
+				side = grid
 				break
 			}
 		}
+		settled = settled && side
 	}
 	slices.SortFunc(trials, func(a, b profileTrial) int { return cmp.Compare(a.f, b.f) })
-	return trials
+	return trials, settled
 }
 
 // frequencyPosterior returns the mean and standard deviation of the frequency under the

@@ -30,6 +30,9 @@ type Result struct {
 	// grid.
 	Threshold float64
 	Passes    []Pass
+	// Refused says, when the last pass's peak reached the threshold and yet gave no signal,
+	// why, in words that follow "the peak (P d, SDE s)"; empty otherwise.
+	Refused string
 }
 
 // Pass is one periodogram over the points left after masking the signals found before it,
@@ -146,7 +149,7 @@ func Search(s Series, o Options, par parallel.Func, progress func(pass, done, to
 		sp, score, peak := pr.sp, pr.score, pr.peak
 		ps := Pass{Power: sp.power, Duration: sp.duration, Peak: peak, SDE: score}
 		if score >= res.Threshold && sp.power[peak] > 0 {
-			ps.Found = detect(p, g, sp, peak, score, o.MaskFactor)
+			ps.Found, res.Refused = detect(p, g, sp, peak, score, o.MaskFactor)
 		}
 		res.Passes = append(res.Passes, ps)
 		if ps.Found == nil || pass+1 >= o.MaxSignals {
@@ -184,17 +187,30 @@ func passProgress(pass int, p *prepared, g Grid, m Method, progress func(pass, d
 	}
 }
 
-// detect refines the peak and measures the dip, or returns nil when refinement finds no box.
-func detect(p *prepared, g Grid, sp spectrum, peak int, score, mask float64) *Detection {
-	f0 := g.Freq(peak)
-	df := g.Freq(peak+1) - f0
-	r, ok := refine(p, g.Density, f0, df, sp.centre[peak], sp.duration[peak])
-	if !ok {
-		return nil
+// minDepthSigmas is the three-sigma depth rule: a refined box is reported as a signal only
+// when its depth is at least three times its error. A depth within three errors of zero
+// does not show a dip at all (three standard errors, a one-sided chance of 0.13 % for one
+// box measured alone; common practice). The SDE threshold guards the search as a whole
+// against noise, but the SDE measures a peak against the rest of its spectrum, and on a
+// spectrum with little power anywhere (a light curve whose remaining variability the
+// detrend removed) a peak of small χ² improvement can reach it.
+const minDepthSigmas = 3
+
+// detect refines the peak and measures the dip. It returns nil, and why in words that
+// follow "the peak (P d, SDE s)", when the refinement settles on no period near the peak
+// or the box's depth fails the three-sigma depth rule (minDepthSigmas).
+func detect(p *prepared, g Grid, sp spectrum, peak int, score, mask float64) (*Detection, string) {
+	r, why := refine(p, g, peak, sp.centre[peak], sp.duration[peak])
+	if why != "" {
+		return nil, why
 	}
 	m := measureDip(p, r.freq, r.centre, r.dur, mask)
-	if m.depth <= 0 {
-		return nil
+	if !(m.depth > 0) {
+		return nil, noDip
+	}
+	if !(m.depth >= minDepthSigmas*m.depthSigma) {
+		return nil, fmt.Sprintf("was refined to a box at %.4g d whose depth, %.3g ± %.2g ppm, is less than %d times its error, so it is not taken for a signal",
+			1/r.freq, m.depth*1e6, m.depthSigma*1e6, minDepthSigmas)
 	}
 	per := 1 / r.freq
 	rivals, spread := checkDetection(p, r.freq, r.centre, r.dur)
@@ -212,7 +228,7 @@ func detect(p *prepared, g Grid, sp spectrum, peak int, score, mask float64) *De
 			BinnedNoise: m.binnedNoise, Transits: m.transits,
 		},
 		Rivals: rivals, Spread: spread,
-	}
+	}, ""
 }
 
 // DefaultThreshold returns the SDE a periodogram peak must reach to count as a signal on a
