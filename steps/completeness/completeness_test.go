@@ -754,8 +754,10 @@ func TestFixedSpanChangesLittle(t *testing.T) {
 		if got == fixed {
 			same++
 		}
-		if r := got / fixed; r < 1/math.Sqrt2-1e-9 || r > math.Sqrt2+1e-9 {
-			t.Errorf("%+v: span %.3g d with the planet, %.3g d without", d.Injection, got, fixed)
+		// The ladder's windows are written to three decimals (2.828, then 4), so one step
+		// is √2 to within 2·10⁻⁴.
+		if r := got / fixed; r < 1/math.Sqrt2-1e-3 || r > math.Sqrt2+1e-3 {
+			t.Errorf("%+v: span %v d with the planet, %v d without", d.Injection, got, fixed)
 		}
 	}
 	t.Logf("span %.3g d; the same with the planet in %d of %d cases", fixed, same, len(drawn))

@@ -40,7 +40,7 @@ var (
 )
 
 // version is bumped whenever the numbers or the encoding change.
-const version = 5 // 5: the star's periods from fast transforms on an even grid of bins
+const version = 6 // 6: a masked pass's window: bias judged against its own error, a floor of 5 masked stretches, bins a whole number of cadences; a light curve too sparse for its window refused
 
 // The estimator names written in a workflow.
 const (
@@ -90,6 +90,22 @@ const (
 	// splineClip is the two-sided clip of the spline's own fit, 3 robust sigmas
 	// (Vanderburg & Johnson 2014, PASP 126, 948, from memory).
 	splineClip = 3.0
+	// maskedWindows is the floor of a chosen window in a masked pass, in masked stretches
+	// (the longest of them): the trend under a masked stretch is then read from data on both
+	// sides rather than extrapolated into the hole. For the local quadratic with tricube
+	// weights the variance of the trend at the middle of a masked stretch, against that at
+	// a point with data all round, is 2.1 at 5 stretches per window, 2.6 at 4, 13 at 2 and
+	// about 740 at 1.2 (the window the chooser once took on white noise): the ratio of the
+	// plain fit's Σℓ² with and without the hole, worked from its normal equations
+	// (TestMaskedFloorKeepsTheTrendFromBothSides).
+	maskedWindows = 5.0
+	// honestNoise is the least share of the white noise averaged over a transit duration
+	// that a masked pass may leave in the detrended light curve before its notes warn: a
+	// search divides the depth by the out-of-transit scatter on that time scale, which a
+	// short window smooths away while the masked transits keep their full noise, so the
+	// signal to noise is overstated by 1/share; 0.9 allows 11 %, about the error of an
+	// SNR of 10 (common practice: an SNR carries an error of about 1).
+	honestNoise = 0.9
 )
 
 // Name is the block type.
@@ -114,7 +130,7 @@ type Config struct {
 	Degree     int       `step:"degree" default:"2" doc:"degree of the local polynomial (local-polynomial): 0, 1 or 2; a quadratic follows a curved trend without bias, a location (0) or a line (1) leaves ½ f''·h²/12 beside every turn"`
 	// Span is the window's full width in days; absent, local-polynomial chooses it from the
 	// data and the location estimators take defaultSpan (see span).
-	Span        *float64 `step:"span" dim:"time" doc:"full width in time of the sliding window. For local-polynomial, by default chosen from the light curve among 0.25–4 d: without a mask the window that keeps the most of an unmasked 2-hour transit's signal for the bias the star's variability leaves, with a mask the widest window whose bias stays under a tenth of the noise (the run says what it weighed); for biweight and running-median 0.5 d, which keeps transits up to about a third of it"`
+	Span        *float64 `step:"span" dim:"time" doc:"full width in time of the sliding window. For local-polynomial, by default chosen from the light curve among 0.25–4 d: without a mask the window that keeps the most of an unmasked 2-hour transit's signal for the bias the star's variability leaves, with a mask the widest window whose bias is not shown to exceed a tenth of the noise, and never under 5 times the longest masked stretch (the run says what it weighed); for biweight and running-median 0.5 d, which keeps transits up to about a third of it"`
 	KnotSpacing float64  `step:"knot_spacing" dim:"time" default:"0.5 d" doc:"spacing in time of the spline's knots (robust-spline); knots are dropped where there are too few points"`
 	C           float64  `step:"biweight_c" default:"5" doc:"biweight tuning constant, in median absolute deviations: points further than this from the location get no weight"`
 	FlareSigma  float64  `step:"flare_sigma" default:"3" doc:"points more than this many robust standard deviations above the trend are flares and removed; points below are never removed"`
@@ -220,6 +236,9 @@ func (k Kind) Run(ctx context.Context, cfg *Config, in steps.Inputs, env steps.E
 		}
 	}
 	res, notes := Detrend(*cfg, lc, sigs, env.Pool)
+	if err := tooSparse(res, cfg.MinPoints); err != nil {
+		return nil, err
+	}
 	for _, n := range notes {
 		env.Note("%s", n)
 	}
@@ -227,6 +246,24 @@ func (k Kind) Run(ctx context.Context, cfg *Config, in steps.Inputs, env steps.E
 		return nil, err
 	}
 	return res, nil
+}
+
+// tooSparse refuses a result that lost most of its light curve for want of neighbours:
+// when more than half of the points with a finite flux got no trend, the window is too
+// short for the light curve's spacing, and a search on what is left would fail or mislead.
+// The message names the counts, the window and the spacing a window would need.
+func tooSparse(r *Result, minPoints int) error {
+	none := r.count(robust.NoTrend)
+	usable := 0
+	for _, t := range r.Trends {
+		usable += len(t.Marks)
+	}
+	usable -= r.count(robust.NonFinite)
+	if none == 0 || 2*none <= usable {
+		return nil
+	}
+	return steps.BadInputf("light_curve: too sparse for its window: %d of %d points have fewer than %d usable points (min_window_points) within %s, and would be dropped; write a wider span (or knot_spacing), or detrend a denser light curve",
+		none, usable, minPoints, estimatorWords(r))
 }
 
 // checkCurve rejects a light curve the filters cannot take: columns of different lengths,
@@ -279,7 +316,7 @@ func WithChosenSpan(cfg Config, lc *lightcurve.LightCurve, pool *steps.Pool) Con
 	}
 	series, gap, _ := seriesOf(cfg, lc, nil)
 	var notes []string
-	span, _ := chooseSpan(series, cfg.Degree, false, gap, parOf(pool), &notes)
+	span, _ := chooseSpan(series, cfg.Degree, 0, 0, gap, parOf(pool), &notes)
 	cfg.Span = &span
 	return cfg
 }
@@ -359,7 +396,11 @@ func trend(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool *s
 	}
 	par := parOf(pool)
 	if rc.Span == 0 {
-		rc.Span, scale = chooseSpan(series, cfg.Degree, len(sigs) > 0, gap, par, &notes)
+		var stretch, dur float64 // the longest masked stretch and transit duration
+		for _, s := range sigs {
+			stretch, dur = max(stretch, s.Duration*cfg.MaskFactor), max(dur, s.Duration)
+		}
+		rc.Span, scale = chooseSpan(series, cfg.Degree, stretch, dur, gap, par, &notes)
 	}
 	out := robust.Detrend(rc, series, par)
 	res := newResult(lc, out, cfg.Estimator, scale, gap)
@@ -370,25 +411,72 @@ func trend(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool *s
 }
 
 // chooseSpan picks the local polynomial's window from the data (robust.ChooseSpan), for a
-// masked pass (follow the star) or an unmasked one (keep the transits), and says why in a
-// note; when the data cannot tell it keeps defaultSpan and says so.
-func chooseSpan(series []robust.Series, degree int, masked bool, gap float64, par parallel.Func, notes *[]string) (span, scale float64) {
+// masked pass (follow the star; stretch the longest masked stretch and dur the longest
+// masked transit, days) or an unmasked one (stretch 0: keep the transits), and says why in
+// a note; when the data cannot tell it keeps defaultSpan, or in a masked pass the floor if
+// wider, and says so. A masked pass's window is at least maskedWindows stretches; when the
+// window taken may bias the depths and signal to noise measured after it, a note says so.
+func chooseSpan(series []robust.Series, degree int, stretch, dur, gap float64, par parallel.Func, notes *[]string) (span, scale float64) {
 	goal, why := robust.KeepTransits, "keeps the most of an unmasked 2-hour transit's signal to noise for the bias the star's variability leaves"
-	if masked {
-		goal, why = robust.FollowStar, "is the widest window whose bias stays under a tenth of the noise, the transits being masked"
+	floor := maskedWindows * stretch
+	if stretch > 0 {
+		goal, why = robust.FollowStar, fmt.Sprintf("is the widest window, of those at least %g times the longest masked stretch (%.3g h), whose bias is not shown to exceed a tenth of the noise, the transits being masked",
+			maskedWindows, stretch*24)
 	}
-	ch, ok := robust.ChooseSpan(series, degree, goal, spanReference, gap, par)
+	ch, ok := robust.ChooseSpan(series, degree, goal, spanReference, floor, gap, par)
 	if !ok {
-		*notes = append(*notes, fmt.Sprintf("span: %.3g d (too few evenly spaced points to choose one from the data)", defaultSpan))
-		return defaultSpan, defaultSpan
+		span = max(defaultSpan, floor)
+		why := "too few evenly spaced points to choose one from the data"
+		if span > defaultSpan {
+			why += fmt.Sprintf("; %g times the longest masked stretch, %.3g h", maskedWindows, stretch*24)
+		}
+		*notes = append(*notes, fmt.Sprintf("span: %.3g d (%s)", span, why))
+		return span, span
 	}
 	var tried []string
 	for _, tr := range ch.Trials {
-		tried = append(tried, fmt.Sprintf("%.3g d: bias %.0f ppm, keeps %.0f %%", tr.Span, tr.Bias*1e6, tr.Kept*100))
+		t := fmt.Sprintf("%.3g d: bias %.0f ± %.0f ppm, keeps %.0f %%", tr.Span, tr.Bias*1e6, tr.BiasErr*1e6, tr.Kept*100)
+		if !tr.Allowed {
+			t += ", under the floor"
+		}
+		tried = append(tried, t)
 	}
-	*notes = append(*notes, fmt.Sprintf("span: %.3g d, chosen from the light curve: it %s (noise per 2 h %.0f ppm; tried %s)",
-		ch.Span, why, ch.Noise*1e6, strings.Join(tried, "; ")))
+	switch {
+	case ch.Floored:
+		*notes = append(*notes, fmt.Sprintf("span: %.3g d, %g times the longest masked stretch (%.3g h), wider than every window tried, so its bias was not measured (noise per 2 h %.0f ppm; tried %s)",
+			ch.Span, maskedWindows, stretch*24, ch.Noise*1e6, strings.Join(tried, "; ")))
+	case !ch.Negligible:
+		*notes = append(*notes, fmt.Sprintf("span: %.3g d, chosen from the light curve: the narrowest window allowed, at least %g times the longest masked stretch (%.3g h); no window's bias was shown to stay under a tenth of the noise (noise per 2 h %.0f ppm; tried %s)",
+			ch.Span, maskedWindows, stretch*24, ch.Noise*1e6, strings.Join(tried, "; ")))
+	default:
+		*notes = append(*notes, fmt.Sprintf("span: %.3g d, chosen from the light curve: it %s (noise per 2 h %.0f ppm; tried %s)",
+			ch.Span, why, ch.Noise*1e6, strings.Join(tried, "; ")))
+	}
+	if stretch > 0 {
+		maskedCaution(ch.Span, dur, degree, !ch.Negligible, notes)
+	}
 	return ch.Span, ch.Span
+}
+
+// maskedCaution says in plain words when a masked pass's window may bias what a search
+// measures after it: a window short against the transit duration dur smooths away the
+// out-of-transit noise on the transit's time scale, which the masked transits keep, so a
+// search's signal to noise comes out too high (robust.NoiseKept); a trend with a bias
+// shown above a tenth of the noise (biased) shifts the depths.
+func maskedCaution(span, dur float64, degree int, biased bool, notes *[]string) {
+	kept := robust.NoiseKept(span, dur, degree)
+	if kept >= honestNoise && !biased {
+		return
+	}
+	var why []string
+	if kept < honestNoise {
+		why = append(why, fmt.Sprintf("the %.3g d window keeps only %.0f %% of the noise averaged over the %.3g-hour transits outside them, while the masked transits keep all of theirs, so a search's signal to noise may come out up to %.0f %% too high",
+			span, 100*kept, dur*24, 100*(1/kept-1)))
+	}
+	if biased {
+		why = append(why, "the star varies too fast for any window tried to follow it with a negligible bias, so the trend under the masked transits may be off and their depths with it")
+	}
+	*notes = append(*notes, "caution: depths and signal-to-noise ratios measured on this light curve may be biased: "+strings.Join(why, "; ")+". A search on it is best compared with the first, unmasked pass.")
 }
 
 // starPeriods measures the star's own periodic variability in the trend: the strongest

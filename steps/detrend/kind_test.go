@@ -41,7 +41,7 @@ func fixture(nseg, n int) (*lightcurve.LightCurve, signals.Signal) {
 	sig := signals.Signal{Period: 3.1, Epoch: 0.7, Duration: 0.11, Depth: 1.5e-3}
 	noise := rng.New(uint64(nseg*1000003 + n)) // our own stream: no Go release changes the fixtures
 	lc := &lightcurve.LightCurve{TimeScale: "BJD_TDB", RefInt: 2460000, RefFrac: 0.5,
-		Dropped: lightcurve.Dropped{NonFinite: 3, Flagged: 2}}
+		Dropped: lightcurve.Dropped{Unusable: 3, Flagged: 2}}
 	t0 := 0.0
 	for k := 0; k < nseg; k++ {
 		s := lightcurve.Segment{ID: string(rune('a' + k)), Band: "survey-red", Exposure: cadence294,

@@ -69,7 +69,7 @@ func BenchmarkSpotted(b *testing.B) {
 	})
 	b.Run("choosing the window", func(b *testing.B) {
 		for b.Loop() {
-			ChooseSpan(s, 2, KeepTransits, 2.0/24, 0.5, nil)
+			ChooseSpan(s, 2, KeepTransits, 2.0/24, 0, 0.5, nil)
 		}
 	})
 }
@@ -78,6 +78,6 @@ func BenchmarkSpotted(b *testing.B) {
 func BenchmarkChooseSpan4yr(b *testing.B) {
 	s := benchSeries()
 	for b.Loop() {
-		ChooseSpan(s, 2, KeepTransits, 2.0/24, 0.5, nil)
+		ChooseSpan(s, 2, KeepTransits, 2.0/24, 0, 0.5, nil)
 	}
 }

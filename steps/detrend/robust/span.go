@@ -32,9 +32,21 @@ import (
 // With the transits masked nothing needs keeping, and it picks the widest window (the least
 // noise in the trend) whose bias is negligible, at most a tenth of σ_D: it then adds at most
 // 1 % to the variance of a transit's depth, and a bias, unlike noise, does not average away
-// over the points of one transit. When no window is that good, the narrowest is taken.
-// The trials are binned to a twelfth of the reference duration (never finer than the
-// cadence) so that the choice costs about as much as one detrend.
+// over the points of one transit. A bias that small is far below what the estimate can
+// resolve: every window's estimate carries the noise of the narrowest window's trend, whose
+// sampling error on a month of data is tens of ppm, while a tenth of σ_D is often under
+// 30 ppm. So a window is ruled out only when its bias is shown to exceed the tenth, by more
+// than twice the estimate's own standard error (measured from the data, in blocks one window
+// long); otherwise pure noise would rule out every window but the narrowest, whose bias is
+// zero by construction, and the masked pass would follow the noise. When no window is that
+// good, the narrowest allowed is taken.
+//
+// A masked pass also has a floor: the caller's shortest allowed window (floor), which keeps
+// the masked stretches a small part of the window so that the trend under them is
+// interpolated from data on both sides rather than extrapolated (see the detrend kind).
+//
+// The trials are binned to about a twelfth of the reference duration (a whole number of
+// cadences, at least one) so that the choice costs about as much as one detrend.
 
 // negligibleBias is the largest bias, as a share of the white noise per reference
 // duration, that a masked pass's window may leave: (1 + 0.1²) adds 1 % to the variance.
@@ -65,11 +77,16 @@ type SpanTrial struct {
 	Kept float64
 	// Bias is the root-mean-square departure of the trend from the star's, relative flux.
 	Bias float64
+	// BiasErr is the square root of the standard error of Bias² (relative flux): a bias
+	// below it cannot be told from none.
+	BiasErr float64
 	// TrendNoise is the standard deviation the noise gives the trend at a point.
 	TrendNoise float64
+	// Allowed is false for a window under the caller's floor.
+	Allowed bool
 	// Score is what the goal maximises: the expected signal to noise of an unmasked
-	// transit (KeepTransits), or the span itself when the bias is negligible and 0 when not
-	// (FollowStar).
+	// transit (KeepTransits), or the span itself when the bias is not shown to exceed the
+	// negligible level and 0 when it is (FollowStar); 0 for a window under the floor.
 	Score float64
 }
 
@@ -80,20 +97,38 @@ type SpanChoice struct {
 	// Noise is the white noise per reference duration, σ_D (relative flux); Bin the width
 	// of the bins the trials were made on (days).
 	Noise, Bin float64
+	// Negligible is false when no allowed window met the goal's test for the bias
+	// (FollowStar): the narrowest allowed was taken, and its bias is not negligible.
+	// Always true for KeepTransits.
+	Negligible bool
+	// Floored is true when the floor is wider than every candidate: Span is the floor
+	// itself, its bias not measured.
+	Floored bool
 }
 
+// significance is how many standard errors a bias estimate must exceed the negligible
+// level by for a masked pass to rule its window out: a one-sided 2.3 % chance that noise
+// alone rules out a given window (normal tail at 2σ, common practice).
+const significance = 2.0
+
 // ChooseSpan picks the window of the local polynomial of the given degree for the series
-// (masked points left out), for the goal, with transits of duration ref (days) in mind.
-// Series are split at gaps longer than gapOver. ok is false when the data are too few or
-// too noisy to tell (fewer than two usable bins in every piece); the caller then keeps a
-// fixed default.
-func ChooseSpan(series []Series, degree int, goal SpanGoal, ref, gapOver float64, par parallel.Func) (SpanChoice, bool) {
+// (masked points left out), for the goal, with transits of duration ref (days) in mind,
+// never narrower than floor (days; 0 for no floor). Series are split at gaps longer than
+// gapOver. ok is false when the data are too few or too noisy to tell (fewer than two
+// usable bins in every piece); the caller then keeps a fixed default.
+func ChooseSpan(series []Series, degree int, goal SpanGoal, ref, floor, gapOver float64, par parallel.Func) (SpanChoice, bool) {
 	cadence := MedianCadence(series)
 	if !(cadence > 0) || !(ref > 0) {
 		return SpanChoice{}, false
 	}
-	bin := max(cadence, ref/12)
-	pieces := binPieces(series, bin, gapOver)
+	// A whole number of cadences per bin, the bins' edges half a cadence before a piece's
+	// first point: on an even cadence every bin then holds the same number of points. Edges
+	// on the points' own times (a bin exactly one cadence wide, starting at a point) would
+	// leave it to rounding whether a point falls in one bin or the next, and the bins would
+	// hold one or two points at random: noise of two levels on an uneven grid, which the
+	// bias estimate below would read as bias.
+	bin := cadence * max(1, math.Round(ref/12/cadence))
+	pieces := binPieces(series, bin, cadence/2, gapOver)
 	measured, ok := secondDifferenceScatter(pieces, bin)
 	if !ok {
 		return SpanChoice{}, false
@@ -102,7 +137,7 @@ func ChooseSpan(series []Series, degree int, goal SpanGoal, ref, gapOver float64
 	// they are larger. What the two trends differ by from noise alone is set by the noise
 	// actually in the data, the measured scatter.
 	sigma := max(measured, statedNoise(series)*math.Sqrt(cadence/bin))
-	choice := SpanChoice{Noise: sigma * math.Sqrt(bin/ref), Bin: bin}
+	choice := SpanChoice{Noise: sigma * math.Sqrt(bin/ref), Bin: bin, Negligible: goal == KeepTransits}
 	trends := make([][][]float64, len(spanLadder))
 	for k, h := range spanLadder {
 		trends[k] = make([][]float64, len(pieces))
@@ -120,40 +155,104 @@ func ChooseSpan(series []Series, degree int, goal SpanGoal, ref, gapOver float64
 	best := -1
 	for k, h := range spanLadder {
 		kh := kernel(h/2, bin, degree)
-		var sq []float64
-		for p := range pieces {
+		var sq, at []float64
+		var piece []int
+		for p, pc := range pieces {
 			for i, v := range trends[k][p] {
 				if d := v - trends[0][p][i]; finite(d) {
 					sq = append(sq, d*d)
+					at = append(at, pc.t[i])
+					piece = append(piece, p)
 				}
 			}
 		}
 		if len(sq) == 0 {
 			continue
 		}
-		tr := SpanTrial{Span: h, Kept: kh.kept(ref), TrendNoise: sigma * math.Sqrt(kh.sumSq())}
+		tr := SpanTrial{Span: h, Kept: kh.kept(ref), TrendNoise: sigma * math.Sqrt(kh.sumSq()), Allowed: h >= floor}
+		se := blockError(sq, at, piece, h, trimShare)
 		ms := trimmedMean(sq, trimShare)
-		tr.Bias = math.Sqrt(max(0, ms/trimSmooth-measured*measured*kh.diffSq(k0)*trimNoise/trimSmooth))
-		switch goal {
-		case KeepTransits:
+		bias2 := ms/trimSmooth - measured*measured*kh.diffSq(k0)*trimNoise/trimSmooth
+		tr.Bias = math.Sqrt(max(0, bias2))
+		tr.BiasErr = math.Sqrt(se / trimSmooth)
+		switch {
+		case !tr.Allowed:
+			tr.Score = 0
+		case goal == KeepTransits:
 			tr.Score = tr.Kept / math.Hypot(choice.Noise, tr.Bias)
 		default:
-			// Any window whose bias is negligible will do; the widest has the least noise.
+			// Any window whose bias is not shown to exceed the negligible level will do; the
+			// widest has the least noise.
 			tr.Score = 0
-			if tr.Bias <= negligibleBias*choice.Noise {
+			lim := negligibleBias * choice.Noise
+			if bias2-significance*tr.BiasErr*tr.BiasErr <= lim*lim {
 				tr.Score = tr.Span
 			}
 		}
 		choice.Trials = append(choice.Trials, tr)
+		if !tr.Allowed {
+			continue
+		}
 		if best < 0 || tr.Score > choice.Trials[best].Score {
 			best = len(choice.Trials) - 1
 		}
 	}
-	if best < 0 {
+	if len(choice.Trials) == 0 {
 		return SpanChoice{}, false
 	}
+	if best < 0 { // the floor is wider than every candidate
+		choice.Span, choice.Floored, choice.Negligible = floor, true, false
+		return choice, true
+	}
 	choice.Span = choice.Trials[best].Span
+	if goal == FollowStar {
+		choice.Negligible = choice.Trials[best].Score > 0
+	}
 	return choice, true
+}
+
+// blockError is the standard error of trimmedMean(sq, share) from the scatter of its parts
+// over blocks of consecutive values, each block the values of one piece within a stretch of
+// the given length (days) of their times at: the squared differences of two trends are
+// correlated over about a window, so blocks one window long are close to independent
+// (batch means; the variance of a ratio of sums, common practice). The trim's cut is the
+// whole series'. 0 when there are fewer than two blocks.
+func blockError(sq, at []float64, piece []int, length, share float64) float64 {
+	keep := len(sq) - int(share*float64(len(sq)))
+	cut := math.Inf(1)
+	if keep < len(sq) && keep > 0 {
+		c := append([]float64(nil), sq...)
+		selectNth(c, keep-1)
+		cut = c[keep-1]
+	}
+	var sums, counts []float64
+	start, last := math.NaN(), -1
+	for i, v := range sq {
+		if piece[i] != last || at[i]-start >= length {
+			sums, counts = append(sums, 0), append(counts, 0)
+			start, last = at[i], piece[i]
+		}
+		if v <= cut {
+			sums[len(sums)-1] += v
+			counts[len(counts)-1]++
+		}
+	}
+	b := len(sums)
+	var S, N float64
+	for i := range sums {
+		S += sums[i]
+		N += counts[i]
+	}
+	if b < 2 || N == 0 {
+		return 0
+	}
+	r := S / N
+	v := 0.0
+	for i := range sums {
+		d := sums[i] - r*counts[i]
+		v += d * d
+	}
+	return math.Sqrt(v*float64(b)/float64(b-1)) / N
 }
 
 // The mean square difference between two trends is taken without its largest tenth:
@@ -186,9 +285,9 @@ func trimmedMean(x []float64, share float64) float64 {
 type binned struct{ t, f []float64 }
 
 // binPieces averages the usable points of every series in consecutive bins of the given
-// width, splitting at gaps longer than gapOver; bins are aligned to each piece's first
-// point, and a bin's time is the mean time of its points.
-func binPieces(series []Series, width, gapOver float64) []binned {
+// width, splitting at gaps longer than gapOver; the first bin of each piece begins lead
+// days before its first point, and a bin's time is the mean time of its points.
+func binPieces(series []Series, width, lead, gapOver float64) []binned {
 	var out []binned
 	for _, s := range series {
 		var cur binned
@@ -214,7 +313,7 @@ func binPieces(series []Series, width, gapOver float64) []binned {
 				cur, start = binned{}, math.NaN()
 			}
 			if math.IsNaN(start) {
-				start = t
+				start = t - lead
 			}
 			if t-start >= width {
 				flush()
@@ -315,13 +414,20 @@ func kernel(half, step float64, degree int) equivKernel {
 }
 
 // kept is the share of a box of duration d centred on the point that the detrended light
-// curve keeps: 1 − Σ ell over the box.
+// curve keeps: 1 − Σ ell over the box, each grid point standing for the cell of one step
+// around it and counted by the share of that cell inside the box (so that a box whose edge
+// falls on a grid point does not gain or lose a whole step by rounding).
 func (k equivKernel) kept(d float64) float64 {
+	if len(k.off) < 2 { // a window within one step: the point alone
+		if d > 0 {
+			return 0
+		}
+		return 1
+	}
+	step := k.off[1] - k.off[0]
 	s := 0.0
 	for j, o := range k.off {
-		if math.Abs(o) < d/2 {
-			s += k.ell[j]
-		}
+		s += k.ell[j] * min(1, max(0, (d/2-math.Abs(o))/step+0.5))
 	}
 	return 1 - s
 }
@@ -360,4 +466,39 @@ func (k equivKernel) diffSq(o equivKernel) float64 {
 		s += m[q] * m[q]
 	}
 	return s
+}
+
+// NoiseKept is the share (in standard deviation) of white noise averaged over a stretch
+// of duration d that the plain local polynomial of the given degree and full width span
+// leaves in the detrended light curve, on evenly sampled data: the white noise filtered by
+// the residual operator 1 − ℓ (ℓ the equivalent kernel) and averaged by a box b of width
+// d has variance ∝ Σ (b − ℓ∗b)², against Σ b² unfiltered. A search that scores a dip by
+// the out-of-transit scatter on the dip's time scale sees that scatter shrunk by this
+// share; a dip the trend passes under untouched (a masked transit) keeps its own noise.
+func NoiseKept(span, d float64, degree int) float64 {
+	if !(span > 0) || !(d > 0) {
+		return 1
+	}
+	step := d / 30
+	k := kernel(span/2, step, degree)
+	m := len(k.off) / 2
+	nb := int(math.Round(d / step))
+	// b on indices [0, nb); ℓ∗b reaches m past either end.
+	box := func(i int) float64 {
+		if i >= 0 && i < nb {
+			return 1 / float64(nb)
+		}
+		return 0
+	}
+	var sr, sb float64
+	for i := -m; i < nb+m; i++ {
+		lb := 0.0
+		for j := -m; j <= m; j++ {
+			lb += k.ell[j+m] * box(i-j)
+		}
+		r := box(i) - lb
+		sr += r * r
+		sb += box(i) * box(i)
+	}
+	return math.Sqrt(sr / sb)
 }

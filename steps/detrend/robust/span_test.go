@@ -138,7 +138,7 @@ func TestChooseSpanFollowsTheStar(t *testing.T) {
 			for i := range s.Err {
 				s.Err[i] = 800e-6
 			}
-			ch, ok := ChooseSpan([]Series{{Time: s.Time, Flux: s.Flux, Err: s.Err}}, 2, c.goal, 2.0/24, 0.5, nil)
+			ch, ok := ChooseSpan([]Series{{Time: s.Time, Flux: s.Flux, Err: s.Err}}, 2, c.goal, 2.0/24, 0, 0.5, nil)
 			if !ok {
 				t.Fatal("no choice")
 			}
@@ -153,7 +153,7 @@ func TestChooseSpanFollowsTheStar(t *testing.T) {
 // default.
 func TestChooseSpanNeedsData(t *testing.T) {
 	s := Series{Time: []float64{0, 1, 2, 3}, Flux: []float64{1, 1, 1, 1}}
-	if _, ok := ChooseSpan([]Series{s}, 2, KeepTransits, 2.0/24, 0.5, nil); ok {
+	if _, ok := ChooseSpan([]Series{s}, 2, KeepTransits, 2.0/24, 0, 0.5, nil); ok {
 		t.Error("a choice from four points")
 	}
 }
@@ -168,7 +168,7 @@ func TestChooseSpanBiasTracksTheTruth(t *testing.T) {
 	for i := range s.Err {
 		s.Err[i] = 800e-6
 	}
-	ch, ok := ChooseSpan([]Series{{Time: s.Time, Flux: s.Flux, Err: s.Err}}, 2, FollowStar, 2.0/24, 0.5, nil)
+	ch, ok := ChooseSpan([]Series{{Time: s.Time, Flux: s.Flux, Err: s.Err}}, 2, FollowStar, 2.0/24, 0, 0.5, nil)
 	if !ok {
 		t.Fatal("no choice")
 	}

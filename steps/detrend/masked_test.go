@@ -1,0 +1,143 @@
+package detrend
+
+import (
+	"math"
+	"strings"
+	"testing"
+
+	"dipline/steps"
+	"dipline/steps/internal/lightcurve"
+	"dipline/steps/internal/signals"
+	"dipline/steps/internal/steptest"
+	"dipline/steps/internal/synth"
+)
+
+// White noise of 1000 ppm at a 10-minute cadence over 60 days with a 1200 ppm, 3.5-hour
+// box transit every 11.3 d (the probe's case c04, invented data from our own stream).
+const (
+	wnNoise    = 1000e-6
+	wnPeriod   = 11.3
+	wnEpoch    = 4.4
+	wnDuration = 3.5 / 24
+	wnDepth    = 1200e-6
+)
+
+func whiteNoiseTransit(seed uint64) *lightcurve.LightCurve {
+	s := synth.Curve{Span: 60, Cadence: 10.0 / 1440, Noise: wnNoise, Seed: seed,
+		Dips: []synth.Signal{synth.Box{Period: wnPeriod, Epoch: wnEpoch, Duration: wnDuration, Depth: wnDepth}}}.Make()
+	return &lightcurve.LightCurve{TimeScale: "BJD_TDB", RefInt: 2460000, Segments: []lightcurve.Segment{{
+		ID: "1", Band: "survey-red", Exposure: 10.0 / 1440, Contamination: math.NaN(),
+		Time: s.Time, Flux: s.Flux, Err: s.Err}}}
+}
+
+// boxMeasure measures a box of the given ephemeris on a detrended curve as a search does:
+// depth = mean out of transit − mean in transit; SNR = depth / σ_T × √N_tr, σ_T the standard
+// deviation of the out-of-transit flux averaged in bins one duration long (the search's
+// SNRFormula), N_tr the transits with data.
+func boxMeasure(c *lightcurve.LightCurve) (depth, snr float64, nIn int) {
+	s := c.Segments[0]
+	var in, out float64
+	var nOut int
+	tr := map[int]bool{}
+	bins := map[int][]float64{}
+	for i, t := range s.Time {
+		x := (t - wnEpoch) / wnPeriod
+		k := int(math.Round(x))
+		if math.Abs(x-float64(k))*wnPeriod < wnDuration/2 {
+			in += s.Flux[i]
+			nIn++
+			tr[k] = true
+			continue
+		}
+		if math.Abs(x-float64(k))*wnPeriod < wnDuration { // leave the edges out of the scatter
+			continue
+		}
+		out += s.Flux[i]
+		nOut++
+		b := int(math.Floor(t / wnDuration))
+		bins[b] = append(bins[b], s.Flux[i])
+	}
+	depth = out/float64(nOut) - in/float64(nIn)
+	var means []float64
+	for _, v := range bins {
+		if len(v) < 15 { // full bins only (21 points per 3.5 h)
+			continue
+		}
+		m := 0.0
+		for _, x := range v {
+			m += x
+		}
+		means = append(means, m/float64(len(v)))
+	}
+	mu, ss := 0.0, 0.0
+	for _, m := range means {
+		mu += m
+	}
+	mu /= float64(len(means))
+	for _, m := range means {
+		ss += (m - mu) * (m - mu)
+	}
+	sigmaT := math.Sqrt(ss / float64(len(means)-1))
+	return depth, depth / sigmaT * math.Sqrt(float64(len(tr))), nIn
+}
+
+// On white noise the masked pass must take a wide window, and the depth and SNR measured on
+// its result must agree with the truth within their errors. The probe's case: the chooser
+// took 0.25 d, 1.2 masked stretches, and the SNR came out 3.2 times too high (15.6 → 49.3).
+func TestMaskedPassOnWhiteNoiseKeepsDepthAndSNR(t *testing.T) {
+	sig := signals.Signal{Period: wnPeriod, Epoch: wnEpoch, Duration: wnDuration, Depth: wnDepth}
+	for _, seed := range []uint64{4, 5, 6} {
+		lc := whiteNoiseTransit(seed)
+		res, notes := run(t, nil, lc, []signals.Signal{sig}, 2)
+		if res.Scale < 2 {
+			t.Errorf("seed %d: masked window %.3g d on white noise, want ≥ 2 d; notes %q", seed, res.Scale, notes)
+		}
+		for _, n := range notes {
+			if strings.HasPrefix(n, "caution: depths") {
+				t.Errorf("seed %d: a caution on white noise: %s", seed, n)
+			}
+		}
+		depth, snr, nIn := boxMeasure(res.Curve)
+		// Expected, independently of the detrend: depth / (σ/√n_in), the white noise
+		// averaged over every in-transit point (common practice); its error is about 1
+		// (unit-variance noise on the SNR), and σ_T is itself estimated from ~300 bins
+		// (relative error 1/√(2·300) ≈ 4 %), so 3 + 4 % of the SNR bounds it.
+		want := wnDepth / (wnNoise / math.Sqrt(float64(nIn)))
+		if math.Abs(snr-want) > 3+0.04*want {
+			t.Errorf("seed %d: SNR %.1f, expected %.1f", seed, snr, want)
+		}
+		// The depth's error is σ/√n_in; three of them bound it.
+		if e := wnNoise / math.Sqrt(float64(nIn)); math.Abs(depth-wnDepth) > 3*e {
+			t.Errorf("seed %d: depth %.0f ppm, true %.0f ± %.0f", seed, depth*1e6, wnDepth*1e6, e*1e6)
+		}
+		t.Logf("seed %d: span %.3g d, depth %.0f ppm, SNR %.1f (expected %.1f)", seed, res.Scale, depth*1e6, snr, want)
+	}
+	// The bound has teeth: forced to the window the chooser once took, the SNR is far out.
+	lc := whiteNoiseTransit(4)
+	res, _ := run(t, map[string]any{"span": "0.25 d"}, lc, []signals.Signal{sig}, 2)
+	_, snr, nIn := boxMeasure(res.Curve)
+	if want := wnDepth / (wnNoise / math.Sqrt(float64(nIn))); snr < want+3+0.04*want {
+		t.Errorf("at 0.25 d the SNR is %.1f against %.1f expected: the test cannot tell the fault", snr, want)
+	}
+}
+
+// A light curve too sparse for its window is refused with the counts and the window,
+// not passed on empty (the probe's case s01_few40: 40 points over 27 d).
+func TestTooSparseForTheWindowIsRefused(t *testing.T) {
+	s := synth.Curve{Span: 27, Cadence: 27.0 / 39, Noise: 1e-3, Seed: 40}.Make()
+	lc := &lightcurve.LightCurve{TimeScale: "BJD_TDB", RefInt: 2460000, Segments: []lightcurve.Segment{{
+		ID: "1", Band: "survey-red", Exposure: 0.02, Contamination: math.NaN(), Time: s.Time, Flux: s.Flux, Err: s.Err}}}
+	in := steps.Inputs{Refs: map[string][]steps.Artifact{"light_curve": {photometry{lc}}}}
+	_, _, err := steptest.Run(New(), block(nil), in, steptest.Pool(1))
+	if err == nil {
+		t.Fatal("a light curve of 40 points over 27 d was detrended to nothing without an error")
+	}
+	for _, w := range []string{"too sparse", "40 of 40 points", "0.5 d", "min_window_points"} {
+		if !strings.Contains(err.Error(), w) {
+			t.Errorf("the message lacks %q: %v", w, err)
+		}
+	}
+	if !steps.IsInputError(err) {
+		t.Errorf("not a bad-input error (exit status 2): %v", err)
+	}
+}
