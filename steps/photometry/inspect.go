@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"math/bits"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -135,7 +136,11 @@ func InspectFile(cfg Config, f steps.File) (*FileReport, error) {
 	start := rep.First + rep.RefJD
 	rep.FullJD = !r.hasRef && start >= minJD && start <= maxJD
 	if !r.hasRef && !rep.FullJD {
-		for _, o := range CommonOffsets {
+		cands := CommonOffsets
+		if !math.IsNaN(rep.Stated) && !slices.Contains(cands, rep.Stated) {
+			cands = append(slices.Clone(cands), rep.Stated) // one the file states (an MJD's 2400000.5)
+		}
+		for _, o := range cands {
 			if jd := o + rep.First; jd >= eraFirstJD && jd <= eraLastJD {
 				rep.Offsets = append(rep.Offsets, o)
 			}
