@@ -97,3 +97,19 @@ func checkKept(k *kept, f *os.File, path string) error {
 	}
 	return k.check(path, fi)
 }
+
+// OpenForRun opens the store a run will write to. Every page its tree reaches is checked
+// first (CheckPages): bbolt reads only the pages a look-up or commit passes through, and a
+// run must not add to a file with damage elsewhere in it. From then on the store keeps to
+// this very file (Keep): one removed or replaced under it is noticed at the next look-up or
+// commit, and nothing is written in its place.
+func OpenForRun(path string) (*Store, error) {
+	s, err := Open(path)
+	if err == nil {
+		err = s.CheckPages()
+	}
+	if err == nil {
+		err = s.Keep()
+	}
+	return s, err
+}

@@ -55,21 +55,10 @@ func (c *cli) run(args []string) int {
 		return exitFailed
 	}
 	defer lock.Release()
-	store, err := cache.Open(w.StorePath)
-	if err == nil {
-		// Every page the store's tree reaches is checked before the run writes anything:
-		// bbolt reads only the pages a look-up or commit passes through, and a run must not
-		// add to a file with damage elsewhere in it (README, "Commands").
-		err = store.CheckPages()
-	}
-	if err == nil {
-		// From here on the run keeps to this very file: one removed or replaced under it is
-		// noticed at the next look-up or commit, and nothing is written in its place.
-		err = store.Keep()
-	}
+	store, err := cache.OpenForRun(w.StorePath)
 	if err != nil {
 		code := c.storeFailed("run", err)
-		fmt.Fprintf(c.err, "dipline run: nothing ran and nothing was stored; the results in %s/ are left as they were\n", rel(w.OutputDir))
+		c.nothingStored(w)
 		return code
 	}
 	opt := workflow.Options{Workers: *workers, OnEvent: c.printEvent}
@@ -104,7 +93,7 @@ func (c *cli) run(args []string) int {
 	}
 	if rep == nil { // Run gives a report whenever it ran: here the store took no record
 		fmt.Fprintln(c.err, "dipline run:", err)
-		fmt.Fprintf(c.err, "dipline run: nothing ran and nothing was stored; the results in %s/ are left as they were\n", rel(w.OutputDir))
+		c.nothingStored(w)
 		return exitFor(err)
 	}
 	c.printSummary(rep)
@@ -122,6 +111,11 @@ func (c *cli) run(args []string) int {
 	}
 	fmt.Fprintln(c.out, line)
 	return code
+}
+
+// nothingStored says that a run which could not use its store left everything as it was.
+func (c *cli) nothingStored(w *workflow.Workflow) {
+	fmt.Fprintf(c.err, "dipline run: nothing ran and nothing was stored; the results in %s/ are left as they were\n", rel(w.OutputDir))
 }
 
 // overrides reads the --set values of a command.

@@ -65,13 +65,7 @@ func (e Env) runOne(ctx context.Context, tg Target, workers int, st *State) erro
 		return err
 	}
 	defer lock.Release()
-	store, err := cache.Open(w.StorePath)
-	if err == nil {
-		err = store.CheckPages() // as dipline run does: no writing into a store damaged anywhere
-	}
-	if err == nil {
-		err = store.Keep() // and none into a file that replaced it during the run
-	}
+	store, err := cache.OpenForRun(w.StorePath) // as dipline run does
 	if err != nil {
 		return err
 	}

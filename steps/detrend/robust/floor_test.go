@@ -43,21 +43,10 @@ func holeVar(w, m float64, degree int) float64 {
 				continue
 			}
 			u := off / (w / 2)
-			wt := tricube(u)
 			us = append(us, u)
-			st.s[0] += wt
-			st.s[1] += wt * u
-			st.s[2] += wt * u * u
-			st.s[3] += wt * u * u * u
-			st.s[4] += wt * u * u * u * u
+			st.addMoments(u, tricube(u))
 		}
-		var c [3]float64
-		for i := range c {
-			e := st
-			e.r = [3]float64{}
-			e.r[i] = 1
-			c[i], _ = e.solve(degree)
-		}
+		c := st.centreWeights(degree)
 		s := 0.0
 		for _, u := range us {
 			l := tricube(u) * (c[0] + c[1]*u + c[2]*u*u)

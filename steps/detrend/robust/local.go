@@ -33,6 +33,30 @@ type localStat struct {
 	r [3]float64
 }
 
+// addMoments adds a point at scaled offset u with weight w to the weighted moments
+// Σw·uᵏ, k = 0 … 4 (the right sides r are the caller's).
+func (st *localStat) addMoments(u, w float64) {
+	st.s[0] += w
+	st.s[1] += w * u
+	st.s[2] += w * u * u
+	st.s[3] += w * u * u * u
+	st.s[4] += w * u * u * u * u
+}
+
+// centreWeights returns the coefficients (c0, c1, c2) with which the fit's value at the
+// centre is c0·r0 + c1·r1 + c2·r2: the value is linear in the right sides, so solving with
+// each unit right side in turn gives them.
+func (st localStat) centreWeights(degree int) [3]float64 {
+	var c [3]float64
+	for i := range c {
+		e := st
+		e.r = [3]float64{}
+		e.r[i] = 1
+		c[i], _ = e.solve(degree)
+	}
+	return c
+}
+
 // tricube is Cleveland's (1979) neighbourhood weight (1 − |u|³)³ for |u| < 1, else 0.
 func tricube(u float64) float64 {
 	a := math.Abs(u)

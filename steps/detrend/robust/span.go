@@ -390,22 +390,10 @@ func kernel(half, step float64, degree int) equivKernel {
 	var st localStat
 	for j := -m; j <= m; j++ {
 		u := float64(j) * step / half
-		w := tricube(u)
 		k.off = append(k.off, float64(j)*step)
-		st.s[0] += w
-		st.s[1] += w * u
-		st.s[2] += w * u * u
-		st.s[3] += w * u * u * u
-		st.s[4] += w * u * u * u * u
+		st.addMoments(u, tricube(u))
 	}
-	// The centre value is linear in r: c = (c0, c1, c2) from solving with unit right sides.
-	var c [3]float64
-	for i := range c {
-		e := st
-		e.r = [3]float64{}
-		e.r[i] = 1
-		c[i], _ = e.solve(degree)
-	}
+	c := st.centreWeights(degree)
 	for j := -m; j <= m; j++ {
 		u := float64(j) * step / half
 		k.ell = append(k.ell, tricube(u)*(c[0]+c[1]*u+c[2]*u*u))
