@@ -31,6 +31,17 @@ type Result struct {
 	SplitAtGap float64
 	// Star is the star's own periodic variability, measured in the trend.
 	Star lightcurve.Variability
+	// Caution, when not empty, says why depths and signal to noise measured on Curve may be
+	// biased (a masked pass's short or biased window; see maskedCaution).
+	Caution string
+}
+
+// Cautions implements steps.Cautioner.
+func (r *Result) Cautions() []string {
+	if r.Caution == "" {
+		return nil
+	}
+	return []string{r.Caution}
 }
 
 // SegmentTrend is the trend of one input segment, point by point.
@@ -101,7 +112,7 @@ func (r *Result) count(m robust.Mark) int {
 
 const (
 	tag       = "detrend"
-	formatVer = 2
+	formatVer = 3
 	// maxStarPeriods bounds the star's periods a decoder accepts.
 	maxStarPeriods = 16
 )
@@ -115,6 +126,7 @@ func (r *Result) Encode() []byte {
 	w.Float(r.SplitAtGap)
 	w.Floats(r.Star.Periods)
 	w.Floats(r.Star.Amplitudes)
+	w.String(r.Caution)
 	r.Curve.Write(w)
 	w.Uint64(uint64(len(r.Trends)))
 	for _, t := range r.Trends {
@@ -143,6 +155,7 @@ func Decode(b []byte) (*Result, error) {
 	r.SplitAtGap = rd.Float()
 	r.Star.Periods = rd.Floats()
 	r.Star.Amplitudes = rd.Floats()
+	r.Caution = rd.String()
 	r.Curve = lightcurve.Read(rd)
 	n := rd.Uint64()
 	if n != uint64(len(r.Curve.Segments)) {

@@ -40,7 +40,7 @@ var (
 )
 
 // version is bumped whenever the numbers or the encoding change.
-const version = 6 // 6: a masked pass's window: bias judged against its own error, a floor of 5 masked stretches, bins a whole number of cadences; a light curve too sparse for its window refused
+const version = 7 // 6: a masked pass's window: bias judged against its own error, a floor of 5 masked stretches, bins a whole number of cadences; a light curve too sparse for its window refused. 7: a masked pass's caution kept in the result
 
 // The estimator names written in a workflow.
 const (
@@ -316,7 +316,7 @@ func WithChosenSpan(cfg Config, lc *lightcurve.LightCurve, pool *steps.Pool) Con
 	}
 	series, gap, _ := seriesOf(cfg, lc, nil)
 	var notes []string
-	span, _ := chooseSpan(series, cfg.Degree, 0, 0, gap, parOf(pool), &notes)
+	span, _, _ := chooseSpan(series, cfg.Degree, 0, 0, gap, parOf(pool), &notes)
 	cfg.Span = &span
 	return cfg
 }
@@ -384,28 +384,26 @@ func trend(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool *s
 	default:
 		rc.Estimator = robust.Biweight
 	}
-	if len(sigs) > 0 && cfg.Estimator != estSpline && span > 0 {
-		longest := 0.0
-		for _, s := range sigs {
-			longest = max(longest, s.Duration*cfg.MaskFactor)
-		}
-		if longest >= span {
-			notes = append(notes, fmt.Sprintf("mask: the longest masked stretch (%.4g h) is at least the span (%.4g h); the trend across it is interpolated from its edges",
-				longest*24, span*24))
-		}
+	var stretch, dur float64 // the longest masked stretch and masked transit duration
+	for _, s := range sigs {
+		stretch, dur = max(stretch, s.Duration*cfg.MaskFactor), max(dur, s.Duration)
+	}
+	if len(sigs) > 0 && cfg.Estimator != estSpline && span > 0 && stretch >= span {
+		notes = append(notes, fmt.Sprintf("mask: the longest masked stretch (%.4g h) is at least the span (%.4g h); the trend across it is interpolated from its edges",
+			stretch*24, span*24))
 	}
 	par := parOf(pool)
+	biased := false
 	if rc.Span == 0 {
-		var stretch, dur float64 // the longest masked stretch and transit duration
-		for _, s := range sigs {
-			stretch, dur = max(stretch, s.Duration*cfg.MaskFactor), max(dur, s.Duration)
-		}
-		rc.Span, scale = chooseSpan(series, cfg.Degree, stretch, dur, gap, par, &notes)
+		rc.Span, scale, biased = chooseSpan(series, cfg.Degree, stretch, dur, gap, par, &notes)
 	}
 	out := robust.Detrend(rc, series, par)
 	res := newResult(lc, out, cfg.Estimator, scale, gap)
 	if cfg.Estimator == estLocal {
 		res.Degree = cfg.Degree
+		if stretch > 0 {
+			res.Caution = maskedCaution(rc.Span, dur, cfg.Degree, biased)
+		}
 	}
 	return res, out, notes
 }
@@ -416,7 +414,7 @@ func trend(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool *s
 // a note; when the data cannot tell it keeps defaultSpan, or in a masked pass the floor if
 // wider, and says so. A masked pass's window is at least maskedWindows stretches; when the
 // window taken may bias the depths and signal to noise measured after it, a note says so.
-func chooseSpan(series []robust.Series, degree int, stretch, dur, gap float64, par parallel.Func, notes *[]string) (span, scale float64) {
+func chooseSpan(series []robust.Series, degree int, stretch, dur, gap float64, par parallel.Func, notes *[]string) (span, scale float64, biased bool) {
 	goal, why := robust.KeepTransits, "keeps the most of an unmasked 2-hour transit's signal to noise for the bias the star's variability leaves"
 	floor := maskedWindows * stretch
 	if stretch > 0 {
@@ -431,7 +429,7 @@ func chooseSpan(series []robust.Series, degree int, stretch, dur, gap float64, p
 			why += fmt.Sprintf("; %g times the longest masked stretch, %.3g h", maskedWindows, stretch*24)
 		}
 		*notes = append(*notes, fmt.Sprintf("span: %.3g d (%s)", span, why))
-		return span, span
+		return span, span, false
 	}
 	var tried []string
 	for _, tr := range ch.Trials {
@@ -452,21 +450,19 @@ func chooseSpan(series []robust.Series, degree int, stretch, dur, gap float64, p
 		*notes = append(*notes, fmt.Sprintf("span: %.3g d, chosen from the light curve: it %s (noise per 2 h %.0f ppm; tried %s)",
 			ch.Span, why, ch.Noise*1e6, strings.Join(tried, "; ")))
 	}
-	if stretch > 0 {
-		maskedCaution(ch.Span, dur, degree, !ch.Negligible, notes)
-	}
-	return ch.Span, ch.Span
+	return ch.Span, ch.Span, stretch > 0 && !ch.Negligible
 }
 
-// maskedCaution says in plain words when a masked pass's window may bias what a search
-// measures after it: a window short against the transit duration dur smooths away the
-// out-of-transit noise on the transit's time scale, which the masked transits keep, so a
-// search's signal to noise comes out too high (robust.NoiseKept); a trend with a bias
-// shown above a tenth of the noise (biased) shifts the depths.
-func maskedCaution(span, dur float64, degree int, biased bool, notes *[]string) {
+// maskedCaution says in plain words, or returns "", when a masked pass's window, chosen or
+// written, may bias what a search measures after it: a window short against the transit
+// duration dur smooths away the out-of-transit noise on the transit's time scale, which the
+// masked transits keep, so a search's signal to noise comes out too high
+// (robust.NoiseKept); a trend with a bias shown above a tenth of the noise (biased) shifts
+// the depths.
+func maskedCaution(span, dur float64, degree int, biased bool) string {
 	kept := robust.NoiseKept(span, dur, degree)
 	if kept >= honestNoise && !biased {
-		return
+		return ""
 	}
 	var why []string
 	if kept < honestNoise {
@@ -476,7 +472,7 @@ func maskedCaution(span, dur float64, degree int, biased bool, notes *[]string) 
 	if biased {
 		why = append(why, "the star varies too fast for any window tried to follow it with a negligible bias, so the trend under the masked transits may be off and their depths with it")
 	}
-	*notes = append(*notes, "caution: depths and signal-to-noise ratios measured on this light curve may be biased: "+strings.Join(why, "; ")+". A search on it is best compared with the first, unmasked pass.")
+	return "depths and signal-to-noise ratios measured on this light curve may be biased: " + strings.Join(why, "; ") + ". A search on it is best compared with the first, unmasked pass."
 }
 
 // starPeriods measures the star's own periodic variability in the trend: the strongest

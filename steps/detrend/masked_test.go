@@ -1,11 +1,13 @@
 package detrend
 
 import (
+	"fmt"
 	"math"
 	"strings"
 	"testing"
 
 	"dipline/steps"
+	"dipline/steps/detrend/robust"
 	"dipline/steps/internal/lightcurve"
 	"dipline/steps/internal/signals"
 	"dipline/steps/internal/steptest"
@@ -92,10 +94,8 @@ func TestMaskedPassOnWhiteNoiseKeepsDepthAndSNR(t *testing.T) {
 		if res.Scale < 2 {
 			t.Errorf("seed %d: masked window %.3g d on white noise, want ≥ 2 d; notes %q", seed, res.Scale, notes)
 		}
-		for _, n := range notes {
-			if strings.HasPrefix(n, "caution: depths") {
-				t.Errorf("seed %d: a caution on white noise: %s", seed, n)
-			}
+		if c := res.Cautions(); len(c) != 0 {
+			t.Errorf("seed %d: a caution on white noise: %q", seed, c)
 		}
 		depth, snr, nIn := boxMeasure(res.Curve)
 		// Expected, independently of the detrend: depth / (σ/√n_in), the white noise
@@ -118,6 +118,15 @@ func TestMaskedPassOnWhiteNoiseKeepsDepthAndSNR(t *testing.T) {
 	_, snr, nIn := boxMeasure(res.Curve)
 	if want := wnDepth / (wnNoise / math.Sqrt(float64(nIn))); snr < want+3+0.04*want {
 		t.Errorf("at 0.25 d the SNR is %.1f against %.1f expected: the test cannot tell the fault", snr, want)
+	}
+	// And the written window is cautioned as a chosen one would be: the result's own
+	// caution, which the run shows among the tests and cautions, gives the share of noise
+	// kept and how far the SNR may be overstated.
+	kept := robust.NoiseKept(0.25, wnDuration, 2)
+	c := res.Cautions()
+	if wantText := fmt.Sprintf("keeps only %.0f %% of the noise", 100*kept); len(c) != 1 || !strings.Contains(c[0], wantText) ||
+		!strings.Contains(c[0], fmt.Sprintf("up to %.0f %% too high", 100*(1/kept-1))) {
+		t.Errorf("cautions %q; want one saying the window %s", c, wantText)
 	}
 }
 
