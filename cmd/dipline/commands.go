@@ -351,6 +351,10 @@ func (c *cli) runs(args []string) int {
 	if err != nil {
 		return c.storeFailed("runs", err)
 	}
+	if len(runs) == 0 && len(bad) == 0 {
+		fmt.Fprintln(c.out, "the store holds no runs yet; dipline run makes the first")
+		return exitOK
+	}
 	live := store.Liveness()
 	for _, r := range runs {
 		fmt.Fprintln(c.out, runLine(r, live.StateOf(r), pins))

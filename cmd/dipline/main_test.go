@@ -214,6 +214,14 @@ func TestStoreVerifyPinAndPrune(t *testing.T) {
 	}
 }
 
+func TestRunsOnAFreshStoreSaysItHoldsNone(t *testing.T) {
+	f := newFolder(t)
+	code, out, errs := f.dipline("runs")
+	if code != 0 || out != "the store holds no runs yet; dipline run makes the first\n" {
+		t.Errorf("runs on a fresh folder: exit %d, %q %q", code, out, errs)
+	}
+}
+
 func TestUnknownCommand(t *testing.T) {
 	var out, errb bytes.Buffer
 	if code := realMain([]string{"flatten"}, &out, &errb); code != exitBadUser {

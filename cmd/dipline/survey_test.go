@@ -122,7 +122,7 @@ func TestAFailedTargetIsInTheTableAndARerunCompletesIt(t *testing.T) {
 		t.Fatalf("survey run with a file missing: exit %d, want 2\n%s\n%s", code, out, errs)
 	}
 	rows, _ := surveyTable(t, f)
-	if r := rows["T-03"]; r["status"] != "failed" || !strings.Contains(r["message"], "t3.csv") {
+	if r := rows["T-03"]; r["status"] != "failed" || !strings.Contains(r["message"], "t3.csv") || !strings.Contains(r["message"], "the target table's line 4") {
 		t.Errorf("T-03: %q, %q", r["status"], r["message"])
 	}
 	if rows["T-04"]["status"] != "done" || !strings.Contains(out, "1 of 8 targets did not finish") {

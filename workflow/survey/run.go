@@ -54,7 +54,7 @@ func (e Env) runOne(ctx context.Context, tg Target, workers int, st *State) erro
 	if diags.HasErrors() || w == nil {
 		var b bytes.Buffer
 		workflow.FormatDiagnostics(&b, diags)
-		return fmt.Errorf("the workflow with this target's values does not load:\n%s", strings.TrimSpace(b.String()))
+		return fmt.Errorf("the workflow with this target's values (the target table's line %d) does not load:\n%s", tg.Line, strings.TrimSpace(b.String()))
 	}
 	w.StorePath, w.OutputDir = e.Layout.Shard(tg.ID), e.Layout.TargetDir(tg.ID)
 	if err := os.MkdirAll(filepath.Dir(w.StorePath), 0o755); err != nil {
