@@ -3,7 +3,9 @@ package workflow
 import (
 	"fmt"
 	"sort"
+	"strconv"
 	"strings"
+	"unicode"
 
 	"github.com/hashicorp/hcl/v2"
 	"github.com/zclconf/go-cty/cty"
@@ -36,7 +38,25 @@ func ParseOverride(s string) (Override, error) {
 	if !ok || len(parts) != 3 || parts[0] == "" || parts[1] == "" || parts[2] == "" {
 		return Override{}, fmt.Errorf("--set %q: write kind.label.attribute=value, e.g. search.periodic.oversampling=5", s)
 	}
-	return Override{Addr: parts[0] + "." + parts[1], Attr: parts[2], Value: strings.TrimSpace(rhs)}, nil
+	v := strings.TrimSpace(rhs)
+	if unquotedQuantity(v) {
+		return Override{}, fmt.Errorf("--set %q: %s is a quantity with its unit, which a workflow writes in quotes; write --set '%s.%s=\"%s\"'", s, v, parts[0]+"."+parts[1], parts[2], v)
+	}
+	return Override{Addr: parts[0] + "." + parts[1], Attr: parts[2], Value: v}, nil
+}
+
+// unquotedQuantity reports a value written as a number and a unit without the quotes a
+// quantity needs ("-7 g/cm3", "0.5 d"): a number, blanks, then a word.
+func unquotedQuantity(v string) bool {
+	num, unit, ok := strings.Cut(v, " ")
+	if !ok || strings.HasPrefix(v, `"`) {
+		return false
+	}
+	if _, err := strconv.ParseFloat(num, 64); err != nil {
+		return false
+	}
+	unit = strings.TrimSpace(unit)
+	return unit != "" && (unicode.IsLetter([]rune(unit)[0]))
 }
 
 type override struct {

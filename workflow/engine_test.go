@@ -353,3 +353,17 @@ func TestMorePiecesReuseTheFinishedOnes(t *testing.T) {
 		t.Errorf("a new scale: %d pieces computed, sum %v; want 5 and 20", n, valueOf(t, rep, "tally.t"))
 	}
 }
+
+func TestAnUnquotedQuantityInASetIsAskedForInQuotes(t *testing.T) {
+	// A shell strips the quotes a user forgets: -7 g/cm3 would then read as arithmetic.
+	_, err := ParseOverride("search.dips.star_density=-7 g/cm3")
+	if err == nil || !strings.Contains(err.Error(), `-7 g/cm3 is a quantity with its unit`) ||
+		!strings.Contains(err.Error(), `--set 'search.dips.star_density="-7 g/cm3"'`) {
+		t.Errorf("error %v; want the quoted form offered", err)
+	}
+	for _, v := range []string{`"7 g/cm3"`, "5", "true", `["a.csv", "b.csv"]`} {
+		if _, err := ParseOverride("search.dips.x=" + v); err != nil {
+			t.Errorf("%s refused: %v", v, err)
+		}
+	}
+}
