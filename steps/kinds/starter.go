@@ -52,6 +52,10 @@ func Starter(file steps.File, out, name string, seed int) (*StarterWorkflow, err
 	if s.Runs {
 		s.readAsWritten(*cfg, p, file)
 	}
+	if len(rep.Uninherited) > 0 {
+		s.Unknown = append(s.Unknown, fmt.Sprintf("the primary header: it holds %s, which the table does not inherit (no INHERIT = T), so they were not read; if they are the table's, add INHERIT = T to its header, or write them in the workflow",
+			strings.Join(rep.Uninherited, ", ")))
+	}
 	s.Unknown = append(s.Unknown,
 		`the star's density: nothing in a light curve gives it, so both searches use the Sun's ("1 rho_sun"); write the host's in star_density, since it sets the transit durations searched`)
 	s.Text = starterText(file.Name, out, name, seed, p)

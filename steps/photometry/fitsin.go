@@ -76,6 +76,32 @@ func (h fitsHDU) card(key string) *fits.Card {
 	return nil
 }
 
+// timeKeys are the time keywords this step reads from a table's header.
+var timeKeys = []string{"TIMESYS", "TIMEREF", "TIMEUNIT", "BJDREFI", "BJDREFF", "BJDREF", "JDREFI", "JDREFF", "JDREF", "MJDREFI", "MJDREFF", "MJDREF", "TIMEZERO", "TIMEOFFS", "TIMEPIXR"}
+
+// uninherited lists the time keywords the primary header holds and the extension neither
+// holds nor inherits (no INHERIT = T): by the standard they are not the table's, but a
+// file that put them there most likely meant them to be.
+func (h fitsHDU) uninherited() []string {
+	if inherit, _ := h.ext.Header.Bool("INHERIT"); inherit || h.primary == h.ext {
+		return nil
+	}
+	var out []string
+	for _, k := range timeKeys {
+		if h.ext.Header.Card(k) == nil && h.primary.Header.Card(k) != nil {
+			out = append(out, k)
+		}
+	}
+	return out
+}
+
+// noteUninherited says which time keywords of the primary header were not read.
+func (h fitsHDU) noteUninherited(at string, note noteFunc) {
+	if keys := h.uninherited(); len(keys) > 0 {
+		note("%s: the primary header holds %s, which this table does not inherit (it has no INHERIT = T), so they were not read: add INHERIT = T to the table's header if they are the table's, or state them in the workflow", at, strings.Join(keys, ", "))
+	}
+}
+
 // str returns a string keyword, or def when absent; present but not a string is an error.
 func (h fitsHDU) str(key, def string) (string, bool, error) {
 	c := h.card(key)
@@ -194,6 +220,7 @@ func readFITS(cfg *Config, file string, data []byte, note noteFunc) (*rawSegment
 	}
 	r.time, r.flux, r.err, r.flag = vals[TimeCol], vals[FluxCol], vals[ErrorCol], vals[FlagCol]
 
+	h.noteUninherited(at, note)
 	if err := checkScale(cfg, h, at, note); err != nil {
 		return nil, err
 	}

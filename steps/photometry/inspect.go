@@ -42,6 +42,9 @@ type FileReport struct {
 	Format  string         // "comma-separated text", "FITS HDU 1 (LIGHTCURVE)", …
 	Header  []string       // every column name, as written
 	Columns [nRoles]string // the column chosen for each role ("" when none)
+	// Uninherited are time keywords the primary header holds that the table does not
+	// inherit (no INHERIT = T), so that they were not read.
+	Uninherited []string
 
 	Rows      int        // data rows read
 	Flagged   int        // rows dropped for a nonzero flag (every bit, the default mask)
@@ -163,6 +166,7 @@ func describeFITSTime(cfg *Config, f steps.File, rep *FileReport) error {
 	h := fitsHDU{ext: t.HDU(), primary: ff.HDUs()[0], file: f.Name}
 	rep.Format = "FITS " + t.HDU().String()
 	rep.Header = columnNames(t)
+	rep.Uninherited = h.uninherited()
 	for _, k := range []struct {
 		key string
 		dst *string

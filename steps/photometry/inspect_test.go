@@ -3,6 +3,7 @@ package photometry
 import (
 	"bytes"
 	"math"
+	"slices"
 	"strings"
 	"testing"
 
@@ -143,4 +144,48 @@ func TestInspectFile(t *testing.T) {
 			t.Fatalf("%v %+v", err, rep)
 		}
 	})
+}
+
+// TestTimeKeywordsLeftInThePrimaryHeaderAreNamed moves BJDREFI and BJDREFF from the table's
+// header to the primary header, without INHERIT = T: by the standard (FITS 4.0 §4.4.2.6)
+// they are not the table's, and the reader says so rather than leaving the user to wonder
+// why the header "has no" reference.
+func TestTimeKeywordsLeftInThePrimaryHeaderAreNamed(t *testing.T) {
+	f := load(t, "fits/lightcurve.fits")[0]
+	b := bytes.Clone(f.Data)
+	end := -1
+	for at := 0; at < 2880; at += 80 {
+		if string(b[at:at+8]) == "END     " {
+			end = at
+			break
+		}
+	}
+	if end < 0 || end+3*80 > 2880 {
+		t.Fatal("no room before the end of the primary header's first block")
+	}
+	var moved [][]byte
+	for _, k := range []string{"BJDREFI =", "BJDREFF ="} {
+		at := bytes.Index(b[2880:], []byte(k)) + 2880
+		if at < 2880 || at%80 != 0 {
+			t.Fatalf("no %s card in the table's header", k)
+		}
+		moved = append(moved, bytes.Clone(b[at:at+80]))
+		copy(b[at:], "X"+k[:7]+"=")
+	}
+	copy(b[end:], moved[0])
+	copy(b[end+80:], moved[1])
+	copy(b[end+160:], "END"+strings.Repeat(" ", 77))
+	file := steps.File{Name: "primary.fits", Data: b}
+
+	_, notes, _ := runKind(t, map[string]any{}, []steps.File{file})
+	if !containsNote(notes, "the primary header holds BJDREFI, BJDREFF, which this table does not inherit") {
+		t.Errorf("no note naming the keywords not read among %q", notes)
+	}
+	rep, err := InspectFile(DefaultConfig(), file)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !slices.Equal(rep.Uninherited, []string{"BJDREFI", "BJDREFF"}) {
+		t.Errorf("the report's keywords not inherited: %v", rep.Uninherited)
+	}
 }
