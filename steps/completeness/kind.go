@@ -34,8 +34,9 @@ var (
 
 // version is bumped whenever the numbers or the encoding change. 2: the search it reruns
 // (search version 6) keeps each refinement within reach of its peak and turns down boxes
-// less than three errors deep.
-const version = 2
+// less than three errors deep. 3: the detrend it reruns (detrend version 8) fits its
+// local polynomial at anchors where points are dense.
+const version = 3
 
 // Config is what a completeness block may say. The attributes tagged reuse:"parts" only
 // choose which injections are made: changing them keeps every injection already made that

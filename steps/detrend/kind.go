@@ -40,7 +40,7 @@ var (
 )
 
 // version is bumped whenever the numbers or the encoding change.
-const version = 7 // 6: a masked pass's window: bias judged against its own error, a floor of 5 masked stretches, bins a whole number of cadences; a light curve too sparse for its window refused. 7: a masked pass's caution kept in the result
+const version = 8 // 6: a masked pass's window: bias judged against its own error, a floor of 5 masked stretches, bins a whole number of cadences; a light curve too sparse for its window refused. 7: a masked pass's caution kept in the result. 8: the local polynomial fitted at anchors 1/64 of a window apart where points are denser, interpolated between
 
 // The estimator names written in a workflow.
 const (

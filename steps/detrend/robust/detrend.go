@@ -266,7 +266,8 @@ func (d *driver) estimate(jb job) {
 		RobustSpline(dst, t, f, u, d.cfg.KnotSpacing, d.cfg.SplineSigma, d.minPts)
 	case LocalPoly:
 		LocalFilter(dst, t, f, errOf(s, p.from, p.to), u,
-			LocalFit{Half: d.half, Degree: d.cfg.Degree, Iterations: d.cfg.Iterations, MinPoints: d.minPts}, d.par)
+			LocalFit{Half: d.half, Degree: d.cfg.Degree, Iterations: d.cfg.Iterations, MinPoints: d.minPts,
+				Step: 2 * d.half / AnchorsPerWindow}, d.par)
 	case RunningMedian:
 		MedianFilter(dst, t, f, u, d.half, d.minPts, jb.from-p.from, jb.to-p.from)
 	default:

@@ -2,6 +2,7 @@ package robust
 
 import (
 	"math"
+	"sort"
 
 	"dipline/steps/internal/parallel"
 )
@@ -131,7 +132,20 @@ type LocalFit struct {
 	Iterations int
 	// MinPoints is the fewest usable points a window needs; with fewer the trend is NaN.
 	MinPoints int
+	// Step, when positive, is the longest time between points at which the polynomial is
+	// fitted: the points between two such anchors take the trend interpolated linearly
+	// between them (see localBlockFit). 0 fits at every point.
+	Step float64
 }
+
+// AnchorsPerWindow is the number of anchors a window of the detrend spans when points are
+// denser (Step = 2·Half/AnchorsPerWindow). A trend varying on the window's scale, of
+// amplitude A, departs from the straight line between anchors d apart by about f″d²/8, of
+// order A/(8·64²) ≈ 3·10⁻⁵ A: 0.3 ppm for a 1 % spot modulation
+// (TestAnchoredTrendFollowsTheExactOne). At a 30-minute cadence no window of the ladder
+// holds more than 64 points below 1.3 d, so there every point is fitted; at a 20-second
+// cadence a 0.7-day window holds 3024 points and the fits fall 47-fold.
+const AnchorsPerWindow = 64
 
 // localBlock is the number of points per unit of parallel work; fixed, so the result does
 // not depend on the worker count (each point's value depends only on its own window).
@@ -228,56 +242,70 @@ func robustnessWeights(rw, t, f, trend []float64, use []bool, scale float64) {
 	}
 }
 
-// localBlockFit fits the points [from, to) of one block.
+// localBlockFit fits the points [from, to) of one block: at anchors, each the farthest
+// point within cfg.Step of the one before (every point when cfg.Step is 0, or when the
+// next point lies farther), the first and the last point of the block among them; the
+// points between two anchors with a trend take it interpolated linearly, the others
+// (beside an anchor without one) are fitted too. A block's anchors depend only on its
+// points, so the result does not depend on the number of workers.
 func localBlockFit(dst, t, f, rw []float64, ref float64, cfg LocalFit, from, to int) {
-	n := len(t)
-	lo := 0
-	// Start lo at the first point of from's window; it only moves forward after that.
-	for lo < n && t[lo] <= t[from]-cfg.Half {
-		lo++
+	prev := -1
+	for i := from; i < to; {
+		dst[i] = localFitAt(t, f, rw, ref, cfg, i)
+		if prev >= 0 {
+			for j := prev + 1; j < i; j++ {
+				if finite(dst[prev]) && finite(dst[i]) {
+					dst[j] = dst[prev] + (dst[i]-dst[prev])*(t[j]-t[prev])/(t[i]-t[prev])
+				} else {
+					dst[j] = localFitAt(t, f, rw, ref, cfg, j)
+				}
+			}
+		}
+		prev = i
+		next := i + 1
+		for cfg.Step > 0 && next+1 < to && t[next+1] <= t[i]+cfg.Step {
+			next++
+		}
+		i = next
 	}
-	hi := lo
-	for i := from; i < to; i++ {
-		for lo < n && t[lo] <= t[i]-cfg.Half {
-			lo++
-		}
-		for hi < n && t[hi] < t[i]+cfg.Half {
-			hi++
-		}
-		var m localStat
-		count := 0
-		for j := lo; j < hi; j++ {
-			if rw[j] == 0 {
-				continue
-			}
-			u := (t[j] - t[i]) / cfg.Half
-			w := tricube(u) * rw[j]
-			if w == 0 {
-				continue
-			}
-			count++
-			y := f[j] - ref
-			u2 := u * u
-			m.s[0] += w
-			m.s[1] += w * u
-			m.s[2] += w * u2
-			m.s[3] += w * u2 * u
-			m.s[4] += w * u2 * u2
-			m.r[0] += w * y
-			m.r[1] += w * u * y
-			m.r[2] += w * u2 * y
-		}
-		if count < cfg.MinPoints {
-			dst[i] = math.NaN()
+}
+
+// localFitAt is the local polynomial's value at point i: the weighted fit over the points
+// strictly within cfg.Half of it; NaN with fewer than cfg.MinPoints of weight.
+func localFitAt(t, f, rw []float64, ref float64, cfg LocalFit, i int) float64 {
+	lo := sort.Search(len(t), func(k int) bool { return t[k] > t[i]-cfg.Half })
+	hi := sort.Search(len(t), func(k int) bool { return t[k] >= t[i]+cfg.Half })
+	var m localStat
+	count := 0
+	for j := lo; j < hi; j++ {
+		if rw[j] == 0 {
 			continue
 		}
-		v, ok := m.solve(cfg.Degree)
-		if !ok {
-			dst[i] = math.NaN()
+		u := (t[j] - t[i]) / cfg.Half
+		w := tricube(u) * rw[j]
+		if w == 0 {
 			continue
 		}
-		dst[i] = ref + v
+		count++
+		y := f[j] - ref
+		u2 := u * u
+		m.s[0] += w
+		m.s[1] += w * u
+		m.s[2] += w * u2
+		m.s[3] += w * u2 * u
+		m.s[4] += w * u2 * u2
+		m.r[0] += w * y
+		m.r[1] += w * u * y
+		m.r[2] += w * u2 * y
 	}
+	if count < cfg.MinPoints {
+		return math.NaN()
+	}
+	v, ok := m.solve(cfg.Degree)
+	if !ok {
+		return math.NaN()
+	}
+	return ref + v
 }
 
 // serial runs the blocks one after another.
