@@ -325,13 +325,8 @@ func TestLocalFilterParallelIsSerial(t *testing.T) {
 // the robustness weights, taken from residuals to either trend, may differ at a point or
 // two, so the test allows 2 ppm, against a noise of 1000 ppm.
 func TestAnchoredTrendFollowsTheExactOne(t *testing.T) {
-	s := synth.Curve{Span: 3, Cadence: 20.0 / 86400, Noise: 1e-3, Seed: 23,
-		Star: synth.Rotation{Period: 2.3, Amplitudes: []float64{0.01}}}.Make()
+	s, use := spottedAt20s(3, 2.3, 0.01, 23)
 	n := len(s.Time)
-	use := make([]bool, n)
-	for i := range use {
-		use[i] = true
-	}
 	half := 0.35
 	exact, anchored := make([]float64, n), make([]float64, n)
 	cfg := LocalFit{Half: half, Degree: 2, Iterations: 3, MinPoints: 5}
@@ -351,14 +346,8 @@ func TestAnchoredTrendFollowsTheExactOne(t *testing.T) {
 // BenchmarkLocalFilterDense compares the fit at every point with the anchored one on 27
 // days at a 20-second cadence (116,640 points), one robust pass each.
 func BenchmarkLocalFilterDense(b *testing.B) {
-	s := synth.Curve{Span: 27, Cadence: 20.0 / 86400, Noise: 1e-3, Seed: 5,
-		Star: synth.Rotation{Period: 4.1, Amplitudes: []float64{0.005}}}.Make()
-	n := len(s.Time)
-	use := make([]bool, n)
-	for i := range use {
-		use[i] = true
-	}
-	dst := make([]float64, n)
+	s, use := spottedAt20s(27, 4.1, 0.005, 5)
+	dst := make([]float64, len(s.Time))
 	for _, step := range []float64{0, 0.7 / AnchorsPerWindow} {
 		name := "every_point"
 		if step > 0 {
@@ -370,4 +359,16 @@ func BenchmarkLocalFilterDense(b *testing.B) {
 			}
 		})
 	}
+}
+
+// spottedAt20s is an invented spotted star sampled every 20 s for span days, with 1000 ppm
+// of white noise and every point usable.
+func spottedAt20s(span, period, amplitude float64, seed uint64) (synth.Series, []bool) {
+	s := synth.Curve{Span: span, Cadence: 20.0 / 86400, Noise: 1e-3, Seed: seed,
+		Star: synth.Rotation{Period: period, Amplitudes: []float64{amplitude}}}.Make()
+	use := make([]bool, len(s.Time))
+	for i := range use {
+		use[i] = true
+	}
+	return s, use
 }
