@@ -344,22 +344,22 @@ func IsInputError(err error) bool {
 	return errors.As(err, &ie)
 }
 
-// NothingToDo is the error of a step that ran and found nothing to work on (a fit handed
+// NothingToWorkOn is the error of a step that ran and found nothing to work on (a fit handed
 // a search that found no signal). It is no failure: the engine records the step as skipped
 // with the reason, skips the steps that read it with the same cause, and the run's exit
 // status does not count it.
-type NothingToDo struct{ Why string }
+type NothingToWorkOn struct{ Why string }
 
-func (e *NothingToDo) Error() string { return e.Why }
+func (e *NothingToWorkOn) Error() string { return e.Why }
 
-// Nothing formats a *NothingToDo.
+// Nothing formats a *NothingToWorkOn.
 func Nothing(format string, args ...any) error {
-	return &NothingToDo{Why: fmt.Sprintf(format, args...)}
+	return &NothingToWorkOn{Why: fmt.Sprintf(format, args...)}
 }
 
-// IsNothing reports whether err is, or wraps, a *NothingToDo.
+// IsNothing reports whether err is, or wraps, a *NothingToWorkOn.
 func IsNothing(err error) bool {
-	var n *NothingToDo
+	var n *NothingToWorkOn
 	return errors.As(err, &n)
 }
 

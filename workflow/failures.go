@@ -22,9 +22,9 @@ const (
 	CauseUpstream = "upstream"
 	// CauseStopped: skipped or cut short because the run was interrupted or the store failed.
 	CauseStopped = "stopped"
-	// CauseNothing: the step found nothing to work on (a *steps.NothingToDo), or reads one
+	// CauseNothing: the step found nothing to work on (a *steps.NothingToWorkOn), or reads one
 	// that did. No failure: the run's exit status does not count it.
-	CauseNothing = "nothing to do"
+	CauseNothing = "nothing to work on"
 )
 
 // faultWords begin the message of every fault of the program: the user did nothing wrong,

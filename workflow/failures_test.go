@@ -376,7 +376,7 @@ func TestCautionsAndVerdictsReachTheResultsFile(t *testing.T) {
 	}
 }
 
-func TestAStepWithNothingToDoIsNoFailure(t *testing.T) {
+func TestAStepWithNothingToWorkOnIsNoFailure(t *testing.T) {
 	// A fit handed a search that found nothing is the shape of it: the step and those that
 	// read it are skipped with the reason, the rest run, and the run has no error (so the
 	// command exits 0 and a survey counts the target done).

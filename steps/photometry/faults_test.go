@@ -242,3 +242,23 @@ func TestAFluxNamedLikeAMagnitudeIsQuestioned(t *testing.T) {
 		t.Errorf("no question about the magnitude among %q", notes)
 	}
 }
+
+func TestTheInspectionKeepsWhatTheReaderKeeps(t *testing.T) {
+	// dipline check and the starter count the rows a run keeps by the reader's own rule
+	// for a flux no star gives.
+	data := table(300, ",", map[int]string{7: "-1", 100: "0"})
+	res, _, err := readOne(t, data)
+	if err != nil {
+		t.Fatal(err)
+	}
+	cfg := DefaultConfig()
+	v := 2460000.0
+	cfg.TimeZero = &v
+	rep, err := InspectFile(cfg, steps.File{Name: "lc.csv", Data: data})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rep.Kept != res.LC.Len() || rep.Unusable != 2 {
+		t.Errorf("the inspection keeps %d (%d unusable), the reader %d", rep.Kept, rep.Unusable, res.LC.Len())
+	}
+}

@@ -211,7 +211,7 @@ func readFITS(cfg *Config, file string, data []byte, note noteFunc) (*rawSegment
 	r := &rawSegment{file: file, cols: chosen}
 	r.where = func(i int) string { return fmt.Sprintf("%s row %d", at, i+1) }
 	note("%s: columns %s", at, describeChoice(chosen))
-	noteOtherFluxes(at, columnNames(t), idx, chosen, note)
+	noteFluxChoice(at, columnNames(t), idx, chosen, note)
 
 	cols := t.Columns()
 	vals, err := readRoles(cols, idx, file, at, note)

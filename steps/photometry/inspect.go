@@ -12,6 +12,7 @@ import (
 
 	"dipline/steps"
 	"dipline/steps/internal/fits"
+	"dipline/steps/internal/lightcurve"
 	"dipline/steps/internal/textrows"
 )
 
@@ -196,7 +197,7 @@ func describeFITSTime(cfg *Config, f steps.File, rep *FileReport) error {
 func (rep *FileReport) describeRows(cfg *Config, r *rawSegment) {
 	rep.Rows = len(r.time)
 	perBit := map[int]int{}
-	var times []float64
+	var keep []int
 	for i := range r.time {
 		if r.flag != nil {
 			b, ok := flagBits(r.flag[i])
@@ -223,7 +224,14 @@ func (rep *FileReport) describeRows(cfg *Config, r *rawSegment) {
 			rep.Unusable++
 			continue
 		}
-		times = append(times, r.time[i])
+		keep = append(keep, i)
+	}
+	var d lightcurve.Dropped // a flux no star gives, by the reader's own rule
+	keep = dropImpossibleFlux(r, keep, &d, func(string, ...any) {})
+	rep.Unusable += d.Unusable
+	times := make([]float64, len(keep))
+	for k, i := range keep {
+		times[k] = r.time[i]
 	}
 	for k, n := range perBit {
 		rep.FlagBits = append(rep.FlagBits, BitCount{Bit: k, Rows: n})

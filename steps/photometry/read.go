@@ -66,7 +66,7 @@ func readText(cfg *Config, name string, data []byte, note noteFunc) (*rawSegment
 		return nil, steps.BadInput(err)
 	}
 	note("%s: %s-separated; columns %s", name, t.delimName(), describeChoice(chosen))
-	noteOtherFluxes(name, t.header, idx, chosen, note)
+	noteFluxChoice(name, t.header, idx, chosen, note)
 	if t.fromComment {
 		note("%s:%d: the column names are taken from this comment line, as the first row below it holds numbers", name, t.line)
 	}
@@ -123,10 +123,9 @@ func sameBytesTwice(files []steps.File) error {
 	return nil
 }
 
-// noteOtherFluxes says which flux was taken when the file has others (a raw and a
-// corrected one, say), and how to take another; and warns of a flux column named like a
-// magnitude.
-func noteOtherFluxes(at string, names []string, idx [nRoles]int, chosen [nRoles]string, note noteFunc) {
+// noteFluxChoice questions a flux column named like a magnitude, and says which flux was
+// taken when the file has others (a raw and a corrected one, say), and how to take another.
+func noteFluxChoice(at string, names []string, idx [nRoles]int, chosen [nRoles]string, note noteFunc) {
 	if l := strings.ToLower(chosen[FluxCol]); strings.Contains(l, "mag") && !strings.Contains(l, "flux") {
 		note("%s: the flux column %q is named like a magnitude; this step reads flux, which falls in a transit where a magnitude rises: convert it (flux = 10^(−0.4·mag)) if it is one", at, chosen[FluxCol])
 	}

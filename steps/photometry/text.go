@@ -57,6 +57,7 @@ func readTextHeader(name string, data []byte) (*textTable, error) {
 	var comment []byte // the comment line just above the header, if any
 	rest := data
 	for n := 1; len(rest) > 0; n++ {
+		from := rest // the file from this line on
 		var line []byte
 		line, rest = textrows.NextLine(rest)
 		if textrows.Skippable(line) {
@@ -74,8 +75,7 @@ func readTextHeader(name string, data []byte) (*textTable, error) {
 			if len(comment) == 0 || len(above) != len(fields) || anyNumber(above) {
 				return nil, steps.BadInputf("%s:%d: the first row holds numbers, not column names; the table needs a header row naming its columns (time, flux, …) above its rows", name, n)
 			}
-			fields, t.body, t.line, t.fromComment = above, append([]byte(nil), line...), n-1, true
-			t.body = append(append(t.body, '\n'), rest...)
+			fields, t.body, t.line, t.fromComment = above, from, n-1, true
 		}
 		for _, f := range fields {
 			t.header = append(t.header, string(f))
