@@ -87,15 +87,12 @@ type Store struct {
 	keep *kept // the file it keeps to (Keep), or nil
 }
 
-// Open returns the store in the file at path, creating its folder if needed. The database
-// file itself is created by the first write; reading a store that does not exist yet finds
-// nothing rather than failing.
+// Open returns the store in the file at path. The file, and its folder, are made by the
+// first write; reading a store that does not exist yet finds nothing rather than failing,
+// and leaves no trace (a look at a fresh workflow makes no folders).
 func Open(path string) (*Store, error) {
 	if path == "" {
 		return nil, errors.New("store path is empty")
-	}
-	if err := os.MkdirAll(filepath.Dir(path), 0o755); err != nil {
-		return nil, fmt.Errorf("cannot make the store's folder: %w", err)
 	}
 	if fi, err := os.Stat(path); err == nil && fi.IsDir() {
 		return nil, fmt.Errorf("store %s is a folder, not a file", path)
@@ -367,6 +364,11 @@ func openDB(path string, readOnly bool, h *handle) error {
 				return replaced(path, "replaced by another file")
 			case readOnly && (errors.Is(err, os.ErrNotExist) || (err == nil && fi.Size() == 0)):
 				return nil
+			}
+		}
+		if !readOnly && known == nil {
+			if err := os.MkdirAll(filepath.Dir(path), 0o755); err != nil {
+				return fmt.Errorf("cannot make the store's folder: %w", err)
 			}
 		}
 		opts := &bolt.Options{

@@ -26,6 +26,10 @@ type Access struct {
 	// MaxData bounds the bytes of the workflow's data files and catalogues together
 	// (--max-data); 0 means DefaultMaxData.
 	MaxData int64
+	// Look is set by the commands that only read (check, pending, trace, runs, diff, the
+	// store's stats and verify): the store's and the results' places are checked but their
+	// folders are not made, so a look at a fresh workflow leaves its folder as it was.
+	Look bool
 }
 
 // allowHint is how a refusal tells the user to widen the folders a workflow may use.
@@ -39,13 +43,14 @@ type folders struct {
 	dirs  []string // absolute, as given (dirs[0] is the workflow's folder)
 	real  []string // the same with symbolic links resolved, to place where a link leads
 	roots []*os.Root
+	look  bool  // check the places written to without making their folders (Access.Look)
 	limit int64 // data bytes allowed in all
 	left  int64 // data bytes still allowed
 	read  map[string]*FileInput
 }
 
 func openFolders(dir string, acc Access) (*folders, hcl.Diagnostics) {
-	fo := &folders{limit: acc.MaxData, read: map[string]*FileInput{}}
+	fo := &folders{look: acc.Look, limit: acc.MaxData, read: map[string]*FileInput{}}
 	if fo.limit <= 0 {
 		fo.limit = DefaultMaxData
 	}
@@ -294,13 +299,18 @@ func (fo *folders) checkLock(i int, name string, r hcl.Range) *hcl.Diagnostic {
 const lockBytes = 4096
 
 // makeIn makes the folder of a place (the place itself when it is a folder) in root i, and
-// checks that a file there stays inside the root.
+// checks that a file there stays inside the root. When the command only looks, a folder
+// not made yet is left unmade; one that exists is still checked.
 func (fo *folders) makeIn(i int, rel string, folder bool) error {
 	dir := rel
 	if !folder {
 		dir = filepath.Dir(rel)
 	}
-	if dir != "." {
+	if dir != "." && fo.look {
+		if _, err := fo.roots[i].Stat(dir); err != nil && !errors.Is(err, fs.ErrNotExist) {
+			return err
+		}
+	} else if dir != "." {
 		if err := fo.roots[i].MkdirAll(dir, 0o755); err != nil {
 			return err
 		}

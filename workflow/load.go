@@ -46,8 +46,8 @@ type Workflow struct {
 	Name string
 	// Seed is the workflow seed every random stream derives from.
 	Seed uint64
-	// StorePath and OutputDir are absolute; Load has checked them, and made their folders,
-	// inside the workflow's folder or a folder the user allowed.
+	// StorePath and OutputDir are absolute; Load has checked them, and made their folders
+	// unless Access.Look, inside the workflow's folder or a folder the user allowed.
 	StorePath string
 	OutputDir string
 	// Steps are in file order; Order is a topological order of them.

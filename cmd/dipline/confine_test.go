@@ -231,7 +231,10 @@ func TestALockFileThatIsNotOursSurvivesARun(t *testing.T) {
 // with is p changed by f.
 func with(p paths, f func(*paths)) paths { f(&p); return p }
 
-func TestHostileWorkflowsAreRefusedWithinASecond(t *testing.T) {
+// Hostile texts are refused at their line without being evaluated: the template loops
+// would build 64 million strings. The 10 s bound guards against such runaway evaluation; it
+// is not a speed target (a refusal takes milliseconds).
+func TestHostileWorkflowsAreRefusedUnevaluated(t *testing.T) {
 	loops := "x"
 	for range 6 {
 		loops = "%{ for v in [1,2,3,4,5,6,7,8,9,10,11,12,13,14,15,16,17,18,19,20] }" + loops + "%{ endfor }"
@@ -252,7 +255,7 @@ func TestHostileWorkflowsAreRefusedWithinASecond(t *testing.T) {
 			f.write("analysis.hcl", c.text)
 			start := time.Now()
 			code, _, errs := f.dipline("check")
-			if d := time.Since(start); d > time.Second {
+			if d := time.Since(start); d > 10*time.Second {
 				t.Errorf("check took %s", d)
 			}
 			if code != exitBadUser || !strings.Contains(errs, c.want) {

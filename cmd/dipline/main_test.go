@@ -222,6 +222,34 @@ func TestRunsOnAFreshStoreSaysItHoldsNone(t *testing.T) {
 	}
 }
 
+// The commands that only read leave a fresh workflow's folder as they found it: no store
+// folder, no results folder.
+func TestLookingMakesNoFolders(t *testing.T) {
+	f := newFolder(t)
+	for _, args := range [][]string{{"check"}, {"pending"}, {"runs"}, {"store", "stats"}, {"diff"}, {"trace", "search.dips"}} {
+		f.dipline(args...)
+		entries, err := os.ReadDir(f.dir)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var names []string
+		for _, e := range entries {
+			names = append(names, e.Name())
+		}
+		if strings.Join(names, " ") != "analysis.hcl lc.csv" {
+			t.Errorf("after dipline %s the folder holds %v", strings.Join(args, " "), names)
+		}
+	}
+	if code, _, errs := f.dipline("run", "--quiet"); code != 0 {
+		t.Fatalf("run after looking: exit %d\n%s", code, errs)
+	}
+	for _, made := range []string{".dipline/store.db", "results/results.json"} {
+		if _, err := os.Stat(filepath.Join(f.dir, made)); err != nil {
+			t.Errorf("a run made no %s: %v", made, err)
+		}
+	}
+}
+
 func TestUnknownCommand(t *testing.T) {
 	var out, errb bytes.Buffer
 	if code := realMain([]string{"flatten"}, &out, &errb); code != exitBadUser {
