@@ -130,7 +130,10 @@ func Fit(ctx context.Context, lc *lightcurve.LightCurve, o Options) (*Artifact, 
 	if err != nil {
 		return nil, nil, err
 	}
-	best, bestLP := p.bestFit(o)
+	best, bestLP := p.bestFit(ctx, o)
+	if err := ctx.Err(); err != nil {
+		return nil, nil, err // stopped during the optimisation; the sampler would stop at once too
+	}
 	run, err := sampler.RunEnsembles(ctx, p.m.LogPost, p.walkerStarts(best, o), schedule(o))
 	if err != nil {
 		if errors.Is(err, sampler.ErrConfig) {
@@ -173,9 +176,9 @@ type problem struct {
 // bestFit runs the optimiser from the start point and measures the β factor of its
 // residuals; with InflateByBeta and β > 1 it multiplies the errors by β and optimises
 // again. It returns the best point and its log posterior (Model.bestLogPost).
-func (p *problem) bestFit(o Options) ([]float64, float64) {
+func (p *problem) bestFit(ctx context.Context, o Options) ([]float64, float64) {
 	m, art := p.m, p.art
-	best, bestLP := optimum(m, p.x0, p.scale)
+	best, bestLP := optimum(ctx, m, p.x0, p.scale)
 	p.notes = append(p.notes, fmt.Sprintf("best fit: Nelder–Mead from the search's values reached log posterior %.6g (start %.6g)", bestLP, m.bestLogPost(p.x0)))
 	beta, err := m.beta(best)
 	if err != nil {
@@ -191,7 +194,7 @@ func (p *problem) bestFit(o Options) ([]float64, float64) {
 			}
 		}
 		art.Inflated = true
-		best, bestLP = optimum(m, best, p.scale)
+		best, bestLP = optimum(ctx, m, best, p.scale)
 		p.notes = append(p.notes, fmt.Sprintf("errors multiplied by β = %.3g, the residuals' time-averaging factor (Pont, Zucker & Queloz 2006), before sampling", beta))
 	}
 	// Above betaCaution without inflation, the artifact's Cautions say so.
@@ -322,8 +325,9 @@ func (p *problem) timeTransits(best []float64, o Options) error {
 
 // optimum maximises the log posterior density in the documented parameters (Model.bestLogPost)
 // by Nelder–Mead (gonum) in coordinates scaled so the initial simplex spans scale, restarting
-// from the result; it returns the best point.
-func optimum(m *Model, x0, scale []float64) ([]float64, float64) {
+// from the result; it returns the best point. It ends early, with the best point so far,
+// once ctx is done (the caller checks ctx).
+func optimum(ctx context.Context, m *Model, x0, scale []float64) ([]float64, float64) {
 	dim := len(x0)
 	toX := func(dst, y []float64) []float64 {
 		for i := range y {
@@ -340,10 +344,10 @@ func optimum(m *Model, x0, scale []float64) ([]float64, float64) {
 		return -lp
 	}
 	y := make([]float64, dim)
-	for round := 0; round < 3; round++ {
+	for round := 0; round < 3 && ctx.Err() == nil; round++ {
 		res, err := optimize.Minimize(optimize.Problem{Func: f}, y,
 			&optimize.Settings{FuncEvaluations: 1000 * dim, Concurrent: 1,
-				Converger: &optimize.FunctionConverge{Absolute: 1e-7, Iterations: 50 * dim}},
+				Converger: stoppable{ctx, &optimize.FunctionConverge{Absolute: 1e-7, Iterations: 50 * dim}}},
 			&optimize.NelderMead{SimplexSize: 1})
 		if res == nil || (err != nil && res.F >= f(y)) {
 			break
@@ -354,6 +358,20 @@ func optimum(m *Model, x0, scale []float64) ([]float64, float64) {
 	}
 	best := toX(make([]float64, dim), y)
 	return best, m.bestLogPost(best)
+}
+
+// stoppable ends an optimisation at its next iteration once ctx is done (an interrupted
+// run), and otherwise defers to the converger it wraps.
+type stoppable struct {
+	ctx context.Context
+	optimize.Converger
+}
+
+func (s stoppable) Converged(loc *optimize.Location) optimize.Status {
+	if s.ctx.Err() != nil {
+		return optimize.Failure
+	}
+	return s.Converger.Converged(loc)
 }
 
 // ball draws a walker start near x: a normal offset of 1 % of scale per parameter, drawn

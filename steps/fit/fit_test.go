@@ -395,3 +395,39 @@ func totalDuration(period, k, b, aR float64) float64 {
 	}
 	return t
 }
+
+// countdown is a context that reports itself cancelled after its first left calls of Err:
+// a stop that arrives part-way through an optimisation, at a point fixed by the call count.
+type countdown struct {
+	context.Context
+	left int
+}
+
+func (c *countdown) Err() error {
+	if c.left <= 0 {
+		return context.Canceled
+	}
+	c.left--
+	return nil
+}
+
+// An interrupted run stops the optimiser at its next iteration instead of letting it run
+// its three rounds of up to a thousand evaluations per parameter (a runaway fit held a
+// Ctrl-C for half a minute): stopped after 5 iterations it is still far from the optimum,
+// and Fit returns the interruption before sampling.
+func TestAStopEndsTheOptimisation(t *testing.T) {
+	lc := synthetic(hot, 20, 1e-3, 7)
+	o := Options{Signals: []signals.Signal{start(hot)}, Window: defaultWindow, Supersample: true}
+	p, err := newProblem(lc, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	_, whole := optimum(context.Background(), p.m, p.x0, p.scale)
+	_, cut := optimum(&countdown{Context: context.Background(), left: 6}, p.m, p.x0, p.scale)
+	if !(whole-cut > 1) {
+		t.Errorf("log posterior %.3f after a stop at iteration 5, %.3f when left to finish: the stop was not heard", cut, whole)
+	}
+	if _, _, err := Fit(&countdown{Context: context.Background(), left: 6}, lc, o); !errors.Is(err, context.Canceled) {
+		t.Errorf("Fit stopped during its optimisation returned %v", err)
+	}
+}
