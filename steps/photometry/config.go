@@ -3,6 +3,7 @@ package photometry
 import (
 	"fmt"
 	"math"
+	"regexp"
 	"strconv"
 	"strings"
 
@@ -52,6 +53,32 @@ func bareName(n string) string {
 		}
 	}
 	return n
+}
+
+// offsetNamed matches a time column's name that states the Julian date its times count
+// from, as files often do (common practice): "BJD - 2457000", "bjd_tdb-2459000",
+// "HJD-2450000", "time (BJD - 2456000)". The offset must be a Julian date of the era
+// (2 400 000 to 2 469 999) so that a year or an id is not taken for one.
+var offsetNamed = regexp.MustCompile(`(?:^|[^a-z])(bjd_tdb|bjdtdb|bjd|hjd|jd|time|t)-(2[45][0-9]{5}(?:\.[0-9]+)?)(?:$|[^0-9.])`)
+
+// statedOffset returns the offset a time column's name states, and the time word before
+// it ("bjd", "hjd", …): see offsetNamed.
+func statedOffset(name string) (float64, string, bool) {
+	squeezed := strings.Map(func(c rune) rune {
+		if c == ' ' || c == '\t' {
+			return -1
+		}
+		return c
+	}, strings.ToLower(name))
+	m := offsetNamed.FindStringSubmatch(squeezed)
+	if m == nil {
+		return 0, "", false
+	}
+	v, err := strconv.ParseFloat(m[2], 64)
+	if err != nil || v >= eraLastJD {
+		return 0, "", false
+	}
+	return v, m[1], true
 }
 
 // otherFluxes lists the columns besides the chosen ones whose names say they hold a flux
@@ -171,6 +198,15 @@ func pickColumns(file string, names []string, user [nRoles]string) (idx [nRoles]
 			if i >= 0 {
 				idx[r], chosen[r] = i, names[i]
 				break
+			}
+		}
+		if idx[r] < 0 && r == TimeCol {
+			// A name that states its offset ("BJD - 2457000"): the first such column.
+			for i, n := range names {
+				if _, _, ok := statedOffset(bareName(n)); ok {
+					idx[r], chosen[r] = i, names[i]
+					break
+				}
 			}
 		}
 		if idx[r] < 0 && (r == TimeCol || r == FluxCol) {

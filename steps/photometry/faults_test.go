@@ -209,6 +209,42 @@ func TestAModifiedJulianDateColumnStatesItsOffset(t *testing.T) {
 	}
 }
 
+func TestATimeColumnNamedWithItsOffset(t *testing.T) {
+	// Files often write the offset their times count from into the time column's name
+	// (common practice): the column is found by it, and the offset is stated, not assumed.
+	for name, want := range map[string]float64{
+		"BJD - 2457000": 2457000, "bjd_tdb-2459000.5": 2459000.5, "HJD-2450000": 2450000,
+		"Time (BJD - 2456000)": 2456000, "JD-2400000": 2400000,
+		"BJD - 2019": 0, "flux-2457000": 0, "JD-2470000": 0, "BJD - 24570001": 0, "tic-2457000": 0,
+	} {
+		got, _, ok := statedOffset(name)
+		if ok != (want != 0) || got != want {
+			t.Errorf("%q states %v (%v), want %v", name, got, ok, want)
+		}
+	}
+	var b strings.Builder
+	b.WriteString("BJD - 2457000,flux\n")
+	for i := 0; i < 100; i++ {
+		fmt.Fprintf(&b, "%.5f,%.4f\n", 3100+float64(i)/48, 1+0.001*math.Sin(float64(i)))
+	}
+	data := []byte(b.String())
+	rep, err := InspectFile(DefaultConfig(), steps.File{Name: "lc.csv", Data: data})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rep.Columns[TimeCol] != "BJD - 2457000" || rep.Stated != 2457000 {
+		t.Errorf("time column %q, stated offset %v; want the column and 2457000 from its name", rep.Columns[TimeCol], rep.Stated)
+	}
+	_, _, err = runKind(t, map[string]any{}, []steps.File{{Name: "lc.csv", Data: data}})
+	if err == nil || !strings.Contains(err.Error(), `the time column's name, "BJD - 2457000", says the times count from JD 2457000: write time_zero = 2457000 if they do`) {
+		t.Errorf("without time_zero: %v; want the name's offset offered", err)
+	}
+	res, _, err := runKind(t, map[string]any{"time_zero": 2457000.0}, []steps.File{{Name: "lc.csv", Data: data}})
+	if err != nil || res.LC.Len() != 100 {
+		t.Fatalf("with time_zero: %v", err)
+	}
+}
+
 func TestADamagedTimeIsNamedByItsRow(t *testing.T) {
 	lc := strings.Replace(string(table(50, ",", nil)), "\n0.208333,", "\n-1.98e205,", 1) // row 10, line 12
 	_, _, err := readOne(t, []byte(lc))

@@ -127,6 +127,9 @@ func InspectFile(cfg Config, f steps.File) (*FileReport, error) {
 	if v, ok := namedOffsets[strings.ToLower(bareName(r.cols[TimeCol]))]; ok {
 		rep.Stated = v
 		rep.StatedHow = fmt.Sprintf("the time column's name, %s, which by common practice counts from it", r.cols[TimeCol])
+	} else if v, _, ok := statedOffset(r.cols[TimeCol]); ok {
+		rep.Stated = v
+		rep.StatedHow = fmt.Sprintf("the time column's name, %q, which states it", r.cols[TimeCol])
 	}
 	rep.describeRows(&cfg, r)
 	if rep.Kept < 2 {

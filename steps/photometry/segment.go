@@ -328,8 +328,13 @@ func settleReference(r *rawSegment, s *lightcurve.Segment, firstAt string, note 
 		if r.hasRef {
 			how = fmt.Sprintf("with the reference JD %d + %g from %s", r.refInt, r.refFrac, r.refFrom)
 		}
-		return steps.BadInputf("%s: the earliest time, %g, %s is JD %.7g, not a plausible Julian date; state the Julian date of time 0 with time_zero, or remove it if the file holds full Julian dates (or mend the row, if this one time is damaged)",
-			firstAt, s.Time[0], how, start)
+		hint := "state the Julian date of time 0 with time_zero, or remove it if the file holds full Julian dates"
+		if v, _, ok := statedOffset(r.cols[TimeCol]); ok && !r.hasRef {
+			hint = fmt.Sprintf("the time column's name, %q, says the times count from JD %s: write time_zero = %s if they do",
+				r.cols[TimeCol], strconv.FormatFloat(v, 'f', -1, 64), strconv.FormatFloat(v, 'f', -1, 64))
+		}
+		return steps.BadInputf("%s: the earliest time, %g, %s is JD %.7g, not a plausible Julian date; %s (or mend the row, if this one time is damaged)",
+			firstAt, s.Time[0], how, start, hint)
 	}
 	if !r.hasRef {
 		// Full Julian dates: keep the whole day of the first point as the reference, so
