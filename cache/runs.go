@@ -28,6 +28,7 @@ type Run struct {
 	Workflow  string            `json:"workflow_digest"`     // digest of the workflow file's bytes
 	File      string            `json:"workflow_file"`       // the path as the user gave it
 	Overrides map[string]string `json:"overrides,omitempty"` // command-line settings, name → value
+	SetBy     string            `json:"set_by,omitempty"`    // where Overrides came from, when not the command line
 	Steps     []RunStep         `json:"steps"`
 	// State is RunUnderWay from the run's start until its end, then RunEnded. Records
 	// written before runs had states have none, and count as ended.

@@ -64,7 +64,8 @@ type SettingError struct {
 	// Place is the attribute's line (the block's when the attribute is not written, its
 	// default being refused); nil when the setting came from the command line.
 	Place *Place
-	// Set is the --set option that gave the setting, e.g. "--set fit.planets.eccentric".
+	// Set says where the setting was given when not in the file: on the command line
+	// ("on the command line (--set fit.planets.eccentric)") or by a survey target's row.
 	Set string
 	Err *steps.AttrError
 }
@@ -75,7 +76,7 @@ func (e *SettingError) Error() string {
 	where := ""
 	switch {
 	case e.Set != "":
-		where = "set on the command line (" + e.Set + "): "
+		where = "set " + e.Set + ": "
 	case e.Place != nil:
 		where = fmt.Sprintf("%s line %d: ", e.Place.File, e.Place.Line)
 	}
@@ -94,7 +95,10 @@ func (w *Workflow) settingError(s *Step, err error) error {
 	se := &SettingError{Step: s, Err: ae}
 	for _, o := range w.Overrides {
 		if o.Addr == s.Addr && o.Attr == ae.Attr {
-			se.Set = "--set " + o.Addr + "." + o.Attr
+			se.Set = "on the command line (--set " + o.Addr + "." + o.Attr + ")"
+			if w.SetBy != "" {
+				se.Set = "by " + w.SetBy + ", column " + o.Addr + "." + o.Attr
+			}
 			return se
 		}
 	}

@@ -56,8 +56,12 @@ type Workflow struct {
 	// Digest is the SHA-256 of the file's bytes.
 	Digest [32]byte
 
-	// Overrides are the command-line settings that replaced attributes.
+	// Overrides are the settings that replaced attributes: given with --set, or by a survey
+	// target's row.
 	Overrides []Override
+	// SetBy says where Overrides came from when not from the command line, e.g. `row T1 of
+	// the target table targets.csv, line 3`; the results and messages name it.
+	SetBy string
 
 	// Catalogues are the catalogue blocks by label.
 	Catalogues []*Catalogue

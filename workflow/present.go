@@ -46,6 +46,10 @@ func writeReport(w *Workflow, store *cache.Store, run cache.Run, outcomes []*Out
 		doc.Appendix.Steps = append(doc.Appendix.Steps, making(w, store, o, outcomes))
 	}
 	doc.Appendix.Run, doc.Appendix.Overrides = runFacts(w, run)
+	doc.Appendix.OverridesFrom = "Settings given on the command line"
+	if run.SetBy != "" {
+		doc.Appendix.OverridesFrom = "Settings replaced by " + run.SetBy
+	}
 	var page bytes.Buffer
 	if err := report.Write(&page, doc); err != nil {
 		return "", err

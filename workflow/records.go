@@ -234,7 +234,7 @@ func resultsOf(w *Workflow, runID string, outcomes []*Outcome) ResultsFile {
 	rf := ResultsFile{Schema: resultsSchema, Analysis: w.Name, Workflow: w.Path, Run: runID,
 		Statuses: map[string]int{StatusComputed: 0, StatusReused: 0, StatusFailed: 0, StatusSkipped: 0},
 		Failures: []FailureEntry{}, Steps: []StepResults{}}
-	rf.Overrides, rf.WhatIf = WhatIf(overrideMap(w.Overrides))
+	rf.Overrides, rf.WhatIf = WhatIf(overrideMap(w.Overrides), w.SetBy)
 	for _, o := range outcomes {
 		rf.Statuses[o.Status]++
 		sr := StepResults{Step: o.Step.Addr, Kind: o.Step.Kind.Name(), Status: o.Status, Warning: o.Warning, Figures: []FigureEntry{}}
@@ -303,11 +303,12 @@ func overrideMap(list []Override) map[string]string {
 	return m
 }
 
-// WhatIf turns a run's command-line settings (cache.Run.Overrides: name → value as
-// written) into the lines the results file lists ("fit.planets.max_steps=2500", sorted by
-// name) and one plain sentence saying the results are a what-if run with them replaced;
-// nil and "" when there are none. The results file and the run summary both use it.
-func WhatIf(overrides map[string]string) (settings []string, sentence string) {
+// WhatIf turns a run's replaced settings (cache.Run.Overrides: name → value as written)
+// into the lines the results file lists ("fit.planets.max_steps=2500", sorted by name) and
+// one plain sentence saying the results are a what-if run with them replaced on the command
+// line, or, when setBy names a survey target's row, one target's results; nil and "" when
+// there are none. The results file and the run summary both use it.
+func WhatIf(overrides map[string]string, setBy string) (settings []string, sentence string) {
 	if len(overrides) == 0 {
 		return nil, ""
 	}
@@ -322,6 +323,10 @@ func WhatIf(overrides map[string]string) (settings []string, sentence string) {
 	what := "this setting"
 	if len(settings) > 1 {
 		what = fmt.Sprintf("these %d settings", len(settings))
+	}
+	if setBy != "" {
+		return settings, fmt.Sprintf("These results are one survey target's: the workflow file was run with %s replaced by %s (%s); the workflow file alone gives other results.",
+			what, setBy, strings.Join(settings, ", "))
 	}
 	sentence = fmt.Sprintf("These results are from a what-if run: the workflow file was run with %s replaced on the command line (--set %s); the workflow file alone may give other results.",
 		what, strings.Join(settings, ", --set "))

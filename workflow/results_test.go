@@ -147,7 +147,7 @@ spread "s" { input = source.a }
 		if !strings.Contains(rf.WhatIf, "what-if run") || !strings.Contains(rf.WhatIf, "--set source.a.scale=3, --set spread.s.width=2") {
 			t.Errorf("what_if %q", rf.WhatIf)
 		}
-		if _, sentence := WhatIf(rep.Run.Overrides); sentence != rf.WhatIf {
+		if _, sentence := WhatIf(rep.Run.Overrides, rep.Run.SetBy); sentence != rf.WhatIf {
 			t.Errorf("the run record's overrides give %q, the results file %q", sentence, rf.WhatIf)
 		}
 		if !strings.Contains(text, `"err_upper": 18`) { // 1.5 × 3 × 2 = 9, upper 2 × 9

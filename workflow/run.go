@@ -164,6 +164,7 @@ func startRecord(w *Workflow, started time.Time) cache.Run {
 	run := cache.Run{ID: cache.NewRunID(started), Started: started.UTC(), Workflow: hexKey(w.Digest), File: w.Path,
 		Steps: []cache.RunStep{}, State: cache.RunUnderWay, PID: os.Getpid(), Host: host}
 	if len(w.Overrides) > 0 {
+		run.SetBy = w.SetBy
 		run.Overrides = map[string]string{}
 		for _, o := range w.Overrides {
 			run.Overrides[o.Addr+"."+o.Attr] = o.Value

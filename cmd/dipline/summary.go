@@ -19,7 +19,7 @@ const summaryWidth = 100
 // step's test counts and cautions, reused or computed. A what-if run (--set) says so first;
 // a figure without a value is not printed as one, but named with the reason.
 func (c *cli) printSummary(rep *workflow.Report) {
-	if _, whatIf := workflow.WhatIf(rep.Run.Overrides); whatIf != "" {
+	if _, whatIf := workflow.WhatIf(rep.Run.Overrides, rep.Run.SetBy); whatIf != "" {
 		fmt.Fprintln(c.out)
 		fmt.Fprint(c.out, wrap(whatIf, "", "  ", summaryWidth))
 	}

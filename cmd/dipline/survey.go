@@ -133,7 +133,7 @@ func (c *cli) surveyArgs(fs *flag.FlagSet, args []string) (*survey.Table, survey
 		fmt.Fprintf(c.err, "dipline %s: %v\n", fs.Name(), err)
 		return nil, survey.Env{}, false
 	}
-	return t, survey.Env{Workflow: abs, Registry: c.reg, Access: c.access, Layout: survey.NewLayout(w.Dir, t), StorePath: w.StorePath}, true
+	return t, survey.Env{Workflow: abs, Registry: c.reg, Access: c.access, Layout: survey.NewLayout(w.Dir, t), StorePath: w.StorePath, Table: t.Path}, true
 }
 
 func (c *cli) surveyRun(fs *flag.FlagSet, args []string) int {

@@ -141,6 +141,36 @@ func TestAFailedTargetIsInTheTableAndARerunCompletesIt(t *testing.T) {
 	}
 }
 
+// A target's values come from its row of the target table, and everything said of them
+// says so: a value the workflow refuses is named by the table's column, not as a --set
+// option, and a target's results call themselves that target's, not a what-if run of the
+// command line.
+func TestATargetsValuesAreNamedAsTheTablesNotTheCommandLines(t *testing.T) {
+	f := newFolder(t)
+	f.write("targets.csv", "id,detrend.quiet.span\nT-01,\"0.6 d\"\nT-02,0.6 q\n")
+	code, out, errs := f.dipline("survey", "run", "targets.csv", "--workers", "2")
+	if code != exitBadUser {
+		t.Fatalf("survey run with one bad value: exit %d, want 2\n%s\n%s", code, out, errs)
+	}
+	rows, _ := surveyTable(t, f)
+	msg := rows["T-02"]["message"]
+	if !strings.Contains(msg, "the target table's line 3") || !strings.Contains(msg, "column detrend.quiet.span: ") || strings.Contains(msg, "--set") {
+		t.Errorf("T-02's message names the value as %q", msg)
+	}
+	b, err := os.ReadFile(filepath.Join(f.dir, "surveys", "targets", "targets", "T-01", "results.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, want := range []string{`"detrend.quiet.span=\"0.6 d\""`, "one survey target's", "row T-01 of the target table targets.csv, line 2"} {
+		if !bytes.Contains(b, []byte(want)) {
+			t.Errorf("T-01's results lack %q", want)
+		}
+	}
+	if bytes.Contains(b, []byte("command line")) {
+		t.Errorf("T-01's results speak of the command line:\n%s", b)
+	}
+}
+
 // TestATaskRunsItsChunkOnly runs the second task of chunks of three: targets 4–6, and
 // nothing else.
 func TestATaskRunsItsChunkOnly(t *testing.T) {

@@ -168,7 +168,7 @@ a { color: #0b5b7a; }
 <section class="making" id="making">
 <h2>How these results were made</h2>
 <dl>{{range .Appendix.Run}}<dt>{{.Name}}</dt><dd>{{.Value}}</dd>{{end}}</dl>
-{{with .Appendix.Overrides}}<h3>Settings given on the command line</h3>
+{{with .Appendix.Overrides}}<h3>{{$.Appendix.OverridesFrom}}</h3>
 <table><tbody>{{range .}}<tr><td><code>{{.Name}}</code></td><td>{{.Value}}</td></tr>{{end}}</tbody></table>{{end}}
 {{range .Appendix.Steps}}<article id="{{.ID}}">
 <h3>{{.Step}}</h3>

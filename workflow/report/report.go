@@ -71,9 +71,11 @@ type Appendix struct {
 	// Run lists facts about the run as a whole (run id, workflow file and its digest, seed,
 	// program version and revision), in order.
 	Run []Pair
-	// Overrides are the settings given on the command line ("step.attribute", value).
-	Overrides []Pair
-	Steps     []Making
+	// Overrides are the settings given on the command line, or by a survey target's row
+	// ("step.attribute", value); OverridesFrom heads them.
+	Overrides     []Pair
+	OverridesFrom string
+	Steps         []Making
 }
 
 // Pair is a name and a value.

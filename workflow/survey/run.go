@@ -24,11 +24,24 @@ type Env struct {
 	Access    workflow.Access
 	Layout    Layout
 	StorePath string
+	Table     string // the target table's path as given, for messages and results
 }
 
 // shardWait is how long a target's run waits for its shard's lock: a shard is one target's
 // alone, so a holder is a run of the same target still going (a task re-submitted too soon).
 const shardWait = 5 * time.Second
+
+// fromTheRow rewrites load messages about a target's values, which the workflow package
+// names as the --set options that would give them, to name the target table's column.
+func fromTheRow(msgs string) string {
+	lines := strings.Split(strings.TrimSpace(msgs), "\n")
+	for i, l := range lines {
+		if rest, ok := strings.CutPrefix(l, "--set "); ok {
+			lines[i] = "column " + rest
+		}
+	}
+	return strings.Join(lines, "\n")
+}
 
 // RunTarget runs the workflow for one target in its own shard and results folder and
 // records its state. A target whose workflow does not load, or whose run leaves a step
@@ -54,8 +67,9 @@ func (e Env) runOne(ctx context.Context, tg Target, workers int, st *State) erro
 	if diags.HasErrors() || w == nil {
 		var b bytes.Buffer
 		workflow.FormatDiagnostics(&b, diags)
-		return fmt.Errorf("the workflow with this target's values (the target table's line %d) does not load:\n%s", tg.Line, strings.TrimSpace(b.String()))
+		return fmt.Errorf("the workflow with this target's values (the target table's line %d) does not load:\n%s", tg.Line, fromTheRow(b.String()))
 	}
+	w.SetBy = fmt.Sprintf("row %s of the target table %s, line %d", tg.ID, e.Table, tg.Line)
 	w.StorePath, w.OutputDir = e.Layout.Shard(tg.ID), e.Layout.TargetDir(tg.ID)
 	if err := os.MkdirAll(filepath.Dir(w.StorePath), 0o755); err != nil {
 		return err
