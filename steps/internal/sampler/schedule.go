@@ -55,8 +55,9 @@ type Schedule struct {
 	// Progress, when not nil, is told after each ensemble's run of steps how far the
 	// sampling is, as done out of total = MaxSteps for every ensemble: done is the steps run
 	// so far scaled by the end the autocorrelation times measured so far foretell (the cap
-	// until the first look), never going back and short of total until sampling is over;
-	// the last call gives done = total. It only watches: it is called from RunEnsembles' own
+	// until the first look) to nine tenths of total, and past that end on towards total,
+	// never going back and short of total until sampling is over; the last call gives
+	// done = total. It only watches: it is called from RunEnsembles' own
 	// goroutine, draws nothing and decides nothing, so the results are the same with it or
 	// without.
 	Progress func(done, total int)
@@ -221,8 +222,15 @@ func (r *scheduled) look() bool {
 	return false
 }
 
-// progress reports done ensemble updates (over all ensembles) to Progress, as a share of
-// the expected end scaled to the cap.
+// foreseenShare is the share of the progress line the foreseen end fills. The rest is kept
+// for sampling that runs past it (chains that mix more slowly than their first looks
+// foretold), so that the line keeps moving towards the cap instead of standing at 99 %
+// (a fit of a fast rotator's spurious signals stood there for ten minutes).
+const foreseenShare = 0.9
+
+// progress reports done ensemble updates (over all ensembles) to Progress: up to the
+// expected end as a share of foreseenShare of the cap, past it linearly from there to the
+// cap.
 func (r *scheduled) progress(done int) {
 	if r.Progress == nil {
 		return
@@ -232,10 +240,14 @@ func (r *scheduled) progress(done int) {
 	if r.expectEnd > 0 {
 		end = r.expectEnd * len(r.chains)
 	}
-	n := all - 1 // only the last call says the sampling is over
-	if done < end {
-		n = min(n, int(float64(done)/float64(end)*float64(all)))
+	share := 1.0
+	switch {
+	case done < end:
+		share = foreseenShare * float64(done) / float64(end)
+	case end < all:
+		share = foreseenShare + (1-foreseenShare)*float64(done-end)/float64(all-end)
 	}
+	n := min(all-1, int(share*float64(all))) // only the last call says the sampling is over
 	if n > r.reported {
 		r.reported = n
 		r.Progress(n, all)

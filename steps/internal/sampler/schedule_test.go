@@ -184,3 +184,20 @@ func TestProgressWatchesWithoutChangingTheChains(t *testing.T) {
 		})
 	}
 }
+
+// Sampling that runs past the end its first looks foretold still moves the line, towards
+// the cap, instead of standing just short of the total until it stops.
+func TestProgressPastTheForeseenEndKeepsMoving(t *testing.T) {
+	var got []int
+	r := &scheduled{Schedule: Schedule{MaxSteps: 1000, Progress: func(done, total int) { got = append(got, done) }},
+		chains: make([]*Chain, 2), expectEnd: 200}
+	for _, done := range []int{200, 400, 1000, 1600, 1999} { // over both ensembles; the end foreseen is 400
+		r.progress(done)
+	}
+	// foreseenShare of the cap at the foreseen end, then a tenth more spread over the
+	// 1600 updates between it and the cap of 2000.
+	want := []int{900, 1800, 1875, 1950, 1999}
+	if !slices.Equal(got, want) {
+		t.Errorf("progress %v, want %v", got, want)
+	}
+}
