@@ -28,8 +28,8 @@ func (c *cli) starter(args []string) int {
 		fmt.Fprintf(c.err, "dipline starter: %s exists; name another file with --out\n", *out)
 		return exitBadUser
 	}
-	rel, err := filepath.Rel(filepath.Dir(*out), data)
-	if err != nil || strings.HasPrefix(rel, "..") {
+	rel, err := relativeTo(filepath.Dir(*out), data)
+	if err != nil || rel == ".." || strings.HasPrefix(rel, ".."+string(filepath.Separator)) {
 		fmt.Fprintf(c.err, "dipline starter: %s is not inside the folder of %s; workflows read only files beside them\n", data, *out)
 		return exitBadUser
 	}
@@ -65,4 +65,18 @@ func (c *cli) starter(args []string) int {
 		fmt.Fprintf(c.out, "Wrote %s; it will not run until the setting named above is written in it. Then check it with: dipline check %s\n", *out, *out)
 	}
 	return exitOK
+}
+
+// relativeTo is path's name relative to the folder dir, either of them given relative to
+// the current folder or absolute (filepath.Rel needs both alike).
+func relativeTo(dir, path string) (string, error) {
+	absDir, err := filepath.Abs(dir)
+	if err != nil {
+		return "", err
+	}
+	absPath, err := filepath.Abs(path)
+	if err != nil {
+		return "", err
+	}
+	return filepath.Rel(absDir, absPath)
 }

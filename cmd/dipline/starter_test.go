@@ -3,6 +3,7 @@ package main
 import (
 	"bytes"
 	"os"
+	"path/filepath"
 	"strings"
 	"testing"
 )
@@ -65,5 +66,29 @@ func TestStarterRefusesAFileWithoutAFluxColumn(t *testing.T) {
 	}
 	if _, err := os.Stat(f.dir + "/analysis.hcl"); err == nil {
 		t.Fatal("a workflow was written")
+	}
+}
+
+// The light curve and the workflow may be named one relative and one absolute: the file is
+// beside the workflow either way, and the workflow names it relative to its own folder.
+// A file outside the workflow's folder is still refused.
+func TestStarterTakesRelativeAndAbsoluteNamesAlike(t *testing.T) {
+	f := newFolder(t)
+	out := filepath.Join(f.dir, "sub", "analysis.hcl")
+	if err := os.Mkdir(filepath.Dir(out), 0o755); err != nil {
+		t.Fatal(err)
+	}
+	f.write("sub/lc.csv", lightCurveCSV())
+	code, _, errs := f.dipline("starter", "sub/lc.csv", "--out", out)
+	if code != 0 {
+		t.Fatalf("starter sub/lc.csv --out %s: exit %d\n%s", out, code, errs)
+	}
+	body, err := os.ReadFile(out)
+	if err != nil || !strings.Contains(string(body), `files = ["lc.csv"]`) {
+		t.Errorf("the workflow does not name lc.csv beside it (%v):\n%s", err, body)
+	}
+	code, _, errs = f.dipline("starter", "lc.csv", "--out", filepath.Join(f.dir, "sub", "other.hcl"))
+	if code != exitBadUser || !strings.Contains(errs, "is not inside the folder of") {
+		t.Errorf("a light curve outside the workflow's folder: exit %d\n%s", code, errs)
 	}
 }
