@@ -50,7 +50,8 @@ const minRelativeTolerance = 1e-4
 // RunAll measures it once for all its injections. A window judges only its strongest
 // peak (see windowed), and one narrower than a factor of two either side cannot hold half
 // or twice the period, so Harmonic stays false. With window 0 the full range is searched
-// and the search's own SDE decides.
+// and the search's own SDE threshold decides. Either way the search's SNR floor (min_snr)
+// judges the refined box, as it does in the search step.
 func Recover(raw *lightcurve.LightCurve, d Drawn, st Star, dcfg detrend.Config, scfg search.Config, window float64, pool *steps.Pool) (Outcome, error) {
 	if !(window >= 0) || math.IsInf(window, 0) {
 		return Outcome{}, fmt.Errorf("completeness: period window %v; give 0 (the full range) or a positive fraction", window)
@@ -132,7 +133,8 @@ func full(curve *lightcurve.LightCurve, cfg search.Config, par parallel.Func) ([
 
 // windowFloor is the SDE threshold of a windowed search's second stage: low enough that
 // its pass always refines a peak, the reference having decided already (any positive value below
-// every peak's SDE, which is at least 0, would do; bls.Search needs it positive).
+// every peak's SDE, which is at least 0, would do; bls.Search needs it positive). The
+// refined box must still pass the search's depth rule and SNR floor.
 const windowFloor = 1e-9
 
 // refineSteps is the half-width, in grid steps, of the second stage of a windowed search.

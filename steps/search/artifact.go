@@ -117,8 +117,8 @@ func (a *Artifact) Figures() []steps.Figure {
 const (
 	tag = "search"
 	// format 2 adds each signal's rival periods and spread over its transits; 3 the method;
-	// 4 the threshold.
-	format = 4
+	// 4 the threshold; 5 why each pass's peak above the threshold gave no signal.
+	format = 5
 	// maxPasses bounds the passes a decoder accepts (max_signals is at most 20).
 	maxPasses = 64
 )
@@ -144,6 +144,7 @@ func (a *Artifact) Encode() []byte {
 		w.String(packFloat32(p.Duration))
 		w.Int(int64(p.Peak))
 		w.Float(p.SDE)
+		w.String(p.Refused)
 		w.Bool(p.Found != nil)
 		if d := p.Found; d != nil {
 			for _, x := range []float64{d.Timing.Period, d.Timing.PeriodSigma, d.Timing.Epoch, d.Timing.EpochSigma,
@@ -211,6 +212,7 @@ func Decode(b []byte) (*Artifact, error) {
 		pw, du := r.String(), r.String()
 		p.Peak = int(r.Int())
 		p.SDE = r.Float()
+		p.Refused = r.String()
 		if r.Bool() {
 			d := &bls.Detection{}
 			for _, x := range []*float64{&d.Timing.Period, &d.Timing.PeriodSigma, &d.Timing.Epoch, &d.Timing.EpochSigma,

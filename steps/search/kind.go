@@ -1,9 +1,10 @@
 // Package search is the search step kind: a periodic transit search by box least squares
 // over a light curve from a photometry or detrend step. It builds a frequency grid uniform
 // in f^{1/3} for the stated stellar density (Ofir 2014), keeps per frequency the best dip
-// over durations and phases, accepts the highest peak when its SDE reaches a threshold
-// calibrated on white noise, refines it, masks its transits and searches again, up to a
-// number of signals. The numerics live in the bls sub-package and know nothing of workflow
+// over durations and phases, takes the highest peak when its SDE reaches a threshold
+// calibrated on white noise, refines it, accepts it when its box is at least three errors
+// deep and its SNR reaches a floor (min_snr), masks its transits and searches again, up to
+// a number of signals. The numerics live in the bls sub-package and know nothing of workflow
 // files; this package turns a block's values into bls.Options, runs them on the engine's
 // worker pool and wraps the outcome as an Artifact.
 //
@@ -42,8 +43,9 @@ var _ steps.Typed[Config] = Kind{}
 // the SDE against the median and the median absolute deviation. 4: the
 // default threshold from the grid's size, kept in the result. 5: its constants refitted to
 // four years of data; every pass whole. 6: the refinement keeps within reach of its peak
-// and inside the grid, and a box less than three errors deep is no signal.
-const version = 6
+// and inside the grid, and a box less than three errors deep is no signal. 7: a box whose
+// SNR is below min_snr is no signal either, and each pass keeps why its peak gave none.
+const version = 7
 
 // Defaults, each with its reason.
 const (
@@ -65,6 +67,14 @@ const (
 	// to last contact (down to about half of it), and leftover ingress and egress would
 	// otherwise come back as a weaker signal at the same period.
 	defaultMaskFactor = 2.0
+	// defaultMinSNR is the signal-to-noise floor a refined box must reach besides the SDE
+	// threshold. The SDE measures a peak against the rest of its periodogram, so on a
+	// light curve whose noise is red on the transit's time scale (flares, leftover
+	// variability) a peak can reach it with a box the binned noise explains; the SNR bins
+	// the noise to the duration. Transit surveys ask for about 7 (common practice; the
+	// Kepler pipeline's threshold on its multiple-event statistic is 7.1σ, Jenkins et al.
+	// 2010, ApJ 713, from memory).
+	defaultMinSNR = 7.0
 )
 
 // solarDensity is the nominal Sun's mean density in g/cm³, the density unit "rho_sun".
@@ -98,6 +108,7 @@ type Config struct {
 	// SDEThreshold is absent for the default, which depends on the grid's size.
 	SDEThreshold *float64 `step:"sde_threshold" doc:"signal detection efficiency a periodogram peak must reach to count as a signal; by default from the number of trial frequencies (about 7.1 for a month of data, 8.1 for three months, 8.7 for a year, 9.3 for four), holding white-noise false alarms to about 1 % per star, and the run says which"`
 	MaskFactor   float64  `step:"mask_factor" default:"2" doc:"the stretch masked around each found mid-transit before searching again, in transit durations"`
+	MinSNR       float64  `step:"min_snr" default:"7" doc:"signal-to-noise a peak above the SDE threshold must also reach, its box's depth over the out-of-transit noise binned to the duration, times the square root of the transits with data; a peak below it is set aside, the run's notes say which, and the search stops there; 7 is what transit surveys commonly ask (the Kepler pipeline's 7.1 σ); 0 turns the floor off"`
 	Method       string   `step:"method" choices:"auto|fast_fold|fold_and_scan" default:"auto" doc:"how each periodogram is computed: fast_fold bins the light curve evenly in time and folds all trial periods at once (Staelin 1969), fold_and_scan folds every point at every frequency (for sparse, uneven data it can be the cheaper); auto takes the cheaper, and the run's notes say which ran and why"`
 }
 
@@ -135,6 +146,9 @@ func (Kind) Check(c *Config) error {
 	}
 	if c.SDEThreshold != nil && (!(*c.SDEThreshold > 0) || !finite(*c.SDEThreshold)) {
 		return steps.Attrf("sde_threshold", "must be a positive number, not %v", *c.SDEThreshold)
+	}
+	if !(c.MinSNR >= 0) || !finite(c.MinSNR) {
+		return steps.Attrf("min_snr", "must be a number at least 0 (0 turns the floor off), not %v", c.MinSNR)
 	}
 	if !(c.MaskFactor >= 1 && c.MaskFactor <= 10) {
 		return steps.Attrf("mask_factor", "must be between 1 and 10 transit durations, not %v", c.MaskFactor)
@@ -248,7 +262,7 @@ func Search(cfg Config, lc *lightcurve.LightCurve, par parallel.Func, progress f
 	opt := bls.Options{
 		Density: cfg.Density, PeriodMin: lo, PeriodMax: hi, Oversampling: cfg.Oversampling,
 		MaxSignals: cfg.MaxSignals, MaskFactor: cfg.MaskFactor,
-		Method: cfg.method(),
+		Method: cfg.method(), MinSNR: cfg.MinSNR,
 	}
 	if cfg.SDEThreshold != nil {
 		opt.SDEThreshold = *cfg.SDEThreshold
@@ -269,6 +283,10 @@ func Search(cfg Config, lc *lightcurve.LightCurve, par parallel.Func, progress f
 	switch {
 	case last.Found == nil && last.SDE < res.Threshold:
 		notes = append(notes, fmt.Sprintf("%d signal(s) found; the next peak (%.4g d) has SDE %.2f, below %.3g", found, g.Period(last.Peak), last.SDE, res.Threshold))
+	case last.Found == nil && res.SetAside != nil:
+		d := res.SetAside
+		notes = append(notes, fmt.Sprintf("%d signal(s) found; the next peak (%.4g d, SDE %.2f, above the threshold %.3g) was set aside and not passed on as a signal: refined to a box at %.4g d, %.0f ppm deep, its SNR is %.2f, below min_snr = %g. The search stopped there: the strongest peak left is no credible signal, so weaker ones were not tried",
+			found, g.Period(last.Peak), last.SDE, res.Threshold, d.Timing.Period, d.Shape.Depth*1e6, d.Strength.SNR, cfg.MinSNR))
 	case last.Found == nil:
 		why := res.Refused
 		if why == "" {

@@ -73,6 +73,7 @@ func TestCheckNamesTheAttributeAtFault(t *testing.T) {
 		{"no signals at all", "max_signals", 0},
 		{"a negative SDE threshold", "sde_threshold", -1.0},
 		{"a mask narrower than the transit", "mask_factor", 0.5},
+		{"a negative SNR floor", "min_snr", -1.0},
 		{"periods longest first", "periods", []string{"10 d", "1 d"}},
 		{"a shortest period inside the star", "periods", []string{"0.05 d", "10 d"}},
 	}
@@ -96,7 +97,7 @@ func TestCheckNamesTheAttributeAtFault(t *testing.T) {
 		// Sun's density to the bit.
 		c := cfg.(*Config)
 		if c.Periods != nil || c.periods() != [2]float64{} || c.Density != solarDensity || c.Oversampling != defaultOversampling ||
-			c.MaxSignals != defaultMaxSignals || c.SDEThreshold != nil || c.MaskFactor != defaultMaskFactor {
+			c.MaxSignals != defaultMaxSignals || c.SDEThreshold != nil || c.MaskFactor != defaultMaskFactor || c.MinSNR != defaultMinSNR {
 			t.Fatalf("defaults decoded as %+v", c)
 		}
 	})

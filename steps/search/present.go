@@ -115,6 +115,8 @@ func periodogramPanel(a *Artifact, k int, threshold float64) (steps.Panel, steps
 			}
 		case p.SDE < threshold:
 			words += fmt.Sprintf(" The highest peak, at %.5g d, has SDE %.2f, below the threshold %g: the search stopped here.", period[p.Peak], p.SDE, threshold)
+		case p.Refused != "":
+			words += fmt.Sprintf(" The highest peak, at %.5g d (SDE %.2f, threshold %g), %s: the search stopped here.", period[p.Peak], p.SDE, threshold, p.Refused)
 		default:
 			words += fmt.Sprintf(" The highest peak, at %.5g d (SDE %.2f), gave no dip when refined: the search stopped here.", period[p.Peak], p.SDE)
 		}

@@ -39,6 +39,7 @@ search "full" {
   oversampling  = 4
   max_signals   = 2
   sde_threshold = 8
+  min_snr       = 6
   mask_factor   = 2.5
 }
 

@@ -17,6 +17,10 @@ type Options struct {
 	SDEThreshold         float64 // a peak is accepted when its SDE reaches this; 0 for DefaultThreshold of the grid
 	MaskFactor           float64 // points within MaskFactor·duration/2 of a found transit are left out of later passes
 	Method               Method  // how the periodograms are computed (MethodAuto: the cheaper)
+	// MinSNR is the signal-to-noise floor: a peak that reaches the SDE threshold and is
+	// refined to a box whose SNR (Strength.SNR) is below it is set aside, not taken for a
+	// signal, and the search stops there as for any refused peak; 0 for no floor.
+	MinSNR float64
 }
 
 // Result is the outcome of a search: the grid, then one pass per periodogram computed.
@@ -31,8 +35,12 @@ type Result struct {
 	Threshold float64
 	Passes    []Pass
 	// Refused says, when the last pass's peak reached the threshold and yet gave no signal,
-	// why, in words that follow "the peak (P d, SDE s)"; empty otherwise.
+	// why, in words that follow "the peak (P d, SDE s)"; empty otherwise (the last pass's
+	// Pass.Refused).
 	Refused string
+	// SetAside is the box the last pass's peak was refined to when the SNR floor
+	// (Options.MinSNR) turned it down; nil otherwise.
+	SetAside *Detection
 }
 
 // Pass is one periodogram over the points left after masking the signals found before it,
@@ -51,6 +59,9 @@ type Pass struct {
 	// Found is the signal the peak gave, or nil when it stayed below the SDE threshold or
 	// could not be refined.
 	Found *Detection
+	// Refused says, when the peak reached the threshold and yet gave no signal, why, in
+	// words that follow "the peak (P d, SDE s)"; empty otherwise.
+	Refused string
 }
 
 // Detection is one accepted periodic dip, grouped as when it happens (Timing), what it
@@ -93,7 +104,9 @@ const minPoints = 20
 // Search runs the iterative box search over the series: a periodogram on the grid of
 // Ofir (2014), its highest peak's SDE (against the spectrum's slow trend) against the
 // threshold, refinement of an accepted peak, masking of its transits, and again, until a
-// peak falls below the threshold or MaxSignals signals are found. The periodograms are
+// peak falls below the threshold or gives no signal (it cannot be refined, its box is
+// less than three errors deep, or its SNR is below MinSNR), or MaxSignals signals are
+// found. The periodograms are
 // computed by the fast fold or by fold-and-scan (choose). par spreads fixed blocks of work
 // over workers (nil: serial); progress, if not nil, is called as blocks end with the pass
 // number (from 0) and how far the pass is, done of progressUnits.
@@ -111,6 +124,8 @@ func Search(s Series, o Options, par parallel.Func, progress func(pass, done, to
 		return nil, fmt.Errorf("SDE threshold %g is negative", o.SDEThreshold)
 	case !(o.MaskFactor >= 1):
 		return nil, fmt.Errorf("mask factor %g is below 1", o.MaskFactor)
+	case !(o.MinSNR >= 0) || math.IsInf(o.MinSNR, 0):
+		return nil, fmt.Errorf("SNR floor %g is not a non-negative number", o.MinSNR)
 	}
 	res := &Result{Cadence: s.Cadence()}
 	baseline := s.Time[len(s.Time)-1] - s.Time[0]
@@ -149,7 +164,12 @@ func Search(s Series, o Options, par parallel.Func, progress func(pass, done, to
 		sp, score, peak := pr.sp, pr.score, pr.peak
 		ps := Pass{Power: sp.power, Duration: sp.duration, Peak: peak, SDE: score}
 		if score >= res.Threshold && sp.power[peak] > 0 {
-			ps.Found, res.Refused = detect(p, g, sp, peak, score, o.MaskFactor)
+			ps.Found, ps.Refused = detect(p, g, sp, peak, score, o.MaskFactor)
+			if d := ps.Found; d != nil && o.MinSNR > 0 && !(d.Strength.SNR >= o.MinSNR) {
+				ps.Found, ps.Refused = nil, lowSNR(d, o.MinSNR)
+				res.SetAside = d
+			}
+			res.Refused = ps.Refused
 		}
 		res.Passes = append(res.Passes, ps)
 		if ps.Found == nil || pass+1 >= o.MaxSignals {
@@ -229,6 +249,17 @@ func detect(p *prepared, g Grid, sp spectrum, peak int, score, mask float64) (*D
 		},
 		Rivals: rivals, Spread: spread,
 	}, ""
+}
+
+// lowSNR says why a refined box d below the SNR floor is not a signal, in words that follow
+// "the peak (P d, SDE s)". The search stops at such a peak rather than masking it and
+// going on: it is the strongest peak left after the signals before it, and when it is no
+// credible signal the pass has found nothing; masking it would cut data around transits
+// that are not there (at a short period a large share of the points), and the weaker
+// peaks after it would be tried against the same noise that made it.
+func lowSNR(d *Detection, floor float64) string {
+	return fmt.Sprintf("was refined to a box at %.4g d, %.3g ppm deep, whose SNR, %.2f, is below the floor of %g, so it is set aside, not taken for a signal",
+		d.Timing.Period, d.Shape.Depth*1e6, d.Strength.SNR, floor)
 }
 
 // DefaultThreshold returns the SDE a periodogram peak must reach to count as a signal on a
