@@ -41,6 +41,9 @@ type Signal struct {
 	// NoiseScale is the factor applied to the stated errors in the signal's box fits (see
 	// noiseScale); NaN when the light curve was too short to measure it.
 	NoiseScale float64
+	// Single, when not empty, says that the dip rests on one transit and its period is not
+	// measured; the odd/even test then cannot be run.
+	Single string
 	// Tests are in a fixed order: odd_even, secondary, shape, density, blend, depth,
 	// period_ratio, radius, star_period.
 	Tests []Test
@@ -144,7 +147,7 @@ func (s Signal) doubtful() bool {
 			return true
 		}
 	}
-	return s.FitNote != "" && s.Planet == ""
+	return s.Single != "" || (s.FitNote != "" && s.Planet == "")
 }
 
 // summary is the signal's line for the run summary.
@@ -179,6 +182,9 @@ func (s Signal) summary() string {
 		parts = append(parts, fmt.Sprintf("not run: %s", strings.Join(nr, ", ")))
 	}
 	b.WriteString(strings.Join(parts, "; "))
+	if s.Single != "" {
+		b.WriteString("; " + s.Single)
+	}
 	if s.FitNote != "" && s.Planet == "" {
 		b.WriteString("; " + s.FitNote)
 	}
@@ -187,7 +193,7 @@ func (s Signal) summary() string {
 
 const (
 	tag    = "vet"
-	format = 1
+	format = 2
 	// Decode's sanity bounds on counts.
 	maxSignalsDecoded, maxTests, maxFigures = 1024, 64, 4096
 )
@@ -201,6 +207,7 @@ func (a *Artifact) Encode() []byte {
 		w.String(s.Planet)
 		w.String(s.FitNote)
 		w.Float(s.NoiseScale)
+		w.String(s.Single)
 		w.Uint64(uint64(len(s.Tests)))
 		for _, t := range s.Tests {
 			w.String(t.Name)
@@ -239,7 +246,7 @@ func Decode(b []byte) (*Artifact, error) {
 		return nil, fmt.Errorf("vet artifact: %d signals is out of range", n)
 	}
 	for i := uint64(0); i < n; i++ {
-		s := Signal{Name: r.String(), Planet: r.String(), FitNote: r.String(), NoiseScale: r.Float()}
+		s := Signal{Name: r.String(), Planet: r.String(), FitNote: r.String(), NoiseScale: r.Float(), Single: r.String()}
 		nt := r.Uint64()
 		if nt > maxTests {
 			return nil, fmt.Errorf("vet artifact: signal %d has %d tests, out of range", i+1, nt)

@@ -138,3 +138,52 @@ func (p *planetDraws) transitDensity() []float64 {
 	}
 	return out
 }
+
+// timingAlarm is the p-value of the transit times' χ² about one linear ephemeris below which
+// the times are taken to vary: 0.0027, the two-sided normal tail beyond 3σ (common
+// practice), stricter than the fit's own caution at 1 %.
+const timingAlarm = 0.0027
+
+// smearShare is the share of the fitted ingress the timing variations must be able to make
+// before the shape is said to be smeared. Stacked on one period, transits that move by a
+// scatter s about it spread every contact by s: a ramp of length T12 (variance T12²/12)
+// convolved with that spread has the variance T12²/12 + s², so it reads as a ramp √12·s
+// longer in quadrature. When √12·s reaches half the fitted T12, the spread alone makes at
+// least a quarter of the fitted ingress's variance, and a V or a grazing chord may be its
+// work rather than the transit's.
+const smearShare = 0.5
+
+// timingOf sets tg.ttv when the fit's transit times of its planet reject one linear
+// ephemeris (p below timingAlarm) and their scatter beyond the errors is large enough to
+// smear the stacked transit's ingress (smearShare).
+func (v *vetter) timingOf(tg *target) {
+	if tg.post == nil || tg.index >= len(v.d.Timing) {
+		return
+	}
+	tm := v.d.Timing[tg.index]
+	if tm.Dof < 1 || !(tm.PValue < timingAlarm) || !(tm.Scatter > 0) {
+		return
+	}
+	p := tg.post
+	ingress := make([]float64, 0, p.n())
+	for i := 0; i < p.n(); i++ {
+		if t14, t23, ok := p.contacts(i); ok {
+			ingress = append(ingress, (t14-t23)/2)
+		}
+	}
+	t12, _, _ := oneSigma(finiteSorted(ingress))
+	if math.IsNaN(t12) || math.Sqrt(12)*tm.Scatter < smearShare*t12 {
+		return
+	}
+	tg.ttv = fmt.Sprintf("the fit's transit times move about one period by %.1f min beyond their errors (χ² %.0f for %d degrees of freedom, p = %.2g), comparable with its ingress of %.0f min, so the transit stacked on one period is smeared",
+		tm.Scatter*1440, tm.Chi2, tm.Dof, tm.PValue, t12*1440)
+}
+
+// timingCaveat is the clause a shape, density or radius verdict gets when tg's transit
+// times smear the stacked transit, "" otherwise: the timing, then what it may have done.
+func (tg *target) timingCaveat(what string) string {
+	if tg.ttv == "" {
+		return ""
+	}
+	return "; but " + tg.ttv + ": " + what + "; fit the transits with a mid-time each"
+}

@@ -39,7 +39,7 @@ func New() steps.Kind { return steps.Define[Config](Kind{}) }
 var _ steps.Typed[Config] = Kind{}
 
 // version is bumped whenever the numbers, the wording or the encoding change.
-const version = 3
+const version = 4
 
 // Defaults, each with its source.
 const (
@@ -214,6 +214,7 @@ func (Kind) Run(ctx context.Context, cfg *Config, in steps.Inputs, env steps.Env
 					d.FitDensityPrior = strings.TrimPrefix(p, "prior: ")
 				}
 			}
+			d.Timing = timingOf(fa)
 		}
 	}
 	if a := in.Ref("star"); a != nil {
@@ -239,4 +240,26 @@ func (Kind) Run(ctx context.Context, cfg *Config, in steps.Inputs, env steps.Env
 	}
 	env.Note("caution: %s", validationCaution)
 	return art, nil
+}
+
+// timingOf summarises, per planet of the fit, its transit times about their linear
+// ephemeris; a planet without an ephemeris gets a zero Timing (no degrees of freedom).
+func timingOf(fa *fit.Artifact) []Timing {
+	out := make([]Timing, len(fa.Times))
+	for j, pt := range fa.Times {
+		if pt.Err != "" {
+			continue
+		}
+		e := pt.Ephemeris
+		tm := Timing{Transits: len(e.Rows), Chi2: e.Chi2, Dof: e.Dof, PValue: e.PValue}
+		var excess float64
+		for _, r := range e.Rows {
+			excess += r.OC*r.OC - r.SigmaOC*r.SigmaOC
+		}
+		if len(e.Rows) > 0 && excess > 0 {
+			tm.Scatter = math.Sqrt(excess/float64(len(e.Rows))) / (24 * 60) // O−C is in minutes
+		}
+		out[j] = tm
+	}
+	return out
 }

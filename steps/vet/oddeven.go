@@ -21,6 +21,9 @@ import (
 // the deeper transits (0 even, 1 odd), else −1.
 func (v *vetter) oddEven(tg *target, w []float64, scale float64) (Test, int64) {
 	const name = "odd_even"
+	if tg.single != "" {
+		return notRun(name, "cannot be tested: "+tg.single+"; there is no second dip to compare"), -1
+	}
 	eph := tg.eph
 	transits := [2]map[int64]bool{{}, {}}
 	group := func(i int) int {
@@ -36,7 +39,7 @@ func (v *vetter) oddEven(tg *target, w []float64, scale float64) (Test, int64) {
 	}
 	r := boxmodel.Fit(v.f, w, 2, group)
 	if r.Points[0] == 0 || r.Points[1] == 0 || math.IsNaN(r.Level) {
-		return notRun(name, fmt.Sprintf("the light curve has %d even- and %d odd-numbered transits with data; both are needed", len(transits[0]), len(transits[1]))), -1
+		return notRun(name, fmt.Sprintf("cannot be tested: the light curve has %d even- and %d odd-numbered transits with data; both parities are needed", len(transits[0]), len(transits[1]))), -1
 	}
 	jitter, dof := v.transitScatter(eph, w, scale)
 	diff := r.Depth[1] - r.Depth[0]
@@ -73,11 +76,9 @@ func (v *vetter) oddEven(tg *target, w []float64, scale float64) (Test, int64) {
 // the expected (common practice for a variance from few points).
 const minScatterDOF = 4
 
-// transitScatter returns √(χ²/ν), at least 1, of the single transits' box depths about the
-// mean depth of their parity (each with its own error, scaled), ν the number of transits
-// with data less two; 1 when ν < minScatterDOF. The depths come from one boxmodel fit with
-// a depth per transit and the level shared.
-func (v *vetter) transitScatter(eph boxmodel.Ephemeris, w []float64, scale float64) (factor float64, dof int) {
+// perTransit fits one box depth per transit with data (the level shared) and returns the
+// transits' cycle numbers in the order first met and the fit, group g being cycles[g].
+func (v *vetter) perTransit(eph boxmodel.Ephemeris, w []float64) ([]int64, boxmodel.Result) {
 	index := map[int64]int{}
 	var cycles []int64
 	for i := range v.t {
@@ -96,6 +97,15 @@ func (v *vetter) transitScatter(eph boxmodel.Ephemeris, w []float64, scale float
 		}
 		return -1
 	})
+	return cycles, r
+}
+
+// transitScatter returns √(χ²/ν), at least 1, of the single transits' box depths about the
+// mean depth of their parity (each with its own error, scaled), ν the number of transits
+// with data less two; 1 when ν < minScatterDOF. The depths come from one boxmodel fit with
+// a depth per transit and the level shared.
+func (v *vetter) transitScatter(eph boxmodel.Ephemeris, w []float64, scale float64) (factor float64, dof int) {
+	cycles, r := v.perTransit(eph, w)
 	var sw, swd [2]float64
 	for g, n := range cycles {
 		if r.Points[g] > 0 && !math.IsNaN(r.Depth[g]) {
@@ -118,4 +128,61 @@ func (v *vetter) transitScatter(eph boxmodel.Ephemeris, w []float64, scale float
 		return 1, dof
 	}
 	return math.Max(1, math.Sqrt(chi2/float64(dof))), dof
+}
+
+// noDipSigma is the significance below which the other transits together are said to show
+// no dip: 2 σ, the usual bound for "not detected" (common practice).
+const noDipSigma = 2.0
+
+// singleTransit says, when the dip rests on one transit, where that transit is and that
+// the period is not measured; "" otherwise. It does so when the light curve holds one
+// transit with data and it shows a dip, or when one transit shows a dip at odd_even_sigma,
+// the other transits together show none (their mean depth below noDipSigma of its error)
+// and they are shallower than it by odd_even_sigma: a second dip is then not in the data,
+// not merely lost in the noise, so the signal is one event and its period is the search's
+// guess. Errors are scaled by the noise scale.
+func (v *vetter) singleTransit(tg *target, w []float64, scale float64) string {
+	eph := tg.eph
+	cycles, r := v.perTransit(eph, w)
+	best := -1
+	for g := range cycles {
+		if r.Points[g] == 0 || math.IsNaN(r.Depth[g]) || !(r.Sigma[g] > 0) {
+			continue
+		}
+		if best < 0 || r.Depth[g]/r.Sigma[g] > r.Depth[best]/r.Sigma[best] {
+			best = g
+		}
+	}
+	if best < 0 {
+		return ""
+	}
+	d1, s1 := r.Depth[best], scale*r.Sigma[best]
+	if d1/s1 < v.o.OddEvenSigma {
+		return ""
+	}
+	at := fmt.Sprintf("%.2f %s", eph.Epoch+float64(cycles[best])*eph.Period, v.d.Light.Frame().Since())
+	var sw, swd float64
+	others := 0
+	for g := range cycles {
+		if g == best || r.Points[g] == 0 || math.IsNaN(r.Depth[g]) || !(r.Sigma[g] > 0) {
+			continue
+		}
+		wg := 1 / (scale * scale * r.Sigma[g] * r.Sigma[g])
+		sw += wg
+		swd += wg * r.Depth[g]
+		others++
+	}
+	if others == 0 {
+		return fmt.Sprintf("the dip rests on one transit, at %s, the only one with data: the period is not measured", at)
+	}
+	dr, sr := swd/sw, 1/math.Sqrt(sw)
+	if dr/sr >= noDipSigma || (d1-dr)/math.Hypot(s1, sr) < v.o.OddEvenSigma {
+		return ""
+	}
+	rest := fmt.Sprintf("the other %d transits with data show none together", others)
+	if others == 1 {
+		rest = "the other transit with data shows none"
+	}
+	return fmt.Sprintf("the dip rests on one transit, at %s (%s deep); %s (%s ± %s): the period is not measured",
+		at, ppm(d1), rest, ppm(dr), ppm(sr))
 }

@@ -116,6 +116,9 @@ func (Kind) Present(_ *Config, art steps.Artifact, _ steps.Inputs) (steps.Presen
 		if s.FitNote != "" {
 			t.Notes = append(t.Notes, s.Name+": "+s.FitNote)
 		}
+		if s.Single != "" {
+			t.Notes = append(t.Notes, s.Name+": "+s.Single+".")
+		}
 		if !math.IsNaN(s.NoiseScale) {
 			t.Notes = append(t.Notes, fmt.Sprintf("%s: the box fits' errors are the stated ones times %.3g (the scatter outside the transits over the stated errors).", s.Name, s.NoiseScale))
 		}

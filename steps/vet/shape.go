@@ -46,7 +46,9 @@ func (v *vetter) shape(tg *target, w []float64, scale float64) Test {
 // shapeFromFit gives the posterior probability of a grazing chord, b + k > 1. Its rule:
 // a caution when that probability reaches GrazingProbability (default ½: grazing is then
 // more likely than not). Never "disagree": grazing planets exist, though a grazing
-// binary fits such a dip as well, and a grazing planet's k is poorly measured.
+// binary fits such a dip as well, and a grazing planet's k is poorly measured. When the
+// fit's transit times vary enough to smear the stacked transit (timingOf), the reason says
+// that the V may be the smear's rather than a grazing binary's.
 func (v *vetter) shapeFromFit(tg *target) Test {
 	const name = "shape"
 	p := tg.post
@@ -70,6 +72,11 @@ func (v *vetter) shapeFromFit(tg *target) Test {
 		}}
 	if share >= v.o.GrazingProbability {
 		t.Verdict = steps.VerdictCaution
+		if tg.ttv != "" {
+			t.Reason = fmt.Sprintf("%.0f %% of the fit's samples graze the star (b + k > 1), a V-shaped dip", 100*share) +
+				tg.timingCaveat("the V shape and the grazing chord (and so k and b) may be the smear's work rather than a grazing binary's")
+			return t
+		}
 		t.Reason = fmt.Sprintf("%.0f %% of the fit's samples graze the star (b + k > 1): a V-shaped dip, as a grazing binary gives; a grazing planet's radius is poorly measured", 100*share)
 		return t
 	}

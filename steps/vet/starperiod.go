@@ -62,7 +62,9 @@ type starMatch struct {
 }
 
 // starPeriod compares the signal's period with each of the star's periods, their
-// harmonics and multiples. Its rule: within the tolerance of any is a caution; at P★ or
+// harmonics and multiples. Its rule: within the tolerance of any is a caution (the
+// coincidence and what to check; "probably not a transit" only when other tests point
+// there too, starResidualAlso); at P★ or
 // P★/k where the star's semi-amplitude is at least variability_depth_ratio times the dip's
 // depth the data disagree, because a windowed trend easily leaves a tenth of the star's
 // modulation at its own period and harmonics (see defaultVariabilityRatio); elsewhere the
@@ -134,7 +136,8 @@ func (v *vetter) starPeriod(tg *target) Test {
 			lead, amp/depth, ppm(depth))
 	case shown.mult.harmonic():
 		t.Verdict = steps.VerdictCaution
-		t.Reason = lead + ": it is probably what the detrend left of the star, not a transit" + v.weakStar(amp, depth)
+		t.Reason = lead + ": the dip may be what the detrend left of the star; check that it keeps its depth and shape with another detrend window" + v.weakStar(amp, depth)
+		tg.starResidual = !(depth > 0 && amp < depth)
 	default:
 		t.Verdict = steps.VerdictCaution
 		t.Reason = lead + ": folded over several of the star's cycles, what the detrend left of the star can make a dip here; or it is a coincidence" + v.weakStar(amp, depth)
@@ -230,4 +233,30 @@ func longestStretch(lc *lightcurve.LightCurve) float64 {
 		}
 	}
 	return longest
+}
+
+// starResidualAlso adds to a star-period caution at P★ or a fraction of it, when another
+// test also speaks against a transit (the shape gives a caution, or the stellar density a
+// caution or a disagreement), that the dip is then probably the star's, not a transit.
+func starResidualAlso(tg *target, s *Signal) {
+	if !tg.starResidual {
+		return
+	}
+	var also []string
+	var star *Test
+	for k := range s.Tests {
+		t := &s.Tests[k]
+		switch {
+		case t.Name == "star_period":
+			star = t
+		case t.Name == "shape" && t.Verdict == steps.VerdictCaution:
+			also = append(also, "its shape")
+		case t.Name == "density" && (t.Verdict == steps.VerdictCaution || t.Verdict == steps.VerdictDisagree):
+			also = append(also, "the stellar density")
+		}
+	}
+	if star == nil || star.Verdict != steps.VerdictCaution || len(also) == 0 {
+		return
+	}
+	star.Reason += "; with " + strings.Join(also, " and ") + " also against a transit, it is probably what the detrend left of the star, not a transit"
 }

@@ -45,6 +45,22 @@ type Data struct {
 	// log-uniform one (e.g. "star_density log_normal(1.1, 0.05)" in coupled mode), or "":
 	// its density is then not independent of the star's.
 	FitDensityPrior string
+	// Timing holds, per planet of the fit in its order, how its per-transit mid-times scatter
+	// about one linear ephemeris; nil when the fit gives none.
+	Timing []Timing
+}
+
+// Timing is how one fitted planet's transit mid-times, measured one by one with the shape
+// fixed, scatter about a linear ephemeris: the χ² and its degrees of freedom and p-value,
+// and the scatter beyond their errors.
+type Timing struct {
+	Transits int     // transits timed
+	Chi2     float64 // χ² about the linear ephemeris
+	Dof      int     // degrees of freedom, timed transits − 2
+	PValue   float64 // P(χ²_dof ≥ Chi2); NaN when Dof = 0
+	// Scatter is the excess root-mean-square of the O−C in days, √(max(0, mean(O−C² − σ²))):
+	// how far the transits move about one period beyond what their errors explain.
+	Scatter float64
 }
 
 // Options holds the thresholds; the kind documents each default and its source.
@@ -114,6 +130,15 @@ type target struct {
 	planet  string
 	post    *planetDraws
 	fitNote string
+	// ttv, when not empty, says that the fit's transit times vary enough to smear the
+	// transit stacked on one period (smearedByTiming); the shape, density and radius
+	// verdicts then say so.
+	ttv string
+	// single, when not empty, says that the dip rests on one transit (singleTransit).
+	single string
+	// starResidual says that the star-period test gave a caution at P★ or a fraction of it
+	// with the star's modulation no smaller than the dip (starResidualAlso).
+	starResidual bool
 }
 
 // vetter holds the light curve flattened, with the signals and options.
@@ -137,6 +162,7 @@ func newVetter(d Data, o Options) *vetter {
 			eph: boxmodel.Ephemeris{Period: s.Period, Epoch: s.Epoch, Duration: s.Duration}}
 		if d.Fit != nil {
 			v.matchFit(tg)
+			v.timingOf(tg)
 		}
 		v.targets = append(v.targets, tg)
 	}
@@ -152,11 +178,14 @@ func (v *vetter) vetOne(tg *target) Signal {
 			s.Tests = append(s.Tests, notRun(name, why))
 		}
 		s.Tests = append(s.Tests, v.density(tg), v.blend(tg), v.periodRatio(tg), v.radius(tg), v.starPeriod(tg))
+		starResidualAlso(tg, &s)
 		return s
 	}
 	w := v.weights(tg, false)
 	scale := v.noiseScale(tg)
 	s.NoiseScale = scale
+	tg.single = v.singleTransit(tg, w, scale)
+	s.Single = tg.single
 	oe, deeper := v.oddEven(tg, w, scale)
 	s.Tests = append(s.Tests, oe)
 	s.Tests = append(s.Tests, v.secondary(tg, scale, deeper))
@@ -164,6 +193,7 @@ func (v *vetter) vetOne(tg *target) Signal {
 	s.Tests = append(s.Tests, v.density(tg), v.blend(tg))
 	s.Tests = append(s.Tests, v.depth(tg, w, scale))
 	s.Tests = append(s.Tests, v.periodRatio(tg), v.radius(tg), v.starPeriod(tg))
+	starResidualAlso(tg, &s)
 	return s
 }
 
