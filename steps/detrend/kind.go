@@ -40,7 +40,7 @@ var (
 )
 
 // version is bumped whenever the numbers or the encoding change.
-const version = 8 // 6: a masked pass's window: bias judged against its own error, a floor of 5 masked stretches, bins a whole number of cadences; a light curve too sparse for its window refused. 7: a masked pass's caution kept in the result. 8: the local polynomial fitted at anchors 1/64 of a window apart where points are denser, interpolated between
+const version = 9 // 6: a masked pass's window: bias judged against its own error, a floor of 5 masked stretches, bins a whole number of cadences; a light curve too sparse for its window refused. 7: a masked pass's caution kept in the result. 8: the local polynomial fitted at anchors 1/64 of a window apart where points are denser, interpolated between. 9: a masked pass narrower than the floor, down to 2 masked stretches, when no window that wide follows the star
 
 // The estimator names written in a workflow.
 const (
@@ -99,6 +99,12 @@ const (
 	// plain fit's Σℓ² with and without the hole, worked from its normal equations
 	// (TestMaskedFloorKeepsTheTrendFromBothSides).
 	maskedWindows = 5.0
+	// leastWindows is how far below maskedWindows a masked pass's window may go when no
+	// window that wide follows the star (a fast rotator): at 2 stretches per window the
+	// trend under a masked stretch has 13 times the variance it has elsewhere, far less harm
+	// than a trend that cannot follow the star (a 0.35 d rotator's 0.5 d window left a bias
+	// of 7500 ppm, 67 times the noise, and the searches after it found spurious dips).
+	leastWindows = 2.0
 	// honestNoise is the least share of the white noise averaged over a transit duration
 	// that a masked pass may leave in the detrended light curve before its notes warn: a
 	// search divides the depth by the out-of-transit scatter on that time scale, which a
@@ -393,16 +399,16 @@ func trend(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool *s
 			stretch*24, span*24))
 	}
 	par := parOf(pool)
-	biased := false
+	var doubt spanDoubt
 	if rc.Span == 0 {
-		rc.Span, scale, biased = chooseSpan(series, cfg.Degree, stretch, dur, gap, par, &notes)
+		rc.Span, scale, doubt = chooseSpan(series, cfg.Degree, stretch, dur, gap, par, &notes)
 	}
 	out := robust.Detrend(rc, series, par)
 	res := newResult(lc, out, cfg.Estimator, scale, gap)
 	if cfg.Estimator == estLocal {
 		res.Degree = cfg.Degree
 		if stretch > 0 {
-			res.Caution = maskedCaution(rc.Span, dur, cfg.Degree, biased)
+			res.Caution = maskedCaution(rc.Span, dur, cfg.Degree, doubt)
 		}
 	}
 	return res, out, notes
@@ -414,7 +420,7 @@ func trend(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool *s
 // a note; when the data cannot tell it keeps defaultSpan, or in a masked pass the floor if
 // wider, and says so. A masked pass's window is at least maskedWindows stretches; when the
 // window taken may bias the depths and signal to noise measured after it, a note says so.
-func chooseSpan(series []robust.Series, degree int, stretch, dur, gap float64, par parallel.Func, notes *[]string) (span, scale float64, biased bool) {
+func chooseSpan(series []robust.Series, degree int, stretch, dur, gap float64, par parallel.Func, notes *[]string) (span, scale float64, doubt spanDoubt) {
 	goal, why := robust.KeepTransits, "keeps the most of an unmasked 2-hour transit's signal to noise for the bias the star's variability leaves"
 	floor := maskedWindows * stretch
 	if stretch > 0 {
@@ -429,7 +435,7 @@ func chooseSpan(series []robust.Series, degree int, stretch, dur, gap float64, p
 			why += fmt.Sprintf("; %g times the longest masked stretch, %.3g h", maskedWindows, stretch*24)
 		}
 		*notes = append(*notes, fmt.Sprintf("span: %.3g d (%s)", span, why))
-		return span, span, false
+		return span, span, doubt
 	}
 	var tried []string
 	for _, tr := range ch.Trials {
@@ -438,6 +444,12 @@ func chooseSpan(series []robust.Series, degree int, stretch, dur, gap float64, p
 			t += ", under the floor"
 		}
 		tried = append(tried, t)
+	}
+	if narrow, ok := narrowerQuiet(ch, stretch); ok && !ch.Negligible {
+		doubt.holeVariance = robust.HoleVariance(narrow, stretch, degree)
+		*notes = append(*notes, fmt.Sprintf("span: %.3g d, chosen from the light curve: narrower than %g times the longest masked stretch (%.3g h), because no window that wide follows the star; it is the widest, of those at least %g stretches, whose bias is not shown to exceed a tenth of the noise, and the trend under a masked stretch has %.2g times the variance it has elsewhere (noise per 2 h %.0f ppm; tried %s)",
+			narrow, maskedWindows, stretch*24, leastWindows, doubt.holeVariance, ch.Noise*1e6, strings.Join(tried, "; ")))
+		return narrow, narrow, doubt
 	}
 	switch {
 	case ch.Floored:
@@ -450,7 +462,29 @@ func chooseSpan(series []robust.Series, degree int, stretch, dur, gap float64, p
 		*notes = append(*notes, fmt.Sprintf("span: %.3g d, chosen from the light curve: it %s (noise per 2 h %.0f ppm; tried %s)",
 			ch.Span, why, ch.Noise*1e6, strings.Join(tried, "; ")))
 	}
-	return ch.Span, ch.Span, stretch > 0 && !ch.Negligible
+	doubt.biased = stretch > 0 && !ch.Negligible
+	return ch.Span, ch.Span, doubt
+}
+
+// spanDoubt is what a masked pass's window may do to the depths measured after it: a bias
+// shown above a tenth of the noise (biased), or a window narrower than maskedWindows
+// stretches, taken because no wider one follows the star, under which the trend in a masked
+// stretch has holeVariance times the variance it has elsewhere (0 when not narrowed).
+type spanDoubt struct {
+	biased       bool
+	holeVariance float64
+}
+
+// narrowerQuiet is the widest window of a masked pass's trials from leastWindows masked
+// stretches up to under the floor whose bias is not shown to exceed the negligible level.
+func narrowerQuiet(ch robust.SpanChoice, stretch float64) (float64, bool) {
+	best := 0.0
+	for _, tr := range ch.Trials {
+		if tr.Quiet && !tr.Allowed && tr.Span >= leastWindows*stretch && tr.Span > best {
+			best = tr.Span
+		}
+	}
+	return best, best > 0
 }
 
 // maskedCaution says in plain words, or returns "", when a masked pass's window, chosen or
@@ -459,9 +493,9 @@ func chooseSpan(series []robust.Series, degree int, stretch, dur, gap float64, p
 // masked transits keep, so a search's signal to noise comes out too high
 // (robust.NoiseKept); a trend with a bias shown above a tenth of the noise (biased) shifts
 // the depths.
-func maskedCaution(span, dur float64, degree int, biased bool) string {
+func maskedCaution(span, dur float64, degree int, doubt spanDoubt) string {
 	kept := robust.NoiseKept(span, dur, degree)
-	if kept >= honestNoise && !biased {
+	if kept >= honestNoise && !doubt.biased && doubt.holeVariance == 0 {
 		return ""
 	}
 	var why []string
@@ -469,7 +503,11 @@ func maskedCaution(span, dur float64, degree int, biased bool) string {
 		why = append(why, fmt.Sprintf("the %.3g d window keeps only %.0f %% of the noise averaged over the %.3g-hour transits outside them, while the masked transits keep all of theirs, so a search's signal to noise may come out up to %.0f %% too high",
 			span, 100*kept, dur*24, 100*(1/kept-1)))
 	}
-	if biased {
+	if doubt.holeVariance > 0 {
+		why = append(why, fmt.Sprintf("the star varies too fast for a window of %g masked stretches, and in the %.3g d window taken the trend under the masked transits has %.2g times the variance it has elsewhere, so their depths carry that extra noise",
+			maskedWindows, span, doubt.holeVariance))
+	}
+	if doubt.biased {
 		why = append(why, "the star varies too fast for any window tried to follow it with a negligible bias, so the trend under the masked transits may be off and their depths with it")
 	}
 	return "depths and signal-to-noise ratios measured on this light curve may be biased: " + strings.Join(why, "; ") + ". A search on it is best compared with the first, unmasked pass."

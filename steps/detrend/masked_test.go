@@ -150,3 +150,53 @@ func TestTooSparseForTheWindowIsRefused(t *testing.T) {
 		t.Errorf("not a bad-input error (exit status 2): %v", err)
 	}
 }
+
+// A fast rotator (0.35 d, 3 %, the probe's case c06 in our own invented data): no window of
+// five masked stretches follows it (the 0.5 d one left 7500 ppm of bias, 67 times the
+// noise, and the searches after it found spurious dips), so the masked pass goes down to
+// the widest window from two stretches that does follow it, and its caution says what the
+// narrower window costs. The residuals away from the transits then stay at the noise.
+func TestAFastRotatorsMaskedPassFollowsTheStar(t *testing.T) {
+	const period, epoch, dur = 1.5, 0.7, 1.84 / 24 / 1.5 // masked stretches of 1.84 h at the default 1.5 durations
+	s := synth.Curve{Span: 27, Cadence: 2.0 / 1440, Noise: 1000e-6, Seed: 6,
+		Star: synth.Rotation{Period: 0.35, Amplitudes: []float64{0.03}},
+		Dips: []synth.Signal{synth.Box{Period: period, Epoch: epoch, Duration: dur, Depth: 1500e-6}}}.Make()
+	lc := &lightcurve.LightCurve{TimeScale: "BJD_TDB", RefInt: 2460000, Segments: []lightcurve.Segment{{
+		ID: "1", Band: "survey-red", Exposure: 2.0 / 1440, Contamination: math.NaN(),
+		Time: s.Time, Flux: s.Flux, Err: s.Err}}}
+	res, notes := run(t, nil, lc, []signals.Signal{{Period: period, Epoch: epoch, Duration: dur, Depth: 1500e-6}}, 2)
+	stretch := 1.5 * dur
+	if res.Scale >= maskedWindows*stretch || res.Scale < leastWindows*stretch {
+		t.Fatalf("masked window %.3g d; want from %.3g to under %.3g d (2 to 5 masked stretches); notes %q",
+			res.Scale, leastWindows*stretch, maskedWindows*stretch, notes)
+	}
+	c := res.Cautions()
+	if len(c) != 1 || !strings.Contains(c[0], "times the variance it has elsewhere") {
+		t.Errorf("cautions %q; want one naming the narrower window's cost", c)
+	}
+	// Away from the transits the detrended flux scatters near the white noise (a quadratic
+	// over 0.25 d cannot follow 0.7 of the star's turn exactly), and far below what the
+	// floor's 0.5 d window leaves.
+	sig := []signals.Signal{{Period: period, Epoch: epoch, Duration: dur, Depth: 1500e-6}}
+	floored, _ := run(t, map[string]any{"span": "0.5 d"}, lc, sig, 2)
+	chosen, old := residualRMS(res.Curve, period, epoch, dur), residualRMS(floored.Curve, period, epoch, dur)
+	t.Logf("residual scatter %.0f ppm; %.0f ppm at the floor's 0.5 d", chosen*1e6, old*1e6)
+	if chosen > 1.5*1000e-6 || old < 3*chosen {
+		t.Errorf("residual scatter away from the transits %.0f ppm (noise 1000 ppm); %.0f ppm at the floor's 0.5 d", chosen*1e6, old*1e6)
+	}
+}
+
+// residualRMS is the scatter of a detrended curve about 1 farther than two durations from
+// the transits of the ephemeris.
+func residualRMS(c *lightcurve.LightCurve, period, epoch, dur float64) float64 {
+	out := c.Segments[0]
+	ss, n := 0.0, 0
+	for i, tm := range out.Time {
+		if math.Abs(math.Remainder(tm-epoch, period)) < 2*dur {
+			continue
+		}
+		ss += (out.Flux[i] - 1) * (out.Flux[i] - 1)
+		n++
+	}
+	return math.Sqrt(ss / float64(n))
+}

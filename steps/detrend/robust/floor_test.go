@@ -1,9 +1,6 @@
 package robust
 
-import (
-	"math"
-	"testing"
-)
+import "testing"
 
 // The floor of a masked pass (the detrend kind's maskedWindows, 5 masked stretches): the
 // variance of the plain local quadratic's trend at the middle of a masked stretch, against a
@@ -11,10 +8,10 @@ import (
 // normal equations. At 5 stretches per window it is about 2 (the trend still read from
 // both sides); at 1.2, the window the chooser took on white noise, hundreds.
 func TestMaskedFloorKeepsTheTrendFromBothSides(t *testing.T) {
-	if r := holeVar(1, 1.0/5, 2); r > 2.2 {
+	if r := HoleVariance(1, 1.0/5, 2); r > 2.2 {
 		t.Errorf("5 stretches per window: variance ×%.2f, want ≤ 2.2", r)
 	}
-	if r := holeVar(1, 1/1.2, 2); r < 100 {
+	if r := HoleVariance(1, 1/1.2, 2); r < 100 {
 		t.Errorf("1.2 stretches per window: variance ×%.0f, want > 100", r)
 	}
 }
@@ -28,31 +25,4 @@ func TestNoiseKept(t *testing.T) {
 	if k := NoiseKept(0.2, 0.1, 2); k > 0.4 {
 		t.Errorf("2 durations: %.3f", k)
 	}
-}
-
-// holeVar is the variance of the trend at the centre of a hole of width m in a window of
-// width w, relative to no hole (plain fit, an even grid of 2001 points).
-func holeVar(w, m float64, degree int) float64 {
-	step := w / 2000
-	v := func(hole float64) float64 {
-		var st localStat
-		var us []float64
-		for j := -1000; j <= 1000; j++ {
-			off := float64(j) * step
-			if math.Abs(off) < hole/2 {
-				continue
-			}
-			u := off / (w / 2)
-			us = append(us, u)
-			st.addMoments(u, tricube(u))
-		}
-		c := st.centreWeights(degree)
-		s := 0.0
-		for _, u := range us {
-			l := tricube(u) * (c[0] + c[1]*u + c[2]*u*u)
-			s += l * l
-		}
-		return s
-	}
-	return v(m) / v(0)
 }

@@ -88,6 +88,9 @@ type SpanTrial struct {
 	// transit (KeepTransits), or the span itself when the bias is not shown to exceed the
 	// negligible level and 0 when it is (FollowStar); 0 for a window under the floor.
 	Score float64
+	// Quiet is true when the window's bias is not shown to exceed the negligible level
+	// (FollowStar), whether or not the floor allows it.
+	Quiet bool
 }
 
 // SpanChoice is ChooseSpan's answer with its evidence.
@@ -176,8 +179,6 @@ func ChooseSpan(series []Series, degree int, goal SpanGoal, ref, floor, gapOver 
 		tr.Bias = math.Sqrt(max(0, bias2))
 		tr.BiasErr = math.Sqrt(se / trimSmooth)
 		switch {
-		case !tr.Allowed:
-			tr.Score = 0
 		case goal == KeepTransits:
 			tr.Score = tr.Kept / math.Hypot(choice.Noise, tr.Bias)
 		default:
@@ -185,9 +186,13 @@ func ChooseSpan(series []Series, degree int, goal SpanGoal, ref, floor, gapOver 
 			// widest has the least noise.
 			tr.Score = 0
 			lim := negligibleBias * choice.Noise
-			if bias2-significance*tr.BiasErr*tr.BiasErr <= lim*lim {
+			tr.Quiet = bias2-significance*tr.BiasErr*tr.BiasErr <= lim*lim
+			if tr.Quiet {
 				tr.Score = tr.Span
 			}
+		}
+		if !tr.Allowed {
+			tr.Score = 0 // a window under the floor is never chosen here
 		}
 		choice.Trials = append(choice.Trials, tr)
 		if !tr.Allowed {
@@ -489,4 +494,33 @@ func NoiseKept(span, d float64, degree int) float64 {
 		sb += box(i) * box(i)
 	}
 	return math.Sqrt(sr / sb)
+}
+
+// HoleVariance is the variance of the local polynomial's trend at the centre of a hole of
+// width m (a masked stretch) in a window of width w, relative to no hole: the ratio of the
+// plain fit's Σℓ² with and without the hole, from its normal equations on an even grid of
+// 2001 points.
+func HoleVariance(w, m float64, degree int) float64 {
+	step := w / 2000
+	v := func(hole float64) float64 {
+		var st localStat
+		var us []float64
+		for j := -1000; j <= 1000; j++ {
+			off := float64(j) * step
+			if math.Abs(off) < hole/2 {
+				continue
+			}
+			u := off / (w / 2)
+			us = append(us, u)
+			st.addMoments(u, tricube(u))
+		}
+		c := st.centreWeights(degree)
+		s := 0.0
+		for _, u := range us {
+			l := tricube(u) * (c[0] + c[1]*u + c[2]*u*u)
+			s += l * l
+		}
+		return s
+	}
+	return v(m) / v(0)
 }
