@@ -48,7 +48,7 @@ type Artifact struct {
 	// period d, t0 d, k, b, and secosw, sesinw = √e cos ω, √e sin ω for eccentric orbits;
 	// then log10_star_density, dilution when sampled, q1, q2 per band — "q1[band]" for a
 	// named band — and ln jitter per segment), then the parameters the workflow fixed
-	// (constant columns), then the derived star_density g/cm³ and per planet depth (k²),
+	// (constant columns), then the derived star_density g/cm³ and per planet the transit depth,
 	// a_over_rstar, t14 (d) and, for eccentric orbits, e and omega (deg).
 	Names   []string
 	Sampled int
@@ -147,7 +147,7 @@ func (a *Artifact) Figures() []steps.Figure {
 		add(p+"t0", p+"t0", "d", fmt.Sprintf("mid-transit time at the reference epoch (transit %d after the search's epoch), %s", a.Reference[j].Transit, frame), 1)
 		add(p+"k", p+"k", "", "radius ratio Rp/R*", 1)
 		add(p+"b", p+"b", "", "impact parameter", 1)
-		add(p+"depth", p+"depth", "ppm", "k², the occulted area fraction", 1e6)
+		add(p+"depth", p+"depth", "ppm", "transit depth: the fraction of the light lost at mid-transit, with the limb darkening of the first band and any fitted dilution (k² only for a central transit without limb darkening; a grazing transit is shallower)", 1e6)
 		ecc := a.column(p+"e") >= 0
 		if ecc {
 			add(p+"a_over_rstar", p+"a_over_rstar", "", "a/R* from the star's density and the period (Kepler's third law)", 1)

@@ -17,6 +17,7 @@ import (
 	"dipline/steps/internal/rng"
 	"dipline/steps/internal/sampler"
 	"dipline/steps/internal/signals"
+	"dipline/steps/internal/transit"
 )
 
 // Limits and fixed choices, each with its reason.
@@ -425,7 +426,7 @@ func (m *Model) disperseOrbits(x []float64, r *rng.Stream) {
 
 // columns names the columns of the artifact: the sampled parameters, the user-fixed ones
 // (constant columns, so that readers find them by name), then the derived ones: the star's
-// density, and per planet its depth k², a/R*, T14, and for eccentric orbits e and ω (deg).
+// density, and per planet its transit depth, a/R*, T14, and for eccentric orbits e and ω (deg).
 func (m *Model) columns() []string {
 	var n []string
 	for _, i := range m.free {
@@ -488,6 +489,7 @@ func (m *Model) row(x []float64) []float64 {
 		}
 	}
 	out = append(out, rho)
+	u1, u2 := transit.QuadraticFromKipping(full[lay.Q1(0)], full[lay.Q2(0)])
 	for j := 0; j < m.planets; j++ {
 		period, k := full[lay.Period(j)], full[lay.K(j)]
 		aR := ScaledAxis(period, rho)
@@ -499,12 +501,23 @@ func (m *Model) row(x []float64) []float64 {
 		if err != nil {
 			t14 = 0
 		}
-		out = append(out, k*k, aR, t14)
+		out = append(out, transitDepth(k, full[lay.B(j)], u1, u2, full[lay.Dilution()]), aR, t14)
 		if m.ecc[j] {
 			out = append(out, e, w*180/math.Pi)
 		}
 	}
 	return out
+}
+
+// transitDepth is the fraction of the light lost at mid-transit, where the planet's centre
+// is b stellar radii from the star's (Mandel & Agol 2002 with quadratic limb darkening
+// u1, u2), diluted by the other stars' flux D: (1 − F(b))/(1 + D). It is about
+// k²/(1 − u1/3 − u2/6) for a small planet crossing the centre, and less than k² for a
+// grazing one, where k² would overstate it many times.
+func transitDepth(k, b, u1, u2, dil float64) float64 {
+	var z [1]float64
+	z[0] = math.Abs(b)
+	return (1 - transit.Flux(nil, z[:], k, u1, u2)[0]) / (1 + dil)
 }
 
 // quantiles returns the 16th, 50th and 84th percentiles of v (sorted copy, linear

@@ -431,3 +431,29 @@ func TestAStopEndsTheOptimisation(t *testing.T) {
 		t.Errorf("Fit stopped during its optimisation returned %v", err)
 	}
 }
+
+// The depth reported is the light lost at mid-transit, not k²: for a small planet across
+// the centre it is k² I(1)/⟨I⟩ = k²/(1 − u1/3 − u2/6) (Mandel & Agol 2002, their small-planet
+// limit), diluted by 1/(1 + D); a grazing planet (b = 1, half its disc on the star) loses
+// far less than k², which a 2 % grazing eclipse once reported as 66,559 ppm.
+func TestTheDepthIsTheLightLostAtMidTransit(t *testing.T) {
+	const k, u1, u2 = 0.02, 0.4, 0.25
+	central := k * k / (1 - u1/3 - u2/6)
+	if got := transitDepth(k, 0, u1, u2, 0); math.Abs(got/central-1) > 0.01 {
+		t.Errorf("central depth %.6g, want %.6g within 1 %%", got, central)
+	}
+	if got := transitDepth(k, 0, u1, u2, 0.5); math.Abs(got/(central/1.5)-1) > 0.01 {
+		t.Errorf("diluted depth %.6g, want %.6g", got, central/1.5)
+	}
+	// Grazing, b = 1, k = 0.1: the light of the star inside the planet's disc, integrated
+	// numerically with python3-scipy (integrate.dblquad of the quadratic-law intensity over
+	// the disc, over the star's flux π(1 − u1/3 − u2/6)): 0.00338565. The central case by
+	// the same quadrature: 0.000484829.
+	if got := transitDepth(k, 0, u1, u2, 0); math.Abs(got/0.000484829-1) > 1e-4 {
+		t.Errorf("central depth %.9g, want 0.000484829 (quadrature)", got)
+	}
+	grazing := transitDepth(0.1, 1, u1, u2, 0)
+	if !(grazing < 0.01/2) || math.Abs(grazing/0.00338565-1) > 1e-4 {
+		t.Errorf("grazing depth %.9g: want 0.00338565 (quadrature), well under k² = 0.01", grazing)
+	}
+}

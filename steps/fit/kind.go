@@ -55,7 +55,7 @@ func New() steps.Kind { return steps.Define[Config](Kind{}) }
 var _ steps.Typed[Config] = Kind{}
 
 // version is bumped whenever the numbers or the encoding change.
-const version = 9
+const version = 10 // 10: the reported depth is the light lost at mid-transit (not k²); per-transit time errors are the likelihood's spread (not Δχ² = 1)
 
 // Defaults, each with its reason.
 const (

@@ -502,7 +502,7 @@ func label(name string) string {
 	words := map[string]string{
 		"period": "period (d)", "t0": "mid-transit time (d)", "k": "radius ratio k",
 		"b": "impact parameter b", "secosw": "√e cos ω", "sesinw": "√e sin ω", "t14": "total duration (d)",
-		"depth": "depth k²", "a_over_rstar": "a/R*", "e": "eccentricity", "omega": "ω (deg)",
+		"depth": "depth", "a_over_rstar": "a/R*", "e": "eccentricity", "omega": "ω (deg)",
 	}
 	if w, ok := words[par]; ok {
 		return planet + ": " + w

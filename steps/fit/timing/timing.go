@@ -38,6 +38,13 @@ const (
 	bisectIters = 20
 	// maxGrid bounds the grid steps so a mistaken step cannot exhaust memory or time.
 	maxGrid = 100000
+	// fineReach and finePerSigma set the fine grid of the error integral: it spans
+	// fineReach Δχ² = 1 half-widths on each side of the best shift with finePerSigma points
+	// per half-width, so the trapezoid sum of a Gaussian likelihood is exact to well below
+	// 1 % (the mass beyond 8σ is 10⁻¹⁵; the trapezoid rule's error for a Gaussian falls as
+	// exp(−2π²σ²/h²), negligible at h = σ/8) (our choice, numerical quadrature).
+	fineReach    = 8
+	finePerSigma = 8
 )
 
 // ErrInput marks bad input: lengths, non-finite values, errors not positive, no model.
@@ -83,8 +90,12 @@ type TransitTime struct {
 	Predicted float64 // mid-time at dt = 0, days
 	Time      float64 // measured mid-time Predicted + Shift, days
 	Shift     float64 // best dt, days
-	ErrLow    float64 // one-sigma error below Time (Δχ² = 1 on the low side), days
-	ErrHigh   float64 // one-sigma error above Time, days
+	// ErrLow and ErrHigh are the one-sigma errors below and above Time, days: the root
+	// mean square distance from Time of the likelihood over the search range on each side,
+	// ErrLow² = 2·∫_{dt<Shift}(dt−Shift)²L / ∫L and ErrHigh² likewise (see Measure). For a
+	// parabolic χ² both equal the Δχ² = 1 half-width.
+	ErrLow    float64
+	ErrHigh   float64
 	Chi2      float64 // χ² at the best shift, flux scale profiled
 	Scale     float64 // best flux scale (the model is multiplied by it)
 	Points    int     // points in the window
@@ -94,19 +105,33 @@ type TransitTime struct {
 	Skipped string
 }
 
-// Sigma is the symmetric one-sigma error used in the ephemeris: the mean of ErrLow and
-// ErrHigh.
-func (t TransitTime) Sigma() float64 { return 0.5 * (t.ErrLow + t.ErrHigh) }
+// Sigma is the symmetric one-sigma error used in the ephemeris: √((ErrLow² + ErrHigh²)/2),
+// the root mean square distance of the likelihood from Time over the whole search range.
+func (t TransitTime) Sigma() float64 {
+	return math.Sqrt(0.5 * (t.ErrLow*t.ErrLow + t.ErrHigh*t.ErrHigh))
+}
 
 // Measure times each transit. For each shift dt on a grid over ±MaxShift it computes the χ²
 // of the data against the model times a flux scale s, with s profiled out analytically:
 // χ²(dt) = C − B²/A, A = Σ m²/σ², B = Σ f m/σ², C = Σ f²/σ² (the scale the fit step
 // marginalises; profiling it gives the same minimum and a Δχ² that is a profile likelihood).
-// The best grid point is refined by golden-section search between its neighbours, and the
-// one-sigma errors are where χ² crosses its minimum + 1 on either side, found by walking the
-// grid outward and bisecting. A transit is skipped, with the reason, when it has too few
-// points in or out of transit, when its best shift lies at the search edge, or when a
-// one-sigma interval reaches the edge. Bad input is an error wrapping ErrInput.
+// The best grid point is refined by golden-section search between its neighbours.
+//
+// The errors are the spread of the likelihood L(dt) ∝ exp(−χ²/2)/√A (the flux scale
+// marginalised with a flat prior) over the whole search range, about the best shift: the
+// root mean square of dt − Shift, split into its low and high sides. The Δχ² = 1
+// half-widths, where χ² crosses its minimum + 1 (found by walking the grid outward and
+// bisecting), give the same errors when χ² is a parabola, as it is when the transit is
+// timed to much better than its ingress. They are too small otherwise: when a shallow
+// transit's ingress is noisy or shorter than the cadence, χ²(dt) has several nearly equal
+// minima a few minutes apart, the best one is often the wrong one, and the scatter of the
+// times is about twice the Δχ² = 1 half-width (a Monte-Carlo over white-noise light curves
+// in timing_test.go). The integral counts those other minima. It is a trapezoid sum over the
+// grid, refined near the best shift to an eighth of the Δχ² = 1 half-width.
+//
+// A transit is skipped, with the reason, when it has too few points in or out of transit,
+// when its best shift lies at the search edge, or when a Δχ² = 1 interval reaches the edge.
+// Bad input is an error wrapping ErrInput.
 func Measure(transits []Transit, o Options) ([]TransitTime, error) {
 	if !(o.Duration > 0) || math.IsInf(o.Duration, 0) {
 		return nil, fmt.Errorf("%w: transit duration %v days; need a positive finite duration", ErrInput, o.Duration)
@@ -181,9 +206,11 @@ type fitter struct {
 	w    []float64 // 1/σ²
 	mod  []float64
 	grid []float64 // χ² at dt_k = −MaxShift + k·Step
+	lnA  []float64 // ln A at the grid points
 	lo   float64   // −MaxShift
 	step float64
-	bad  bool // the model gave a non-finite flux or no signal (A ≤ 0)
+	a    float64 // A = Σ m²/σ² of the last χ²
+	bad  bool    // the model gave a non-finite flux or no signal (A ≤ 0)
 }
 
 // chi2 is the χ² at shift dt with the flux scale profiled; it also returns the scale.
@@ -198,8 +225,10 @@ func (f *fitter) chi2(dt float64) (float64, float64) {
 	}
 	if !(A > 0) || math.IsNaN(B) || math.IsInf(A, 0) {
 		f.bad = true
+		f.a = math.NaN()
 		return math.Inf(1), math.NaN()
 	}
+	f.a = A
 	return C - B*B/A, B / A
 }
 
@@ -223,13 +252,14 @@ func measureOne(tr *Transit, o *Options) TransitTime {
 	}
 	K := int(math.Round(2 * o.MaxShift / o.Step))
 	f := &fitter{tr: tr, w: make([]float64, len(tr.Time)), mod: make([]float64, len(tr.Time)),
-		grid: make([]float64, K+1), lo: -o.MaxShift, step: 2 * o.MaxShift / float64(K)}
+		grid: make([]float64, K+1), lnA: make([]float64, K+1), lo: -o.MaxShift, step: 2 * o.MaxShift / float64(K)}
 	for i, e := range tr.Err {
 		f.w[i] = 1 / (e * e)
 	}
 	best := 0
 	for k := range f.grid {
 		f.grid[k], _ = f.chi2(f.at(k))
+		f.lnA[k] = math.Log(f.a)
 		if f.grid[k] < f.grid[best] {
 			best = k
 		}
@@ -258,9 +288,70 @@ func measureOne(tr *Transit, o *Options) TransitTime {
 		r.Skipped = "the model gives no usable flux (not finite, or zero everywhere) near the best shift"
 		return r
 	}
+	lnA := math.Log(f.a)
+	errLow, errHigh := f.spread(dt, c2, lnA, dt-lowCross, highCross-dt)
+	if f.bad {
+		r.Skipped = "the model gives no usable flux (not finite, or zero everywhere) near the best shift"
+		return r
+	}
 	r.Shift, r.Time, r.Chi2, r.Scale = dt, tr.Predicted+dt, c2, scale
-	r.ErrLow, r.ErrHigh = dt-lowCross, highCross-dt
+	r.ErrLow, r.ErrHigh = errLow, errHigh
 	return r
+}
+
+// spread returns the low- and high-side root mean square distances from the best shift dt
+// of the likelihood L ∝ exp(−(χ² − c2)/2)·√(A₀/A) over the search range (c2 and lnA = ln A₀
+// at dt): errLow² = 2·∫_{x<dt}(x−dt)²L dx / ∫L dx, errHigh² likewise, so that for a
+// symmetric L both are its standard deviation and (errLow² + errHigh²)/2 is the mean square
+// distance. The integrals are trapezoid sums over the grid points, with the points within
+// fineReach·sLow below dt and fineReach·sHigh above it (sLow, sHigh: the Δχ² = 1
+// half-widths) replaced by a finer grid through dt, of step min(grid step, s/finePerSigma)
+// on the side of half-width s (at most fineReach·finePerSigma points a side).
+func (f *fitter) spread(dt, c2, lnA, sLow, sHigh float64) (errLow, errHigh float64) {
+	hLow, hHigh := min(f.step, sLow/finePerSigma), min(f.step, sHigh/finePerSigma)
+	a := max(f.lo, dt-fineReach*sLow)
+	b := min(-f.lo, dt+fineReach*sHigh)
+	var m0, m2lo, m2hi float64
+	px, pw, first := 0.0, 0.0, true
+	add := func(x, c, la float64) {
+		w := math.Exp(-0.5*(c-c2) - 0.5*(la-lnA))
+		if !first {
+			// Trapezoid over [px, x]; the fine grid has a point at dt, so no interval
+			// straddles it.
+			d := x - px
+			m0 += 0.5 * d * (pw + w)
+			q := 0.5 * d * (pw*(px-dt)*(px-dt) + w*(x-dt)*(x-dt))
+			if x <= dt {
+				m2lo += q
+			} else {
+				m2hi += q
+			}
+		}
+		px, pw, first = x, w, false
+	}
+	fine := func(x float64) {
+		c, _ := f.chi2(x)
+		add(x, c, math.Log(f.a))
+	}
+	k := 0
+	for ; k < len(f.grid) && f.at(k) < a; k++ {
+		add(f.at(k), f.grid[k], f.lnA[k])
+	}
+	nLow := int(math.Floor((dt - a) / hLow))
+	for i := -nLow; i < 0; i++ {
+		fine(dt + float64(i)*hLow)
+	}
+	add(dt, c2, lnA)
+	nHigh := int(math.Floor((b - dt) / hHigh))
+	for i := 1; i <= nHigh; i++ {
+		fine(dt + float64(i)*hHigh)
+	}
+	for ; k < len(f.grid); k++ {
+		if f.at(k) > b {
+			add(f.at(k), f.grid[k], f.lnA[k])
+		}
+	}
+	return math.Sqrt(2 * m2lo / m0), math.Sqrt(2 * m2hi / m0)
 }
 
 // golden minimises χ² on [a, b] by golden-section search (Kiefer 1953), a fixed number of
