@@ -315,8 +315,8 @@ search "dips" {
 vet "dips" {
   signals     = search.dips
   light_curve = detrend.masked
-  # fit  = fit.planets  # with the fit below, the shape, density and blend tests sharpen
-  # star = star.host    # once the star below is written
+  fit         = fit.planets # the fitted shape: grazing, density and blend tests
+  # star = star.host        # once the star below is written
 }
 
 # A limb-darkened transit model fitted to the signals of the second search: posterior
