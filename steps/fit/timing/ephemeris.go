@@ -124,7 +124,7 @@ func FitEphemeris(times []TransitTime) (Ephemeris, error) {
 			e.Caution = fmt.Sprintf("the transit times scatter about the linear ephemeris more than their errors allow "+
 				"(χ² = %.4g for %d degrees of freedom, p = %.2g): there may be transit-timing variations, or the "+
 				"errors are underestimated (correlated noise; consider inflating them by the red-noise factor β), "+
-				"or spot crossings distort some transits. This alone does not establish timing variations.",
+				"or spot crossings or flares distort some transits (look at the transits with the largest O−C). This alone does not establish timing variations.",
 				e.Chi2, e.Dof, e.PValue)
 		}
 	}
