@@ -64,6 +64,13 @@ const (
 	guideGain = 2
 	// chunk is the number of steps run between checks of the autocorrelation time.
 	chunk = 250
+	// keepStored bounds the stored steps per ensemble (sampler.Schedule.Keep): a longer run
+	// is thinned as it grows, at a spacing that doubles. Storing every step made a small fit
+	// that ran to max_steps = 100,000 hold 1 GB. A run still sampling has its kept chain
+	// (two thirds or more of at least keepStored/2 stored steps) shorter than 50τ, so the
+	// spacing stays below τ/50, where τ, measured on the stored steps, keeps its value
+	// (sampler tests) and dropping the steps in between loses almost nothing (our choice).
+	keepStored = 8192
 	// walkersPerDim is the ensemble size per parameter: 2, the fewest the stretch move
 	// allows. Sampling runs to 50τ in steps whatever the ensemble size, so the cost grows with
 	// the walkers while τ shrinks more slowly: on the demo, 24 walkers had τ = 512 and 48
@@ -223,7 +230,7 @@ func (p *problem) walkerStarts(best []float64, o Options) [][][]float64 {
 // schedule is the fit's sampling schedule, from the constants above.
 func schedule(o Options) sampler.Schedule {
 	return sampler.Schedule{
-		MaxSteps: o.MaxSteps, Chunk: chunk, LengthPerTau: lengthPerTau, BurnShare: burnShare,
+		MaxSteps: o.MaxSteps, Chunk: chunk, Keep: keepStored, LengthPerTau: lengthPerTau, BurnShare: burnShare,
 		GuideAfter: guideAfter, MinFirstPhase: minFirstPhase, GuideGain: guideGain,
 		DEShare: deShare, GuidedDEShare: guidedDEShare, GuideShare: guideShare,
 		Seed: o.Seed, SeedLabel: "fit/ensemble", Parallel: o.Parallel, Progress: o.Progress,
@@ -231,15 +238,22 @@ func schedule(o Options) sampler.Schedule {
 }
 
 // noteSampling notes how the sampling went, with a warning when the chains after burn-in
-// are shorter than lengthPerTau autocorrelation times, and returns the thinning: τ/2.
+// are shorter than lengthPerTau autocorrelation times, and returns the thinning in steps:
+// τ/2, rounded down to a multiple of the chains' stored spacing (run.Thin), at least one
+// stored step.
 func (p *problem) noteSampling(run *sampler.Sampling) (thin int) {
 	K := walkersPerDim * len(p.x0)
 	tauMax := run.MaxTau()
 	if !run.Trusted || float64(run.Steps-run.Burn) < lengthPerTau*tauMax {
 		p.notes = append(p.notes, fmt.Sprintf("warning: the chains after burn-in are %d steps, shorter than %d autocorrelation times (%.4g steps): the posterior summaries are preliminary; raise max_steps", run.Steps-run.Burn, lengthPerTau, lengthPerTau*tauMax))
 	}
-	thin = max(1, int(tauMax/2))
-	p.notes = append(p.notes, fmt.Sprintf("sampling: %d ensembles of %d walkers, %d steps each, the first %d discarded as burn-in, thinned by %d (τ/2, τ = %.4g steps)", len(run.Chains), K, run.Steps, run.Burn, thin, tauMax))
+	half := max(1, int(tauMax/2))
+	thin = max(1, half/run.Thin) * run.Thin
+	how := "τ/2"
+	if thin != half {
+		how = fmt.Sprintf("τ/2 = %d rounded down to whole stored steps, %d steps apart", half, run.Thin)
+	}
+	p.notes = append(p.notes, fmt.Sprintf("sampling: %d ensembles of %d walkers, %d steps each, the first %d discarded as burn-in, thinned by %d (%s, τ = %.4g steps)", len(run.Chains), K, run.Steps, run.Burn, thin, how, tauMax))
 	if run.Guided {
 		p.notes = append(p.notes, fmt.Sprintf("sampling: after burn-in, %.0f %% of the steps drew from a Student-t guide fitted to each ensemble's own burn-in (independence moves, Tierney 1994), %.0f %% were differential-evolution moves and the rest stretch moves", 100*guideShare, 100*guidedDEShare))
 	}
@@ -260,7 +274,7 @@ func (p *problem) diagnose(run *sampler.Sampling, thin int) {
 		for range ens {
 			ess += sampler.EffectiveSamples(K, run.Steps-run.Burn, run.Taus[i])
 		}
-		rh, err := sampler.EnsembleRhat(ens, i, run.Burn)
+		rh, err := sampler.EnsembleRhat(ens, i, run.Kept())
 		if err != nil || math.IsNaN(rh) {
 			rh = math.NaN()
 		}
@@ -275,15 +289,16 @@ func (p *problem) diagnose(run *sampler.Sampling, thin int) {
 	art.Acceptance = float64(acc) / float64(run.Steps*K*len(ens))
 }
 
-// keepSamples stores the thinned draws after burn-in with their derived columns, and the
-// best fit: the highest posterior density in the documented parameters seen
-// (Model.bestLogPost), from the optimiser (best, bestLP) or the chains. It returns the
-// best fit's sampled vector.
+// keepSamples stores the draws after burn-in thinned by thin steps (a multiple of the
+// stored spacing run.Thin) with their derived columns, and the best fit: the highest
+// posterior density in the documented parameters seen (Model.bestLogPost), from the
+// optimiser (best, bestLP) or the draws kept. It returns the best fit's sampled vector.
 func (p *problem) keepSamples(run *sampler.Sampling, thin int, best []float64, bestLP float64) []float64 {
 	m, art := p.m, p.art
 	K := walkersPerDim * len(p.x0)
+	stride := thin / run.Thin // in stored steps
 	for _, ch := range run.Chains {
-		for s := run.Burn + thin - 1; s < ch.Stored; s += thin {
+		for s := run.Kept() + stride - 1; s < ch.Stored; s += stride {
 			for w := 0; w < K; w++ {
 				x := ch.At(s, w)
 				art.Samples = append(art.Samples, m.row(x)...)

@@ -68,7 +68,8 @@ type Options struct {
 }
 
 // Chain is the record of a run. Samples and LogProb are flat, step-major: the position of
-// walker w at stored step s is Samples[(s*Walkers+w)*Dim : ...+Dim].
+// walker w at stored step s is Samples[(s*Walkers+w)*Dim : ...+Dim]. Stored step s is the
+// state after (s+1)·Thin ensemble updates.
 type Chain struct {
 	Walkers, Dim int
 	Stored       int       // number of stored steps (Steps / Thin)
@@ -83,6 +84,12 @@ type Chain struct {
 func (c *Chain) At(s, w int) []float64 {
 	i := (s*c.Walkers + w) * c.Dim
 	return c.Samples[i : i+c.Dim : i+c.Dim]
+}
+
+// From is the first stored step after the first steps ensemble updates (Stored when there
+// is none): the first to keep after a burn-in of that many steps.
+func (c *Chain) From(steps int) int {
+	return min(max(steps, 0)/c.Thin, c.Stored)
 }
 
 // Series returns parameter p as one series per walker over stored steps from..Stored−1,
@@ -129,6 +136,12 @@ var ErrConfig = errors.New("sampler: bad configuration")
 // ±Inf at a proposal rejects it. The context is checked between steps; on cancellation Run
 // returns the steps stored so far together with the context's error.
 func Run(ctx context.Context, logp func(x []float64) float64, init [][]float64, opts Options) (*Chain, error) {
+	return runInto(ctx, logp, init, opts, nil)
+}
+
+// runInto is Run recording into reuse, whose slices it keeps when they are large enough
+// (RunEnsembles runs many short runs of the same shape); nil records into a new chain.
+func runInto(ctx context.Context, logp func(x []float64) float64, init [][]float64, opts Options, reuse *Chain) (*Chain, error) {
 	a, thin, err := checkOptions(init, opts)
 	if err != nil {
 		return nil, err
@@ -146,13 +159,26 @@ func Run(ctx context.Context, logp func(x []float64) float64, init [][]float64, 
 	}
 	w.prepare(opts, a)
 	stored := opts.Steps / thin
-	ch := &Chain{
-		Walkers: w.K, Dim: w.N, Thin: thin,
-		Samples:  make([]float64, stored*w.K*w.N),
-		LogProb:  make([]float64, stored*w.K),
-		Accepted: make([]int, w.K),
+	ch := reuse
+	if ch == nil {
+		ch = new(Chain)
 	}
+	*ch = Chain{
+		Walkers: w.K, Dim: w.N, Thin: thin,
+		Samples:  resize(ch.Samples, stored*w.K*w.N),
+		LogProb:  resize(ch.LogProb, stored*w.K),
+		Accepted: resize(ch.Accepted, w.K),
+	}
+	clear(ch.Accepted)
 	return w.run(ctx, ch, opts, par)
+}
+
+// resize returns s with length n, reusing its array when it is large enough.
+func resize[T any](s []T, n int) []T {
+	if cap(s) < n {
+		return make([]T, n)
+	}
+	return s[:n]
 }
 
 // checkOptions checks the ensemble's shape and the options that do not concern the moves,

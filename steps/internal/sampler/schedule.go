@@ -18,7 +18,8 @@ import (
 // burn-in. Then all three moves (GuidedDEShare, GuideShare, the rest stretch moves), until
 // the chains after burn-in are LengthPerTau autocorrelation times long. Chains that reach
 // that length in the first phase, its first 1/BurnShare discarded, stop there. MaxSteps caps
-// both phases.
+// both phases. With Keep set, each chain is thinned as it grows so that it never holds more
+// than Keep stored steps; every figure (burn-in, τ, the looks) stays in ensemble updates.
 //
 // The values are the caller's choices; the schedule knows nothing of what is sampled.
 type Schedule struct {
@@ -27,6 +28,13 @@ type Schedule struct {
 	// Chunk is the number of steps run between looks at the chains; each ensemble's run of
 	// Chunk steps draws from its own seed. > 0.
 	Chunk int
+	// Keep bounds the stored steps of each chain: when a chain holds Keep stored steps,
+	// every second one is dropped and from then on only every 2·Thin-th step is stored
+	// (Chain.Thin doubles). The chain so always spans the whole run, at a spacing below
+	// 2·steps/Keep, and its memory stays bounded however long the run. 0 stores every step;
+	// otherwise even and ≥ 4. The draws themselves do not depend on it; the guides, fitted to
+	// stored steps, and so the later draws, do.
+	Keep int
 	// LengthPerTau is the length of the chains after burn-in, in autocorrelation times, at
 	// which sampling stops.
 	LengthPerTau float64
@@ -65,9 +73,10 @@ type Schedule struct {
 
 // Sampling is the record of RunEnsembles.
 type Sampling struct {
-	Chains []*Chain // one per ensemble, every step stored
+	Chains []*Chain // one per ensemble, every Thin-th step stored (Schedule.Keep)
 	Steps  int      // ensemble updates per ensemble
-	Burn   int      // leading steps of every chain that are burn-in
+	Burn   int      // leading steps of every chain that are burn-in (Kept: the first stored step after it)
+	Thin   int      // steps between stored states, the same in every chain
 	// Taus holds per parameter the largest integrated autocorrelation time over the
 	// ensembles after Burn, in steps, at least 1; Trusted says every estimate is trusted
 	// (AutoCorrTime).
@@ -79,6 +88,9 @@ type Sampling struct {
 
 // MaxTau is the largest of s.Taus.
 func (s *Sampling) MaxTau() float64 { return maxOf(s.Taus) }
+
+// Kept is the first stored step after burn-in, in every chain.
+func (s *Sampling) Kept() int { return s.Chains[0].From(s.Burn) }
 
 // RunEnsembles samples exp(logp) with independently seeded ensembles, ensemble e started at
 // starts[e] (as Run's init; all of one shape), to the schedule s. The autocorrelation time
@@ -119,6 +131,8 @@ func (s *Schedule) check(starts [][][]float64) error {
 		return fmt.Errorf("%w: chunk = %d, must be positive", ErrConfig, s.Chunk)
 	case s.BurnShare < 2:
 		return fmt.Errorf("%w: burn share 1/%d, must be at most a half", ErrConfig, s.BurnShare)
+	case s.Keep != 0 && (s.Keep < 4 || s.Keep%2 != 0):
+		return fmt.Errorf("%w: keep %d stored steps, must be 0 (all) or even and at least 4", ErrConfig, s.Keep)
 	}
 	for e, init := range starts {
 		if len(init) == 0 || len(init[0]) == 0 || len(init) != len(starts[0]) || len(init[0]) != len(starts[0][0]) {
@@ -135,6 +149,7 @@ type scheduled struct {
 	logp     func(x []float64) float64
 	dim      int
 	chains   []*Chain
+	run      Chain         // the latest run of Chunk steps, its arrays reused by the next
 	last     [][][]float64 // per ensemble, every walker's latest position
 	guides   []*Guide      // per ensemble, its guide once the first phase is over
 	total    int           // steps run per ensemble
@@ -170,13 +185,16 @@ func (r *scheduled) advance(n int) error {
 		if r.guides[e] != nil {
 			so.DEShare, so.GuideShare, so.Guide = r.GuidedDEShare, r.GuideShare, r.guides[e]
 		}
-		ch, err := Run(r.ctx, r.logp, r.last[e], so)
+		ch, err := runInto(r.ctx, r.logp, r.last[e], so, &r.run)
 		if err != nil {
 			return err
 		}
-		appendChain(r.chains[e], ch)
-		for w := range r.last[e] {
-			r.last[e][w] = append([]float64(nil), ch.At(ch.Stored-1, w)...)
+		appendChain(r.chains[e], ch, r.total, r.Keep)
+		for w, row := range r.last[e] {
+			if r.total == 0 {
+				row = make([]float64, r.dim) // the first rows are the caller's starts
+			}
+			r.last[e][w] = append(row[:0], ch.At(ch.Stored-1, w)...)
 		}
 		r.progress(r.total*len(r.chains) + (e+1)*n)
 	}
@@ -279,14 +297,14 @@ func (r *scheduled) finish() *Sampling {
 	if r.taus == nil || !(r.burn < r.total) {
 		r.taus, r.trusted = tausOf(r.chains, r.dim, r.burn, r.Parallel)
 	}
-	return &Sampling{Chains: r.chains, Steps: r.total, Burn: r.burn, Taus: r.taus, Trusted: r.trusted, Guided: r.guides[0] != nil}
+	return &Sampling{Chains: r.chains, Steps: r.total, Burn: r.burn, Thin: r.chains[0].Thin, Taus: r.taus, Trusted: r.trusted, Guided: r.guides[0] != nil}
 }
 
-// fitGuides fits each ensemble's guide to its chains from step from on (FitGuide). It
-// reports whether every ensemble has one, and leaves none when any fit fails.
+// fitGuides fits each ensemble's guide to its chains after the first from steps
+// (FitGuide). It reports whether every ensemble has one, and leaves none when any fit fails.
 func fitGuides(guides []*Guide, ens []*Chain, from int) bool {
 	for e, ch := range ens {
-		g, err := FitGuide([]*Chain{ch}, from, 1)
+		g, err := FitGuide([]*Chain{ch}, ch.From(from), 1)
 		if err != nil {
 			clear(guides)
 			return false
@@ -296,19 +314,68 @@ func fitGuides(guides []*Guide, ens []*Chain, from int) bool {
 	return true
 }
 
-// appendChain appends the stored steps of c to acc.
-func appendChain(acc, c *Chain) {
-	acc.Samples = append(acc.Samples, c.Samples...)
-	acc.LogProb = append(acc.LogProb, c.LogProb...)
-	acc.Stored += c.Stored
+// appendChain appends to acc, which holds the first total steps, the steps of c (a run
+// that stored every step) that fall on acc's spacing: the state after u updates in all is
+// stored when u is a multiple of acc.Thin. With keep > 0, acc never holds more than keep
+// stored steps: on reaching keep it drops every second one (halve).
+func appendChain(acc, c *Chain, total, keep int) {
+	KN := acc.Walkers * acc.Dim
+	for j := 0; j < c.Stored; j++ {
+		if (total+j+1)%acc.Thin != 0 {
+			continue
+		}
+		acc.Samples = grow(acc.Samples, KN, keep*KN)
+		acc.LogProb = grow(acc.LogProb, acc.Walkers, keep*acc.Walkers)
+		acc.Samples = append(acc.Samples, c.Samples[j*KN:(j+1)*KN]...)
+		acc.LogProb = append(acc.LogProb, c.LogProb[j*acc.Walkers:(j+1)*acc.Walkers]...)
+		acc.Stored++
+		if keep > 0 && acc.Stored == keep {
+			acc.halve()
+		}
+	}
 	acc.Steps += c.Steps
 	for w, a := range c.Accepted {
 		acc.Accepted[w] += a
 	}
 }
 
-// tausOf is, per parameter, the largest autocorrelation time over the ensembles after burn
-// (at least 1), and whether every estimate is trusted.
+// grow returns s with room for n more values: doubling its capacity but never beyond limit
+// when the n fit within it, or as append grows it when limit is 0.
+func grow(s []float64, n, limit int) []float64 {
+	if len(s)+n <= cap(s) {
+		return s
+	}
+	if limit == 0 {
+		return slices.Grow(s, n)
+	}
+	c := max(2*cap(s), len(s)+n)
+	if limit > 0 && len(s)+n <= limit {
+		c = min(c, limit)
+	}
+	return append(make([]float64, 0, c), s...)
+}
+
+// halve keeps every second stored step of c, those after 2·Thin, 4·Thin, … updates, and
+// doubles its spacing, so stored step s is still the state after (s+1)·Thin updates.
+// Stored must be even.
+func (c *Chain) halve() {
+	KN, K := c.Walkers*c.Dim, c.Walkers
+	half := c.Stored / 2
+	for i := 0; i < half; i++ {
+		copy(c.Samples[i*KN:(i+1)*KN], c.Samples[(2*i+1)*KN:(2*i+2)*KN])
+		copy(c.LogProb[i*K:(i+1)*K], c.LogProb[(2*i+1)*K:(2*i+2)*K])
+	}
+	c.Samples, c.LogProb = c.Samples[:half*KN], c.LogProb[:half*K]
+	c.Stored, c.Thin = half, 2*c.Thin
+}
+
+// tausOf is, per parameter, the largest autocorrelation time over the ensembles after the
+// first burn steps, in steps (at least 1), and whether every estimate is trusted. Each is
+// measured on the stored steps and multiplied by their spacing: for a spacing T well below
+// τ, the series is as correlated over T·t steps as the full chain, and the sum over lags
+// that are T apart is the same integral (for ρ(t) = e^(−t/c), T·coth(T/2c) against
+// coth(1/2c), a relative excess of about (T/τ)²/3; Sokal 1997, our arithmetic); a chain too
+// short in stored steps is not trusted, as a full one would not be (50τ either way).
 func tausOf(ens []*Chain, dim, burn int, par parallel.Func) ([]float64, bool) {
 	taus := make([]float64, dim)
 	ok := make([]bool, dim)
@@ -317,12 +384,12 @@ func tausOf(ens []*Chain, dim, burn int, par parallel.Func) ([]float64, bool) {
 	par(dim, func(p int) {
 		ok[p] = true
 		for _, ch := range ens {
-			ac, err := AutoCorrTime(ch.Series(p, burn), 0)
+			ac, err := AutoCorrTime(ch.Series(p, ch.From(burn)), 0)
 			if err != nil {
 				ok[p] = false
 				continue
 			}
-			taus[p] = math.Max(taus[p], ac.Tau)
+			taus[p] = math.Max(taus[p], ac.Tau*float64(ch.Thin))
 			ok[p] = ok[p] && ac.Trusted
 		}
 		if taus[p] < 1 {
