@@ -232,7 +232,7 @@ func (a *Artifact) Cautions() []string {
 		c = append(c, fmt.Sprintf("The chains after burn-in are %d steps, shorter than %d autocorrelation times (%.4g steps): the posterior summaries are preliminary; raise max_steps.", kept, lengthPerTau, lengthPerTau*tau))
 	}
 	if rhat > rhatCaution && worst < len(a.Names) {
-		c = append(c, fmt.Sprintf("The independently started ensembles disagree: R-hat of %s is %.3g, above %g (Vehtari et al. 2021), so the posterior may not be fully explored; raise max_steps or look for a second mode.", a.Names[worst], rhat, rhatCaution))
+		c = append(c, fmt.Sprintf("The independently started ensembles disagree: R-hat of %s is %.4g, above %g (Vehtari et al. 2021), so the posterior may not be fully explored; raise max_steps or look for a second mode.", a.Names[worst], rhat, rhatCaution))
 	}
 	for j, pt := range a.Times {
 		if pt.Err == "" && pt.Ephemeris.Caution != "" && j < len(planetNames) {

@@ -37,6 +37,8 @@ func TestTheFitsCautions(t *testing.T) {
 			[]string{"shorter than 50 autocorrelation times"}},
 		{"R-hat of 1.05 names the parameter", func(a *Artifact) { a.Diag[1].Rhat = 1.05 },
 			[]string{"R-hat of b.k is 1.05, above 1.01"}},
+		{"an R-hat just above the level is not printed as the level itself", func(a *Artifact) { a.Diag[1].Rhat = 1.0149 },
+			[]string{"R-hat of b.k is 1.015, above 1.01"}},
 		{"scattered transit times name the planet", func(a *Artifact) {
 			a.Times = []PlanetTimes{{Ephemeris: timing.Ephemeris{Caution: "the transit times scatter"}}}
 		}, []string{"Planet b: the transit times scatter."}},
