@@ -93,6 +93,12 @@ type SpanTrial struct {
 	Quiet bool
 }
 
+// ShownAbove reports whether the trial's bias is shown to exceed level: by more than
+// significance of its own standard errors, as the negligible test reads it.
+func (t SpanTrial) ShownAbove(level float64) bool {
+	return t.Bias*t.Bias-significance*t.BiasErr*t.BiasErr > level*level
+}
+
 // SpanChoice is ChooseSpan's answer with its evidence.
 type SpanChoice struct {
 	Span   float64
