@@ -169,6 +169,11 @@ func Search(s Series, o Options, par parallel.Func, progress func(pass, done, to
 				ps.Found, ps.Refused = nil, lowSNR(d, o.MinSNR)
 				res.SetAside = d
 			}
+			if d := ps.Found; d != nil {
+				if k := samePeriod(res.Passes, d, baseline); k >= 0 {
+					ps.Found, ps.Refused = nil, samePeriodNote(d, k, res.Passes[k].Found, baseline)
+				}
+			}
 			res.Refused = ps.Refused
 		}
 		res.Passes = append(res.Passes, ps)
@@ -260,6 +265,60 @@ func detect(p *prepared, g Grid, sp spectrum, peak int, score, mask float64) (*D
 func lowSNR(d *Detection, floor float64) string {
 	return fmt.Sprintf("was refined to a box at %.4g d, %.3g ppm deep, whose SNR, %.2f, is below the floor of %g, so it is set aside, not taken for a signal",
 		d.Timing.Period, d.Shape.Depth*1e6, d.Strength.SNR, floor)
+}
+
+// samePeriod is the pass whose signal has d's period, within the width of a periodogram
+// peak, P·D/T (D the box's length, T the data's span: a period off by that much slides
+// the transits by one duration over the data), or half its period with d's boxes half a
+// period from its transits, so that every other one falls in its masked transits and the
+// rest repeat at its period (an eclipsing binary's secondary eclipse comes back so); −1
+// when none.
+func samePeriod(passes []Pass, d *Detection, span float64) int {
+	width := d.Timing.Period * d.Shape.Duration / span
+	for k, p := range passes {
+		if p.Found == nil {
+			continue
+		}
+		prev := p.Found.Timing
+		if math.Abs(prev.Period-d.Timing.Period) <= width {
+			return k
+		}
+		if math.Abs(prev.Period-2*d.Timing.Period) <= 2*width && math.Abs(phaseFrom(d, prev)-0.5) < halfPhase {
+			return k
+		}
+	}
+	return -1
+}
+
+// halfPhase is how near half a period from an earlier signal's transits a box must lie to
+// be read as half a period from them: a twentieth of the period.
+const halfPhase = 0.05
+
+// phaseFrom is the phase of d's transits after those of the earlier signal prev, from 0 to 1.
+func phaseFrom(d *Detection, prev Timing) float64 {
+	phase := math.Mod((d.Timing.Epoch-prev.Epoch)/prev.Period, 1)
+	if phase < 0 {
+		phase++
+	}
+	return phase
+}
+
+// samePeriodNote says why a box at the period of an earlier signal k is not another
+// signal: two planets do not share an orbital period, so it lies where a binary's
+// secondary eclipse would when it is half a period from k's transits, or else it is what
+// k's transits or the star's own variability at that period left in the light curve.
+func samePeriodNote(d *Detection, k int, prev *Detection, span float64) string {
+	phase := phaseFrom(d, prev.Timing)
+	at := fmt.Sprintf("at the period of signal %d (%.6g d, within a peak's width P·D/T = %.2g d)", k+1, prev.Timing.Period, d.Timing.Period*d.Shape.Duration/span)
+	if math.Abs(prev.Timing.Period-d.Timing.Period) > d.Timing.Period*d.Shape.Duration/span {
+		at = fmt.Sprintf("at half the period of signal %d (%.6g d), every other box falling in its masked transits, so that the rest repeat at its period", k+1, prev.Timing.Period)
+	}
+	what := "what signal %d's transits, or the star's own variability at that period, left behind"
+	if math.Abs(phase-0.5) < halfPhase {
+		what = "half a period from signal %d's transits, where an eclipsing binary's secondary eclipse would lie (a spotted star's variability at that period can do the same)"
+	}
+	return fmt.Sprintf("was refined to a box at %.6g d, %.0f ppm deep, %s and %.2f of a period from its transits; two planets do not share a period, so it is not taken for another signal: it is "+what+". The search stopped there",
+		d.Timing.Period, d.Shape.Depth*1e6, at, phase, k+1)
 }
 
 // DefaultThreshold returns the SDE a periodogram peak must reach to count as a signal on a
