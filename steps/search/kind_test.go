@@ -28,13 +28,20 @@ func (c curveArtifact) Figures() []steps.Figure            { return nil }
 // Sun-like star (invented data).
 func fixture() *lightcurve.LightCurve {
 	g := rng.New(2024) // our own stream: no Go release changes the fixtures
-	const per, epoch, depth = 3.3, 1.1, 2.5e-3
+	return boxCurve(2.5e-3, func() float64 { return 1e-3 * g.Normal() })
+}
+
+// boxCurve samples the fixtures' 30 days at 30 minutes in two segments (a 2.5 d gap), with
+// the noise noise() draws for each point in turn and a box of the given depth at 3.3 d,
+// epoch 1.1 d, lasting the central duration around a Sun-like star; errors 1000 ppm.
+func boxCurve(depth float64, noise func() float64) *lightcurve.LightCurve {
+	const per, epoch = 3.3, 1.1
 	dur := bls.CentralDuration(per, solarDensity)
 	lc := &lightcurve.LightCurve{TimeScale: "BJD_TDB", RefInt: 2460000, RefFrac: 0.5}
 	for k, span := range [][2]float64{{0, 14}, {16.5, 30}} {
 		s := lightcurve.Segment{ID: string(rune('1' + k)), Exposure: 30.0 / 1440, Contamination: math.NaN()}
 		for t := span[0]; t <= span[1]; t += 30.0 / 1440 {
-			f := 1 + 1e-3*g.Normal()
+			f := 1 + noise()
 			x := (t - epoch) / per
 			if math.Abs(x-math.Round(x))*per < dur/2 {
 				f -= depth

@@ -10,7 +10,6 @@ import (
 	"dipline/steps/internal/lightcurve"
 	"dipline/steps/internal/rng"
 	"dipline/steps/internal/steptest"
-	"dipline/steps/search/bls"
 )
 
 // weakCurve is the fixture's sampling (30 days at 30 minutes, a 2.5 d gap) with white noise
@@ -20,27 +19,13 @@ import (
 // depth at 3.3 d, epoch 1.1 d, lasting the central duration (invented data).
 func weakCurve(seed uint64, depth, red float64) *lightcurve.LightCurve {
 	g := rng.New(seed) // our own stream: no Go release changes the light curve
-	const per, epoch, cadence, tau = 3.3, 1.1, 30.0 / 1440, 0.1
-	dur := bls.CentralDuration(per, solarDensity)
+	const cadence, tau = 30.0 / 1440, 0.1
 	a := math.Exp(-cadence / tau)
-	lc := &lightcurve.LightCurve{TimeScale: "BJD_TDB", RefInt: 2460000, RefFrac: 0.5}
 	r := 0.0
-	for k, span := range [][2]float64{{0, 14}, {16.5, 30}} {
-		s := lightcurve.Segment{ID: string(rune('1' + k)), Exposure: cadence, Contamination: math.NaN()}
-		for t := span[0]; t <= span[1]; t += cadence {
-			r = a*r + math.Sqrt(1-a*a)*red*g.Normal()
-			f := 1 + 1e-3*g.Normal() + r
-			x := (t - epoch) / per
-			if math.Abs(x-math.Round(x))*per < dur/2 {
-				f -= depth
-			}
-			s.Time = append(s.Time, t)
-			s.Flux = append(s.Flux, f)
-			s.Err = append(s.Err, 1e-3)
-		}
-		lc.Segments = append(lc.Segments, s)
-	}
-	return lc
+	return boxCurve(depth, func() float64 {
+		r = a*r + math.Sqrt(1-a*a)*red*g.Normal()
+		return 1e-3*g.Normal() + r
+	})
 }
 
 // setAsideNote returns the note that says a peak was set aside, or "".
