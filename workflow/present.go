@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"encoding/csv"
 	"fmt"
+	"io"
 	"path/filepath"
 	"regexp"
 	"sort"
@@ -97,13 +98,14 @@ func presentStep(w *Workflow, o *Outcome, arts map[string]steps.Artifact) (repor
 		return sec, nil
 	}
 	for _, d := range pres.Data {
-		body, rows, why := csvOf(d)
+		rows, why := checkData(d)
 		if why != "" {
 			sec.Notes = append(sec.Notes, why)
 			continue
 		}
 		rel := s.Addr + "/" + d.Name + ".csv"
-		if err := writeAtomic(filepath.Join(w.OutputDir, s.Addr, d.Name+".csv"), body); err != nil {
+		write := func(out io.Writer) error { return writeCSV(out, d, rows) }
+		if err := writeAtomicWith(filepath.Join(w.OutputDir, s.Addr, d.Name+".csv"), write); err != nil {
 			return sec, fmt.Errorf("writing %s: %w", rel, err)
 		}
 		sec.Files = append(sec.Files, report.WrittenFile{Path: rel, What: rowsWord(rows)})
@@ -132,29 +134,38 @@ func presentGuarded(s *Step, art steps.Artifact, in steps.Inputs) (p steps.Prese
 	return steps.PresentationOf(s.Kind, s.Config, art, in)
 }
 
-// csvOf writes one Data as CSV: a header of the series' names, then one row per value,
-// numbers in the shortest form that reads back to the same float64. It says why instead
-// when the data cannot be written.
-func csvOf(d steps.Data) ([]byte, int, string) {
+// checkData returns the rows of a data table, or why it cannot be written as a CSV file:
+// a name that cannot name a file, no column, or columns of unequal lengths.
+func checkData(d steps.Data) (int, string) {
 	if !safeName.MatchString(d.Name) {
-		return nil, 0, fmt.Sprintf("The data %q were not written: a file's name takes letters, digits, '.', '-' and '_'.", d.Name)
+		return 0, fmt.Sprintf("The data %q were not written: a file's name takes letters, digits, '.', '-' and '_'.", d.Name)
 	}
 	if len(d.Series) == 0 {
-		return nil, 0, fmt.Sprintf("The data %q were not written: they have no column.", d.Name)
+		return 0, fmt.Sprintf("The data %q were not written: they have no column.", d.Name)
 	}
 	rows := len(d.Series[0].Values)
-	header := make([]string, len(d.Series))
-	for i, s := range d.Series {
+	for _, s := range d.Series {
 		if len(s.Values) != rows {
-			return nil, 0, fmt.Sprintf("The data %q were not written: column %q has %d values and %q has %d.",
+			return 0, fmt.Sprintf("The data %q were not written: column %q has %d values and %q has %d.",
 				d.Name, d.Series[0].Name, rows, s.Name, len(s.Values))
 		}
+	}
+	return rows, ""
+}
+
+// writeCSV writes a checked data table (checkData) as CSV, a header of the series' names
+// and a row per value, each number in the fewest digits that read back to it.
+func writeCSV(out io.Writer, d steps.Data, rows int) error {
+	header := make([]string, len(d.Series))
+	for i, s := range d.Series {
 		header[i] = s.Name
 	}
-	var b bytes.Buffer
-	cw := csv.NewWriter(&b)
+	cw := csv.NewWriter(out)
 	cw.Write(header)
 	cw.Flush()
+	if err := cw.Error(); err != nil {
+		return err
+	}
 	line := make([]byte, 0, 32*len(d.Series))
 	for r := 0; r < rows; r++ {
 		line = line[:0]
@@ -164,9 +175,11 @@ func csvOf(d steps.Data) ([]byte, int, string) {
 			}
 			line = strconv.AppendFloat(line, s.Values[r], 'g', -1, 64)
 		}
-		b.Write(append(line, '\n'))
+		if _, err := out.Write(append(line, '\n')); err != nil {
+			return err
+		}
 	}
-	return b.Bytes(), rows, ""
+	return nil
 }
 
 func rowsWord(n int) string {

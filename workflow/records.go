@@ -1,10 +1,12 @@
 package workflow
 
 import (
+	"bufio"
 	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"fmt"
+	"io"
 	"os"
 	"path/filepath"
 	"runtime"
@@ -342,6 +344,15 @@ const resultsMode = 0o644
 // writeAtomic writes data to path through a temporary file and a rename, so a reader
 // never sees half a file.
 func writeAtomic(path string, data []byte) error {
+	return writeAtomicWith(path, func(w io.Writer) error {
+		_, err := w.Write(data)
+		return err
+	})
+}
+
+// writeAtomicWith is writeAtomic for a file that write streams out (through a buffer), so
+// that a large one is never held whole in memory.
+func writeAtomicWith(path string, write func(io.Writer) error) error {
 	if err := os.MkdirAll(filepath.Dir(path), 0o755); err != nil {
 		return err
 	}
@@ -349,22 +360,20 @@ func writeAtomic(path string, data []byte) error {
 	if err != nil {
 		return err
 	}
-	if err := tmp.Chmod(resultsMode); err != nil {
-		tmp.Close()
-		os.Remove(tmp.Name())
-		return err
+	err = tmp.Chmod(resultsMode)
+	if err == nil {
+		buf := bufio.NewWriterSize(tmp, 1<<16)
+		if err = write(buf); err == nil {
+			err = buf.Flush()
+		}
 	}
-	if _, err := tmp.Write(data); err != nil {
-		tmp.Close()
-		os.Remove(tmp.Name())
-		return err
+	if err == nil {
+		err = tmp.Sync()
 	}
-	if err := tmp.Sync(); err != nil {
-		tmp.Close()
-		os.Remove(tmp.Name())
-		return err
+	if cerr := tmp.Close(); err == nil {
+		err = cerr
 	}
-	if err := tmp.Close(); err != nil {
+	if err != nil {
 		os.Remove(tmp.Name())
 		return err
 	}
