@@ -214,7 +214,7 @@ func (Kind) Run(ctx context.Context, cfg *Config, in steps.Inputs, env steps.Env
 					d.FitDensityPrior = strings.TrimPrefix(p, "prior: ")
 				}
 			}
-			d.Timing = timingOf(fa)
+			d.Timing = fitTiming(fa)
 		}
 	}
 	if a := in.Ref("star"); a != nil {
@@ -242,9 +242,9 @@ func (Kind) Run(ctx context.Context, cfg *Config, in steps.Inputs, env steps.Env
 	return art, nil
 }
 
-// timingOf summarises, per planet of the fit, its transit times about their linear
+// fitTiming summarises, per planet of the fit, its transit times about their linear
 // ephemeris; a planet without an ephemeris gets a zero Timing (no degrees of freedom).
-func timingOf(fa *fit.Artifact) []Timing {
+func fitTiming(fa *fit.Artifact) []Timing {
 	out := make([]Timing, len(fa.Times))
 	for j, pt := range fa.Times {
 		if pt.Err != "" {

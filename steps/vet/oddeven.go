@@ -19,7 +19,7 @@ import (
 // When the data disagree (the dips alternate and the period is likely twice the signal's;
 // a few σ suggests a binary at twice the period, common practice), it returns the parity of
 // the deeper transits (0 even, 1 odd), else −1.
-func (v *vetter) oddEven(tg *target, w []float64, scale float64) (Test, int64) {
+func (v *vetter) oddEven(tg *target, w []float64, scale float64, each transitDepths) (Test, int64) {
 	const name = "odd_even"
 	if tg.single != "" {
 		return notRun(name, "cannot be tested: "+tg.single+"; there is no second dip to compare"), -1
@@ -41,7 +41,7 @@ func (v *vetter) oddEven(tg *target, w []float64, scale float64) (Test, int64) {
 	if r.Points[0] == 0 || r.Points[1] == 0 || math.IsNaN(r.Level) {
 		return notRun(name, fmt.Sprintf("cannot be tested: the light curve has %d even- and %d odd-numbered transits with data; both parities are needed", len(transits[0]), len(transits[1]))), -1
 	}
-	jitter, dof := v.transitScatter(eph, w, scale)
+	jitter, dof := transitScatter(each, scale)
 	diff := r.Depth[1] - r.Depth[0]
 	sd := scale * jitter * math.Sqrt(1/r.Weight[0]+1/r.Weight[1])
 	z := math.Abs(diff) / sd
@@ -76,9 +76,16 @@ func (v *vetter) oddEven(tg *target, w []float64, scale float64) (Test, int64) {
 // the expected (common practice for a variance from few points).
 const minScatterDOF = 4
 
-// perTransit fits one box depth per transit with data (the level shared) and returns the
-// transits' cycle numbers in the order first met and the fit, group g being cycles[g].
-func (v *vetter) perTransit(eph boxmodel.Ephemeris, w []float64) ([]int64, boxmodel.Result) {
+// transitDepths is one box depth per transit with data, the level shared (perTransit):
+// the transits' cycle numbers in the order first met and the fit, group g being cycles[g].
+// The odd/even and single-transit tests both read it, from one fit.
+type transitDepths struct {
+	cycles []int64
+	fit    boxmodel.Result
+}
+
+// perTransit fits one box depth per transit with data (the level shared).
+func (v *vetter) perTransit(eph boxmodel.Ephemeris, w []float64) transitDepths {
 	index := map[int64]int{}
 	var cycles []int64
 	for i := range v.t {
@@ -97,15 +104,15 @@ func (v *vetter) perTransit(eph boxmodel.Ephemeris, w []float64) ([]int64, boxmo
 		}
 		return -1
 	})
-	return cycles, r
+	return transitDepths{cycles, r}
 }
 
 // transitScatter returns √(χ²/ν), at least 1, of the single transits' box depths about the
 // mean depth of their parity (each with its own error, scaled), ν the number of transits
 // with data less two; 1 when ν < minScatterDOF. The depths come from one boxmodel fit with
 // a depth per transit and the level shared.
-func (v *vetter) transitScatter(eph boxmodel.Ephemeris, w []float64, scale float64) (factor float64, dof int) {
-	cycles, r := v.perTransit(eph, w)
+func transitScatter(each transitDepths, scale float64) (factor float64, dof int) {
+	cycles, r := each.cycles, each.fit
 	var sw, swd [2]float64
 	for g, n := range cycles {
 		if r.Points[g] > 0 && !math.IsNaN(r.Depth[g]) {
@@ -141,9 +148,9 @@ const noDipSigma = 2.0
 // and they are shallower than it by odd_even_sigma: a second dip is then not in the data,
 // not merely lost in the noise, so the signal is one event and its period is the search's
 // guess. Errors are scaled by the noise scale.
-func (v *vetter) singleTransit(tg *target, w []float64, scale float64) string {
+func (v *vetter) singleTransit(tg *target, each transitDepths, scale float64) string {
 	eph := tg.eph
-	cycles, r := v.perTransit(eph, w)
+	cycles, r := each.cycles, each.fit
 	best := -1
 	for g := range cycles {
 		if r.Points[g] == 0 || math.IsNaN(r.Depth[g]) || !(r.Sigma[g] > 0) {

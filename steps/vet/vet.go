@@ -131,7 +131,7 @@ type target struct {
 	post    *planetDraws
 	fitNote string
 	// ttv, when not empty, says that the fit's transit times vary enough to smear the
-	// transit stacked on one period (smearedByTiming); the shape, density and radius
+	// transit stacked on one period (vetter.timingOf); the shape, density and radius
 	// verdicts then say so.
 	ttv string
 	// single, when not empty, says that the dip rests on one transit (singleTransit).
@@ -184,9 +184,10 @@ func (v *vetter) vetOne(tg *target) Signal {
 	w := v.weights(tg, false)
 	scale := v.noiseScale(tg)
 	s.NoiseScale = scale
-	tg.single = v.singleTransit(tg, w, scale)
+	each := v.perTransit(tg.eph, w)
+	tg.single = v.singleTransit(tg, each, scale)
 	s.Single = tg.single
-	oe, deeper := v.oddEven(tg, w, scale)
+	oe, deeper := v.oddEven(tg, w, scale, each)
 	s.Tests = append(s.Tests, oe)
 	s.Tests = append(s.Tests, v.secondary(tg, scale, deeper))
 	s.Tests = append(s.Tests, v.shape(tg, w, scale))
