@@ -184,7 +184,7 @@ func (c *cli) printEvent(ev workflow.Event) {
 }
 
 func (c *cli) check(args []string) int {
-	c.access.Look = true // it only reads: a fresh workflow's folder is left as it was
+	c.onlyLooks()
 	fs := flag.NewFlagSet("check", flag.ContinueOnError)
 	pos, ok := c.flags(fs, args)
 	if !ok {
@@ -238,7 +238,7 @@ func (c *cli) storeArgs(fs *flag.FlagSet, args []string, want int, usage string)
 }
 
 func (c *cli) pending(args []string) int {
-	c.access.Look = true // it only reads: a fresh workflow's folder is left as it was
+	c.onlyLooks()
 	w, store, _, code := c.storeArgs(flag.NewFlagSet("pending", flag.ContinueOnError), args, 0, "takes only the workflow file")
 	if code != exitOK {
 		return code
@@ -271,7 +271,7 @@ func (c *cli) pending(args []string) int {
 }
 
 func (c *cli) trace(args []string) int {
-	c.access.Look = true // it only reads: a fresh workflow's folder is left as it was
+	c.onlyLooks()
 	fs := flag.NewFlagSet("trace", flag.ContinueOnError)
 	runRef := fs.String("run", "latest", "the run to trace in (id, prefix, latest or previous)")
 	_, store, rest, code := c.storeArgs(fs, args, 1, "name one step (kind.label) or one figure (kind.label/name)")
@@ -342,7 +342,7 @@ func (c *cli) printNode(n *workflow.TraceNode, indent string, shown map[string]b
 }
 
 func (c *cli) runs(args []string) int {
-	c.access.Look = true // it only reads: a fresh workflow's folder is left as it was
+	c.onlyLooks()
 	_, store, _, code := c.storeArgs(flag.NewFlagSet("runs", flag.ContinueOnError), args, 0, "takes only the workflow file")
 	if code != exitOK {
 		return code

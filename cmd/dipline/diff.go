@@ -12,7 +12,7 @@ import (
 // diff compares two runs: what changed in each step's inputs, and how far its numbers
 // moved in units of their uncertainty, with the Monte Carlo error of each shift.
 func (c *cli) diff(args []string) int {
-	c.access.Look = true // it only reads: a fresh workflow's folder is left as it was
+	c.onlyLooks()
 	fs := flag.NewFlagSet("diff", flag.ContinueOnError)
 	all := fs.Bool("all", false, "list unchanged steps too")
 	_, store, rest, code := c.storeArgs(fs, args, -1, "")

@@ -489,6 +489,10 @@ type cli struct {
 	helped bool
 }
 
+// onlyLooks marks a command that only reads the workflow, its data and its store: the
+// load then makes no folders, so a look leaves a fresh workflow's folder as it was.
+func (c *cli) onlyLooks() { c.access.Look = true }
+
 // globalFlags adds the options every command that reads a workflow takes: given before the
 // command or among its own options.
 func (c *cli) globalFlags(fs *flag.FlagSet) {

@@ -110,7 +110,7 @@ func (c *cli) storeCmd(args []string) int {
 }
 
 func (c *cli) storeStats(fs *flag.FlagSet, args []string) int {
-	c.access.Look = true // it only reads: a fresh workflow's folder is left as it was
+	c.onlyLooks()
 	_, store, _, code := c.storeArgs(fs, args, 0, "stats takes only the workflow file")
 	if code != exitOK {
 		return code

@@ -349,7 +349,7 @@ func grow(s []float64, n, limit int) []float64 {
 		return slices.Grow(s, n)
 	}
 	c := max(2*cap(s), len(s)+n)
-	if limit > 0 && len(s)+n <= limit {
+	if len(s)+n <= limit {
 		c = min(c, limit)
 	}
 	return append(make([]float64, 0, c), s...)
