@@ -15,11 +15,11 @@ import (
 // How a diagnostic reaches the user: one message in our own words, led by the file and the
 // line it is about, then that line with its number and a caret under the subject:
 //
-//	analysis.hcl line 14: search "dips" reads detrend.quite for light_curve, and there is no detrend step "quite". Did you mean detrend.quiet?
+//	analysis.hcl line 14, column 17: search "dips" reads detrend.quite for light_curve, and there is no detrend step "quite". Did you mean detrend.quiet?
 //	   14 |   light_curve = detrend.quite
 //	      |                 ^^^^^^^^^^^^^
 //
-// A warning says so after the line number: "analysis.hcl line 3 (a warning): …". A message
+// A warning says so after the place: "analysis.hcl line 3, column 3 (a warning): …". A message
 // that is about no place in the file is printed alone. The message is one line; a terminal
 // wraps it, and so the words can be searched for as written.
 //
@@ -76,12 +76,15 @@ func writeDiagnostic(w *bufio.Writer, d *hcl.Diagnostic) {
 	where := ""
 	if d.Subject != nil && d.Subject.Filename != "" {
 		where = d.Subject.Filename
-		line := d.Subject.Start.Line
+		line, col := d.Subject.Start.Line, d.Subject.Start.Column
 		if ex != nil {
-			line = ex.line
+			line, col = ex.line, ex.column()
 		}
 		if ex == nil || ex.numbered {
 			where = fmt.Sprintf("%s line %d", where, line)
+			if col > 0 {
+				where = fmt.Sprintf("%s, column %d", where, col)
+			}
 		}
 	}
 	warn := d.Severity == hcl.DiagWarning
@@ -234,6 +237,12 @@ func wide(r rune) bool {
 		return true
 	}
 	return false
+}
+
+// column is where the caret starts, counted from 1 in characters as an editor counts them
+// (a tab and a wide character are one each).
+func (e *excerpt) column() int {
+	return utf8.RuneCountInString(e.text[:min(e.from, len(e.text))]) + 1
 }
 
 // write prints the excerpt's line and its caret line.

@@ -34,7 +34,7 @@ func TestAMessageShowsItsLineWithACaret(t *testing.T) {
 	from := strings.Index(src, "detrend.quite")
 	got := printed(src, at(src, from, from+len("detrend.quite"),
 		`search "dips" reads detrend.quite for light_curve, and there is no detrend step "quite".`, "Did you mean detrend.quiet?"))
-	want := `analysis.hcl line 5: search "dips" reads detrend.quite for light_curve, and there is no detrend step "quite". Did you mean detrend.quiet?` + "\n" +
+	want := `analysis.hcl line 5, column 17: search "dips" reads detrend.quite for light_curve, and there is no detrend step "quite". Did you mean detrend.quiet?` + "\n" +
 		"    5 |   light_curve = detrend.quite\n" +
 		"      |                 ^^^^^^^^^^^^^\n"
 	if got != want {
@@ -53,21 +53,21 @@ func TestTheLayoutOfEachKindOfMessage(t *testing.T) {
 			d := at(src, 17, 21, "The seed is small.", "That is fine.")
 			d.Severity = hcl.DiagWarning
 			return d
-		}(), "analysis.hcl line 2 (a warning): The seed is small. That is fine.\n    2 |   seed = 1\n      |   ^^^^\n"},
+		}(), "analysis.hcl line 2, column 3 (a warning): The seed is small. That is fine.\n    2 |   seed = 1\n      |   ^^^^\n"},
 		{"a message about no place is printed alone", &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "A --set names nothing in the workflow.", Detail: "There is no step x.y."},
 			"A --set names nothing in the workflow. There is no step x.y.\n"},
 		{"a warning about no place says so first", &hcl.Diagnostic{Severity: hcl.DiagWarning, Summary: "Something is odd."},
 			"(a warning) Something is odd.\n"},
 		{"a place without a file is no place", &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "Wrong.", Subject: &hcl.Range{}},
 			"Wrong.\n"},
-		{"a place in a file not read names the line only", &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "Wrong.",
-			Subject: &hcl.Range{Filename: "other.hcl", Start: hcl.Pos{Line: 7, Column: 1, Byte: 70}}}, "other.hcl line 7: Wrong.\n"},
+		{"a place in a file not read names the line and column only", &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "Wrong.",
+			Subject: &hcl.Range{Filename: "other.hcl", Start: hcl.Pos{Line: 7, Column: 1, Byte: 70}}}, "other.hcl line 7, column 1: Wrong.\n"},
 		{"an empty range gets one caret", at(src, 14, 14, "The block is empty.", ""),
-			"analysis.hcl line 1: The block is empty.\n    1 | analysis \"a\" {\n      |               ^\n"},
+			"analysis.hcl line 1, column 15: The block is empty.\n    1 | analysis \"a\" {\n      |               ^\n"},
 		{"a range over several lines is marked to the end of its first", at(src, 9, 29, "This block is odd.", ""),
-			"analysis.hcl line 1: This block is odd.\n    1 | analysis \"a\" {\n      |          ^^^^^\n"},
+			"analysis.hcl line 1, column 10: This block is odd.\n    1 | analysis \"a\" {\n      |          ^^^^^\n"},
 		{"a heading and a detail are joined by a colon", at(src, 17, 21, "Wrong type for seed", "seed takes a whole number."),
-			"analysis.hcl line 2: Wrong type for seed: seed takes a whole number.\n    2 |   seed = 1\n      |   ^^^^\n"},
+			"analysis.hcl line 2, column 3: Wrong type for seed: seed takes a whole number.\n    2 |   seed = 1\n      |   ^^^^\n"},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
@@ -142,13 +142,25 @@ func TestAnExcerptSkipsAByteOrderMarkAndALineEnding(t *testing.T) {
 	src := "\xef\xbb\xbfanalysis \"a\" {\r\n  seed = x\r\n}\r\n"
 	from := strings.Index(src, "analysis")
 	got := printed(src, at(src, from, from+len("analysis"), "Wrong.", ""))
-	if want := "analysis.hcl line 1: Wrong.\n    1 | analysis \"a\" {\n      | ^^^^^^^^\n"; got != want {
+	if want := "analysis.hcl line 1, column 1: Wrong.\n    1 | analysis \"a\" {\n      | ^^^^^^^^\n"; got != want {
 		t.Errorf("printed\n%q\nwant\n%q", got, want)
 	}
 	from = strings.Index(src, "x")
 	got = printed(src, at(src, from, from+3, "Wrong.", ""))
-	if want := "analysis.hcl line 2: Wrong.\n    2 |   seed = x\n      |          ^\n"; got != want {
+	if want := "analysis.hcl line 2, column 10: Wrong.\n    2 |   seed = x\n      |          ^\n"; got != want {
 		t.Errorf("printed\n%q\nwant\n%q", got, want)
+	}
+}
+
+// The column is counted in characters from 1, as an editor counts them: a tab, an accented
+// letter (two bytes) and a wide character (three bytes) are one column each.
+func TestTheColumnCountsCharactersNotBytes(t *testing.T) {
+	src := "analysis \"a\" {\n\tnote = \"é漢\" seed = x\n}\n"
+	from := strings.Index(src, "x")
+	got := printed(src, at(src, from, from+1, "Wrong.", ""))
+	// line 2 is: tab, n, o, t, e, space, =, space, ", é, 漢, ", space, s, e, e, d, space, =, space, x
+	if want := "analysis.hcl line 2, column 21: Wrong."; !strings.HasPrefix(got, want) {
+		t.Errorf("printed\n%q\nwant it to begin %q", got, want)
 	}
 }
 
@@ -190,7 +202,7 @@ func TestALoadsDiagnosticsArePrintedWithTheirLines(t *testing.T) {
 	p.write("analysis.hcl", "")
 	var out bytes.Buffer
 	FormatDiagnostics(&out, diags)
-	want := path + ` line 6: source "a" has no setting "scal". Did you mean "scale"? A source step takes files, scale and label.` + "\n" +
+	want := path + ` line 6, column 2: source "a" has no setting "scal". Did you mean "scale"? A source step takes files, scale and label.` + "\n" +
 		"    6 | \tscal  = 2\n" +
 		"      | \t^^^^\n"
 	if out.String() != want {

@@ -51,8 +51,9 @@ func (e *storeError) Unwrap() error { return e.err }
 
 // Place is a line of the workflow file: where a setting a step refused was written.
 type Place struct {
-	File string `json:"file"` // the workflow file, as the user named it
-	Line int    `json:"line"`
+	File   string `json:"file"` // the workflow file, as the user named it
+	Line   int    `json:"line"`
+	Column int    `json:"column,omitempty"` // counted from 1 in characters; 0 when not known
 }
 
 // SettingError is a setting that a step refused when it ran, once it saw its inputs (a
@@ -71,7 +72,7 @@ type SettingError struct {
 }
 
 // Error says the mistake in one line, beginning with its place:
-// `analysis.hcl line 25: fit "planets": eccentric: "c" is not one of the 1 planet(s) fitted (b)`.
+// `analysis.hcl line 25, column 3: fit "planets": eccentric: "c" is not one of the 1 planet(s) fitted (b)`.
 func (e *SettingError) Error() string {
 	where := ""
 	switch {
@@ -79,6 +80,9 @@ func (e *SettingError) Error() string {
 		where = "set " + e.Set + ": "
 	case e.Place != nil:
 		where = fmt.Sprintf("%s line %d: ", e.Place.File, e.Place.Line)
+		if e.Place.Column > 0 {
+			where = fmt.Sprintf("%s line %d, column %d: ", e.Place.File, e.Place.Line, e.Place.Column)
+		}
 	}
 	return fmt.Sprintf("%s%s %q: %s: %s", where, e.Step.Kind.Name(), e.Step.Label, e.Err.Attr, e.Err.Msg)
 }
@@ -107,7 +111,7 @@ func (w *Workflow) settingError(s *Step, err error) error {
 		r = s.block
 	}
 	if r.Filename != "" {
-		se.Place = &Place{File: r.Filename, Line: r.Start.Line}
+		se.Place = &Place{File: r.Filename, Line: r.Start.Line, Column: r.Start.Column}
 	}
 	return se
 }

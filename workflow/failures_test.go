@@ -203,7 +203,7 @@ func TestTheCauseOfAFailure(t *testing.T) {
 		{"an error of the program is the program's", "fail", CauseProgram, []string{"told to fail"}},
 		{"bad data are the user's input", "bad_input", CauseInput, []string{"data.txt:3: told the data are bad"}},
 		{"an attribute the step refuses names the file, line, block and attribute", "attr", CauseInput,
-			[]string{"analysis.hcl line 5: ", `trouble "x": mode: told the setting does not suit the data`}},
+			[]string{"analysis.hcl line 5, column 11: ", `trouble "x": mode: told the setting does not suit the data`}},
 		{"a panic is a fault of the program", "panic", CauseProgram, []string{"a fault in dipline, not in the workflow or its data (please report it): panic: "}},
 	}
 	for _, c := range cases {

@@ -154,7 +154,7 @@ func TestASharedWorkflowCannotLeaveItsFolder(t *testing.T) {
 			if code != exitBadUser {
 				t.Errorf("exit %d, want %d\n%s%s", code, exitBadUser, out, errs)
 			}
-			for _, want := range []string{fmt.Sprintf("analysis.hcl line %d: ", c.line), "outside the workflow's folder", "--also-allow"} {
+			for _, want := range []string{fmt.Sprintf("analysis.hcl line %d, column ", c.line), "outside the workflow's folder", "--also-allow"} {
 				if !strings.Contains(errs, want) {
 					t.Errorf("stderr does not say %q:\n%s", want, errs)
 				}
@@ -215,7 +215,7 @@ func TestALockFileThatIsNotOursSurvivesARun(t *testing.T) {
 				args = append(args, "--also-allow", s.private)
 			}
 			code, out, errs := s.dipline(args...)
-			if code != exitBadUser || !strings.Contains(errs, "analysis.hcl line 3: ") {
+			if code != exitBadUser || !strings.Contains(errs, "analysis.hcl line 3, column ") {
 				t.Errorf("exit %d, want %d naming line 3:\n%s%s", code, exitBadUser, out, errs)
 			}
 			if after := fingerprint(t, s.private); after != before {
@@ -261,7 +261,7 @@ func TestHostileWorkflowsAreRefusedUnevaluated(t *testing.T) {
 			if code != exitBadUser || !strings.Contains(errs, c.want) {
 				t.Errorf("exit %d, want %d and %q:\n%.500s", code, exitBadUser, c.want, errs)
 			}
-			if c.line > 0 && !strings.Contains(errs, fmt.Sprintf("analysis.hcl line %d: ", c.line)) {
+			if c.line > 0 && !strings.Contains(errs, fmt.Sprintf("analysis.hcl line %d, column ", c.line)) {
 				t.Errorf("stderr does not name line %d:\n%.500s", c.line, errs)
 			}
 		})
@@ -279,7 +279,7 @@ func TestACatalogueWithAMillionColumnsGivesAShortMessage(t *testing.T) {
 	f.write("stars.csv", b.String())
 	f.write("analysis.hcl", starFlow)
 	code, _, errs := f.dipline("check")
-	if code != exitBadUser || !strings.Contains(errs, "analysis.hcl line 6: ") || !strings.Contains(errs, "stars.csv:1: a row of more than 10,000 cells") {
+	if code != exitBadUser || !strings.Contains(errs, "analysis.hcl line 6, column ") || !strings.Contains(errs, "stars.csv:1: a row of more than 10,000 cells") {
 		t.Errorf("exit %d:\n%.1000s", code, errs)
 	}
 	// One line, where the whole header was repeated in each of four messages (35 MB).
@@ -363,7 +363,7 @@ func TestASparseGigabyteLightCurveIsRefusedInLittleMemory(t *testing.T) {
 		t.Run(command+" refuses it with a peak of at most 200 MB", func(t *testing.T) {
 			code, errs, rss := peakRSS(t, f.dir, command)
 			t.Logf("dipline %s: exit %d, peak RSS %.1f MB (VmHWM)", command, code, float64(rss)/1e6)
-			if code != exitBadUser || !strings.Contains(errs, "analysis.hcl line 6: ") || !strings.Contains(errs, `"lc.csv" is 1 GiB`) {
+			if code != exitBadUser || !strings.Contains(errs, "analysis.hcl line 6, column ") || !strings.Contains(errs, `"lc.csv" is 1 GiB`) {
 				t.Errorf("exit %d:\n%s", code, errs)
 			}
 			if rss > 200e6 {

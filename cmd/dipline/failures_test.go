@@ -138,7 +138,7 @@ func TestALastStepThatFailsKeepsTheOthersResults(t *testing.T) {
 		t.Fatalf("exit %d, want %d\n%s\n%s", code, exitBadUser, out, errs)
 	}
 	t.Run("the message names the file, line, block and attribute", func(t *testing.T) {
-		want := fmt.Sprintf(`analysis.hcl line %d: fit "planets": limb_darkening: band "survey-red": no segment of the light curve has this band`, line)
+		want := fmt.Sprintf(`analysis.hcl line %d, column 20: fit "planets": limb_darkening: band "survey-red": no segment of the light curve has this band`, line)
 		if !strings.Contains(out, want) || !strings.Contains(errs, want) {
 			t.Errorf("output lacks %q:\n%s\n%s", want, out, errs)
 		}

@@ -126,7 +126,7 @@ func TestTypoGivesItsLine(t *testing.T) {
 		t.Fatalf("exit %d, want %d", code, exitBadUser)
 	}
 	// The file and line, the message with a suggestion, the line itself and a caret line.
-	want := `analysis.hcl line 16: search "dips" reads detrend.quite for light_curve, and there is no detrend step "quite". Did you mean detrend.quiet?` + "\n" +
+	want := `analysis.hcl line 16, column 17: search "dips" reads detrend.quite for light_curve, and there is no detrend step "quite". Did you mean detrend.quiet?` + "\n" +
 		"   16 |   light_curve = detrend.quite\n" +
 		"      |   "
 	if !strings.Contains(errs, want) || !strings.Contains(errs, "^^^^^^^^^^^^^\n") {

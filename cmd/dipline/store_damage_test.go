@@ -462,7 +462,7 @@ func TestAStoreThatIsNotAStoreIsRefusedWithItsLine(t *testing.T) {
 				code, out, errs := f.dipline(strings.Fields(cmd)...)
 				noCrashText(t, cmd, out+errs)
 				// The line of `store =` is line 3 of the workflow (workflowText above).
-				want := "analysis.hcl line 3: store names " + name + ", which is not a dipline store"
+				want := "analysis.hcl line 3, column 11: store names " + name + ", which is not a dipline store"
 				if code != exitBadUser || !strings.Contains(errs, want) || strings.Contains(errs, "damaged") || strings.Contains(errs, "salvage") {
 					t.Errorf("%s: exit %d (want %d), stderr lacks %q or calls the file damaged:\n%s%s", cmd, code, exitBadUser, want, out, errs)
 				}
