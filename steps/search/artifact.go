@@ -82,6 +82,17 @@ func (a *Artifact) Signals() []signals.Signal {
 	return out
 }
 
+// AssumedDensity is the star's mean density, g/cm³, that the grid and the box durations
+// were built for (star_density); the vet step compares it with the star's.
+func (a *Artifact) AssumedDensity() float64 { return a.Grid.Density }
+
+// TriedDurations returns the shortest and longest box durations, in days, that the search
+// scans at period p for a star of the given density on its light curve's cadence: at
+// AssumedDensity, the ones it tried.
+func (a *Artifact) TriedDurations(p, density float64) (lo, hi float64) {
+	return bls.DurationRange(p, density, a.Cadence)
+}
+
 // SNRFormula is how the signals' SNR is defined, for the results schema.
 const SNRFormula = "SNR = depth / σ_T × √N_tr, where σ_T is the standard deviation of the out-of-transit flux averaged in bins one transit duration long (so correlated noise on that time scale counts) and N_tr the number of transits with data; depth / σ_depth when fewer than 10 such bins exist"
 

@@ -44,8 +44,8 @@ type Signal struct {
 	// Single, when not empty, says that the dip rests on one transit and its period is not
 	// measured; the odd/even test then cannot be run.
 	Single string
-	// Tests are in a fixed order: odd_even, secondary, shape, density, blend, depth,
-	// period_ratio, radius, star_period.
+	// Tests are in a fixed order: odd_even, secondary, shape, density, search_density,
+	// blend, depth, period_ratio, radius, star_period.
 	Tests []Test
 }
 
@@ -56,15 +56,22 @@ type Artifact struct {
 
 // testTitles are the tests' names in plain words, for the run summary.
 var testTitles = map[string]string{
-	"odd_even":     "odd/even depths",
-	"secondary":    "secondary eclipse",
-	"shape":        "shape",
-	"density":      "stellar density",
-	"blend":        "blended source",
-	"depth":        "depth consistency",
-	"period_ratio": "period ratios",
-	"radius":       "radius",
-	"star_period":  "the star's own period",
+	"odd_even":       "odd/even depths",
+	"secondary":      "secondary eclipse",
+	"shape":          "shape",
+	"density":        "stellar density",
+	"search_density": "the search's stellar density",
+	"blend":          "blended source",
+	"depth":          "depth consistency",
+	"period_ratio":   "period ratios",
+	"radius":         "radius",
+	"star_period":    "the star's own period",
+}
+
+// settingTests are the tests that judge how an earlier step was set rather than the
+// planet, each with what its disagreement says in the signal's summary line.
+var settingTests = map[string]string{
+	"search_density": "the search assumed a star unlike the star step's, so it searched with the wrong transit durations (the search's stellar density): set star_density on the search to the star's and run it again",
 }
 
 func title(test string) string {
@@ -104,7 +111,7 @@ func (a *Artifact) Figures() []steps.Figure {
 		}
 		figs = append(figs,
 			steps.Figure{Name: s.Name + ".disagree", Value: float64(s.count(steps.VerdictDisagree)),
-				Doc: "number of tests whose data disagree with a planet transiting the target (0 when none)"},
+				Doc: "number of tests that disagree (0 when none): the data with a planet transiting the target, or, for search_density, the star the search assumed with the star step's"},
 			steps.Figure{Name: s.Name + ".cautions", Value: float64(s.count(steps.VerdictCaution)),
 				Doc: "number of tests that give a caution: worth a look, not a failure on its own"})
 	}
@@ -158,22 +165,29 @@ func (s Signal) summary() string {
 		fmt.Fprintf(&b, " (planet %s of the fit)", s.Planet)
 	}
 	b.WriteString(": ")
-	by := func(verdict string) []string {
+	// A disagreement of a setting test (settingTests) is about how an earlier step was set,
+	// not about the planet, and is said apart.
+	by := func(verdict string, settings bool) []string {
 		var names []string
 		for _, t := range s.Tests {
-			if t.Verdict == verdict {
+			if _, setting := settingTests[t.Name]; t.Verdict == verdict && (settings || !setting) {
 				names = append(names, title(t.Name))
 			}
 		}
 		return names
 	}
-	dis, cau, nr := by(steps.VerdictDisagree), by(steps.VerdictCaution), by(NotRun)
+	dis, cau, nr := by(steps.VerdictDisagree, false), by(steps.VerdictCaution, true), by(NotRun, true)
 	var parts []string
 	switch len(dis) {
 	case 0:
 		parts = append(parts, "no test disagrees with a planet on the target")
 	default:
 		parts = append(parts, fmt.Sprintf("the data disagree with a planet on the target in %d test(s) (%s)", len(dis), strings.Join(dis, ", ")))
+	}
+	for _, t := range s.Tests {
+		if say, setting := settingTests[t.Name]; setting && t.Verdict == steps.VerdictDisagree {
+			parts = append(parts, say)
+		}
 	}
 	if len(cau) > 0 {
 		parts = append(parts, fmt.Sprintf("a caution from %s", strings.Join(cau, ", ")))

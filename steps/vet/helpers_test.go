@@ -15,6 +15,8 @@ import (
 	"dipline/steps/internal/stellar"
 	"dipline/steps/internal/steptest"
 	"dipline/steps/internal/synth"
+	"dipline/steps/search"
+	"dipline/steps/search/bls"
 	"dipline/steps/star"
 )
 
@@ -31,6 +33,20 @@ type signalArtifact []signals.Signal
 func (s signalArtifact) Signals() []signals.Signal { return s }
 func (s signalArtifact) Encode() []byte            { return nil }
 func (s signalArtifact) Figures() []steps.Figure   { return nil }
+
+// searchOf stands in for a search's result: the signals as its detections, found by a
+// search that assumed a star of the given density (g/cm³) on the light curves' 2-minute
+// cadence. It is the search step's own artifact, so the vet reads it as it reads a run's.
+func searchOf(sigs []signals.Signal, density float64) *search.Artifact {
+	a := &search.Artifact{Grid: bls.Grid{Density: density}, Cadence: cadence}
+	for _, s := range sigs {
+		a.Passes = append(a.Passes, bls.Pass{Found: &bls.Detection{
+			Timing:   bls.Timing{Period: s.Period, Epoch: s.Epoch},
+			Shape:    bls.Shape{Duration: s.Duration, Depth: s.Depth, DepthSigma: s.DepthErr},
+			Strength: bls.Strength{SNR: s.SNR, SDE: s.SDE, Transits: s.Transits}}})
+	}
+	return a
+}
 
 // Every scenario below is invented: a 27-day light curve at a 2-minute cadence in two
 // segments either side of a one-day gap, as an all-sky survey's sector gives.

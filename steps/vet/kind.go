@@ -4,10 +4,12 @@
 // data disagree, or "not run" with the reason) and a one-line reason. The tests: odd and
 // even transit depths; a secondary eclipse near phase 0.5 and anywhere in phase, with the
 // geometric albedo it would need after the hottest day side's thermal light; the shape
-// (V-shaped or grazing); the star's density against the transit's; the faintest blended
-// source able to make the transit's shape; the depth in each segment and band; the ratios
-// between the signals' periods; the radius from a derive step; and the star's own periods,
-// as the light curve's detrend step measured them in the trend it removed.
+// (V-shaped or grazing); the star's density against the transit's, and against the one the
+// search assumed for its boxes and grid (a setting to fix, not evidence against a planet);
+// the faintest blended source able to make the transit's shape; the depth in each segment
+// and band; the ratios between the signals' periods; the radius from a derive step; and
+// the star's own periods, as the light curve's detrend step measured them in the trend it
+// removed.
 //
 // It runs on the light curve (normally the masked detrend the fit used) with the signals
 // of a search, and uses a fit, a star and a derive step when given. It fits no transit
@@ -38,8 +40,9 @@ func New() steps.Kind { return steps.Define[Config](Kind{}) }
 
 var _ steps.Typed[Config] = Kind{}
 
-// version is bumped whenever the numbers, the wording or the encoding change.
-const version = 4
+// version is bumped whenever the numbers, the wording or the encoding change. 5: the
+// search_density test, the star's density against the one the search assumed.
+const version = 5
 
 // Defaults, each with its source.
 const (
@@ -105,7 +108,7 @@ func (Kind) Random() bool { return false }
 
 // Doc is one sentence for the kinds listing.
 func (Kind) Doc() string {
-	return "Tests each signal of a search against the hypothesis of a planet on the target (odd/even depths, secondary eclipse and albedo, shape, stellar density, blended sources, depth per segment and band, period ratios, radius, the star's own period) and says for each whether the data agree, give a caution or disagree."
+	return "Tests each signal of a search against the hypothesis of a planet on the target (odd/even depths, secondary eclipse and albedo, shape, stellar density, the stellar density the search assumed, blended sources, depth per segment and band, period ratios, radius, the star's own period) and says for each whether the data agree, give a caution or disagree."
 }
 
 // Config is what a vet block may say. Defaults are the constants above, written as a user
@@ -114,7 +117,7 @@ type Config struct {
 	Signals            steps.Ref  `step:"signals,required" accepts:"search" doc:"the search whose signals are vetted, named signal1, signal2 … in its order"`
 	LightCurve         steps.Ref  `step:"light_curve,required" accepts:"photometry,detrend" doc:"the light curve the tests run on: normally the masked detrend the fit used"`
 	Fit                *steps.Ref `step:"fit" accepts:"fit" doc:"a fit of the same signals (planets b, c, d in the search's order): its samples give the grazing probability, the transit's density and the blend bound, and its ephemeris places the transits"`
-	Star               *steps.Ref `step:"star" accepts:"star" doc:"the host star: its density for the density test and the orbit, its Teff for the day side's thermal light"`
+	Star               *steps.Ref `step:"star" accepts:"star" doc:"the host star: its density for the density test, the search's assumed density and the orbit, its Teff for the day side's thermal light"`
 	Derive             *steps.Ref `step:"derive" accepts:"derive" doc:"derived planet parameters: the radius on the target is compared with max_planet_radius"`
 	OddEvenSigma       float64    `step:"odd_even_sigma" default:"3" doc:"difference of odd and even transit depths, in σ, at which the data disagree"`
 	SecondaryAlarm     float64    `step:"secondary_false_alarm" default:"0.00135" doc:"family-wise false-alarm probability of the secondary-eclipse search; the significance each phase must reach is Šidák-corrected for the number of independent phases searched"`
@@ -198,6 +201,9 @@ func (Kind) Run(ctx context.Context, cfg *Config, in steps.Inputs, env steps.Env
 		return nil, errors.New("vet: light_curve does not refer to a step with a light curve")
 	}
 	d := Data{Light: src.LightCurve(), Signals: ss.Signals()}
+	if sd, ok := ss.(Searched); ok {
+		d.Search = sd
+	}
 	if vs, ok := src.(lightcurve.VariabilitySource); ok {
 		vb := vs.Variability()
 		d.Variability = &vb

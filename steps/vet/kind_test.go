@@ -28,7 +28,10 @@ func fixture(t *testing.T) *Artifact {
 	second.Period *= 2
 	second.Epoch += planet.Period / 2
 	f := planetFit(planet.Period, planet.Epoch+4*planet.Period, planet.K, planet.B, rho, 2024)
-	in := inputs(lc, []signals.Signal{planetSignal(), second}, f, solarStar(rho), radii("b", 0.47, 0.49, 0.51))
+	sigs := []signals.Signal{planetSignal(), second}
+	in := inputs(lc, sigs, f, solarStar(rho), radii("b", 0.47, 0.49, 0.51))
+	// The search assumed the star's density, as a workflow with a star step should.
+	in.Refs["signals"] = []steps.Artifact{searchOf(sigs, rho)}
 	// The light curve comes with the star's own variability, at a period unrelated to both
 	// signals' (4.9 d: 3.3 and 6.6 d are 0.67 and 1.35 times it).
 	in.Refs["light_curve"] = []steps.Artifact{detrendedArtifact{curveArtifact{lc},
@@ -117,8 +120,8 @@ func TestTheArtifactJudgesEveryTest(t *testing.T) {
 	t.Run("every verdict is one of the three words or not run, with a threshold and a reason", func(t *testing.T) {
 		ok := map[string]bool{steps.VerdictAgree: true, steps.VerdictCaution: true, steps.VerdictDisagree: true, NotRun: true}
 		vs := a.Verdicts()
-		if len(vs) != 2*9 {
-			t.Errorf("%d verdicts, want 9 per signal", len(vs))
+		if len(vs) != 2*10 {
+			t.Errorf("%d verdicts, want 10 per signal", len(vs))
 		}
 		for _, v := range vs {
 			if !ok[v.Verdict] || v.Threshold == "" || v.Reason == "" || v.Subject == "" {
@@ -135,7 +138,7 @@ func TestTheArtifactJudgesEveryTest(t *testing.T) {
 			seen[f.Name] = true
 		}
 		for _, name := range []string{"signal1.disagree", "signal2.disagree", "signal1.odd_even.sigma", "signal1.secondary.depth",
-			"signal1.secondary.significance", "signal1.secondary.albedo", "signal1.blend.max_delta_mag", "signal1.density.ratio",
+			"signal1.secondary.significance", "signal1.secondary.albedo", "signal1.blend.max_delta_mag", "signal1.density.ratio", "signal1.search_density.ratio",
 			"signal1.shape.grazing_probability", "signal1.depth.segments_p_value", "signal1.period_ratio.signal2", "signal1.radius.radius_jup",
 			"signal1.star_period.nearest", "signal1.star_period.ratio", "signal2.star_period.tolerance"} {
 			if !seen[name] {

@@ -19,14 +19,15 @@ import (
 // the measured value; a test not listed (or none of whose listed figures it has) shows all
 // its figures.
 var measuredFigures = map[string][]string{
-	"odd_even":    {"sigma", "even_depth", "odd_depth"},
-	"secondary":   {"significance", "threshold", "anywhere_significance", "anywhere_threshold", "albedo"},
-	"shape":       {"grazing_probability", "ingress_fraction", "ingress_fraction_low"},
-	"density":     {"ratio", "sigma"},
-	"blend":       {"ingress_ratio", "max_delta_mag"},
-	"depth":       {"segments_p_value", "bands_p_value"},
-	"radius":      {"radius_jup"},
-	"star_period": {"nearest", "ratio", "tolerance"},
+	"odd_even":       {"sigma", "even_depth", "odd_depth"},
+	"secondary":      {"significance", "threshold", "anywhere_significance", "anywhere_threshold", "albedo"},
+	"shape":          {"grazing_probability", "ingress_fraction", "ingress_fraction_low"},
+	"density":        {"ratio", "sigma"},
+	"search_density": {"ratio", "star_duration", "shortest_box", "longest_box"},
+	"blend":          {"ingress_ratio", "max_delta_mag"},
+	"depth":          {"segments_p_value", "bands_p_value"},
+	"radius":         {"radius_jup"},
+	"star_period":    {"nearest", "ratio", "tolerance"},
 }
 
 // figureWords are plainer words for a few figure names; the others are shown as named,

@@ -34,6 +34,9 @@ type Data struct {
 	Light *lightcurve.LightCurve
 	// Signals are the search's signals in its order.
 	Signals []signals.Signal
+	// Search is how the search behind the signals was set: the star's density it assumed
+	// and the boxes it tried; nil when the signals' step does not say.
+	Search Searched
 	// Fit, Star and Derive are optional (nil when not given).
 	Fit    Posterior
 	Star   *stellar.Star
@@ -177,7 +180,7 @@ func (v *vetter) vetOne(tg *target) Signal {
 		for _, name := range []string{"odd_even", "secondary", "shape", "depth"} {
 			s.Tests = append(s.Tests, notRun(name, why))
 		}
-		s.Tests = append(s.Tests, v.density(tg), v.blend(tg), v.periodRatio(tg), v.radius(tg), v.starPeriod(tg))
+		s.Tests = append(s.Tests, v.density(tg), v.searchDensity(tg), v.blend(tg), v.periodRatio(tg), v.radius(tg), v.starPeriod(tg))
 		starResidualAlso(tg, &s)
 		return s
 	}
@@ -191,7 +194,7 @@ func (v *vetter) vetOne(tg *target) Signal {
 	s.Tests = append(s.Tests, oe)
 	s.Tests = append(s.Tests, v.secondary(tg, scale, deeper))
 	s.Tests = append(s.Tests, v.shape(tg, w, scale))
-	s.Tests = append(s.Tests, v.density(tg), v.blend(tg))
+	s.Tests = append(s.Tests, v.density(tg), v.searchDensity(tg), v.blend(tg))
 	s.Tests = append(s.Tests, v.depth(tg, w, scale))
 	s.Tests = append(s.Tests, v.periodRatio(tg), v.radius(tg), v.starPeriod(tg))
 	starResidualAlso(tg, &s)

@@ -144,7 +144,7 @@ func TestMissingInputsAreReportedAsNotRun(t *testing.T) {
 			t.Errorf("cautions %q", c)
 		}
 		// The line itself still lists what did not run (it is shown when a signal is doubtful).
-		if line := a.Signals[0].summary(); !strings.Contains(line, "not run: stellar density, blended source") {
+		if line := a.Signals[0].summary(); !strings.Contains(line, "not run: stellar density, the search's stellar density, blended source") {
 			t.Errorf("summary line %q", line)
 		}
 		if !strings.Contains(strings.Join(notes, "\n"), "does not replace") {

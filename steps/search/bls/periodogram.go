@@ -28,6 +28,29 @@ const binsPerShortest = 2
 // fixed, so the split of work never depends on the number of workers.
 const freqBlock = 256
 
+// The stars the durations were chosen to cover, as their density over the stated one: by
+// durLong's reason, one down to CoveredLessDense (a third); by durShort's, one up to
+// CoveredDenser (twice), the densest whose chords out to b ≈ 0.9 the shortest box still
+// reaches. A test holds them to durShort and durLong.
+const (
+	CoveredLessDense = 1.0 / 3
+	CoveredDenser    = 2.0
+)
+
+// ShortestBox and LongestBox are durShort and durLong, for the steps that report the boxes.
+const (
+	ShortestBox = durShort
+	LongestBox  = durLong
+)
+
+// DurationRange returns the shortest and longest box durations, in days, that a search
+// scans at period p (days) for a star of the given mean density (g/cm³) on data of the
+// given cadence (days): durShort to durLong times the central-transit duration
+// (CentralDuration), never below the cadence.
+func DurationRange(p, density, cadence float64) (lo, hi float64) {
+	return durationRange(p, density, cadence)
+}
+
 // durationRange returns the shortest and longest box durations scanned at period p.
 func durationRange(p, density, cadence float64) (lo, hi float64) {
 	t := CentralDuration(p, density)
