@@ -1,6 +1,7 @@
 package detrend
 
 import (
+	"bytes"
 	"errors"
 	"fmt"
 
@@ -32,8 +33,31 @@ type Result struct {
 	// Star is the star's own periodic variability, measured in the trend.
 	Star lightcurve.Variability
 	// Caution, when not empty, says why depths and signal to noise measured on Curve may be
-	// biased (a masked pass's short or biased window; see maskedCaution).
+	// biased (a masked pass's short or biased window; see maskedCaution), or that the star's
+	// variability outlived its rotation model.
 	Caution string
+	// Rotation is the model of the star's rotation the trend includes (the trend is the
+	// model times the window's trend), nil when none was used.
+	Rotation *Rotation
+}
+
+// Rotation describes the rotation model divided out before the window (spin.go).
+type Rotation struct {
+	// Period is the rotation period, KnotSpacing the widest spacing of the coefficients'
+	// knots, days.
+	Period, KnotSpacing float64
+	// Harmonics is the number of harmonics of the period in the model; Amplitudes their
+	// semi-amplitudes relative to the star's level (medians over the knot intervals), and
+	// PeakToPeak the modulation's full range likewise.
+	Harmonics  int
+	Amplitudes []float64
+	PeakToPeak float64
+	// Explained is the share of the star's variance above the white noise the model
+	// removes; Noise the white noise of one point, relative flux.
+	Explained, Noise float64
+	// Excess is the scatter of the detrended light curve over the reference transit
+	// duration against what its white noise gives (1: white noise only; 0: not measured).
+	Excess float64
 }
 
 // Cautions implements steps.Cautioner.
@@ -113,13 +137,21 @@ func (r *Result) count(m robust.Mark) int {
 const (
 	tag       = "detrend"
 	formatVer = 3
+	// formatRotation is formatVer's record followed by the rotation model: a result
+	// without one keeps formatVer, so its bytes, and its key, are those of a detrend
+	// that never looked at the rotation.
+	formatRotation = 4
 	// maxStarPeriods bounds the star's periods a decoder accepts.
 	maxStarPeriods = 16
 )
 
 // Encode returns the canonical encoding.
 func (r *Result) Encode() []byte {
-	w := codec.NewWriter(tag, formatVer)
+	ver := uint32(formatVer)
+	if r.Rotation != nil {
+		ver = formatRotation
+	}
+	w := codec.NewWriter(tag, ver)
 	w.String(r.Estimator)
 	w.Int(int64(r.Degree))
 	w.Float(r.Scale)
@@ -138,6 +170,16 @@ func (r *Result) Encode() []byte {
 		}
 		w.String(string(marks))
 	}
+	if ro := r.Rotation; ro != nil {
+		w.Float(ro.Period)
+		w.Float(ro.KnotSpacing)
+		w.Int(int64(ro.Harmonics))
+		w.Floats(ro.Amplitudes)
+		w.Float(ro.PeakToPeak)
+		w.Float(ro.Explained)
+		w.Float(ro.Noise)
+		w.Float(ro.Excess)
+	}
 	return w.Bytes()
 }
 
@@ -147,7 +189,11 @@ func (Kind) Decode(b []byte) (steps.Artifact, error) { return steps.Decoded(Deco
 
 // Decode reads a Result back from its encoding.
 func Decode(b []byte) (*Result, error) {
-	rd := codec.NewReader(b, tag, formatVer)
+	ver := uint32(formatVer)
+	if bytes.HasPrefix(b, codec.NewWriter(tag, formatRotation).Bytes()) {
+		ver = formatRotation
+	}
+	rd := codec.NewReader(b, tag, ver)
 	r := &Result{}
 	r.Estimator = rd.String()
 	r.Degree = int(rd.Int())
@@ -175,6 +221,18 @@ func Decode(b []byte) (*Result, error) {
 		}
 		r.Trends = append(r.Trends, t)
 	}
+	if ver == formatRotation {
+		ro := &Rotation{}
+		ro.Period = rd.Float()
+		ro.KnotSpacing = rd.Float()
+		ro.Harmonics = int(rd.Int())
+		ro.Amplitudes = rd.Floats()
+		ro.PeakToPeak = rd.Float()
+		ro.Explained = rd.Float()
+		ro.Noise = rd.Float()
+		ro.Excess = rd.Float()
+		r.Rotation = ro
+	}
 	if err := rd.Err(); err != nil {
 		return nil, fmt.Errorf("detrend: %w", err)
 	}
@@ -196,6 +254,11 @@ func (r *Result) check() error {
 	}
 	if len(r.Star.Periods) != len(r.Star.Amplitudes) || len(r.Star.Periods) > maxStarPeriods {
 		return fmt.Errorf("%d star periods with %d amplitudes", len(r.Star.Periods), len(r.Star.Amplitudes))
+	}
+	if ro := r.Rotation; ro != nil {
+		if !(ro.Period > 0) || !(ro.KnotSpacing > 0) || ro.Harmonics < 1 || len(ro.Amplitudes) != ro.Harmonics {
+			return fmt.Errorf("rotation model of period %v d, knots %v d apart, with %d harmonics and %d amplitudes", ro.Period, ro.KnotSpacing, ro.Harmonics, len(ro.Amplitudes))
+		}
 	}
 	if err := r.Curve.Validate(); err != nil {
 		return err
@@ -264,5 +327,18 @@ func (r *Result) Figures() []steps.Figure {
 		steps.Figure{Name: "split_at_gap", Value: r.SplitAtGap, Unit: "d", Doc: "gaps longer than this split the light curve"},
 		steps.Figure{Name: "pieces", Value: float64(pieces), Doc: "pieces detrended on their own after splitting at gaps"},
 	)
+	if ro := r.Rotation; ro != nil {
+		figs = append(figs,
+			steps.Figure{Name: "rotation.period", Value: ro.Period, Unit: "d", Doc: "rotation period of the model divided out before the window"},
+			steps.Figure{Name: "rotation.harmonics", Value: float64(ro.Harmonics), Doc: "harmonics of the rotation period in the model"},
+			steps.Figure{Name: "rotation.peak_to_peak", Value: ro.PeakToPeak * 1e6, Unit: "ppm", Doc: "full range of the rotation model's modulation (median over its knot intervals)"},
+			steps.Figure{Name: "rotation.knot_spacing", Value: ro.KnotSpacing, Unit: "d", Doc: "time over which the model's coefficients change (spacing of their knots)"},
+			steps.Figure{Name: "rotation.explained", Value: ro.Explained, Doc: "share of the star's variance above the white noise the model removes"},
+		)
+		if ro.Excess > 0 {
+			figs = append(figs, steps.Figure{Name: "rotation.excess", Value: ro.Excess,
+				Doc: "scatter of the detrended light curve over 2 hours against what its white noise gives (1: white noise only)"})
+		}
+	}
 	return figs
 }

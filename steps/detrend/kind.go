@@ -4,9 +4,12 @@
 // or a running median — so that a transit search sees a flat light curve. It splits the
 // series at long gaps, removes flares (upward outliers only, never dips), and, given the
 // signals of a search step, leaves their transits out of the trend so that they come
-// through undistorted. The numerics live in the robust sub-package and know nothing of
-// workflow files; this package turns a block's values into a robust.Config, runs it and
-// wraps the outcome as an Artifact.
+// through undistorted. A star turning too fast for any window that keeps a transit to follow
+// has its rotation divided out first, as a harmonic series in its rotation phase with slowly
+// changing coefficients (spin.go decides; the rotation sub-package fits). The numerics live
+// in the robust and rotation sub-packages and know nothing of workflow files; this package
+// turns a block's values into their configurations, runs them and wraps the outcome as an
+// Artifact.
 //
 // Main entry point: Kind (register it with the engine). The artifact, *Result, carries a
 // lightcurve.LightCurve, so a search or another detrend can read it.
@@ -40,7 +43,7 @@ var (
 )
 
 // version is bumped whenever the numbers or the encoding change.
-const version = 9 // 6: a masked pass's window: bias judged against its own error, a floor of 5 masked stretches, bins a whole number of cadences; a light curve too sparse for its window refused. 7: a masked pass's caution kept in the result. 8: the local polynomial fitted at anchors 1/64 of a window apart where points are denser, interpolated between. 9: a masked pass narrower than the floor, down to 2 masked stretches, when the floor's window leaves a bias shown above the noise
+const version = 10 // 6: a masked pass's window: bias judged against its own error, a floor of 5 masked stretches, bins a whole number of cadences; a light curve too sparse for its window refused. 7: a masked pass's caution kept in the result. 8: the local polynomial fitted at anchors 1/64 of a window apart where points are denser, interpolated between. 9: a masked pass narrower than the floor, down to 2 masked stretches, when the floor's window leaves a bias shown above the noise. 10: a star turning too fast for a window that keeps a transit has its rotation (a harmonic series with slowly changing coefficients) divided out before the window; rotation and rotation_period
 
 // The estimator names written in a workflow.
 const (
@@ -129,7 +132,7 @@ func (Kind) Random() bool { return false }
 
 // Doc is one sentence for the kinds listing.
 func (Kind) Doc() string {
-	return "Divides a light curve by a robust trend (a local quadratic in a window chosen from the data by default; Tukey biweight, robust spline or running median), removing flares upward only, sparing masked transits and measuring the star's own periods."
+	return "Divides a light curve by a robust trend (a local quadratic in a window chosen from the data by default; Tukey biweight, robust spline or running median), after dividing out a fast rotator's spot modulation as a periodic model when no window that keeps a transit can follow it, removing flares upward only, sparing masked transits and measuring the star's own periods."
 }
 
 // Config is what a detrend block may say. Defaults are the constants above, written as a
@@ -151,6 +154,18 @@ type Config struct {
 	MaskFactor float64    `step:"mask_factor" default:"1.5" doc:"the masked stretch around each mid-transit, in transit durations"`
 	// MaskCount is absent to mask every signal.
 	MaskCount *int `step:"mask_count" doc:"mask only the first this many signals of the search's ranking; all of them when absent"`
+	// Rotation says whether the star's rotation is divided out first (spin.go).
+	Rotation string `step:"rotation" default:"auto" choices:"auto|on|off" doc:"whether to divide out the star's rotation before the window, as a series of harmonics of its rotation period whose coefficients change slowly in time (knots 16 rotations apart, or 8 or 4 when they fit significantly better, and at least 1 d apart), fitted robustly with dips below it left out: auto does so when the light curve shows a period too fast for a window that keeps half of a 3-hour transit to follow (it leaves more than the white noise over such a transit), and the model removes at least 90 % of the star's variance above the white noise with a shape like spots' rather than a narrow dip; on always does (a warning says when the shape is a narrow dip), off never; the run says what it found and weighed"`
+	// RotationPeriod is absent to find the period in the light curve.
+	RotationPeriod *float64 `step:"rotation_period" dim:"time" doc:"the star's rotation period for the rotation model; by default the strongest period of the light curve (or twice it, when that is there too). With rotation = auto the decision is still made from the light curve's own periods"`
+}
+
+// rotation is the rotation setting, "auto" when empty (a Config made in code).
+func (c *Config) rotation() string {
+	if c.Rotation == "" {
+		return rotationAuto
+	}
+	return c.Rotation
 }
 
 // span is the window in days, or 0 when local-polynomial is to choose it from the data.
@@ -209,6 +224,14 @@ func (Kind) Check(c *Config) error {
 	}
 	if c.MinPoints < 3 || c.MinPoints > 1_000_000 {
 		return steps.Attrf("min_window_points", "must be between 3 and 1000000, not %d", c.MinPoints)
+	}
+	if p := c.RotationPeriod; p != nil {
+		if err := positive("rotation_period", *p, "time"); err != nil {
+			return err
+		}
+		if c.rotation() == rotationOff {
+			return steps.Attrf("rotation_period", "is given while rotation = \"off\"; write rotation = \"on\" or \"auto\" to use it, or leave it out")
+		}
 	}
 	if n := c.MaskCount; n != nil && (*n < 1 || *n > 1_000_000) {
 		return steps.Attrf("mask_count", "must be at least 1, not %d", *n)
@@ -300,7 +323,12 @@ func checkCurve(lc *lightcurve.LightCurve) error {
 // with the facts worth telling the user (the derived gap threshold, points dropped).
 func Detrend(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool *steps.Pool) (*Result, []string) {
 	res, out, notes := trend(cfg, lc, sigs, pool)
-	res.Star = starPeriods(lc, out, res.SplitAtGap, res.Scale, &notes)
+	smooth := res.Scale
+	if r := res.Rotation; r != nil {
+		// The rotation model resolves 2K + 1 terms per knot interval.
+		smooth = min(smooth, r.KnotSpacing/float64(2*r.Harmonics+1))
+	}
+	res.Star = starPeriods(lc, out, res.SplitAtGap, smooth, &notes)
 	if n := res.count(robust.NoTrend); n > 0 {
 		notes = append(notes, fmt.Sprintf("%d points dropped: fewer than %d usable points within their window", n, cfg.MinPoints))
 	}
@@ -320,12 +348,28 @@ func Flatten(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool 
 // cfg is the local polynomial's and leaves its span to the data (unmasked); otherwise cfg
 // as it is. A step detrending many copies of one light curve makes the choice, which costs
 // more than the filter, once.
+//
+// It also makes the rotation decision once (spinOf), writing rotation = "off", or "on" with
+// the rotation period found, and chooses the window on the light curve with the rotation
+// divided out when it is.
 func WithChosenSpan(cfg Config, lc *lightcurve.LightCurve, pool *steps.Pool) Config {
-	if cfg.span() != 0 {
+	if cfg.span() != 0 && cfg.rotation() == rotationOff {
 		return cfg
 	}
 	series, gap, _ := seriesOf(cfg, lc, nil)
 	var notes []string
+	if cfg.rotation() != rotationOff {
+		if sp := spinOf(cfg, series, gap, 0, parOf(pool), &notes); sp == nil {
+			cfg.Rotation, cfg.RotationPeriod = rotationOff, nil
+		} else {
+			p := sp.info.Period
+			cfg.Rotation, cfg.RotationPeriod = rotationOn, &p
+			series = sp.series
+		}
+	}
+	if cfg.span() != 0 {
+		return cfg
+	}
 	span, _, _ := chooseSpan(series, cfg.Degree, 0, 0, gap, parOf(pool), &notes)
 	cfg.Span = &span
 	return cfg
@@ -403,17 +447,27 @@ func trend(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool *s
 			stretch*24, span*24))
 	}
 	par := parOf(pool)
+	sp := spinOf(cfg, series, gap, dur, par, &notes)
+	if sp != nil {
+		series = sp.series
+	}
 	var doubt spanDoubt
 	if rc.Span == 0 {
 		rc.Span, scale, doubt = chooseSpan(series, cfg.Degree, stretch, dur, gap, par, &notes)
 	}
 	out := robust.Detrend(rc, series, par)
+	if sp != nil {
+		sp.restore(out)
+	}
 	res := newResult(lc, out, cfg.Estimator, scale, gap)
 	if cfg.Estimator == estLocal {
 		res.Degree = cfg.Degree
 		if stretch > 0 {
 			res.Caution = maskedCaution(rc.Span, dur, cfg.Degree, doubt)
 		}
+	}
+	if sp != nil {
+		sp.tell(res, &notes)
 	}
 	return res, out, notes
 }

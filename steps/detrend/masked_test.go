@@ -155,7 +155,9 @@ func TestTooSparseForTheWindowIsRefused(t *testing.T) {
 // five masked stretches follows it (the 0.5 d one left 7500 ppm of bias, 67 times the
 // noise, and the searches after it found spurious dips), so the masked pass goes down to
 // the widest window from two stretches that does follow it, and its caution says what the
-// narrower window costs. The residuals away from the transits then stay at the noise.
+// narrower window costs. The residuals away from the transits then stay at the noise. This
+// is the window's own answer, with the rotation model off (rotation = "auto" divides the
+// rotation out first: spin_test.go).
 func TestAFastRotatorsMaskedPassFollowsTheStar(t *testing.T) {
 	const period, epoch, dur = 1.5, 0.7, 1.84 / 24 / 1.5 // masked stretches of 1.84 h at the default 1.5 durations
 	s := synth.Curve{Span: 27, Cadence: 2.0 / 1440, Noise: 1000e-6, Seed: 6,
@@ -164,7 +166,7 @@ func TestAFastRotatorsMaskedPassFollowsTheStar(t *testing.T) {
 	lc := &lightcurve.LightCurve{TimeScale: "BJD_TDB", RefInt: 2460000, Segments: []lightcurve.Segment{{
 		ID: "1", Band: "survey-red", Exposure: 2.0 / 1440, Contamination: math.NaN(),
 		Time: s.Time, Flux: s.Flux, Err: s.Err}}}
-	res, notes := run(t, nil, lc, []signals.Signal{{Period: period, Epoch: epoch, Duration: dur, Depth: 1500e-6}}, 2)
+	res, notes := run(t, map[string]any{"rotation": "off"}, lc, []signals.Signal{{Period: period, Epoch: epoch, Duration: dur, Depth: 1500e-6}}, 2)
 	stretch := 1.5 * dur
 	if res.Scale >= maskedWindows*stretch || res.Scale < leastWindows*stretch {
 		t.Fatalf("masked window %.3g d; want from %.3g to under %.3g d (2 to 5 masked stretches); notes %q",
@@ -178,7 +180,7 @@ func TestAFastRotatorsMaskedPassFollowsTheStar(t *testing.T) {
 	// over 0.25 d cannot follow 0.7 of the star's turn exactly), and far below what the
 	// floor's 0.5 d window leaves.
 	sig := []signals.Signal{{Period: period, Epoch: epoch, Duration: dur, Depth: 1500e-6}}
-	floored, _ := run(t, map[string]any{"span": "0.5 d"}, lc, sig, 2)
+	floored, _ := run(t, map[string]any{"span": "0.5 d", "rotation": "off"}, lc, sig, 2)
 	chosen, old := residualRMS(res.Curve, period, epoch, dur), residualRMS(floored.Curve, period, epoch, dur)
 	t.Logf("residual scatter %.0f ppm; %.0f ppm at the floor's 0.5 d", chosen*1e6, old*1e6)
 	if chosen > 1.5*1000e-6 || old < 3*chosen {

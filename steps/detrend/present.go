@@ -165,10 +165,20 @@ func estimatorWords(r *Result) string {
 	return r.Estimator
 }
 
+// trendWords says how the trend was made: estimatorWords, after the rotation model when
+// there is one.
+func trendWords(r *Result) string {
+	w := estimatorWords(r)
+	if ro := r.Rotation; ro != nil {
+		w = fmt.Sprintf("a model of the star's rotation (%d harmonic(s) of %.4g d, coefficients changing over knots %.3g d apart) times %s", ro.Harmonics, ro.Period, ro.KnotSpacing, w)
+	}
+	return w
+}
+
 func (sh shown) trendPanel(r *Result) steps.Panel {
 	p := steps.Panel{Title: "Light curve and trend", Columns: 1}
 	words := fmt.Sprintf("The input light curve with the trend removed from it, %s, each piece between gaps longer than %.3g d on its own.",
-		estimatorWords(r), r.SplitAtGap)
+		trendWords(r), r.SplitAtGap)
 	if n := sh.count(robust.InTransit); n > 0 {
 		words += fmt.Sprintf(" %d points in masked transits (drawn larger) were left out of the trend, which is carried across them from either side.", n)
 	}

@@ -120,6 +120,15 @@ func BiweightLocation(x []float64, c float64) float64 {
 // Median returns the median of ascending x (the mean of the middle two for an even count).
 func Median(x []float64) float64 { return medianSorted(x) }
 
+// MedianOf returns the median of x in any order (the mean of the middle two for an even
+// count), reordering it, in linear expected time; NaN for none.
+func MedianOf(x []float64) float64 {
+	if len(x) == 0 {
+		return math.NaN()
+	}
+	return selectMedian(x)
+}
+
 // RobustSigma returns 1.4826 times the median absolute deviation of x about its median, the
 // normal-equivalent scatter that flares and transits barely move. It reorders x and
 // overwrites it with the deviations; it runs in linear expected time (no full sort).
