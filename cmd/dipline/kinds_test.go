@@ -19,7 +19,7 @@ func TestKindsShowsEveryBlockWithDefaultsAsWritten(t *testing.T) {
 		}
 	}
 	// Defaults as a user writes them, with their units, not internal numbers.
-	for _, want := range []string{`when not written: "1 rho_sun"`, `when not written: "2 R_jup"`, `when not written: "0.5 d"`,
+	for _, want := range []string{`when not written: "2 R_jup"`, `when not written: "0.5 d"`,
 		"when not written: 3\n", "when not written: true\n"} {
 		if !strings.Contains(out, want) {
 			t.Errorf("the listing lacks %q", want)

@@ -49,7 +49,8 @@ func configs(t testing.TB, st Star, maxSignals int) (detrend.Config, search.Conf
 	t.Helper()
 	d := steptest.MustConfig(detrend.New(), map[string]any{"light_curve": "photometry.raw"}).(*detrend.Config)
 	s := steptest.MustConfig(search.New(), map[string]any{"light_curve": "detrend.flat", "max_signals": maxSignals}).(*search.Config)
-	s.Density = st.Density
+	rho := st.Density
+	s.Density = &rho
 	return *d, *s
 }
 

@@ -124,6 +124,16 @@ func (k Kind) Run(ctx context.Context, c *Config, in steps.Inputs, env steps.Env
 	if !ok1 || !ok2 {
 		return nil, errors.New("completeness: the detrend and search settings were not handed over")
 	}
+	if scfg.Star != nil {
+		if err := sameStar(c, scfg); err != nil {
+			return nil, err
+		}
+		withStar, err := search.WithStar(*scfg, in.Ref("star"))
+		if err != nil {
+			return nil, err
+		}
+		scfg = &withStar
+	}
 	host, err := hostOf(in, scfg, raw, env)
 	if err != nil {
 		return nil, err
@@ -170,6 +180,33 @@ func (k Kind) Run(ctx context.Context, c *Config, in steps.Inputs, env steps.Env
 	res.Detections = detectionsOf(in, host)
 	res.occurrence()
 	return res, nil
+}
+
+// Inspect refuses, before anything runs (dipline check), a search whose settings take a
+// star that this step does not name (sameStar).
+func (Kind) Inspect(c *Config, in steps.Inputs) error {
+	if scfg, ok := in.Settings["search"].(*search.Config); ok {
+		return sameStar(c, scfg)
+	}
+	return nil
+}
+
+// sameStar refuses a search whose settings take their density from a star step (star =
+// star.<label>) unless this step names the same star: each copy is searched with the
+// density the search used, read from the star this step is handed (search.WithStar), and
+// only this step's own star puts the star's result in its key.
+func sameStar(c *Config, scfg *search.Config) error {
+	switch {
+	case scfg.Star == nil:
+		return nil
+	case c.Star == nil:
+		return steps.Attrf("star", "is needed: %s takes the star's density from %s (its star = %s), and each copy is searched with that density; write star = %s here too",
+			c.Search, *scfg.Star, *scfg.Star, *scfg.Star)
+	case *c.Star != *scfg.Star:
+		return steps.Attrf("star", "names %s, but %s takes the star's density from %s: each copy is searched with the density the search used, so both must name the same star",
+			*c.Star, c.Search, *scfg.Star)
+	}
+	return nil
 }
 
 // withoutKnown returns raw without the points within mask_factor × T14/2 of the fit's
@@ -232,8 +269,12 @@ func (h Host) star() Star { return Star{Density: h.Density, U1: h.U1, U2: h.U2} 
 // step, else the fit, else the search's own; the limb darkening from the fit, else
 // defaultLimb. It notes where each came from.
 func hostOf(in steps.Inputs, scfg *search.Config, raw *lightcurve.LightCurve, env steps.Env) (Host, error) {
-	h := Host{Density: scfg.Density, DensityFrom: "the search's star_density", U1: defaultLimb[0], U2: defaultLimb[1],
+	h := Host{DensityFrom: "the search's star_density", U1: defaultLimb[0], U2: defaultLimb[1],
 		LimbFrom: "a middle value for Sun-like to cool stars (no fit given)"}
+	var fromStar bool
+	if h.Density, fromStar = scfg.AssumedDensity(); fromStar {
+		h.DensityFrom = "the search's star step (the median of its density draws)"
+	}
 	fa, _ := in.Ref("fit").(*fit.Artifact)
 	if fa != nil {
 		if rho, _ := fa.Summary("star_density"); rho > 0 {

@@ -57,7 +57,7 @@ func Starter(file steps.File, out, name string, seed int) (*StarterWorkflow, err
 			strings.Join(rep.Uninherited, ", ")))
 	}
 	s.Unknown = append(s.Unknown,
-		`the star's density: nothing in a light curve gives it, so both searches use the Sun's ("1 rho_sun"); write the host's in star_density, since it sets the transit durations searched`)
+		`the star's density: nothing in a light curve gives it, so both searches use the Sun's ("1 rho_sun"); write the host's in star_density, since it sets the transit durations searched, or, once the star step sketched at the end is written, replace star_density on both searches by star = star.host`)
 	s.Text = starterText(file.Name, out, name, seed, p)
 	return s, nil
 }
@@ -330,7 +330,10 @@ fit "planets" {
 
 # What usually follows needs the star, which a light curve cannot give. Fill in the
 # catalogue file and the star's id, remove the '#' and run again ('dipline kinds' lists
-# every attribute).
+# every attribute). Once the star is written, replace star_density on both searches by
+# star = star.host: they then search for the star's own density, read from the star step
+# as the vet reads it, and the density is written once (a revision of the star's catalogue
+# row then re-runs the searches and the fit after them).
 #
 # catalogue "nearby" {                  # a table of stars with an id column
 #   file = "stars.csv"                  # beside this workflow: parallax, magnitudes, …

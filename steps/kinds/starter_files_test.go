@@ -216,3 +216,87 @@ func TestTheStarterTakesHeliocentricDatesOnUTC(t *testing.T) {
 		t.Errorf("runs %v; unknown %q; text:\n%s", sw.Runs, sw.Unknown, sw.Text)
 	}
 }
+
+// The starter's advice on the star's density, followed to the letter, gives a workflow
+// that loads and passes inspection: the star sketched at its end written out (with the
+// demo's invented catalogue and star), and star_density replaced by star = star.host on
+// both searches. Writing star beside star_density instead is refused on star_density.
+func TestTheStarterSaysToTakeTheDensityFromTheStarStep(t *testing.T) {
+	data := readFixture(t, "examples/fernwell/data/fw3318.csv")
+	sw, err := Starter(steps.File{Name: "fw3318.csv", Data: data}, "analysis.hcl", "star", 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	const advice = "replace star_density on both searches by\n# star = star.host"
+	if !strings.Contains(sw.Text, advice) || !strings.Contains(strings.Join(sw.Unknown, "\n"), "replace star_density on both searches by star = star.host") {
+		t.Fatalf("the starter does not say to replace star_density by star = star.host:\n%s", sw.Text)
+	}
+	at := strings.Index(sw.Text, "# What usually follows")
+	if at < 0 {
+		t.Fatal("no sketch of what usually follows")
+	}
+	// The sketch begins after the first bare "#" line of that comment.
+	var sketch []string
+	inSketch := false
+	for _, line := range strings.Split(sw.Text[at:], "\n") {
+		switch {
+		case line == "#":
+			inSketch = true
+		case inSketch && strings.HasPrefix(line, "# "):
+			line = strings.ReplaceAll(line[2:], "YOUR-STAR-ID", "FW-3318")
+			sketch = append(sketch, line)
+		}
+	}
+	var searches []string
+	for _, line := range strings.Split(sw.Text[:at], "\n") {
+		if strings.HasPrefix(strings.TrimSpace(line), "star_density") {
+			searches = append(searches, line)
+		}
+	}
+	if len(searches) != 2 {
+		t.Fatalf("%d searches write star_density, want the 2 searches", len(searches))
+	}
+	load := func(t *testing.T, text string) (*workflow.Workflow, error) {
+		dir := t.TempDir()
+		for name, b := range map[string][]byte{"fw3318.csv": data, "stars.csv": readFixture(t, "examples/fernwell/data/nearby_stars.csv"), "analysis.hcl": []byte(text)} {
+			if err := os.WriteFile(filepath.Join(dir, name), b, 0o644); err != nil {
+				t.Fatal(err)
+			}
+		}
+		reg, err := Registry()
+		if err != nil {
+			t.Fatal(err)
+		}
+		w, diags := workflow.LoadWith(filepath.Join(dir, "analysis.hcl"), reg, nil)
+		if diags.HasErrors() {
+			return nil, diags
+		}
+		return w, nil
+	}
+	withStar := sw.Text[:at] + strings.Join(sketch, "\n") + "\n"
+	t.Run("followed, the searches take the star step's density", func(t *testing.T) {
+		text := withStar
+		for _, line := range searches {
+			text = strings.Replace(text, line, "  star = star.host", 1)
+		}
+		w, err := load(t, text)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, s := range w.Steps {
+			if s.Kind.Name() == "search" && s.Rendered()["star"] != "star.host" {
+				t.Errorf("%s takes no star: %v", s.Addr, s.Rendered())
+			}
+		}
+		if found := workflow.Inspect(w); len(found) > 0 {
+			t.Errorf("inspection found %v", found)
+		}
+	})
+	t.Run("star beside star_density is refused", func(t *testing.T) {
+		text := strings.Replace(withStar, searches[0], searches[0]+"\n  star = star.host", 1)
+		_, err := load(t, text)
+		if err == nil || !strings.Contains(err.Error(), "star_density") {
+			t.Errorf("error %v, want a refusal naming star_density", err)
+		}
+	})
+}

@@ -27,6 +27,11 @@ type Artifact struct {
 	// Threshold the SDE a peak had to reach.
 	Method    bls.Method
 	Threshold float64
+	// FromStar is true when the grid's density is a star step's (star), false when it was
+	// written as star_density or is the Sun's by default; RocheCut is true when the star's
+	// Roche-type limit, longer than the default 0.2 d, set the shortest period searched
+	// (no periods written). The caution on a giant's star_density reads them.
+	FromStar, RocheCut bool
 	// Passes holds one periodogram per pass; its power and durations are kept at float32
 	// precision (seven digits, ample for plots), which keeps a four-year search's artifact
 	// near 3 MB per pass.
@@ -83,7 +88,8 @@ func (a *Artifact) Signals() []signals.Signal {
 }
 
 // AssumedDensity is the star's mean density, g/cm³, that the grid and the box durations
-// were built for (star_density); the vet step compares it with the star's.
+// were built for (star_density, or the star step's with star); the vet step compares it
+// with the star's.
 func (a *Artifact) AssumedDensity() float64 { return a.Grid.Density }
 
 // TriedDurations returns the shortest and longest box durations, in days, that the search
@@ -128,8 +134,9 @@ func (a *Artifact) Figures() []steps.Figure {
 const (
 	tag = "search"
 	// format 2 adds each signal's rival periods and spread over its transits; 3 the method;
-	// 4 the threshold; 5 why each pass's peak above the threshold gave no signal.
-	format = 5
+	// 4 the threshold; 5 why each pass's peak above the threshold gave no signal; 6 where
+	// the density came from and whether the Roche-type limit set the shortest period.
+	format = 6
 	// maxPasses bounds the passes a decoder accepts (max_signals is at most 20).
 	maxPasses = 64
 )
@@ -149,6 +156,8 @@ func (a *Artifact) Encode() []byte {
 	w.Float(a.Cadence)
 	w.Int(int64(a.Method))
 	w.Float(a.Threshold)
+	w.Bool(a.FromStar)
+	w.Bool(a.RocheCut)
 	w.Uint64(uint64(len(a.Passes)))
 	for _, p := range a.Passes {
 		w.String(packFloat32(p.Power))
@@ -209,6 +218,7 @@ func Decode(b []byte) (*Artifact, error) {
 	a.Cadence = r.Float()
 	a.Method = bls.Method(r.Int())
 	a.Threshold = r.Float()
+	a.FromStar, a.RocheCut = r.Bool(), r.Bool()
 	np := r.Uint64()
 	if r.Err() == nil && a.Method != bls.MethodFast && a.Method != bls.MethodDirect {
 		return nil, fmt.Errorf("search artifact: method %d is not one the search runs", a.Method)

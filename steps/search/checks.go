@@ -78,11 +78,15 @@ func checkFigures(p string, d bls.Detection) []steps.Figure {
 	}
 }
 
-// Cautions says, per signal, what makes its period doubtful: one or two transits carrying
-// it, a better fit at twice or half the period, or too few transits. Nothing when nothing
-// is doubtful.
+// Cautions says first whether a star_density that makes the star a giant's kept much of
+// the period range from being searched (densityCaution), then, per signal, what makes its
+// period doubtful: one or two transits carrying it, a better fit at twice or half the
+// period, or too few transits. Nothing when nothing is doubtful.
 func (a *Artifact) Cautions() []string {
 	var out []string
+	if c := a.densityCaution(); c != "" {
+		out = append(out, c)
+	}
 	for k, d := range a.Detections() {
 		out = append(out, signalCautions(fmt.Sprintf("signal %d (%s d)", k+1, num(d.Timing.Period)), d, a.Frame.Since())...)
 	}

@@ -103,9 +103,12 @@ func TestCheckNamesTheAttributeAtFault(t *testing.T) {
 		// The tags' defaults are the constants whose reasons are given beside them, and the
 		// Sun's density to the bit.
 		c := cfg.(*Config)
-		if c.Periods != nil || c.periods() != [2]float64{} || c.Density != solarDensity || c.Oversampling != defaultOversampling ||
+		if c.Periods != nil || c.periods() != [2]float64{} || c.Density != nil || c.Star != nil || c.Oversampling != defaultOversampling ||
 			c.MaxSignals != defaultMaxSignals || c.SDEThreshold != nil || c.MaskFactor != defaultMaskFactor || c.MinSNR != defaultMinSNR {
 			t.Fatalf("defaults decoded as %+v", c)
+		}
+		if rho, fromStar := c.density(); rho != solarDensity || fromStar {
+			t.Fatalf("the default density is %v g/cm3 (from a star step: %v), want the Sun's", rho, fromStar)
 		}
 	})
 }

@@ -5,50 +5,8 @@ import (
 	"math"
 
 	"dipline/steps"
-	"dipline/steps/internal/astro"
-	"dipline/steps/internal/stellar"
+	"dipline/steps/internal/stardensity"
 )
-
-// starDensity returns the star's density draws in g/cm³: its own, or M/R³ in solar units
-// times the Sun's density (astro.StellarDensityCGS; NaN for a draw without a positive mass
-// and radius) when it gives mass and radius; nil when it gives neither.
-func starDensity(s *stellar.Star) []float64 {
-	if s == nil {
-		return nil
-	}
-	if len(s.Density) > 0 {
-		return s.Density
-	}
-	if len(s.Mass) == 0 || len(s.Mass) != len(s.Radius) {
-		return nil
-	}
-	out := make([]float64, len(s.Mass))
-	for i := range out {
-		rho, err := astro.StellarDensityCGS(s.Mass[i], s.Radius[i])
-		if err != nil {
-			rho = math.NaN()
-		}
-		out[i] = rho
-	}
-	return out
-}
-
-// logSummary returns the median and σ (half the 16–84 % range) of ln x over the positive
-// draws, the median's Monte Carlo error, and the number of draws used.
-func logSummary(x []float64) (med, sigma, mc float64, n int) {
-	lx := make([]float64, 0, len(x))
-	for _, v := range x {
-		if v > 0 && !math.IsInf(v, 0) {
-			lx = append(lx, math.Log(v))
-		}
-	}
-	s := finiteSorted(lx)
-	if len(s) == 0 {
-		return math.NaN(), math.NaN(), 0, 0
-	}
-	med, sigma, mc = oneSigma(s)
-	return med, sigma, mc, len(s)
-}
 
 // The ceiling on the eccentricity the density test allows for, each with its reason.
 const (
@@ -95,8 +53,8 @@ func (v *vetter) density(tg *target) Test {
 	case v.d.Star == nil:
 		return notRun(name, "no star given")
 	}
-	ls, ss, mcS, ns := logSummary(starDensity(v.d.Star))
-	lt, st, mcT, nt := logSummary(tg.post.transitDensity())
+	ls, ss, mcS, ns := stardensity.LogSummary(stardensity.Draws(v.d.Star))
+	lt, st, mcT, nt := stardensity.LogSummary(tg.post.transitDensity())
 	if ns == 0 {
 		return notRun(name, "the star gives no density (nor mass and radius)")
 	}

@@ -7,6 +7,7 @@ import (
 
 	"dipline/steps"
 	"dipline/steps/internal/paper"
+	"dipline/steps/internal/stardensity"
 	"dipline/steps/search/bls"
 	"dipline/steps/units"
 )
@@ -25,10 +26,9 @@ const (
 	// searchDensitySigma: the star's density is taken at its 3σ ends before the search's
 	// setting is said to be at fault (common practice).
 	searchDensitySigma = 3.0
-	// giantDensity, g/cm³: a density below it is a giant's. ρ = ρ☉ M/R³ with ρ☉ = 1.41
-	// g/cm³ puts a 1 M☉ star of 3 R☉ at 0.052 g/cm³ and a red giant of 10 R☉ at 0.0014
-	// g/cm³ (from memory for the radii).
-	giantDensity = 0.05
+	// giantDensity, g/cm³: a density below it is a giant's (stardensity.Giant, which the
+	// search's caution on its own star_density shares).
+	giantDensity = stardensity.Giant
 	// unitSlipFactor is one g/cm³ in kg/m³, the factor a density written in the wrong one
 	// of the two units is off by; a ratio within unitSlipTolerance of it (or of its
 	// inverse) is named as a likely slip.
@@ -64,7 +64,7 @@ func (v *vetter) searchDensity(tg *target) Test {
 	case v.d.Star == nil:
 		return notRun(name, "no star given")
 	}
-	ls, ss, mcS, ns := logSummary(starDensity(v.d.Star))
+	ls, ss, mcS, ns := stardensity.LogSummary(stardensity.Draws(v.d.Star))
 	if ns == 0 {
 		return notRun(name, "the star gives no density (nor mass and radius)")
 	}

@@ -8,6 +8,7 @@ import (
 	"dipline/steps"
 	"dipline/steps/internal/astro"
 	"dipline/steps/internal/boxmodel"
+	"dipline/steps/internal/stardensity"
 )
 
 // Fixed choices of the secondary-eclipse search, each with its reason.
@@ -284,8 +285,8 @@ func (v *vetter) albedo(tg *target, eph boxmodel.Ephemeris, doubled bool, priDep
 		if !doubled {
 			r.k, _, _ = oneSigma(finiteSorted(tg.post.k))
 		}
-	case v.d.Star != nil && len(starDensity(v.d.Star)) > 0:
-		rho, _, _ := oneSigma(finiteSorted(starDensity(v.d.Star)))
+	case v.d.Star != nil && len(stardensity.Draws(v.d.Star)) > 0:
+		rho, _, _ := oneSigma(finiteSorted(stardensity.Draws(v.d.Star)))
 		aR, err := astro.ScaledAxisFromDensity(rho*1000, eph.Period*astro.Day)
 		if err != nil {
 			r.why = "the star's density gives no orbit"

@@ -3,14 +3,13 @@ package vet
 import (
 	"fmt"
 	"math"
-	"sort"
 
 	"dipline/steps"
 	"dipline/steps/derive"
 	"dipline/steps/internal/boxmodel"
 	"dipline/steps/internal/lightcurve"
-	"dipline/steps/internal/sampler"
 	"dipline/steps/internal/signals"
+	"dipline/steps/internal/stardensity"
 	"dipline/steps/internal/stellar"
 )
 
@@ -281,38 +280,13 @@ func (v *vetter) noiseScale(tg *target) float64 {
 	return noiseScale(v.t, v.f, v.e, keep, tg.eph.Duration)
 }
 
-// quantileMC returns the p-quantile of sorted draws and its Monte Carlo error, estimated
-// as half the spread between the quantiles at p ± √(p(1−p)/n) (the binomial scatter of a
-// sample quantile's rank; common practice), treating the draws as independent.
-func quantileMC(sorted []float64, p float64) (q, mc float64) {
-	n := float64(len(sorted))
-	q = sampler.Quantile(sorted, p)
-	if n < 2 {
-		return q, 0
-	}
-	s := math.Sqrt(p * (1 - p) / n)
-	lo, hi := math.Max(0, p-s), math.Min(1, p+s)
-	return q, (sampler.Quantile(sorted, hi) - sampler.Quantile(sorted, lo)) / 2
-}
-
-// finiteSorted returns the finite values of v, sorted, in a new slice.
-func finiteSorted(v []float64) []float64 {
-	out := make([]float64, 0, len(v))
-	for _, x := range v {
-		if !math.IsNaN(x) && !math.IsInf(x, 0) {
-			out = append(out, x)
-		}
-	}
-	sort.Float64s(out)
-	return out
-}
-
-// oneSigma returns the median of sorted draws, half their 16–84 % range, and the median's
-// Monte Carlo error.
-func oneSigma(sorted []float64) (med, sigma, mc float64) {
-	med, mc = quantileMC(sorted, 0.5)
-	return med, (sampler.Quantile(sorted, 0.84) - sampler.Quantile(sorted, 0.16)) / 2, mc
-}
+// quantileMC, finiteSorted and oneSigma summarise draws (see stardensity: the star's
+// density is read with them, so they live there, shared with the search).
+var (
+	quantileMC   = stardensity.QuantileMC
+	finiteSorted = stardensity.FiniteSorted
+	oneSigma     = stardensity.OneSigma
+)
 
 // ppm formats a relative flux in parts per million.
 func ppm(x float64) string { return fmt.Sprintf("%.0f ppm", x*1e6) }
