@@ -71,7 +71,7 @@ var testTitles = map[string]string{
 // settingTests are the tests that judge how an earlier step was set rather than the
 // planet, each with what its disagreement says in the signal's summary line.
 var settingTests = map[string]string{
-	"search_density": "the search assumed a star unlike the star step's, so it searched with the wrong transit durations (the search's stellar density): set star_density on the search to the star's and run it again",
+	"search_density": "the search assumed a star unlike the star step's, so it searched with the wrong transit durations (the search's stellar density): set star_density on the search to the star's, or write star = star.<label> there, and run it again",
 }
 
 func title(test string) string {

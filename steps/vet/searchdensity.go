@@ -107,7 +107,7 @@ func (v *vetter) searchDensity(tg *target) Test {
 	assumed := densityWords(rhoA)
 	starText := paper.Symmetric(rho, rho*ss).Text() + " g/cm3"
 	tried := fmt.Sprintf("at this %.3g d period the search tried transits of %s–%s h", p, hours(lo), hours(hi))
-	advice := fmt.Sprintf("set star_density on the search to the star's, about \"%s g/cm3\", and run it again", figs(rho, 2))
+	advice := fmt.Sprintf("set star_density on the search to the star's, about \"%s g/cm3\", or write star = star.<label> there in its place, and run it again", figs(rho, 2))
 	head := fmt.Sprintf("the search assumed %s; the star step gives %s, %s× as dense", assumed, starText, figs(ratio, 2))
 	slip := unitSlip(rhoA, ratio)
 	switch {

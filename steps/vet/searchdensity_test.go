@@ -59,7 +59,7 @@ func TestTheSearchDensityIsComparedWithTheStars(t *testing.T) {
 			t.Fatalf("%s — %s", v.Verdict, v.Reason)
 		}
 		for _, want := range []string{"0.007 g/cm3 (a giant's)", "1000", "\"7 kg/m3\" for 7 g/cm3", "check the unit",
-			"5.1–30 h", "would last 1.6 h", "too long", "set star_density on the search to the star's, about \"7 g/cm3\"",
+			"5.1–30 h", "would last 1.6 h", "too long", "set star_density on the search to the star's, about \"7 g/cm3\", or write star = star.<label> there",
 			"not evidence against a planet"} {
 			if !strings.Contains(v.Reason, want) {
 				t.Errorf("reason %q lacks %q", v.Reason, want)
