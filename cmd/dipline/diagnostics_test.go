@@ -37,7 +37,8 @@ func TestMistakesArePrintedInOurLayoutAndWords(t *testing.T) {
 			"Two items of a list follow each other without a comma."},
 		{"a label too many", `detrend "quiet" {`, `detrend "quiet" "loud" {`, 10, `A detrend block takes one label, and "loud" is one too many.`},
 	}
-	layout := regexp.MustCompile(`^analysis\.hcl line (\d+): .+\n +(\d+) \| .*\n +\| *\^+\n`)
+	// The place, the line with its number, and a caret under the column the place names.
+	layout := regexp.MustCompile(`^analysis\.hcl line (\d+), column (\d+): .+\n +(\d+) \| .*\n +\| ( *)\^+\n`)
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
 			f := newFolder(t)
@@ -50,8 +51,8 @@ func TestMistakesArePrintedInOurLayoutAndWords(t *testing.T) {
 				t.Errorf("exit %d, want %d", code, exitBadUser)
 			}
 			m := layout.FindStringSubmatch(errs)
-			if m == nil || m[1] != fmt.Sprint(c.line) || m[2] != m[1] {
-				t.Errorf("not a message at line %d with its line and a caret:\n%s", c.line, errs)
+			if m == nil || m[1] != fmt.Sprint(c.line) || m[3] != m[1] || m[2] != fmt.Sprint(len(m[4])+1) {
+				t.Errorf("not a message at line %d with its line and a caret under its column:\n%s", c.line, errs)
 			}
 			if !strings.Contains(errs, c.says) {
 				t.Errorf("does not say %q:\n%s", c.says, errs)
