@@ -1,7 +1,6 @@
 package workflow
 
 import (
-	"bytes"
 	"encoding/csv"
 	"fmt"
 	"io"
@@ -21,6 +20,12 @@ import (
 // in the workflow's order with the appendix of how each result was made. A presentation
 // that fails, or panics, or names a file badly becomes a note in its section: looking at
 // results never fails a run. Only a file that cannot be written is an error.
+//
+// A presentation may hold every point of a long light curve several times over (its data
+// and its plots), so the steps are shown one at a time: a step's files are written, each
+// table let go once written, and its plots drawn (report.Section.Draw) before the next step
+// is asked, and the page is streamed to its file. What is held at once is then the run's
+// results, one step's presentation and the drawn pictures, however many steps there are.
 
 // reportName is the page's file name in the output folder.
 const reportName = "report.html"
@@ -51,19 +56,24 @@ func writeReport(w *Workflow, store *cache.Store, run cache.Run, outcomes []*Out
 	if run.SetBy != "" {
 		doc.Appendix.OverridesFrom = "Settings replaced by " + run.SetBy
 	}
-	var page bytes.Buffer
-	if err := report.Write(&page, doc); err != nil {
-		return "", err
-	}
 	path := filepath.Join(w.OutputDir, reportName)
-	if err := writeAtomic(path, page.Bytes()); err != nil {
+	if err := writeAtomicWith(path, func(out io.Writer) error { return report.Write(out, doc) }); err != nil {
 		return "", err
 	}
 	return path, nil
 }
 
-// presentStep builds a step's section and writes its files.
+// presentStep builds a step's section, writes its files and draws its plots; the section
+// it returns holds none of the presentation's tables or series.
 func presentStep(w *Workflow, o *Outcome, arts map[string]steps.Artifact) (report.Section, error) {
+	sec, err := presentFiles(w, o, arts)
+	sec.Draw()
+	return sec, err
+}
+
+// presentFiles builds a step's section and writes its files, letting go of each table
+// once it is written; the plots are left to draw.
+func presentFiles(w *Workflow, o *Outcome, arts map[string]steps.Artifact) (report.Section, error) {
 	s := o.Step
 	sec := report.Section{Step: s.Addr, Kind: s.Kind.Name(), Label: s.Label, Status: o.Status,
 		Finished: o.Finished(), Made: report.Anchor("made", s.Addr)}
@@ -89,15 +99,20 @@ func presentStep(w *Workflow, o *Outcome, arts map[string]steps.Artifact) (repor
 		sec.Notes = append(sec.Notes, fmt.Sprintf("What this step shows could not be made: %v. Its numbers above are unaffected.", err))
 		return sec, nil
 	}
-	sec.Presentation = pres
-	if len(pres.Data) == 0 && len(pres.Texts) == 0 {
+	// The section keeps the panels alone; the data and texts are written below and need
+	// not outlive their files.
+	data, texts := pres.Data, pres.Texts
+	sec.Presentation = steps.Presentation{Panels: pres.Panels}
+	if len(data) == 0 && len(texts) == 0 {
 		return sec, nil
 	}
 	if !safeName.MatchString(s.Addr) {
 		sec.Notes = append(sec.Notes, fmt.Sprintf("The step's files were not written: %q cannot name a folder.", s.Addr))
 		return sec, nil
 	}
-	for _, d := range pres.Data {
+	for i := range data {
+		d := data[i]
+		data[i] = steps.Data{} // once written, the table is let go
 		rows, why := checkData(d)
 		if why != "" {
 			sec.Notes = append(sec.Notes, why)
@@ -110,7 +125,7 @@ func presentStep(w *Workflow, o *Outcome, arts map[string]steps.Artifact) (repor
 		}
 		sec.Files = append(sec.Files, report.WrittenFile{Path: rel, What: rowsWord(rows)})
 	}
-	for _, t := range pres.Texts {
+	for _, t := range texts {
 		if !safeName.MatchString(t.Name) {
 			sec.Notes = append(sec.Notes, fmt.Sprintf("The text %q was not written: a file's name takes letters, digits, '.', '-' and '_'.", t.Name))
 			continue

@@ -32,11 +32,21 @@ type renderedCell struct {
 	Plot  drawnPlot
 }
 
-// renderSection draws a section's panels; a plot that cannot be drawn becomes a note of
-// its panel.
+// renderSection is a section as the page shows it, its panels drawn now unless Draw has
+// drawn them already.
 func renderSection(s *Section) renderedSection {
-	rs := renderedSection{Section: s, ID: Anchor("step", s.Step)}
-	for _, p := range s.Presentation.Panels {
+	rs := renderedSection{Section: s, ID: Anchor("step", s.Step), Panels: s.panels}
+	if !s.drawn {
+		rs.Panels = drawPanels(s.Presentation.Panels)
+	}
+	return rs
+}
+
+// drawPanels draws a presentation's panels; a plot that cannot be drawn becomes a note of
+// its panel.
+func drawPanels(panels []steps.Panel) []renderedPanel {
+	var drawn []renderedPanel
+	for _, p := range panels {
 		rp := renderedPanel{Title: p.Title, Caption: p.Caption, Columns: max(p.Columns, 1)}
 		if len(p.Plots) == 0 {
 			rp.Table = p.Table
@@ -58,9 +68,9 @@ func renderSection(s *Section) renderedSection {
 			rp.Notes = append(rp.Notes, dp.Notes...)
 			rp.Cells = append(rp.Cells, renderedCell{Plot: dp})
 		}
-		rs.Panels = append(rs.Panels, rp)
+		drawn = append(drawn, rp)
 	}
-	return rs
+	return drawn
 }
 
 // The page's look is our own: a narrow column ordered as the workflow is, each step's

@@ -8,7 +8,6 @@
 package report
 
 import (
-	"bytes"
 	"fmt"
 	"io"
 	"regexp"
@@ -48,6 +47,23 @@ type Section struct {
 	Notes []string
 	// Files lists the files written beside the page for this step, as relative paths.
 	Files []WrittenFile
+
+	// panels are the presentation's panels as drawn, once Draw has drawn them (drawn).
+	panels []renderedPanel
+	drawn  bool
+}
+
+// Draw draws the section's plots now and lets go of its presentation, whose plots may
+// hold every point of a long series: a page of many such sections then holds the drawn
+// pictures (a few megabytes at most, see maxDrawn) and at most one section's series at a
+// time, not all of them. Write draws the sections not drawn yet itself, with the same
+// result; drawing a section twice changes nothing.
+func (s *Section) Draw() {
+	if s.drawn {
+		return
+	}
+	s.panels, s.drawn = drawPanels(s.Presentation.Panels), true
+	s.Presentation = steps.Presentation{}
 }
 
 // WrittenFile is one file written beside the page.
@@ -120,18 +136,18 @@ func Anchor(prefix, name string) string {
 	return prefix + "-" + unsafeID.ReplaceAllString(name, "_")
 }
 
-// Write renders the document as one HTML page.
+// Write renders the document as one HTML page. The page is written to w as it is made,
+// never held whole: after an error w may hold part of a page, so a caller whose readers
+// must never see half a page writes it through a temporary file, as the engine does.
 func Write(w io.Writer, doc Document) error {
 	pg := page{Document: doc}
 	for i := range doc.Sections {
 		pg.Rendered = append(pg.Rendered, renderSection(&doc.Sections[i]))
 	}
-	var buf bytes.Buffer
-	if err := pageTemplate.Execute(&buf, pg); err != nil {
+	if err := pageTemplate.Execute(w, pg); err != nil {
 		return fmt.Errorf("writing the report page: %w", err)
 	}
-	_, err := w.Write(buf.Bytes())
-	return err
+	return nil
 }
 
 // clean removes from a string what must not reach an SVG: the characters our marks use to
