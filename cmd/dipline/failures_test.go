@@ -236,7 +236,7 @@ func TestTheSummaryCountsTestsAndPrintsCautions(t *testing.T) {
 			}
 			for _, want := range []string{"tests and cautions\n", "  judge.v\n",
 				"    signal1: 1 of 3 tests disagree, 1 caution\n",
-				"    signal2: 0 of 1 test disagree, no cautions (1 not run)\n",
+				"    signal2: 0 of 1 test disagree, no cautions; 1 could not run\n",
 				"    ! the toy caution\n",
 				// The judging step reads search.dips without ending its chain: the search's
 				// figures stay in the summary, and the judge's own are counted, not listed.

@@ -117,7 +117,9 @@ func (c *cli) printJudgements(rep *workflow.Report) {
 
 // verdictCounts says, per subject of an artifact's verdicts in the order they first
 // appear, how many of the tests that ran disagree and how many give a caution, and how
-// many could not run: "signal1: 0 of 5 tests disagree, 1 caution (2 not run)".
+// many could not run: "signal1: 0 of 5 tests disagree, 1 caution; 2 could not run". When
+// most could not run (a dip resting on one transit, a light curve without a star), a count
+// of nothing against it would read as a clean bill, so the line leads with how few ran.
 func verdictCounts(a steps.Artifact) []string {
 	j, ok := a.(steps.Judge)
 	if !ok {
@@ -148,10 +150,19 @@ func verdictCounts(a steps.Artifact) []string {
 	lines := make([]string, 0, len(order))
 	for _, s := range order {
 		t := by[s]
-		line := fmt.Sprintf("%s: %d of %d %s disagree, %s", s, t.disagree, t.tests,
-			plural(t.tests, "test", "tests"), count(t.caution, "caution", "cautions"))
-		if t.notRun > 0 {
-			line += fmt.Sprintf(" (%d not run)", t.notRun)
+		var line string
+		switch all := t.tests + t.notRun; {
+		case t.tests == 0:
+			line = fmt.Sprintf("%s: none of the %d %s could run (the report says why)", s, all, plural(all, "test", "tests"))
+		case t.notRun > t.tests:
+			line = fmt.Sprintf("%s: only %d of %d tests could run (the report says why not): %d disagree, %s", s,
+				t.tests, all, t.disagree, count(t.caution, "caution", "cautions"))
+		default:
+			line = fmt.Sprintf("%s: %d of %d %s disagree, %s", s, t.disagree, t.tests,
+				plural(t.tests, "test", "tests"), count(t.caution, "caution", "cautions"))
+			if t.notRun > 0 {
+				line += fmt.Sprintf("; %d could not run", t.notRun)
+			}
 		}
 		lines = append(lines, line)
 	}

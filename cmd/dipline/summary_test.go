@@ -62,3 +62,40 @@ func TestTheSummaryNamesUndefinedFiguresAndWhatIfRuns(t *testing.T) {
 		t.Errorf("a run without --set calls itself a what-if run:\n%s", out.String())
 	}
 }
+
+// verdictList is an artifact that judges, for verdictCounts.
+type verdictList []steps.Verdict
+
+func (v verdictList) Verdicts() []steps.Verdict { return v }
+func (verdictList) Encode() []byte              { return nil }
+func (verdictList) Figures() []steps.Figure     { return nil }
+
+// TestACountOfFewTestsSaysHowFewRan: a dip resting on one transit leaves most of the vet's
+// tests unable to run, and "0 of 3 tests disagree" alone would read as a clean bill; the
+// line leads with how few ran. A subject none of whose tests ran says that instead.
+func TestACountOfFewTestsSaysHowFewRan(t *testing.T) {
+	var v verdictList
+	add := func(subject, verdict string, n int) {
+		for range n {
+			v = append(v, steps.Verdict{Subject: subject, Test: "t", Verdict: verdict})
+		}
+	}
+	add("signal1", steps.VerdictAgree, 3)
+	add("signal1", steps.VerdictNotRun, 6)
+	add("signal2", steps.VerdictDisagree, 1)
+	add("signal2", steps.VerdictCaution, 1)
+	add("signal2", steps.VerdictAgree, 3)
+	add("signal2", steps.VerdictNotRun, 2)
+	add("signal3", steps.VerdictNotRun, 2)
+	add("signal4", steps.VerdictAgree, 2)
+	got := verdictCounts(v)
+	want := []string{
+		"signal1: only 3 of 9 tests could run (the report says why not): 0 disagree, no cautions",
+		"signal2: 1 of 5 tests disagree, 1 caution; 2 could not run",
+		"signal3: none of the 2 tests could run (the report says why)",
+		"signal4: 0 of 2 tests disagree, no cautions",
+	}
+	if strings.Join(got, "\n") != strings.Join(want, "\n") {
+		t.Errorf("counted\n%s\nwant\n%s", strings.Join(got, "\n"), strings.Join(want, "\n"))
+	}
+}
