@@ -605,3 +605,36 @@ func BenchmarkSalvage64MB(b *testing.B) {
 		os.Remove(into)
 	}
 }
+
+// TestASalvageDropsAMappingWhoseProvenanceIsLost: a step mapping whose result reads but
+// whose provenance record is gone (cut away with its page, or never reaching the disk) is
+// not kept: the next run would reuse the result and nothing would say how it was made.
+// The step is dropped with the reason, so the next run computes it again (the engine's
+// verify, which reads provenance, then finds nothing amiss: cmd/dipline's
+// TestSalvageCommand).
+func TestASalvageDropsAMappingWhoseProvenanceIsLost(t *testing.T) {
+	s, es := fixtureStore(t)
+	lost := es[7]
+	if err := s.update(func(tx *bolt.Tx) error { return tx.Bucket(bucketProvenance).Delete(lost.Step[:]) }); err != nil {
+		t.Fatal(err)
+	}
+	into := filepath.Join(t.TempDir(), "salvaged.db")
+	rep, err := s.Salvage(into, SalvageOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	dropped := fmt.Sprint(rep.Dropped)
+	if !strings.Contains(dropped, lost.Step.String()+": its provenance record was lost or does not read") {
+		t.Errorf("the mapping without its provenance is not listed as dropped: %s", clip(dropped))
+	}
+	fresh := &Store{path: into}
+	if _, ok, err := fresh.Lookup(lost.Step); err != nil || ok {
+		t.Errorf("the salvaged store still maps the step whose provenance was lost (found %v, %v)", ok, err)
+	}
+	if _, ok, err := fresh.Lookup(es[8].Step); err != nil || !ok {
+		t.Errorf("a sound step was not kept (found %v, %v)", ok, err)
+	}
+	if vr, err := fresh.Verify(); err != nil || !vr.OK() {
+		t.Errorf("the salvaged store does not verify: %+v, %v", vr, err)
+	}
+}

@@ -182,8 +182,9 @@ func planSalvage(inv *inventory, opt SalvageOptions, rep *SalvageReport) *salvag
 			rep.Dropped = append(rep.Dropped, Dropped{"result", rk.String(), "its bytes no longer hash to its key"})
 		}
 	}
-	keptSteps := planSteps(inv, good, plan, rep)
-	planProvenance(inv, keptSteps, opt, plan, rep)
+	readable := readableProvenance(inv, opt, rep)
+	keptSteps := planSteps(inv, good, readable, plan, rep)
+	planProvenance(inv, keptSteps, readable, plan, rep)
 	noteIncomplete(runs, good, rep)
 	planPins(inv, runs, plan, rep)
 	return plan
@@ -217,7 +218,10 @@ func keptRuns(inv *inventory, rep *SalvageReport, plan *salvagePlan) map[string]
 	return runs
 }
 
-func planSteps(inv *inventory, good map[ResultKey]bool, plan *salvagePlan, rep *SalvageReport) map[StepKey]bool {
+// planSteps keeps a step mapping when its result was kept and its provenance record reads:
+// a mapping without its record would be reused by the next run and never explained, so it
+// is dropped and the step computed again.
+func planSteps(inv *inventory, good map[ResultKey]bool, readable map[StepKey]bool, plan *salvagePlan, rep *SalvageReport) map[StepKey]bool {
 	kept := map[StepKey]bool{}
 	for _, e := range inv.steps {
 		key := fmt.Sprintf("%x", e.key)
@@ -227,6 +231,9 @@ func planSteps(inv *inventory, good map[ResultKey]bool, plan *salvagePlan, rep *
 		case !good[ResultKey(e.value)]:
 			rep.Dropped = append(rep.Dropped, Dropped{"step key", key,
 				fmt.Sprintf("its result %x was lost or damaged; the step will be recomputed", e.value[:shortLen/2])})
+		case !readable[StepKey(e.key)]:
+			rep.Dropped = append(rep.Dropped, Dropped{"step key", key,
+				"its provenance record was lost or does not read; the step will be recomputed"})
 		default:
 			kept[StepKey(e.key)] = true
 			plan.steps = append(plan.steps, e)
@@ -235,20 +242,39 @@ func planSteps(inv *inventory, good map[ResultKey]bool, plan *salvagePlan, rep *
 	return kept
 }
 
-func planProvenance(inv *inventory, kept map[StepKey]bool, opt SalvageOptions, plan *salvagePlan, rep *SalvageReport) {
+// readableProvenance lists the step keys whose provenance record reads, and drops, with
+// the reason, each record that does not.
+func readableProvenance(inv *inventory, opt SalvageOptions, rep *SalvageReport) map[StepKey]bool {
+	ok := map[StepKey]bool{}
 	for _, e := range inv.prov {
-		key := fmt.Sprintf("%x", e.key)
-		if len(e.key) != len(StepKey{}) || !kept[StepKey(e.key)] {
-			rep.Dropped = append(rep.Dropped, Dropped{"provenance", key, "no kept step key maps it to a result"})
-			continue
+		if len(e.key) != len(StepKey{}) {
+			continue // dropped by planProvenance: no step key maps it
 		}
 		if opt.CheckProvenance != nil {
 			if err := opt.CheckProvenance(StepKey(e.key), e.value); err != nil {
-				rep.Dropped = append(rep.Dropped, Dropped{"provenance", key, "the record does not read: " + err.Error()})
+				rep.Dropped = append(rep.Dropped, Dropped{"provenance", fmt.Sprintf("%x", e.key), "the record does not read: " + err.Error()})
 				continue
 			}
 		}
-		plan.prov = append(plan.prov, e)
+		ok[StepKey(e.key)] = true
+	}
+	return ok
+}
+
+// planProvenance keeps the readable record of every kept step mapping.
+func planProvenance(inv *inventory, kept, readable map[StepKey]bool, plan *salvagePlan, rep *SalvageReport) {
+	for _, e := range inv.prov {
+		var k StepKey
+		wellFormed := len(e.key) == len(k)
+		if wellFormed {
+			k = StepKey(e.key)
+		}
+		switch {
+		case wellFormed && readable[k] && kept[k]:
+			plan.prov = append(plan.prov, e)
+		case !wellFormed || readable[k]: // an unreadable one is listed already
+			rep.Dropped = append(rep.Dropped, Dropped{"provenance", fmt.Sprintf("%x", e.key), "no kept step key maps it to a result"})
+		}
 	}
 }
 
