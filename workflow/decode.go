@@ -210,12 +210,24 @@ func (w *Workflow) readFiles(s *Step, p *steps.Param, cfg any, r hcl.Range) hcl.
 	return diags
 }
 
+// attrSentence makes an attribute's refusal a sentence: a message that is a predicate
+// ("must be positive", "needs a star step") follows the attribute's name ("span must be
+// positive"); one that is a sentence of its own ("the given method needs mass") stands alone.
+func attrSentence(ae *steps.AttrError) string {
+	first, _, _ := strings.Cut(ae.Msg, " ")
+	switch first {
+	case "must", "is", "are", "needs", "names", "lists", "takes", "has", "cannot", "may", "gives", "holds":
+		return ae.Attr + " " + ae.Msg
+	}
+	return ae.Msg
+}
+
 // stepDiag turns an error from a kind's Check into a diagnostic at the attribute it names.
 func (w *Workflow) stepDiag(s *Step, err error) *hcl.Diagnostic {
 	d := &hcl.Diagnostic{Severity: hcl.DiagError, Subject: s.block.Ptr(),
 		Summary: fmt.Sprintf("%s %q refuses its settings: %v.", s.Kind.Name(), s.Label, err)}
 	if ae, ok := err.(*steps.AttrError); ok {
-		d.Summary = fmt.Sprintf("%s %q refuses its setting %s: %s %s.", s.Kind.Name(), s.Label, ae.Attr, ae.Attr, ae.Msg)
+		d.Summary = fmt.Sprintf("%s %q refuses its setting %s: %s.", s.Kind.Name(), s.Label, ae.Attr, attrSentence(ae))
 		if r, ok := s.attrRanges[ae.Attr]; ok {
 			d.Subject = r.Ptr()
 		}

@@ -8,6 +8,8 @@ import (
 	"unicode/utf8"
 
 	"github.com/hashicorp/hcl/v2"
+
+	"dipline/steps"
 )
 
 // at is a diagnostic about bytes [from, to) of src (on the line the offsets give).
@@ -242,4 +244,20 @@ func FuzzExcerpt(f *testing.F) {
 			t.Errorf("printed %d bytes", out.Len())
 		}
 	})
+}
+
+// TestARefusedSettingReadsAsASentence: a kind's refusal that is a predicate follows the
+// attribute's name; one that is a whole sentence is not prefixed with the name again (it
+// read "refuses its setting mass: mass the given method needs mass").
+func TestARefusedSettingReadsAsASentence(t *testing.T) {
+	for _, c := range []struct{ attr, msg, want string }{
+		{"span", "must be positive, not -1 d", "span must be positive, not -1 d"},
+		{"radius_range", "needs a star step", "radius_range needs a star step"},
+		{"mass", "the given method needs mass", "the given method needs mass"},
+		{"files", "no files given", "no files given"},
+	} {
+		if got := attrSentence(&steps.AttrError{Attr: c.attr, Msg: c.msg}); got != c.want {
+			t.Errorf("%s, %q: got %q, want %q", c.attr, c.msg, got, c.want)
+		}
+	}
 }
