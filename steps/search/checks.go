@@ -79,7 +79,8 @@ func checkFigures(p string, d bls.Detection) []steps.Figure {
 }
 
 // Cautions says first whether a star_density that makes the star a giant's kept much of
-// the period range from being searched (densityCaution), then, per signal, what makes its
+// the period range from being searched, or one is denser than any main-sequence star's
+// (densityCaution), then, per signal, what makes its
 // period doubtful: one or two transits carrying it, a better fit at twice or half the
 // period, or too few transits. Nothing when nothing is doubtful.
 func (a *Artifact) Cautions() []string {

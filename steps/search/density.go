@@ -44,6 +44,9 @@ var kgPerM3 = units.Density.Units["kg/m3"]
 // a written period range is searched as asked.
 func (a *Artifact) densityCaution() string {
 	rho := a.Grid.Density
+	if !a.FromStar && rho > stardensity.Dense {
+		return denseCaution(rho, a.Grid.N)
+	}
 	if a.FromStar || !a.RocheCut || !(rho < stardensity.Giant) || !(a.Grid.FMax > 0) || !(a.Grid.FMin > 0) {
 		return ""
 	}
@@ -60,6 +63,20 @@ func (a *Artifact) densityCaution() string {
 		plain(rho), plain2(lo), 100*share, plain2(defaultShortest), plain2(hi), dwarf)
 }
 
+// denseCaution is densityCaution's mirror for a written star_density above any
+// main-sequence star's (stardensity.Dense): the grid, finer as ρ^(1/3), and the boxes,
+// shorter as ρ^(−1/3), are built for it, so a dwarf's transits are searched with boxes far
+// shorter than they last, at a cost that grows with the grid (n trial frequencies). It
+// names a likely g/cm³-for-kg/m³ slip (slipWords).
+func denseCaution(rho float64, n int) string {
+	advice := "If it was meant for a main-sequence star, write its density or star = star.<label>"
+	if s := slipWords(rho); s != "" {
+		advice = "If the value was meant in kg/m3 " + s + ", write " + plain(rho*kgPerM3) + " g/cm3 or star = star.<label>"
+	}
+	return fmt.Sprintf("star_density is %s g/cm3, denser than any main-sequence star (the densest dwarfs reach about a hundred g/cm3; a white dwarf's, if that is meant, is fine): the search's grid (%d trial periods) and its transit durations are built for such a star, so a dwarf's transits, far longer, are searched with boxes too short for them. %s",
+		plain(rho), n, advice)
+}
+
 // slipAdvice is what the search's refusal of a light curve too short for the star's
 // Roche-type limit adds when that limit comes from a written giant's star_density.
 func slipAdvice(rho float64, fromStar bool) string {
@@ -73,14 +90,29 @@ func slipAdvice(rho float64, fromStar bool) string {
 	return fmt.Sprintf("; star_density is %s g/cm3, a giant's: %s, write its density or star = star.<label>", plain(rho), dwarf)
 }
 
-// slipWords names the kg/m³ slip, "(7 kg/m3 is 0.007 g/cm3)", when rho (g/cm³) read in
-// kg/m³ would be a typical dwarf's (dwarfLow to dwarfHigh g/cm³); "" otherwise.
+// slipWords names a unit slip between kg/m³ and g/cm³ that makes a typical dwarf's density
+// (dwarfLow to dwarfHigh g/cm³) a giant's or one above any main-sequence star's: for a
+// giant's rho (g/cm³), a dwarf's density written in kg/m³ where g/cm³ was meant, "(7 kg/m3
+// is 0.007 g/cm3)"; for one above stardensity.Dense, a density in kg/m³ written in g/cm³,
+// "(7000 kg/m3 is 7 g/cm3)". "" when neither reading gives a dwarf's density.
 func slipWords(rho float64) string {
-	meant := rho / kgPerM3
-	if !(meant >= dwarfLow && meant <= dwarfHigh) {
+	var kg, g float64 // the slip's value in kg/m³, and the same density in g/cm³
+	switch {
+	case rho < stardensity.Giant:
+		kg, g = rho/kgPerM3, rho // the dwarf's g/cm³ figure written as kg/m³
+	case rho > stardensity.Dense:
+		kg, g = rho, rho*kgPerM3 // the dwarf's kg/m³ figure written as g/cm³
+	default:
 		return ""
 	}
-	return fmt.Sprintf("(%s kg/m3 is %s g/cm3)", plain(meant), plain(rho))
+	dwarf := kg
+	if rho > stardensity.Dense {
+		dwarf = g
+	}
+	if !(dwarf >= dwarfLow && dwarf <= dwarfHigh) {
+		return ""
+	}
+	return fmt.Sprintf("(%s kg/m3 is %s g/cm3)", plain(kg), plain(g))
 }
 
 // plain writes x to three significant figures as a user writes it: no exponent and no

@@ -263,3 +263,42 @@ func TestADataSpanShorterThanTheGiantsLimitNamesTheSlip(t *testing.T) {
 		}
 	}
 }
+
+func TestTheDenseCautionRule(t *testing.T) {
+	// Source: denseCaution's rule, on hand-made results: a written density above
+	// stardensity.Dense (200 g/cm³) is cautioned as denser than any main-sequence star;
+	// the slip is named only when the value read in kg/m³ is a dwarf's (0.5–50 g/cm³):
+	// 7000 kg/m³ is 7 g/cm³, 1e9 kg/m³ would be 1e6 g/cm³, a white dwarf's.
+	art := func(rho float64, fromStar bool) *Artifact {
+		return &Artifact{Grid: bls.Grid{Density: rho, FMax: 1 / 0.2, FMin: 1.0 / 45, N: 1000}, FromStar: fromStar}
+	}
+	cases := []struct {
+		name    string
+		a       *Artifact
+		caution bool
+		slip    string
+	}{
+		{"7000 g/cm3 is cautioned, as 7000 kg/m3 meant", art(7000, false), true, "If the value was meant in kg/m3 (7000 kg/m3 is 7 g/cm3), write 7 g/cm3"},
+		{"1e9 g/cm3 is cautioned without naming a slip", art(1e9, false), true, ""},
+		{"a density from the star step is not cautioned", art(7000, true), false, ""},
+		{"150 g/cm3 is within a dwarf's reach", art(150, false), false, ""},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			got := c.a.densityCaution()
+			if (got != "") != c.caution || (c.caution && !strings.Contains(got, "denser than any main-sequence star")) {
+				t.Fatalf("caution %q; want one: %v", got, c.caution)
+			}
+			if c.slip != "" && !strings.Contains(got, c.slip) || c.slip == "" && strings.Contains(got, "kg/m3") {
+				t.Errorf("caution %q; want the slip named as %q", got, c.slip)
+			}
+		})
+	}
+	t.Run("the same slip the other way is still the giant's", func(t *testing.T) {
+		// 7 kg/m³ written for 7 g/cm³: 0.007 g/cm³, whose limit (8.5 d) cuts most of 45 d.
+		a := &Artifact{Grid: bls.Grid{Density: 0.007, FMax: 1 / bls.RochePeriod(0.007), FMin: 1.0 / 45}, RocheCut: true}
+		if got := a.densityCaution(); !strings.Contains(got, "a giant's") || !strings.Contains(got, "(7 kg/m3 is 0.007 g/cm3)") {
+			t.Errorf("caution %q", got)
+		}
+	})
+}

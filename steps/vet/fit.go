@@ -80,6 +80,27 @@ func (v *vetter) matchFit(tg *target) {
 	tg.planet, tg.post = letter, p
 	tg.fitNote = fmt.Sprintf("planet %s of the fit (period %.6g d against the search's %.6g d); its period and mid-time place the transits", letter, per, tg.sig.Period)
 	tg.eph.Period, tg.eph.Epoch = per, t0
+	if t14 := p.totalDuration(); t14 > 0 && t14 < per/3 {
+		tg.fitNote += fmt.Sprintf(", and its total duration T14 of %.3g h (median of its samples; the search's box was %.3g h) sets the windows of the tests on the light curve", t14*24, tg.sig.Duration*24)
+		tg.eph.Duration = t14
+	} else {
+		tg.fitNote += fmt.Sprintf("; its samples give no usable total duration, so the search's box of %.3g h sets the windows of the tests on the light curve", tg.sig.Duration*24)
+	}
+}
+
+// totalDuration is the median of the draws' first-to-last-contact durations T14 in days
+// (contacts), NaN when no draw gives one. The vet masks and windows a fitted transit with
+// it rather than with the search's box, which a search set for the wrong star can make
+// much shorter than the transit: its edges then pass for dips beside it.
+func (p *planetDraws) totalDuration() float64 {
+	t14s := make([]float64, 0, p.n())
+	for i := 0; i < p.n(); i++ {
+		if t14, _, ok := p.contacts(i); ok {
+			t14s = append(t14s, t14)
+		}
+	}
+	med, _, _ := oneSigma(finiteSorted(t14s))
+	return med
 }
 
 // periodTolerance is the relative tolerance of a period comparison for a signal of

@@ -160,6 +160,10 @@ func (s *secondarySearch) judge(o Options, alb albedoResult, judged dip, sigHalf
 		verdict = steps.VerdictAgree
 		reason = fmt.Sprintf("%sno significant dip away from the transit: near phase 0.5 the deepest is %s, below %.2f σ; anywhere, %s, below %.2f σ",
 			where, at(s.half), s.zHalf, at(s.wide), s.zAny)
+	case judged.depth >= o.SecondaryRatio*s.priDepth && s.halfPeriodTwin(judged):
+		verdict = steps.VerdictCaution
+		reason = fmt.Sprintf("%sa significant dip of %s, as deep as the transit (%s ± %s) within %.3g σ: the signal itself at half the period (%.6g d) would give it (a planet's transits, found at twice their period), as would a binary of two like stars at this period; search down to half this period, or fit the signal at it, before reading it as a binary's",
+			where, at(judged), ppm(s.priDepth), ppm(s.priSigma), twinSigma, s.eph.Period/2)
 	case judged.depth >= o.SecondaryRatio*s.priDepth:
 		verdict = steps.VerdictDisagree
 		reason = fmt.Sprintf("%sa significant dip of %s, %.2f of the transit's depth: eclipses of comparable depth are a binary's",
@@ -183,6 +187,23 @@ func (s *secondarySearch) judge(o Options, alb albedoResult, judged dip, sigHalf
 		reason += "; the albedo was not computed: " + alb.why
 	}
 	return verdict, reason
+}
+
+// twinSigma is the σ within which a dip near phase 0.5 and the transit are taken to be of
+// one depth: 3σ (common practice).
+const twinSigma = 3.0
+
+// halfPeriodTwin reports whether d, the dip the secondary test judges, lies within
+// halfWindow durations of phase 0.5 and is as deep as the transit within twinSigma of
+// their combined error, at the signal's own period (not when the search was doubled for an
+// alternation): the transit itself at half the period, which a search that could not try
+// it (a Roche-type limit set for a giant, a period range) reports at twice its period,
+// gives that dip, as a binary of two like stars does.
+func (s *secondarySearch) halfPeriodTwin(d dip) bool {
+	if s.doubled || math.Abs(d.phase-0.5)*s.eph.Period > halfWindow*s.eph.Duration+1e-12 {
+		return false
+	}
+	return math.Abs(d.depth-s.priDepth) <= twinSigma*math.Hypot(d.sigma, s.priSigma)
 }
 
 // independent is the number of independent box positions in a stretch of the given length

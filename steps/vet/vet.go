@@ -117,6 +117,7 @@ func Vet(d Data, o Options) (*Artifact, []string, error) {
 		}
 		art.Signals = append(art.Signals, v.vetOne(tg))
 	}
+	notes = append(notes, v.sharedFitCaveat(art)...)
 	return art, notes, nil
 }
 
@@ -125,8 +126,8 @@ type target struct {
 	index int
 	name  string
 	sig   signals.Signal
-	// eph is the signal's ephemeris (the fit's period and mid-time when it is matched) and
-	// box duration.
+	// eph is the signal's ephemeris: the fit's period, mid-time and total duration T14 when
+	// it is matched, the search's period, epoch and box duration otherwise.
 	eph boxmodel.Ephemeris
 	// planet is the fit's letter for it and post its draws; nil when not matched.
 	planet  string
@@ -254,7 +255,7 @@ func (v *vetter) weights(tg *target, keepHarmonics bool) []float64 {
 		}
 		masked := false
 		for _, o := range others {
-			if o.sig.InTransit(v.t[i], maskFactor) {
+			if o.inTransit(v.t[i], maskFactor) {
 				masked = true
 				break
 			}
@@ -266,12 +267,19 @@ func (v *vetter) weights(tg *target, keepHarmonics bool) []float64 {
 	return w
 }
 
+// inTransit reports whether t lies within factor/2 durations of one of tg's mid-transits,
+// on its ephemeris: the fit's period, mid-time and total duration when it is matched.
+func (tg *target) inTransit(t, factor float64) bool {
+	_, d := tg.eph.Cycle(t)
+	return d <= factor*tg.eph.Duration/2
+}
+
 // noiseScale is the factor by which the stated errors are stretched for this signal's
 // tests, measured outside every signal's transits on bins of its duration.
 func (v *vetter) noiseScale(tg *target) float64 {
 	keep := func(i int) bool {
 		for _, o := range v.targets {
-			if o.sig.InTransit(v.t[i], maskFactor) {
+			if o.inTransit(v.t[i], maskFactor) {
 				return false
 			}
 		}

@@ -1,8 +1,8 @@
 // Package stardensity reads a host star's mean density from a star step's draws, the one
 // way every kind that takes it reads it: the vet step (its density and search-density
 // tests) and the search step (the grid and the box durations it builds for the star). It
-// also holds the density below which a star is a giant, with which both word their
-// cautions, and the summaries of equal-weight draws (median, 16–84 % range and their Monte
+// also holds the density below which a star is a giant and the one above which no
+// main-sequence star is, with which both word their cautions, and the summaries of equal-weight draws (median, 16–84 % range and their Monte
 // Carlo errors) the density is read with, which the vet uses for its other draws too.
 //
 // It knows nothing of workflow files or artifacts: the draws come as a *stellar.Star.
@@ -23,6 +23,12 @@ import (
 // ρ☉ = 1.41 g/cm³ puts a 1 M☉ star of 3 R☉ at 0.052 g/cm³ and a red giant of 10 R☉ at
 // 0.0014 g/cm³ (from memory for the radii).
 const Giant = 0.05
+
+// Dense is the density, in g/cm³, above which a star is denser than any main-sequence
+// star's (a white dwarf's, about 1e5 to 1e7 g/cm³, is far above it). The densest dwarfs,
+// at the hydrogen-burning limit of about 0.08 M☉ in 0.1 R☉ (from memory), reach ρ☉ M/R³ =
+// 1.41 × 0.08 / 0.001 = 113 g/cm³; the bound leaves them a margin.
+const Dense = 200.0
 
 // Draws returns the star's density draws in g/cm³: its own, or M/R³ in solar units times
 // the Sun's density (astro.StellarDensityCGS; NaN for a draw without a positive mass and
