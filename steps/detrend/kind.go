@@ -466,6 +466,12 @@ func trend(cfg Config, lc *lightcurve.LightCurve, sigs []signals.Signal, pool *s
 			res.Caution = maskedCaution(rc.Span, dur, cfg.Degree, doubt)
 		}
 	}
+	if c := blindCaution(rc.Span, doubt.kept, cfg.Degree); c != "" {
+		if res.Caution != "" {
+			res.Caution += " "
+		}
+		res.Caution += c
+	}
 	if sp != nil {
 		sp.tell(res, &notes)
 	}
@@ -498,6 +504,9 @@ func chooseSpan(series []robust.Series, degree int, stretch, dur, gap float64, p
 	var tried []string
 	for _, tr := range ch.Trials {
 		t := fmt.Sprintf("%.3g d: bias %.0f ± %.0f ppm, keeps %.0f %%", tr.Span, tr.Bias*1e6, tr.BiasErr*1e6, tr.Kept*100)
+		if tr.Reference {
+			t = fmt.Sprintf("%.3g d: the reference the others' bias is measured against, keeps %.0f %%", tr.Span, tr.Kept*100)
+		}
 		if !tr.Allowed {
 			t += ", under the floor"
 		}
@@ -521,6 +530,11 @@ func chooseSpan(series []robust.Series, degree int, stretch, dur, gap float64, p
 			ch.Span, why, ch.Noise*1e6, strings.Join(tried, "; ")))
 	}
 	doubt.biased = stretch > 0 && !ch.Negligible
+	for _, tr := range ch.Trials {
+		if tr.Span == ch.Span && tr.Kept < keptShare {
+			doubt.kept = tr.Kept
+		}
+	}
 	return ch.Span, ch.Span, doubt
 }
 
@@ -531,6 +545,9 @@ func chooseSpan(series []robust.Series, degree int, stretch, dur, gap float64, p
 type spanDoubt struct {
 	biased       bool
 	holeVariance float64
+	// kept is the share of an unmasked 2-hour transit's depth the chosen window keeps,
+	// when under keptShare (0 otherwise): see blindCaution.
+	kept float64
 }
 
 // narrowerQuiet is, when the window a masked pass's floor allowed leaves a bias shown to
@@ -553,6 +570,19 @@ func narrowerQuiet(ch robust.SpanChoice, stretch float64) (float64, bool) {
 		}
 	}
 	return best, best > 0
+}
+
+// blindCaution says in plain words, or returns "", when the window chosen from the light
+// curve keeps less than keptShare of an unmasked transit of the reference duration (kept,
+// 0 when it keeps more): the transits longer than the longest it keeps half of are mostly
+// removed with the star, and a search on the light curve cannot find them.
+func blindCaution(span, kept float64, degree int) string {
+	if !(kept > 0) {
+		return ""
+	}
+	long := robust.LongestKept(span, keptShare, degree)
+	return fmt.Sprintf("The %.3g d window chosen keeps %.0f %% of a %.3g-hour transit's depth: transits longer than about %.2g hours keep less than half of theirs and are mostly removed with the star, so this light curve's search is blind to them; the star varies too fast for a wider window.",
+		span, 100*kept, spanReference*24, long*24)
 }
 
 // maskedCaution says in plain words, or returns "", when a masked pass's window, chosen or

@@ -78,6 +78,9 @@ type spun struct {
 	factor [][]float64     // per series, the rotation model at every point (1 where none)
 	info   Rotation
 	doubt  string // a caution for the result: a forced model not shaped like spots
+	// flares and flarePoints are the flares counted and the points set aside as lying in
+	// flares above the model (rotation.Model), points the points fitted.
+	flares, flarePoints, points int
 }
 
 // spinOf decides whether the star's rotation is to be divided out of series before the
@@ -189,6 +192,10 @@ func spinOf(cfg Config, series []robust.Series, gap, dur float64, par parallel.F
 	if m.Dips > 0 {
 		dips = fmt.Sprintf("; %d points in %d stretches lying below it (transits, eclipses) were left out of its fit", m.Dips, m.DipStretches)
 	}
+	if m.FlarePoints > 0 {
+		dips += fmt.Sprintf("; %d points rising above it, in and just after %d flare(s) (%g robust standard deviations above it or more, at their peak %g or more), were set aside before its harmonics were chosen and fitted",
+			m.FlarePoints, m.Flares, rotation.FlareSigma, rotation.FlarePeak)
+	}
 	skipped := ""
 	if n := countFalse(m.Fitted); n > 0 {
 		skipped = fmt.Sprintf("; %d piece(s) of the light curve spanning fewer than %g rotations were left to the window alone", n, rotation.MinCycles)
@@ -200,7 +207,7 @@ func spinOf(cfg Config, series []robust.Series, gap, dur float64, par parallel.F
 	}
 	say("modelled and divided out before the window: %s; %s, and %s%s%s", what, removes, strings.TrimPrefix(shape, "it "), dips, skipped)
 
-	sp := &spun{doubt: doubt, series: make([]robust.Series, len(series)), factor: make([][]float64, len(series)),
+	sp := &spun{doubt: doubt, flares: m.Flares, flarePoints: m.FlarePoints, points: m.Points, series: make([]robust.Series, len(series)), factor: make([][]float64, len(series)),
 		info: Rotation{Period: m.Period, Harmonics: m.Harmonics, KnotSpacing: m.KnotSpacing, Amplitudes: m.Amplitudes,
 			PeakToPeak: m.PeakToPeak, Explained: m.Explained, Noise: noise}}
 	for i, s := range series {
@@ -272,8 +279,12 @@ func (sp *spun) tell(res *Result, notes *[]string) {
 	}
 	msg := fmt.Sprintf("rotation: after the model and the window, the detrended light curve scatters %.2f times what its white noise gives over %.3g hours", info.Excess, spanReference*24)
 	if info.Excess > wellAbove {
-		c := fmt.Sprintf("the light curve still varies well above its white noise after the star's rotation was divided out: over %.3g hours it scatters %.2f times what the white noise gives. The star changes in ways the rotation model does not follow (spots changing within a few rotations, or a second period), so a search on it meets more false alarms than its threshold allows for, and dips near the threshold may be the star's.",
-			spanReference*24, info.Excess)
+		why := "spots changing within a few rotations, or a second period"
+		if sp.flaring() {
+			why = fmt.Sprintf("most likely its flares: %d flares and %d points were set aside from the rotation model's fit, and the smaller flares and the tails of the larger ones remain; or spots changing within a few rotations, or a second period", sp.flares, sp.flarePoints)
+		}
+		c := fmt.Sprintf("the light curve still varies well above its white noise after the star's rotation was divided out: over %.3g hours it scatters %.2f times what the white noise gives. The star changes in ways the rotation model does not follow (%s), so a search on it meets more false alarms than its threshold allows for, and dips near the threshold may be the star's.",
+			spanReference*24, info.Excess, why)
 		if res.Caution != "" {
 			res.Caution += " "
 		}
@@ -281,6 +292,21 @@ func (sp *spun) tell(res *Result, notes *[]string) {
 		msg += "; well above it"
 	}
 	*notes = append(*notes, msg)
+}
+
+// flaringShare is the share of the fitted points set aside as in flares above which, or
+// flaringCount the flares, the run takes flares for the likely cause of an excess scatter:
+// white noise puts 0.13 % of points 3 σ above the model (with their tails a few tenths of
+// a per cent) and no point 5 σ above it (common practice); a flare every two days over a
+// month is a flaring star.
+const (
+	flaringShare = 0.01
+	flaringCount = 10
+)
+
+// flaring says whether many points were set aside as flares.
+func (sp *spun) flaring() bool {
+	return sp.flares >= flaringCount || sp.points > 0 && float64(sp.flarePoints) >= flaringShare*float64(sp.points+sp.flarePoints)
 }
 
 // followDegree is the degree of the local polynomial whose window the decision weighs: the

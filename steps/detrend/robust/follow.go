@@ -48,3 +48,36 @@ func KeepingSpan(d, share float64, degree int) float64 {
 	}
 	return hi
 }
+
+// KeptShare is the share of an unmasked box dip of duration d (days) that the plain local
+// polynomial of the given degree and full width span (days) keeps in the detrended light
+// curve, on evenly sampled data (the equivalent kernel's kept share, as KeepingSpan).
+func KeptShare(span, d float64, degree int) float64 {
+	if !(span > 0) || !(d > 0) {
+		return 1
+	}
+	return kernel(span/2, d/30, degree).kept(d)
+}
+
+// LongestKept is the longest duration (days) of a box dip of which the plain local
+// polynomial of the given degree and full width span keeps at least the given share (0 <
+// share < 1): the inverse of KeepingSpan in the dip's duration, found by bisection to a
+// thousandth of the span. Longer dips keep less. About span/6 for half with a quadratic.
+func LongestKept(span, share float64, degree int) float64 {
+	if !(span > 0) || !(share > 0 && share < 1) {
+		return 0
+	}
+	lo, hi := span/1e3, span
+	if KeptShare(span, lo, degree) < share {
+		return lo
+	}
+	for hi-lo > span/1000 {
+		mid := (lo + hi) / 2
+		if KeptShare(span, mid, degree) >= share {
+			lo = mid
+		} else {
+			hi = mid
+		}
+	}
+	return lo
+}

@@ -91,6 +91,9 @@ type SpanTrial struct {
 	// Quiet is true when the window's bias is not shown to exceed the negligible level
 	// (FollowStar), whether or not the floor allows it.
 	Quiet bool
+	// Reference is true for the narrowest window, against whose trend the others' bias is
+	// measured: its own bias is not measured (it is set to 0), only taken to be smaller.
+	Reference bool
 }
 
 // ShownAbove reports whether the trial's bias is shown to exceed level: by more than
@@ -178,7 +181,7 @@ func ChooseSpan(series []Series, degree int, goal SpanGoal, ref, floor, gapOver 
 		if len(sq) == 0 {
 			continue
 		}
-		tr := SpanTrial{Span: h, Kept: kh.kept(ref), TrendNoise: sigma * math.Sqrt(kh.sumSq()), Allowed: h >= floor}
+		tr := SpanTrial{Span: h, Kept: kh.kept(ref), TrendNoise: sigma * math.Sqrt(kh.sumSq()), Allowed: h >= floor, Reference: k == 0}
 		se := blockError(sq, at, piece, h, trimShare)
 		ms := trimmedMean(sq, trimShare)
 		bias2 := ms/trimSmooth - measured*measured*kh.diffSq(k0)*trimNoise/trimSmooth
