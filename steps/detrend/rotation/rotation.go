@@ -592,7 +592,8 @@ func (f *fitter) evaluate(dst []float64, k int) {
 
 // markFlares sets aside the points in flares from the current model's residuals, afresh,
 // and says whether the set changed: every usable point lying FlareSigma robust standard
-// deviations above the model (the scatter measured on the points not set aside), the
+// deviations above the model (the scatter measured on the points not set aside) and as far
+// above the points just before it (rises), the
 // points after it while the mean of the next flareLook lies flareTail of them above, then
 // flareAfter more, and flareBefore before.
 func (f *fitter) markFlares() bool {
@@ -623,7 +624,7 @@ func (f *fitter) markFlares() bool {
 	}
 	mark := make([]bool, len(idx))
 	for c := 0; c < len(idx); c++ {
-		if r[c] <= FlareSigma*sigma {
+		if r[c] <= FlareSigma*sigma || !rises(r, c, FlareSigma*sigma) {
 			continue
 		}
 		from := max(0, c-flareBefore)
@@ -654,6 +655,19 @@ func (f *fitter) markFlares() bool {
 		f.flare[j] = mark[c]
 	}
 	return changed
+}
+
+// rises tells whether r[c] stands above the level just before it (the median of up to
+// flareLook earlier residuals) by more than by: a flare rises within a cadence or two, while
+// a slow departure of the star from the model (spots the model does not follow, a second
+// period) climbs over hours and is not to be set aside on one side only, which would bend
+// the model under it.
+func rises(r []float64, c int, by float64) bool {
+	if c == 0 {
+		return true
+	}
+	before := append([]float64(nil), r[max(0, c-flareLook):c]...)
+	return r[c]-robust.MedianOf(before) > by
 }
 
 // countFlares returns the points set aside as in flares, and the stretches of them whose

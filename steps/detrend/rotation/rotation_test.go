@@ -308,3 +308,24 @@ func TestFlaresStayOutOfTheModel(t *testing.T) {
 		t.Errorf("%d flares counted", m.Flares)
 	}
 }
+
+// A flare rises within a cadence or two; a slow departure from the model (spots it does not
+// follow) climbs over hours. Only the first may be set aside on one side: setting aside the
+// tops of slow humps bent the model under them, and on a differentially rotating star a
+// real planet's light curve then showed a 5σ "secondary eclipse".
+func TestOnlyASharpRiseIsAFlare(t *testing.T) {
+	const sigma = 1.0
+	hump := make([]float64, 200)
+	for i := range hump {
+		hump[i] = 6 * sigma * math.Sin(math.Pi*float64(i)/float64(len(hump)-1)) // up to 6σ over 200 points
+	}
+	for c := 1; c < len(hump); c++ {
+		if hump[c] > FlareSigma*sigma && rises(hump, c, FlareSigma*sigma) {
+			t.Fatalf("point %d of a slow hump (%.2f σ) is taken for a flare's rise", c, hump[c])
+		}
+	}
+	spike := []float64{0.2, -0.1, 0.3, 4.5, 2.5, 1.2}
+	if !rises(spike, 3, FlareSigma*sigma) {
+		t.Error("a 4.5σ jump from a flat level is not taken for a flare's rise")
+	}
+}
