@@ -115,35 +115,13 @@ func spinOf(cfg Config, series []robust.Series, gap, dur float64, par parallel.F
 		period = *cfg.RotationPeriod
 	}
 	if mode == rotationAuto {
-		rot, found, ok, err := rotation.FindPeriod(pieces)
-		switch {
-		case err != nil:
-			say("not modelled: %v", err)
-			return nil
-		case !ok:
-			say("not modelled: no period stands out in the light curve")
+		rot, ok := tooFastToFollow(cfg, pieces, longest, perTransit, say)
+		if !ok {
 			return nil
 		}
 		if period == 0 {
 			period = rot
 		}
-		deg := followDegree(cfg)
-		w := robust.KeepingSpan(longest, keptShare, deg)
-		var left float64
-		var shown []string
-		for _, p := range found {
-			r := p.Amplitude * robust.Unfollowed(w, p.Period, deg)
-			left += r * r / 2
-			shown = append(shown, fmt.Sprintf("%.4g d (semi-amplitude %.3g %%)", p.Period, 100*p.Amplitude))
-		}
-		left = math.Sqrt(left)
-		if !(left > perTransit) {
-			say("not modelled: the light curve's periods, %s, are slow enough for a window to follow: the %.3g d window that keeps half of a %.3g-hour transit leaves %.0f ppm of them, under the %.0f ppm of white noise over such a transit",
-				strings.Join(shown, ", "), w, longest*24, left*1e6, perTransit*1e6)
-			return nil
-		}
-		say("the light curve's periods, %s, are too fast for a window to follow while keeping a transit: the %.3g d window that keeps half of a %.3g-hour transit leaves %.0f ppm of them, against %.0f ppm of white noise over such a transit",
-			strings.Join(shown, ", "), w, longest*24, left*1e6, perTransit*1e6)
 	}
 	if period == 0 {
 		rot, _, ok, err := rotation.FindPeriod(pieces)
@@ -207,6 +185,46 @@ func spinOf(cfg Config, series []robust.Series, gap, dur float64, par parallel.F
 	}
 	say("modelled and divided out before the window: %s; %s, and %s%s%s", what, removes, strings.TrimPrefix(shape, "it "), dips, skipped)
 
+	return newSpun(m, series, at, noise, doubt)
+}
+
+// tooFastToFollow finds the light curve's strongest period and tells whether the star's
+// periods leave, in the narrowest window that keeps half of a transit of the longest
+// duration, more than perTransit (the white noise over such a transit): only then is a
+// rotation model worth its cost. It says what it found and weighed.
+func tooFastToFollow(cfg Config, pieces []rotation.Series, longest, perTransit float64, say func(string, ...any)) (float64, bool) {
+	rot, found, ok, err := rotation.FindPeriod(pieces)
+	switch {
+	case err != nil:
+		say("not modelled: %v", err)
+		return 0, false
+	case !ok:
+		say("not modelled: no period stands out in the light curve")
+		return 0, false
+	}
+	deg := followDegree(cfg)
+	w := robust.KeepingSpan(longest, keptShare, deg)
+	var left float64
+	var shown []string
+	for _, p := range found {
+		r := p.Amplitude * robust.Unfollowed(w, p.Period, deg)
+		left += r * r / 2
+		shown = append(shown, fmt.Sprintf("%.4g d (semi-amplitude %.3g %%)", p.Period, 100*p.Amplitude))
+	}
+	left = math.Sqrt(left)
+	if !(left > perTransit) {
+		say("not modelled: the light curve's periods, %s, are slow enough for a window to follow: the %.3g d window that keeps half of a %.3g-hour transit leaves %.0f ppm of them, under the %.0f ppm of white noise over such a transit",
+			strings.Join(shown, ", "), w, longest*24, left*1e6, perTransit*1e6)
+		return 0, false
+	}
+	say("the light curve's periods, %s, are too fast for a window to follow while keeping a transit: the %.3g d window that keeps half of a %.3g-hour transit leaves %.0f ppm of them, against %.0f ppm of white noise over such a transit",
+		strings.Join(shown, ", "), w, longest*24, left*1e6, perTransit*1e6)
+	return rot, true
+}
+
+// newSpun divides each series by the fitted model, where it was fitted, keeping the model
+// to restore the star's whole light in the trend.
+func newSpun(m rotation.Model, series []robust.Series, at []piecePlace, noise float64, doubt string) *spun {
 	sp := &spun{doubt: doubt, flares: m.Flares, flarePoints: m.FlarePoints, points: m.Points, series: make([]robust.Series, len(series)), factor: make([][]float64, len(series)),
 		info: Rotation{Period: m.Period, Harmonics: m.Harmonics, KnotSpacing: m.KnotSpacing, Amplitudes: m.Amplitudes,
 			PeakToPeak: m.PeakToPeak, Explained: m.Explained, Noise: noise}}
