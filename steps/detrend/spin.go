@@ -3,7 +3,6 @@ package detrend
 import (
 	"fmt"
 	"math"
-	"sort"
 	"strings"
 
 	"dipline/steps/detrend/robust"
@@ -390,9 +389,7 @@ func medianError(series []robust.Series) float64 {
 	if len(e) == 0 || len(f) == 0 {
 		return 0
 	}
-	sort.Float64s(e)
-	sort.Float64s(f)
-	me, mf := robust.Median(e), robust.Median(f)
+	me, mf := robust.MedianOf(e), robust.MedianOf(f)
 	if !(mf > 0) {
 		return 0
 	}
